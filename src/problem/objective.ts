@@ -1,0 +1,34 @@
+// The one interface every objective implements. A client's objective is
+//   f_i(x) = (1/n_i) sum_{s in shard i} loss(x; a_s, b_s) + (lambda/2) ||x||^2,
+// so that with weights p_i = n_i/n the global f = sum_i p_i f_i is the pooled empirical risk.
+
+import type { Shard } from '../data/shard.js';
+
+export type ProblemKind = 'least-squares' | 'logistic' | 'softmax';
+
+export interface Objective {
+  readonly kind: ProblemKind;
+  /** Length of the parameter vector x (features, or features x classes for softmax). */
+  readonly dim: number;
+  readonly sampleCount: number;
+  /** The L2 coefficient lambda. */
+  readonly regularization: number;
+  loss(x: Float64Array): number;
+  /** out <- grad f(x) over every sample. */
+  gradient(x: Float64Array, out: Float64Array): void;
+  /** out <- grad over the listed samples (mean over them) plus the regularizer's gradient. */
+  minibatchGradient(x: Float64Array, sampleIndices: Uint32Array, out: Float64Array): void;
+  /** out <- H(x) v */
+  hessianVector(x: Float64Array, v: Float64Array, out: Float64Array): void;
+  /** An upper bound on the largest Hessian eigenvalue over all x (exact for least squares). */
+  smoothnessBound(): number;
+  /** A lower bound on the smallest Hessian eigenvalue over all x (exact for least squares). */
+  strongConvexityBound(): number;
+}
+
+export interface ObjectiveSpec {
+  kind: ProblemKind;
+  regularization: number;
+  /** Softmax only: number of classes; labels are integers in [0, classes). */
+  classes?: number;
+}

@@ -1,0 +1,226 @@
+// The scenario's shape, defined here and nowhere else: every other module uses the types
+// inferred from this schema, and scenarios/schema.json is generated from it for editors.
+// Defaults live here too, so that a resolved scenario is always complete and explicit.
+
+import { z } from 'zod';
+
+const positiveInt = z.number().int().positive();
+const nonNegative = z.number().nonnegative();
+const positive = z.number().positive();
+const probability = z.number().min(0).max(1);
+
+/** A count per client: one integer for all, a list (one per client), or a seeded uniform range. */
+export const countSpec = z.union([
+  positiveInt,
+  z.array(positiveInt).min(1),
+  z
+    .object({ uniform: z.tuple([positiveInt, positiveInt]) })
+    .strict()
+    .refine((u) => u.uniform[0] <= u.uniform[1], { message: 'uniform: min must not exceed max' }),
+]);
+export type CountSpec = z.infer<typeof countSpec>;
+
+export const problemSchema = z
+  .object({
+    kind: z.enum(['least-squares', 'logistic', 'softmax']),
+    /** lambda of the L2 term (lambda/2)||x||^2 */
+    regularization: nonNegative.default(1e-3),
+    /** softmax: number of classes */
+    classes: z.number().int().min(2).max(1000).default(3),
+  })
+  .strict();
+
+export const partitionSchema = z.discriminatedUnion('kind', [
+  z.object({ kind: z.literal('iid') }).strict(),
+  z.object({ kind: z.literal('dirichlet'), alpha: positive }).strict(),
+  z.object({ kind: z.literal('shards'), classesPerClient: positiveInt }).strict(),
+  z.object({ kind: z.literal('natural'), key: z.string().min(1) }).strict(),
+]);
+
+export const syntheticDataSchema = z
+  .object({
+    source: z.literal('synthetic'),
+    features: positiveInt.max(100_000).default(20),
+    /** samples per client: quantity skew comes from a list or a range */
+    samplesPerClient: countSpec.default(100),
+    /** spread of the clients' own minimizers around a common centre; 0 gives one common minimizer */
+    minimizerSpread: nonNegative.default(0),
+    /** condition number of the feature covariance (1 = isotropic) */
+    conditionNumber: z.number().min(1).default(1),
+    /** scale of each client's random shift of the feature mean (covariate shift) */
+    covariateShift: nonNegative.default(0),
+    /** standard deviation of target noise (least squares) */
+    noise: nonNegative.default(0.1),
+    /** labelled problems only: how labels are spread over clients */
+    partition: partitionSchema.default({ kind: 'iid' }),
+  })
+  .strict();
+
+export const datasetDataSchema = z
+  .object({
+    source: z.literal('dataset'),
+    /** a data set that an installed package ships */
+    name: z.enum(['iris']),
+    partition: partitionSchema.default({ kind: 'iid' }),
+    /** scale features to zero mean and unit variance before partitioning */
+    standardize: z.boolean().default(true),
+  })
+  .strict();
+
+export const dataSchema = z.discriminatedUnion('source', [syntheticDataSchema, datasetDataSchema]);
+
+export const clientsSchema = z
+  .object({
+    count: positiveInt.max(10_000),
+    /** p_i: by sample count (n_i/n) or uniform (1/m) */
+    weights: z.enum(['samples', 'uniform']).default('samples'),
+  })
+  .strict();
+
+export const gradientSchema = z.union([
+  z.literal('full'),
+  z.object({ minibatch: positiveInt }).strict(),
+]);
+
+export const methodSchema = z
+  .object({
+    name: z.enum(['gd', 'fedavg', 'fedprox', 'fednova', 'scaffold', 'fedlin', 'fedsplit']),
+    /** tau_i: one count, one per client, or a seeded range */
+    localSteps: countSpec.default(1),
+    /** local step size eta; 'auto' uses 1/L of the global objective */
+    stepSize: z.union([positive, z.literal('auto')]).default('auto'),
+    /** fixed eta, or eta/tau_i */
+    stepPolicy: z.enum(['fixed', 'inverse-steps']).default('fixed'),
+    /** eta_g */
+    serverStepSize: positive.default(1),
+    gradient: gradientSchema.default('full'),
+    /** fraction of clients drawn (seeded) to take part in each round */
+    participation: z.number().gt(0).max(1).default(1),
+    /** FedProx proximal coefficient mu_prox */
+    proxCoefficient: nonNegative.default(0.1),
+    /** FedSplit: inner steps solve each prox until the gradient norm is below this, within tau_i */
+    proxTolerance: nonNegative.default(0),
+  })
+  .strict();
+
+export const compressorSchema = z
+  .object({
+    kind: z.enum(['none', 'top-k', 'rand-k']).default('none'),
+    /** keep this fraction of the entries (k = ceil(fraction d)) */
+    fraction: z.number().gt(0).max(1).optional(),
+    /** or keep exactly this many entries */
+    count: positiveInt.optional(),
+    errorFeedback: z.boolean().default(true),
+    /** rand-k only: scale kept entries by d/k (unbiased) or not */
+    unbiased: z.boolean().default(false),
+    /** value width on the wire */
+    values: z.enum(['f64', 'f32']).default('f64'),
+  })
+  .strict()
+  .refine((c) => !(c.fraction !== undefined && c.count !== undefined), {
+    message: 'give either fraction or count, not both',
+  })
+  .refine((c) => c.kind === 'none' || c.fraction !== undefined || c.count !== undefined, {
+    message: 'top-k and rand-k need a fraction or a count',
+  });
+export type CompressorSpec = z.infer<typeof compressorSchema>;
+
+export const channelSchema = z
+  .object({
+    /** the compressor for every field of this direction */
+    default: compressorSchema.default({ kind: 'none', errorFeedback: true, unbiased: false, values: 'f64' }),
+    /** per-field overrides, by field name (e.g. "gradient", "delta") */
+    fields: z.record(z.string(), compressorSchema).default({}),
+  })
+  .strict();
+
+export const compressionSchema = z
+  .object({
+    uplink: channelSchema.default({ default: { kind: 'none', errorFeedback: true, unbiased: false, values: 'f64' }, fields: {} }),
+    downlink: channelSchema.default({ default: { kind: 'none', errorFeedback: true, unbiased: false, values: 'f64' }, fields: {} }),
+  })
+  .strict();
+
+export const slowdownSchema = z.discriminatedUnion('kind', [
+  z.object({ kind: z.literal('constant'), value: z.number().min(1).default(1) }).strict(),
+  z
+    .object({ kind: z.literal('uniform'), min: z.number().min(1), max: z.number().min(1) })
+    .strict()
+    .refine((u) => u.min <= u.max, { message: 'min must not exceed max' }),
+  z.object({ kind: z.literal('lognormal'), sigma: nonNegative }).strict(),
+  z.object({ kind: z.literal('pareto'), shape: positive }).strict(),
+  z.object({ kind: z.literal('two-class'), fraction: probability, factor: z.number().min(1) }).strict(),
+]);
+
+export const roundPolicySchema = z.discriminatedUnion('kind', [
+  z.object({ kind: z.literal('all') }).strict(),
+  z.object({ kind: z.literal('deadline'), budgetSeconds: positive, stepsMax: positiveInt.max(100_000).default(1000) }).strict(),
+  z.object({ kind: z.literal('fastest-k'), k: positiveInt }).strict(),
+]);
+
+export const linkSchema = z
+  .object({
+    uplinkBytesPerSecond: positive.default(1e9),
+    downlinkBytesPerSecond: positive.default(1e9),
+    latencySeconds: nonNegative.default(0),
+  })
+  .strict();
+
+export const timingSchema = z
+  .object({
+    clock: z.enum(['virtual', 'wall']).default('virtual'),
+    /** base cost of one local step; the virtual clock uses it, the wall clock sleeps it */
+    stepCostSeconds: positive.default(0.001),
+    slowdown: slowdownSchema.default({ kind: 'constant', value: 1 }),
+    /** relative per-round jitter of a client's step time (lognormal sigma) */
+    jitter: nonNegative.default(0),
+    /** transient straggler events: per client and round, with this probability, factor times slower */
+    transient: z.object({ probability: probability.default(0), factor: z.number().min(1).default(1) }).strict().default({ probability: 0, factor: 1 }),
+    policy: roundPolicySchema.default({ kind: 'all' }),
+    links: linkSchema.default({ uplinkBytesPerSecond: 1e9, downlinkBytesPerSecond: 1e9, latencySeconds: 0 }),
+  })
+  .strict();
+
+export const runSchema = z
+  .object({
+    rounds: positiveInt.max(1_000_000),
+    /** stop once f(x) - f* is at or below this */
+    target: nonNegative.default(0),
+    /** worker processes for the distributed runtime */
+    workers: positiveInt.max(256).default(2),
+    /** evaluate f(x) - f* every this many rounds */
+    evalEvery: positiveInt.default(1),
+  })
+  .strict();
+
+export const scenarioSchema = z
+  .object({
+    name: z.string().min(1).max(200),
+    description: z.string().max(10_000).optional(),
+    /** every random choice of a run derives from this seed */
+    seed: z.number().int().min(0).max(2 ** 53 - 1),
+    problem: problemSchema,
+    data: dataSchema,
+    clients: clientsSchema,
+    method: methodSchema,
+    compression: compressionSchema.default({
+      uplink: { default: { kind: 'none', errorFeedback: true, unbiased: false, values: 'f64' }, fields: {} },
+      downlink: { default: { kind: 'none', errorFeedback: true, unbiased: false, values: 'f64' }, fields: {} },
+    }),
+    timing: timingSchema.default({
+      clock: 'virtual',
+      stepCostSeconds: 0.001,
+      slowdown: { kind: 'constant', value: 1 },
+      jitter: 0,
+      transient: { probability: 0, factor: 1 },
+      policy: { kind: 'all' },
+      links: { uplinkBytesPerSecond: 1e9, downlinkBytesPerSecond: 1e9, latencySeconds: 0 },
+    }),
+    run: runSchema,
+  })
+  .strict();
+
+/** What a user writes (defaults optional). */
+export type ScenarioInput = z.input<typeof scenarioSchema>;
+/** What everything else sees: complete, validated, defaults filled in. */
+export type Scenario = z.output<typeof scenarioSchema>;
