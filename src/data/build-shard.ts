@@ -1,0 +1,211 @@
+// A client's shard as a pure function of (scenario, client id): any process (the engine, a
+// worker hosting the client, the oracle rebuilding everything) gets the same bytes.
+//
+// Two layouts:
+//   direct  synthetic data with an iid partition: client i draws its own n_i samples from its
+//           own model x_i* and feature mean mu_i, on streams derived from (seed, 'shard', i).
+//           Nothing is shared, so one shard costs only its own samples.
+//   pooled  labelled synthetic data with a non-iid partition, and every data set: one pool
+//           (synthetic: sum_i n_i samples of the common model x0 with mean-zero features, since
+//           per-client models and shifts have no meaning before the split) is partitioned with
+//           the stream (seed, 'partition'); client i takes its part. The heterogeneity then
+//           comes from the partition alone. Pools are cached per data-relevant plan.
+
+import type { Scenario } from '../scenario/schema.js';
+import { featureScales } from './covariance.js';
+import { DataError } from './data-error.js';
+import { loadDataset } from './datasets.js';
+import { partitionPool, type LabelledPool } from './partition.js';
+import { Rng } from './rng.js';
+import { samplesForAllClients, samplesForClient } from './sample-counts.js';
+import type { Shard } from './shard.js';
+import { drawSamples, type SampleModel } from './synthetic.js';
+import { clientFeatureMean, clientMinimizer, parameterDimension, syntheticCentre } from './synthetic-models.js';
+
+type SyntheticData = Extract<Scenario['data'], { source: 'synthetic' }>;
+
+/** Bounds one pool or shard: 25e6 doubles (200 MB). */
+export const DATA_VALUES_MAX = 25_000_000;
+/** Pools kept in memory at once (a process normally needs one plan's pool). */
+export const POOL_CACHE_ENTRIES_MAX = 4;
+
+interface PooledData {
+  featureCount: number;
+  features: Float64Array;
+  targets: Float64Array;
+  parts: Uint32Array[];
+}
+
+const poolCache = new Map<string, PooledData>();
+
+function isDirect(scenario: Scenario): scenario is Scenario & { data: SyntheticData } {
+  return scenario.data.source === 'synthetic' && scenario.data.partition.kind === 'iid';
+}
+
+function checkClientId(scenario: Scenario, clientId: number): void {
+  if (!Number.isInteger(clientId) || clientId < 0 || clientId >= scenario.clients.count) {
+    throw new DataError('E_DATA_SPEC', `client id ${clientId} is outside [0, ${scenario.clients.count})`);
+  }
+}
+
+function checkValueCount(sampleCount: number, featureCount: number): void {
+  if (sampleCount * featureCount > DATA_VALUES_MAX) {
+    throw new DataError(
+      'E_DATA_SPEC',
+      `${sampleCount} samples x ${featureCount} features exceed the bound of ${DATA_VALUES_MAX} values`,
+      'data.samplesPerClient',
+    );
+  }
+}
+
+function classCountOf(scenario: Scenario): number {
+  return scenario.problem.kind === 'softmax' ? scenario.problem.classes : 2;
+}
+
+function featureScalesOf(data: SyntheticData): Float64Array {
+  return featureScales(data.features, data.conditionNumber);
+}
+
+function directShard(scenario: Scenario & { data: SyntheticData }, clientId: number): Shard {
+  const { seed, problem, data } = scenario;
+  const p = data.features;
+  const x0 = syntheticCentre(seed, parameterDimension(problem.kind, p, classCountOf(scenario)));
+  const sampleCount = samplesForClient(data.samplesPerClient, scenario.clients.count, seed, clientId);
+  checkValueCount(sampleCount, p);
+  const model: SampleModel = {
+    kind: problem.kind,
+    featureCount: p,
+    classCount: classCountOf(scenario),
+    featureScales: featureScalesOf(data),
+    featureMean: clientFeatureMean(seed, p, data.covariateShift, clientId),
+    model: clientMinimizer(seed, x0, data.minimizerSpread, clientId),
+    noise: data.noise,
+  };
+  const samples = drawSamples(
+    Rng.derive(seed, 'shard', clientId, 'features'),
+    Rng.derive(seed, 'shard', clientId, 'targets'),
+    model,
+    sampleCount,
+  );
+  return { clientId, ...samples };
+}
+
+function syntheticPool(scenario: Scenario & { data: SyntheticData }): LabelledPool & { features: Float64Array; targets: Float64Array } {
+  const { seed, problem, data } = scenario;
+  if (problem.kind === 'least-squares') {
+    throw new DataError(
+      'E_DATA_SPEC',
+      `data.partition "${data.partition.kind}" splits by label, but least-squares targets are real values; use "iid"`,
+      'data.partition',
+    );
+  }
+  const p = data.features;
+  const total = samplesForAllClients(data.samplesPerClient, scenario.clients.count, seed).reduce((sum, n) => sum + n, 0);
+  checkValueCount(total, p);
+  const model: SampleModel = {
+    kind: problem.kind,
+    featureCount: p,
+    classCount: classCountOf(scenario),
+    featureScales: featureScalesOf(data),
+    featureMean: new Float64Array(p),
+    model: syntheticCentre(seed, parameterDimension(problem.kind, p, classCountOf(scenario))),
+    noise: data.noise,
+  };
+  const samples = drawSamples(Rng.derive(seed, 'pool', 'features'), Rng.derive(seed, 'pool', 'targets'), model, total);
+  return { features: samples.features, targets: samples.targets, labels: samples.targets };
+}
+
+function datasetPool(scenario: Scenario): { featureCount: number; pool: LabelledPool & { features: Float64Array; targets: Float64Array } } {
+  const data = scenario.data;
+  if (data.source !== 'dataset') throw new DataError('E_DATA_SPEC', 'not a data set scenario', 'data.source');
+  const dataset = loadDataset(data.name, { standardize: data.standardize });
+  const classCount = dataset.classNames.length;
+  if (scenario.problem.kind !== 'softmax') {
+    throw new DataError(
+      'E_DATA_SPEC',
+      `data set ${data.name} has ${classCount} classes; problem.kind must be "softmax", got "${scenario.problem.kind}"`,
+      'problem.kind',
+    );
+  }
+  if (scenario.problem.classes !== classCount) {
+    throw new DataError(
+      'E_DATA_SPEC',
+      `data set ${data.name} has ${classCount} classes; problem.classes is ${scenario.problem.classes}`,
+      'problem.classes',
+    );
+  }
+  const pool = { features: dataset.features, targets: dataset.labels, labels: dataset.labels, keys: dataset.keys };
+  return { featureCount: dataset.featureCount, pool };
+}
+
+/** JSON with object keys sorted, so equal plans give equal cache keys whatever their key order. */
+function canonicalJson(value: unknown): string {
+  if (Array.isArray(value)) return `[${value.map(canonicalJson).join(',')}]`;
+  if (value !== null && typeof value === 'object') {
+    const entries = Object.keys(value as Record<string, unknown>)
+      .sort()
+      .map((key) => `${JSON.stringify(key)}:${canonicalJson((value as Record<string, unknown>)[key])}`);
+    return `{${entries.join(',')}}`;
+  }
+  return JSON.stringify(value);
+}
+
+function pooledData(scenario: Scenario): PooledData {
+  const key = canonicalJson({
+    seed: scenario.seed,
+    kind: scenario.problem.kind,
+    classes: scenario.problem.classes,
+    data: scenario.data,
+    clientCount: scenario.clients.count,
+  });
+  const cached = poolCache.get(key);
+  if (cached !== undefined) return cached;
+
+  let featureCount: number;
+  let pool: LabelledPool & { features: Float64Array; targets: Float64Array };
+  if (scenario.data.source === 'synthetic') {
+    featureCount = scenario.data.features;
+    pool = syntheticPool(scenario as Scenario & { data: SyntheticData });
+  } else {
+    ({ featureCount, pool } = datasetPool(scenario));
+  }
+  const parts = partitionPool(pool, scenario.data.partition, scenario.clients.count, Rng.derive(scenario.seed, 'partition'));
+  const entry: PooledData = { featureCount, features: pool.features, targets: pool.targets, parts };
+
+  if (poolCache.size >= POOL_CACHE_ENTRIES_MAX) {
+    const oldest = poolCache.keys().next().value as string;
+    poolCache.delete(oldest);
+  }
+  poolCache.set(key, entry);
+  return entry;
+}
+
+function pooledShard(scenario: Scenario, clientId: number): Shard {
+  const { featureCount: p, features, targets, parts } = pooledData(scenario);
+  const indices = parts[clientId];
+  const shardFeatures = new Float64Array(indices.length * p);
+  const shardTargets = new Float64Array(indices.length);
+  for (let s = 0; s < indices.length; s++) {
+    const source = indices[s];
+    shardFeatures.set(features.subarray(source * p, source * p + p), s * p);
+    shardTargets[s] = targets[source];
+  }
+  return { clientId, sampleCount: indices.length, featureCount: p, features: shardFeatures, targets: shardTargets };
+}
+
+/** Client clientId's shard: the same bytes in every process for the same scenario. */
+export function buildShard(scenario: Scenario, clientId: number): Shard {
+  checkClientId(scenario, clientId);
+  return isDirect(scenario) ? directShard(scenario, clientId) : pooledShard(scenario, clientId);
+}
+
+/** Every client's shard, in client order. */
+export function buildAllShards(scenario: Scenario): Shard[] {
+  return Array.from({ length: scenario.clients.count }, (_, clientId) => buildShard(scenario, clientId));
+}
+
+/** n_i for every client, without building the direct shards. */
+export function sampleCountsOf(scenario: Scenario): number[] {
+  if (isDirect(scenario)) return samplesForAllClients(scenario.data.samplesPerClient, scenario.clients.count, scenario.seed);
+  return pooledData(scenario).parts.map((part) => part.length);
+}

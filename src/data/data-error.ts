@@ -1,0 +1,23 @@
+// Errors raised by the data layer. The code is stable so that a caller (the scenario loader,
+// the CLI, a test) can branch on it; fieldPath names the scenario field at fault when there is
+// one (e.g. "data.samplesPerClient"), and the message names it too.
+
+export type DataErrorCode =
+  /** A random-number request outside its domain (n < 1, shape <= 0, k > n, ...). */
+  | 'E_RNG_ARGUMENT'
+  /** A data specification that cannot be honoured (list length, too few groups, ...). */
+  | 'E_DATA_SPEC'
+  /** A data set that cannot be loaded or does not have the expected shape. */
+  | 'E_DATASET';
+
+export class DataError extends Error {
+  readonly code: DataErrorCode;
+  readonly fieldPath: string | null;
+
+  constructor(code: DataErrorCode, message: string, fieldPath: string | null = null) {
+    super(message);
+    this.name = 'DataError';
+    this.code = code;
+    this.fieldPath = fieldPath;
+  }
+}
