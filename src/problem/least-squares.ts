@@ -1,0 +1,107 @@
+// Ridge least squares on one shard:
+//   f(x) = (1/n) sum_s (1/2)(a_s . x - b_s)^2 + (lambda/2) ||x||^2,
+// with gradient A^T (A x - b) / n + lambda x and the constant Hessian A^T A / n + lambda I.
+// Its curvature bounds are exact: the extreme eigenvalues of that Hessian, computed once on
+// first request.
+
+import type { Shard } from '../data/shard.js';
+import { axpy, normSquared, scale } from '../vec/kernels.js';
+import { gramExtremeEigenvalues, type GramExtremes } from './gram-spectrum.js';
+import type { Objective } from './objective.js';
+import { assertLength } from './problem-error.js';
+import { checkBatch, checkRegularization, checkShard } from './shard-checks.js';
+
+export class LeastSquaresObjective implements Objective {
+  readonly kind = 'least-squares' as const;
+  readonly dim: number;
+  readonly sampleCount: number;
+  readonly regularization: number;
+  private readonly shard: Shard;
+  private gram: GramExtremes | null = null;
+
+  constructor(shard: Shard, regularization: number) {
+    checkShard(shard);
+    checkRegularization(regularization);
+    this.shard = shard;
+    this.dim = shard.featureCount;
+    this.sampleCount = shard.sampleCount;
+    this.regularization = regularization;
+  }
+
+  loss(x: Float64Array): number {
+    assertLength('x', x, this.dim);
+    const { features, targets } = this.shard;
+    const p = this.dim;
+    let sum = 0;
+    for (let s = 0; s < this.sampleCount; s++) {
+      const base = s * p;
+      let residual = -targets[s];
+      for (let j = 0; j < p; j++) residual += features[base + j] * x[j];
+      sum += residual * residual;
+    }
+    return (0.5 * sum) / this.sampleCount + 0.5 * this.regularization * normSquared(x);
+  }
+
+  gradient(x: Float64Array, out: Float64Array): void {
+    this.meanGradient(x, null, this.sampleCount, out);
+  }
+
+  minibatchGradient(x: Float64Array, sampleIndices: Uint32Array, out: Float64Array): void {
+    checkBatch(sampleIndices, this.sampleCount);
+    this.meanGradient(x, sampleIndices, sampleIndices.length, out);
+  }
+
+  /**
+   * out <- mean over the samples (all of them when `sampleIndices` is null) plus lambda x. Full
+   * and minibatch gradients share this loop, so a sorted batch of every index gives the full
+   * gradient bit for bit.
+   */
+  private meanGradient(x: Float64Array, sampleIndices: Uint32Array | null, count: number, out: Float64Array): void {
+    assertLength('x', x, this.dim);
+    assertLength('gradient', out, this.dim);
+    const { features, targets } = this.shard;
+    const p = this.dim;
+    out.fill(0);
+    for (let t = 0; t < count; t++) {
+      const s = sampleIndices === null ? t : sampleIndices[t];
+      const base = s * p;
+      let residual = -targets[s];
+      for (let j = 0; j < p; j++) residual += features[base + j] * x[j];
+      for (let j = 0; j < p; j++) out[j] += residual * features[base + j];
+    }
+    scale(1 / count, out);
+    axpy(this.regularization, x, out);
+  }
+
+  hessianVector(x: Float64Array, v: Float64Array, out: Float64Array): void {
+    assertLength('x', x, this.dim);
+    assertLength('v', v, this.dim);
+    assertLength('out', out, this.dim);
+    const { features } = this.shard;
+    const p = this.dim;
+    out.fill(0);
+    for (let s = 0; s < this.sampleCount; s++) {
+      const base = s * p;
+      let projection = 0;
+      for (let j = 0; j < p; j++) projection += features[base + j] * v[j];
+      for (let j = 0; j < p; j++) out[j] += projection * features[base + j];
+    }
+    scale(1 / this.sampleCount, out);
+    axpy(this.regularization, v, out);
+  }
+
+  /** Exact: lambda_max(A^T A / n) + lambda. */
+  smoothnessBound(): number {
+    return this.gramExtremes().largest + this.regularization;
+  }
+
+  /** Exact: lambda_min(A^T A / n) + lambda (just lambda when n < p). */
+  strongConvexityBound(): number {
+    return this.gramExtremes().smallest + this.regularization;
+  }
+
+  private gramExtremes(): GramExtremes {
+    this.gram ??= gramExtremeEigenvalues(this.shard);
+    return this.gram;
+  }
+}
