@@ -1,0 +1,32 @@
+// The virtual clock: time as the models account it, with no sleeping, so a run is fast and
+// repeats exactly. It only moves forward, by whole rounds (or exchanges).
+
+import { assertFiniteAtLeast } from './errors.js';
+
+export class VirtualClock {
+  /** seconds since the run started */
+  private elapsedSeconds = 0;
+  /**
+   * Neumaier compensation: a million rounds of milliseconds would otherwise lose digits of the
+   * total to rounding, and the total is reported beside rounds and bytes.
+   */
+  private compensationSeconds = 0;
+
+  /** Moves the clock by one round's duration; returns the new time. */
+  advance(roundSeconds: number): number {
+    assertFiniteAtLeast('roundSeconds', roundSeconds, 0);
+    const sum = this.elapsedSeconds + roundSeconds;
+    if (Math.abs(this.elapsedSeconds) >= Math.abs(roundSeconds)) {
+      this.compensationSeconds += this.elapsedSeconds - sum + roundSeconds;
+    } else {
+      this.compensationSeconds += roundSeconds - sum + this.elapsedSeconds;
+    }
+    this.elapsedSeconds = sum;
+    return this.now();
+  }
+
+  /** Virtual seconds since the run started. */
+  now(): number {
+    return this.elapsedSeconds + this.compensationSeconds;
+  }
+}
