@@ -1,0 +1,35 @@
+// Errors a method raises when an input breaks an invariant the method owns. The code is stable
+// so that the engine and the coordinator can branch on the cause (E_NOT_FINITE: a client
+// diverged; E_SEQUENCE: exchanges driven out of order) and tests can assert it.
+
+export type MethodErrorCode =
+  /** a method name the registry does not know */
+  | 'E_UNKNOWN_METHOD'
+  /** an exchange name the method does not have */
+  | 'E_EXCHANGE'
+  /** a MethodConfig value, dimension or client id outside its domain */
+  | 'E_CONFIG'
+  /** a named vector the method needs is absent */
+  | 'E_MISSING_FIELD'
+  /** a vector or an objective whose length is not the state's dimension */
+  | 'E_DIMENSION'
+  /** an upload or initial model with NaN or an infinity */
+  | 'E_NOT_FINITE'
+  /** upload client ids out of range, unsorted or repeated */
+  | 'E_UPLOAD_ORDER'
+  /** an upload weight that is not positive and finite */
+  | 'E_WEIGHT'
+  /** local steps not an integer in [1, LOCAL_STEPS_MAX], or a step size not positive and finite */
+  | 'E_BUDGET'
+  /** an exchange that needs an earlier exchange of the same round, called without it */
+  | 'E_SEQUENCE';
+
+export class MethodError extends Error {
+  readonly code: MethodErrorCode;
+
+  constructor(code: MethodErrorCode, message: string) {
+    super(message);
+    this.name = 'MethodError';
+    this.code = code;
+  }
+}
