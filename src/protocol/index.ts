@@ -1,0 +1,22 @@
+// The protocol's public surface, for the coordinator (server/) and the worker (client/).
+//
+// Sending:   encodeMessage({ type: 'up', ..., fields: { delta: toWire(cv) } })
+// Receiving: const message = receiveMessage(frame, context)  // throws ProtocolError
+//            then fromWire(message.fields.delta) for the typed arrays.
+
+export { createChallengeNonce, proveToken, verifyProof } from './auth.js';
+export { decodeMessage, encodeMessage, NESTING_DEPTH_MAX } from './codec.js';
+export { isProtocolErrorCode, PROTOCOL_ERROR_CODES, ProtocolError, type ProtocolErrorCode } from './errors.js';
+export { frameBytes, frameHeaderBytes } from './framing.js';
+export {
+  frameLimitBytesFor,
+  HANDSHAKE_LIMITS,
+  limitsForPlan,
+  protocolLimitsSchema,
+  type PlanShape,
+  type ProtocolLimits,
+} from './limits.js';
+export * from './messages.js';
+export { receiveMessage } from './receive.js';
+export { validateMessage, type ValidationContext } from './validate.js';
+export { checkWireVector, fromWire, toWire, type ValueWidthBytes, type WireVector } from './wire-vector.js';

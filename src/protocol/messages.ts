@@ -1,0 +1,148 @@
+// Every message the coordinator and a worker exchange, discriminated by `type`. All messages
+// are binary (MessagePack, see codec.ts) and every one that arrives is validated
+// (validate.ts) before use.
+//
+// Conversation:
+//   server -> worker  challenge   on connect: a fresh nonce
+//   worker -> server  hello       HMAC of the nonce under the shared token (auth.ts); the token
+//                                 itself never crosses the wire
+//   server -> worker  welcome     client ids to host, the plan, the limits; or error E_AUTH
+//   then per round, per exchange, per participating client:
+//   server -> worker  down        that client's vectors, tau_i, eta_i, deadline
+//   worker -> server  up          that client's vectors and timings
+//   either way        heartbeat, error
+//   server -> worker  done
+//
+// One down and one up per client, not one per worker: the downlink replicas and tau_i differ
+// per client, each client has its own link model (a sender delays each client's message by
+// that client's latency and bandwidth), and bytes are counted per client at every layer, which
+// a frame shared by several clients could only apportion.
+
+import type { ProtocolErrorCode } from './errors.js';
+import type { ProtocolLimits } from './limits.js';
+import type { WireVector } from './wire-vector.js';
+
+/** Bumped on any change to a message's shape or meaning; peers must match exactly. */
+export const PROTOCOL_VERSION = 1;
+
+/** Bytes of the server's challenge nonce (256 bits: never repeats in practice). */
+export const NONCE_BYTES = 32;
+
+/** Bytes of an HMAC-SHA256 proof. */
+export const PROOF_BYTES = 32;
+
+/**
+ * Exchange and field names: ASCII identifiers, so that they are safe as metric labels and a
+ * name costs one byte a character on the wire.
+ */
+export const NAME_PATTERN = /^[A-Za-z][A-Za-z0-9_.-]*$/;
+export const NAME_LENGTH_MAX = 64;
+
+export const MESSAGE_TYPES = ['challenge', 'hello', 'welcome', 'down', 'up', 'heartbeat', 'error', 'done'] as const;
+export type MessageType = (typeof MESSAGE_TYPES)[number];
+
+export const DONE_REASONS = [
+  /** every planned round ran */
+  'rounds-complete',
+  /** f(x) - f* reached the scenario's target */
+  'target-reached',
+  /** the operator stopped the run */
+  'stopped',
+  /** the run could not go on (a fault the coordinator logged) */
+  'failed',
+] as const;
+export type DoneReason = (typeof DONE_REASONS)[number];
+
+/** Named vectors of one message, by field name (as the method names them). */
+export type WireFields = Record<string, WireVector>;
+
+/** What the plan says vectors look like: exchange name -> field name -> dimension. */
+export type FieldDims = Readonly<Record<string, Readonly<Record<string, number>>>>;
+
+export interface ChallengeMessage {
+  type: 'challenge';
+  protocolVersion: number;
+  /** NONCE_BYTES random bytes, fresh for every connection */
+  nonce: Uint8Array;
+}
+
+export interface HelloMessage {
+  type: 'hello';
+  protocolVersion: number;
+  /** for logs and metric labels; printable, at most limits.maxWorkerNameLength characters */
+  workerName: string;
+  /** how many clients this worker offers to host */
+  slots: number;
+  /** HMAC-SHA256(token, challenge nonce), PROOF_BYTES bytes */
+  proof: Uint8Array;
+}
+
+export interface WelcomeMessage {
+  type: 'welcome';
+  /** ids of the clients this worker hosts, strictly increasing */
+  assignments: number[];
+  /** the resolved scenario as plain data; the worker validates it against the scenario schema */
+  plan: Record<string, unknown>;
+  /** the limits both ends apply from now on (frame size from the plan, heartbeat timing) */
+  limits: ProtocolLimits;
+}
+
+export interface DownMessage {
+  type: 'down';
+  /** 0-based round number */
+  round: number;
+  /** the method's exchange name, e.g. 'local', or 'gradient' then 'local' for FedLin */
+  exchange: string;
+  clientId: number;
+  /** tau_i for this exchange, decided by the timing model before the client starts */
+  localSteps: number;
+  /** eta_i after the step-size policy */
+  stepSize: number;
+  fields: WireFields;
+  /** time the client has from receipt until its up is due; null when the round waits for all */
+  deadlineSeconds: number | null;
+}
+
+export interface UpMessage {
+  type: 'up';
+  round: number;
+  exchange: string;
+  clientId: number;
+  fields: WireFields;
+  /** local steps actually taken (0 for an exchange without local work) */
+  localSteps: number;
+  /** time spent computing, as the speed model accounts it */
+  computeSeconds: number;
+  /** time spent waiting (a straggler's idle time in wall mode, or the model's) */
+  waitSeconds: number;
+  /** time spent on the link model for this client's traffic of the exchange */
+  transferSeconds: number;
+}
+
+export interface HeartbeatMessage {
+  type: 'heartbeat';
+  /** sender's wall clock, for round-trip estimates; never used by results */
+  sentAtMs: number;
+}
+
+export interface ErrorMessage {
+  type: 'error';
+  code: ProtocolErrorCode;
+  /** at most limits.maxErrorMessageLength characters */
+  message: string;
+}
+
+export interface DoneMessage {
+  type: 'done';
+  reason: DoneReason;
+}
+
+export type Message =
+  | ChallengeMessage
+  | HelloMessage
+  | WelcomeMessage
+  | DownMessage
+  | UpMessage
+  | HeartbeatMessage
+  | ErrorMessage
+  | DoneMessage;

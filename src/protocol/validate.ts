@@ -1,0 +1,289 @@
+// Decoded plain data -> a typed message, or a ProtocolError with a stable code and the path of
+// the offending field. Shapes are zod schemas (E_TYPE; E_NOT_FINITE where the wrong value is a
+// NaN or an infinity); what depends on the receiver's state comes after, from the context:
+// the round and exchange in progress (E_ROUND), the clients this connection may name
+// (E_CLIENT), the plan's dimensions (E_DIMENSION), the limits (E_SIZE), the challenge (E_AUTH).
+// Checks run in that order, so a message with several faults always reports the same one.
+
+import { z } from 'zod';
+import { verifyProof } from './auth.js';
+import { PROTOCOL_ERROR_CODES, ProtocolError } from './errors.js';
+import { protocolLimitsSchema, type ProtocolLimits } from './limits.js';
+import {
+  DONE_REASONS,
+  MESSAGE_TYPES,
+  NAME_LENGTH_MAX,
+  NAME_PATTERN,
+  NONCE_BYTES,
+  PROOF_BYTES,
+  PROTOCOL_VERSION,
+  type DownMessage,
+  type FieldDims,
+  type Message,
+  type MessageType,
+  type UpMessage,
+  type WireFields,
+} from './messages.js';
+import { checkWireVector } from './wire-vector.js';
+
+/** What the receiver expects, from its own state. A null member is not checked. */
+export interface ValidationContext {
+  limits: ProtocolLimits;
+  /** types acceptable now, e.g. ['hello'] before the handshake, ['up', 'heartbeat', 'error'] after */
+  expectedTypes: readonly MessageType[];
+  /** the round a down or up must carry (a worker, which cannot know the next round, passes null) */
+  expectedRound: number | null;
+  /** the exchange a down or up must carry; null: any exchange named in fieldDims */
+  expectedExchange: string | null;
+  /** client ids a down or up may name: the worker's assignments, on either end */
+  ownedClientIds: ReadonlySet<number> | null;
+  /** the exact fields, with dimensions, of each exchange's downs (on a worker) or ups (on the server) */
+  fieldDims: FieldDims | null;
+  /** the shared token and the nonce this connection's challenge carried, to check a hello */
+  auth: { token: string | Uint8Array; nonce: Uint8Array } | null;
+}
+
+const bytes = z.instanceof(Uint8Array);
+const count = z.number().int().nonnegative();
+const seconds = z.number().nonnegative();
+
+const wireVectorShape = z.strictObject({
+  dim: z.number(),
+  indices: bytes.nullable(),
+  count: z.number(),
+  values: bytes,
+  width: z.union([z.literal(4), z.literal(8)]),
+});
+const fieldsShape = z.record(z.string(), wireVectorShape);
+
+const shapes = {
+  challenge: z.strictObject({ type: z.literal('challenge'), protocolVersion: count, nonce: bytes }),
+  hello: z.strictObject({
+    type: z.literal('hello'),
+    protocolVersion: count,
+    workerName: z.string(),
+    slots: z.number().int().positive(),
+    proof: bytes,
+  }),
+  welcome: z.strictObject({
+    type: z.literal('welcome'),
+    assignments: z.array(count),
+    plan: z.record(z.string(), z.unknown()),
+    limits: protocolLimitsSchema,
+  }),
+  down: z.strictObject({
+    type: z.literal('down'),
+    round: count,
+    exchange: z.string(),
+    clientId: count,
+    localSteps: z.number().int().positive(),
+    stepSize: z.number().positive(),
+    fields: fieldsShape,
+    deadlineSeconds: z.number().positive().nullable(),
+  }),
+  up: z.strictObject({
+    type: z.literal('up'),
+    round: count,
+    exchange: z.string(),
+    clientId: count,
+    fields: fieldsShape,
+    localSteps: count,
+    computeSeconds: seconds,
+    waitSeconds: seconds,
+    transferSeconds: seconds,
+  }),
+  heartbeat: z.strictObject({ type: z.literal('heartbeat'), sentAtMs: z.number().nonnegative() }),
+  error: z.strictObject({ type: z.literal('error'), code: z.enum(PROTOCOL_ERROR_CODES), message: z.string() }),
+  done: z.strictObject({ type: z.literal('done'), reason: z.enum(DONE_REASONS) }),
+} satisfies Record<MessageType, z.ZodType>;
+
+function formatPath(type: string, path: readonly PropertyKey[]): string {
+  let out = type;
+  for (const key of path) out += typeof key === 'number' ? `[${key}]` : `.${String(key)}`;
+  return out;
+}
+
+function valueAt(raw: unknown, path: readonly PropertyKey[]): unknown {
+  let value = raw;
+  for (const key of path) {
+    if (value === null || typeof value !== 'object' || !Object.hasOwn(value, key)) return undefined;
+    value = (value as Record<PropertyKey, unknown>)[key];
+  }
+  return value;
+}
+
+function parseShape<T>(schema: z.ZodType<T>, raw: Record<string, unknown>, type: string): T {
+  const result = schema.safeParse(raw);
+  if (result.success) return result.data;
+  const issue = result.error.issues[0];
+  const value = valueAt(raw, issue.path);
+  const code = typeof value === 'number' && !Number.isFinite(value) ? 'E_NOT_FINITE' : 'E_TYPE';
+  throw new ProtocolError(code, `${formatPath(type, issue.path)}: ${issue.message}`);
+}
+
+function checkName(name: string, path: string): void {
+  if (name.length > NAME_LENGTH_MAX) {
+    throw new ProtocolError('E_SIZE', `${path}: ${name.length} characters, at most ${NAME_LENGTH_MAX}`);
+  }
+  if (!NAME_PATTERN.test(name)) {
+    throw new ProtocolError('E_TYPE', `${path}: "${name}" is not a name (letters, digits, '_', '.', '-', first a letter)`);
+  }
+}
+
+function checkFields(fields: WireFields, expected: Readonly<Record<string, number>> | null, type: string, limits: ProtocolLimits): void {
+  const names = Object.keys(fields);
+  if (names.length > limits.maxFieldsPerMessage) {
+    throw new ProtocolError('E_SIZE', `${type}.fields: ${names.length} fields, at most ${limits.maxFieldsPerMessage}`);
+  }
+  for (const name of names) checkName(name, `${type}.fields`);
+  if (expected !== null) {
+    for (const name of names) {
+      if (!Object.hasOwn(expected, name)) {
+        throw new ProtocolError('E_TYPE', `${type}.fields.${name}: not a field of this exchange (expected ${Object.keys(expected).join(', ')})`);
+      }
+    }
+    for (const name of Object.keys(expected)) {
+      if (!Object.hasOwn(fields, name)) throw new ProtocolError('E_TYPE', `${type}.fields.${name}: missing`);
+    }
+  }
+  for (const name of names) {
+    const path = `${type}.fields.${name}`;
+    const vector = fields[name];
+    if (vector.dim > limits.maxVectorDim) {
+      throw new ProtocolError('E_SIZE', `${path}.dim: ${vector.dim} exceeds the limit of ${limits.maxVectorDim}`);
+    }
+    if (expected !== null && vector.dim !== expected[name]) {
+      throw new ProtocolError('E_DIMENSION', `${path}.dim: the plan says ${expected[name]}, got ${vector.dim}`);
+    }
+    checkWireVector(vector, path);
+  }
+}
+
+function checkRoundTraffic(message: DownMessage | UpMessage, context: ValidationContext): void {
+  const { type, round, exchange, clientId } = message;
+  checkName(exchange, `${type}.exchange`);
+  if (context.expectedRound !== null && round !== context.expectedRound) {
+    throw new ProtocolError('E_ROUND', `${type}.round: expected round ${context.expectedRound}, got ${round}`);
+  }
+  if (context.expectedExchange !== null && exchange !== context.expectedExchange) {
+    throw new ProtocolError('E_ROUND', `${type}.exchange: expected "${context.expectedExchange}", got "${exchange}"`);
+  }
+  if (context.fieldDims !== null && !Object.hasOwn(context.fieldDims, exchange)) {
+    throw new ProtocolError('E_ROUND', `${type}.exchange: "${exchange}" is not an exchange of this method`);
+  }
+  if (context.ownedClientIds !== null && !context.ownedClientIds.has(clientId)) {
+    throw new ProtocolError('E_CLIENT', `${type}.clientId: client ${clientId} is not hosted by this worker`);
+  }
+  const expected = context.fieldDims === null ? null : context.fieldDims[exchange];
+  checkFields(message.fields, expected, type, context.limits);
+}
+
+// Control characters would let a name forge log lines or break metric labels.
+const CONTROL_CHARACTER = /\p{Cc}/u;
+
+function checkHello(message: z.output<typeof shapes.hello>, context: ValidationContext): void {
+  const { workerName, slots, proof } = message;
+  const { limits, auth } = context;
+  if (workerName.length === 0 || CONTROL_CHARACTER.test(workerName)) {
+    throw new ProtocolError('E_TYPE', 'hello.workerName: must be non-empty and printable');
+  }
+  if (workerName.length > limits.maxWorkerNameLength) {
+    throw new ProtocolError('E_SIZE', `hello.workerName: ${workerName.length} characters, at most ${limits.maxWorkerNameLength}`);
+  }
+  if (slots > limits.maxClientsPerWorker) {
+    throw new ProtocolError('E_SIZE', `hello.slots: ${slots}, at most ${limits.maxClientsPerWorker}`);
+  }
+  if (proof.length !== PROOF_BYTES) {
+    throw new ProtocolError('E_TYPE', `hello.proof: ${PROOF_BYTES} bytes expected, got ${proof.length}`);
+  }
+  if (auth !== null && !verifyProof(auth.token, auth.nonce, proof)) {
+    throw new ProtocolError('E_AUTH', 'hello.proof: does not answer this connection\'s challenge under the shared token');
+  }
+}
+
+function checkWelcome(message: z.output<typeof shapes.welcome>, limits: ProtocolLimits): void {
+  const { assignments } = message;
+  if (assignments.length > limits.maxClientsPerWorker) {
+    throw new ProtocolError('E_SIZE', `welcome.assignments: ${assignments.length} clients, at most ${limits.maxClientsPerWorker}`);
+  }
+  for (let i = 1; i < assignments.length; i++) {
+    if (assignments[i] <= assignments[i - 1]) {
+      throw new ProtocolError('E_TYPE', `welcome.assignments[${i}]: client ids must be strictly increasing`);
+    }
+  }
+}
+
+function checkVersion(raw: Record<string, unknown>, type: string): void {
+  // Before the shape: a peer of another version may send another shape, and should hear why.
+  const version = raw.protocolVersion;
+  if (typeof version === 'number' && version !== PROTOCOL_VERSION) {
+    throw new ProtocolError('E_VERSION', `${type}.protocolVersion: this end speaks ${PROTOCOL_VERSION}, the peer ${version}`);
+  }
+}
+
+/** A peer's value for an error text, cut short: the text goes back to the peer and into logs. */
+function quote(value: unknown): string {
+  const text = typeof value === 'string' ? JSON.stringify(value) : String(value);
+  return text.length > NAME_LENGTH_MAX ? `${text.slice(0, NAME_LENGTH_MAX)}...` : text;
+}
+
+function isMessageType(value: unknown): value is MessageType {
+  return typeof value === 'string' && (MESSAGE_TYPES as readonly string[]).includes(value);
+}
+
+/** Plain data (from decodeMessage) -> a message this receiver may use now. Throws ProtocolError. */
+export function validateMessage(raw: unknown, context: ValidationContext): Message {
+  if (raw === null || typeof raw !== 'object' || Array.isArray(raw) || raw instanceof Uint8Array) {
+    throw new ProtocolError('E_TYPE', 'message: expected a map with a "type"');
+  }
+  const record = raw as Record<string, unknown>;
+  const type = record.type;
+  if (!isMessageType(type)) {
+    throw new ProtocolError('E_TYPE', `type: unknown message type ${quote(type)}`);
+  }
+  if (!context.expectedTypes.includes(type)) {
+    throw new ProtocolError('E_TYPE', `type: "${type}" is not expected now (expected ${context.expectedTypes.join(', ')})`);
+  }
+  switch (type) {
+    case 'challenge': {
+      checkVersion(record, type);
+      const message = parseShape(shapes.challenge, record, type);
+      if (message.nonce.length !== NONCE_BYTES) {
+        throw new ProtocolError('E_TYPE', `challenge.nonce: ${NONCE_BYTES} bytes expected, got ${message.nonce.length}`);
+      }
+      return message;
+    }
+    case 'hello': {
+      checkVersion(record, type);
+      const message = parseShape(shapes.hello, record, type);
+      checkHello(message, context);
+      return message;
+    }
+    case 'welcome': {
+      const message = parseShape(shapes.welcome, record, type);
+      checkWelcome(message, context.limits);
+      return message;
+    }
+    case 'down': {
+      const message = parseShape(shapes.down, record, type);
+      checkRoundTraffic(message, context);
+      return message;
+    }
+    case 'up': {
+      const message = parseShape(shapes.up, record, type);
+      checkRoundTraffic(message, context);
+      return message;
+    }
+    case 'error': {
+      const message = parseShape(shapes.error, record, type);
+      if (message.message.length > context.limits.maxErrorMessageLength) {
+        throw new ProtocolError('E_SIZE', `error.message: ${message.message.length} characters, at most ${context.limits.maxErrorMessageLength}`);
+      }
+      return message;
+    }
+    case 'heartbeat':
+      return parseShape(shapes.heartbeat, record, type);
+    case 'done':
+      return parseShape(shapes.done, record, type);
+  }
+}
