@@ -1,0 +1,102 @@
+// The composition root: the command line (commander) wires the core, the coordinator and the
+// worker together. The only file in src/ that may import server/ or client/.
+
+import { Command, CommanderError, Option } from 'commander';
+import { writeFileSync } from 'node:fs';
+import { loadScenarioFile } from './scenario/load-scenario.js';
+import { ScenarioError } from './scenario/scenario-error.js';
+import { scenarioJsonSchema } from './scenario/json-schema.js';
+import { DataError } from './data/data-error.js';
+import { TimingError } from './timing/errors.js';
+import { exitCodes, exitCodesHelp } from './commands/exit-codes.js';
+import { formatTheoryReport, theoryReport } from './commands/theory-command.js';
+import { writeShards } from './commands/shards-command.js';
+
+/** An input problem found by a command itself (not by the scenario schema). */
+export class UsageError extends Error {
+  readonly code = 'E_USAGE';
+}
+
+function collect(value: string, previous: string[]): string[] {
+  return [...previous, value];
+}
+
+const setOption = new Option('--set <path=value>', 'override a scenario field, e.g. --set method.localSteps=10 (repeatable)')
+  .argParser(collect)
+  .default([] as string[]);
+
+interface Io {
+  out: (text: string) => void;
+  err: (text: string) => void;
+}
+
+function buildProgram(io: Io): Command {
+  const program = new Command('roundwire')
+    .description('A testbed for federated optimization: real rounds over WebSockets, injected stragglers, counted bytes, theory beside measurement.')
+    .version('0.1.0')
+    .configureOutput({ writeOut: io.out, writeErr: io.err })
+    .addHelpText('after', exitCodesHelp)
+    .exitOverride()
+    .showHelpAfterError('(add --help for usage)');
+
+  program
+    .command('theory')
+    .description("solve the scenario's problem with the oracle and print x*'s certificate and the constants (L, mu, heterogeneity)")
+    .argument('<scenario>', 'scenario file (YAML or JSON)')
+    .addOption(setOption)
+    .option('--json', 'print JSON instead of a table')
+    .addHelpText('after', exitCodesHelp)
+    .action((file: string, opts: { set: string[]; json?: boolean }) => {
+      const report = theoryReport(loadScenarioFile(file, opts.set));
+      io.out(opts.json ? `${JSON.stringify(report, null, 2)}\n` : formatTheoryReport(report));
+    });
+
+  program
+    .command('shards')
+    .description("write every client's shard as CSV (features, then target), one file per client")
+    .argument('<scenario>', 'scenario file (YAML or JSON)')
+    .requiredOption('--out <dir>', 'folder to write client-NNN.csv files into')
+    .addOption(setOption)
+    .addHelpText('after', exitCodesHelp)
+    .action((file: string, opts: { set: string[]; out: string }) => {
+      const files = writeShards(loadScenarioFile(file, opts.set), opts.out);
+      io.out(`wrote ${files.length} shards to ${opts.out}\n`);
+    });
+
+  program
+    .command('schema')
+    .description('print the scenario JSON Schema (for editors), or write it with --out')
+    .option('--out <file>', 'write to this file instead of standard output')
+    .addHelpText('after', exitCodesHelp)
+    .action((opts: { out?: string }) => {
+      const text = `${JSON.stringify(scenarioJsonSchema(), null, 2)}\n`;
+      if (opts.out) writeFileSync(opts.out, text);
+      else io.out(text);
+    });
+
+  return program;
+}
+
+function isBadInput(error: unknown): error is Error {
+  return error instanceof ScenarioError || error instanceof DataError || error instanceof TimingError || error instanceof UsageError;
+}
+
+/** Runs the command line; resolves to the process exit code. */
+export async function main(argv: string[], io: Io = { out: (t) => process.stdout.write(t), err: (t) => process.stderr.write(t) }): Promise<number> {
+  const program = buildProgram(io);
+  try {
+    await program.parseAsync(argv);
+    return exitCodes.ok;
+  } catch (error) {
+    if (error instanceof CommanderError) {
+      if (error.code === 'commander.helpDisplayed' || error.code === 'commander.help' || error.code === 'commander.version') return exitCodes.ok;
+      return exitCodes.badInput;
+    }
+    if (isBadInput(error)) {
+      io.err(`roundwire: ${error.message}\n`);
+      return exitCodes.badInput;
+    }
+    io.err(`roundwire: ${error instanceof Error ? (error.stack ?? error.message) : String(error)}\n`);
+    return exitCodes.failure;
+  }
+}

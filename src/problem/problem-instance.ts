@@ -1,0 +1,50 @@
+// Every client's objective and weight for a scenario, built from the shards that the plan
+// determines. The testbed's oracle and the in-process engine see all clients; a worker builds
+// only the clients it hosts (clientObjective).
+
+import type { Scenario } from '../scenario/schema.js';
+import { buildAllShards, buildShard } from '../data/build-shard.js';
+import { createObjective } from './create-objective.js';
+import type { Objective, ObjectiveSpec } from './objective.js';
+import { WeightedSumObjective } from './weighted-sum.js';
+
+export interface ProblemInstance {
+  dim: number;
+  objectives: Objective[];
+  /** p_i, summing to 1 */
+  weights: Float64Array;
+  sampleCounts: number[];
+  /** f = sum_i p_i f_i */
+  global: Objective;
+}
+
+export function objectiveSpecOf(scenario: Scenario): ObjectiveSpec {
+  return { kind: scenario.problem.kind, regularization: scenario.problem.regularization, classes: scenario.problem.classes };
+}
+
+/** p_i: by sample count (n_i / n) or uniform (1/m), as the scenario says. */
+export function clientWeights(scenario: Scenario, sampleCounts: readonly number[]): Float64Array {
+  const m = sampleCounts.length;
+  const weights = new Float64Array(m);
+  if (scenario.clients.weights === 'uniform') {
+    weights.fill(1 / m);
+    return weights;
+  }
+  let total = 0;
+  for (const n of sampleCounts) total += n;
+  for (let i = 0; i < m; i++) weights[i] = sampleCounts[i] / total;
+  return weights;
+}
+
+export function clientObjective(scenario: Scenario, clientId: number): Objective {
+  return createObjective(objectiveSpecOf(scenario), buildShard(scenario, clientId));
+}
+
+export function buildProblemInstance(scenario: Scenario): ProblemInstance {
+  const spec = objectiveSpecOf(scenario);
+  const shards = buildAllShards(scenario);
+  const objectives = shards.map((shard) => createObjective(spec, shard));
+  const sampleCounts = shards.map((s) => s.sampleCount);
+  const weights = clientWeights(scenario, sampleCounts);
+  return { dim: objectives[0].dim, objectives, weights, sampleCounts, global: new WeightedSumObjective(objectives, weights) };
+}
