@@ -182,5 +182,6 @@ export const fedsplit: Method<FedSplitServerState, FedSplitClientState> = {
     }
     for (let j = 0; j < x.length; j++) x[j] += step[j];
   },
+  stepsTaken: (client) => client.innerStepsTaken,
   model: (server) => server.model,
 };

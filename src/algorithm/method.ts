@@ -52,7 +52,10 @@ export interface Upload {
 
 export interface Method<ServerState = unknown, ClientState = unknown> {
   readonly name: MethodName;
-  /** e.g. ["local"], or ["gradient", "local"] for FedLin */
+  /**
+   * e.g. ["local"], or ["gradient", "local"] for FedLin. The last exchange is the one where a
+   * client spends its tau_i local steps; an earlier exchange costs one gradient evaluation.
+   */
   readonly exchanges: readonly string[];
   initServer(dim: number, cfg: MethodConfig, initialModel: Float64Array): ServerState;
   initClient(dim: number, cfg: MethodConfig, clientId: number): ClientState;
@@ -62,6 +65,11 @@ export interface Method<ServerState = unknown, ClientState = unknown> {
   work(client: ClientState, objective: Objective, down: Fields, budget: Budget, exchange: string): Fields;
   /** Folds the (decompressed) uploads into the server state; uploads arrive sorted by client id. */
   aggregate(server: ServerState, uploads: Upload[], exchange: string): void;
+  /**
+   * Local steps the last `work` call actually took, where a method may stop early (FedSplit's
+   * inexact prox); absent means the budget's tau_i was spent in full.
+   */
+  stepsTaken?(client: ClientState): number;
   /** The current server model x (a view; copy before keeping). */
   model(server: ServerState): Float64Array;
 }

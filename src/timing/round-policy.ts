@@ -28,6 +28,8 @@ export interface RoundParticipant {
   readonly stepSeconds: number;
   /** tau_i of the plan */
   readonly plannedSteps: number;
+  /** steps the client actually took, when known (a method may stop early); else the policy decides */
+  readonly stepsTaken?: number;
   /** bytes the server sends this client in this exchange */
   readonly downBytes: number;
   /** bytes this client sends back (after compression; expected, if it varies) */
@@ -63,9 +65,16 @@ export interface RoundTiming {
  */
 const quotientSlack = 1e-9;
 
-function deadlineSteps(availableSeconds: number, stepSeconds: number, stepsMax: number): number {
-  const fitting = Math.floor((availableSeconds / stepSeconds) * (1 + quotientSlack));
-  return Math.min(stepsMax, Math.max(1, fitting));
+/**
+ * tau_i for a client before it starts. Under a deadline the budget covers local compute only
+ * (tau_i = max(1, floor(budget / step time)), capped at stepsMax), so that tau_i, and with it a
+ * step size eta/tau_i, is known before any byte moves; transfer time adds to the round's length.
+ * Other policies keep the plan's tau_i.
+ */
+export function stepsUnderPolicy(policy: RoundPolicy, stepSeconds: number, plannedSteps: number): number {
+  if (policy.kind !== 'deadline') return plannedSteps;
+  const fitting = Math.floor((policy.budgetSeconds / stepSeconds) * (1 + quotientSlack));
+  return Math.min(policy.stepsMax, Math.max(1, fitting));
 }
 
 function checkParticipants(participants: readonly RoundParticipant[]): void {
@@ -93,10 +102,7 @@ export function decideRound(policy: RoundPolicy, link: LinkModel, participants: 
     const p = participants[j];
     downSeconds[j] = downlinkSecondsFor(link, p.downBytes);
     upSeconds[j] = uplinkSecondsFor(link, p.upBytes);
-    localSteps[j] =
-      policy.kind === 'deadline'
-        ? deadlineSteps(policy.budgetSeconds - downSeconds[j] - upSeconds[j], p.stepSeconds, policy.stepsMax)
-        : p.plannedSteps;
+    localSteps[j] = p.stepsTaken ?? stepsUnderPolicy(policy, p.stepSeconds, p.plannedSteps);
     finishSeconds[j] = downSeconds[j] + localSteps[j] * p.stepSeconds + upSeconds[j];
   }
 

@@ -36,17 +36,18 @@ describe('decideRound: all', () => {
 });
 
 describe('decideRound: deadline', () => {
-  it('fits floor((budget - transfer) / step) steps, at least 1 and at most stepsMax', () => {
+  it('fits floor(budget / step) steps of compute, at least 1 and at most stepsMax', () => {
     const policy: RoundPolicy = { kind: 'deadline', budgetSeconds: 10, stepsMax: 16 };
-    // transfer 1.25 + 0.75 = 2 s, so 8 s of compute
+    // the budget is compute only (the design's tau_i = max(1, floor(budget / step time)));
+    // transfer (1.25 + 0.75 = 2 s here) lengthens the round but does not shrink tau_i
     const participants = [
-      participant(0, 1, 99, 1024, 512), // 8 steps
-      participant(1, 3, 99, 1024, 512), // floor(8/3) = 2
+      participant(0, 1, 99, 1024, 512), // 10 steps
+      participant(1, 3, 99, 1024, 512), // floor(10/3) = 3
       participant(2, 100, 99, 1024, 512), // none fit: 1
-      participant(3, 0.0625, 99, 1024, 512), // 128 fit: capped at 16
+      participant(3, 0.0625, 99, 1024, 512), // 160 fit: capped at 16
     ];
     const timing = decideRound(policy, slowLink, participants);
-    expect(timing.participants.map((p) => p.localSteps)).toEqual([8, 2, 1, 16]);
+    expect(timing.participants.map((p) => p.localSteps)).toEqual([10, 3, 1, 16]);
     // The slow client's single step overruns the budget; the round waits for it.
     expect(timing.roundSeconds).toBe(2 + 100);
     expect(timing.participants.some((p) => p.dropped)).toBe(false);

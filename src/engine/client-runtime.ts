@@ -1,0 +1,63 @@
+// One simulated client: its objective, its method state, its minibatch stream and both ends of
+// its compression channels that live on the client (uplink error feedback, downlink replicas).
+// The in-process engine and the worker process run this very class, which is what makes their
+// models equal bit for bit.
+
+import type { Budget, Method, MinibatchSampler } from '../algorithm/method.js';
+import { methodByName } from '../algorithm/registry.js';
+import type { Objective } from '../problem/objective.js';
+import { UniformMinibatchSampler } from '../problem/minibatch-sampler.js';
+import { UplinkEncoder } from '../compress/uplink.js';
+import { DownlinkDecoder } from '../compress/downlink.js';
+import type { CompressedVector } from '../compress/compressed-vector.js';
+import type { WirePlan } from './run-plan.js';
+import { minibatchRng, uplinkRngFor } from './seeded-streams.js';
+
+export type EncodedFields = Record<string, CompressedVector>;
+
+export interface ClientWorkResult {
+  encodedUp: EncodedFields;
+  /** local steps actually taken (tau_i, or fewer where the method stops early) */
+  stepsTaken: number;
+}
+
+export class ClientRuntime {
+  readonly clientId: number;
+  private readonly plan: WirePlan;
+  private readonly method: Method;
+  private readonly objective: Objective;
+  private readonly state: unknown;
+  private readonly uplink: UplinkEncoder;
+  private readonly downlink: DownlinkDecoder;
+
+  constructor(plan: WirePlan, clientId: number, objective: Objective) {
+    this.plan = plan;
+    this.clientId = clientId;
+    this.method = methodByName(plan.scenario.method.name);
+    this.objective = objective;
+    this.state = this.method.initClient(plan.dim, plan.methodConfig, clientId);
+    this.uplink = new UplinkEncoder(plan.scenario.compression.uplink);
+    this.downlink = new DownlinkDecoder(plan.scenario.compression.downlink);
+  }
+
+  private samplerFor(round: number, exchange: string): MinibatchSampler | null {
+    const gradient = this.plan.scenario.method.gradient;
+    if (gradient === 'full') return null;
+    return new UniformMinibatchSampler(minibatchRng(this.plan.scenario.seed, this.clientId, round, exchange), this.objective.sampleCount, gradient.minibatch);
+  }
+
+  /** Decodes what came down, does the exchange's work and encodes what goes up. */
+  work(round: number, exchange: string, encodedDown: EncodedFields, localSteps: number, stepSize: number): ClientWorkResult {
+    const down = this.downlink.decode(encodedDown);
+    const budget: Budget = { localSteps, stepSize, sampler: this.samplerFor(round, exchange) };
+    const up = this.method.work(this.state, this.objective, down, budget, exchange);
+    const stepsTaken = this.method.stepsTaken ? this.method.stepsTaken(this.state) : localSteps;
+    const encodedUp = this.uplink.encode(up, uplinkRngFor(this.plan.scenario.seed, this.clientId, round, exchange));
+    return { encodedUp, stepsTaken };
+  }
+
+  /** The method state (plain data), for the theory's round map. */
+  methodState(): unknown {
+    return this.state;
+  }
+}

@@ -1,0 +1,57 @@
+// The resolved plan of a run: the scenario plus every number that follows from it and that
+// both ends must agree on. The coordinator sends the wire part (scenario, method settings,
+// dimension) to workers in the welcome; everything else any process rebuilds from the seed.
+
+import type { Scenario } from '../scenario/schema.js';
+import type { MethodConfig } from '../algorithm/method.js';
+import { hashOf } from '../scenario/plan-hash.js';
+import { localStepsFor } from '../timing/local-steps.js';
+
+/** What a worker needs to host clients: JSON-able, sent in the welcome message. */
+export interface WirePlan {
+  scenario: Scenario;
+  methodConfig: MethodConfig;
+  dim: number;
+}
+
+export interface RunPlan extends WirePlan {
+  planHash: string;
+  clientCount: number;
+  /** tau_i of the plan (a round policy may change it per round) */
+  plannedSteps: Int32Array;
+  /** p_i, summing to 1 */
+  weights: Float64Array;
+}
+
+/** What the plan needs from the problem: its dimension, weights and smoothness L of f. */
+export interface PlanProblemFacts {
+  dim: number;
+  weights: Float64Array;
+  smoothness: number;
+}
+
+/** 'auto' resolves to eta = 1/L of the global objective (the classical safe step for gradient descent). */
+export function resolveStepSize(scenario: Scenario, smoothness: number): number {
+  return scenario.method.stepSize === 'auto' ? 1 / smoothness : scenario.method.stepSize;
+}
+
+export function methodConfigFor(scenario: Scenario, smoothness: number): MethodConfig {
+  return {
+    clientCount: scenario.clients.count,
+    stepSize: resolveStepSize(scenario, smoothness),
+    serverStepSize: scenario.method.serverStepSize,
+    proxCoefficient: scenario.method.proxCoefficient,
+    proxTolerance: scenario.method.proxTolerance,
+  };
+}
+
+export function resolveRunPlan(scenario: Scenario, facts: PlanProblemFacts): RunPlan {
+  const wire: WirePlan = { scenario, methodConfig: methodConfigFor(scenario, facts.smoothness), dim: facts.dim };
+  return {
+    ...wire,
+    planHash: hashOf(wire),
+    clientCount: scenario.clients.count,
+    plannedSteps: localStepsFor(scenario.method.localSteps, scenario.clients.count, scenario.seed),
+    weights: facts.weights,
+  };
+}

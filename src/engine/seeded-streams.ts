@@ -1,0 +1,17 @@
+// Every random stream of a run, named in one place, so that the engine, the coordinator and the
+// workers draw exactly the same numbers for the same (round, exchange, client, field).
+
+import { Rng } from '../data/rng.js';
+import type { RngForField } from '../compress/channel.js';
+
+export function minibatchRng(seed: number, clientId: number, round: number, exchange: string): Rng {
+  return Rng.derive(seed, 'minibatch', clientId, round, exchange);
+}
+
+export function uplinkRngFor(seed: number, clientId: number, round: number, exchange: string): RngForField {
+  return (field) => Rng.derive(seed, 'compress-up', clientId, round, exchange, field);
+}
+
+export function downlinkRngFor(seed: number, clientId: number, round: number, exchange: string): RngForField {
+  return (field) => Rng.derive(seed, 'compress-down', clientId, round, exchange, field);
+}

@@ -1,0 +1,58 @@
+// The server side of a run: the method's server state and one downlink encoder per client
+// (each client's replica differs once rounds are skipped or compressed). The in-process engine
+// and the coordinator both drive it.
+
+import type { Fields, Method, Upload } from '../algorithm/method.js';
+import { methodByName } from '../algorithm/registry.js';
+import { DownlinkEncoder } from '../compress/downlink.js';
+import { decodeFields } from '../compress/uplink.js';
+import type { EncodedFields } from './client-runtime.js';
+import type { RunPlan } from './run-plan.js';
+import { downlinkRngFor } from './seeded-streams.js';
+
+export interface EncodedUpload {
+  clientId: number;
+  stepsTaken: number;
+  stepSize: number;
+  encodedUp: EncodedFields;
+}
+
+export class ServerRuntime {
+  readonly method: Method;
+  private readonly plan: RunPlan;
+  private readonly state: unknown;
+  private readonly downlinks: DownlinkEncoder[];
+
+  constructor(plan: RunPlan, initialModel: Float64Array = new Float64Array(plan.dim)) {
+    this.plan = plan;
+    this.method = methodByName(plan.scenario.method.name);
+    this.state = this.method.initServer(plan.dim, plan.methodConfig, initialModel);
+    this.downlinks = Array.from({ length: plan.clientCount }, () => new DownlinkEncoder(plan.scenario.compression.downlink));
+  }
+
+  broadcast(exchange: string): Fields {
+    return this.method.broadcast(this.state, exchange);
+  }
+
+  /** The message for one client; advances that client's downlink replicas. */
+  encodeDown(clientId: number, round: number, exchange: string, fields: Fields): EncodedFields {
+    return this.downlinks[clientId].encode(fields, downlinkRngFor(this.plan.scenario.seed, clientId, round, exchange));
+  }
+
+  /** Folds the counted uploads into the server state, in ascending client id whatever the arrival order. */
+  aggregate(exchange: string, uploads: readonly EncodedUpload[]): void {
+    const decoded: Upload[] = [...uploads]
+      .sort((a, b) => a.clientId - b.clientId)
+      .map((u) => ({ clientId: u.clientId, weight: this.plan.weights[u.clientId], localSteps: u.stepsTaken, stepSize: u.stepSize, fields: decodeFields(u.encodedUp) }));
+    this.method.aggregate(this.state, decoded, exchange);
+  }
+
+  /** A copy of the current model x. */
+  model(): Float64Array {
+    return Float64Array.from(this.method.model(this.state));
+  }
+
+  methodState(): unknown {
+    return this.state;
+  }
+}

@@ -1,0 +1,34 @@
+// Errors of the predictions and measurements in src/theory (affine maps, rates, fixed points,
+// fitted curves). The code is stable so that the engine and the report can branch on the cause:
+// E_SINGULAR, for instance, means that a method's round map has no unique limit to predict.
+
+export type TheoryErrorCode =
+  /** a state, matrix or vector whose length does not match the dimension it is used with */
+  | 'E_DIMENSION'
+  /** a round map, matrix or curve point that produced or holds NaN or an infinity */
+  | 'E_NOT_FINITE'
+  /** a dense computation beyond its size limit */
+  | 'E_SIZE_LIMIT'
+  /** a linear system that is singular to working precision (e.g. I - M with M having eigenvalue 1) */
+  | 'E_SINGULAR'
+  /** an option or argument outside its domain (a tolerance that is not positive, a negative weight) */
+  | 'E_ARGUMENT'
+  /** curve points out of order or with rounds that are not finite */
+  | 'E_POINTS';
+
+export class TheoryError extends Error {
+  readonly code: TheoryErrorCode;
+
+  constructor(code: TheoryErrorCode, message: string) {
+    super(message);
+    this.name = 'TheoryError';
+    this.code = code;
+  }
+}
+
+/** Throws E_DIMENSION unless `vector` has `length` entries. */
+export function assertTheoryLength(name: string, vector: ArrayLike<number>, length: number): void {
+  if (vector.length !== length) {
+    throw new TheoryError('E_DIMENSION', `${name} has length ${vector.length}, expected ${length}`);
+  }
+}
