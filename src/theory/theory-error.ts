@@ -9,8 +9,10 @@ export type TheoryErrorCode =
   | 'E_NOT_FINITE'
   /** a dense computation beyond its size limit */
   | 'E_SIZE_LIMIT'
-  /** a linear system that is singular to working precision (e.g. I - M with M having eigenvalue 1) */
+  /** a linear system that is singular to working precision, or a round map with no fixed point in reach */
   | 'E_SINGULAR'
+  /** an iterative solve that ran out of steps before its tolerance */
+  | 'E_NOT_CONVERGED'
   /** an option or argument outside its domain (a tolerance that is not positive, a negative weight) */
   | 'E_ARGUMENT'
   /** curve points out of order or with rounds that are not finite */
