@@ -57,6 +57,7 @@ export interface FedLinClientState {
 export const fedlin: Method<FedLinServerState, FedLinClientState> = {
   name: 'fedlin',
   exchanges: EXCHANGES,
+  uplinkStateFields: ['gradient'],
   initServer(dim, cfg, initialModel) {
     assertConfig(dim, cfg);
     return {

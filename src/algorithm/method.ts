@@ -57,6 +57,12 @@ export interface Method<ServerState = unknown, ClientState = unknown> {
    * client spends its tau_i local steps; an earlier exchange costs one gradient evaluation.
    */
   readonly exchanges: readonly string[];
+  /**
+   * Upload fields that carry a state (the server wants the latest value, e.g. FedLin's
+   * gradient) rather than an increment that the server sums (a delta). Compression treats them
+   * differently (see src/compress/uplink.ts); absent means every field is an increment.
+   */
+  readonly uplinkStateFields?: readonly string[];
   initServer(dim: number, cfg: MethodConfig, initialModel: Float64Array): ServerState;
   initClient(dim: number, cfg: MethodConfig, clientId: number): ClientState;
   /** Vectors going down for this exchange. Must not be mutated by the receiver. */

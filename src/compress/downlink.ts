@@ -60,6 +60,19 @@ export class DownlinkEncoder {
   replica(field: string): Float64Array | null {
     return this.replicas.get(field)?.slice() ?? null;
   }
+
+  /** Copies of every replica, by field. */
+  snapshot(): Record<string, Float64Array> {
+    const out: Record<string, Float64Array> = {};
+    for (const [field, r] of this.replicas) out[field] = r.slice();
+    return out;
+  }
+
+  /** Replaces the replicas by copies of a snapshot's. */
+  restore(replicas: Readonly<Record<string, Float64Array>>): void {
+    this.replicas.clear();
+    for (const [field, r] of Object.entries(replicas)) this.replicas.set(field, Float64Array.from(r));
+  }
 }
 
 /** Client side: the client's replicas; turns each message into the dense fields to work from. */
@@ -85,5 +98,18 @@ export class DownlinkDecoder {
       out[field] = r.slice();
     }
     return out;
+  }
+
+  /** Copies of the client's replicas, so that the decoder can move to another thread and back. */
+  snapshot(): Record<string, Float64Array> {
+    const out: Record<string, Float64Array> = {};
+    for (const [field, r] of this.replicas) out[field] = r.slice();
+    return out;
+  }
+
+  /** Replaces the replicas by copies of a snapshot's. */
+  restore(replicas: Readonly<Record<string, Float64Array>>): void {
+    this.replicas.clear();
+    for (const [field, r] of Object.entries(replicas)) this.replicas.set(field, Float64Array.from(r));
   }
 }

@@ -51,4 +51,12 @@ export class ErrorFeedbackEncoder {
   memory(): Float64Array {
     return this.residual.slice();
   }
+
+  /** Sets e to a copy of `memory` (from memory() of an encoder of the same channel), bit for bit. */
+  restoreMemory(memory: Float64Array): void {
+    if (memory.length !== this.dim) {
+      throw new CompressError('E_DIMENSION', `channel of dimension ${this.dim} given a memory of ${memory.length}`);
+    }
+    this.residual.set(memory);
+  }
 }

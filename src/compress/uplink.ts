@@ -1,6 +1,12 @@
-// The uplink (client -> server). Each client compresses each field through its own
-// error-feedback memory; the server decompresses and uses the value directly, keeping no state
-// per client. Memories are keyed by field name, so a method must not reuse a field name for two
+// The uplink (client -> server). A field is one of two kinds (the method says which):
+// - an increment (a model delta): the receiver sums what arrives, so each client compresses
+//   through its own error-feedback memory and the server uses each message as it is;
+// - a state (FedLin's gradient grad f_i(x)): the receiver wants the latest value, so, as on the
+//   downlink, the client sends compressed differences against a replica that both ends keep
+//   (see downlink.ts). At a fixed point the differences vanish, so compression costs no accuracy
+//   there; error feedback on the value itself would keep sending top-k caricatures of a dense
+//   vector forever and leave a floor.
+// Memories and replicas are keyed by field name, so a method must not reuse a field name for two
 // different quantities (e.g. across the exchanges of one round).
 
 import type { Fields } from '../algorithm/method.js';
@@ -8,20 +14,30 @@ import type { ChannelSpec, RngForField } from './channel.js';
 import { compressorForField, rngForSpec } from './channel.js';
 import { decompress, validateCompressedVector, type CompressedVector } from './compressed-vector.js';
 import { ErrorFeedbackEncoder } from './error-feedback.js';
+import { DownlinkDecoder, DownlinkEncoder } from './downlink.js';
 
 /** Client side, one per client: the fields' error-feedback encoders, made on first use. */
 export class UplinkEncoder {
   private readonly channel: ChannelSpec;
   private readonly encoders = new Map<string, ErrorFeedbackEncoder>();
+  private readonly stateFields: ReadonlySet<string>;
+  /** replicas of the state fields, kept exactly as the server keeps them */
+  private readonly states: DownlinkEncoder;
 
-  constructor(channel: ChannelSpec) {
+  constructor(channel: ChannelSpec, stateFields: readonly string[] = []) {
     this.channel = channel;
+    this.stateFields = new Set(stateFields);
+    this.states = new DownlinkEncoder(channel);
   }
 
   /** Compresses every field; a field keeps the dimension it first had (E_DIMENSION otherwise). */
   encode(fields: Fields, rngFor?: RngForField): Record<string, CompressedVector> {
     const out: Record<string, CompressedVector> = {};
     for (const [field, v] of Object.entries(fields)) {
+      if (this.stateFields.has(field)) {
+        Object.assign(out, this.states.encode({ [field]: v }, rngFor));
+        continue;
+      }
       const spec = compressorForField(this.channel, field);
       let encoder = this.encoders.get(field);
       if (encoder === undefined) {
@@ -36,6 +52,59 @@ export class UplinkEncoder {
   /** A copy of a field's error-feedback memory, or null before the field's first use. */
   memory(field: string): Float64Array | null {
     return this.encoders.get(field)?.memory() ?? null;
+  }
+
+  /**
+   * Copies of every field's memory (increments) or replica (states), by field name, so that the
+   * encoder can move to another thread and back.
+   */
+  snapshot(): Record<string, Float64Array> {
+    const out: Record<string, Float64Array> = this.states.snapshot();
+    for (const [field, encoder] of this.encoders) out[field] = encoder.memory();
+    return out;
+  }
+
+  /** Replaces the memories and replicas by those of a snapshot taken from an encoder of the same channel. */
+  restore(memories: Readonly<Record<string, Float64Array>>): void {
+    this.encoders.clear();
+    const replicas: Record<string, Float64Array> = {};
+    for (const [field, memory] of Object.entries(memories)) {
+      if (this.stateFields.has(field)) {
+        replicas[field] = memory;
+        continue;
+      }
+      const encoder = new ErrorFeedbackEncoder(memory.length, compressorForField(this.channel, field));
+      encoder.restoreMemory(memory);
+      this.encoders.set(field, encoder);
+    }
+    this.states.restore(replicas);
+  }
+}
+
+/**
+ * Server side, one per client: increments decompressed as they are, state fields advanced in the
+ * replica this client's encoder keeps too.
+ */
+export class UplinkDecoder {
+  private readonly stateFields: ReadonlySet<string>;
+  private readonly states: DownlinkDecoder;
+
+  constructor(channel: ChannelSpec, stateFields: readonly string[] = []) {
+    this.stateFields = new Set(stateFields);
+    this.states = new DownlinkDecoder(channel);
+  }
+
+  decode(encoded: Record<string, CompressedVector>): Fields {
+    const out: Fields = {};
+    for (const [field, cv] of Object.entries(encoded)) {
+      if (this.stateFields.has(field)) {
+        Object.assign(out, this.states.decode({ [field]: cv }));
+        continue;
+      }
+      validateCompressedVector(cv);
+      out[field] = decompress(cv);
+    }
+    return out;
   }
 }
 

@@ -21,12 +21,25 @@ export interface ClientWorkResult {
   stepsTaken: number;
 }
 
+/**
+ * Everything a client carries from one exchange to the next, as structured-cloneable data: the
+ * method state and both compression ends. Restoring it into a fresh runtime of the same plan
+ * and client continues the client bit for bit (the objective and the random streams are
+ * rebuilt from the plan).
+ */
+export interface ClientRuntimeSnapshot {
+  clientId: number;
+  methodState: unknown;
+  uplinkMemories: Record<string, Float64Array>;
+  downlinkReplicas: Record<string, Float64Array>;
+}
+
 export class ClientRuntime {
   readonly clientId: number;
   private readonly plan: WirePlan;
   private readonly method: Method;
   private readonly objective: Objective;
-  private readonly state: unknown;
+  private state: unknown;
   private readonly uplink: UplinkEncoder;
   private readonly downlink: DownlinkDecoder;
 
@@ -36,7 +49,7 @@ export class ClientRuntime {
     this.method = methodByName(plan.scenario.method.name);
     this.objective = objective;
     this.state = this.method.initClient(plan.dim, plan.methodConfig, clientId);
-    this.uplink = new UplinkEncoder(plan.scenario.compression.uplink);
+    this.uplink = new UplinkEncoder(plan.scenario.compression.uplink, this.method.uplinkStateFields);
     this.downlink = new DownlinkDecoder(plan.scenario.compression.downlink);
   }
 
@@ -54,6 +67,26 @@ export class ClientRuntime {
     const stepsTaken = this.method.stepsTaken ? this.method.stepsTaken(this.state) : localSteps;
     const encodedUp = this.uplink.encode(up, uplinkRngFor(this.plan.scenario.seed, this.clientId, round, exchange));
     return { encodedUp, stepsTaken };
+  }
+
+  /** A deep copy of the client's state (see ClientRuntimeSnapshot). */
+  snapshot(): ClientRuntimeSnapshot {
+    return {
+      clientId: this.clientId,
+      methodState: structuredClone(this.state),
+      uplinkMemories: this.uplink.snapshot(),
+      downlinkReplicas: this.downlink.snapshot(),
+    };
+  }
+
+  /** Continues from a snapshot of this client (deep-copied, so the snapshot stays the caller's). */
+  restore(snapshot: ClientRuntimeSnapshot): void {
+    if (snapshot.clientId !== this.clientId) {
+      throw new RangeError(`snapshot of client ${snapshot.clientId} restored into client ${this.clientId}`);
+    }
+    this.state = structuredClone(snapshot.methodState);
+    this.uplink.restore(snapshot.uplinkMemories);
+    this.downlink.restore(snapshot.downlinkReplicas);
   }
 
   /** The method state (plain data), for the theory's round map. */

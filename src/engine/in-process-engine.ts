@@ -15,22 +15,17 @@ import { resolveRunPlan, type RunPlan } from './run-plan.js';
 import { assignmentsFor, isLocalWorkExchange, roundParticipants } from './round-schedule.js';
 import { evaluateModel } from './evaluate.js';
 import type { ClientRoundRecord, RoundRecord } from './round-record.js';
+import type { RunOutcome } from './run-summary.js';
 
 export interface EngineOptions {
   /** called after every round, e.g. for a live progress line */
   onRound?: (record: RoundRecord) => void;
+  /** the server's starting model x_0 (default zero) */
+  initialModel?: Float64Array;
 }
 
-export interface EngineResult {
-  plan: RunPlan;
-  theory: PlanTheory;
-  /** round 0 is the initial model; then one record per round run */
-  rounds: RoundRecord[];
-  clients: ClientRoundRecord[];
-  finalModel: Float64Array;
-  stopReason: 'target-reached' | 'rounds-complete' | 'diverged';
-  wallSeconds: number;
-}
+/** Round 0 of `rounds` is the initial model; then one record per round run. */
+export type EngineResult = RunOutcome;
 
 export function encodedPayloadBytes(fields: EncodedFields): number {
   let total = 0;
@@ -48,7 +43,7 @@ export function planFor(scenario: Scenario): { plan: RunPlan; theory: PlanTheory
 export function runInProcess(scenario: Scenario, options: EngineOptions = {}): EngineResult {
   const started = performance.now();
   const { plan, theory } = planFor(scenario);
-  const server = new ServerRuntime(plan);
+  const server = new ServerRuntime(plan, options.initialModel);
   const clients = theory.instance.objectives.map((objective, id) => new ClientRuntime(plan, id, objective));
   const speed = speedModelFor(scenario.timing, plan.clientCount, scenario.seed);
   const clock = new VirtualClock();

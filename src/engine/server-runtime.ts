@@ -5,7 +5,7 @@
 import type { Fields, Method, Upload } from '../algorithm/method.js';
 import { methodByName } from '../algorithm/registry.js';
 import { DownlinkEncoder } from '../compress/downlink.js';
-import { decodeFields } from '../compress/uplink.js';
+import { UplinkDecoder } from '../compress/uplink.js';
 import type { EncodedFields } from './client-runtime.js';
 import type { RunPlan } from './run-plan.js';
 import { downlinkRngFor } from './seeded-streams.js';
@@ -22,12 +22,14 @@ export class ServerRuntime {
   private readonly plan: RunPlan;
   private readonly state: unknown;
   private readonly downlinks: DownlinkEncoder[];
+  private readonly uplinks: UplinkDecoder[];
 
   constructor(plan: RunPlan, initialModel: Float64Array = new Float64Array(plan.dim)) {
     this.plan = plan;
     this.method = methodByName(plan.scenario.method.name);
     this.state = this.method.initServer(plan.dim, plan.methodConfig, initialModel);
     this.downlinks = Array.from({ length: plan.clientCount }, () => new DownlinkEncoder(plan.scenario.compression.downlink));
+    this.uplinks = Array.from({ length: plan.clientCount }, () => new UplinkDecoder(plan.scenario.compression.uplink, this.method.uplinkStateFields));
   }
 
   broadcast(exchange: string): Fields {
@@ -43,7 +45,7 @@ export class ServerRuntime {
   aggregate(exchange: string, uploads: readonly EncodedUpload[]): void {
     const decoded: Upload[] = [...uploads]
       .sort((a, b) => a.clientId - b.clientId)
-      .map((u) => ({ clientId: u.clientId, weight: this.plan.weights[u.clientId], localSteps: u.stepsTaken, stepSize: u.stepSize, fields: decodeFields(u.encodedUp) }));
+      .map((u) => ({ clientId: u.clientId, weight: this.plan.weights[u.clientId], localSteps: u.stepsTaken, stepSize: u.stepSize, fields: this.uplinks[u.clientId].decode(u.encodedUp) }));
     this.method.aggregate(this.state, decoded, exchange);
   }
 

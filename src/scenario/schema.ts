@@ -217,6 +217,13 @@ export const scenarioSchema = z
       links: { uplinkBytesPerSecond: 1e9, downlinkBytesPerSecond: 1e9, latencySeconds: 0 },
     }),
     run: runSchema,
+    /**
+     * Variants for `roundwire compare`: field path -> values. Every combination runs with the
+     * same seed; `roundwire run` runs the base scenario and ignores this.
+     */
+    sweep: z
+      .record(z.string().regex(/^[A-Za-z_][A-Za-z0-9_-]*(\.[A-Za-z_][A-Za-z0-9_-]*)*$/), z.array(z.union([z.number(), z.string(), z.boolean()])).min(1).max(100))
+      .optional(),
   })
   .strict();
 

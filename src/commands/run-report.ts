@@ -1,0 +1,38 @@
+// The end of a run, whichever runtime ran it: the prediction, summary.json and the results
+// folder, and the final table a person reads.
+
+import type { RunOutcome, RunSummary } from '../engine/run-summary.js';
+import { buildRunSummary } from '../engine/run-summary.js';
+import { predictRun } from '../engine/predict-run.js';
+import { writeResultsFolder } from '../results/results-folder.js';
+import { formatTable } from './text-table.js';
+import { formatBytes } from './progress.js';
+
+export function finishRun(outcome: RunOutcome, runtime: RunSummary['runtime'], outDir: string): RunSummary {
+  const prediction = predictRun(outcome.plan, outcome.theory);
+  const summary = buildRunSummary(outcome, prediction, runtime);
+  writeResultsFolder(outDir, { scenario: outcome.plan.scenario, rounds: outcome.rounds, clients: outcome.clients, summary, finalModel: outcome.finalModel });
+  return summary;
+}
+
+export function formatRunSummary(s: RunSummary, outDir: string): string {
+  const rows: (string | number | null)[][] = [
+    ['f - f*', s.suboptimality.initial, s.suboptimality.final, null],
+    ['rate per round', null, s.rate.measured, s.rate.predicted],
+    ['floor f(limit) - f*', null, s.floor.measured, s.floor.predicted],
+  ];
+  const table = formatTable(['quantity', 'initial', 'measured', 'predicted'], rows);
+  const bytes = (b: { up: number; down: number }) => `${formatBytes(b.up)} up, ${formatBytes(b.down)} down`;
+  const lines = [
+    `${s.scenario}: ${s.method}, ${s.rounds} rounds (${s.stopReason}), ${s.clients} clients, step size ${s.stepSize.toPrecision(4)}`,
+    '',
+    table,
+    '',
+    `target ${s.target}: ${s.roundsToTarget === null ? 'not reached' : `reached at round ${s.roundsToTarget}, ${formatBytes(s.toTarget.payloadBytes ?? 0)} payload`}`,
+    `payload bytes: ${bytes(s.bytes.payload)}${s.bytes.wire ? `; wire: ${bytes(s.bytes.wire)}` : ''}`,
+    `seconds: ${s.seconds.virtual.toPrecision(4)} modelled, ${s.seconds.wall.toFixed(2)} wall; dropped updates ${s.droppedUpdates}`,
+    s.prediction.available ? `prediction: spectral radius ${s.prediction.spectralRadius?.toPrecision(6)}` : `prediction: none (${s.prediction.reason})`,
+    `results: ${outDir}`,
+  ];
+  return `${lines.join('\n')}\n`;
+}

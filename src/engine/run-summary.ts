@@ -1,0 +1,127 @@
+// summary.json: what a run measured, beside what the theory predicted. The same function serves
+// the in-process engine and the coordinator, so both write the same fields.
+
+import type { PlanTheory } from '../theory/plan-theory.js';
+import { fitLinearRate, measureFloor, roundsToTarget, type CurvePoint } from '../theory/measure-curve.js';
+import type { RunPlan } from './run-plan.js';
+import type { ByteCounts, ClientRoundRecord, RoundRecord } from './round-record.js';
+import type { RunPrediction } from './predict-run.js';
+
+/** Why a run ended: its target, its round limit, a non-finite update, every worker lost, or Ctrl-C. */
+export type StopReason = 'target-reached' | 'rounds-complete' | 'diverged' | 'workers-lost' | 'stopped';
+
+/** What either runtime hands over at the end of a run. */
+export interface RunOutcome {
+  plan: RunPlan;
+  theory: PlanTheory;
+  rounds: RoundRecord[];
+  clients: ClientRoundRecord[];
+  finalModel: Float64Array;
+  stopReason: StopReason;
+  wallSeconds: number;
+  /** encoded and wire layers, where a network carried the run */
+  bytesLayers?: { encoded: ByteCounts; wire: ByteCounts };
+  /** workers marked lost during the run */
+  lostWorkers?: string[];
+  /** invalid messages received, by error code */
+  protocolErrors?: Record<string, number>;
+}
+
+export interface RunSummary {
+  scenario: string;
+  method: string;
+  planHash: string;
+  problemHash: string;
+  runtime: 'in-process' | 'distributed';
+  clock: 'virtual' | 'wall';
+  stopReason: StopReason;
+  rounds: number;
+  clients: number;
+  stepSize: number;
+  suboptimality: { initial: number; final: number };
+  distance: { initial: number; final: number };
+  rate: {
+    measured: number | null;
+    predicted: number | null;
+    /** the gd bound 1 - mu/L for eta = 1/L (Nesterov 2004, Thm 2.1.15), for scale */
+    gdBound: number;
+    measuredWindow: [number, number] | null;
+  };
+  floor: { measured: number | null; predicted: number | null };
+  prediction: { available: boolean; reason: string | null; spectralRadius: number | null; limitDistance: number | null };
+  target: number;
+  roundsToTarget: number | null;
+  toTarget: { payloadBytes: number | null; virtualSeconds: number | null; wallSeconds: number | null };
+  bytes: { payload: ByteCounts; encoded?: ByteCounts; wire?: ByteCounts };
+  seconds: { virtual: number; wall: number };
+  droppedUpdates: number;
+  lostWorkers: string[];
+  protocolErrors: Record<string, number>;
+  theory: { smoothness: number; strongConvexity: number; conditionNumber: number; heterogeneity: number; optimumLoss: number; certificate: number };
+}
+
+/** The evaluated points of a run, cut before the first non-finite one (a diverged run). */
+export function curveOf(rounds: readonly RoundRecord[]): CurvePoint[] {
+  const points: CurvePoint[] = [];
+  for (const r of rounds) {
+    if (r.suboptimality === null) continue;
+    if (!Number.isFinite(r.suboptimality)) break;
+    points.push({ round: r.round, suboptimality: r.suboptimality });
+  }
+  return points;
+}
+
+export function buildRunSummary(outcome: RunOutcome, prediction: RunPrediction, runtime: RunSummary['runtime']): RunSummary {
+  const { plan, theory, rounds } = outcome;
+  const curve = curveOf(rounds);
+  const first = curve[0];
+  const last = curve[curve.length - 1];
+  // f is evaluated to a few ulps of its scale; below that the curve is noise (common practice).
+  const noiseLevel = 1e3 * Number.EPSILON * Math.max(Math.abs(theory.optimum.loss), first.suboptimality);
+  const fit = curve.length > 1 ? fitLinearRate(curve, { noiseLevel }) : null;
+  const target = plan.scenario.run.target;
+  const reached = target > 0 ? roundsToTarget(curve, target) : null;
+  const reachedRecord = reached === null ? null : rounds.find((r) => r.round === reached) ?? null;
+  let payloadUp = 0;
+  let payloadDown = 0;
+  let payloadToTarget = 0;
+  let dropped = 0;
+  for (const r of rounds) {
+    payloadUp += r.bytes.payload.up;
+    payloadDown += r.bytes.payload.down;
+    if (reached !== null && r.round <= reached) payloadToTarget += r.bytes.payload.up + r.bytes.payload.down;
+    dropped += r.dropped.length;
+  }
+  const lastRound = rounds[rounds.length - 1];
+  const c = theory.constants;
+  return {
+    scenario: plan.scenario.name,
+    method: plan.scenario.method.name,
+    planHash: plan.planHash,
+    problemHash: theory.problemHash,
+    runtime,
+    clock: plan.scenario.timing.clock,
+    stopReason: outcome.stopReason,
+    rounds: lastRound.round,
+    clients: plan.clientCount,
+    stepSize: plan.methodConfig.stepSize,
+    suboptimality: { initial: first.suboptimality, final: lastRound.suboptimality ?? last.suboptimality },
+    distance: { initial: rounds[0].distance ?? Number.NaN, final: [...rounds].reverse().find((r) => r.distance !== null)?.distance ?? Number.NaN },
+    rate: { measured: fit ? fit.rate : null, predicted: prediction.rate, gdBound: 1 - c.strongConvexity / c.smoothness, measuredWindow: fit ? fit.window : null },
+    floor: { measured: curve.length > 1 ? measureFloor(curve, { noiseLevel }) : null, predicted: prediction.floor },
+    prediction: { available: prediction.unavailableReason === null, reason: prediction.unavailableReason, spectralRadius: prediction.spectralRadius, limitDistance: prediction.limitDistance },
+    target,
+    roundsToTarget: reached,
+    toTarget: {
+      payloadBytes: reached === null ? null : payloadToTarget,
+      virtualSeconds: reachedRecord ? reachedRecord.virtualSeconds : null,
+      wallSeconds: reachedRecord ? reachedRecord.wallSeconds : null,
+    },
+    bytes: { payload: { up: payloadUp, down: payloadDown }, ...(outcome.bytesLayers ?? {}) },
+    seconds: { virtual: lastRound.virtualSeconds, wall: outcome.wallSeconds },
+    droppedUpdates: dropped,
+    lostWorkers: outcome.lostWorkers ?? [],
+    protocolErrors: outcome.protocolErrors ?? {},
+    theory: { smoothness: c.smoothness, strongConvexity: c.strongConvexity, conditionNumber: c.conditionNumber, heterogeneity: c.heterogeneity, optimumLoss: theory.optimum.loss, certificate: theory.optimum.gradientNorm },
+  };
+}

@@ -1,0 +1,53 @@
+// The results folder of a run, the same layout for the in-process engine and the coordinator:
+//   scenario.yaml    the resolved scenario (every default explicit), so the run can be repeated
+//   rounds.jsonl     one JSON line per round
+//   clients.jsonl    one JSON line per client per exchange per round
+//   summary.json     the run's summary (measured beside predicted)
+//   model.json       the final model x, and model.f64 (raw little-endian doubles, bit exact)
+// This is the one module under src/ that writes files; the core computes, this records.
+
+import { mkdirSync, writeFileSync } from 'node:fs';
+import { join } from 'node:path';
+import { stringify } from 'yaml';
+import type { Scenario } from '../scenario/schema.js';
+import type { ClientRoundRecord, RoundRecord } from '../engine/round-record.js';
+
+export const resultFiles = {
+  scenario: 'scenario.yaml',
+  rounds: 'rounds.jsonl',
+  clients: 'clients.jsonl',
+  summary: 'summary.json',
+  modelJson: 'model.json',
+  modelBinary: 'model.f64',
+} as const;
+
+export interface ResultsPayload {
+  scenario: Scenario;
+  rounds: readonly RoundRecord[];
+  clients: readonly ClientRoundRecord[];
+  summary: unknown;
+  finalModel: Float64Array;
+}
+
+function jsonLines(items: readonly unknown[]): string {
+  return items.map((item) => JSON.stringify(item)).join('\n') + (items.length > 0 ? '\n' : '');
+}
+
+/** A results folder name that sorts by time and says what ran: <scenario>-<method>-<utc stamp>. */
+export function defaultResultsDir(scenario: Scenario, now: Date): string {
+  const stamp = now.toISOString().replace(/[-:]/g, '').replace(/\.\d+Z$/, 'Z');
+  return join('results', `${scenario.name.replace(/[^A-Za-z0-9_.-]+/g, '_')}-${scenario.method.name}-${stamp}`);
+}
+
+export function writeResultsFolder(dir: string, payload: ResultsPayload): void {
+  mkdirSync(dir, { recursive: true });
+  writeFileSync(join(dir, resultFiles.scenario), stringify(payload.scenario));
+  writeFileSync(join(dir, resultFiles.rounds), jsonLines(payload.rounds));
+  writeFileSync(join(dir, resultFiles.clients), jsonLines(payload.clients));
+  writeFileSync(join(dir, resultFiles.summary), `${JSON.stringify(payload.summary, null, 2)}\n`);
+  writeFileSync(join(dir, resultFiles.modelJson), `${JSON.stringify({ dim: payload.finalModel.length, x: Array.from(payload.finalModel) })}\n`);
+  const bytes = new Uint8Array(payload.finalModel.length * 8);
+  const view = new DataView(bytes.buffer);
+  payload.finalModel.forEach((v, j) => view.setFloat64(j * 8, v, true));
+  writeFileSync(join(dir, resultFiles.modelBinary), bytes);
+}
