@@ -11,6 +11,13 @@ import { TimingError } from './timing/errors.js';
 import { exitCodes, exitCodesHelp } from './commands/exit-codes.js';
 import { formatTheoryReport, theoryReport } from './commands/theory-command.js';
 import { writeShards } from './commands/shards-command.js';
+import { runInProcess } from './engine/in-process-engine.js';
+import { finishRun, formatRunSummary } from './commands/run-report.js';
+import { ProgressLine } from './commands/progress.js';
+import { defaultResultsDir } from './results/results-folder.js';
+import { formatDistributedSummary, runDistributed, RunInterrupted } from './commands/run-distributed.js';
+import { runWorkerCommand, workerOptionsProblem, type WorkerCommandOptions } from './commands/worker-command.js';
+import { coordinatorOptionsProblem, runCoordinatorCommand, type CoordinatorCommandOptions } from './commands/coordinator-command.js';
 
 /** An input problem found by a command itself (not by the scenario schema). */
 export class UsageError extends Error {
@@ -64,6 +71,71 @@ function buildProgram(io: Io): Command {
     });
 
   program
+    .command('run')
+    .description('run a scenario: real rounds between a coordinator and worker processes, or --in-process with no network')
+    .argument('<scenario>', 'scenario file (YAML or JSON)')
+    .addOption(setOption)
+    .option('--in-process', 'run every client in this process with the virtual clock (no sockets)')
+    .option('--out <dir>', 'results folder (default results/<name>-<method>-<time>)')
+    .option('--json', 'print summary.json instead of the table')
+    .addHelpText('after', exitCodesHelp)
+    .action(async (file: string, opts: { set: string[]; inProcess?: boolean; out?: string; json?: boolean }) => {
+      const scenario = loadScenarioFile(file, opts.set);
+      const outDir = opts.out ?? defaultResultsDir(scenario, new Date());
+      const progress = new ProgressLine({ write: io.err, isTTY: process.stderr.isTTY === true }, scenario.run.rounds);
+      if (!opts.inProcess) {
+        const result = await runDistributed(scenario, outDir, { out: io.out, err: io.err, onRound: (r) => progress.update(r) });
+        progress.finish();
+        io.out(opts.json ? `${JSON.stringify(result.summary, null, 2)}\n` : formatDistributedSummary(result, outDir));
+        return;
+      }
+      const outcome = runInProcess(scenario, { onRound: (r) => progress.update(r) });
+      progress.finish();
+      const summary = finishRun(outcome, 'in-process', outDir);
+      io.out(opts.json ? `${JSON.stringify(summary, null, 2)}\n` : formatRunSummary(summary, outDir));
+    });
+
+  program
+    .command('worker')
+    .description('join a coordinator and host the clients it deals to this process')
+    .requiredOption('--join <url>', 'the coordinator, ws://HOST:PORT or wss://HOST:PORT')
+    .option('--token <token>', 'the shared token (or the ROUNDWIRE_TOKEN environment variable, which ps does not show)')
+    .option('--slots <n>', 'clients this worker offers to host', '1')
+    .option('--name <name>', 'worker name for logs and metrics (default host-pid)')
+    .addHelpText('after', exitCodesHelp)
+    .action(async (opts: WorkerCommandOptions) => {
+      const problem = workerOptionsProblem(opts, process.env);
+      if (problem !== null) throw new UsageError(problem);
+      const exit = await runWorkerCommand(opts, process.env, io.err);
+      io.err(`worker: done (${exit.reason}), hosted clients ${exit.clientIds.join(', ')}\n`);
+    });
+
+  program
+    .command('coordinator')
+    .description('wait for workers from other machines, then run the scenario with them')
+    .argument('<scenario>', 'scenario file (YAML or JSON)')
+    .requiredOption('--listen <host:port>', 'address to listen on, e.g. 0.0.0.0:7070 (port 0: any free port)')
+    .option('--token <token>', 'the shared token workers prove (required beyond loopback; or ROUNDWIRE_TOKEN)')
+    .option('--tls-cert <file>', 'PEM certificate: serve wss:// instead of ws://')
+    .option('--tls-key <file>', 'PEM private key for --tls-cert')
+    .option('--join-timeout <seconds>', 'give up if workers have not joined by then', '300')
+    .option('--workers-min <n>', 'wait for at least this many workers', '1')
+    .option('--out <dir>', 'results folder (default results/<name>-<method>-<time>)')
+    .option('--json', 'print summary.json instead of the table')
+    .addOption(setOption)
+    .addHelpText('after', exitCodesHelp)
+    .action(async (file: string, opts: CoordinatorCommandOptions & { set: string[]; out?: string; json?: boolean }) => {
+      const problem = coordinatorOptionsProblem(opts, process.env);
+      if (problem !== null) throw new UsageError(problem);
+      const scenario = loadScenarioFile(file, opts.set);
+      const outDir = opts.out ?? defaultResultsDir(scenario, new Date());
+      const progress = new ProgressLine({ write: io.err, isTTY: process.stderr.isTTY === true }, scenario.run.rounds);
+      const result = await runCoordinatorCommand(scenario, opts, outDir, process.env, { err: io.err, onRound: (r) => progress.update(r) });
+      progress.finish();
+      io.out(opts.json ? `${JSON.stringify(result.summary, null, 2)}\n` : formatDistributedSummary(result, outDir));
+    });
+
+  program
     .command('schema')
     .description('print the scenario JSON Schema (for editors), or write it with --out')
     .option('--out <file>', 'write to this file instead of standard output')
@@ -91,6 +163,10 @@ export async function main(argv: string[], io: Io = { out: (t) => process.stdout
     if (error instanceof CommanderError) {
       if (error.code === 'commander.helpDisplayed' || error.code === 'commander.help' || error.code === 'commander.version') return exitCodes.ok;
       return exitCodes.badInput;
+    }
+    if (error instanceof RunInterrupted) {
+      io.err(`roundwire: ${error.message}\n`);
+      return exitCodes.interrupted;
     }
     if (isBadInput(error)) {
       io.err(`roundwire: ${error.message}\n`);

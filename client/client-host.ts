@@ -1,0 +1,90 @@
+// The clients a worker hosts. One client works on the worker's own thread; several work on a
+// piscina pool (client-task.ts), each client's state passed to the task as a snapshot and
+// taken back, so that clients run in parallel while each stays bit for bit what it would be
+// on one thread. A client's exchanges run strictly in the order its downs arrived.
+
+import { performance } from 'node:perf_hooks';
+import { availableParallelism } from 'node:os';
+import { Piscina } from 'piscina';
+import { ClientRuntime, type ClientRuntimeSnapshot, type EncodedFields } from '../src/engine/client-runtime.js';
+import type { WirePlan } from '../src/engine/run-plan.js';
+import { clientObjective } from '../src/problem/problem-instance.js';
+import { hashOf } from '../src/scenario/plan-hash.js';
+import { compiledModulePath } from './compiled-module.js';
+import type { ClientTask, ClientTaskResult } from './client-task.js';
+
+export interface HostedWork {
+  clientId: number;
+  round: number;
+  exchange: string;
+  encodedDown: EncodedFields;
+  localSteps: number;
+  stepSize: number;
+}
+
+export interface HostedResult {
+  encodedUp: EncodedFields;
+  stepsTaken: number;
+  /** real seconds of computing */
+  measuredSeconds: number;
+  /** real seconds between the call and the start of the client's work (its queue) */
+  queuedSeconds: number;
+}
+
+export interface ClientHostOptions {
+  /** most pool threads; the pool is used only when more than one client is hosted */
+  threadsMax: number;
+}
+
+export class ClientHost {
+  private readonly plan: WirePlan;
+  private readonly planKey: string;
+  private readonly inline: Map<number, ClientRuntime> | null;
+  private readonly pool: Piscina<ClientTask, ClientTaskResult> | null;
+  private readonly snapshots = new Map<number, ClientRuntimeSnapshot | null>();
+  /** each client's last queued work, so the next waits for it */
+  private readonly queues = new Map<number, Promise<unknown>>();
+
+  constructor(plan: WirePlan, clientIds: readonly number[], options: ClientHostOptions) {
+    this.plan = plan;
+    this.planKey = hashOf(plan);
+    if (clientIds.length <= 1) {
+      this.inline = new Map(clientIds.map((id) => [id, new ClientRuntime(plan, id, clientObjective(plan.scenario, id))]));
+      this.pool = null;
+    } else {
+      this.inline = null;
+      const threads = Math.max(1, Math.min(clientIds.length, options.threadsMax, availableParallelism()));
+      this.pool = new Piscina<ClientTask, ClientTaskResult>({ filename: compiledModulePath(import.meta.url, 'client-task.js'), minThreads: threads, maxThreads: threads });
+      for (const id of clientIds) this.snapshots.set(id, null);
+    }
+  }
+
+  hosts(clientId: number): boolean {
+    return this.inline !== null ? this.inline.has(clientId) : this.snapshots.has(clientId);
+  }
+
+  /** Queues one exchange of one client after its earlier ones. */
+  work(job: HostedWork): Promise<HostedResult> {
+    if (!this.hosts(job.clientId)) throw new RangeError(`client ${job.clientId} is not hosted here`);
+    const calledMs = performance.now();
+    const previous = this.queues.get(job.clientId) ?? Promise.resolve();
+    const next = previous.catch(() => undefined).then(() => this.run(job, (performance.now() - calledMs) / 1000));
+    this.queues.set(job.clientId, next);
+    return next;
+  }
+
+  private async run(job: HostedWork, queuedSeconds: number): Promise<HostedResult> {
+    if (this.inline !== null) {
+      const started = performance.now();
+      const result = this.inline.get(job.clientId)!.work(job.round, job.exchange, job.encodedDown, job.localSteps, job.stepSize);
+      return { ...result, measuredSeconds: (performance.now() - started) / 1000, queuedSeconds };
+    }
+    const result = await this.pool!.run({ plan: this.plan, planKey: this.planKey, snapshot: this.snapshots.get(job.clientId) ?? null, ...job });
+    this.snapshots.set(job.clientId, result.snapshot);
+    return { encodedUp: result.encodedUp, stepsTaken: result.stepsTaken, measuredSeconds: result.measuredSeconds, queuedSeconds };
+  }
+
+  async close(): Promise<void> {
+    await this.pool?.destroy();
+  }
+}

@@ -1,0 +1,271 @@
+// The worker process: joins a coordinator (challenge -> hello with the token's proof ->
+// welcome), hosts the clients it is dealt, and answers every down with an up after the client's
+// local work, paced by the speed and link models. Every incoming frame is validated; a bad one
+// gets an error reply with its code and is otherwise ignored.
+
+import { performance } from 'node:perf_hooks';
+import type WebSocket from 'ws';
+import {
+  HANDSHAKE_LIMITS,
+  PROTOCOL_VERSION,
+  ProtocolError,
+  encodeMessage,
+  fromWire,
+  proveToken,
+  receiveMessage,
+  toWire,
+  type DownMessage,
+  type Message,
+  type MessageType,
+  type ProtocolLimits,
+  type WelcomeMessage,
+  type WireFields,
+} from '../src/protocol/index.js';
+import type { EncodedFields } from '../src/engine/client-runtime.js';
+import type { WirePlan } from '../src/engine/run-plan.js';
+import { encodedPayloadBytes } from '../src/engine/in-process-engine.js';
+import { methodByName } from '../src/algorithm/registry.js';
+import { validateScenario } from '../src/scenario/validate-scenario.js';
+import { speedModelFor } from '../src/timing/round-speed.js';
+import { ClientHost } from './client-host.js';
+import { connectWithRetry, DEFAULT_RETRY_POLICY, JoinError, type RetryPolicy } from './connection.js';
+import { LinkShaper } from './link.js';
+import { ComputePacer } from './speed.js';
+
+export interface WorkerOptions {
+  url: string;
+  token: string;
+  slots: number;
+  workerName: string;
+  /** most pool threads when hosting several clients */
+  threadsMax: number;
+  retry?: RetryPolicy;
+  log: (line: string) => void;
+}
+
+export interface WorkerExit {
+  /** the coordinator's done reason, or why the worker stopped */
+  reason: string;
+  clientIds: number[];
+}
+
+/** A worker trusts the coordinator it joined for frame sizes; this only bounds a runaway peer. */
+const WORKER_FRAME_BYTES_MAX = 512 * 1024 * 1024;
+
+interface Hosting {
+  plan: WirePlan;
+  clientIds: Set<number>;
+  exchanges: readonly string[];
+  host: ClientHost;
+  link: LinkShaper;
+  pacer: ComputePacer;
+  limits: ProtocolLimits;
+}
+
+function parsePlan(welcome: WelcomeMessage): WirePlan {
+  const raw = welcome.plan as Partial<Record<keyof WirePlan, unknown>>;
+  let scenario: WirePlan['scenario'];
+  try {
+    scenario = validateScenario(raw.scenario);
+  } catch (error) {
+    throw new ProtocolError('E_TYPE', `welcome.plan.scenario: ${(error as Error).message}`);
+  }
+  const dim = raw.dim;
+  const config = raw.methodConfig as WirePlan['methodConfig'] | undefined;
+  if (typeof dim !== 'number' || !Number.isSafeInteger(dim) || dim < 1) throw new ProtocolError('E_TYPE', 'welcome.plan.dim: a positive integer expected');
+  const numbers = ['clientCount', 'stepSize', 'serverStepSize', 'proxCoefficient', 'proxTolerance'] as const;
+  if (config === undefined || config === null || numbers.some((k) => typeof config[k] !== 'number' || !Number.isFinite(config[k]))) {
+    throw new ProtocolError('E_TYPE', `welcome.plan.methodConfig: finite numbers expected for ${numbers.join(', ')}`);
+  }
+  if (welcome.assignments.some((id) => id >= scenario.clients.count)) throw new ProtocolError('E_CLIENT', 'welcome.assignments: a client id beyond the plan\'s clients');
+  return { scenario, methodConfig: { clientCount: config.clientCount, stepSize: config.stepSize, serverStepSize: config.serverStepSize, proxCoefficient: config.proxCoefficient, proxTolerance: config.proxTolerance }, dim };
+}
+
+export class Worker {
+  private readonly options: WorkerOptions;
+  private ws: WebSocket | null = null;
+  private phase: 'challenge' | 'welcome' | 'active' | 'done' = 'challenge';
+  private hosting: Hosting | null = null;
+  private heartbeatTimer: NodeJS.Timeout | null = null;
+  private lastHeardMs = performance.now();
+  private finish: (exit: WorkerExit) => void = () => undefined;
+  private fail: (error: Error) => void = () => undefined;
+
+  constructor(options: WorkerOptions) {
+    this.options = options;
+  }
+
+  /** Joins, works until the coordinator says done; rejects if refused or cut off. */
+  async run(): Promise<WorkerExit> {
+    const ended = new Promise<WorkerExit>((resolve, reject) => {
+      this.finish = resolve;
+      this.fail = reject;
+    });
+    const ws = await connectWithRetry(this.options.url, this.options.retry ?? DEFAULT_RETRY_POLICY, WORKER_FRAME_BYTES_MAX,
+      (frame, socket) => {
+        // The first frame may come before the connection's promise settles; answer on its socket.
+        this.ws = socket;
+        this.receive(frame);
+      },
+      this.options.log,
+    );
+    this.ws = ws;
+    try {
+      return await new Promise<WorkerExit>((resolve, reject) => {
+        ended.then(resolve, reject);
+        ws.on('close', () => {
+          if (this.phase !== 'done') reject(new JoinError(this.phase === 'active' ? 'the coordinator closed the connection mid-run' : 'the coordinator closed the connection before the run'));
+        });
+        ws.on('error', (error) => this.options.log(`connection error: ${error.message}`));
+      });
+    } finally {
+      await this.stop();
+    }
+  }
+
+  /** Closes the connection and the client pool. */
+  async stop(): Promise<void> {
+    if (this.heartbeatTimer !== null) clearInterval(this.heartbeatTimer);
+    this.heartbeatTimer = null;
+    if (this.ws !== null && this.ws.readyState === this.ws.OPEN) this.ws.close(1000, 'worker done');
+    await this.hosting?.host.close();
+  }
+
+  private send(message: Message): void {
+    if (this.ws !== null && this.ws.readyState === this.ws.OPEN) this.ws.send(encodeMessage(message), { binary: true });
+  }
+
+  private expectedTypes(): MessageType[] {
+    switch (this.phase) {
+      case 'challenge':
+        return ['challenge', 'error'];
+      case 'welcome':
+        return ['welcome', 'error'];
+      default:
+        return ['down', 'heartbeat', 'error', 'done'];
+    }
+  }
+
+  private receive(frame: Uint8Array): void {
+    this.lastHeardMs = performance.now();
+    const limits = this.hosting?.limits ?? HANDSHAKE_LIMITS;
+    let message: Message;
+    try {
+      message = receiveMessage(frame, {
+        limits,
+        expectedTypes: this.expectedTypes(),
+        expectedRound: null,
+        expectedExchange: null,
+        ownedClientIds: this.hosting?.clientIds ?? null,
+        fieldDims: null,
+        auth: null,
+      });
+      this.handle(message);
+    } catch (error) {
+      if (!(error instanceof ProtocolError)) {
+        this.fail(error as Error);
+        return;
+      }
+      this.options.log(`bad message from the coordinator (${error.code}): ${error.message}`);
+      this.send({ type: 'error', code: error.code, message: error.message.slice(0, limits.maxErrorMessageLength) });
+      // Before the run, a bad challenge or welcome leaves nothing to work with.
+      if (this.phase !== 'active') this.fail(new JoinError(`the coordinator's ${this.phase} was refused (${error.code}): ${error.message}`));
+    }
+  }
+
+  private handle(message: Message): void {
+    switch (message.type) {
+      case 'challenge':
+        this.phase = 'welcome';
+        this.send({ type: 'hello', protocolVersion: PROTOCOL_VERSION, workerName: this.options.workerName, slots: this.options.slots, proof: proveToken(this.options.token, message.nonce) });
+        return;
+      case 'welcome':
+        this.welcome(message);
+        return;
+      case 'down':
+        this.down(message);
+        return;
+      case 'error':
+        if (this.phase !== 'active') this.fail(new JoinError(`refused by the coordinator (${message.code}): ${message.message}`));
+        else this.options.log(`the coordinator reported ${message.code}: ${message.message}`);
+        return;
+      case 'done':
+        this.phase = 'done';
+        this.finish({ reason: message.reason, clientIds: [...(this.hosting?.clientIds ?? [])].sort((a, b) => a - b) });
+        return;
+      default:
+        return;
+    }
+  }
+
+  private welcome(message: WelcomeMessage): void {
+    const plan = parsePlan(message);
+    if (message.assignments.length > this.options.slots) throw new ProtocolError('E_SIZE', `welcome.assignments: ${message.assignments.length} clients for ${this.options.slots} slots`);
+    const wall = plan.scenario.timing.clock === 'wall';
+    this.hosting = {
+      plan,
+      clientIds: new Set(message.assignments),
+      exchanges: methodByName(plan.scenario.method.name).exchanges,
+      host: new ClientHost(plan, message.assignments, { threadsMax: this.options.slots }),
+      link: new LinkShaper(plan.scenario.timing.links, wall),
+      pacer: new ComputePacer(speedModelFor(plan.scenario.timing, plan.scenario.clients.count, plan.scenario.seed), wall),
+      limits: message.limits,
+    };
+    this.phase = 'active';
+    this.options.log(`hosting clients ${message.assignments.join(', ')} of "${plan.scenario.name}" (${plan.scenario.method.name})`);
+    this.startHeartbeats(message.limits);
+  }
+
+  private startHeartbeats(limits: ProtocolLimits): void {
+    this.heartbeatTimer = setInterval(() => {
+      if (performance.now() - this.lastHeardMs > limits.heartbeatSilenceSeconds * 1000) {
+        this.fail(new JoinError(`the coordinator was silent for more than ${limits.heartbeatSilenceSeconds} s`));
+        return;
+      }
+      this.send({ type: 'heartbeat', sentAtMs: Date.now() });
+    }, limits.heartbeatIntervalSeconds * 1000);
+    this.heartbeatTimer.unref();
+  }
+
+  private down(message: DownMessage): void {
+    const hosting = this.hosting!;
+    if (!hosting.exchanges.includes(message.exchange)) {
+      throw new ProtocolError('E_ROUND', `down.exchange: "${message.exchange}" is not an exchange of ${hosting.plan.scenario.method.name}`);
+    }
+    const encodedDown: EncodedFields = {};
+    for (const [name, wv] of Object.entries(message.fields)) {
+      if (wv.dim !== hosting.plan.dim) throw new ProtocolError('E_DIMENSION', `down.fields.${name}.dim: the plan says ${hosting.plan.dim}, got ${wv.dim}`);
+      encodedDown[name] = fromWire(wv, `down.fields.${name}`);
+    }
+    void this.answer(hosting, message, encodedDown).catch((error: Error) => this.reportFailure(message, error));
+  }
+
+  private async answer(hosting: Hosting, message: DownMessage, encodedDown: EncodedFields): Promise<void> {
+    const { clientId, round, exchange } = message;
+    const downSeconds = await hosting.link.received(encodedPayloadBytes(encodedDown));
+    const result = await hosting.host.work({ clientId, round, exchange, encodedDown, localSteps: message.localSteps, stepSize: message.stepSize });
+    const computeSeconds = await hosting.pacer.pace(clientId, round, result.stepsTaken, result.measuredSeconds);
+    const fields: WireFields = {};
+    for (const [name, cv] of Object.entries(result.encodedUp)) fields[name] = toWire(cv, `up.fields.${name}`);
+    const upSeconds = await hosting.link.beforeSend(encodedPayloadBytes(result.encodedUp));
+    this.send({
+      type: 'up',
+      round,
+      exchange,
+      clientId,
+      fields,
+      localSteps: result.stepsTaken,
+      computeSeconds,
+      waitSeconds: result.queuedSeconds,
+      transferSeconds: downSeconds + upSeconds,
+    });
+  }
+
+  /** A client that cannot answer (a diverged update, a method fault) tells the coordinator why. */
+  private reportFailure(message: DownMessage, error: Error): void {
+    const code = error instanceof ProtocolError ? error.code : 'E_TYPE';
+    const limit = this.hosting?.limits.maxErrorMessageLength ?? HANDSHAKE_LIMITS.maxErrorMessageLength;
+    this.options.log(`client ${message.clientId}, round ${message.round} (${message.exchange}) failed: ${error.message}`);
+    this.send({ type: 'error', code, message: `client ${message.clientId}, round ${message.round}, exchange ${message.exchange}: ${error.message}`.slice(0, limit) });
+  }
+}

@@ -1,0 +1,299 @@
+// The coordinator: listens, authenticates workers, deals clients, drives the rounds (rounds.ts)
+// and collects what the run produced. Every incoming frame is validated before use; a bad one
+// gets an error reply with its code and is counted, and the run goes on unchanged.
+
+import { performance } from 'node:perf_hooks';
+import type { Socket } from 'node:net';
+import type { WebSocket } from 'ws';
+import type { Scenario } from '../src/scenario/schema.js';
+import { planFor } from '../src/engine/in-process-engine.js';
+import type { RunPlan, WirePlan } from '../src/engine/run-plan.js';
+import type { PlanTheory } from '../src/theory/plan-theory.js';
+import type { RoundRecord } from '../src/engine/round-record.js';
+import {
+  HANDSHAKE_LIMITS,
+  ProtocolError,
+  limitsForPlan,
+  receiveMessage,
+  type DoneReason,
+  type ProtocolLimits,
+} from '../src/protocol/index.js';
+import { ByteLedger } from './byte-ledger.js';
+import { fieldShapesFor, type FieldShapes } from './field-shapes.js';
+import { awaitHello, CLOSE_POLICY_VIOLATION } from './handshake.js';
+import { startListener, type Listener, type TlsFiles } from './listener.js';
+import { Liveness } from './liveness.js';
+import { OraclePool } from './oracle-pool.js';
+import { ProtocolErrorCounter } from './protocol-error-counter.js';
+import { RoundDriver, type StopReason } from './rounds.js';
+import type { RunOutcome } from './run-outcome.js';
+import { RuntimeError } from './runtime-error.js';
+import { WorkerRegistry } from './worker-registry.js';
+import { WorkerSession } from './worker-session.js';
+
+export interface CoordinatorOptions {
+  host: string;
+  /** 0: the OS picks */
+  port: number;
+  token: string;
+  tls: TlsFiles | null;
+  /** the run starts once this many workers joined and their slots cover every client */
+  workersMin: number;
+  workersMax: number;
+  maxClientsPerWorker: number;
+  joinTimeoutSeconds: number;
+  handshakeTimeoutSeconds: number;
+  exchangeTimeoutSeconds: number;
+  wallGraceSeconds: number;
+  /** heartbeat timing; the protocol's defaults when absent */
+  heartbeat?: { intervalSeconds: number; silenceSeconds: number };
+  onRound?: (record: RoundRecord) => void;
+  log: (line: string) => void;
+}
+
+/** WebSocket close code 1000, normal closure (RFC 6455 section 7.4.1). */
+const CLOSE_NORMAL = 1000;
+
+const DONE_REASON_OF: Record<StopReason, DoneReason> = {
+  'target-reached': 'target-reached',
+  'rounds-complete': 'rounds-complete',
+  diverged: 'failed',
+  'workers-lost': 'failed',
+  stopped: 'stopped',
+};
+
+export class Coordinator {
+  readonly plan: RunPlan;
+  private readonly theory: PlanTheory;
+  private readonly options: CoordinatorOptions;
+  private readonly shapes: FieldShapes;
+  private readonly oracle: OraclePool;
+  private readonly registry: WorkerRegistry;
+  private readonly ledger = new ByteLedger();
+  private readonly errors = new ProtocolErrorCounter();
+  private readonly driver: RoundDriver;
+  private readonly liveness: Liveness;
+  private readonly sessions: WorkerSession[] = [];
+  private readonly limitsOf = new Map<WorkerSession, ProtocolLimits>();
+  private readonly startedMs = performance.now();
+  private listener: Listener | null = null;
+  private nextSessionId = 1;
+  private joinChanged: () => void = () => undefined;
+  private stopRequested = false;
+
+  constructor(scenario: Scenario, options: CoordinatorOptions) {
+    this.options = options;
+    const { plan, theory } = planFor(scenario);
+    this.plan = plan;
+    this.theory = theory;
+    this.shapes = fieldShapesFor(plan, theory.instance.objectives[0]);
+    this.registry = new WorkerRegistry({
+      clientCount: plan.clientCount,
+      workersMin: options.workersMin,
+      workersMax: options.workersMax,
+      maxClientsPerWorker: options.maxClientsPerWorker,
+    });
+    this.oracle = new OraclePool(scenario);
+    const nowMs = () => performance.now();
+    this.driver = new RoundDriver({
+      plan,
+      registry: this.registry,
+      ledger: this.ledger,
+      evaluate: (x) => this.oracle.evaluate(x),
+      exchangeTimeoutSeconds: options.exchangeTimeoutSeconds,
+      wallGraceSeconds: options.wallGraceSeconds,
+      nowMs,
+      onRound: options.onRound,
+    });
+    const heartbeat = options.heartbeat ?? { intervalSeconds: HANDSHAKE_LIMITS.heartbeatIntervalSeconds, silenceSeconds: HANDSHAKE_LIMITS.heartbeatSilenceSeconds };
+    this.liveness = new Liveness({
+      ...heartbeat,
+      sessions: () => this.registry.activeSessions(),
+      sendHeartbeat: (session) => this.sendControl(session, { type: 'heartbeat', sentAtMs: Date.now() }),
+      onSilent: (session) => this.loseWorker(session, `silent for more than ${heartbeat.silenceSeconds} s`),
+      nowMs,
+    });
+  }
+
+  /** Starts listening; resolves to the URL workers join with. */
+  async listen(): Promise<string> {
+    const planLimits = this.limitsFor(1);
+    this.listener = await startListener(
+      {
+        host: this.options.host,
+        port: this.options.port,
+        tls: this.options.tls,
+        maxFrameBytes: Math.max(planLimits.maxFrameBytes, HANDSHAKE_LIMITS.maxFrameBytes),
+        connectionsMax: this.options.workersMax * 2,
+      },
+      (ws, socket) => void this.accept(ws, socket),
+    );
+    return this.listener.url;
+  }
+
+  private limitsFor(clientsPerWorker: number): ProtocolLimits {
+    const heartbeat = this.options.heartbeat;
+    return {
+      ...limitsForPlan({ downFieldDims: this.shapes.down, upFieldDims: this.shapes.up, clientsPerWorker }),
+      ...(heartbeat ? { heartbeatIntervalSeconds: heartbeat.intervalSeconds, heartbeatSilenceSeconds: heartbeat.silenceSeconds } : {}),
+    };
+  }
+
+  private sendControl(session: WorkerSession, message: Parameters<WorkerSession['send']>[0]): void {
+    const sent = session.send(message);
+    this.ledger.recordControlMessage('down', sent.encodedBytes, sent.wireBytes);
+  }
+
+  private async accept(ws: WebSocket, socket: Socket): Promise<void> {
+    const session = new WorkerSession(this.nextSessionId++, ws, socket, performance.now());
+    this.sessions.push(session);
+    session.onClose(() => this.closed(session));
+    const hello = await awaitHello(session, { token: this.options.token, timeoutSeconds: this.options.handshakeTimeoutSeconds, ledger: this.ledger, errors: this.errors, log: this.options.log });
+    if (hello === null) return;
+    session.workerName = hello.workerName;
+    session.slots = hello.slots;
+    if (this.stopRequested || !this.registry.join(session)) {
+      this.sendControl(session, { type: 'error', code: 'E_CLIENT', message: 'the run has no clients left to host' });
+      session.state = 'refused';
+      session.close(CLOSE_POLICY_VIOLATION, 'no clients left');
+      return;
+    }
+    session.onFrame((frame, wireBytes) => this.receive(session, frame, wireBytes));
+    this.options.log(`${session.label()} joined with ${hello.slots} slots (${this.registry.workersJoined()} workers, ${this.registry.slotsJoined()} slots for ${this.plan.clientCount} clients)`);
+    this.joinChanged();
+  }
+
+  private receive(session: WorkerSession, frame: Uint8Array, wireBytes: number): void {
+    session.lastHeardMs = performance.now();
+    const active = session.state === 'active';
+    const limits = this.limitsOf.get(session) ?? HANDSHAKE_LIMITS;
+    try {
+      const expectation = this.plan.scenario.timing.clock === 'virtual' ? this.driver.expectation() : null;
+      const message = receiveMessage(frame, {
+        limits,
+        expectedTypes: active ? ['up', 'heartbeat', 'error'] : ['heartbeat', 'error'],
+        expectedRound: expectation?.round ?? null,
+        expectedExchange: expectation?.exchange ?? null,
+        ownedClientIds: session.clientIds,
+        fieldDims: this.shapes.up,
+        auth: null,
+      });
+      if (message.type === 'up') {
+        this.driver.acceptUp(message, frame.byteLength, wireBytes);
+        return;
+      }
+      this.ledger.recordControlMessage('up', frame.byteLength, wireBytes);
+      if (message.type === 'error') {
+        this.errors.countReported(message.code);
+        this.options.log(`${session.label()} reported ${message.code}: ${message.message}`);
+        if (message.code === 'E_NOT_FINITE') this.driver.divergenceReported();
+      }
+    } catch (error) {
+      if (!(error instanceof ProtocolError)) throw error;
+      this.ledger.recordControlMessage('up', frame.byteLength, wireBytes);
+      this.errors.countReceived(error.code);
+      this.sendControl(session, { type: 'error', code: error.code, message: error.message.slice(0, limits.maxErrorMessageLength) });
+    }
+  }
+
+  private closed(session: WorkerSession): void {
+    if (session.state === 'joined') {
+      this.registry.leave(session);
+      this.options.log(`${session.label()} left before the run started`);
+    } else if (session.state === 'active') {
+      this.loseWorker(session, 'connection closed');
+    }
+  }
+
+  private loseWorker(session: WorkerSession, reason: string): void {
+    const clientIds = this.registry.markLost(session, this.driver.round, reason);
+    if (clientIds.length === 0) return;
+    this.options.log(`${session.label()} lost in round ${this.driver.round} (${reason}); clients ${clientIds.join(', ')} leave the run`);
+    session.terminate();
+    this.driver.clientsLost(clientIds);
+  }
+
+  private waitForWorkers(): Promise<void> {
+    return new Promise((resolve, reject) => {
+      const timer = setTimeout(() => {
+        this.joinChanged = () => undefined;
+        reject(new RuntimeError('E_NOT_ENOUGH_WORKERS', `after ${this.options.joinTimeoutSeconds} s, ${this.registry.workersJoined()} workers with ${this.registry.slotsJoined()} slots joined; ${this.plan.clientCount} clients need hosts (at least ${this.options.workersMin} workers)`));
+      }, this.options.joinTimeoutSeconds * 1000);
+      this.joinChanged = () => {
+        if (this.stopRequested) {
+          clearTimeout(timer);
+          reject(new RuntimeError('E_STOPPED', 'stopped while waiting for workers'));
+        } else if (this.registry.isReady()) {
+          clearTimeout(timer);
+          this.joinChanged = () => undefined;
+          resolve();
+        }
+      };
+      this.joinChanged();
+    });
+  }
+
+  private welcomeAll(): void {
+    const wire: WirePlan = { scenario: this.plan.scenario, methodConfig: this.plan.methodConfig, dim: this.plan.dim };
+    for (const [session, clientIds] of this.registry.assign()) {
+      const limits = this.limitsFor(Math.max(1, clientIds.length));
+      this.limitsOf.set(session, limits);
+      this.sendControl(session, { type: 'welcome', assignments: clientIds, plan: wire as unknown as Record<string, unknown>, limits });
+      this.options.log(`${session.label()} hosts clients ${clientIds.join(', ')}`);
+    }
+  }
+
+  /** Waits for workers, runs every round, says done; resolves to what the run produced. */
+  async run(): Promise<RunOutcome> {
+    await this.waitForWorkers();
+    this.welcomeAll();
+    this.liveness.start();
+    const result = await this.driver.run(() => (performance.now() - this.startedMs) / 1000);
+    this.liveness.stop();
+    const reason = DONE_REASON_OF[result.stopReason];
+    for (const session of this.registry.activeSessions()) this.sendControl(session, { type: 'done', reason });
+    const socketBytes = { up: 0, down: 0 };
+    for (const session of this.sessions) {
+      const totals = session.wireTotals();
+      socketBytes.up += totals.readBytes;
+      socketBytes.down += totals.writtenBytes;
+    }
+    for (const session of this.registry.activeSessions()) {
+      session.state = 'finished';
+      session.close(CLOSE_NORMAL, 'done');
+    }
+    const layers = this.ledger.roundTotals();
+    return {
+      plan: this.plan,
+      theory: this.theory,
+      rounds: result.rounds,
+      clients: result.clients,
+      finalModel: result.finalModel,
+      stopReason: result.stopReason,
+      wallSeconds: (performance.now() - this.startedMs) / 1000,
+      virtualSeconds: result.virtualSeconds,
+      bytesLayers: layers,
+      controlBytes: this.ledger.controlTotals(),
+      socketBytes,
+      payloadBytesByField: this.ledger.payloadByField(),
+      workers: this.registry.sessions().map((s) => ({ workerName: s.workerName, clientIds: [...s.clientIds].sort((a, b) => a - b) })),
+      lostWorkers: [...this.registry.lost],
+      protocolErrors: this.errors.snapshot(),
+    };
+  }
+
+  /** Stops the run after the exchange in progress (SIGINT); run() then resolves with 'stopped'. */
+  stop(): void {
+    this.stopRequested = true;
+    this.driver.requestStop();
+    this.joinChanged();
+  }
+
+  /** Closes every connection, the listener and the oracle pool. */
+  async close(): Promise<void> {
+    this.liveness.stop();
+    for (const session of this.sessions) session.terminate();
+    await this.listener?.close();
+    await this.oracle.close();
+  }
+}

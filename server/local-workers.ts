@@ -1,0 +1,98 @@
+// Worker processes on this machine for `roundwire run`: each is `node bin/roundwire.js worker`,
+// given the token through its environment (never its command line, which ps shows). They are
+// stopped with the run whatever way it ends; a process exit hook kills any still running.
+
+import { spawn, type ChildProcess } from 'node:child_process';
+import { existsSync } from 'node:fs';
+import { fileURLToPath } from 'node:url';
+
+export interface LocalWorkerSpec {
+  url: string;
+  token: string;
+  slots: number;
+  workerName: string;
+}
+
+/** Lines of a worker's standard error kept to show when the run fails. */
+const STDERR_LINES_KEPT = 40;
+/** After SIGTERM, a worker gets this long to exit before SIGKILL. */
+const TERMINATE_GRACE_MS = 3000;
+
+/** The command-line entry point, found by walking up from this file (it runs from src or dist). */
+export function binPath(): string {
+  let folder = new URL('.', import.meta.url);
+  for (let depth = 0; depth < 6; depth++) {
+    const candidate = new URL('bin/roundwire.js', folder);
+    if (existsSync(candidate)) return fileURLToPath(candidate);
+    folder = new URL('../', folder);
+  }
+  throw new Error('bin/roundwire.js not found above the server folder');
+}
+
+export class LocalWorker {
+  readonly spec: LocalWorkerSpec;
+  readonly child: ChildProcess;
+  readonly exited: Promise<number | null>;
+  private readonly stderrLines: string[] = [];
+  private exitCode: number | null | undefined = undefined;
+
+  constructor(spec: LocalWorkerSpec) {
+    this.spec = spec;
+    this.child = spawn(process.execPath, [binPath(), 'worker', '--join', spec.url, '--slots', String(spec.slots), '--name', spec.workerName], {
+      env: { ...process.env, ROUNDWIRE_TOKEN: spec.token },
+      stdio: ['ignore', 'ignore', 'pipe'],
+    });
+    let partial = '';
+    this.child.stderr!.setEncoding('utf8');
+    this.child.stderr!.on('data', (text: string) => {
+      const lines = (partial + text).split('\n');
+      partial = lines.pop() ?? '';
+      this.stderrLines.push(...lines);
+      if (this.stderrLines.length > STDERR_LINES_KEPT) this.stderrLines.splice(0, this.stderrLines.length - STDERR_LINES_KEPT);
+    });
+    this.exited = new Promise((resolve) => {
+      this.child.once('exit', (code) => {
+        this.exitCode = code;
+        resolve(code);
+      });
+      this.child.once('error', () => {
+        this.exitCode = null;
+        resolve(null);
+      });
+    });
+  }
+
+  isRunning(): boolean {
+    return this.exitCode === undefined;
+  }
+
+  recentStderr(): string[] {
+    return [...this.stderrLines];
+  }
+
+  /** Resolves to true if the process exits by itself within `seconds`. */
+  async exitsWithin(seconds: number): Promise<boolean> {
+    if (!this.isRunning()) return true;
+    let timer: NodeJS.Timeout | undefined;
+    const timeout = new Promise<false>((resolve) => {
+      timer = setTimeout(() => resolve(false), seconds * 1000);
+    });
+    const exited = await Promise.race([this.exited.then(() => true as const), timeout]);
+    clearTimeout(timer);
+    return exited;
+  }
+
+  /** SIGTERM, then SIGKILL after a grace period; resolves once the process is gone. */
+  async stop(): Promise<void> {
+    if (!this.isRunning()) return;
+    this.child.kill('SIGTERM');
+    const timer = setTimeout(() => this.child.kill('SIGKILL'), TERMINATE_GRACE_MS);
+    await this.exited;
+    clearTimeout(timer);
+  }
+
+  /** Synchronous last resort (process exit hook). */
+  killNow(): void {
+    if (this.isRunning()) this.child.kill('SIGKILL');
+  }
+}

@@ -1,0 +1,47 @@
+// What the coordinator adds to the run's summary beside the fields both runtimes share: the
+// engine's outcome shape for the shared summary, and the distributed details (control traffic,
+// the sockets' own counters, bytes by field, workers, lost workers, protocol errors).
+
+import type { RunOutcome as EngineOutcome } from '../src/engine/run-summary.js';
+import type { RunOutcome } from './run-outcome.js';
+
+export function engineOutcomeOf(outcome: RunOutcome): EngineOutcome {
+  return {
+    plan: outcome.plan,
+    theory: outcome.theory,
+    rounds: outcome.rounds,
+    clients: outcome.clients,
+    finalModel: outcome.finalModel,
+    stopReason: outcome.stopReason,
+    wallSeconds: outcome.wallSeconds,
+    bytesLayers: { encoded: outcome.bytesLayers.encoded, wire: outcome.bytesLayers.wire },
+    lostWorkers: outcome.lostWorkers.map((w) => w.workerName),
+    protocolErrors: outcome.protocolErrors.received,
+  };
+}
+
+export interface DistributedDetails {
+  stopReason: RunOutcome['stopReason'];
+  distributed: {
+    controlBytes: RunOutcome['controlBytes'];
+    socketBytes: RunOutcome['socketBytes'];
+    payloadBytesByField: RunOutcome['payloadBytesByField'];
+    workers: RunOutcome['workers'];
+    lostWorkers: RunOutcome['lostWorkers'];
+    protocolErrorsReported: Record<string, number>;
+  };
+}
+
+export function distributedDetails(outcome: RunOutcome): DistributedDetails {
+  return {
+    stopReason: outcome.stopReason,
+    distributed: {
+      controlBytes: outcome.controlBytes,
+      socketBytes: outcome.socketBytes,
+      payloadBytesByField: outcome.payloadBytesByField,
+      workers: outcome.workers,
+      lostWorkers: outcome.lostWorkers,
+      protocolErrorsReported: outcome.protocolErrors.reported,
+    },
+  };
+}

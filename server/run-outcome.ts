@@ -1,0 +1,30 @@
+// What a distributed run produces: the engine's result shape (so that the same summary and
+// results code serve both) plus the layers of bytes, lost workers and protocol errors.
+
+import type { RunPlan } from '../src/engine/run-plan.js';
+import type { PlanTheory } from '../src/theory/plan-theory.js';
+import type { ClientRoundRecord, RoundRecord } from '../src/engine/round-record.js';
+import type { DirectionBytes } from './byte-ledger.js';
+import type { LostWorker } from './worker-registry.js';
+import type { StopReason } from './rounds.js';
+
+export interface RunOutcome {
+  plan: RunPlan;
+  theory: PlanTheory;
+  rounds: RoundRecord[];
+  clients: ClientRoundRecord[];
+  finalModel: Float64Array;
+  stopReason: StopReason;
+  wallSeconds: number;
+  virtualSeconds: number;
+  /** round traffic (down and up messages) at the three layers */
+  bytesLayers: { payload: DirectionBytes; encoded: DirectionBytes; wire: DirectionBytes };
+  /** handshake, heartbeats, errors and done: no payload */
+  controlBytes: { encoded: DirectionBytes; wire: DirectionBytes };
+  /** the sockets' own counters summed over every worker connection since its upgrade */
+  socketBytes: DirectionBytes;
+  payloadBytesByField: { up: Record<string, number>; down: Record<string, number> };
+  workers: { workerName: string; clientIds: number[] }[];
+  lostWorkers: LostWorker[];
+  protocolErrors: { received: Record<string, number>; reported: Record<string, number> };
+}

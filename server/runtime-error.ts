@@ -1,0 +1,23 @@
+// Errors of the distributed runtime that a caller may branch on (the CLI maps them to exit codes).
+
+export type RuntimeErrorCode =
+  /** the workers that joined cannot host every client, or a join timed out */
+  | 'E_NOT_ENOUGH_WORKERS'
+  /** every worker was lost; the run cannot go on */
+  | 'E_ALL_WORKERS_LOST'
+  /** listening beyond loopback without a token */
+  | 'E_INSECURE_LISTEN'
+  /** a worker could not reach or join the coordinator */
+  | 'E_JOIN'
+  /** the run was stopped (SIGINT, SIGTERM) */
+  | 'E_STOPPED';
+
+export class RuntimeError extends Error {
+  readonly code: RuntimeErrorCode;
+
+  constructor(code: RuntimeErrorCode, message: string) {
+    super(message);
+    this.name = 'RuntimeError';
+    this.code = code;
+  }
+}

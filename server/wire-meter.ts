@@ -1,0 +1,108 @@
+// Wire bytes from the socket itself. Sends: the socket's bytesWritten before and after ws
+// writes a frame (ws writes synchronously when permessage-deflate is off, which the listener
+// ensures). Receives: the bytes of the raw stream are walked frame by frame (RFC 6455 section
+// 5.2 header: 2 bytes, a 16- or 64-bit extended length, a 4-byte mask key when masked), so that
+// each data message ws emits can be matched with the bytes it occupied on the socket, control
+// frames (close, ping, pong) apart. Counting starts after the HTTP upgrade.
+
+import type { Socket } from 'node:net';
+
+const OPCODE_CONTINUATION = 0x0;
+const CONTROL_OPCODE_MIN = 0x8;
+
+export class WireMeter {
+  private readonly socket: Socket;
+  private readonly readBaselineBytes: number;
+  private readonly writeBaselineBytes: number;
+  /** bytes of the frame header being read; grows until the header is complete */
+  private header: number[] = [];
+  /** payload bytes still to come in the current frame */
+  private payloadRemainingBytes = 0;
+  private currentFrameBytes = 0;
+  private currentFrameIsControl = false;
+  private currentFrameFin = false;
+  /** bytes of the data message being assembled (several frames if the peer fragments) */
+  private messageBytes = 0;
+  /** wire bytes of data messages read but not yet taken by the 'message' handler */
+  private readonly completedMessageBytes: number[] = [];
+  /** wire bytes of control frames received */
+  controlReadBytes = 0;
+
+  constructor(socket: Socket) {
+    this.socket = socket;
+    this.readBaselineBytes = socket.bytesRead;
+    this.writeBaselineBytes = socket.bytesWritten;
+    // Before ws's own listener, so that a message's bytes are counted when ws emits it.
+    socket.prependListener('data', (chunk: Buffer) => this.scan(chunk));
+  }
+
+  /** Runs `write` (one ws send) and returns the bytes it put on the socket. */
+  measureWrite(write: () => void): number {
+    const before = this.socket.bytesWritten;
+    write();
+    return this.socket.bytesWritten - before;
+  }
+
+  /** Wire bytes of the next data message ws emits (call once per 'message' event). */
+  takeMessageBytes(): number {
+    return this.completedMessageBytes.shift() ?? 0;
+  }
+
+  /** The socket's own counters since the upgrade. */
+  totals(): { readBytes: number; writtenBytes: number } {
+    return { readBytes: this.socket.bytesRead - this.readBaselineBytes, writtenBytes: this.socket.bytesWritten - this.writeBaselineBytes };
+  }
+
+  private headerLength(): number {
+    if (this.header.length < 2) return 2;
+    const lengthCode = this.header[1] & 0x7f;
+    const masked = (this.header[1] & 0x80) !== 0;
+    return 2 + (lengthCode === 126 ? 2 : lengthCode === 127 ? 8 : 0) + (masked ? 4 : 0);
+  }
+
+  private startPayload(): void {
+    const h = this.header;
+    const opcode = h[0] & 0x0f;
+    const lengthCode = h[1] & 0x7f;
+    let payloadBytes = lengthCode;
+    if (lengthCode === 126) payloadBytes = (h[2] << 8) | h[3];
+    else if (lengthCode === 127) {
+      payloadBytes = 0;
+      for (let i = 2; i < 10; i++) payloadBytes = payloadBytes * 256 + h[i];
+    }
+    this.currentFrameFin = (h[0] & 0x80) !== 0;
+    this.currentFrameIsControl = opcode >= CONTROL_OPCODE_MIN && opcode !== OPCODE_CONTINUATION;
+    this.currentFrameBytes = h.length + payloadBytes;
+    this.payloadRemainingBytes = payloadBytes;
+    this.header = [];
+    if (payloadBytes === 0) this.finishFrame();
+  }
+
+  private finishFrame(): void {
+    if (this.currentFrameIsControl) {
+      this.controlReadBytes += this.currentFrameBytes;
+      return;
+    }
+    this.messageBytes += this.currentFrameBytes;
+    if (this.currentFrameFin) {
+      this.completedMessageBytes.push(this.messageBytes);
+      this.messageBytes = 0;
+    }
+  }
+
+  private scan(chunk: Buffer): void {
+    let i = 0;
+    while (i < chunk.length) {
+      if (this.payloadRemainingBytes > 0) {
+        const take = Math.min(this.payloadRemainingBytes, chunk.length - i);
+        this.payloadRemainingBytes -= take;
+        i += take;
+        if (this.payloadRemainingBytes === 0) this.finishFrame();
+        continue;
+      }
+      this.header.push(chunk[i]);
+      i += 1;
+      if (this.header.length === this.headerLength()) this.startPayload();
+    }
+  }
+}

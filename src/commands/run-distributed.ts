@@ -1,0 +1,135 @@
+// `roundwire run <scenario>`: the embedded distributed run. A coordinator on 127.0.0.1 (a port
+// the OS picks, a fresh random token) and run.workers local worker processes; a progress line
+// per round; the results folder and the summary. No process outlives the run: children are
+// stopped on success, on failure and on SIGINT or SIGTERM.
+
+import { randomBytes } from 'node:crypto';
+import { readFileSync, writeFileSync } from 'node:fs';
+import { join } from 'node:path';
+import type { Scenario } from '../scenario/schema.js';
+import type { RoundRecord } from '../engine/round-record.js';
+import { resultFiles } from '../results/results-folder.js';
+import { Coordinator, type CoordinatorOptions } from '../../server/coordinator.js';
+import { LocalWorker } from '../../server/local-workers.js';
+import { distributedDetails, engineOutcomeOf } from '../../server/results.js';
+import type { RunOutcome } from '../../server/run-outcome.js';
+import { finishRun, formatRunSummary } from './run-report.js';
+import type { RunSummary } from '../engine/run-summary.js';
+
+/** The run was interrupted (SIGINT, SIGTERM); the CLI exits with 130. */
+export class RunInterrupted extends Error {
+  readonly code = 'E_INTERRUPTED';
+}
+
+/** Limits of an embedded run: local workers start in well under a second each. */
+export const EMBEDDED_LIMITS = {
+  joinTimeoutSeconds: 60,
+  handshakeTimeoutSeconds: 10,
+  exchangeTimeoutSeconds: 300,
+  wallGraceSeconds: 0.5,
+  /** after done, workers close their pools and exit; past this they are stopped */
+  workerExitSeconds: 5,
+} as const;
+
+export interface DistributedRunIo {
+  out: (text: string) => void;
+  err: (text: string) => void;
+  onRound?: (record: RoundRecord) => void;
+}
+
+export interface DistributedRunResult {
+  outcome: RunOutcome;
+  summary: RunSummary;
+}
+
+/**
+ * Writes the results folder: the shared summary (finishRun) with the distributed details
+ * added (the true stop reason, control traffic, socket counters, workers).
+ */
+export function writeDistributedResults(outcome: RunOutcome, outDir: string): RunSummary {
+  const summary = finishRun(engineOutcomeOf(outcome), 'distributed', outDir);
+  const file = join(outDir, resultFiles.summary);
+  const merged = { ...(JSON.parse(readFileSync(file, 'utf8')) as RunSummary), ...distributedDetails(outcome) };
+  writeFileSync(file, `${JSON.stringify(merged, null, 2)}\n`);
+  return merged as unknown as RunSummary;
+}
+
+export function coordinatorOptionsForEmbedded(scenario: Scenario, token: string, workerCount: number, io: DistributedRunIo): CoordinatorOptions {
+  return {
+    host: '127.0.0.1',
+    port: 0,
+    token,
+    tls: null,
+    workersMin: workerCount,
+    workersMax: workerCount,
+    maxClientsPerWorker: Math.ceil(scenario.clients.count / workerCount),
+    ...EMBEDDED_LIMITS,
+    onRound: io.onRound,
+    log: (line) => io.err(`coordinator: ${line}\n`),
+  };
+}
+
+/** Runs the scenario with local worker processes; writes outDir; resolves to the summary. */
+export async function runDistributed(scenario: Scenario, outDir: string, io: DistributedRunIo): Promise<DistributedRunResult> {
+  const workerCount = Math.min(scenario.run.workers, scenario.clients.count);
+  const token = randomBytes(24).toString('hex');
+  const coordinator = new Coordinator(scenario, coordinatorOptionsForEmbedded(scenario, token, workerCount, io));
+  const workers: LocalWorker[] = [];
+  let interrupted: NodeJS.Signals | null = null;
+  let runEnded = false;
+  const killAll = (): void => workers.forEach((w) => w.killNow());
+  const onSignal = (signal: NodeJS.Signals): void => {
+    if (interrupted !== null) {
+      // A second signal: stop waiting for anything.
+      killAll();
+      process.exit(130);
+    }
+    interrupted = signal;
+    io.err(`\n${signal}: stopping the run and its workers\n`);
+    coordinator.stop();
+    for (const w of workers) void w.stop();
+  };
+  process.on('SIGINT', onSignal);
+  process.on('SIGTERM', onSignal);
+  process.on('exit', killAll);
+  try {
+    const url = await coordinator.listen();
+    const slots = Math.ceil(scenario.clients.count / workerCount);
+    for (let i = 0; i < workerCount; i++) {
+      const worker = new LocalWorker({ url, token, slots, workerName: `local-${i + 1}` });
+      workers.push(worker);
+      io.err(`started worker local-${i + 1} (pid ${worker.child.pid})\n`);
+      void worker.exited.then((code) => {
+        // A worker that dies before the run is dealt would leave the join waiting for its timeout.
+        if (code !== 0 && interrupted === null && !runEnded) io.err(`worker local-${i + 1} exited with code ${code}\n${worker.recentStderr().map((l) => `  ${l}`).join('\n')}\n`);
+      });
+    }
+    const outcome = await coordinator.run();
+    runEnded = true;
+    await Promise.all(workers.map((w) => w.exitsWithin(EMBEDDED_LIMITS.workerExitSeconds)));
+    if (interrupted !== null) {
+      writeDistributedResults(outcome, outDir);
+      throw new RunInterrupted(`interrupted by ${interrupted}; partial results in ${outDir}`);
+    }
+    const summary = writeDistributedResults(outcome, outDir);
+    return { outcome, summary };
+  } catch (error) {
+    if (interrupted !== null && !(error instanceof RunInterrupted)) throw new RunInterrupted(`interrupted by ${interrupted}`);
+    throw error;
+  } finally {
+    runEnded = true;
+    await coordinator.close();
+    await Promise.all(workers.map((w) => w.stop()));
+    process.off('SIGINT', onSignal);
+    process.off('SIGTERM', onSignal);
+    process.off('exit', killAll);
+  }
+}
+
+export function formatDistributedSummary(result: DistributedRunResult, outDir: string): string {
+  const { outcome, summary } = result;
+  const lost = outcome.lostWorkers.length === 0 ? 'none' : outcome.lostWorkers.map((w) => `${w.workerName} (round ${w.round}, clients ${w.clientIds.join(' ')})`).join(', ');
+  const errors = Object.entries(outcome.protocolErrors.received).map(([code, n]) => `${code} ${n}`).join(', ') || 'none';
+  const layers = outcome.bytesLayers;
+  return `${formatRunSummary(summary, outDir)}bytes up/down: payload ${layers.payload.up}/${layers.payload.down}, encoded ${layers.encoded.up}/${layers.encoded.down}, wire ${layers.wire.up}/${layers.wire.down}\nworkers: ${outcome.workers.length}, lost: ${lost}; protocol errors: ${errors}; stop: ${outcome.stopReason}\n`;
+}

@@ -1,0 +1,42 @@
+// A client's state survives the trip to a pool thread and back: running every exchange through
+// clientTask (fresh runtime, restore the snapshot, work, snapshot again; the snapshot
+// structured-cloned each way as worker_threads does) gives the very bits that one long-lived
+// ClientRuntime gives. SCAFFOLD keeps a control variate, and top-k with error feedback on both
+// channels keeps memories and replicas, so every part of the snapshot matters.
+
+import { describe, expect, it } from 'vitest';
+import clientTask from '../../client/client-task.js';
+import { ClientRuntime, type EncodedFields } from '../../src/engine/client-runtime.js';
+import { ServerRuntime } from '../../src/engine/server-runtime.js';
+import { planFor } from '../../src/engine/in-process-engine.js';
+import { clientObjective } from '../../src/problem/problem-instance.js';
+import { loadScenarioFile } from '../../src/scenario/load-scenario.js';
+import { repoRoot } from '../integration/cli-process.js';
+
+function bits(fields: EncodedFields): string {
+  return JSON.stringify(Object.entries(fields).map(([name, cv]) => [name, cv.dim, cv.indices ? Array.from(cv.indices) : null, Array.from(new Uint8Array(cv.values.buffer, cv.values.byteOffset, cv.values.byteLength))]));
+}
+
+describe('clientTask snapshots', () => {
+  it('continue a client bit for bit across fresh runtimes', () => {
+    const scenario = loadScenarioFile(`${repoRoot}scenarios/quickstart.yaml`, [
+      'method.name=scaffold',
+      'compression.uplink.default={kind: top-k, fraction: 0.25}',
+      'compression.downlink.default={kind: top-k, fraction: 0.5}',
+    ]);
+    const { plan } = planFor(scenario);
+    const server = new ServerRuntime(plan);
+    const clientId = 3;
+    const direct = new ClientRuntime(plan, clientId, clientObjective(scenario, clientId));
+    let snapshot = null;
+    for (let round = 1; round <= 4; round++) {
+      const encodedDown = server.encodeDown(clientId, round, 'local', server.broadcast('local'));
+      const expected = direct.work(round, 'local', encodedDown, 5, plan.methodConfig.stepSize);
+      const result = clientTask(structuredClone({ plan, planKey: plan.planHash, clientId, snapshot, round, exchange: 'local', encodedDown, localSteps: 5, stepSize: plan.methodConfig.stepSize }));
+      snapshot = structuredClone(result.snapshot);
+      expect(bits(result.encodedUp)).toBe(bits(expected.encodedUp));
+      expect(result.stepsTaken).toBe(expected.stepsTaken);
+      server.aggregate('local', [{ clientId, stepsTaken: expected.stepsTaken, stepSize: plan.methodConfig.stepSize, encodedUp: expected.encodedUp }]);
+    }
+  });
+});

@@ -1,0 +1,109 @@
+// A roundwire command started as a real child process whose output a test can watch while it
+// runs (wait for a line, read pids), with every wait bounded and the process stopped after.
+
+import { spawn, type ChildProcess } from 'node:child_process';
+import { mkdtempSync, readFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { fileURLToPath } from 'node:url';
+
+export const repoRoot = fileURLToPath(new URL('../../', import.meta.url));
+const bin = fileURLToPath(new URL('../../bin/roundwire.js', import.meta.url));
+
+export class CliProcess {
+  readonly child: ChildProcess;
+  stdout = '';
+  stderr = '';
+  readonly exited: Promise<{ code: number | null; signal: NodeJS.Signals | null }>;
+  private readonly watchers: (() => void)[] = [];
+
+  constructor(args: string[], env: NodeJS.ProcessEnv = {}) {
+    this.child = spawn(process.execPath, [bin, ...args], { cwd: repoRoot, env: { ...process.env, NO_COLOR: '1', ...env }, stdio: ['ignore', 'pipe', 'pipe'] });
+    this.child.stdout!.setEncoding('utf8').on('data', (t: string) => {
+      this.stdout += t;
+      this.notify();
+    });
+    this.child.stderr!.setEncoding('utf8').on('data', (t: string) => {
+      this.stderr += t;
+      this.notify();
+    });
+    this.exited = new Promise((resolve) => this.child.once('exit', (code, signal) => resolve({ code, signal })));
+  }
+
+  private notify(): void {
+    for (const w of [...this.watchers]) w();
+  }
+
+  /** Resolves to the first match of `pattern` in stderr, waiting at most `timeoutMs`. */
+  waitForStderr(pattern: RegExp, timeoutMs: number): Promise<RegExpMatchArray> {
+    return new Promise((resolve, reject) => {
+      const check = (): boolean => {
+        const match = this.stderr.match(pattern);
+        if (match === null) return false;
+        clearTimeout(timer);
+        this.watchers.splice(this.watchers.indexOf(watcher), 1);
+        resolve(match);
+        return true;
+      };
+      const watcher = (): void => void check();
+      const timer = setTimeout(() => {
+        this.watchers.splice(this.watchers.indexOf(watcher), 1);
+        reject(new Error(`no ${pattern} in stderr within ${timeoutMs} ms; stderr so far:\n${this.stderr}`));
+      }, timeoutMs);
+      this.watchers.push(watcher);
+      check();
+    });
+  }
+
+  /** Resolves to the exit, or kills the process and rejects after `timeoutMs`. */
+  async exit(timeoutMs: number): Promise<{ code: number | null; signal: NodeJS.Signals | null }> {
+    let timer: NodeJS.Timeout | undefined;
+    const timeout = new Promise<never>((_, reject) => {
+      timer = setTimeout(() => {
+        this.child.kill('SIGKILL');
+        reject(new Error(`still running after ${timeoutMs} ms; stderr:\n${this.stderr}`));
+      }, timeoutMs);
+    });
+    try {
+      return await Promise.race([this.exited, timeout]);
+    } finally {
+      clearTimeout(timer);
+    }
+  }
+
+  /** Pids of the local workers `roundwire run` reported starting. */
+  workerPids(): number[] {
+    return [...this.stderr.matchAll(/started worker \S+ \(pid (\d+)\)/g)].map((m) => Number(m[1]));
+  }
+
+  kill(): void {
+    if (this.child.exitCode === null && this.child.signalCode === null) this.child.kill('SIGKILL');
+  }
+}
+
+export function isAlive(pid: number): boolean {
+  try {
+    process.kill(pid, 0);
+    return true;
+  } catch {
+    return false;
+  }
+}
+
+/** Waits (bounded) until none of the pids is alive; resolves to those still alive at the end. */
+export async function survivorsAfter(pids: readonly number[], timeoutMs: number): Promise<number[]> {
+  const deadline = Date.now() + timeoutMs;
+  for (;;) {
+    const alive = pids.filter(isAlive);
+    if (alive.length === 0 || Date.now() > deadline) return alive;
+    await new Promise((r) => setTimeout(r, 50));
+  }
+}
+
+export function freshDir(prefix: string): string {
+  return mkdtempSync(join(tmpdir(), `roundwire-${prefix}-`));
+}
+
+export function readJsonLines<T>(file: string): T[] {
+  return readFileSync(file, 'utf8').split('\n').filter((l) => l.length > 0).map((l) => JSON.parse(l) as T);
+}

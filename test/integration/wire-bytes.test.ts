@@ -1,0 +1,65 @@
+// Wire bytes are the socket's own counters; encoded bytes are the codec's frame lengths. Every
+// message travels as one unfragmented, uncompressed WebSocket frame, so for each down and up
+// wire = encoded + the RFC 6455 section 5.2 header: 2 bytes, +2 or +8 for an extended length,
+// +4 for the masking key a client must use (section 5.3). Checked per message and in total
+// against the sockets' counters, for dense messages and for top-k sparse uplinks.
+
+import { readFileSync } from 'node:fs';
+import { join } from 'node:path';
+import { describe, expect, it } from 'vitest';
+import { frameHeaderBytes } from '../../src/protocol/framing.js';
+import type { ClientRoundRecord } from '../../src/engine/round-record.js';
+import { CliProcess, freshDir, readJsonLines, repoRoot } from './cli-process.js';
+
+interface SummaryBytes {
+  bytes: { payload: { up: number; down: number }; encoded: { up: number; down: number }; wire: { up: number; down: number } };
+  distributed: { controlBytes: { wire: { up: number; down: number } }; socketBytes: { up: number; down: number } };
+}
+
+async function runAndRead(name: string, overrides: string[]): Promise<{ records: ClientRoundRecord[]; summary: SummaryBytes }> {
+  const out = freshDir(name);
+  const run = new CliProcess(['run', join(repoRoot, 'scenarios/quickstart.yaml'), '--out', out, '--set', 'run.rounds=4', '--set', 'run.workers=2', ...overrides.flatMap((o) => ['--set', o])]);
+  try {
+    const exit = await run.exit(50_000);
+    expect(exit.code, run.stderr).toBe(0);
+  } finally {
+    run.kill();
+  }
+  return { records: readJsonLines<ClientRoundRecord>(join(out, 'clients.jsonl')), summary: JSON.parse(readFileSync(join(out, 'summary.json'), 'utf8')) as SummaryBytes };
+}
+
+function checkFraming(records: readonly ClientRoundRecord[], summary: SummaryBytes): void {
+  expect(records.length).toBeGreaterThan(0);
+  let headerUp = 0;
+  let headerDown = 0;
+  for (const r of records) {
+    const encoded = r.bytes.encoded!;
+    const wire = r.bytes.wire!;
+    // The coordinator sends unmasked frames; workers, as WebSocket clients, mask theirs.
+    expect(wire.down).toBe(encoded.down + frameHeaderBytes(encoded.down, false));
+    expect(wire.up).toBe(encoded.up + frameHeaderBytes(encoded.up, true));
+    headerUp += frameHeaderBytes(encoded.up, true);
+    headerDown += frameHeaderBytes(encoded.down, false);
+  }
+  const { bytes, distributed } = summary;
+  expect(bytes.wire.up).toBe(bytes.encoded.up + headerUp);
+  expect(bytes.wire.down).toBe(bytes.encoded.down + headerDown);
+  // Round traffic plus control traffic is everything the sockets counted after the upgrade.
+  expect(distributed.socketBytes.up).toBe(bytes.wire.up + distributed.controlBytes.wire.up);
+  expect(distributed.socketBytes.down).toBe(bytes.wire.down + distributed.controlBytes.wire.down);
+}
+
+describe('wire bytes = encoded bytes + RFC 6455 headers, from the sockets', () => {
+  it('dense messages', async () => {
+    const { records, summary } = await runAndRead('wire-dense', []);
+    checkFraming(records, summary);
+  }, 60_000);
+
+  it('sparse top-k uplink messages', async () => {
+    const { records, summary } = await runAndRead('wire-sparse', ['compression.uplink.default={kind: top-k, fraction: 0.25}', 'method.name=fedavg']);
+    checkFraming(records, summary);
+    // A quarter of 20 entries, at 8 bytes a value plus an index byte each, against 160 dense.
+    const ups = records.map((r) => r.bytes.payload.up);
+    expect(Math.max(...ups)).toBeLessThan(20 * 8);
+  }, 60_000);
+});
