@@ -1,21 +1,11 @@
 // What a distributed run produces: the engine's result shape (so that the same summary and
 // results code serve both) plus the layers of bytes, lost workers and protocol errors.
 
-import type { RunPlan } from '../src/engine/run-plan.js';
-import type { PlanTheory } from '../src/theory/plan-theory.js';
-import type { ClientRoundRecord, RoundRecord } from '../src/engine/round-record.js';
+import type { RunOutcome as EngineRunOutcome } from '../src/engine/run-summary.js';
 import type { DirectionBytes } from './byte-ledger.js';
 import type { LostWorker } from './worker-registry.js';
-import type { StopReason } from './rounds.js';
 
-export interface RunOutcome {
-  plan: RunPlan;
-  theory: PlanTheory;
-  rounds: RoundRecord[];
-  clients: ClientRoundRecord[];
-  finalModel: Float64Array;
-  stopReason: StopReason;
-  wallSeconds: number;
+export interface RunOutcome extends Omit<EngineRunOutcome, 'bytesLayers' | 'lostWorkers' | 'protocolErrors'> {
   virtualSeconds: number;
   /** round traffic (down and up messages) at the three layers */
   bytesLayers: { payload: DirectionBytes; encoded: DirectionBytes; wire: DirectionBytes };

@@ -1,5 +1,7 @@
 // Errors of the distributed runtime that a caller may branch on (the CLI maps them to exit codes).
 
+import { CodedError } from '../src/coded-error.js';
+
 export type RuntimeErrorCode =
   /** the workers that joined cannot host every client, or a join timed out */
   | 'E_NOT_ENOUGH_WORKERS'
@@ -12,12 +14,4 @@ export type RuntimeErrorCode =
   /** the run was stopped (SIGINT, SIGTERM) */
   | 'E_STOPPED';
 
-export class RuntimeError extends Error {
-  readonly code: RuntimeErrorCode;
-
-  constructor(code: RuntimeErrorCode, message: string) {
-    super(message);
-    this.name = 'RuntimeError';
-    this.code = code;
-  }
-}
+export class RuntimeError extends CodedError<RuntimeErrorCode> {}

@@ -2,6 +2,8 @@
 // so that the engine and the coordinator can branch on the cause (E_NOT_FINITE: a client
 // diverged; E_SEQUENCE: exchanges driven out of order) and tests can assert it.
 
+import { CodedError } from '../coded-error.js';
+
 export type MethodErrorCode =
   /** a method name the registry does not know */
   | 'E_UNKNOWN_METHOD'
@@ -24,12 +26,4 @@ export type MethodErrorCode =
   /** an exchange that needs an earlier exchange of the same round, called without it */
   | 'E_SEQUENCE';
 
-export class MethodError extends Error {
-  readonly code: MethodErrorCode;
-
-  constructor(code: MethodErrorCode, message: string) {
-    super(message);
-    this.name = 'MethodError';
-    this.code = code;
-  }
-}
+export class MethodError extends CodedError<MethodErrorCode> {}

@@ -2,6 +2,8 @@
 // validator, the coordinator, a test) can branch on it; the codes E_DIMENSION and E_NOT_FINITE
 // mean the same here as in the protocol.
 
+import { CodedError } from '../coded-error.js';
+
 export type CompressErrorCode =
   /** A vector whose length does not match its channel, or a dimension below 1. */
   | 'E_DIMENSION'
@@ -18,12 +20,4 @@ export type CompressErrorCode =
   /** rand-k asked to compress without the seeded Rng it draws from. */
   | 'E_RNG_REQUIRED';
 
-export class CompressError extends Error {
-  readonly code: CompressErrorCode;
-
-  constructor(code: CompressErrorCode, message: string) {
-    super(message);
-    this.name = 'CompressError';
-    this.code = code;
-  }
-}
+export class CompressError extends CodedError<CompressErrorCode> {}

@@ -26,6 +26,17 @@ function replicaFor(replicas: Map<string, Float64Array>, field: string, dim: num
   return r;
 }
 
+function snapshotReplicas(replicas: ReadonlyMap<string, Float64Array>): Record<string, Float64Array> {
+  const out: Record<string, Float64Array> = {};
+  for (const [field, r] of replicas) out[field] = r.slice();
+  return out;
+}
+
+function restoreReplicas(replicas: Map<string, Float64Array>, from: Readonly<Record<string, Float64Array>>): void {
+  replicas.clear();
+  for (const [field, r] of Object.entries(from)) replicas.set(field, Float64Array.from(r));
+}
+
 /** Server side, one per client: the replicas of what that client holds. */
 export class DownlinkEncoder {
   private readonly channel: ChannelSpec;
@@ -63,15 +74,12 @@ export class DownlinkEncoder {
 
   /** Copies of every replica, by field. */
   snapshot(): Record<string, Float64Array> {
-    const out: Record<string, Float64Array> = {};
-    for (const [field, r] of this.replicas) out[field] = r.slice();
-    return out;
+    return snapshotReplicas(this.replicas);
   }
 
   /** Replaces the replicas by copies of a snapshot's. */
   restore(replicas: Readonly<Record<string, Float64Array>>): void {
-    this.replicas.clear();
-    for (const [field, r] of Object.entries(replicas)) this.replicas.set(field, Float64Array.from(r));
+    restoreReplicas(this.replicas, replicas);
   }
 }
 
@@ -102,14 +110,11 @@ export class DownlinkDecoder {
 
   /** Copies of the client's replicas, so that the decoder can move to another thread and back. */
   snapshot(): Record<string, Float64Array> {
-    const out: Record<string, Float64Array> = {};
-    for (const [field, r] of this.replicas) out[field] = r.slice();
-    return out;
+    return snapshotReplicas(this.replicas);
   }
 
   /** Replaces the replicas by copies of a snapshot's. */
   restore(replicas: Readonly<Record<string, Float64Array>>): void {
-    this.replicas.clear();
-    for (const [field, r] of Object.entries(replicas)) this.replicas.set(field, Float64Array.from(r));
+    restoreReplicas(this.replicas, replicas);
   }
 }

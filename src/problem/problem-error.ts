@@ -1,6 +1,8 @@
 // Errors of the objectives and of the oracle that solves them. The code is stable so that the
 // scenario loader, the runtimes and the tests can branch on the cause.
 
+import { CodedError } from '../coded-error.js';
+
 export type ProblemErrorCode =
   /** a shard whose arrays do not match its counts, or a shard with no samples */
   | 'E_SHARD_SHAPE'
@@ -25,15 +27,7 @@ export type ProblemErrorCode =
   /** a dense computation that would exceed its size limit */
   | 'E_SIZE_LIMIT';
 
-export class ProblemError extends Error {
-  readonly code: ProblemErrorCode;
-
-  constructor(code: ProblemErrorCode, message: string) {
-    super(message);
-    this.name = 'ProblemError';
-    this.code = code;
-  }
-}
+export class ProblemError extends CodedError<ProblemErrorCode> {}
 
 /** Throws E_DIMENSION unless `vector` has `dim` entries. */
 export function assertLength(name: string, vector: ArrayLike<number>, dim: number): void {

@@ -2,6 +2,8 @@
 // fitted curves). The code is stable so that the engine and the report can branch on the cause:
 // E_SINGULAR, for instance, means that a method's round map has no unique limit to predict.
 
+import { CodedError } from '../coded-error.js';
+
 export type TheoryErrorCode =
   /** a state, matrix or vector whose length does not match the dimension it is used with */
   | 'E_DIMENSION'
@@ -18,15 +20,7 @@ export type TheoryErrorCode =
   /** curve points out of order or with rounds that are not finite */
   | 'E_POINTS';
 
-export class TheoryError extends Error {
-  readonly code: TheoryErrorCode;
-
-  constructor(code: TheoryErrorCode, message: string) {
-    super(message);
-    this.name = 'TheoryError';
-    this.code = code;
-  }
-}
+export class TheoryError extends CodedError<TheoryErrorCode> {}
 
 /** Throws E_DIMENSION unless `vector` has `length` entries. */
 export function assertTheoryLength(name: string, vector: ArrayLike<number>, length: number): void {
