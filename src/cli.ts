@@ -1,7 +1,7 @@
 // The composition root: the command line (commander) wires the core, the coordinator and the
 // worker together. The only file in src/ that may import server/ or client/.
 
-import { Command, CommanderError, Option } from 'commander';
+import { Command, CommanderError, InvalidArgumentError, Option } from 'commander';
 import { writeFileSync } from 'node:fs';
 import { loadScenarioFile } from './scenario/load-scenario.js';
 import { ScenarioError } from './scenario/scenario-error.js';
@@ -18,6 +18,12 @@ import { defaultResultsDir } from './results/results-folder.js';
 import { formatDistributedSummary, runDistributed, RunInterrupted } from './commands/run-distributed.js';
 import { runWorkerCommand, workerOptionsProblem, type WorkerCommandOptions } from './commands/worker-command.js';
 import { coordinatorOptionsProblem, runCoordinatorCommand, type CoordinatorCommandOptions } from './commands/coordinator-command.js';
+import { writeRunReport } from './commands/report-command.js';
+import { compareFiles, defaultCompareDir, planComparison, runComparison, type CompareOptions } from './commands/compare-command.js';
+import { comparisonJson, formatComparison } from './report/compare-table.js';
+import { ReportError } from './report/report-error.js';
+import { parseLingerSeconds, parseMetricsAddress, type MetricsAddress } from '../server/metrics-server.js';
+import { JoinError } from '../client/connection.js';
 
 /** An input problem found by a command itself (not by the scenario schema). */
 export class UsageError extends Error {
@@ -31,6 +37,32 @@ function collect(value: string, previous: string[]): string[] {
 const setOption = new Option('--set <path=value>', 'override a scenario field, e.g. --set method.localSteps=10 (repeatable)')
   .argParser(collect)
   .default([] as string[]);
+
+function asArgument<T>(parse: (text: string) => T): (text: string) => T {
+  return (text) => {
+    try {
+      return parse(text);
+    } catch (error) {
+      throw new InvalidArgumentError((error as Error).message);
+    }
+  };
+}
+
+const metricsOption = new Option('--metrics <host:port>', 'serve Prometheus metrics at http://HOST:PORT/metrics (a bare PORT: on 127.0.0.1; port 0: any free port)').argParser(
+  asArgument(parseMetricsAddress),
+);
+const metricsLingerOption = new Option('--metrics-linger <seconds>', 'after the run, keep serving the final metrics this long so that a scraper reads them')
+  .argParser(asArgument(parseLingerSeconds))
+  .default(0);
+
+interface MetricsOptions {
+  metrics?: MetricsAddress;
+  metricsLinger: number;
+}
+
+function metricsServing(opts: MetricsOptions): { address: MetricsAddress; lingerSeconds: number } | null {
+  return opts.metrics === undefined ? null : { address: opts.metrics, lingerSeconds: opts.metricsLinger };
+}
 
 interface Io {
   out: (text: string) => void;
@@ -64,10 +96,11 @@ function buildProgram(io: Io): Command {
     .argument('<scenario>', 'scenario file (YAML or JSON)')
     .requiredOption('--out <dir>', 'folder to write client-NNN.csv files into')
     .addOption(setOption)
+    .option('--json', 'print the written files as JSON')
     .addHelpText('after', exitCodesHelp)
-    .action((file: string, opts: { set: string[]; out: string }) => {
+    .action((file: string, opts: { set: string[]; out: string; json?: boolean }) => {
       const files = writeShards(loadScenarioFile(file, opts.set), opts.out);
-      io.out(`wrote ${files.length} shards to ${opts.out}\n`);
+      io.out(opts.json ? `${JSON.stringify({ dir: opts.out, files }, null, 2)}\n` : `wrote ${files.length} shards to ${opts.out}\n`);
     });
 
   program
@@ -78,20 +111,25 @@ function buildProgram(io: Io): Command {
     .option('--in-process', 'run every client in this process with the virtual clock (no sockets)')
     .option('--out <dir>', 'results folder (default results/<name>-<method>-<time>)')
     .option('--json', 'print summary.json instead of the table')
+    .addOption(metricsOption)
+    .addOption(metricsLingerOption)
     .addHelpText('after', exitCodesHelp)
-    .action(async (file: string, opts: { set: string[]; inProcess?: boolean; out?: string; json?: boolean }) => {
+    .action(async (file: string, opts: { set: string[]; inProcess?: boolean; out?: string; json?: boolean } & MetricsOptions) => {
+      if (opts.inProcess && opts.metrics !== undefined) throw new UsageError('--metrics serves the coordinator of a distributed run; --in-process has none');
       const scenario = loadScenarioFile(file, opts.set);
       const outDir = opts.out ?? defaultResultsDir(scenario, new Date());
       const progress = new ProgressLine({ write: io.err, isTTY: process.stderr.isTTY === true }, scenario.run.rounds);
       if (!opts.inProcess) {
-        const result = await runDistributed(scenario, outDir, { out: io.out, err: io.err, onRound: (r) => progress.update(r) });
+        const result = await runDistributed(scenario, outDir, { out: io.out, err: io.err, onRound: (r) => progress.update(r) }, metricsServing(opts));
         progress.finish();
+        await writeRunReport(outDir);
         io.out(opts.json ? `${JSON.stringify(result.summary, null, 2)}\n` : formatDistributedSummary(result, outDir));
         return;
       }
       const outcome = runInProcess(scenario, { onRound: (r) => progress.update(r) });
       progress.finish();
       const summary = finishRun(outcome, 'in-process', outDir);
+      await writeRunReport(outDir);
       io.out(opts.json ? `${JSON.stringify(summary, null, 2)}\n` : formatRunSummary(summary, outDir));
     });
 
@@ -102,6 +140,9 @@ function buildProgram(io: Io): Command {
     .option('--token <token>', 'the shared token (or the ROUNDWIRE_TOKEN environment variable, which ps does not show)')
     .option('--slots <n>', 'clients this worker offers to host', '1')
     .option('--name <name>', 'worker name for logs and metrics (default host-pid)')
+    .option('--ca <file>', "PEM certificate(s) to trust for a wss:// coordinator beside the system's, e.g. its self-signed --tls-cert")
+    .addOption(metricsOption)
+    .addOption(metricsLingerOption)
     .addHelpText('after', exitCodesHelp)
     .action(async (opts: WorkerCommandOptions) => {
       const problem = workerOptionsProblem(opts, process.env);
@@ -120,19 +161,53 @@ function buildProgram(io: Io): Command {
     .option('--tls-key <file>', 'PEM private key for --tls-cert')
     .option('--join-timeout <seconds>', 'give up if workers have not joined by then', '300')
     .option('--workers-min <n>', 'wait for at least this many workers', '1')
+    .option('--heartbeat-silence-seconds <s>', 'a worker silent this long (1 to 3600 s) is lost and its clients leave the run; heartbeats go every sixth of it (default 30)')
     .option('--out <dir>', 'results folder (default results/<name>-<method>-<time>)')
     .option('--json', 'print summary.json instead of the table')
     .addOption(setOption)
+    .addOption(metricsOption)
+    .addOption(metricsLingerOption)
     .addHelpText('after', exitCodesHelp)
-    .action(async (file: string, opts: CoordinatorCommandOptions & { set: string[]; out?: string; json?: boolean }) => {
+    .action(async (file: string, opts: CoordinatorCommandOptions & MetricsOptions & { set: string[]; out?: string; json?: boolean }) => {
       const problem = coordinatorOptionsProblem(opts, process.env);
       if (problem !== null) throw new UsageError(problem);
       const scenario = loadScenarioFile(file, opts.set);
       const outDir = opts.out ?? defaultResultsDir(scenario, new Date());
       const progress = new ProgressLine({ write: io.err, isTTY: process.stderr.isTTY === true }, scenario.run.rounds);
-      const result = await runCoordinatorCommand(scenario, opts, outDir, process.env, { err: io.err, onRound: (r) => progress.update(r) });
+      const result = await runCoordinatorCommand(scenario, opts, outDir, process.env, { err: io.err, onRound: (r) => progress.update(r) }, metricsServing(opts));
       progress.finish();
+      await writeRunReport(outDir);
       io.out(opts.json ? `${JSON.stringify(result.summary, null, 2)}\n` : formatDistributedSummary(result, outDir));
+    });
+
+  program
+    .command('report')
+    .description('write report.html for a results folder: curves against rounds, bytes and seconds beside the prediction, traffic, timeline, summary')
+    .argument('<results-folder>', 'a folder written by run, coordinator or compare')
+    .option('--out <file>', 'write the page here (default <results-folder>/report.html)')
+    .option('--json', 'print {"report": path} as JSON')
+    .addHelpText('after', exitCodesHelp)
+    .action(async (dir: string, opts: { out?: string; json?: boolean }) => {
+      const file = await writeRunReport(dir, opts.out);
+      io.out(opts.json ? `${JSON.stringify({ report: file })}\n` : `wrote ${file}\n`);
+    });
+
+  program
+    .command('compare')
+    .description("run every combination of --vary values (or the scenario's sweep field) with the same seed, speeds and links; compare rounds, bytes and seconds to target")
+    .argument('<scenario>', 'scenario file (YAML or JSON)')
+    .addOption(new Option('--vary <path=v1,v2,...>', 'vary a scenario field over values read like --set values, e.g. method.name=fedavg,fedlin (repeatable; the product runs)').argParser(collect).default([] as string[]))
+    .addOption(setOption)
+    .option('--distributed', 'run each variant with local worker processes over WebSockets instead of in process')
+    .option('--out <dir>', 'folder for compare.html, compare.csv, compare.json and one results folder per variant (default results/compare-<name>-<time>)')
+    .option('--json', 'print compare.json instead of the table')
+    .addHelpText('after', exitCodesHelp)
+    .action(async (file: string, opts: CompareOptions & { json?: boolean }) => {
+      const plan = planComparison(file, opts);
+      const outDir = opts.out ?? defaultCompareDir(plan.base, new Date());
+      const comparison = await runComparison(plan, outDir, opts, { err: io.err });
+      io.out(opts.json ? comparisonJson(comparison) : formatComparison(comparison, outDir));
+      if (!opts.json) io.err(`wrote ${Object.values(compareFiles).join(', ')} to ${outDir}\n`);
     });
 
   program
@@ -150,7 +225,7 @@ function buildProgram(io: Io): Command {
 }
 
 function isBadInput(error: unknown): error is Error {
-  return error instanceof ScenarioError || error instanceof DataError || error instanceof TimingError || error instanceof UsageError;
+  return error instanceof ScenarioError || error instanceof DataError || error instanceof TimingError || error instanceof UsageError || error instanceof ReportError;
 }
 
 /** Runs the command line; resolves to the process exit code. */
@@ -163,6 +238,11 @@ export async function main(argv: string[], io: Io = { out: (t) => process.stdout
     if (error instanceof CommanderError) {
       if (error.code === 'commander.helpDisplayed' || error.code === 'commander.help' || error.code === 'commander.version') return exitCodes.ok;
       return exitCodes.badInput;
+    }
+    if (error instanceof JoinError) {
+      // The message says what to change (URL scheme, --ca, token); a stack would bury it.
+      io.err(`roundwire: ${error.message}\n`);
+      return exitCodes.failure;
     }
     if (error instanceof RunInterrupted) {
       io.err(`roundwire: ${error.message}\n`);

@@ -28,6 +28,9 @@ export class ProgressLine {
   private lastSuboptimality: number | null = null;
   /** non-TTY: print at most this many lines per run */
   private readonly plainLinesMax = 20;
+  /** TTY: redraw at most this often, so that fast runs do not flood the terminal */
+  private readonly redrawIntervalSeconds = 0.1;
+  private lastDrawWallSeconds = -Infinity;
 
   constructor(sink: ProgressSink, roundsMax: number) {
     this.sink = sink;
@@ -41,6 +44,8 @@ export class ProgressLine {
     const etaSeconds = perRound * (this.roundsMax - record.round);
     const text = `round ${record.round}/${this.roundsMax}  f-f* ${formatNumber(this.lastSuboptimality)}  payload ${formatBytes(this.bytesTotal)}  virtual ${formatNumber(record.virtualSeconds)} s  eta ${etaSeconds.toFixed(1)} s`;
     if (this.sink.isTTY) {
+      if (record.wallSeconds - this.lastDrawWallSeconds < this.redrawIntervalSeconds && record.round !== this.roundsMax) return;
+      this.lastDrawWallSeconds = record.wallSeconds;
       this.sink.write(`\r\x1b[2K${text}`);
       return;
     }
