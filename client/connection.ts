@@ -1,7 +1,10 @@
 // Reaching the coordinator: a WebSocket connection, retried with exponential backoff (doubling
 // from a first delay up to a cap) for a bounded number of attempts, so that workers may start
-// before the coordinator listens and a transient refusal does not end them.
+// before the coordinator listens and a transient refusal does not end them. A failure that no
+// retry can mend (the scheme does not match the coordinator's TLS, its certificate is not
+// trusted) ends the join at once with a message that says what to change.
 
+import { connect as connectTls, rootCertificates } from 'node:tls';
 import WebSocket from 'ws';
 import { sleepSeconds } from './sleep.js';
 
@@ -28,9 +31,32 @@ export class JoinError extends Error {
 /** Receives every frame; attached before the connection opens, since the server speaks first. */
 export type FrameListener = (frame: Uint8Array, ws: WebSocket) => void;
 
-function connectOnce(url: string, policy: RetryPolicy, maxPayloadBytes: number, onFrame: FrameListener): Promise<WebSocket> {
+/**
+ * OpenSSL's verification results (openssl-verify(1), "Diagnostics") and Node's host-name check:
+ * the certificate chain is what it is, so retrying cannot help.
+ */
+const CERTIFICATE_ERROR_CODES: ReadonlySet<string> = new Set([
+  'DEPTH_ZERO_SELF_SIGNED_CERT',
+  'SELF_SIGNED_CERT_IN_CHAIN',
+  'UNABLE_TO_VERIFY_LEAF_SIGNATURE',
+  'UNABLE_TO_GET_ISSUER_CERT',
+  'UNABLE_TO_GET_ISSUER_CERT_LOCALLY',
+  'CERT_UNTRUSTED',
+  'CERT_HAS_EXPIRED',
+  'CERT_NOT_YET_VALID',
+  'CERT_REVOKED',
+  'ERR_TLS_CERT_ALTNAME_INVALID',
+]);
+
+function connectOnce(url: string, policy: RetryPolicy, maxPayloadBytes: number, onFrame: FrameListener, trustedCertificatesPem: string | null): Promise<WebSocket> {
   return new Promise((resolve, reject) => {
-    const ws = new WebSocket(url, { perMessageDeflate: false, maxPayload: maxPayloadBytes, handshakeTimeout: policy.connectTimeoutSeconds * 1000 });
+    const ws = new WebSocket(url, {
+      perMessageDeflate: false,
+      maxPayload: maxPayloadBytes,
+      handshakeTimeout: policy.connectTimeoutSeconds * 1000,
+      // Node's `ca` replaces the default roots; the extra certificates are trusted beside them.
+      ...(trustedCertificatesPem === null ? {} : { ca: [...rootCertificates, trustedCertificatesPem] }),
+    });
     ws.binaryType = 'nodebuffer';
     // The challenge may arrive with the upgrade response, before an 'open' listener's promise
     // continuation could attach a handler; so the handler is attached here, now.
@@ -49,15 +75,63 @@ function connectOnce(url: string, policy: RetryPolicy, maxPayloadBytes: number, 
   });
 }
 
-/** Connects, retrying with backoff; rejects with JoinError after the last attempt. */
-export async function connectWithRetry(url: string, policy: RetryPolicy, maxPayloadBytes: number, onFrame: FrameListener, log: (line: string) => void): Promise<WebSocket> {
+/** Resolves to true when a TLS handshake with host:port completes, whoever signed its certificate. */
+function speaksTls(url: URL, timeoutSeconds: number): Promise<boolean> {
+  return new Promise((resolve) => {
+    // Only asks whether the port answers in TLS; nothing is sent over this connection.
+    const socket = connectTls({ host: url.hostname.replace(/^\[|\]$/g, ''), port: Number(url.port || 80), rejectUnauthorized: false });
+    const settle = (answer: boolean): void => {
+      socket.destroy();
+      resolve(answer);
+    };
+    socket.setTimeout(timeoutSeconds * 1000, () => settle(false));
+    socket.once('secureConnect', () => settle(true));
+    socket.once('error', () => settle(false));
+  });
+}
+
+/** Why no retry can succeed, as advice to the user; null when the failure may be transient. */
+async function permanentFailure(url: string, error: Error & { code?: string }, policy: RetryPolicy): Promise<string | null> {
+  const parsed = new URL(url);
+  const code = error.code ?? '';
+  if (parsed.protocol === 'wss:') {
+    if (CERTIFICATE_ERROR_CODES.has(code)) {
+      return `the coordinator's TLS certificate was refused (${code}: ${error.message}); if it is self-signed or from a private authority, give the worker --ca FILE with that certificate`;
+    }
+    if (code === 'EPROTO' && /wrong version number/.test(error.message)) {
+      return `${parsed.host} does not speak TLS: join with ws://${parsed.host} instead of wss://`;
+    }
+    return null;
+  }
+  // A TLS server drops a plain HTTP upgrade request without a reply.
+  if ((code === 'ECONNRESET' || /socket hang up/.test(error.message)) && (await speaksTls(parsed, policy.connectTimeoutSeconds))) {
+    return `${parsed.host} serves TLS: join with wss://${parsed.host} instead of ws://`;
+  }
+  return null;
+}
+
+/**
+ * Connects, retrying with backoff; rejects with JoinError after the last attempt, or at once
+ * when the failure is one no retry can mend. `trustedCertificatesPem` adds certificates (PEM) to
+ * the ones a wss:// coordinator may present, e.g. its own self-signed one.
+ */
+export async function connectWithRetry(
+  url: string,
+  policy: RetryPolicy,
+  maxPayloadBytes: number,
+  onFrame: FrameListener,
+  log: (line: string) => void,
+  trustedCertificatesPem: string | null = null,
+): Promise<WebSocket> {
   let lastError: Error | null = null;
   for (let attempt = 1; attempt <= policy.attemptsMax; attempt++) {
     await sleepSeconds(backoffSeconds(policy, attempt));
     try {
-      return await connectOnce(url, policy, maxPayloadBytes, onFrame);
+      return await connectOnce(url, policy, maxPayloadBytes, onFrame, trustedCertificatesPem);
     } catch (error) {
       lastError = error as Error;
+      const advice = await permanentFailure(url, lastError, policy);
+      if (advice !== null) throw new JoinError(`could not join ${url}: ${advice}`);
       log(`attempt ${attempt}/${policy.attemptsMax} to reach ${url} failed: ${lastError.message}`);
     }
   }

@@ -31,6 +31,7 @@ import { ClientHost } from './client-host.js';
 import { connectWithRetry, DEFAULT_RETRY_POLICY, JoinError, type RetryPolicy } from './connection.js';
 import { LinkShaper } from './link.js';
 import { ComputePacer } from './speed.js';
+import type { WorkerMetrics } from './metrics.js';
 
 export interface WorkerOptions {
   url: string;
@@ -40,6 +41,10 @@ export interface WorkerOptions {
   /** most pool threads when hosting several clients */
   threadsMax: number;
   retry?: RetryPolicy;
+  /** PEM certificates trusted for a wss:// coordinator beside the system's (e.g. its self-signed one) */
+  trustedCertificatesPem?: string;
+  /** counts messages, link delay and each hosted client's work when given */
+  metrics?: WorkerMetrics;
   log: (line: string) => void;
 }
 
@@ -88,6 +93,8 @@ export class Worker {
   private hosting: Hosting | null = null;
   private heartbeatTimer: NodeJS.Timeout | null = null;
   private lastHeardMs = performance.now();
+  /** each hosted client's newest down: an up for an older one is superseded and withheld */
+  private readonly newestDownOf = new Map<number, DownMessage>();
   private finish: (exit: WorkerExit) => void = () => undefined;
   private fail: (error: Error) => void = () => undefined;
 
@@ -108,6 +115,7 @@ export class Worker {
         this.receive(frame);
       },
       this.options.log,
+      this.options.trustedCertificatesPem ?? null,
     );
     this.ws = ws;
     try {
@@ -132,7 +140,10 @@ export class Worker {
   }
 
   private send(message: Message): void {
-    if (this.ws !== null && this.ws.readyState === this.ws.OPEN) this.ws.send(encodeMessage(message), { binary: true });
+    if (this.ws === null || this.ws.readyState !== this.ws.OPEN) return;
+    const bytes = encodeMessage(message);
+    this.ws.send(bytes, { binary: true });
+    this.options.metrics?.messageSent(message.type, bytes.byteLength);
   }
 
   private expectedTypes(): MessageType[] {
@@ -149,7 +160,7 @@ export class Worker {
   private receive(frame: Uint8Array): void {
     this.lastHeardMs = performance.now();
     const limits = this.hosting?.limits ?? HANDSHAKE_LIMITS;
-    let message: Message;
+    let message: Message | undefined;
     try {
       message = receiveMessage(frame, {
         limits,
@@ -160,12 +171,15 @@ export class Worker {
         fieldDims: null,
         auth: null,
       });
+      this.options.metrics?.frameReceived(message.type, frame.byteLength);
       this.handle(message);
     } catch (error) {
       if (!(error instanceof ProtocolError)) {
         this.fail(error as Error);
         return;
       }
+      if (message === undefined) this.options.metrics?.frameReceived(null, frame.byteLength);
+      this.options.metrics?.protocolError(error.code);
       this.options.log(`bad message from the coordinator (${error.code}): ${error.message}`);
       this.send({ type: 'error', code: error.code, message: error.message.slice(0, limits.maxErrorMessageLength) });
       // Before the run, a bad challenge or welcome leaves nothing to work with.
@@ -212,6 +226,7 @@ export class Worker {
       limits: message.limits,
     };
     this.phase = 'active';
+    this.options.metrics?.hosting(message.assignments.length);
     this.options.log(`hosting clients ${message.assignments.join(', ')} of "${plan.scenario.name}" (${plan.scenario.method.name})`);
     this.startHeartbeats(message.limits);
   }
@@ -237,6 +252,7 @@ export class Worker {
       if (wv.dim !== hosting.plan.dim) throw new ProtocolError('E_DIMENSION', `down.fields.${name}.dim: the plan says ${hosting.plan.dim}, got ${wv.dim}`);
       encodedDown[name] = fromWire(wv, `down.fields.${name}`);
     }
+    this.newestDownOf.set(message.clientId, message);
     void this.answer(hosting, message, encodedDown).catch((error: Error) => this.reportFailure(message, error));
   }
 
@@ -248,6 +264,11 @@ export class Worker {
     const fields: WireFields = {};
     for (const [name, cv] of Object.entries(result.encodedUp)) fields[name] = toWire(cv, `up.fields.${name}`);
     const upSeconds = await hosting.link.beforeSend(encodedPayloadBytes(result.encodedUp));
+    this.options.metrics?.clientWorked(clientId, computeSeconds, result.stepsTaken);
+    this.options.metrics?.linkDelay('down', downSeconds);
+    this.options.metrics?.linkDelay('up', upSeconds);
+    // A newer down for this client means the coordinator closed this exchange without it.
+    if (this.newestDownOf.get(clientId) !== message) return;
     this.send({
       type: 'up',
       round,

@@ -7,6 +7,7 @@ import type { Socket } from 'node:net';
 import type { WebSocket } from 'ws';
 import type { Scenario } from '../src/scenario/schema.js';
 import { planFor } from '../src/engine/in-process-engine.js';
+import { predictRun } from '../src/engine/predict-run.js';
 import type { RunPlan, WirePlan } from '../src/engine/run-plan.js';
 import type { PlanTheory } from '../src/theory/plan-theory.js';
 import type { RoundRecord } from '../src/engine/round-record.js';
@@ -23,6 +24,7 @@ import { fieldShapesFor, type FieldShapes } from './field-shapes.js';
 import { awaitHello, CLOSE_POLICY_VIOLATION } from './handshake.js';
 import { startListener, type Listener, type TlsFiles } from './listener.js';
 import { Liveness } from './liveness.js';
+import { CoordinatorMetrics } from './metrics.js';
 import { OraclePool } from './oracle-pool.js';
 import { ProtocolErrorCounter } from './protocol-error-counter.js';
 import { RoundDriver, type StopReason } from './rounds.js';
@@ -72,6 +74,8 @@ export class Coordinator {
   private readonly ledger = new ByteLedger();
   private readonly errors = new ProtocolErrorCounter();
   private readonly driver: RoundDriver;
+  /** served at /metrics when the command asks for it */
+  readonly metrics: CoordinatorMetrics;
   private readonly liveness: Liveness;
   private readonly sessions: WorkerSession[] = [];
   private readonly limitsOf = new Map<WorkerSession, ProtocolLimits>();
@@ -95,6 +99,16 @@ export class Coordinator {
     });
     this.oracle = new OraclePool(scenario);
     const nowMs = () => performance.now();
+    this.metrics = new CoordinatorMetrics({
+      ledger: this.ledger,
+      currentRound: () => this.driver.round,
+      connectedWorkers: () => this.sessions.filter((s) => (s.state === 'joined' || s.state === 'active') && s.isOpen()).length,
+      lostWorkers: () => this.registry.lost.length,
+      protocolErrors: () => this.errors.snapshot(),
+      clientCount: plan.clientCount,
+      optimumLoss: theory.optimum.loss,
+      predictedRate: () => predictRun(plan, theory).rate,
+    });
     this.driver = new RoundDriver({
       plan,
       registry: this.registry,
@@ -104,6 +118,7 @@ export class Coordinator {
       wallGraceSeconds: options.wallGraceSeconds,
       nowMs,
       onRound: options.onRound,
+      onRoundRecords: (record, clients) => this.metrics.roundRecorded(record, clients),
     });
     const heartbeat = options.heartbeat ?? { intervalSeconds: HANDSHAKE_LIMITS.heartbeatIntervalSeconds, silenceSeconds: HANDSHAKE_LIMITS.heartbeatSilenceSeconds };
     this.liveness = new Liveness({

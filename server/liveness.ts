@@ -1,6 +1,8 @@
 // Heartbeats: every interval the coordinator sends each active worker a heartbeat and checks
 // when it last heard from it; a worker silent past the limit is lost (a closed socket is
-// noticed at once, through the session's close event, not here).
+// noticed at once, through the session's close event, not here). Silence is counted from
+// start() at the earliest: a worker begins its heartbeats with the welcome, so the time it
+// spent waiting for others to join is no silence.
 
 import type { WorkerSession } from './worker-session.js';
 
@@ -16,6 +18,7 @@ export interface LivenessOptions {
 export class Liveness {
   private readonly options: LivenessOptions;
   private timer: NodeJS.Timeout | null = null;
+  private startedMs = 0;
 
   constructor(options: LivenessOptions) {
     this.options = options;
@@ -23,6 +26,7 @@ export class Liveness {
 
   start(): void {
     if (this.timer !== null) return;
+    this.startedMs = this.options.nowMs();
     this.timer = setInterval(() => this.beat(), this.options.intervalSeconds * 1000);
     // Heartbeats alone must not keep the process alive.
     this.timer.unref();
@@ -36,7 +40,7 @@ export class Liveness {
   private beat(): void {
     const now = this.options.nowMs();
     for (const session of this.options.sessions()) {
-      if (now - session.lastHeardMs > this.options.silenceSeconds * 1000) this.options.onSilent(session);
+      if (now - Math.max(session.lastHeardMs, this.startedMs) > this.options.silenceSeconds * 1000) this.options.onSilent(session);
       else this.options.sendHeartbeat(session);
     }
   }

@@ -36,6 +36,8 @@ export interface RoundDriverOptions {
   wallGraceSeconds: number;
   nowMs: () => number;
   onRound?: (record: RoundRecord) => void;
+  /** every round with its clients' records, round 0 (the initial evaluation, no clients) first */
+  onRoundRecords?: (record: RoundRecord, clients: readonly ClientRoundRecord[]) => void;
 }
 
 export interface RoundsResult {
@@ -77,6 +79,8 @@ export class RoundDriver {
   private readonly speed: SpeedModel;
   private readonly clock = new VirtualClock();
   private readonly owed = new Map<number, Owed>();
+  /** per client, an up still owed to a closed wait when a newer down replaced it (it may yet arrive, late) */
+  private readonly superseded = new Map<number, Owed>();
   private readonly wall: boolean;
   private current: ExchangeWait | null = null;
   private stopRequested = false;
@@ -96,9 +100,10 @@ export class RoundDriver {
    * Throws ProtocolError E_ROUND when the client owes no up for that round and exchange.
    */
   acceptUp(message: UpMessage, encodedBytes: number, wireBytes: number): void {
-    const owed = this.owed.get(message.clientId);
-    if (owed === undefined || owed.wait.round !== message.round || owed.wait.exchange !== message.exchange) {
-      const expected = owed === undefined ? 'none' : `round ${owed.wait.round}, exchange "${owed.wait.exchange}"`;
+    const owed = this.owedFor(message);
+    if (owed === null) {
+      const current = this.owed.get(message.clientId);
+      const expected = current === undefined ? 'none' : `round ${current.wait.round}, exchange "${current.wait.exchange}"`;
       throw new ProtocolError('E_ROUND', `up: client ${message.clientId} owes no up for round ${message.round}, exchange "${message.exchange}" (owed: ${expected})`);
     }
     if (message.localSteps > owed.assignment.localSteps) {
@@ -112,7 +117,8 @@ export class RoundDriver {
       fieldPayloadBytes[name] = payloadBytes(encodedUp[name]);
       payload += fieldPayloadBytes[name];
     }
-    this.owed.delete(message.clientId);
+    if (this.owed.get(message.clientId) === owed) this.owed.delete(message.clientId);
+    else this.superseded.delete(message.clientId);
     this.options.ledger.recordRoundMessage('up', message.clientId, fieldPayloadBytes, encodedBytes, wireBytes);
     if (owed.wait.closed) {
       // A late up (wall clock): recorded with the bytes it cost, never aggregated.
@@ -128,6 +134,14 @@ export class RoundDriver {
     owed.wait.deliver(message.clientId, { message, encodedUp, fieldPayloadBytes, payloadBytes: payload, encodedBytes, wireBytes, arrivedMs: this.options.nowMs() });
   }
 
+  /** What an up answers: the client's current owed up, or the one its newest down superseded. */
+  private owedFor(message: UpMessage): Owed | null {
+    for (const owed of [this.owed.get(message.clientId), this.superseded.get(message.clientId)]) {
+      if (owed !== undefined && owed.wait.round === message.round && owed.wait.exchange === message.exchange) return owed;
+    }
+    return null;
+  }
+
   /** The round and exchange whose ups are awaited now, or null between exchanges. */
   expectation(): { round: number; exchange: string } | null {
     return this.current === null ? null : { round: this.current.round, exchange: this.current.exchange };
@@ -138,6 +152,7 @@ export class RoundDriver {
     for (const id of clientIds) {
       const owed = this.owed.get(id);
       this.owed.delete(id);
+      this.superseded.delete(id);
       owed?.wait.lose(id);
     }
   }
@@ -153,10 +168,15 @@ export class RoundDriver {
     this.current?.abort();
   }
 
+  /**
+   * A client still owing the up of a closed wait (too slow for fastest-k, past a deadline) takes
+   * part too: its new down supersedes the discarded work, so that it works from the current
+   * model as in the engine, and the worker withholds the superseded up.
+   */
   private participantsOf(round: number, excluded: ReadonlySet<number>): number[] {
     const out: number[] = [];
     for (const id of roundParticipants(this.plan, round)) {
-      if (this.options.registry.isClientActive(id) && !excluded.has(id) && !this.owed.has(id)) out.push(id);
+      if (this.options.registry.isClientActive(id) && !excluded.has(id)) out.push(id);
     }
     return out;
   }
@@ -194,6 +214,8 @@ export class RoundDriver {
         wait.lose(a.clientId);
         continue;
       }
+      const earlier = this.owed.get(a.clientId);
+      if (earlier !== undefined) this.superseded.set(a.clientId, earlier);
       this.owed.set(a.clientId, { wait, assignment: a, record: null });
       const bytes = session.send({ type: 'down', round, exchange, clientId: a.clientId, localSteps: a.localSteps, stepSize: a.stepSize, fields, deadlineSeconds });
       down.encodedBytes = bytes.encodedBytes;
@@ -278,6 +300,7 @@ export class RoundDriver {
     const rounds: RoundRecord[] = [
       { round: 0, suboptimality: initial.suboptimality, distance: initial.distance, bytes: { payload: { up: 0, down: 0 }, encoded: { up: 0, down: 0 }, wire: { up: 0, down: 0 } }, localSteps: {}, dropped: [], roundSeconds: 0, virtualSeconds: 0, wallSeconds: wallSecondsNow() },
     ];
+    this.options.onRoundRecords?.(rounds[0], []);
     const clients: ClientRoundRecord[] = [];
     let stopReason: StopReason = 'rounds-complete';
     const { rounds: roundsMax, evalEvery, target } = scenario.run;
@@ -342,6 +365,7 @@ export class RoundDriver {
         wallSeconds: wallSecondsNow(),
       };
       rounds.push(record);
+      this.options.onRoundRecords?.(record, roundRecords);
       this.options.onRound?.(record);
       if (diverged) break;
       if (noneLeft) {

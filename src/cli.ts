@@ -19,7 +19,7 @@ import { formatDistributedSummary, runDistributed, RunInterrupted } from './comm
 import { runWorkerCommand, workerOptionsProblem, type WorkerCommandOptions } from './commands/worker-command.js';
 import { coordinatorOptionsProblem, runCoordinatorCommand, type CoordinatorCommandOptions } from './commands/coordinator-command.js';
 import { writeRunReport } from './commands/report-command.js';
-import { compareFiles, defaultCompareDir, planComparison, runComparison, type CompareOptions } from './commands/compare-command.js';
+import { defaultCompareDir, planComparison, runComparison, type CompareOptions } from './commands/compare-command.js';
 import { comparisonJson, formatComparison } from './report/compare-table.js';
 import { ReportError } from './report/report-error.js';
 import { parseLingerSeconds, parseMetricsAddress, type MetricsAddress } from '../server/metrics-server.js';
@@ -207,7 +207,6 @@ function buildProgram(io: Io): Command {
       const outDir = opts.out ?? defaultCompareDir(plan.base, new Date());
       const comparison = await runComparison(plan, outDir, opts, { err: io.err });
       io.out(opts.json ? comparisonJson(comparison) : formatComparison(comparison, outDir));
-      if (!opts.json) io.err(`wrote ${Object.values(compareFiles).join(', ')} to ${outDir}\n`);
     });
 
   program

@@ -13,6 +13,7 @@ import { Coordinator, type CoordinatorOptions } from '../../server/coordinator.j
 import { LocalWorker } from '../../server/local-workers.js';
 import { distributedDetails, engineOutcomeOf } from '../../server/results.js';
 import type { RunOutcome } from '../../server/run-outcome.js';
+import { lingerFor, metricsListeningLine, startMetricsServer, type MetricsAddress, type MetricsServer } from '../../server/metrics-server.js';
 import { finishRun, formatRunSummary } from './run-report.js';
 import type { RunSummary } from '../engine/run-summary.js';
 
@@ -35,6 +36,21 @@ export interface DistributedRunIo {
   out: (text: string) => void;
   err: (text: string) => void;
   onRound?: (record: RoundRecord) => void;
+}
+
+/** --metrics and --metrics-linger: where to serve /metrics, and how long after the run. */
+export interface MetricsServing {
+  address: MetricsAddress;
+  lingerSeconds: number;
+}
+
+/** Serves a finished run's final values for the linger time, or until `onCut` is handed a cut. */
+export async function lingerWithMetrics(server: MetricsServer | null, lingerSeconds: number, err: (text: string) => void, onCut: (cut: () => void) => void): Promise<void> {
+  if (server === null || lingerSeconds <= 0) return;
+  err(`metrics: the run is over; serving its final values at ${server.url} for ${lingerSeconds} s\n`);
+  const linger = lingerFor(lingerSeconds);
+  onCut(linger.cut);
+  await linger.done;
 }
 
 export interface DistributedRunResult {
@@ -70,13 +86,15 @@ export function coordinatorOptionsForEmbedded(scenario: Scenario, token: string,
 }
 
 /** Runs the scenario with local worker processes; writes outDir; resolves to the summary. */
-export async function runDistributed(scenario: Scenario, outDir: string, io: DistributedRunIo): Promise<DistributedRunResult> {
+export async function runDistributed(scenario: Scenario, outDir: string, io: DistributedRunIo, metrics: MetricsServing | null = null): Promise<DistributedRunResult> {
   const workerCount = Math.min(scenario.run.workers, scenario.clients.count);
   const token = randomBytes(24).toString('hex');
   const coordinator = new Coordinator(scenario, coordinatorOptionsForEmbedded(scenario, token, workerCount, io));
   const workers: LocalWorker[] = [];
   let interrupted: NodeJS.Signals | null = null;
   let runEnded = false;
+  let metricsServer: MetricsServer | null = null;
+  let cutLinger: () => void = () => undefined;
   const killAll = (): void => workers.forEach((w) => w.killNow());
   const onSignal = (signal: NodeJS.Signals): void => {
     if (interrupted !== null) {
@@ -85,6 +103,7 @@ export async function runDistributed(scenario: Scenario, outDir: string, io: Dis
       process.exit(130);
     }
     interrupted = signal;
+    cutLinger();
     io.err(`\n${signal}: stopping the run and its workers\n`);
     coordinator.stop();
     for (const w of workers) void w.stop();
@@ -93,6 +112,10 @@ export async function runDistributed(scenario: Scenario, outDir: string, io: Dis
   process.on('SIGTERM', onSignal);
   process.on('exit', killAll);
   try {
+    if (metrics !== null) {
+      metricsServer = await startMetricsServer(coordinator.metrics.registry, metrics.address);
+      io.err(metricsListeningLine(metricsServer, metrics.address));
+    }
     const url = await coordinator.listen();
     const slots = Math.ceil(scenario.clients.count / workerCount);
     for (let i = 0; i < workerCount; i++) {
@@ -112,12 +135,14 @@ export async function runDistributed(scenario: Scenario, outDir: string, io: Dis
       throw new RunInterrupted(`interrupted by ${interrupted}; partial results in ${outDir}`);
     }
     const summary = writeDistributedResults(outcome, outDir);
+    await lingerWithMetrics(metricsServer, metrics?.lingerSeconds ?? 0, io.err, (cut) => (cutLinger = cut));
     return { outcome, summary };
   } catch (error) {
     if (interrupted !== null && !(error instanceof RunInterrupted)) throw new RunInterrupted(`interrupted by ${interrupted}`);
     throw error;
   } finally {
     runEnded = true;
+    await metricsServer?.close();
     await coordinator.close();
     await Promise.all(workers.map((w) => w.stop()));
     process.off('SIGINT', onSignal);

@@ -10,6 +10,8 @@ import type { RunPlan } from './run-plan.js';
 import { float64Leaves, flattenState, unflattenState } from './state-vector.js';
 import { isLocalWorkExchange } from './round-schedule.js';
 import { stepsUnderPolicy } from '../timing/round-policy.js';
+import { keptCount } from '../compress/compressor.js';
+import type { CompressorSpec } from '../scenario/schema.js';
 
 interface FullState {
   server: unknown;
@@ -22,7 +24,9 @@ export function predictionBlocker(plan: RunPlan): string | null {
   if (s.problem.kind !== 'least-squares') return 'the objective is not quadratic';
   if (s.method.gradient !== 'full') return 'minibatch gradients make the round map random';
   if (s.method.participation < 1) return 'partial participation makes the round map random';
-  const exact = (c: { kind: string; values: string }) => c.kind === 'none' && c.values === 'f64';
+  // A compressor that keeps every entry at full width is the identity (top-k or rand-k with
+  // k = d, unscaled since d/k = 1), so a "dense" rung of a compression sweep is still predicted.
+  const exact = (c: CompressorSpec) => c.values === 'f64' && keptCount(plan.dim, c) >= plan.dim;
   const channels = [s.compression.uplink, s.compression.downlink];
   if (!channels.every((ch) => exact(ch.default) && Object.values(ch.fields).every(exact))) return 'compression makes the round map nonlinear';
   if (s.timing.policy.kind === 'fastest-k') return 'fastest-k drops updates by timing';

@@ -1,0 +1,35 @@
+// `roundwire report <results-folder>`: report.html from a results folder, and the same page
+// written at the end of every run.
+
+import { readFileSync, writeFileSync } from 'node:fs';
+import { join } from 'node:path';
+import { resultFiles } from '../results/results-folder.js';
+import { ReportError } from '../report/report-error.js';
+import { parseRunResults, type RunResults } from '../report/run-results.js';
+import { buildRunReport } from '../report/run-report-page.js';
+
+export const reportFileName = 'report.html';
+
+function readResultsFile(dir: string, file: string): string {
+  try {
+    return readFileSync(join(dir, file), 'utf8');
+  } catch (error) {
+    const code = (error as NodeJS.ErrnoException).code ?? (error as Error).message;
+    throw new ReportError('E_RESULTS_FILE', `${join(dir, file)}: cannot read it (${code}); is ${dir} a results folder?`);
+  }
+}
+
+export function readRunResults(dir: string): RunResults {
+  return parseRunResults({
+    scenario: readResultsFile(dir, resultFiles.scenario),
+    summary: readResultsFile(dir, resultFiles.summary),
+    rounds: readResultsFile(dir, resultFiles.rounds),
+    clients: readResultsFile(dir, resultFiles.clients),
+  });
+}
+
+/** Writes the report of the results folder `dir` to `outFile` (default dir/report.html); returns its path. */
+export async function writeRunReport(dir: string, outFile: string = join(dir, reportFileName)): Promise<string> {
+  writeFileSync(outFile, await buildRunReport(readRunResults(dir)));
+  return outFile;
+}

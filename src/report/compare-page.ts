@@ -1,0 +1,44 @@
+// compare.html: the comparison table, the verdict lines and every variant's suboptimality curve
+// overlaid against rounds, payload bytes and seconds.
+
+import type { RoundRecord } from '../engine/round-record.js';
+import { formatNumber } from '../commands/text-table.js';
+import { curveChartSpec, type CurveAxis } from './chart-specs.js';
+import { tableHeader, tableRows, verdictLines, type Comparison } from './compare-table.js';
+import { figure, grid, heading, page, paragraph, section, table, type Html } from './html-page.js';
+import { renderSvg } from './render-svg.js';
+import { measuredCurve, type CurvePointRow } from './run-series.js';
+
+/** Points drawn in all for one chart, shared among the variants. */
+const comparePointsMax = 6000;
+
+export async function buildComparePage(c: Comparison, roundsByVariant: readonly (readonly RoundRecord[])[]): Promise<string> {
+  const perVariant = Math.max(50, Math.floor(comparePointsMax / Math.max(1, c.rows.length)));
+  const clock = c.timeBasis === 'modelled' ? 'virtual' : 'wall';
+  const rows: CurvePointRow[] = [];
+  let thinned = false;
+  c.rows.forEach((r, i) => {
+    const curve = measuredCurve(roundsByVariant[i], clock, r.variant, perVariant);
+    thinned ||= curve.points.length < curve.pointsTotal;
+    rows.push(...curve.points);
+  });
+  const series = c.rows.map((r) => r.variant);
+  const caption = `One line a variant, same seed, speeds and links. ${thinned ? `At most ${perVariant} points a variant, evenly spread. ` : ''}Target ${formatNumber(c.target)}.`;
+  const axes: [CurveAxis, string, string | undefined][] = [
+    ['round', 'Suboptimality against rounds', undefined],
+    ['payloadBytes', 'Suboptimality against payload bytes', undefined],
+    ['seconds', 'Suboptimality against seconds', c.timeBasis === 'modelled' ? 'modelled seconds (virtual clock)' : 'wall seconds'],
+  ];
+  const figures: Html[] = [];
+  for (const [axis, title, axisTitle] of axes) {
+    figures.push(figure(await renderSvg(curveChartSpec(rows, { axis, series, ...(axisTitle ? { axisTitle } : {}) }), `compare-${axis}`), caption, title));
+  }
+  const axesText = c.axes.map((a) => `${a.path} in {${a.values.join(', ')}}`).join('; ');
+  return page(`roundwire compare: ${c.scenario}`, [
+    heading(`roundwire compare: ${c.scenario}`),
+    paragraph(`${c.rows.length} variants (${axesText}), ${c.runtime} runtime; seconds are ${c.timeBasis === 'modelled' ? 'modelled (virtual clock)' : 'wall-clock'}.`, 'note'),
+    ...verdictLines(c).map((line) => paragraph(line, 'verdict')),
+    section('Variants', [table(tableHeader, tableRows(c), formatNumber), paragraph('Each variant has its own results folder (with its report.html) beside this page.', 'note')]),
+    section('Convergence', [grid(figures)]),
+  ]);
+}

@@ -1,0 +1,64 @@
+// What a report reads from a results folder, parsed from the files' text. Reading the files is
+// the command's job (src/commands/report-command.ts); this module stays pure.
+
+import { parse } from 'yaml';
+import type { ClientRoundRecord, RoundRecord } from '../engine/round-record.js';
+import type { RunSummary } from '../engine/run-summary.js';
+import { ReportError } from './report-error.js';
+
+export interface RunResults {
+  scenarioName: string;
+  description: string | null;
+  summary: RunSummary;
+  rounds: RoundRecord[];
+  clients: ClientRoundRecord[];
+}
+
+export interface RunResultsText {
+  scenario: string;
+  summary: string;
+  rounds: string;
+  clients: string;
+}
+
+function jsonLines<T>(text: string, file: string): T[] {
+  const items: T[] = [];
+  text.split('\n').forEach((line, i) => {
+    if (line.trim() === '') return;
+    try {
+      items.push(JSON.parse(line) as T);
+    } catch {
+      throw new ReportError('E_RESULTS_CONTENT', `${file}: line ${i + 1} is not JSON`);
+    }
+  });
+  return items;
+}
+
+function isRecord(value: unknown): value is Record<string, unknown> {
+  return value !== null && typeof value === 'object' && !Array.isArray(value);
+}
+
+export function parseRunResults(text: RunResultsText): RunResults {
+  let summary: unknown;
+  try {
+    summary = JSON.parse(text.summary);
+  } catch {
+    throw new ReportError('E_RESULTS_CONTENT', 'summary.json is not JSON');
+  }
+  if (!isRecord(summary) || !isRecord(summary.rate) || !isRecord(summary.floor) || !isRecord(summary.suboptimality) || typeof summary.clock !== 'string') {
+    throw new ReportError('E_RESULTS_CONTENT', 'summary.json lacks the fields a run writes (rate, floor, suboptimality, clock)');
+  }
+  const scenario: unknown = parse(text.scenario);
+  const rounds = jsonLines<RoundRecord>(text.rounds, 'rounds.jsonl');
+  if (rounds.length === 0) throw new ReportError('E_RESULTS_CONTENT', 'rounds.jsonl holds no rounds');
+  for (const r of rounds) {
+    if (!isRecord(r) || typeof r.round !== 'number' || !isRecord(r.bytes) || !isRecord(r.localSteps)) {
+      throw new ReportError('E_RESULTS_CONTENT', 'rounds.jsonl: a line lacks round, bytes or localSteps');
+    }
+  }
+  const clients = jsonLines<ClientRoundRecord>(text.clients, 'clients.jsonl');
+  const run = summary as unknown as RunSummary;
+  const name = isRecord(scenario) && typeof scenario.name === 'string' ? scenario.name : run.scenario;
+  const description = isRecord(scenario) && typeof scenario.description === 'string' ? scenario.description : null;
+  return { scenarioName: name, description, summary: run, rounds, clients };
+}

@@ -1,0 +1,67 @@
+// report.html built from a real in-process run: deterministic, self-contained, escaped. The
+// scenario is the bundled quickstart (FedLin, least squares: a prediction exists) and its
+// logistic variant (no prediction: the objective is not quadratic).
+import { afterAll, describe, expect, it } from 'vitest';
+import { mkdtempSync, readFileSync, rmSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { scenarioFromText } from '../../src/scenario/load-scenario.js';
+import { runInProcess } from '../../src/engine/in-process-engine.js';
+import { finishRun } from '../../src/commands/run-report.js';
+import { readRunResults, writeRunReport } from '../../src/commands/report-command.js';
+import { buildRunReport } from '../../src/report/run-report-page.js';
+
+const root = mkdtempSync(join(tmpdir(), 'roundwire-report-'));
+afterAll(() => rmSync(root, { recursive: true, force: true }));
+
+const hostileName = `<script>alert("name")</script> & 'co'`;
+const hostileDescription = '<img src=x onerror=alert(1)>';
+
+function runInto(dir: string, overrides: string[]): string {
+  const text = readFileSync('scenarios/quickstart.yaml', 'utf8');
+  const scenario = scenarioFromText(text, 'quickstart.yaml', [`name=${JSON.stringify(hostileName)}`, `description=${JSON.stringify(hostileDescription)}`, 'run.rounds=60', ...overrides]);
+  finishRun(runInProcess(scenario), 'in-process', dir);
+  return dir;
+}
+
+describe('run report page', () => {
+  const withPrediction = runInto(join(root, 'fedlin'), []);
+  const withoutPrediction = runInto(join(root, 'logistic'), ['problem.kind=logistic', 'run.rounds=20']);
+
+  it('renders the same page twice from the same folder', async () => {
+    const first = await writeRunReport(withPrediction);
+    const firstText = readFileSync(first, 'utf8');
+    const second = await buildRunReport(readRunResults(withPrediction));
+    expect(second).toBe(firstText);
+  });
+
+  it('escapes the text it takes from the scenario', async () => {
+    const html = await buildRunReport(readRunResults(withPrediction));
+    expect(html).not.toContain('<script');
+    expect(html).not.toContain('<img');
+    expect(html).toContain('&lt;script&gt;alert(&quot;name&quot;)&lt;/script&gt; &amp; &#39;co&#39;');
+    expect(html).toContain('&lt;img src=x onerror=alert(1)&gt;');
+  });
+
+  it('is one self-contained page: six inline charts, no URL, no script', async () => {
+    const html = await buildRunReport(readRunResults(withPrediction));
+    expect(html.match(/<svg\b/g)?.length).toBe(6);
+    expect(html).not.toMatch(/(?:https?|wss?|ftp):|\/\/[A-Za-z]/i);
+    expect(html).not.toMatch(/\b(?:src|href)\s*=\s*["'](?!#)/i);
+    // ids are prefixed per chart, so no two elements share one
+    const ids = [...html.matchAll(/\sid="([^"]+)"/g)].map((m) => m[1]);
+    expect(new Set(ids).size).toBe(ids.length);
+  });
+
+  it('draws the prediction when the summary has one, and says why not otherwise', async () => {
+    const predicted = await buildRunReport(readRunResults(withPrediction));
+    expect(predicted).toContain('predicted: floor + (f0 - floor) rate^k');
+    expect(predicted).not.toContain('No prediction is drawn');
+    const plain = await buildRunReport(readRunResults(withoutPrediction));
+    expect(plain).toContain('No prediction is drawn: the objective is not quadratic.');
+  });
+
+  it('refuses a folder that is not a results folder, naming the file', () => {
+    expect(() => readRunResults(join(root, 'missing'))).toThrow(/summary\.json|scenario\.yaml/);
+  });
+});
