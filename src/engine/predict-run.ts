@@ -44,15 +44,17 @@ export function predictRun(plan: RunPlan, theory: PlanTheory, initialModel: Floa
   const speed = speedModelFor(plan.scenario.timing, plan.clientCount, plan.scenario.seed);
   const roundMap = buildRoundMap(plan, objectives, (i) => stepSecondsFor(speed, i, 1), initialModel);
   const rate = predictRate(roundMap.map, roundMap.start);
-  if (!rate.converged) return none(`the spectral radius did not settle within ${rate.iterations} iterations`);
+  if (!rate.converged) return none(`the spectral radius did not settle within ${rate.mapApplications} round-map applications`);
+  // Without the limit the floor is missing, and so is the rate of f: rho^2 or rho depends on
+  // whether the limit is x*. The spectral radius is still reported.
   if (roundMap.start.length > FIXED_POINT_DIMENSION_MAX) {
-    return { ...none(`the state has ${roundMap.start.length} entries; fixed points are solved up to ${FIXED_POINT_DIMENSION_MAX}`), spectralRadius: rate.spectralRadius };
+    return { ...none(`no floor: the state has ${roundMap.start.length} entries; fixed points are solved up to ${FIXED_POINT_DIMENSION_MAX}`), spectralRadius: rate.spectralRadius };
   }
   let fixed;
   try {
     fixed = affineFixedPoint(roundMap.map, roundMap.start.length, { base: roundMap.start });
   } catch (error) {
-    if (error instanceof TheoryError) return { ...none(`no fixed point: ${error.message}`), spectralRadius: rate.spectralRadius };
+    if (error instanceof TheoryError) return { ...none(`no floor: ${error.message}`), spectralRadius: rate.spectralRadius };
     throw error;
   }
   const limit = roundMap.modelOf(fixed.state);

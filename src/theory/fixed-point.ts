@@ -22,7 +22,7 @@ export interface FixedPointOptions {
   base?: Float64Array;
   /** refinement solves at most after the first (default 3) */
   refinementsMax?: number;
-  /** GMRES steps (rounds) at most per solve (default: the dimension) */
+  /** GMRES steps (rounds) at most per solve (default: the dimension, at most FIXED_POINT_KRYLOV_MAX) */
   iterationsMax?: number;
 }
 
@@ -37,8 +37,14 @@ export interface AffineFixedPoint {
   mapApplications: number;
 }
 
-/** GMRES keeps up to dim basis vectors of dim entries: 32 MiB at this dimension. */
-export const FIXED_POINT_DIMENSION_MAX = 2048;
+/**
+ * GMRES keeps one basis vector of dim entries per step, and each step is one round: the steps per
+ * solve are capped so that the basis stays within 64 MiB at this dimension and a solve within a
+ * few hundred rounds. Round maps contract on most directions, so their solves need far fewer
+ * (tens on the bundled scenarios); a cap that is hit ends in E_NOT_CONVERGED, not in a long wait.
+ */
+export const FIXED_POINT_DIMENSION_MAX = 16384;
+export const FIXED_POINT_KRYLOV_MAX = 512;
 const DEFAULT_REFINEMENTS_MAX = 3;
 /**
  * A certified residual above sqrt(eps) times the size of the state and its image is not
@@ -69,7 +75,7 @@ export function affineFixedPoint(map: RoundMap, dim: number, options: FixedPoint
   if (!Number.isInteger(refinementsMax) || refinementsMax < 0) {
     throw new TheoryError('E_ARGUMENT', `refinementsMax must be an integer >= 0, got ${refinementsMax}`);
   }
-  const iterationsMax = options.iterationsMax ?? dim;
+  const iterationsMax = options.iterationsMax ?? Math.min(dim, FIXED_POINT_KRYLOV_MAX);
   const base = options.base ?? new Float64Array(dim);
   assertTheoryLength('base state', base, dim);
 
