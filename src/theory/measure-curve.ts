@@ -5,7 +5,8 @@
 //
 // measureFloor: the last quarter of the points (at least FLOOR_POINTS_MIN) is flat when the
 // log-linear trend fitted to it changes the level by at most FLAT_SHARE of the curve's whole log
-// range, or by at most 1% when that range is small. The floor is then the median of those points
+// range, or by at most 1% when that range is small, or by no more than three standard errors of
+// the fitted trend (a noisy plateau). The floor is then the median of those points
 // (at least 0): robust to the noise around a floor, and what the curve has settled at. Otherwise
 // the curve is still descending and there is no floor to report (null).
 //
@@ -73,6 +74,8 @@ const FLOOR_POINTS_MIN = 4;
 const FLAT_SHARE = 0.02;
 /** ... or by at most 1%, whichever is larger */
 const FLAT_CHANGE_MIN = Math.log(1.01);
+/** A three-standard-error test for a trend in the tail (common practice). */
+const TREND_SIGNIFICANCE = 3;
 /** f - f* - F is trusted down to this many times the floor's own scatter */
 const FLOOR_RESOLUTION = 100;
 /** the asymptotic window must end in this last share of the usable points */
@@ -111,6 +114,8 @@ function noiseLevelOf(points: readonly CurvePoint[], options: CurveOptions): num
 
 interface LineFit {
   slope: number;
+  /** standard error of the slope (0 with fewer than three points) */
+  slopeStandardError: number;
   /** sum of squared residuals */
   residualSquares: number;
   /** sum of squared deviations of y from its mean */
@@ -144,7 +149,8 @@ function fitLine(x: ArrayLike<number>, y: ArrayLike<number>, from: number, to: n
     const r = y[j] - meanY - slope * (x[j] - meanX);
     residualSquares += r * r;
   }
-  return { slope, residualSquares, totalSquares: syy };
+  const slopeStandardError = count > 2 && sxx > 0 ? Math.sqrt(residualSquares / (count - 2) / sxx) : 0;
+  return { slope, slopeStandardError, residualSquares, totalSquares: syy };
 }
 
 function median(values: number[]): number {
@@ -175,8 +181,12 @@ function floorOf(points: readonly CurvePoint[], noise: number): Floor | null {
   const from = points.length - tailCount;
   const to = points.length - 1;
   const tail = fitLine(rounds, logs, from, to);
-  const tailChange = Math.abs(tail.slope * (rounds[to] - rounds[from]));
-  if (tailChange > Math.max(FLAT_SHARE * (highest - lowest), FLAT_CHANGE_MIN)) return null;
+  const span = rounds[to] - rounds[from];
+  const tailChange = Math.abs(tail.slope * span);
+  // A noisy plateau (compression error, minibatch noise) has a fitted trend that is noise too:
+  // a change within TREND_SIGNIFICANCE standard errors is not evidence of descent.
+  const trendNoise = TREND_SIGNIFICANCE * tail.slopeStandardError * span;
+  if (tailChange > Math.max(FLAT_SHARE * (highest - lowest), FLAT_CHANGE_MIN, trendNoise)) return null;
   const values = points.slice(from).map((p) => p.suboptimality);
   const level = Math.max(0, median(values));
   return { level, deviation: median(values.map((v) => Math.abs(v - level))) };

@@ -243,3 +243,21 @@ describe('measured beside predicted on real runs', () => {
     }
   });
 });
+
+describe('measureFloor on a noisy plateau', () => {
+  // A plateau with large multiplicative noise (log-normal, sigma 0.5: the scatter of a curve under
+  // aggressive compression) has no significant trend in its tail; the three-standard-error test
+  // is common practice. A geometric descent under the same noise still has no floor.
+  it('reports the plateau level despite the noise, and no floor while descending', () => {
+    const rng = Rng.derive(8, 'test', 'noisy-floor');
+    const plateau = Array.from({ length: 160 }, (_, k) => ({
+      round: k,
+      suboptimality: (k < 30 ? Math.exp(-0.15 * k) : Math.exp(-0.15 * 30)) * Math.exp(0.5 * rng.normal()),
+    }));
+    const floor = measureFloor(plateau);
+    expect(floor).not.toBeNull();
+    expect(Math.abs(Math.log((floor as number) / Math.exp(-0.15 * 30)))).toBeLessThan(0.3);
+    const descending = Array.from({ length: 160 }, (_, k) => ({ round: k, suboptimality: Math.exp(-0.15 * k) * Math.exp(0.5 * rng.normal()) }));
+    expect(measureFloor(descending)).toBeNull();
+  });
+});
