@@ -6,7 +6,8 @@
 import { performance } from 'node:perf_hooks';
 import { availableParallelism } from 'node:os';
 import { Piscina } from 'piscina';
-import { ClientRuntime, type ClientRuntimeSnapshot, type EncodedFields } from '../src/engine/client-runtime.js';
+import { ClientRuntime, snapshotWithReplicasReset, type ClientRuntimeSnapshot, type EncodedFields } from '../src/engine/client-runtime.js';
+import { methodByName } from '../src/algorithm/registry.js';
 import type { WirePlan } from '../src/engine/run-plan.js';
 import { clientObjective } from '../src/problem/problem-instance.js';
 import { hashOf } from '../src/scenario/plan-hash.js';
@@ -71,6 +72,30 @@ export class ClientHost {
     const next = previous.catch(() => undefined).then(() => this.run(job, (performance.now() - calledMs) / 1000));
     this.queues.set(job.clientId, next);
     return next;
+  }
+
+  /**
+   * Resets each client's replicas (ClientRuntime.resetReplicas) after its queued work and before
+   * any work queued later, so that the reset falls between the old connection's downs and the new one's.
+   */
+  resetReplicas(clientIds: readonly number[]): Promise<void> {
+    const stateFields = methodByName(this.plan.scenario.method.name).uplinkStateFields ?? [];
+    const resets: Promise<void>[] = [];
+    for (const clientId of clientIds) {
+      if (!this.hosts(clientId)) throw new RangeError(`client ${clientId} is not hosted here`);
+      const previous = this.queues.get(clientId) ?? Promise.resolve();
+      const next = previous.catch(() => undefined).then(() => {
+        if (this.inline !== null) {
+          this.inline.get(clientId)!.resetReplicas();
+          return;
+        }
+        const snapshot = this.snapshots.get(clientId) ?? null;
+        if (snapshot !== null) this.snapshots.set(clientId, snapshotWithReplicasReset(snapshot, stateFields));
+      });
+      this.queues.set(clientId, next);
+      resets.push(next);
+    }
+    return Promise.all(resets).then(() => undefined);
   }
 
   private async run(job: HostedWork, queuedSeconds: number): Promise<HostedResult> {

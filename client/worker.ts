@@ -1,7 +1,9 @@
 // The worker process: joins a coordinator (challenge -> hello with the token's proof ->
 // welcome), hosts the clients it is dealt, and answers every down with an up after the client's
 // local work, paced by the speed and link models. Every incoming frame is validated; a bad one
-// gets an error reply with its code and is otherwise ignored.
+// gets an error reply with its code and is otherwise ignored. A connection that drops mid-run
+// (no done, no final error) is reconnected with the same backoff as the join, and the new
+// challenge answered with the welcome's resume token, which gives the worker its clients back.
 
 import { performance } from 'node:perf_hooks';
 import type WebSocket from 'ws';
@@ -54,6 +56,12 @@ export interface WorkerExit {
   clientIds: number[];
 }
 
+/**
+ * Most resumes in one run: each follows a drop, and a link that drops this often is better
+ * reported than papered over.
+ */
+export const RESUMES_MAX = 32;
+
 /** A worker trusts the coordinator it joined for frame sizes; this only bounds a runaway peer. */
 const WORKER_FRAME_BYTES_MAX = 512 * 1024 * 1024;
 
@@ -65,6 +73,8 @@ interface Hosting {
   link: LinkShaper;
   pacer: ComputePacer;
   limits: ProtocolLimits;
+  /** from the welcome; null when the coordinator does not let workers resume */
+  resumeToken: Uint8Array | null;
 }
 
 function parsePlan(welcome: WelcomeMessage): WirePlan {
@@ -102,13 +112,41 @@ export class Worker {
     this.options = options;
   }
 
-  /** Joins, works until the coordinator says done; rejects if refused or cut off. */
+  /**
+   * Joins, works until the coordinator says done, resuming after a dropped connection; rejects
+   * if refused, or cut off with no way back (before the welcome, resuming off, attempts spent).
+   */
   async run(): Promise<WorkerExit> {
     const ended = new Promise<WorkerExit>((resolve, reject) => {
       this.finish = resolve;
       this.fail = reject;
     });
-    const ws = await connectWithRetry(this.options.url, this.options.retry ?? DEFAULT_RETRY_POLICY, WORKER_FRAME_BYTES_MAX,
+    // A failure between connections (a refused resume) is read by the next wait, not lost.
+    ended.catch(() => undefined);
+    try {
+      for (let resumes = 0; ; resumes++) {
+        const ws = await this.connect();
+        const outcome = await new Promise<WorkerExit | 'closed'>((resolve, reject) => {
+          ended.then(resolve, reject);
+          ws.on('close', () => resolve('closed'));
+          ws.on('error', (error) => this.options.log(`connection error: ${error.message}`));
+        });
+        if (outcome !== 'closed') return outcome;
+        this.stopHeartbeats();
+        const resumeToken = this.hosting?.resumeToken ?? null;
+        if (this.hosting === null) throw new JoinError('the coordinator closed the connection before the run');
+        if (resumeToken === null) throw new JoinError('the coordinator closed the connection mid-run');
+        if (resumes >= RESUMES_MAX) throw new JoinError(`the connection dropped mid-run after ${RESUMES_MAX} resumes; giving up`);
+        this.options.log(`the connection dropped mid-run; reconnecting to resume (${resumes + 1}/${RESUMES_MAX})`);
+        this.phase = 'challenge';
+      }
+    } finally {
+      await this.stop();
+    }
+  }
+
+  private connect(): Promise<WebSocket> {
+    return connectWithRetry(this.options.url, this.options.retry ?? DEFAULT_RETRY_POLICY, WORKER_FRAME_BYTES_MAX,
       (frame, socket) => {
         // The first frame may come before the connection's promise settles; answer on its socket.
         this.ws = socket;
@@ -116,25 +154,17 @@ export class Worker {
       },
       this.options.log,
       this.options.trustedCertificatesPem ?? null,
-    );
-    this.ws = ws;
-    try {
-      return await new Promise<WorkerExit>((resolve, reject) => {
-        ended.then(resolve, reject);
-        ws.on('close', () => {
-          if (this.phase !== 'done') reject(new JoinError(this.phase === 'active' ? 'the coordinator closed the connection mid-run' : 'the coordinator closed the connection before the run'));
-        });
-        ws.on('error', (error) => this.options.log(`connection error: ${error.message}`));
-      });
-    } finally {
-      await this.stop();
-    }
+    ).then((ws) => (this.ws = ws));
+  }
+
+  private stopHeartbeats(): void {
+    if (this.heartbeatTimer !== null) clearInterval(this.heartbeatTimer);
+    this.heartbeatTimer = null;
   }
 
   /** Closes the connection and the client pool. */
   async stop(): Promise<void> {
-    if (this.heartbeatTimer !== null) clearInterval(this.heartbeatTimer);
-    this.heartbeatTimer = null;
+    this.stopHeartbeats();
     if (this.ws !== null && this.ws.readyState === this.ws.OPEN) this.ws.close(1000, 'worker done');
     await this.hosting?.host.close();
   }
@@ -189,12 +219,22 @@ export class Worker {
 
   private handle(message: Message): void {
     switch (message.type) {
-      case 'challenge':
+      case 'challenge': {
         this.phase = 'welcome';
-        this.send({ type: 'hello', protocolVersion: PROTOCOL_VERSION, workerName: this.options.workerName, slots: this.options.slots, proof: proveToken(this.options.token, message.nonce) });
+        const resumeToken = this.hosting?.resumeToken ?? null;
+        this.send({
+          type: 'hello',
+          protocolVersion: PROTOCOL_VERSION,
+          workerName: this.options.workerName,
+          slots: this.options.slots,
+          proof: proveToken(this.options.token, message.nonce),
+          ...(resumeToken === null ? {} : { resume: resumeToken }),
+        });
         return;
+      }
       case 'welcome':
-        this.welcome(message);
+        if (this.hosting === null) this.welcome(message);
+        else this.resumed(this.hosting, message);
         return;
       case 'down':
         this.down(message);
@@ -224,6 +264,7 @@ export class Worker {
       link: new LinkShaper(plan.scenario.timing.links, wall),
       pacer: new ComputePacer(speedModelFor(plan.scenario.timing, plan.scenario.clients.count, plan.scenario.seed), wall),
       limits: message.limits,
+      resumeToken: message.resumeToken ?? null,
     };
     this.phase = 'active';
     this.options.metrics?.hosting(message.assignments.length);
@@ -231,10 +272,35 @@ export class Worker {
     this.startHeartbeats(message.limits);
   }
 
+  /**
+   * The welcome on a resumed connection: the same clients as before. Downs that came before the
+   * drop are answered no more (their exchanges counted these clients as dropped), and both ends
+   * start the clients' replicas afresh (ServerRuntime.resetReplicas on the coordinator), since a
+   * down or up lost with the old connection advanced one end's replica and not the other's. The
+   * reset is queued after the clients' work in progress, so the next down finds it done.
+   */
+  private resumed(hosting: Hosting, message: WelcomeMessage): void {
+    const ids = [...hosting.clientIds].sort((a, b) => a - b);
+    if (message.assignments.length !== ids.length || message.assignments.some((id, i) => id !== ids[i])) {
+      throw new ProtocolError('E_CLIENT', `welcome.assignments: resumed with clients ${message.assignments.join(', ')}, hosting ${ids.join(', ')}`);
+    }
+    hosting.limits = message.limits;
+    hosting.resumeToken = message.resumeToken ?? null;
+    this.newestDownOf.clear();
+    void hosting.host.resetReplicas(ids).catch((error: Error) => this.fail(error));
+    this.phase = 'active';
+    this.options.log(`resumed hosting clients ${ids.join(', ')}`);
+    this.startHeartbeats(message.limits);
+  }
+
   private startHeartbeats(limits: ProtocolLimits): void {
+    this.stopHeartbeats();
     this.heartbeatTimer = setInterval(() => {
       if (performance.now() - this.lastHeardMs > limits.heartbeatSilenceSeconds * 1000) {
-        this.fail(new JoinError(`the coordinator was silent for more than ${limits.heartbeatSilenceSeconds} s`));
+        this.options.log(`the coordinator was silent for more than ${limits.heartbeatSilenceSeconds} s; dropping the connection`);
+        // Handled as any drop: resumed if the coordinator lets workers resume, else the end.
+        this.stopHeartbeats();
+        this.ws?.terminate();
         return;
       }
       this.send({ type: 'heartbeat', sentAtMs: Date.now() });

@@ -2,6 +2,7 @@
 // and collects what the run produced. Every incoming frame is validated before use; a bad one
 // gets an error reply with its code and is counted, and the run goes on unchanged.
 
+import { randomBytes } from 'node:crypto';
 import { performance } from 'node:perf_hooks';
 import type { Socket } from 'node:net';
 import type { WebSocket } from 'ws';
@@ -16,6 +17,7 @@ import {
   ProtocolError,
   limitsForPlan,
   receiveMessage,
+  RESUME_TOKEN_BYTES,
   type DoneReason,
   type ProtocolLimits,
 } from '../src/protocol/index.js';
@@ -49,9 +51,20 @@ export interface CoordinatorOptions {
   wallGraceSeconds: number;
   /** heartbeat timing; the protocol's defaults when absent */
   heartbeat?: { intervalSeconds: number; silenceSeconds: number };
+  /**
+   * how long a worker whose connection closed mid-run may take to resume before it is lost
+   * (DEFAULT_RESUME_GRACE_SECONDS when absent; 0: lost at once, and no resume token is dealt)
+   */
+  resumeGraceSeconds?: number;
   onRound?: (record: RoundRecord) => void;
   log: (line: string) => void;
 }
+
+/**
+ * Long enough for a worker's first few reconnection attempts (client/connection.ts backs off
+ * from a quarter second), short enough that a dead worker's clients are not waited for long.
+ */
+export const DEFAULT_RESUME_GRACE_SECONDS = 5;
 
 /** WebSocket close code 1000, normal closure (RFC 6455 section 7.4.1). */
 const CLOSE_NORMAL = 1000;
@@ -79,6 +92,12 @@ export class Coordinator {
   private readonly liveness: Liveness;
   private readonly sessions: WorkerSession[] = [];
   private readonly limitsOf = new Map<WorkerSession, ProtocolLimits>();
+  private readonly resumeGraceSeconds: number;
+  /** per disconnected session, the timer that marks it lost when its grace passes */
+  private readonly graceTimers = new Map<WorkerSession, NodeJS.Timeout>();
+  /** called when a disconnected worker resumes or is lost */
+  private presenceChanged: () => void = () => undefined;
+  private runEnded = false;
   private readonly startedMs = performance.now();
   private listener: Listener | null = null;
   private nextSessionId = 1;
@@ -87,6 +106,10 @@ export class Coordinator {
 
   constructor(scenario: Scenario, options: CoordinatorOptions) {
     this.options = options;
+    this.resumeGraceSeconds = options.resumeGraceSeconds ?? DEFAULT_RESUME_GRACE_SECONDS;
+    if (!(this.resumeGraceSeconds >= 0) || !Number.isFinite(this.resumeGraceSeconds)) {
+      throw new RangeError(`resumeGraceSeconds: finite seconds, at least 0, expected; got ${this.resumeGraceSeconds}`);
+    }
     const { plan, theory } = planFor(scenario);
     this.plan = plan;
     this.theory = theory;
@@ -117,6 +140,7 @@ export class Coordinator {
       exchangeTimeoutSeconds: options.exchangeTimeoutSeconds,
       wallGraceSeconds: options.wallGraceSeconds,
       nowMs,
+      untilConnected: () => this.untilConnected(),
       onRound: options.onRound,
       onRoundRecords: (record, clients) => this.metrics.roundRecorded(record, clients),
     });
@@ -165,6 +189,10 @@ export class Coordinator {
     session.onClose(() => this.closed(session));
     const hello = await awaitHello(session, { token: this.options.token, timeoutSeconds: this.options.handshakeTimeoutSeconds, ledger: this.ledger, errors: this.errors, log: this.options.log });
     if (hello === null) return;
+    if (hello.resume !== undefined) {
+      this.resume(session, hello.resume);
+      return;
+    }
     session.workerName = hello.workerName;
     session.slots = hello.slots;
     if (this.stopRequested || !this.registry.join(session)) {
@@ -216,16 +244,72 @@ export class Coordinator {
       this.registry.leave(session);
       this.options.log(`${session.label()} left before the run started`);
     } else if (session.state === 'active') {
-      this.loseWorker(session, 'connection closed');
+      if (this.resumeGraceSeconds > 0 && !this.runEnded) this.disconnect(session);
+      else this.loseWorker(session, 'connection closed');
     }
   }
 
+  /**
+   * A closed socket may be a network blip or a dead process; the worker gets the grace period to
+   * resume, its clients dropped from every exchange meanwhile. Silence past the heartbeat limit
+   * is no blip: that worker is lost at once (Liveness), not disconnected.
+   */
+  private disconnect(session: WorkerSession): void {
+    const clientIds = this.registry.markDisconnected(session);
+    if (clientIds.length === 0) return;
+    this.options.log(`${session.label()} disconnected in round ${this.driver.round}; clients ${clientIds.join(', ')} sit out until it resumes (grace ${this.resumeGraceSeconds} s)`);
+    this.driver.clientsLost(clientIds);
+    const timer = setTimeout(() => this.loseWorker(session, `connection closed, no resume within ${this.resumeGraceSeconds} s`), this.resumeGraceSeconds * 1000);
+    timer.unref();
+    this.graceTimers.set(session, timer);
+  }
+
+  /** A hello with a resume token: the worker takes its disconnected session over, or gets E_AUTH. */
+  private resume(session: WorkerSession, resumeToken: Uint8Array): void {
+    const resumed = this.runEnded ? null : this.registry.resume(resumeToken, session);
+    if (resumed === null) {
+      this.errors.countReceived('E_AUTH');
+      this.options.log(`${session.label()} refused (E_AUTH): its resume token names no session waiting to resume`);
+      this.sendControl(session, { type: 'error', code: 'E_AUTH', message: 'hello.resume: names no session waiting to resume (wrong token, or its grace has passed)' });
+      session.state = 'refused';
+      session.close(CLOSE_POLICY_VIOLATION, 'E_AUTH');
+      return;
+    }
+    const { previous, previousState } = resumed;
+    clearTimeout(this.graceTimers.get(previous));
+    this.graceTimers.delete(previous);
+    const limits = this.limitsOf.get(previous)!;
+    this.limitsOf.set(session, limits);
+    const clientIds = [...session.clientIds].sort((a, b) => a - b);
+    if (previousState === 'active') {
+      // The worker noticed the drop first: the old socket's ups will not come.
+      previous.terminate();
+      this.driver.clientsLost(clientIds);
+    }
+    this.driver.clientsResumed(clientIds);
+    session.onFrame((frame, wireBytes) => this.receive(session, frame, wireBytes));
+    this.sendControl(session, { type: 'welcome', assignments: clientIds, plan: this.wirePlan() as unknown as Record<string, unknown>, limits, resumeToken: session.resumeToken! });
+    this.options.log(`${session.label()} resumed in round ${this.driver.round}; clients ${clientIds.join(', ')} take part again from the next exchange`);
+    this.presenceChanged();
+  }
+
   private loseWorker(session: WorkerSession, reason: string): void {
+    clearTimeout(this.graceTimers.get(session));
+    this.graceTimers.delete(session);
     const clientIds = this.registry.markLost(session, this.driver.round, reason);
     if (clientIds.length === 0) return;
     this.options.log(`${session.label()} lost in round ${this.driver.round} (${reason}); clients ${clientIds.join(', ')} leave the run`);
     session.terminate();
     this.driver.clientsLost(clientIds);
+    this.presenceChanged();
+  }
+
+  /** Resolves once a worker is connected, none is away, or the run is stopping. */
+  private async untilConnected(): Promise<void> {
+    while (!this.stopRequested && this.registry.activeSessions().length === 0 && this.registry.disconnectedSessions().length > 0) {
+      await new Promise<void>((resolve) => (this.presenceChanged = resolve));
+      this.presenceChanged = () => undefined;
+    }
   }
 
   private waitForWorkers(): Promise<void> {
@@ -248,12 +332,18 @@ export class Coordinator {
     });
   }
 
+  private wirePlan(): WirePlan {
+    return { scenario: this.plan.scenario, methodConfig: this.plan.methodConfig, dim: this.plan.dim };
+  }
+
   private welcomeAll(): void {
-    const wire: WirePlan = { scenario: this.plan.scenario, methodConfig: this.plan.methodConfig, dim: this.plan.dim };
+    const wire = this.wirePlan();
     for (const [session, clientIds] of this.registry.assign()) {
       const limits = this.limitsFor(Math.max(1, clientIds.length));
       this.limitsOf.set(session, limits);
-      this.sendControl(session, { type: 'welcome', assignments: clientIds, plan: wire as unknown as Record<string, unknown>, limits });
+      // Authentication only, like the challenge nonce: no result depends on it.
+      session.resumeToken = this.resumeGraceSeconds > 0 ? new Uint8Array(randomBytes(RESUME_TOKEN_BYTES)) : null;
+      this.sendControl(session, { type: 'welcome', assignments: clientIds, plan: wire as unknown as Record<string, unknown>, limits, ...(session.resumeToken === null ? {} : { resumeToken: session.resumeToken }) });
       this.options.log(`${session.label()} hosts clients ${clientIds.join(', ')}`);
     }
   }
@@ -265,6 +355,9 @@ export class Coordinator {
     this.liveness.start();
     const result = await this.driver.run(() => (performance.now() - this.startedMs) / 1000);
     this.liveness.stop();
+    this.runEnded = true;
+    // A worker still away when the run ends never came back: its clients left the run.
+    for (const session of this.registry.disconnectedSessions()) this.loseWorker(session, 'connection closed, not resumed before the run ended');
     const reason = DONE_REASON_OF[result.stopReason];
     for (const session of this.registry.activeSessions()) this.sendControl(session, { type: 'done', reason });
     const socketBytes = { up: 0, down: 0 };
@@ -302,11 +395,14 @@ export class Coordinator {
     this.stopRequested = true;
     this.driver.requestStop();
     this.joinChanged();
+    this.presenceChanged();
   }
 
   /** Closes every connection, the listener and the oracle pool. */
   async close(): Promise<void> {
     this.liveness.stop();
+    for (const timer of this.graceTimers.values()) clearTimeout(timer);
+    this.graceTimers.clear();
     for (const session of this.sessions) session.terminate();
     await this.listener?.close();
     await this.oracle.close();

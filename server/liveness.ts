@@ -1,8 +1,8 @@
 // Heartbeats: every interval the coordinator sends each active worker a heartbeat and checks
-// when it last heard from it; a worker silent past the limit is lost (a closed socket is
-// noticed at once, through the session's close event, not here). Silence is counted from
-// start() at the earliest: a worker begins its heartbeats with the welcome, so the time it
-// spent waiting for others to join is no silence.
+// when it last heard from it; a worker silent past the limit is lost at once (a closed socket
+// is noticed through the session's close event, not here, and may resume within a grace).
+// Silence is counted from start() at the earliest: a worker begins its heartbeats with the
+// welcome, so the time it spent waiting for others to join is no silence.
 
 import type { WorkerSession } from './worker-session.js';
 

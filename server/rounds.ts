@@ -35,6 +35,11 @@ export interface RoundDriverOptions {
   /** wall-clock deadline: extra time after budget plus transfer before an up is late */
   wallGraceSeconds: number;
   nowMs: () => number;
+  /**
+   * Resolves once a worker is connected, or none can come back (a disconnected worker resumes or
+   * is lost within its grace): a round is not spent while every worker is away.
+   */
+  untilConnected?: () => Promise<void>;
   onRound?: (record: RoundRecord) => void;
   /** every round with its clients' records, round 0 (the initial evaluation, no clients) first */
   onRoundRecords?: (record: RoundRecord, clients: readonly ClientRoundRecord[]) => void;
@@ -147,7 +152,10 @@ export class RoundDriver {
     return this.current === null ? null : { round: this.current.round, exchange: this.current.exchange };
   }
 
-  /** Clients of a lost worker leave the exchange in progress and the rest of the run. */
+  /**
+   * Clients of a lost or disconnected worker leave the exchange in progress (dropped there) and
+   * take no part until their worker resumes, if ever.
+   */
   clientsLost(clientIds: readonly number[]): void {
     for (const id of clientIds) {
       const owed = this.owed.get(id);
@@ -155,6 +163,15 @@ export class RoundDriver {
       this.superseded.delete(id);
       owed?.wait.lose(id);
     }
+  }
+
+  /**
+   * Clients of a resumed worker take part again from the next exchange that starts. Their
+   * replicas start afresh on both ends: a down lost with the old connection advanced this end's
+   * replica but not the client's (the worker resets its own on the same welcome).
+   */
+  clientsResumed(clientIds: readonly number[]): void {
+    for (const id of clientIds) this.server.resetReplicas(id);
   }
 
   /** A worker reported a non-finite update: the run diverged, as the engine's aggregate would find. */
@@ -171,12 +188,14 @@ export class RoundDriver {
   /**
    * A client still owing the up of a closed wait (too slow for fastest-k, past a deadline) takes
    * part too: its new down supersedes the discarded work, so that it works from the current
-   * model as in the engine, and the worker withholds the superseded up.
+   * model as in the engine, and the worker withholds the superseded up. A client whose worker is
+   * disconnected takes part as well and is dropped at once (sendDowns), so that the round's
+   * records show it missing rather than absent.
    */
   private participantsOf(round: number, excluded: ReadonlySet<number>): number[] {
     const out: number[] = [];
     for (const id of roundParticipants(this.plan, round)) {
-      if (this.options.registry.isClientActive(id) && !excluded.has(id)) out.push(id);
+      if (this.options.registry.isClientInRun(id) && !excluded.has(id)) out.push(id);
     }
     return out;
   }
@@ -306,6 +325,11 @@ export class RoundDriver {
     const { rounds: roundsMax, evalEvery, target } = scenario.run;
 
     for (let round = 1; round <= roundsMax && !this.stopRequested; round++) {
+      await this.options.untilConnected?.();
+      if (this.stopRequested) {
+        stopReason = 'stopped';
+        break;
+      }
       this.round = round;
       const excluded = new Set<number>();
       const roundRecords: ClientRoundRecord[] = [];
@@ -350,7 +374,7 @@ export class RoundDriver {
       if (diverged) stopReason = 'diverged';
       clients.push(...roundRecords);
       const virtualSeconds = this.clock.advance(roundSeconds);
-      const noneLeft = this.options.registry.activeSessions().length === 0;
+      const noneLeft = this.options.registry.activeSessions().length === 0 && this.options.registry.disconnectedSessions().length === 0;
       const last = round === roundsMax || diverged || noneLeft || this.stopRequested;
       const evaluated = round % evalEvery === 0 || last ? await this.options.evaluate(this.server.model()) : null;
       const record: RoundRecord = {

@@ -2,6 +2,7 @@
 // round-robin over the joined workers (in join order), each worker taking at most
 // min(its slots, maxClientsPerWorker): ids stay increasing per worker and the load even.
 
+import { timingSafeEqual } from 'node:crypto';
 import { RuntimeError } from './runtime-error.js';
 import type { WorkerSession } from './worker-session.js';
 
@@ -101,9 +102,51 @@ export class WorkerRegistry {
     return this.hostOfClient(clientId) !== null;
   }
 
-  /** Marks a worker lost; its clients leave the run. Returns them (empty if it was not active). */
-  markLost(session: WorkerSession, round: number, reason: string): number[] {
+  /** True while the client's worker is active or disconnected (it may yet resume). */
+  isClientInRun(clientId: number): boolean {
+    const state = this.hostOf.get(clientId)?.state;
+    return state === 'active' || state === 'disconnected';
+  }
+
+  /**
+   * An active worker's connection closed: its clients sit out until it resumes or is lost.
+   * Returns them (empty if it was not active).
+   */
+  markDisconnected(session: WorkerSession): number[] {
     if (session.state !== 'active') return [];
+    session.state = 'disconnected';
+    return [...session.clientIds].sort((a, b) => a - b);
+  }
+
+  /**
+   * The session `resumeToken` names, taken over by `session` (a new connection of the same
+   * worker): same name, slots and clients, and its clients active again. The session may still
+   * be active when the worker saw its socket close before this end did. Null when no active or
+   * disconnected session has that token (a wrong token, or its grace has passed).
+   */
+  resume(resumeToken: Uint8Array, session: WorkerSession): { previous: WorkerSession; previousState: 'active' | 'disconnected' } | null {
+    const at = this.joined.findIndex((s) => (s.state === 'active' || s.state === 'disconnected') && s.resumeToken !== null
+      && s.resumeToken.length === resumeToken.length && timingSafeEqual(s.resumeToken, resumeToken));
+    if (at < 0) return null;
+    const previous = this.joined[at];
+    const previousState = previous.state as 'active' | 'disconnected';
+    previous.state = 'resumed';
+    session.workerName = previous.workerName;
+    session.slots = previous.slots;
+    session.clientIds = previous.clientIds;
+    session.resumeToken = previous.resumeToken;
+    session.state = 'active';
+    this.joined[at] = session;
+    for (const clientId of session.clientIds) this.hostOf.set(clientId, session);
+    return { previous, previousState };
+  }
+
+  /**
+   * Marks a worker lost, active or disconnected; its clients leave the run. Returns them (empty
+   * if it was neither).
+   */
+  markLost(session: WorkerSession, round: number, reason: string): number[] {
+    if (session.state !== 'active' && session.state !== 'disconnected') return [];
     session.state = 'lost';
     const clientIds = [...session.clientIds].sort((a, b) => a - b);
     this.lost.push({ workerName: session.workerName, clientIds, round, reason });
@@ -112,5 +155,9 @@ export class WorkerRegistry {
 
   activeSessions(): WorkerSession[] {
     return this.joined.filter((s) => s.state === 'active');
+  }
+
+  disconnectedSessions(): WorkerSession[] {
+    return this.joined.filter((s) => s.state === 'disconnected');
   }
 }

@@ -7,7 +7,11 @@ import type { WebSocket } from 'ws';
 import { encodeMessage, type Message } from '../src/protocol/index.js';
 import { WireMeter } from './wire-meter.js';
 
-export type SessionState = 'handshake' | 'joined' | 'active' | 'lost' | 'refused' | 'finished';
+/**
+ * 'disconnected': an active worker's socket closed and it may resume within the grace period;
+ * 'resumed': a disconnected session whose worker came back on a new connection (a new session).
+ */
+export type SessionState = 'handshake' | 'joined' | 'active' | 'disconnected' | 'resumed' | 'lost' | 'refused' | 'finished';
 
 export interface SentBytes {
   encodedBytes: number;
@@ -22,6 +26,8 @@ export class WorkerSession {
   workerName = '';
   slots = 0;
   clientIds: ReadonlySet<number> = new Set();
+  /** names this worker's session in a resuming hello; null until welcomed, or when resuming is off */
+  resumeToken: Uint8Array | null = null;
   lastHeardMs: number;
   private readonly ws: WebSocket;
   private readonly meter: WireMeter;

@@ -162,6 +162,7 @@ function buildProgram(io: Io): Command {
     .option('--join-timeout <seconds>', 'give up if workers have not joined by then', '300')
     .option('--workers-min <n>', 'wait for at least this many workers', '1')
     .option('--heartbeat-silence-seconds <s>', 'a worker silent this long (1 to 3600 s) is lost and its clients leave the run; heartbeats go every sixth of it (default 30)')
+    .option('--resume-grace-seconds <s>', 'a worker whose connection drops mid-run may reconnect and resume this long (0 to 3600 s; 0: lost at once); its clients sit out meanwhile (default 5)')
     .option('--out <dir>', 'results folder (default results/<name>-<method>-<time>)')
     .option('--json', 'print summary.json instead of the table')
     .addOption(setOption)

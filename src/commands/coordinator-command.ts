@@ -1,5 +1,5 @@
 // `roundwire coordinator <scenario> --listen HOST:PORT [--token T] [--tls-cert F --tls-key F]
-// [--heartbeat-silence-seconds S]`: a coordinator that waits for workers from other machines,
+// [--heartbeat-silence-seconds S] [--resume-grace-seconds S]`: a coordinator that waits for workers from other machines,
 // until their slots cover every client or the join limit passes. Beyond loopback a token is
 // required.
 
@@ -23,7 +23,12 @@ export interface CoordinatorCommandOptions {
   workersMin: string;
   /** absent: the protocol's default (HANDSHAKE_LIMITS) */
   heartbeatSilenceSeconds?: string;
+  /** absent: DEFAULT_RESUME_GRACE_SECONDS */
+  resumeGraceSeconds?: string;
 }
+
+/** Most --resume-grace-seconds: as long as a silent worker may hold a round (HEARTBEAT_SILENCE_SECONDS_MAX). */
+export const RESUME_GRACE_SECONDS_MAX = 3600;
 
 /**
  * Bounds of --heartbeat-silence-seconds: below a second, a garbage-collection pause or a busy
@@ -80,6 +85,12 @@ export function coordinatorOptionsProblem(opts: CoordinatorCommandOptions, env: 
       return `--heartbeat-silence-seconds: expected seconds from ${HEARTBEAT_SILENCE_SECONDS_MIN} to ${HEARTBEAT_SILENCE_SECONDS_MAX}, got "${opts.heartbeatSilenceSeconds}"`;
     }
   }
+  if (opts.resumeGraceSeconds !== undefined) {
+    const grace = Number(opts.resumeGraceSeconds);
+    if (opts.resumeGraceSeconds.trim() === '' || !(grace >= 0 && grace <= RESUME_GRACE_SECONDS_MAX)) {
+      return `--resume-grace-seconds: expected seconds from 0 to ${RESUME_GRACE_SECONDS_MAX}, got "${opts.resumeGraceSeconds}"`;
+    }
+  }
   return null;
 }
 
@@ -108,6 +119,7 @@ export async function runCoordinatorCommand(
     exchangeTimeoutSeconds: 300,
     wallGraceSeconds: 0.5,
     ...(opts.heartbeatSilenceSeconds === undefined ? {} : { heartbeat: heartbeatForSilence(Number(opts.heartbeatSilenceSeconds)) }),
+    ...(opts.resumeGraceSeconds === undefined ? {} : { resumeGraceSeconds: Number(opts.resumeGraceSeconds) }),
     onRound: io.onRound,
     log: (line) => io.err(`coordinator: ${line}\n`),
   });

@@ -34,6 +34,15 @@ export interface ClientRuntimeSnapshot {
   downlinkReplicas: Record<string, Float64Array>;
 }
 
+/** A copy of a snapshot without its replicas: downlink ones and the uplink's state fields. */
+export function snapshotWithReplicasReset(snapshot: ClientRuntimeSnapshot, uplinkStateFields: readonly string[]): ClientRuntimeSnapshot {
+  const uplinkMemories: Record<string, Float64Array> = {};
+  for (const [field, memory] of Object.entries(snapshot.uplinkMemories)) {
+    if (!uplinkStateFields.includes(field)) uplinkMemories[field] = memory;
+  }
+  return { clientId: snapshot.clientId, methodState: snapshot.methodState, uplinkMemories, downlinkReplicas: {} };
+}
+
 export class ClientRuntime {
   readonly clientId: number;
   private readonly plan: WirePlan;
@@ -87,6 +96,15 @@ export class ClientRuntime {
     this.state = structuredClone(snapshot.methodState);
     this.uplink.restore(snapshot.uplinkMemories);
     this.downlink.restore(snapshot.downlinkReplicas);
+  }
+
+  /**
+   * Starts the downlink replicas and the uplink state-field replicas afresh (all zero), as the
+   * server does for this client after a resumed connection (ServerRuntime.resetReplicas). The
+   * error-feedback memories and the method state are the client's own and stay.
+   */
+  resetReplicas(): void {
+    this.restore(snapshotWithReplicasReset(this.snapshot(), this.method.uplinkStateFields ?? []));
   }
 
   /** The method state (plain data), for the theory's round map. */

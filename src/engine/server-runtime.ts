@@ -41,6 +41,16 @@ export class ServerRuntime {
     return this.downlinks[clientId].encode(fields, downlinkRngFor(this.plan.scenario.seed, clientId, round, exchange));
   }
 
+  /**
+   * Starts this client's downlink replicas and uplink state-field replicas afresh (all zero), as
+   * the client's end does after a resumed connection: a message lost with the old connection
+   * leaves the two ends out of step, and zero is the one value both know they share.
+   */
+  resetReplicas(clientId: number): void {
+    this.downlinks[clientId] = new DownlinkEncoder(this.plan.scenario.compression.downlink);
+    this.uplinks[clientId] = new UplinkDecoder(this.plan.scenario.compression.uplink, this.method.uplinkStateFields);
+  }
+
   /** Folds the counted uploads into the server state, in ascending client id whatever the arrival order. */
   aggregate(exchange: string, uploads: readonly EncodedUpload[]): void {
     const decoded: Upload[] = [...uploads]

@@ -6,12 +6,17 @@
 //   server -> worker  challenge   on connect: a fresh nonce
 //   worker -> server  hello       HMAC of the nonce under the shared token (auth.ts); the token
 //                                 itself never crosses the wire
-//   server -> worker  welcome     client ids to host, the plan, the limits; or error E_AUTH
+//   server -> worker  welcome     client ids to host, the plan, the limits, a resume token;
+//                                 or error E_AUTH
 //   then per round, per exchange, per participating client:
 //   server -> worker  down        that client's vectors, tau_i, eta_i, deadline
 //   worker -> server  up          that client's vectors and timings
 //   either way        heartbeat, error
 //   server -> worker  done
+//
+// A worker whose connection drops mid-run reconnects and answers the new challenge with a hello
+// that also carries its welcome's resume token; the coordinator, if it still holds that worker's
+// session (within its grace period), welcomes it again with the same clients.
 //
 // One down and one up per client, not one per worker: the downlink replicas and tau_i differ
 // per client, each client has its own link model (a sender delays each client's message by
@@ -30,6 +35,9 @@ export const NONCE_BYTES = 32;
 
 /** Bytes of an HMAC-SHA256 proof. */
 export const PROOF_BYTES = 32;
+
+/** Bytes of a resume token (256 bits: cannot be guessed within a grace period). */
+export const RESUME_TOKEN_BYTES = 32;
 
 /**
  * Exchange and field names: ASCII identifiers, so that they are safe as metric labels and a
@@ -75,6 +83,8 @@ export interface HelloMessage {
   slots: number;
   /** HMAC-SHA256(token, challenge nonce), PROOF_BYTES bytes */
   proof: Uint8Array;
+  /** present when resuming a dropped session: the resume token of its welcome, RESUME_TOKEN_BYTES bytes */
+  resume?: Uint8Array;
 }
 
 export interface WelcomeMessage {
@@ -85,6 +95,11 @@ export interface WelcomeMessage {
   plan: Record<string, unknown>;
   /** the limits both ends apply from now on (frame size from the plan, heartbeat timing) */
   limits: ProtocolLimits;
+  /**
+   * RESUME_TOKEN_BYTES random bytes naming this worker's session, for a hello after a dropped
+   * connection; absent when the coordinator does not let workers resume
+   */
+  resumeToken?: Uint8Array;
 }
 
 export interface DownMessage {

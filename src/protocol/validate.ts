@@ -17,6 +17,7 @@ import {
   NONCE_BYTES,
   PROOF_BYTES,
   PROTOCOL_VERSION,
+  RESUME_TOKEN_BYTES,
   type DownMessage,
   type FieldDims,
   type Message,
@@ -64,12 +65,14 @@ const shapes = {
     workerName: z.string(),
     slots: z.number().int().positive(),
     proof: bytes,
+    resume: bytes.optional(),
   }),
   welcome: z.strictObject({
     type: z.literal('welcome'),
     assignments: z.array(count),
     plan: z.record(z.string(), z.unknown()),
     limits: protocolLimitsSchema,
+    resumeToken: bytes.optional(),
   }),
   down: z.strictObject({
     type: z.literal('down'),
@@ -182,7 +185,7 @@ function checkRoundTraffic(message: DownMessage | UpMessage, context: Validation
 const CONTROL_CHARACTER = /\p{Cc}/u;
 
 function checkHello(message: z.output<typeof shapes.hello>, context: ValidationContext): void {
-  const { workerName, slots, proof } = message;
+  const { workerName, slots, proof, resume } = message;
   const { limits, auth } = context;
   if (workerName.length === 0 || CONTROL_CHARACTER.test(workerName)) {
     throw new ProtocolError('E_TYPE', 'hello.workerName: must be non-empty and printable');
@@ -196,13 +199,20 @@ function checkHello(message: z.output<typeof shapes.hello>, context: ValidationC
   if (proof.length !== PROOF_BYTES) {
     throw new ProtocolError('E_TYPE', `hello.proof: ${PROOF_BYTES} bytes expected, got ${proof.length}`);
   }
+  // Whether the token names a session it may resume is the coordinator's to say (E_AUTH there).
+  if (resume !== undefined && resume.length !== RESUME_TOKEN_BYTES) {
+    throw new ProtocolError('E_TYPE', `hello.resume: ${RESUME_TOKEN_BYTES} bytes expected, got ${resume.length}`);
+  }
   if (auth !== null && !verifyProof(auth.token, auth.nonce, proof)) {
     throw new ProtocolError('E_AUTH', 'hello.proof: does not answer this connection\'s challenge under the shared token');
   }
 }
 
 function checkWelcome(message: z.output<typeof shapes.welcome>, limits: ProtocolLimits): void {
-  const { assignments } = message;
+  const { assignments, resumeToken } = message;
+  if (resumeToken !== undefined && resumeToken.length !== RESUME_TOKEN_BYTES) {
+    throw new ProtocolError('E_TYPE', `welcome.resumeToken: ${RESUME_TOKEN_BYTES} bytes expected, got ${resumeToken.length}`);
+  }
   if (assignments.length > limits.maxClientsPerWorker) {
     throw new ProtocolError('E_SIZE', `welcome.assignments: ${assignments.length} clients, at most ${limits.maxClientsPerWorker}`);
   }
