@@ -2,6 +2,8 @@
 // can reply with it in an `error` message, count it in a metric labelled by reason, and a test
 // can assert it; the message names the offending field path for the human reading the log.
 
+import { CodedError } from '../coded-error.js';
+
 export const PROTOCOL_ERROR_CODES = [
   /** The frame is not one MessagePack value of the core types this protocol uses. */
   'E_DECODE',
@@ -25,15 +27,7 @@ export const PROTOCOL_ERROR_CODES = [
 
 export type ProtocolErrorCode = (typeof PROTOCOL_ERROR_CODES)[number];
 
-export class ProtocolError extends Error {
-  readonly code: ProtocolErrorCode;
-
-  constructor(code: ProtocolErrorCode, message: string) {
-    super(message);
-    this.name = 'ProtocolError';
-    this.code = code;
-  }
-}
+export class ProtocolError extends CodedError<ProtocolErrorCode> {}
 
 export function isProtocolErrorCode(value: unknown): value is ProtocolErrorCode {
   return typeof value === 'string' && (PROTOCOL_ERROR_CODES as readonly string[]).includes(value);

@@ -1,5 +1,7 @@
 // Problems with a report's or a comparison's input. The CLI maps every code to exit code 2.
 
+import { CodedError } from '../coded-error.js';
+
 export type ReportErrorCode =
   /** the results folder or one of its files is missing or unreadable */
   | 'E_RESULTS_FILE'
@@ -10,12 +12,4 @@ export type ReportErrorCode =
   /** nothing to compare, or more variants than the limit */
   | 'E_COMPARE_VARIANTS';
 
-export class ReportError extends Error {
-  readonly code: ReportErrorCode;
-
-  constructor(code: ReportErrorCode, message: string) {
-    super(message);
-    this.name = 'ReportError';
-    this.code = code;
-  }
-}
+export class ReportError extends CodedError<ReportErrorCode> {}

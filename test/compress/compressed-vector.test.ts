@@ -6,15 +6,10 @@ import {
   validateCompressedVector,
   type CompressedVector,
 } from '../../src/compress/compressed-vector.js';
+import { codeOf } from '../support/error-code.js';
 
-function codeOf(run: () => unknown): string | undefined {
-  try {
-    run();
-  } catch (error) {
-    return error instanceof CompressError ? error.code : `not a CompressError: ${String(error)}`;
-  }
-  return undefined;
-}
+const compressErrorCode = (action: () => unknown): string => codeOf(action, CompressError);
+
 
 describe('decompress', () => {
   it('scatters a sparse vector into zeros and widens f32 exactly', () => {
@@ -37,7 +32,7 @@ describe('axpyCompressed', () => {
     const out = Float64Array.of(1, 1, 1, 1);
     axpyCompressed(-1, { dim: 4, indices: Uint32Array.of(0, 3), values: Float64Array.of(2, 5) }, out);
     expect(Array.from(out)).toEqual([-1, 1, 1, -4]);
-    expect(codeOf(() => axpyCompressed(1, { dim: 3, indices: null, values: new Float64Array(3) }, out))).toBe(
+    expect(compressErrorCode(() => axpyCompressed(1, { dim: 3, indices: null, values: new Float64Array(3) }, out))).toBe(
       'E_DIMENSION',
     );
   });
@@ -64,7 +59,7 @@ describe('validateCompressedVector', () => {
       [{ dim: 3, indices: Uint32Array.of(2), values: Float32Array.of(Infinity) }, undefined, 'E_NOT_FINITE'],
     ];
     for (const [cv, expectedDim, code] of bad) {
-      expect(codeOf(() => validateCompressedVector(cv, expectedDim))).toBe(code);
+      expect(compressErrorCode(() => validateCompressedVector(cv, expectedDim))).toBe(code);
     }
   });
 });

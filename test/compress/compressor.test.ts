@@ -6,6 +6,9 @@ import { compress, isExact, keptCount } from '../../src/compress/compressor.js';
 import type { CompressorSpec } from '../../src/scenario/schema.js';
 import { compressorSchema } from '../../src/scenario/schema.js';
 import { distanceSquared, normSquared } from '../../src/vec/kernels.js';
+import { codeOf } from '../support/error-code.js';
+
+const compressErrorCode = (action: () => unknown): string => codeOf(action, CompressError);
 
 const spec = (input: Record<string, unknown>): CompressorSpec => compressorSchema.parse(input);
 
@@ -22,14 +25,6 @@ function testVector(rng: Rng, d: number, flavour: number): Float64Array {
   return v;
 }
 
-function codeOf(run: () => unknown): string | undefined {
-  try {
-    run();
-  } catch (error) {
-    return error instanceof CompressError ? error.code : `not a CompressError: ${String(error)}`;
-  }
-  return undefined;
-}
 
 describe('keptCount', () => {
   // The rule is the scenario schema's own: k = count, or ceil(fraction d), clamped to [1, d].
@@ -50,7 +45,7 @@ describe('keptCount', () => {
 
   it('rejects a top-k without fraction or count (a spec built by hand, past the schema)', () => {
     const bare = { kind: 'top-k', errorFeedback: true, unbiased: false, values: 'f64' } as CompressorSpec;
-    expect(codeOf(() => keptCount(10, bare))).toBe('E_SPEC');
+    expect(compressErrorCode(() => keptCount(10, bare))).toBe('E_SPEC');
   });
 });
 
@@ -161,19 +156,19 @@ describe('rand-k', () => {
   });
 
   it('needs a seeded Rng', () => {
-    expect(codeOf(() => compress(new Float64Array(4), spec({ kind: 'rand-k', count: 1 })))).toBe('E_RNG_REQUIRED');
+    expect(compressErrorCode(() => compress(new Float64Array(4), spec({ kind: 'rand-k', count: 1 })))).toBe('E_RNG_REQUIRED');
   });
 });
 
 describe('input checks', () => {
   it('rejects non-finite inputs, values beyond f32, and an empty vector', () => {
     const s = spec({ kind: 'top-k', count: 1 });
-    expect(codeOf(() => compress(Float64Array.from([1, NaN]), s))).toBe('E_NOT_FINITE');
-    expect(codeOf(() => compress(Float64Array.from([Infinity]), spec({ kind: 'none' })))).toBe('E_NOT_FINITE');
+    expect(compressErrorCode(() => compress(Float64Array.from([1, NaN]), s))).toBe('E_NOT_FINITE');
+    expect(compressErrorCode(() => compress(Float64Array.from([Infinity]), spec({ kind: 'none' })))).toBe('E_NOT_FINITE');
     // 1e39 is finite in binary64 but beyond the largest binary32, about 3.4e38 (IEEE 754).
-    expect(codeOf(() => compress(Float64Array.from([1e39, 0]), spec({ kind: 'top-k', count: 1, values: 'f32' })))).toBe(
+    expect(compressErrorCode(() => compress(Float64Array.from([1e39, 0]), spec({ kind: 'top-k', count: 1, values: 'f32' })))).toBe(
       'E_NOT_FINITE',
     );
-    expect(codeOf(() => compress(new Float64Array(0), s))).toBe('E_DIMENSION');
+    expect(compressErrorCode(() => compress(new Float64Array(0), s))).toBe('E_DIMENSION');
   });
 });

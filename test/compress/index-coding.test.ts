@@ -6,15 +6,10 @@ import {
   deltaVarintByteLength,
   encodeIndicesDeltaVarint,
 } from '../../src/compress/index-coding.js';
+import { codeOf } from '../support/error-code.js';
 
-function codeOf(run: () => unknown): string | undefined {
-  try {
-    run();
-  } catch (error) {
-    return error instanceof CompressError ? error.code : `not a CompressError: ${String(error)}`;
-  }
-  return undefined;
-}
+const compressErrorCode = (action: () => unknown): string => codeOf(action, CompressError);
+
 
 function roundTrip(indices: Uint32Array): Uint8Array {
   const bytes = encodeIndicesDeltaVarint(indices);
@@ -68,21 +63,21 @@ describe('delta varint index coding', () => {
   });
 
   it('refuses indices that are not strictly increasing', () => {
-    expect(codeOf(() => encodeIndicesDeltaVarint(Uint32Array.of(3, 1)))).toBe('E_INDEX_ORDER');
-    expect(codeOf(() => encodeIndicesDeltaVarint(Uint32Array.of(4, 4)))).toBe('E_INDEX_ORDER');
-    expect(codeOf(() => deltaVarintByteLength(Uint32Array.of(9, 2)))).toBe('E_INDEX_ORDER');
+    expect(compressErrorCode(() => encodeIndicesDeltaVarint(Uint32Array.of(3, 1)))).toBe('E_INDEX_ORDER');
+    expect(compressErrorCode(() => encodeIndicesDeltaVarint(Uint32Array.of(4, 4)))).toBe('E_INDEX_ORDER');
+    expect(compressErrorCode(() => deltaVarintByteLength(Uint32Array.of(9, 2)))).toBe('E_INDEX_ORDER');
   });
 
   it('rejects malformed bytes with a stable code', () => {
-    expect(codeOf(() => decodeIndicesDeltaVarint(Uint8Array.of(0x80), 1))).toBe('E_VARINT');
-    expect(codeOf(() => decodeIndicesDeltaVarint(Uint8Array.of(0x01, 0x02), 1))).toBe('E_VARINT');
-    expect(codeOf(() => decodeIndicesDeltaVarint(Uint8Array.of(0x81, 0x00), 1))).toBe('E_VARINT');
-    expect(codeOf(() => decodeIndicesDeltaVarint(Uint8Array.of(0xff, 0xff, 0xff, 0xff, 0x10), 1))).toBe('E_VARINT');
-    expect(codeOf(() => decodeIndicesDeltaVarint(Uint8Array.of(0x80, 0x80, 0x80, 0x80, 0x80, 0x01), 1))).toBe('E_VARINT');
-    expect(codeOf(() => decodeIndicesDeltaVarint(Uint8Array.of(0x01), 2))).toBe('E_VARINT');
-    expect(codeOf(() => decodeIndicesDeltaVarint(Uint8Array.of(0x01), -1))).toBe('E_VARINT');
+    expect(compressErrorCode(() => decodeIndicesDeltaVarint(Uint8Array.of(0x80), 1))).toBe('E_VARINT');
+    expect(compressErrorCode(() => decodeIndicesDeltaVarint(Uint8Array.of(0x01, 0x02), 1))).toBe('E_VARINT');
+    expect(compressErrorCode(() => decodeIndicesDeltaVarint(Uint8Array.of(0x81, 0x00), 1))).toBe('E_VARINT');
+    expect(compressErrorCode(() => decodeIndicesDeltaVarint(Uint8Array.of(0xff, 0xff, 0xff, 0xff, 0x10), 1))).toBe('E_VARINT');
+    expect(compressErrorCode(() => decodeIndicesDeltaVarint(Uint8Array.of(0x80, 0x80, 0x80, 0x80, 0x80, 0x01), 1))).toBe('E_VARINT');
+    expect(compressErrorCode(() => decodeIndicesDeltaVarint(Uint8Array.of(0x01), 2))).toBe('E_VARINT');
+    expect(compressErrorCode(() => decodeIndicesDeltaVarint(Uint8Array.of(0x01), -1))).toBe('E_VARINT');
     // 0xffffffff then a gap of 0: the next index would be 2^32.
-    expect(codeOf(() => decodeIndicesDeltaVarint(Uint8Array.of(0xff, 0xff, 0xff, 0xff, 0x0f, 0x00), 2))).toBe(
+    expect(compressErrorCode(() => decodeIndicesDeltaVarint(Uint8Array.of(0xff, 0xff, 0xff, 0xff, 0x0f, 0x00), 2))).toBe(
       'E_INDEX_RANGE',
     );
   });

@@ -8,18 +8,12 @@ import type { DownMessage, UpMessage } from '../../src/protocol/messages.js';
 import { receiveMessage } from '../../src/protocol/receive.js';
 import { fromWire, toWire } from '../../src/protocol/wire-vector.js';
 import { contextFor, DIM, plain, sampleMessages, serverContext, workerContext } from './sample-messages.js';
+import { codeOf } from '../support/error-code.js';
+
+const protocolErrorCode = (action: () => unknown): string => codeOf(action, ProtocolError);
 
 const LIMIT_BYTES = HANDSHAKE_LIMITS.maxFrameBytes;
 
-function codeOf(action: () => unknown): string {
-  try {
-    action();
-  } catch (error) {
-    if (error instanceof ProtocolError) return error.code;
-    throw error;
-  }
-  return 'no error';
-}
 
 /** The frame's bytes placed `offset` bytes into a fresh buffer, as a socket might hand them over. */
 function atOffset(frame: Uint8Array, offset: number): Uint8Array {
@@ -122,7 +116,7 @@ describe('encodeMessage / decodeMessage', () => {
   it('refuses NaN and infinities in vectors, f64 and f32, whichever end finds them', () => {
     for (const bad of [NaN, Infinity, -Infinity]) {
       for (const values of [Float64Array.from([1, bad, 2]), Float32Array.from([1, bad, 2])]) {
-        expect(codeOf(() => toWire({ dim: 3, indices: null, values }))).toBe('E_NOT_FINITE');
+        expect(protocolErrorCode(() => toWire({ dim: 3, indices: null, values }))).toBe('E_NOT_FINITE');
         // A peer that skips the check: write the bytes by hand.
         const good = toWire({ dim: 3, indices: null, values: values.map(() => 1) });
         const view = new DataView(good.values.buffer);
@@ -133,7 +127,7 @@ describe('encodeMessage / decodeMessage', () => {
           computeSeconds: 0, waitSeconds: 0, transferSeconds: 0, fields: { delta: good },
         });
         const context = serverContext({ fieldDims: { local: { delta: 3 } } });
-        expect(codeOf(() => receiveMessage(frame, context))).toBe('E_NOT_FINITE');
+        expect(protocolErrorCode(() => receiveMessage(frame, context))).toBe('E_NOT_FINITE');
       }
     }
   });
@@ -146,14 +140,14 @@ describe('encodeMessage / decodeMessage', () => {
       Uint8Array.of(0xdb, 0xff, 0xff, 0xff, 0xff), // str 32 claiming 4 GiB
       new Uint8Array(0),
     ];
-    for (const frame of frames) expect(codeOf(() => decodeMessage(frame, LIMIT_BYTES))).toBe('E_DECODE');
+    for (const frame of frames) expect(protocolErrorCode(() => decodeMessage(frame, LIMIT_BYTES))).toBe('E_DECODE');
   });
 
   it('refuses seeded random bytes with E_DECODE', () => {
     const rng = Rng.derive(2024, 'protocol', 'random-frames');
     for (let trial = 0; trial < 200; trial++) {
       const frame = Uint8Array.from({ length: 64 }, () => rng.nextUint32() & 0xff);
-      expect(codeOf(() => receiveMessage(frame, serverContext()))).toBe('E_DECODE');
+      expect(protocolErrorCode(() => receiveMessage(frame, serverContext()))).toBe('E_DECODE');
     }
   });
 
@@ -166,14 +160,14 @@ describe('encodeMessage / decodeMessage', () => {
       withMoreTypes.pack({ type: 'error', code: 'E_TYPE', message: new Error('x') }),
       withMoreTypes.pack({ type: 'welcome', plan: new Set([1]) }),
     ];
-    for (const frame of frames) expect(codeOf(() => decodeMessage(frame, LIMIT_BYTES))).toBe('E_DECODE');
+    for (const frame of frames) expect(protocolErrorCode(() => decodeMessage(frame, LIMIT_BYTES))).toBe('E_DECODE');
   });
 
   it('refuses nesting beyond the limit, and nesting deep enough to exhaust the stack, with E_DECODE', () => {
     const nested = (depth: number) => Uint8Array.from([...new Array(depth).fill(0x91), 0x01]);
     expect(decodeMessage(nested(NESTING_DEPTH_MAX), LIMIT_BYTES)).toBeDefined();
-    expect(codeOf(() => decodeMessage(nested(NESTING_DEPTH_MAX + 1), LIMIT_BYTES))).toBe('E_DECODE');
-    expect(codeOf(() => decodeMessage(nested(1_000_000), LIMIT_BYTES))).toBe('E_DECODE');
+    expect(protocolErrorCode(() => decodeMessage(nested(NESTING_DEPTH_MAX + 1), LIMIT_BYTES))).toBe('E_DECODE');
+    expect(protocolErrorCode(() => decodeMessage(nested(1_000_000), LIMIT_BYTES))).toBe('E_DECODE');
   });
 
   it('carries no state from one frame to the next (a record definition in one frame is not kept)', () => {
@@ -181,14 +175,14 @@ describe('encodeMessage / decodeMessage', () => {
     decodeMessage(sequential.pack({ x: 1, y: 2 }), LIMIT_BYTES);
     // The second frame of that stream refers to the structure by the byte 0x40, which on its
     // own is the positive fixint 64 followed by stray bytes.
-    expect(codeOf(() => decodeMessage(sequential.pack({ x: 3, y: 4 }), LIMIT_BYTES))).toBe('E_DECODE');
+    expect(protocolErrorCode(() => decodeMessage(sequential.pack({ x: 3, y: 4 }), LIMIT_BYTES))).toBe('E_DECODE');
     expect(decodeMessage(Uint8Array.of(0x91, 0x40), LIMIT_BYTES)).toEqual([64]);
   });
 
   it('checks the frame size before decoding (E_SIZE even for garbage)', () => {
     const garbage = new Uint8Array(1025).fill(0xc1);
-    expect(codeOf(() => decodeMessage(garbage, 1024))).toBe('E_SIZE');
-    expect(codeOf(() => decodeMessage(garbage.subarray(0, 1024), 1024))).toBe('E_DECODE');
+    expect(protocolErrorCode(() => decodeMessage(garbage, 1024))).toBe('E_SIZE');
+    expect(protocolErrorCode(() => decodeMessage(garbage.subarray(0, 1024), 1024))).toBe('E_DECODE');
   });
 
   it('leaves frames it returned intact when it encodes again', () => {

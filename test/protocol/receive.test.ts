@@ -3,28 +3,22 @@ import { encodeMessage } from '../../src/protocol/codec.js';
 import { ProtocolError } from '../../src/protocol/errors.js';
 import { receiveMessage } from '../../src/protocol/receive.js';
 import { sampleMessages, serverContext } from './sample-messages.js';
+import { codeOf } from '../support/error-code.js';
 
-function codeOf(action: () => unknown): string {
-  try {
-    action();
-  } catch (error) {
-    if (error instanceof ProtocolError) return error.code;
-    throw error;
-  }
-  return 'no error';
-}
+const protocolErrorCode = (action: () => unknown): string => codeOf(action, ProtocolError);
+
 
 describe('receiveMessage', () => {
   const upFrame = encodeMessage(sampleMessages().find((m) => m.type === 'up')!);
 
   it('applies the frame limit of the context before anything else', () => {
     const limits = { ...serverContext().limits, maxFrameBytes: upFrame.length - 1 };
-    expect(codeOf(() => receiveMessage(upFrame, serverContext({ limits })))).toBe('E_SIZE');
+    expect(protocolErrorCode(() => receiveMessage(upFrame, serverContext({ limits })))).toBe('E_SIZE');
     expect(receiveMessage(upFrame, serverContext({ limits: { ...limits, maxFrameBytes: upFrame.length } })).type).toBe('up');
   });
 
   it('reports decoding faults as E_DECODE and shape faults as E_TYPE', () => {
-    expect(codeOf(() => receiveMessage(upFrame.subarray(0, upFrame.length - 1), serverContext()))).toBe('E_DECODE');
-    expect(codeOf(() => receiveMessage(encodeMessage({ type: 'done', reason: 'stopped' }), serverContext()))).toBe('E_TYPE');
+    expect(protocolErrorCode(() => receiveMessage(upFrame.subarray(0, upFrame.length - 1), serverContext()))).toBe('E_DECODE');
+    expect(protocolErrorCode(() => receiveMessage(encodeMessage({ type: 'done', reason: 'stopped' }), serverContext()))).toBe('E_TYPE');
   });
 });

@@ -2,16 +2,10 @@ import { describe, expect, it } from 'vitest';
 import { decompress } from '../../src/compress/compressed-vector.js';
 import { ProtocolError } from '../../src/protocol/errors.js';
 import { checkWireVector, fromWire, toWire, type WireVector } from '../../src/protocol/wire-vector.js';
+import { codeOf } from '../support/error-code.js';
 
-function codeOf(action: () => unknown): string {
-  try {
-    action();
-  } catch (error) {
-    if (error instanceof ProtocolError) return error.code;
-    throw error;
-  }
-  return 'no error';
-}
+const protocolErrorCode = (action: () => unknown): string => codeOf(action, ProtocolError);
+
 
 describe('toWire / fromWire', () => {
   it('round-trips dense and sparse vectors at both widths', () => {
@@ -94,8 +88,8 @@ describe('checks on a wire vector from a peer', () => {
 
   for (const [name, make, code] of faults) {
     it(`${name} -> ${code}, from checkWireVector and fromWire alike`, () => {
-      expect(codeOf(() => checkWireVector(make()))).toBe(code);
-      expect(codeOf(() => fromWire(make()))).toBe(code);
+      expect(protocolErrorCode(() => checkWireVector(make()))).toBe(code);
+      expect(protocolErrorCode(() => fromWire(make()))).toBe(code);
     });
   }
 
@@ -107,10 +101,10 @@ describe('checks on a wire vector from a peer', () => {
 describe('checks on the sending side', () => {
   it('refuses unsorted or duplicate indices, indices out of range and count mismatches with E_DIMENSION', () => {
     const values = Float64Array.of(1, 2);
-    expect(codeOf(() => toWire({ dim: 9, indices: Uint32Array.of(3, 1), values }))).toBe('E_DIMENSION');
-    expect(codeOf(() => toWire({ dim: 9, indices: Uint32Array.of(3, 3), values }))).toBe('E_DIMENSION');
-    expect(codeOf(() => toWire({ dim: 9, indices: Uint32Array.of(3, 9), values }))).toBe('E_DIMENSION');
-    expect(codeOf(() => toWire({ dim: 9, indices: Uint32Array.of(3), values }))).toBe('E_DIMENSION');
-    expect(codeOf(() => toWire({ dim: 3, indices: null, values }))).toBe('E_DIMENSION');
+    expect(protocolErrorCode(() => toWire({ dim: 9, indices: Uint32Array.of(3, 1), values }))).toBe('E_DIMENSION');
+    expect(protocolErrorCode(() => toWire({ dim: 9, indices: Uint32Array.of(3, 3), values }))).toBe('E_DIMENSION');
+    expect(protocolErrorCode(() => toWire({ dim: 9, indices: Uint32Array.of(3, 9), values }))).toBe('E_DIMENSION');
+    expect(protocolErrorCode(() => toWire({ dim: 9, indices: Uint32Array.of(3), values }))).toBe('E_DIMENSION');
+    expect(protocolErrorCode(() => toWire({ dim: 3, indices: null, values }))).toBe('E_DIMENSION');
   });
 });

@@ -4,6 +4,9 @@ import { Rng } from '../../src/data/rng.js';
 import { affineDefect, applyRoundMap, linearPart } from '../../src/theory/affine-map.js';
 import { TheoryError } from '../../src/theory/theory-error.js';
 import { matrixMap, randomArray, randomMatrix } from './fixtures/affine-maps.js';
+import { codeOf } from '../support/error-code.js';
+
+const theoryErrorCode = (action: () => unknown): string => codeOf(action, TheoryError);
 
 function relativeDistance(a: ArrayLike<number>, b: ArrayLike<number>): number {
   let difference = 0;
@@ -15,14 +18,6 @@ function relativeDistance(a: ArrayLike<number>, b: ArrayLike<number>): number {
   return Math.sqrt(difference / size);
 }
 
-function codeOf(action: () => unknown): string | undefined {
-  try {
-    action();
-  } catch (error) {
-    return error instanceof TheoryError ? error.code : `not a TheoryError: ${String(error)}`;
-  }
-  return undefined;
-}
 
 describe('linearPart', () => {
   const rng = Rng.fromSeed(11);
@@ -58,10 +53,10 @@ describe('linearPart', () => {
     const copy = Float64Array.from(base);
     linearPart(map, base)(Float64Array.from(randomArray(rng, n)));
     expect(Array.from(base)).toEqual(Array.from(copy));
-    expect(codeOf(() => linearPart((s) => s.subarray(1), base))).toBe('E_DIMENSION');
-    expect(codeOf(() => applyRoundMap((s) => s.map(() => NaN), base))).toBe('E_NOT_FINITE');
-    expect(codeOf(() => linearPart(map, base)(new Float64Array(n + 1)))).toBe('E_DIMENSION');
-    expect(codeOf(() => linearPart(map, base, { probeNorm: 0 }))).toBe('E_ARGUMENT');
+    expect(theoryErrorCode(() => linearPart((s) => s.subarray(1), base))).toBe('E_DIMENSION');
+    expect(theoryErrorCode(() => applyRoundMap((s) => s.map(() => NaN), base))).toBe('E_NOT_FINITE');
+    expect(theoryErrorCode(() => linearPart(map, base)(new Float64Array(n + 1)))).toBe('E_DIMENSION');
+    expect(theoryErrorCode(() => linearPart(map, base, { probeNorm: 0 }))).toBe('E_ARGUMENT');
   });
 });
 

@@ -8,15 +8,10 @@ import { TheoryError } from '../../src/theory/theory-error.js';
 import { fromColumn, standardProblem } from '../algorithm/fixtures/least-squares-problem.js';
 import { clientMinimizer, localStepMap } from '../algorithm/fixtures/quadratic-reference.js';
 import { matrixMap, modelRoundMap, randomArray, randomMatrix, scaffoldStateMap } from './fixtures/affine-maps.js';
+import { codeOf } from '../support/error-code.js';
 
-function codeOf(action: () => unknown): string | undefined {
-  try {
-    action();
-  } catch (error) {
-    return error instanceof TheoryError ? error.code : `not a TheoryError: ${String(error)}`;
-  }
-  return undefined;
-}
+const theoryErrorCode = (action: () => unknown): string => codeOf(action, TheoryError);
+
 
 const distance = (a: ArrayLike<number>, b: ArrayLike<number>) => Math.hypot(...Array.from(a, (value, j) => value - b[j]));
 const norm = (a: ArrayLike<number>) => Math.hypot(...Array.from(a));
@@ -100,7 +95,7 @@ describe('affineFixedPoint', () => {
   it('reports E_SINGULAR when the state drifts along a conserved direction (no fixed point)', () => {
     // s -> (s_0 + 1, s_1 / 2): the first coordinate grows by 1 every round.
     const drifting = (s: Float64Array) => Float64Array.of(s[0] + 1, 0.5 * s[1]);
-    expect(codeOf(() => affineFixedPoint(drifting, 2))).toBe('E_SINGULAR');
+    expect(theoryErrorCode(() => affineFixedPoint(drifting, 2))).toBe('E_SINGULAR');
   });
 
   it("finds SCAFFOLD's limit on its whole flattened state: x* (Karimireddy et al., ICML 2020), conserved part kept", () => {
@@ -136,13 +131,13 @@ describe('affineFixedPoint', () => {
       applications++;
       return s;
     };
-    expect(codeOf(() => affineFixedPoint(map, FIXED_POINT_DIMENSION_MAX + 1))).toBe('E_SIZE_LIMIT');
+    expect(theoryErrorCode(() => affineFixedPoint(map, FIXED_POINT_DIMENSION_MAX + 1))).toBe('E_SIZE_LIMIT');
     expect(applications).toBe(0);
-    expect(codeOf(() => affineFixedPoint(map, 3, { base: new Float64Array(2) }))).toBe('E_DIMENSION');
-    expect(codeOf(() => affineFixedPoint(map, 3, { refinementsMax: -1 }))).toBe('E_ARGUMENT');
+    expect(theoryErrorCode(() => affineFixedPoint(map, 3, { base: new Float64Array(2) }))).toBe('E_DIMENSION');
+    expect(theoryErrorCode(() => affineFixedPoint(map, 3, { refinementsMax: -1 }))).toBe('E_ARGUMENT');
     // A GMRES budget too small for the system: the residual cannot reach rounding level.
     const rng = Rng.fromSeed(44);
-    expect(codeOf(() => affineFixedPoint(matrixMap(randomMatrix(rng, 20, 0.9), randomArray(rng, 20)), 20, { iterationsMax: 2, refinementsMax: 0 }))).toBe(
+    expect(theoryErrorCode(() => affineFixedPoint(matrixMap(randomMatrix(rng, 20, 0.9), randomArray(rng, 20)), 20, { iterationsMax: 2, refinementsMax: 0 }))).toBe(
       'E_NOT_CONVERGED',
     );
   });

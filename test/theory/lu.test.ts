@@ -4,15 +4,10 @@ import { Rng } from '../../src/data/rng.js';
 import { luFactor, luSolve } from '../../src/theory/lu.js';
 import { TheoryError } from '../../src/theory/theory-error.js';
 import { randomArray, randomMatrix } from './fixtures/affine-maps.js';
+import { codeOf } from '../support/error-code.js';
 
-function codeOf(action: () => unknown): string | undefined {
-  try {
-    action();
-  } catch (error) {
-    return error instanceof TheoryError ? error.code : `not a TheoryError: ${String(error)}`;
-  }
-  return undefined;
-}
+const theoryErrorCode = (action: () => unknown): string => codeOf(action, TheoryError);
+
 
 const rowMajor = (a: Matrix) => Float64Array.from(a.to1DArray());
 
@@ -39,11 +34,11 @@ describe('luFactor and luSolve', () => {
   });
 
   it('refuses singular matrices, non-finite entries, wrong sizes and in-place solves with stable codes', () => {
-    expect(codeOf(() => luFactor(Float64Array.of(1, 2, 2, 4), 2))).toBe('E_SINGULAR');
-    expect(codeOf(() => luFactor(Float64Array.of(1, NaN, 0, 1), 2))).toBe('E_NOT_FINITE');
-    expect(codeOf(() => luFactor(Float64Array.of(1, 0, 0), 2))).toBe('E_DIMENSION');
+    expect(theoryErrorCode(() => luFactor(Float64Array.of(1, 2, 2, 4), 2))).toBe('E_SINGULAR');
+    expect(theoryErrorCode(() => luFactor(Float64Array.of(1, NaN, 0, 1), 2))).toBe('E_NOT_FINITE');
+    expect(theoryErrorCode(() => luFactor(Float64Array.of(1, 0, 0), 2))).toBe('E_DIMENSION');
     const factors = luFactor(Float64Array.of(2, 0, 0, 2), 2);
     const b = Float64Array.of(1, 1);
-    expect(codeOf(() => luSolve(factors, b, b))).toBe('E_ARGUMENT');
+    expect(theoryErrorCode(() => luSolve(factors, b, b))).toBe('E_ARGUMENT');
   });
 });

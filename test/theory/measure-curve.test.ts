@@ -9,6 +9,9 @@ import { TheoryError } from '../../src/theory/theory-error.js';
 import { standardProblem, type TestProblem } from '../algorithm/fixtures/least-squares-problem.js';
 import { runRound, startRun, suboptimality, type RoundPlan } from '../algorithm/fixtures/round-loop.js';
 import { modelRoundMap } from './fixtures/affine-maps.js';
+import { codeOf } from '../support/error-code.js';
+
+const theoryErrorCode = (action: () => unknown): string => codeOf(action, TheoryError);
 
 /** C q^k + floor at the listed rounds. */
 function geometric(rounds: number[], start: number, rate: number, floor = 0): CurvePoint[] {
@@ -27,14 +30,6 @@ function curveOf(problem: TestProblem, method: typeof gd, plan: RoundPlan, round
   return points;
 }
 
-function codeOf(action: () => unknown): string | undefined {
-  try {
-    action();
-  } catch (error) {
-    return error instanceof TheoryError ? error.code : `not a TheoryError: ${String(error)}`;
-  }
-  return undefined;
-}
 
 describe('fitLinearRate on synthetic curves', () => {
   // Synthetic curves have a known rate; the brief asks for it back to 1e-6 relative.
@@ -172,11 +167,11 @@ describe('roundsToTarget', () => {
 
 describe('curve validation', () => {
   it('rejects unordered rounds and non-finite values with stable codes', () => {
-    expect(codeOf(() => fitLinearRate([{ round: 1, suboptimality: 1 }, { round: 1, suboptimality: 0.5 }]))).toBe('E_POINTS');
-    expect(codeOf(() => measureFloor([{ round: NaN, suboptimality: 1 }]))).toBe('E_POINTS');
-    expect(codeOf(() => roundsToTarget([{ round: 0, suboptimality: Infinity }], 1))).toBe('E_NOT_FINITE');
-    expect(codeOf(() => fitLinearRate(geometric(range(0, 10), 1, 0.5), { straightness: 0 }))).toBe('E_ARGUMENT');
-    expect(codeOf(() => fitLinearRate(geometric(range(0, 10), 1, 0.5), { noiseLevel: -1 }))).toBe('E_ARGUMENT');
+    expect(theoryErrorCode(() => fitLinearRate([{ round: 1, suboptimality: 1 }, { round: 1, suboptimality: 0.5 }]))).toBe('E_POINTS');
+    expect(theoryErrorCode(() => measureFloor([{ round: NaN, suboptimality: 1 }]))).toBe('E_POINTS');
+    expect(theoryErrorCode(() => roundsToTarget([{ round: 0, suboptimality: Infinity }], 1))).toBe('E_NOT_FINITE');
+    expect(theoryErrorCode(() => fitLinearRate(geometric(range(0, 10), 1, 0.5), { straightness: 0 }))).toBe('E_ARGUMENT');
+    expect(theoryErrorCode(() => fitLinearRate(geometric(range(0, 10), 1, 0.5), { noiseLevel: -1 }))).toBe('E_ARGUMENT');
   });
 });
 
