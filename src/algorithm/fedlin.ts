@@ -1,5 +1,4 @@
-// FedLin (Mitra, Jaafar, Pappas and Hassani, "Linear Convergence in Federated Learning:
-// Tackling Client Heterogeneity and Sparse Gradients", NeurIPS 2021). Two exchanges a round:
+// FedLin (NeurIPS 2021). Two exchanges a round:
 //   "gradient": down "model" x; each client keeps x and its full gradient grad f_i(x) and
 //               uploads { gradient: grad f_i(x) }; the server forms g = sum_{i in S} p~_i grad f_i(x).
 //   "local":    down "gradient" g; y <- x; tau_i times y <- y - eta_i (grad f_i(y) - grad f_i(x) + g);

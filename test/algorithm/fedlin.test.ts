@@ -12,9 +12,9 @@ describe('fedlin', () => {
   /** the paper's step policy: eta_i = eta / tau_i */
   const inverseSteps = (taus: number[]) => ({ localSteps: taus, stepSizes: taus.map((t) => eta / t) });
 
-  it('keeps x* fixed: one round from x* moves x by at most 1e-12, tau_i from 1 to 50 (Mitra et al., NeurIPS 2021)', () => {
+  it('keeps x* fixed: one round from x* moves x by at most 1e-12, tau_i from 1 to 50 (FedLin, NeurIPS 2021)', () => {
     // At x*, g = sum p_i grad f_i(x*) = 0 and the corrected local direction vanishes at y = x*,
-    // so x* is a fixed point whatever tau_i (Mitra et al., NeurIPS 2021). 1e-12 bounds the
+    // so x* is a fixed point whatever tau_i (FedLin, NeurIPS 2021). 1e-12 bounds the
     // rounding of x* itself (from ml-matrix) carried through 50 steps (common practice).
     for (const plan of [inverseSteps([1, 17, 33, 50]), { localSteps: [50, 1, 25, 8], stepSizes: Array(m).fill(eta) }]) {
       const run = startRun(fedlin, problem, {}, problem.xStar);
@@ -25,7 +25,7 @@ describe('fedlin', () => {
 
   it('converges to x* (f - f* <= 1e-12) with tau_i from 1 to 20 where FedAvg stalls', () => {
     // FedLin converges linearly to x* under heterogeneity with eta_i = eta/tau_i for smooth,
-    // strongly convex f_i (Mitra et al., NeurIPS 2021); FedAvg with the same budgets has a fixed point away from x*
+    // strongly convex f_i (FedLin, NeurIPS 2021); FedAvg with the same budgets has a fixed point away from x*
     // (Pathak and Wainwright, NeurIPS 2020). 1e-12 and 1e-6: see fedavg.test.ts.
     const plan = inverseSteps([1, 5, 12, 20]);
     const run = startRun(fedlin, problem);

@@ -43,7 +43,7 @@ function quadraticPieces(s: Scenario) {
   });
 }
 
-describe('FedLin keeps x* fixed (FedLin, Mitra et al., NeurIPS 2021: x* is a fixed point of its round)', () => {
+describe('FedLin keeps x* fixed (FedLin, NeurIPS 2021: x* is a fixed point of its round)', () => {
   for (const [label, overrides] of [
     ['tau_i from 1 to 50', ['method.localSteps={uniform: [1, 50]}']],
     ['with top-k 10% and error feedback on the uploaded deltas', ['method.localSteps={uniform: [1, 50]}', 'compression.uplink.fields={delta: {kind: top-k, fraction: 0.1, errorFeedback: true}}']],

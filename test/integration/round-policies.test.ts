@@ -1,7 +1,7 @@
 // Round policies in the distributed runtime (DESIGN.md, Timing), with 2 of 8 clients slowed
 // 10x (two-class slowdown, fraction 0.25, factor 10) and the virtual clock:
 // - deadline: tau_i = max(1, floor(budget / step time)), so the slow clients get a tenth of the
-//   fast clients' steps; FedLin with eta/tau_i (Mitra et al., NeurIPS 2021: linear convergence
+//   fast clients' steps; FedLin with eta/tau_i (FedLin, NeurIPS 2021: linear convergence
 //   to x* whatever the tau_i) still reaches the target, while FedAvg with unequal tau_i on
 //   heterogeneous clients converges to a point other than x* (Wang et al., NeurIPS 2020,
 //   objective inconsistency) and stalls at a floor;

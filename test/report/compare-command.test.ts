@@ -3,7 +3,7 @@
 // Expected orderings: FedAvg with several local steps stalls at a floor above zero on
 // heterogeneous data (Pathak and Wainwright, NeurIPS 2020: its fixed points are not the
 // minimizer), so above the 1e-8 target; FedLin converges linearly to x* even with sparsified
-// uplinks (Mitra et al., NeurIPS 2021), and top-k with error feedback sends k of d entries a
+// uplinks (FedLin, NeurIPS 2021), and top-k with error feedback sends k of d entries a
 // message (Stich, Cordonnier and Jaggi, NeurIPS 2018), so fewer uplink bytes to the target.
 import { afterAll, describe, expect, it } from 'vitest';
 import { mkdtempSync, readFileSync, rmSync, existsSync } from 'node:fs';
