@@ -30,7 +30,7 @@ export interface ClientTaskResult {
   measuredSeconds: number;
 }
 
-/** Objectives kept per thread; a worker hosts at most its slots' worth. */
+/** Objectives kept per thread; a worker hosts at most its capacity's worth. */
 const OBJECTIVE_CACHE_ENTRIES_MAX = 1024;
 const objectives = new Map<string, Objective>();
 

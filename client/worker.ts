@@ -1,4 +1,4 @@
-// The worker process: joins a coordinator (challenge -> hello with the token's proof ->
+// The worker process: joins a coordinator (challenge -> hello with the shared key's proof ->
 // welcome), hosts the clients it is dealt, and answers every down with an up after the client's
 // local work, paced by the speed and link models. Every incoming frame is validated; a bad one
 // gets an error reply with its code and is otherwise ignored. A connection that drops mid-run
@@ -13,7 +13,7 @@ import {
   ProtocolError,
   encodeMessage,
   fromWire,
-  proveToken,
+  proveKey,
   receiveMessage,
   toWire,
   type DownMessage,
@@ -37,8 +37,10 @@ import type { WorkerMetrics } from './metrics.js';
 
 export interface WorkerOptions {
   url: string;
-  token: string;
-  slots: number;
+  /** the shared key, read from the key file */
+  key: Uint8Array;
+  /** how many clients this worker offers to host */
+  capacity: number;
   workerName: string;
   /** most pool threads when hosting several clients */
   threadsMax: number;
@@ -226,8 +228,8 @@ export class Worker {
           type: 'hello',
           protocolVersion: PROTOCOL_VERSION,
           workerName: this.options.workerName,
-          slots: this.options.slots,
-          proof: proveToken(this.options.token, message.nonce),
+          capacity: this.options.capacity,
+          proof: proveKey(this.options.key, message.nonce),
           ...(resumeToken === null ? {} : { resume: resumeToken }),
         });
         return;
@@ -254,13 +256,13 @@ export class Worker {
 
   private welcome(message: WelcomeMessage): void {
     const plan = parsePlan(message);
-    if (message.assignments.length > this.options.slots) throw new ProtocolError('E_SIZE', `welcome.assignments: ${message.assignments.length} clients for ${this.options.slots} slots`);
+    if (message.assignments.length > this.options.capacity) throw new ProtocolError('E_SIZE', `welcome.assignments: ${message.assignments.length} clients for a capacity of ${this.options.capacity}`);
     const wall = plan.scenario.timing.clock === 'wall';
     this.hosting = {
       plan,
       clientIds: new Set(message.assignments),
       exchanges: methodByName(plan.scenario.method.name).exchanges,
-      host: new ClientHost(plan, message.assignments, { threadsMax: this.options.slots }),
+      host: new ClientHost(plan, message.assignments, { threadsMax: this.options.capacity }),
       link: new LinkShaper(plan.scenario.timing.links, wall),
       pacer: new ComputePacer(speedModelFor(plan.scenario.timing, plan.scenario.clients.count, plan.scenario.seed), wall),
       limits: message.limits,

@@ -39,9 +39,10 @@ export interface CoordinatorOptions {
   host: string;
   /** 0: the OS picks */
   port: number;
-  token: string;
+  /** the shared key whose HMAC proof every worker's hello carries */
+  key: Uint8Array;
   tls: TlsFiles | null;
-  /** the run starts once this many workers joined and their slots cover every client */
+  /** the run starts once this many workers joined and their capacity covers every client */
   workersMin: number;
   workersMax: number;
   maxClientsPerWorker: number;
@@ -187,14 +188,14 @@ export class Coordinator {
     const session = new WorkerSession(this.nextSessionId++, ws, socket, performance.now());
     this.sessions.push(session);
     session.onClose(() => this.closed(session));
-    const hello = await awaitHello(session, { token: this.options.token, timeoutSeconds: this.options.handshakeTimeoutSeconds, ledger: this.ledger, errors: this.errors, log: this.options.log });
+    const hello = await awaitHello(session, { key: this.options.key, timeoutSeconds: this.options.handshakeTimeoutSeconds, ledger: this.ledger, errors: this.errors, log: this.options.log });
     if (hello === null) return;
     if (hello.resume !== undefined) {
       this.resume(session, hello.resume);
       return;
     }
     session.workerName = hello.workerName;
-    session.slots = hello.slots;
+    session.capacity = hello.capacity;
     if (this.stopRequested || !this.registry.join(session)) {
       this.sendControl(session, { type: 'error', code: 'E_CLIENT', message: 'the run has no clients left to host' });
       session.state = 'refused';
@@ -202,7 +203,7 @@ export class Coordinator {
       return;
     }
     session.onFrame((frame, wireBytes) => this.receive(session, frame, wireBytes));
-    this.options.log(`${session.label()} joined with ${hello.slots} slots (${this.registry.workersJoined()} workers, ${this.registry.slotsJoined()} slots for ${this.plan.clientCount} clients)`);
+    this.options.log(`${session.label()} joined with capacity ${hello.capacity} (${this.registry.workersJoined()} workers, capacity ${this.registry.capacityJoined()} for ${this.plan.clientCount} clients)`);
     this.joinChanged();
   }
 
@@ -270,7 +271,7 @@ export class Coordinator {
     if (resumed === null) {
       this.errors.countReceived('E_AUTH');
       this.options.log(`${session.label()} refused (E_AUTH): its resume token names no session waiting to resume`);
-      this.sendControl(session, { type: 'error', code: 'E_AUTH', message: 'hello.resume: names no session waiting to resume (wrong token, or its grace has passed)' });
+      this.sendControl(session, { type: 'error', code: 'E_AUTH', message: 'hello.resume: names no session waiting to resume (an unknown resume token, or its grace has passed)' });
       session.state = 'refused';
       session.close(CLOSE_POLICY_VIOLATION, 'E_AUTH');
       return;
@@ -316,7 +317,7 @@ export class Coordinator {
     return new Promise((resolve, reject) => {
       const timer = setTimeout(() => {
         this.joinChanged = () => undefined;
-        reject(new RuntimeError('E_NOT_ENOUGH_WORKERS', `after ${this.options.joinTimeoutSeconds} s, ${this.registry.workersJoined()} workers with ${this.registry.slotsJoined()} slots joined; ${this.plan.clientCount} clients need hosts (at least ${this.options.workersMin} workers)`));
+        reject(new RuntimeError('E_NOT_ENOUGH_WORKERS', `after ${this.options.joinTimeoutSeconds} s, ${this.registry.workersJoined()} workers with capacity ${this.registry.capacityJoined()} joined; ${this.plan.clientCount} clients need hosts (at least ${this.options.workersMin} workers)`));
       }, this.options.joinTimeoutSeconds * 1000);
       this.joinChanged = () => {
         if (this.stopRequested) {

@@ -1,5 +1,5 @@
-// The handshake on a fresh connection: challenge(nonce) -> hello(HMAC(token, nonce), version,
-// name, slots). A wrong proof or version gets an error with its code and the connection is
+// The handshake on a fresh connection: challenge(nonce) -> hello(HMAC(key, nonce), version,
+// name, capacity). A wrong proof or version gets an error with its code and the connection is
 // closed before anything of the plan is sent; so does silence past the handshake limit.
 
 import {
@@ -18,7 +18,8 @@ import type { WorkerSession } from './worker-session.js';
 export const CLOSE_POLICY_VIOLATION = 1008;
 
 export interface HandshakeDeps {
-  token: string;
+  /** the shared key */
+  key: Uint8Array;
   timeoutSeconds: number;
   ledger: ByteLedger;
   errors: ProtocolErrorCounter;
@@ -66,7 +67,7 @@ export function awaitHello(session: WorkerSession, deps: HandshakeDeps): Promise
           expectedExchange: null,
           ownedClientIds: null,
           fieldDims: null,
-          auth: { token: deps.token, nonce },
+          auth: { key: deps.key, nonce },
         });
         settle(message as HelloMessage);
       } catch (error) {

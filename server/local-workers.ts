@@ -1,6 +1,7 @@
 // Worker processes on this machine for `roundwire run`: each is `node bin/roundwire.js worker`,
-// given the token through its environment (never its command line, which ps shows). They are
-// stopped with the run whatever way it ends; a process exit hook kills any still running.
+// pointed at the run's key file (the path is no secret; the key never reaches a command line or
+// an environment). They are stopped with the run whatever way it ends; a process exit hook kills
+// any still running.
 
 import { spawn, type ChildProcess } from 'node:child_process';
 import { existsSync } from 'node:fs';
@@ -8,8 +9,10 @@ import { fileURLToPath } from 'node:url';
 
 export interface LocalWorkerSpec {
   url: string;
-  token: string;
-  slots: number;
+  /** the file holding the shared key, private to this user */
+  keyFile: string;
+  /** clients the worker offers to host */
+  capacity: number;
   workerName: string;
 }
 
@@ -38,8 +41,7 @@ export class LocalWorker {
 
   constructor(spec: LocalWorkerSpec) {
     this.spec = spec;
-    this.child = spawn(process.execPath, [binPath(), 'worker', '--join', spec.url, '--slots', String(spec.slots), '--name', spec.workerName], {
-      env: { ...process.env, ROUNDWIRE_TOKEN: spec.token },
+    this.child = spawn(process.execPath, [binPath(), 'worker', spec.url, '--key-file', spec.keyFile, '--capacity', String(spec.capacity), '--name', spec.workerName], {
       stdio: ['ignore', 'ignore', 'pipe'],
     });
     let partial = '';

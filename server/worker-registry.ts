@@ -1,6 +1,6 @@
-// Who joined, with how many slots, and which clients each worker hosts. Clients are dealt
+// Who joined, offering what capacity, and which clients each worker hosts. Clients are dealt
 // round-robin over the joined workers (in join order), each worker taking at most
-// min(its slots, maxClientsPerWorker): ids stay increasing per worker and the load even.
+// min(its capacity, maxClientsPerWorker): ids stay increasing per worker and the load even.
 
 import { timingSafeEqual } from 'node:crypto';
 import { RuntimeError } from './runtime-error.js';
@@ -8,7 +8,7 @@ import type { WorkerSession } from './worker-session.js';
 
 export interface RegistryLimits {
   clientCount: number;
-  /** the run starts once at least this many workers joined (and their slots cover every client) */
+  /** the run starts once at least this many workers joined (and their capacity covers every client) */
   workersMin: number;
   maxClientsPerWorker: number;
   /** joins refused beyond this many workers */
@@ -50,10 +50,11 @@ export class WorkerRegistry {
   }
 
   private capacityOf(session: WorkerSession): number {
-    return Math.min(session.slots, this.limits.maxClientsPerWorker);
+    return Math.min(session.capacity, this.limits.maxClientsPerWorker);
   }
 
-  slotsJoined(): number {
+  /** Clients the joined workers can host together. */
+  capacityJoined(): number {
     let total = 0;
     for (const s of this.joined) total += this.capacityOf(s);
     return total;
@@ -64,13 +65,13 @@ export class WorkerRegistry {
   }
 
   isReady(): boolean {
-    return this.joined.length >= this.limits.workersMin && this.slotsJoined() >= this.limits.clientCount;
+    return this.joined.length >= this.limits.workersMin && this.capacityJoined() >= this.limits.clientCount;
   }
 
   /** Deals every client to a worker; returns each worker's ids (ascending). */
   assign(): Map<WorkerSession, number[]> {
     if (!this.isReady()) {
-      throw new RuntimeError('E_NOT_ENOUGH_WORKERS', `${this.joined.length} workers with ${this.slotsJoined()} slots cannot host ${this.limits.clientCount} clients`);
+      throw new RuntimeError('E_NOT_ENOUGH_WORKERS', `${this.joined.length} workers with capacity ${this.capacityJoined()} cannot host ${this.limits.clientCount} clients`);
     }
     this.assigned = true;
     const out = new Map<WorkerSession, number[]>(this.joined.map((s) => [s, []]));
@@ -120,7 +121,7 @@ export class WorkerRegistry {
 
   /**
    * The session `resumeToken` names, taken over by `session` (a new connection of the same
-   * worker): same name, slots and clients, and its clients active again. The session may still
+   * worker): same name, capacity and clients, and its clients active again. The session may still
    * be active when the worker saw its socket close before this end did. Null when no active or
    * disconnected session has that token (a wrong token, or its grace has passed).
    */
@@ -132,7 +133,7 @@ export class WorkerRegistry {
     const previousState = previous.state as 'active' | 'disconnected';
     previous.state = 'resumed';
     session.workerName = previous.workerName;
-    session.slots = previous.slots;
+    session.capacity = previous.capacity;
     session.clientIds = previous.clientIds;
     session.resumeToken = previous.resumeToken;
     session.state = 'active';

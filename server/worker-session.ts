@@ -24,7 +24,8 @@ export class WorkerSession {
   readonly sessionId: number;
   state: SessionState = 'handshake';
   workerName = '';
-  slots = 0;
+  /** clients this worker offered to host (its hello's capacity) */
+  capacity = 0;
   clientIds: ReadonlySet<number> = new Set();
   /** names this worker's session in a resuming hello; null until welcomed, or when resuming is off */
   resumeToken: Uint8Array | null = null;

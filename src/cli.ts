@@ -24,6 +24,7 @@ import { comparisonJson, formatComparison } from './report/compare-table.js';
 import { ReportError } from './report/report-error.js';
 import { parseLingerSeconds, parseMetricsAddress, type MetricsAddress } from '../server/metrics-server.js';
 import { JoinError } from '../client/connection.js';
+import { KeyFileError } from './commands/key-file.js';
 
 /** An input problem found by a command itself (not by the scenario schema). */
 export class UsageError extends Error {
@@ -110,7 +111,7 @@ function buildProgram(io: Io): Command {
     .addOption(setOption)
     .option('--in-process', 'run every client in this process with the virtual clock (no sockets)')
     .option('--out <dir>', 'results folder (default results/<name>-<method>-<time>)')
-    .option('--json', 'print summary.json instead of the table')
+    .option('--json', 'print outcome.json (see the results folder in README.md) instead of the table')
     .addOption(metricsOption)
     .addOption(metricsLingerOption)
     .addHelpText('after', exitCodesHelp)
@@ -136,18 +137,18 @@ function buildProgram(io: Io): Command {
   program
     .command('worker')
     .description('join a coordinator and host the clients it deals to this process')
-    .requiredOption('--join <url>', 'the coordinator, ws://HOST:PORT or wss://HOST:PORT')
-    .option('--token <token>', 'the shared token (or the ROUNDWIRE_TOKEN environment variable, which ps does not show)')
-    .option('--slots <n>', 'clients this worker offers to host', '1')
+    .argument('<coordinator-url>', 'the coordinator, ws://HOST:PORT or wss://HOST:PORT')
+    .option('--key-file <path>', 'file holding the shared key, private to you (chmod 600), at least 16 bytes (default: the file ROUNDWIRE_KEY_FILE names)')
+    .option('--capacity <n>', 'how many clients this worker offers to host', '1')
     .option('--name <name>', 'worker name for logs and metrics (default host-pid)')
     .option('--ca <file>', "PEM certificate(s) to trust for a wss:// coordinator beside the system's, e.g. its self-signed --tls-cert")
     .addOption(metricsOption)
     .addOption(metricsLingerOption)
     .addHelpText('after', exitCodesHelp)
-    .action(async (opts: WorkerCommandOptions) => {
-      const problem = workerOptionsProblem(opts, process.env);
+    .action(async (url: string, opts: WorkerCommandOptions) => {
+      const problem = workerOptionsProblem(url, opts, process.env);
       if (problem !== null) throw new UsageError(problem);
-      const exit = await runWorkerCommand(opts, process.env, io.err);
+      const exit = await runWorkerCommand(url, opts, process.env, io.err);
       io.err(`worker: done (${exit.reason}), hosted clients ${exit.clientIds.join(', ')}\n`);
     });
 
@@ -156,15 +157,15 @@ function buildProgram(io: Io): Command {
     .description('wait for workers from other machines, then run the scenario with them')
     .argument('<scenario>', 'scenario file (YAML or JSON)')
     .requiredOption('--listen <host:port>', 'address to listen on, e.g. 0.0.0.0:7070 (port 0: any free port)')
-    .option('--token <token>', 'the shared token workers prove (required beyond loopback; or ROUNDWIRE_TOKEN)')
+    .option('--key-file <path>', 'file holding the shared key workers prove, private to you (chmod 600); required beyond loopback (default: the file ROUNDWIRE_KEY_FILE names; on loopback without either, a fresh one, whose path is printed)')
     .option('--tls-cert <file>', 'PEM certificate: serve wss:// instead of ws://')
     .option('--tls-key <file>', 'PEM private key for --tls-cert')
-    .option('--join-timeout <seconds>', 'give up if workers have not joined by then', '300')
+    .option('--workers-wait-seconds <s>', 'give up if the workers have not joined within this many seconds', '300')
     .option('--workers-min <n>', 'wait for at least this many workers', '1')
     .option('--heartbeat-silence-seconds <s>', 'a worker silent this long (1 to 3600 s) is lost and its clients leave the run; heartbeats go every sixth of it (default 30)')
     .option('--resume-grace-seconds <s>', 'a worker whose connection drops mid-run may reconnect and resume this long (0 to 3600 s; 0: lost at once); its clients sit out meanwhile (default 5)')
     .option('--out <dir>', 'results folder (default results/<name>-<method>-<time>)')
-    .option('--json', 'print summary.json instead of the table')
+    .option('--json', 'print outcome.json (see the results folder in README.md) instead of the table')
     .addOption(setOption)
     .addOption(metricsOption)
     .addOption(metricsLingerOption)
@@ -225,7 +226,7 @@ function buildProgram(io: Io): Command {
 }
 
 function isBadInput(error: unknown): error is Error {
-  return error instanceof ScenarioError || error instanceof DataError || error instanceof TimingError || error instanceof UsageError || error instanceof ReportError;
+  return error instanceof ScenarioError || error instanceof DataError || error instanceof TimingError || error instanceof UsageError || error instanceof ReportError || error instanceof KeyFileError;
 }
 
 /** Runs the command line; resolves to the process exit code. */
@@ -240,7 +241,7 @@ export async function main(argv: string[], io: Io = { out: (t) => process.stdout
       return exitCodes.badInput;
     }
     if (error instanceof JoinError) {
-      // The message says what to change (URL scheme, --ca, token); a stack would bury it.
+      // The message says what to change (URL scheme, --ca, key file); a stack would bury it.
       io.err(`roundwire: ${error.message}\n`);
       return exitCodes.failure;
     }

@@ -1,9 +1,9 @@
-// `roundwire coordinator <scenario> --listen HOST:PORT [--token T] [--tls-cert F --tls-key F]
-// [--heartbeat-silence-seconds S] [--resume-grace-seconds S]`: a coordinator that waits for workers from other machines,
-// until their slots cover every client or the join limit passes. Beyond loopback a token is
-// required.
+// `roundwire coordinator <scenario> --listen HOST:PORT [--key-file F] [--tls-cert F --tls-key F]
+// [--heartbeat-silence-seconds S] [--resume-grace-seconds S]`: a coordinator that waits for
+// workers from other machines, until their capacity covers every client or the wait passes.
+// Beyond loopback a key file is required; on loopback without one, the coordinator writes a
+// fresh key file and says where (key-file.ts).
 
-import { randomBytes } from 'node:crypto';
 import { isIP } from 'node:net';
 import { HANDSHAKE_LIMITS } from '../protocol/index.js';
 import type { Scenario } from '../scenario/schema.js';
@@ -12,14 +12,16 @@ import { Coordinator } from '../../server/coordinator.js';
 import type { TlsFiles } from '../../server/listener.js';
 import { metricsListeningLine, startMetricsServer, type MetricsServer } from '../../server/metrics-server.js';
 import { lingerWithMetrics, writeDistributedResults, RunInterrupted, type DistributedRunResult, type MetricsServing } from './run-distributed.js';
-import { TOKEN_ENVIRONMENT_VARIABLE } from './worker-command.js';
+import { keyFileSource, KEY_FILE_ENVIRONMENT_VARIABLE, readKeyFile, writeFreshKeyFile, type FreshKeyFile } from './key-file.js';
 
 export interface CoordinatorCommandOptions {
   listen: string;
-  token?: string;
+  /** the file holding the shared key (absent: ROUNDWIRE_KEY_FILE, else a fresh one on loopback) */
+  keyFile?: string;
   tlsCert?: string;
   tlsKey?: string;
-  joinTimeout: string;
+  /** give up when the workers have not joined within this many seconds */
+  workersWaitSeconds: string;
   workersMin: string;
   /** absent: the protocol's default (HANDSHAKE_LIMITS) */
   heartbeatSilenceSeconds?: string;
@@ -70,13 +72,12 @@ export function isLoopback(host: string): boolean {
 export function coordinatorOptionsProblem(opts: CoordinatorCommandOptions, env: NodeJS.ProcessEnv): string | null {
   const address = parseListenAddress(opts.listen);
   if (address === null) return `--listen: expected HOST:PORT (e.g. 0.0.0.0:7070), got "${opts.listen}"`;
-  const token = opts.token ?? env[TOKEN_ENVIRONMENT_VARIABLE];
-  if (!isLoopback(address.host) && (token === undefined || token === '')) {
-    return `refusing to listen on ${address.host} without a token: anyone who can reach the port could join. Give --token T (or ${TOKEN_ENVIRONMENT_VARIABLE}), or listen on 127.0.0.1`;
+  if (!isLoopback(address.host) && keyFileSource(opts.keyFile, env) === null) {
+    return `refusing to listen on ${address.host} without a key file: anyone who can reach the port could join. Give --key-file PATH (or ${KEY_FILE_ENVIRONMENT_VARIABLE}), or listen on 127.0.0.1`;
   }
   if ((opts.tlsCert === undefined) !== (opts.tlsKey === undefined)) return '--tls-cert and --tls-key go together';
-  const seconds = Number(opts.joinTimeout);
-  if (!(seconds > 0) || !Number.isFinite(seconds)) return `--join-timeout: expected positive seconds, got "${opts.joinTimeout}"`;
+  const seconds = Number(opts.workersWaitSeconds);
+  if (!(seconds > 0) || !Number.isFinite(seconds)) return `--workers-wait-seconds: expected positive seconds, got "${opts.workersWaitSeconds}"`;
   const workersMin = Number(opts.workersMin);
   if (!Number.isInteger(workersMin) || workersMin < 1) return `--workers-min: expected a positive integer, got "${opts.workersMin}"`;
   if (opts.heartbeatSilenceSeconds !== undefined) {
@@ -103,18 +104,41 @@ export async function runCoordinatorCommand(
   metrics: MetricsServing | null = null,
 ): Promise<DistributedRunResult> {
   const address = parseListenAddress(opts.listen)!;
-  const given = opts.token ?? env[TOKEN_ENVIRONMENT_VARIABLE];
-  const token = given === undefined || given === '' ? randomBytes(24).toString('hex') : given;
+  const source = keyFileSource(opts.keyFile, env);
+  // Read before anything listens, so that a bad key file ends the command at once.
+  const givenKey = source === null ? null : readKeyFile(source);
+  if (givenKey === null && !isLoopback(address.host)) throw new RangeError(`a fresh key file serves loopback only, not ${address.host}`);
+  const fresh = givenKey === null ? writeFreshKeyFile() : null;
+  const removeFresh = (): void => fresh?.remove();
+  // A second Ctrl-C exits at once, past the finally below.
+  process.once('exit', removeFresh);
+  try {
+    return await coordinate(scenario, opts, { key: givenKey ?? fresh!.key, fresh }, outDir, io, metrics);
+  } finally {
+    removeFresh();
+    process.off('exit', removeFresh);
+  }
+}
+
+async function coordinate(
+  scenario: Scenario,
+  opts: CoordinatorCommandOptions,
+  auth: { key: Uint8Array; fresh: FreshKeyFile | null },
+  outDir: string,
+  io: { err: (text: string) => void; onRound?: (record: RoundRecord) => void },
+  metrics: MetricsServing | null,
+): Promise<DistributedRunResult> {
+  const address = parseListenAddress(opts.listen)!;
   const tls: TlsFiles | null = opts.tlsCert && opts.tlsKey ? { certFile: opts.tlsCert, keyFile: opts.tlsKey } : null;
   const coordinator = new Coordinator(scenario, {
     host: address.host,
     port: address.port,
-    token,
+    key: auth.key,
     tls,
     workersMin: Number(opts.workersMin),
     workersMax: scenario.clients.count,
     maxClientsPerWorker: scenario.clients.count,
-    joinTimeoutSeconds: Number(opts.joinTimeout),
+    joinTimeoutSeconds: Number(opts.workersWaitSeconds),
     handshakeTimeoutSeconds: 10,
     exchangeTimeoutSeconds: 300,
     wallGraceSeconds: 0.5,
@@ -140,8 +164,8 @@ export async function runCoordinatorCommand(
       io.err(metricsListeningLine(metricsServer, metrics.address));
     }
     const url = await coordinator.listen();
+    if (auth.fresh !== null) io.err(`key file: ${auth.fresh.path} (fresh, private to you, removed when the coordinator ends; workers on this machine join with --key-file ${auth.fresh.path})\n`);
     io.err(`listening on ${url}\n`);
-    if (given === undefined || given === '') io.err(`token (loopback only): ${token}\n`);
     const outcome = await coordinator.run();
     const summary = writeDistributedResults(outcome, outDir);
     if (interrupted !== null) throw new RunInterrupted(`interrupted by ${interrupted}; partial results in ${outDir}`);

@@ -21,8 +21,8 @@ function readResultsFile(dir: string, file: string): string {
 
 export function readRunResults(dir: string): RunResults {
   return parseRunResults({
-    scenario: readResultsFile(dir, resultFiles.scenario),
-    summary: readResultsFile(dir, resultFiles.summary),
+    resolvedScenario: readResultsFile(dir, resultFiles.resolvedScenario),
+    outcome: readResultsFile(dir, resultFiles.outcome),
     rounds: readResultsFile(dir, resultFiles.rounds),
     clients: readResultsFile(dir, resultFiles.clients),
   });

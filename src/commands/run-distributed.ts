@@ -1,9 +1,9 @@
 // `roundwire run <scenario>`: the embedded distributed run. A coordinator on 127.0.0.1 (a port
-// the OS picks, a fresh random token) and run.workers local worker processes; a progress line
-// per round; the results folder and the summary. No process outlives the run: children are
-// stopped on success, on failure and on SIGINT or SIGTERM.
+// the OS picks, a fresh key file that the workers are pointed at) and run.workers local worker
+// processes; a progress line per round; the results folder and outcome.json. No process
+// outlives the run, nor does the key file: children are stopped and the file removed on
+// success, on failure and on SIGINT or SIGTERM.
 
-import { randomBytes } from 'node:crypto';
 import { readFileSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import type { Scenario } from '../scenario/schema.js';
@@ -15,6 +15,7 @@ import { distributedDetails, engineOutcomeOf } from '../../server/results.js';
 import type { RunOutcome } from '../../server/run-outcome.js';
 import { lingerFor, metricsListeningLine, startMetricsServer, type MetricsAddress, type MetricsServer } from '../../server/metrics-server.js';
 import { finishRun, formatRunSummary } from './run-report.js';
+import { writeFreshKeyFile } from './key-file.js';
 import type { RunSummary } from '../engine/run-summary.js';
 
 /** The run was interrupted (SIGINT, SIGTERM); the CLI exits with 130. */
@@ -59,22 +60,22 @@ export interface DistributedRunResult {
 }
 
 /**
- * Writes the results folder: the shared summary (finishRun) with the distributed details
+ * Writes the results folder: the shared outcome.json (finishRun) with the distributed details
  * added (the true stop reason, control traffic, socket counters, workers).
  */
 export function writeDistributedResults(outcome: RunOutcome, outDir: string): RunSummary {
   const summary = finishRun(engineOutcomeOf(outcome), 'distributed', outDir);
-  const file = join(outDir, resultFiles.summary);
+  const file = join(outDir, resultFiles.outcome);
   const merged = { ...(JSON.parse(readFileSync(file, 'utf8')) as RunSummary), ...distributedDetails(outcome) };
   writeFileSync(file, `${JSON.stringify(merged, null, 2)}\n`);
   return merged as unknown as RunSummary;
 }
 
-export function coordinatorOptionsForEmbedded(scenario: Scenario, token: string, workerCount: number, io: DistributedRunIo): CoordinatorOptions {
+export function coordinatorOptionsForEmbedded(scenario: Scenario, key: Uint8Array, workerCount: number, io: DistributedRunIo): CoordinatorOptions {
   return {
     host: '127.0.0.1',
     port: 0,
-    token,
+    key,
     tls: null,
     workersMin: workerCount,
     workersMax: workerCount,
@@ -88,14 +89,25 @@ export function coordinatorOptionsForEmbedded(scenario: Scenario, token: string,
 /** Runs the scenario with local worker processes; writes outDir; resolves to the summary. */
 export async function runDistributed(scenario: Scenario, outDir: string, io: DistributedRunIo, metrics: MetricsServing | null = null): Promise<DistributedRunResult> {
   const workerCount = Math.min(scenario.run.workers, scenario.clients.count);
-  const token = randomBytes(24).toString('hex');
-  const coordinator = new Coordinator(scenario, coordinatorOptionsForEmbedded(scenario, token, workerCount, io));
+  const keyFile = writeFreshKeyFile();
+  let coordinator: Coordinator;
+  try {
+    coordinator = new Coordinator(scenario, coordinatorOptionsForEmbedded(scenario, keyFile.key, workerCount, io));
+  } catch (error) {
+    keyFile.remove();
+    throw error;
+  }
   const workers: LocalWorker[] = [];
   let interrupted: NodeJS.Signals | null = null;
   let runEnded = false;
   let metricsServer: MetricsServer | null = null;
   let cutLinger: () => void = () => undefined;
   const killAll = (): void => workers.forEach((w) => w.killNow());
+  // The exit hook runs when a second signal exits at once, past the finally below.
+  const onExit = (): void => {
+    killAll();
+    keyFile.remove();
+  };
   const onSignal = (signal: NodeJS.Signals): void => {
     if (interrupted !== null) {
       // A second signal: stop waiting for anything.
@@ -110,16 +122,16 @@ export async function runDistributed(scenario: Scenario, outDir: string, io: Dis
   };
   process.on('SIGINT', onSignal);
   process.on('SIGTERM', onSignal);
-  process.on('exit', killAll);
+  process.on('exit', onExit);
   try {
     if (metrics !== null) {
       metricsServer = await startMetricsServer(coordinator.metrics.registry, metrics.address);
       io.err(metricsListeningLine(metricsServer, metrics.address));
     }
     const url = await coordinator.listen();
-    const slots = Math.ceil(scenario.clients.count / workerCount);
+    const capacity = Math.ceil(scenario.clients.count / workerCount);
     for (let i = 0; i < workerCount; i++) {
-      const worker = new LocalWorker({ url, token, slots, workerName: `local-${i + 1}` });
+      const worker = new LocalWorker({ url, keyFile: keyFile.path, capacity, workerName: `local-${i + 1}` });
       workers.push(worker);
       io.err(`started worker local-${i + 1} (pid ${worker.child.pid})\n`);
       void worker.exited.then((code) => {
@@ -145,9 +157,10 @@ export async function runDistributed(scenario: Scenario, outDir: string, io: Dis
     await metricsServer?.close();
     await coordinator.close();
     await Promise.all(workers.map((w) => w.stop()));
+    keyFile.remove();
     process.off('SIGINT', onSignal);
     process.off('SIGTERM', onSignal);
-    process.off('exit', killAll);
+    process.off('exit', onExit);
   }
 }
 

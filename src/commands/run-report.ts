@@ -1,5 +1,5 @@
-// The end of a run, whichever runtime ran it: the prediction, summary.json and the results
-// folder, and the final table a person reads.
+// The end of a run, whichever runtime ran it: the prediction, outcome.json and the rest of the
+// results folder, and the final table a person reads.
 
 import type { RunOutcome, RunSummary } from '../engine/run-summary.js';
 import { buildRunSummary } from '../engine/run-summary.js';
@@ -11,7 +11,7 @@ import { formatBytes } from './progress.js';
 export function finishRun(outcome: RunOutcome, runtime: RunSummary['runtime'], outDir: string): RunSummary {
   const prediction = predictRun(outcome.plan, outcome.theory);
   const summary = buildRunSummary(outcome, prediction, runtime);
-  writeResultsFolder(outDir, { scenario: outcome.plan.scenario, rounds: outcome.rounds, clients: outcome.clients, summary, finalModel: outcome.finalModel });
+  writeResultsFolder(outDir, { scenario: outcome.plan.scenario, rounds: outcome.rounds, clients: outcome.clients, outcome: summary, finalModel: outcome.finalModel });
   return summary;
 }
 

@@ -1,17 +1,20 @@
-// `roundwire worker --join URL --token T --slots N [--name NAME] [--ca FILE]`: a worker process.
-// The token may come from ROUNDWIRE_TOKEN instead, so that it does not show in ps. --ca names
-// PEM certificates to trust for a wss:// coordinator beside the system's (a self-signed one).
+// `roundwire worker ws://HOST:PORT [--key-file F] [--capacity N] [--name NAME] [--ca FILE]`: a
+// worker process. The shared key comes from a file (key-file.ts), named by --key-file or by
+// ROUNDWIRE_KEY_FILE. --ca names PEM certificates to trust for a wss:// coordinator beside the
+// system's (a self-signed one).
 
 import { readFileSync } from 'node:fs';
 import { hostname } from 'node:os';
 import { Worker, type WorkerExit } from '../../client/worker.js';
 import { WorkerMetrics } from '../../client/metrics.js';
 import { lingerFor, metricsListeningLine, startMetricsServer, type MetricsAddress, type MetricsServer } from '../../server/metrics-server.js';
+import { keyFileSource, KEY_FILE_ENVIRONMENT_VARIABLE, readKeyFile } from './key-file.js';
 
 export interface WorkerCommandOptions {
-  join: string;
-  token?: string;
-  slots: string;
+  /** the file holding the shared key (absent: ROUNDWIRE_KEY_FILE) */
+  keyFile?: string;
+  /** how many clients this worker offers to host */
+  capacity: string;
   name?: string;
   /** serve the worker's metrics at http://HOST:PORT/metrics */
   metrics?: MetricsAddress;
@@ -38,28 +41,39 @@ export function readTrustedCertificates(file: string): { pem: string } | { probl
   return { pem: text };
 }
 
-/** Environment variable a worker reads its token from when --token is absent. */
-export const TOKEN_ENVIRONMENT_VARIABLE = 'ROUNDWIRE_TOKEN';
-
 /** Most clients one worker offers to host; the scenario schema allows 10,000 clients in all. */
-export const WORKER_SLOTS_MAX = 10_000;
+export const WORKER_CAPACITY_MAX = 10_000;
 
-/** Returns a problem with the options, or null when they are usable. */
-export function workerOptionsProblem(opts: WorkerCommandOptions, env: NodeJS.ProcessEnv): string | null {
-  if (!/^wss?:\/\//.test(opts.join)) return `--join: expected ws://HOST:PORT or wss://HOST:PORT, got "${opts.join}"`;
-  const slots = Number(opts.slots);
-  if (!Number.isInteger(slots) || slots < 1 || slots > WORKER_SLOTS_MAX) return `--slots: expected an integer from 1 to ${WORKER_SLOTS_MAX}, got "${opts.slots}"`;
-  const token = opts.token ?? env[TOKEN_ENVIRONMENT_VARIABLE];
-  if (token === undefined || token === '') return `a token is needed: --token T or the ${TOKEN_ENVIRONMENT_VARIABLE} environment variable`;
+/** Why `text` is not a coordinator address, or null. */
+export function coordinatorUrlProblem(text: string): string | null {
+  const expected = `coordinator-url: expected ws://HOST:PORT or wss://HOST:PORT, got "${text}"`;
+  let url: URL;
+  try {
+    url = new URL(text);
+  } catch {
+    return expected;
+  }
+  if ((url.protocol !== 'ws:' && url.protocol !== 'wss:') || url.hostname === '') return expected;
+  return null;
+}
+
+/** Returns a problem with the arguments (bad input), or null when they are usable. */
+export function workerOptionsProblem(url: string, opts: WorkerCommandOptions, env: NodeJS.ProcessEnv): string | null {
+  const urlProblem = coordinatorUrlProblem(url);
+  if (urlProblem !== null) return urlProblem;
+  const capacity = Number(opts.capacity);
+  if (!/^\d+$/.test(opts.capacity) || capacity < 1 || capacity > WORKER_CAPACITY_MAX) return `--capacity: expected an integer from 1 to ${WORKER_CAPACITY_MAX}, got "${opts.capacity}"`;
+  if (keyFileSource(opts.keyFile, env) === null) return `a key file is needed: --key-file PATH, or ${KEY_FILE_ENVIRONMENT_VARIABLE} naming the file`;
   if (opts.ca !== undefined) {
-    if (!opts.join.startsWith('wss://')) return `--ca is for a wss:// coordinator; --join is "${opts.join}"`;
+    if (!url.startsWith('wss://')) return `--ca is for a wss:// coordinator; the coordinator URL is "${url}"`;
     const certificates = readTrustedCertificates(opts.ca);
     if ('problem' in certificates) return certificates.problem;
   }
   return null;
 }
 
-export async function runWorkerCommand(opts: WorkerCommandOptions, env: NodeJS.ProcessEnv, err: (text: string) => void): Promise<WorkerExit> {
+export async function runWorkerCommand(url: string, opts: WorkerCommandOptions, env: NodeJS.ProcessEnv, err: (text: string) => void): Promise<WorkerExit> {
+  const key = readKeyFile(keyFileSource(opts.keyFile, env)!);
   const workerName = opts.name ?? `${hostname()}-${process.pid}`;
   const metrics = opts.metrics === undefined ? null : new WorkerMetrics();
   let metricsServer: MetricsServer | null = null;
@@ -69,11 +83,11 @@ export async function runWorkerCommand(opts: WorkerCommandOptions, env: NodeJS.P
   }
   const certificates = opts.ca === undefined ? null : readTrustedCertificates(opts.ca);
   const worker = new Worker({
-    url: opts.join,
-    token: (opts.token ?? env[TOKEN_ENVIRONMENT_VARIABLE]) as string,
-    slots: Number(opts.slots),
+    url,
+    key,
+    capacity: Number(opts.capacity),
     workerName,
-    threadsMax: Number(opts.slots),
+    threadsMax: Number(opts.capacity),
     ...(metrics === null ? {} : { metrics }),
     ...(certificates !== null && 'pem' in certificates ? { trustedCertificatesPem: certificates.pem } : {}),
     log: (line) => err(`worker ${workerName}: ${line}\n`),

@@ -1,4 +1,4 @@
-// summary.json: what a run measured, beside what the theory predicted. The same function serves
+// outcome.json: what a run measured, beside what the theory predicted. The same function serves
 // the in-process engine and the coordinator, so both write the same fields.
 
 import type { PlanTheory } from '../theory/plan-theory.js';

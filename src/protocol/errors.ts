@@ -21,7 +21,7 @@ export const PROTOCOL_ERROR_CODES = [
   'E_NOT_FINITE',
   /** A frame, a string, a list or a field set beyond its limit. */
   'E_SIZE',
-  /** The token proof does not match the challenge. */
+  /** The proof of the shared key does not answer the challenge. */
   'E_AUTH',
 ] as const;
 

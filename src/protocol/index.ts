@@ -4,7 +4,7 @@
 // Receiving: const message = receiveMessage(frame, context)  // throws ProtocolError
 //            then fromWire(message.fields.delta) for the typed arrays.
 
-export { createChallengeNonce, proveToken, verifyProof } from './auth.js';
+export { createChallengeNonce, proveKey, verifyProof } from './auth.js';
 export { decodeMessage, encodeMessage, NESTING_DEPTH_MAX } from './codec.js';
 export { isProtocolErrorCode, PROTOCOL_ERROR_CODES, ProtocolError, type ProtocolErrorCode } from './errors.js';
 export { frameBytes, frameHeaderBytes } from './framing.js';

@@ -12,7 +12,7 @@ export const protocolLimitsSchema = z
     maxFrameBytes: z.number().int().positive().max(Number.MAX_SAFE_INTEGER),
     /** most vectors in one down or up */
     maxFieldsPerMessage: z.number().int().positive(),
-    /** most clients one worker hosts (welcome assignments, hello slots) */
+    /** most clients one worker hosts (welcome assignments, hello capacity) */
     maxClientsPerWorker: z.number().int().positive(),
     /** largest vector dimension */
     maxVectorDim: z.number().int().positive().max(Number.MAX_SAFE_INTEGER),

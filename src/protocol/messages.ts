@@ -4,8 +4,8 @@
 //
 // Conversation:
 //   server -> worker  challenge   on connect: a fresh nonce
-//   worker -> server  hello       HMAC of the nonce under the shared token (auth.ts); the token
-//                                 itself never crosses the wire
+//   worker -> server  hello       HMAC of the nonce under the shared key (auth.ts), and the
+//                                 capacity it offers; the key itself never crosses the wire
 //   server -> worker  welcome     client ids to host, the plan, the limits, a resume token;
 //                                 or error E_AUTH
 //   then per round, per exchange, per participating client:
@@ -28,7 +28,7 @@ import type { ProtocolLimits } from './limits.js';
 import type { WireVector } from './wire-vector.js';
 
 /** Bumped on any change to a message's shape or meaning; peers must match exactly. */
-export const PROTOCOL_VERSION = 1;
+export const PROTOCOL_VERSION = 2;
 
 /** Bytes of the server's challenge nonce (256 bits: never repeats in practice). */
 export const NONCE_BYTES = 32;
@@ -79,9 +79,9 @@ export interface HelloMessage {
   protocolVersion: number;
   /** for logs and metric labels; printable, at most limits.maxWorkerNameLength characters */
   workerName: string;
-  /** how many clients this worker offers to host */
-  slots: number;
-  /** HMAC-SHA256(token, challenge nonce), PROOF_BYTES bytes */
+  /** capacity: how many clients this worker offers to host */
+  capacity: number;
+  /** HMAC-SHA256(shared key, challenge nonce), PROOF_BYTES bytes */
   proof: Uint8Array;
   /** present when resuming a dropped session: the resume token of its welcome, RESUME_TOKEN_BYTES bytes */
   resume?: Uint8Array;

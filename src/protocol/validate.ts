@@ -40,8 +40,8 @@ export interface ValidationContext {
   ownedClientIds: ReadonlySet<number> | null;
   /** the exact fields, with dimensions, of each exchange's downs (on a worker) or ups (on the server) */
   fieldDims: FieldDims | null;
-  /** the shared token and the nonce this connection's challenge carried, to check a hello */
-  auth: { token: string | Uint8Array; nonce: Uint8Array } | null;
+  /** the shared key and the nonce this connection's challenge carried, to check a hello */
+  auth: { key: string | Uint8Array; nonce: Uint8Array } | null;
 }
 
 const bytes = z.instanceof(Uint8Array);
@@ -63,7 +63,7 @@ const shapes = {
     type: z.literal('hello'),
     protocolVersion: count,
     workerName: z.string(),
-    slots: z.number().int().positive(),
+    capacity: z.number().int().positive(),
     proof: bytes,
     resume: bytes.optional(),
   }),
@@ -185,7 +185,7 @@ function checkRoundTraffic(message: DownMessage | UpMessage, context: Validation
 const CONTROL_CHARACTER = /\p{Cc}/u;
 
 function checkHello(message: z.output<typeof shapes.hello>, context: ValidationContext): void {
-  const { workerName, slots, proof, resume } = message;
+  const { workerName, capacity, proof, resume } = message;
   const { limits, auth } = context;
   if (workerName.length === 0 || CONTROL_CHARACTER.test(workerName)) {
     throw new ProtocolError('E_TYPE', 'hello.workerName: must be non-empty and printable');
@@ -193,18 +193,18 @@ function checkHello(message: z.output<typeof shapes.hello>, context: ValidationC
   if (workerName.length > limits.maxWorkerNameLength) {
     throw new ProtocolError('E_SIZE', `hello.workerName: ${workerName.length} characters, at most ${limits.maxWorkerNameLength}`);
   }
-  if (slots > limits.maxClientsPerWorker) {
-    throw new ProtocolError('E_SIZE', `hello.slots: ${slots}, at most ${limits.maxClientsPerWorker}`);
+  if (capacity > limits.maxClientsPerWorker) {
+    throw new ProtocolError('E_SIZE', `hello.capacity: ${capacity}, at most ${limits.maxClientsPerWorker}`);
   }
   if (proof.length !== PROOF_BYTES) {
     throw new ProtocolError('E_TYPE', `hello.proof: ${PROOF_BYTES} bytes expected, got ${proof.length}`);
   }
-  // Whether the token names a session it may resume is the coordinator's to say (E_AUTH there).
+  // Whether the resume token names a session it may resume is the coordinator's to say (E_AUTH there).
   if (resume !== undefined && resume.length !== RESUME_TOKEN_BYTES) {
     throw new ProtocolError('E_TYPE', `hello.resume: ${RESUME_TOKEN_BYTES} bytes expected, got ${resume.length}`);
   }
-  if (auth !== null && !verifyProof(auth.token, auth.nonce, proof)) {
-    throw new ProtocolError('E_AUTH', 'hello.proof: does not answer this connection\'s challenge under the shared token');
+  if (auth !== null && !verifyProof(auth.key, auth.nonce, proof)) {
+    throw new ProtocolError('E_AUTH', 'hello.proof: does not answer this connection\'s challenge under the shared key');
   }
 }
 

@@ -14,9 +14,10 @@ export interface RunResults {
   clients: ClientRoundRecord[];
 }
 
+/** The text of a results folder's files, by file (README.md, "Results folder"). */
 export interface RunResultsText {
-  scenario: string;
-  summary: string;
+  resolvedScenario: string;
+  outcome: string;
   rounds: string;
   clients: string;
 }
@@ -41,14 +42,14 @@ function isRecord(value: unknown): value is Record<string, unknown> {
 export function parseRunResults(text: RunResultsText): RunResults {
   let summary: unknown;
   try {
-    summary = JSON.parse(text.summary);
+    summary = JSON.parse(text.outcome);
   } catch {
-    throw new ReportError('E_RESULTS_CONTENT', 'summary.json is not JSON');
+    throw new ReportError('E_RESULTS_CONTENT', 'outcome.json is not JSON');
   }
   if (!isRecord(summary) || !isRecord(summary.rate) || !isRecord(summary.floor) || !isRecord(summary.suboptimality) || typeof summary.clock !== 'string') {
-    throw new ReportError('E_RESULTS_CONTENT', 'summary.json lacks the fields a run writes (rate, floor, suboptimality, clock)');
+    throw new ReportError('E_RESULTS_CONTENT', 'outcome.json lacks the fields a run writes (rate, floor, suboptimality, clock)');
   }
-  const scenario: unknown = parse(text.scenario);
+  const scenario: unknown = parse(text.resolvedScenario);
   const rounds = jsonLines<RoundRecord>(text.rounds, 'rounds.jsonl');
   if (rounds.length === 0) throw new ReportError('E_RESULTS_CONTENT', 'rounds.jsonl holds no rounds');
   for (const r of rounds) {

@@ -1,10 +1,7 @@
-// The results folder of a run, the same layout for the in-process engine and the coordinator:
-//   scenario.yaml    the resolved scenario (every default explicit), so the run can be repeated
-//   rounds.jsonl     one JSON line per round
-//   clients.jsonl    one JSON line per client per exchange per round
-//   summary.json     the run's summary (measured beside predicted)
-//   model.json       the final model x, and model.f64 (raw little-endian doubles, bit exact)
-// This is the one module under src/ that writes files; the core computes, this records.
+// The results folder of a run, the same layout for the in-process engine and the coordinator;
+// README.md ("Results folder") is the one description of every file in it. report.html is
+// added by src/commands/report-command.ts. This is the one module under src/ that writes run
+// results; the core computes, this records.
 
 import { mkdirSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
@@ -13,10 +10,10 @@ import type { Scenario } from '../scenario/schema.js';
 import type { ClientRoundRecord, RoundRecord } from '../engine/round-record.js';
 
 export const resultFiles = {
-  scenario: 'scenario.yaml',
+  resolvedScenario: 'resolved-scenario.yaml',
   rounds: 'rounds.jsonl',
   clients: 'clients.jsonl',
-  summary: 'summary.json',
+  outcome: 'outcome.json',
   modelJson: 'model.json',
   modelBinary: 'model.f64',
 } as const;
@@ -25,7 +22,8 @@ export interface ResultsPayload {
   scenario: Scenario;
   rounds: readonly RoundRecord[];
   clients: readonly ClientRoundRecord[];
-  summary: unknown;
+  /** outcome.json: measured beside predicted (RunSummary, with distributed details) */
+  outcome: unknown;
   finalModel: Float64Array;
 }
 
@@ -41,10 +39,10 @@ export function defaultResultsDir(scenario: Scenario, now: Date): string {
 
 export function writeResultsFolder(dir: string, payload: ResultsPayload): void {
   mkdirSync(dir, { recursive: true });
-  writeFileSync(join(dir, resultFiles.scenario), stringify(payload.scenario));
+  writeFileSync(join(dir, resultFiles.resolvedScenario), stringify(payload.scenario));
   writeFileSync(join(dir, resultFiles.rounds), jsonLines(payload.rounds));
   writeFileSync(join(dir, resultFiles.clients), jsonLines(payload.clients));
-  writeFileSync(join(dir, resultFiles.summary), `${JSON.stringify(payload.summary, null, 2)}\n`);
+  writeFileSync(join(dir, resultFiles.outcome), `${JSON.stringify(payload.outcome, null, 2)}\n`);
   writeFileSync(join(dir, resultFiles.modelJson), `${JSON.stringify({ dim: payload.finalModel.length, x: Array.from(payload.finalModel) })}\n`);
   const bytes = new Uint8Array(payload.finalModel.length * 8);
   const view = new DataView(bytes.buffer);

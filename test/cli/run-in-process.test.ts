@@ -1,46 +1,49 @@
-// `roundwire run --in-process` as a user runs it: the results folder and summary.json.
+// `roundwire run --in-process` as a user runs it: the results folder (README.md, "Results
+// folder") and outcome.json.
 import { describe, expect, it } from 'vitest';
-import { mkdtempSync, readFileSync, rmSync, statSync } from 'node:fs';
+import { mkdtempSync, readdirSync, readFileSync, rmSync, statSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { parse } from 'yaml';
 import { runCli } from './run-cli.js';
 
 describe('roundwire run --in-process', () => {
-  it('writes the results folder and prints summary.json with the documented fields', async () => {
+  it('writes the results folder and prints outcome.json with the documented fields', async () => {
     const dir = mkdtempSync(join(tmpdir(), 'roundwire-run-'));
     try {
       const r = await runCli(['run', 'scenarios/quickstart.yaml', '--in-process', '--json', '--out', dir]);
       expect(r.code).toBe(0);
-      const summary = JSON.parse(r.stdout);
-      expect(summary).toEqual(JSON.parse(readFileSync(join(dir, 'summary.json'), 'utf8')));
-      expect(summary.method).toBe('fedlin');
-      expect(summary.stopReason).toBe('target-reached');
-      expect(summary.suboptimality.final).toBeLessThanOrEqual(summary.target);
-      expect(summary.roundsToTarget).toBe(summary.rounds);
+      const outcome = JSON.parse(r.stdout);
+      // Every file README.md's "Results folder" lists, and no other.
+      expect(readdirSync(dir).sort()).toEqual(['clients.jsonl', 'model.f64', 'model.json', 'outcome.json', 'report.html', 'resolved-scenario.yaml', 'rounds.jsonl']);
+      expect(outcome).toEqual(JSON.parse(readFileSync(join(dir, 'outcome.json'), 'utf8')));
+      expect(outcome.method).toBe('fedlin');
+      expect(outcome.stopReason).toBe('target-reached');
+      expect(outcome.suboptimality.final).toBeLessThanOrEqual(outcome.target);
+      expect(outcome.roundsToTarget).toBe(outcome.rounds);
       for (const key of ['measured', 'predicted']) {
-        expect(typeof summary.rate[key]).toBe('number');
-        expect(summary.floor).toHaveProperty(key);
+        expect(typeof outcome.rate[key]).toBe('number');
+        expect(outcome.floor).toHaveProperty(key);
       }
-      expect(summary.bytes.payload.up).toBeGreaterThan(0);
-      expect(summary.bytes.payload.down).toBeGreaterThan(0);
-      expect(summary.seconds.virtual).toBeGreaterThan(0);
-      expect(summary.seconds.wall).toBeGreaterThan(0);
+      expect(outcome.bytes.payload.up).toBeGreaterThan(0);
+      expect(outcome.bytes.payload.down).toBeGreaterThan(0);
+      expect(outcome.seconds.virtual).toBeGreaterThan(0);
+      expect(outcome.seconds.wall).toBeGreaterThan(0);
 
       const rounds = readFileSync(join(dir, 'rounds.jsonl'), 'utf8').trim().split('\n').map((l) => JSON.parse(l));
-      expect(rounds).toHaveLength(summary.rounds + 1);
-      expect(rounds.map((x) => x.round)).toEqual(Array.from({ length: summary.rounds + 1 }, (_, i) => i));
+      expect(rounds).toHaveLength(outcome.rounds + 1);
+      expect(rounds.map((x) => x.round)).toEqual(Array.from({ length: outcome.rounds + 1 }, (_, i) => i));
       for (const line of rounds.slice(1)) {
         for (const key of ['suboptimality', 'distance', 'bytes', 'localSteps', 'virtualSeconds']) expect(line).toHaveProperty(key);
         expect(Object.values(line.localSteps)).toEqual(Array(8).fill(5));
       }
       // the payload of a dense f64 round: 8 clients x (gradient + delta up, model + gradient down) x 20 x 8 bytes
       expect(rounds[1].bytes.payload).toEqual({ up: 8 * 2 * 20 * 8, down: 8 * 2 * 20 * 8 });
-      const resolved = parse(readFileSync(join(dir, 'scenario.yaml'), 'utf8'));
+      const resolved = parse(readFileSync(join(dir, 'resolved-scenario.yaml'), 'utf8'));
       expect(resolved.timing.policy).toEqual({ kind: 'all' });
       expect(statSync(join(dir, 'model.f64')).size).toBe(20 * 8);
       const clients = readFileSync(join(dir, 'clients.jsonl'), 'utf8').trim().split('\n');
-      expect(clients).toHaveLength(summary.rounds * 8 * 2);
+      expect(clients).toHaveLength(outcome.rounds * 8 * 2);
     } finally {
       rmSync(dir, { recursive: true, force: true });
     }
@@ -51,10 +54,10 @@ describe('roundwire run --in-process', () => {
     try {
       const r = await runCli(['run', 'scenarios/quickstart.yaml', '--in-process', '--json', '--out', dir, '--set', 'problem.kind=logistic', '--set', 'run.rounds=20']);
       expect(r.code).toBe(0);
-      const summary = JSON.parse(r.stdout);
-      expect(summary.prediction.available).toBe(false);
-      expect(summary.prediction.reason).toBe('the objective is not quadratic');
-      expect(summary.rate.predicted).toBeNull();
+      const outcome = JSON.parse(r.stdout);
+      expect(outcome.prediction.available).toBe(false);
+      expect(outcome.prediction.reason).toBe('the objective is not quadratic');
+      expect(outcome.rate.predicted).toBeNull();
     } finally {
       rmSync(dir, { recursive: true, force: true });
     }

@@ -2,7 +2,7 @@
 // runs (wait for a line, read pids), with every wait bounded and the process stopped after.
 
 import { spawn, type ChildProcess } from 'node:child_process';
-import { mkdtempSync, readFileSync } from 'node:fs';
+import { chmodSync, mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
@@ -106,4 +106,16 @@ export function freshDir(prefix: string): string {
 
 export function readJsonLines<T>(file: string): T[] {
   return readFileSync(file, 'utf8').split('\n').filter((l) => l.length > 0).map((l) => JSON.parse(l) as T);
+}
+
+/**
+ * Writes `key` (and a line break, as an editor or `echo` leaves one) into `dir/name`, with
+ * `mode` applied past the umask; returns the path. The default mode is the private one a key
+ * file needs.
+ */
+export function writeKeyFile(dir: string, key: string, name = 'shared.key', mode = 0o600): string {
+  const file = join(dir, name);
+  writeFileSync(file, `${key}\n`);
+  chmodSync(file, mode);
+  return file;
 }

@@ -10,12 +10,12 @@ import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import WebSocket from 'ws';
 import { afterEach, describe, expect, it } from 'vitest';
-import { decodeMessage, encodeMessage, PROTOCOL_VERSION, proveToken } from '../../src/protocol/index.js';
+import { decodeMessage, encodeMessage, PROTOCOL_VERSION, proveKey } from '../../src/protocol/index.js';
 import type { RoundRecord } from '../../src/engine/round-record.js';
 import { runCli } from '../cli/run-cli.js';
-import { CliProcess, freshDir, readJsonLines, repoRoot } from './cli-process.js';
+import { CliProcess, freshDir, readJsonLines, repoRoot, writeKeyFile } from './cli-process.js';
 
-const TOKEN = 'a-token-for-the-heartbeat-test';
+const KEY = 'a-key-for-the-heartbeat-test';
 const SILENCE_SECONDS = 1.5;
 const ROUNDS = 6;
 const READ_LIMIT_BYTES = 64 * 1024 * 1024;
@@ -39,7 +39,7 @@ function joinSilently(url: string): Promise<SilentPeer> {
       const message = decodeMessage(new Uint8Array(data), READ_LIMIT_BYTES) as Plain;
       peer.received.push(message.type as string);
       if (message.type === 'challenge') {
-        ws.send(encodeMessage({ type: 'hello', protocolVersion: PROTOCOL_VERSION, workerName: 'silent', slots: 2, proof: proveToken(TOKEN, message.nonce as Uint8Array) }), { binary: true });
+        ws.send(encodeMessage({ type: 'hello', protocolVersion: PROTOCOL_VERSION, workerName: 'silent', capacity: 2, proof: proveKey(KEY, message.nonce as Uint8Array) }), { binary: true });
       } else if (message.type === 'welcome') {
         peer.welcomedMs = performance.now();
         peer.assignments = message.assignments as number[];
@@ -58,10 +58,11 @@ afterEach(() => {
 describe('a worker that falls silent', () => {
   it('is lost after the silence limit and the run completes without it', async () => {
     const out = freshDir('silence');
-    const coordinator = new CliProcess(['coordinator', join(repoRoot, 'scenarios/quickstart.yaml'), '--listen', '127.0.0.1:0', '--token', TOKEN, '--workers-min', '3', '--join-timeout', '40', '--heartbeat-silence-seconds', String(SILENCE_SECONDS), '--out', out, '--set', `run.rounds=${ROUNDS}`, '--set', 'run.target=0']);
+    const keyFile = writeKeyFile(out, KEY);
+    const coordinator = new CliProcess(['coordinator', join(repoRoot, 'scenarios/quickstart.yaml'), '--listen', '127.0.0.1:0', '--key-file', keyFile, '--workers-min', '3', '--workers-wait-seconds', '40', '--heartbeat-silence-seconds', String(SILENCE_SECONDS), '--out', out, '--set', `run.rounds=${ROUNDS}`, '--set', 'run.target=0']);
     started.push(coordinator);
     const url = (await coordinator.waitForStderr(/listening on (ws:\/\/\S+)/, 30_000))[1];
-    const steady = ['steady-1', 'steady-2'].map((name) => new CliProcess(['worker', '--join', url, '--slots', '3', '--name', name], { ROUNDWIRE_TOKEN: TOKEN }));
+    const steady = ['steady-1', 'steady-2'].map((name) => new CliProcess(['worker', url, '--key-file', keyFile, '--capacity', '3', '--name', name]));
     started.push(...steady);
     await coordinator.waitForStderr(/worker "steady-1" joined/, 30_000);
     await coordinator.waitForStderr(/worker "steady-2" joined/, 30_000);
@@ -86,7 +87,7 @@ describe('a worker that falls silent', () => {
 
     const rounds = readJsonLines<RoundRecord>(join(out, 'rounds.jsonl'));
     expect(rounds.map((r) => r.round)).toEqual(Array.from({ length: ROUNDS + 1 }, (_, i) => i));
-    const summary = JSON.parse(readFileSync(join(out, 'summary.json'), 'utf8')) as {
+    const summary = JSON.parse(readFileSync(join(out, 'outcome.json'), 'utf8')) as {
       stopReason: string;
       lostWorkers: string[];
       distributed: { lostWorkers: { workerName: string; clientIds: number[]; round: number; reason: string }[] };

@@ -1,5 +1,5 @@
 // Every network input is validated before use (DESIGN.md, Messages). Against a real
-// coordinator process: a worker with a wrong token is refused (E_AUTH) before it learns
+// coordinator process: a worker proving a wrong key is refused (E_AUTH) before it learns
 // anything of the plan; a worker that authenticates but also sends malformed frames (random
 // bytes, a wrong round, another worker's client id, a smaller dimension (a larger one is E_SIZE, past the plan's largest), NaN values, an oversized
 // frame) gets an error with the matching code for each, they are counted, and the run's final
@@ -9,16 +9,16 @@ import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import WebSocket from 'ws';
 import { afterEach, describe, expect, it } from 'vitest';
-import { decodeMessage, encodeMessage, fromWire, proveToken, PROTOCOL_VERSION, toWire, type Message, type WireFields } from '../../src/protocol/index.js';
+import { decodeMessage, encodeMessage, fromWire, proveKey, PROTOCOL_VERSION, toWire, type Message, type WireFields } from '../../src/protocol/index.js';
 import { ClientRuntime, type EncodedFields } from '../../src/engine/client-runtime.js';
 import type { WirePlan } from '../../src/engine/run-plan.js';
 import { runInProcess } from '../../src/engine/in-process-engine.js';
 import { clientObjective } from '../../src/problem/problem-instance.js';
 import { loadScenarioFile } from '../../src/scenario/load-scenario.js';
 import { validateScenario } from '../../src/scenario/validate-scenario.js';
-import { CliProcess, freshDir, repoRoot } from './cli-process.js';
+import { CliProcess, freshDir, repoRoot, writeKeyFile } from './cli-process.js';
 
-const TOKEN = 'a-token-for-the-hostile-peer-test';
+const KEY = 'a-key-for-the-hostile-peer-test';
 const OVERRIDES = ['run.rounds=3', 'run.target=0'];
 const READ_LIMIT_BYTES = 64 * 1024 * 1024;
 
@@ -47,24 +47,25 @@ afterEach(() => {
 });
 
 describe('hostile peers', () => {
-  it('a wrong token is refused before the plan; malformed frames get coded errors and change nothing', async () => {
+  it('a wrong key is refused before the plan; malformed frames get coded errors and change nothing', async () => {
     const out = freshDir('hostile');
-    const coordinator = new CliProcess(['coordinator', join(repoRoot, 'scenarios/quickstart.yaml'), '--listen', '127.0.0.1:0', '--token', TOKEN, '--workers-min', '2', '--join-timeout', '40', '--out', out, ...OVERRIDES.flatMap((o) => ['--set', o])]);
+    const keyFile = writeKeyFile(out, KEY);
+    const coordinator = new CliProcess(['coordinator', join(repoRoot, 'scenarios/quickstart.yaml'), '--listen', '127.0.0.1:0', '--key-file', keyFile, '--workers-min', '2', '--workers-wait-seconds', '40', '--out', out, ...OVERRIDES.flatMap((o) => ['--set', o])]);
     started.push(coordinator);
     const url = (await coordinator.waitForStderr(/listening on (ws:\/\/\S+)/, 30_000))[1];
 
-    // 1. Wrong token: a challenge, then an error E_AUTH and a closed socket; never a welcome.
+    // 1. Wrong key: a challenge, then an error E_AUTH and a closed socket; never a welcome.
     const intruderSaw: Plain[] = [];
     const intruder = await open(url, (m, ws) => {
       intruderSaw.push(m);
-      if (m.type === 'challenge') send(ws, { type: 'hello', protocolVersion: PROTOCOL_VERSION, workerName: 'intruder', slots: 8, proof: proveToken('not-the-token', m.nonce as Uint8Array) });
+      if (m.type === 'challenge') send(ws, { type: 'hello', protocolVersion: PROTOCOL_VERSION, workerName: 'intruder', capacity: 8, proof: proveKey('not-the-shared-key', m.nonce as Uint8Array) });
     });
     await new Promise<void>((resolve) => intruder.once('close', () => resolve()));
     expect(intruderSaw.map((m) => m.type)).toEqual(['challenge', 'error']);
     expect(intruderSaw[1].code).toBe('E_AUTH');
 
     // 2. A real worker, and a peer that works correctly but first sends six bad frames.
-    const worker = new CliProcess(['worker', '--join', url, '--slots', '4', '--name', 'honest'], { ROUNDWIRE_TOKEN: TOKEN });
+    const worker = new CliProcess(['worker', url, '--key-file', keyFile, '--capacity', '4', '--name', 'honest']);
     started.push(worker);
     const errorCodes: string[] = [];
     let badFramesSent = false;
@@ -76,7 +77,7 @@ describe('hostile peers', () => {
       void open(url, (m, ws) => {
         switch (m.type) {
           case 'challenge':
-            send(ws, { type: 'hello', protocolVersion: PROTOCOL_VERSION, workerName: 'hostile', slots: 4, proof: proveToken(TOKEN, m.nonce as Uint8Array) });
+            send(ws, { type: 'hello', protocolVersion: PROTOCOL_VERSION, workerName: 'hostile', capacity: 4, proof: proveKey(KEY, m.nonce as Uint8Array) });
             return;
           case 'welcome': {
             const wire = m.plan as unknown as WirePlan;
@@ -130,7 +131,7 @@ describe('hostile peers', () => {
     expect((await worker.exit(20_000)).code).toBe(0);
 
     expect([...errorCodes].sort()).toEqual(['E_CLIENT', 'E_DECODE', 'E_DIMENSION', 'E_NOT_FINITE', 'E_ROUND', 'E_SIZE']);
-    const summary = JSON.parse(readFileSync(join(out, 'summary.json'), 'utf8')) as { protocolErrors: Record<string, number> };
+    const summary = JSON.parse(readFileSync(join(out, 'outcome.json'), 'utf8')) as { protocolErrors: Record<string, number> };
     expect(summary.protocolErrors).toEqual({ E_AUTH: 1, E_DECODE: 1, E_ROUND: 1, E_CLIENT: 1, E_DIMENSION: 1, E_NOT_FINITE: 1, E_SIZE: 1 });
 
     const clean = runInProcess(loadScenarioFile(join(repoRoot, 'scenarios/quickstart.yaml'), OVERRIDES));

@@ -20,7 +20,7 @@ describe('a worker killed mid-round', () => {
       expect(exit.code, cli.stderr).toBe(0);
       const rounds = readJsonLines<RoundRecord>(join(out, 'rounds.jsonl'));
       expect(rounds.map((r) => r.round)).toEqual(Array.from({ length: 31 }, (_, i) => i));
-      const summary = JSON.parse(readFileSync(join(out, 'summary.json'), 'utf8')) as { stopReason: string; distributed: { lostWorkers: { workerName: string; clientIds: number[]; round: number }[] } };
+      const summary = JSON.parse(readFileSync(join(out, 'outcome.json'), 'utf8')) as { stopReason: string; distributed: { lostWorkers: { workerName: string; clientIds: number[]; round: number }[] } };
       expect(summary.stopReason).toBe('rounds-complete');
       expect(summary.distributed.lostWorkers).toHaveLength(1);
       const lost = summary.distributed.lostWorkers[0];

@@ -13,11 +13,11 @@ import { join } from 'node:path';
 import { randomBytes } from 'node:crypto';
 import WebSocket from 'ws';
 import { afterEach, describe, expect, it } from 'vitest';
-import { decodeMessage, encodeMessage, PROTOCOL_VERSION, proveToken, RESUME_TOKEN_BYTES } from '../../src/protocol/index.js';
+import { decodeMessage, encodeMessage, PROTOCOL_VERSION, proveKey, RESUME_TOKEN_BYTES } from '../../src/protocol/index.js';
 import type { RoundRecord } from '../../src/engine/round-record.js';
-import { CliProcess, freshDir, readJsonLines, repoRoot } from './cli-process.js';
+import { CliProcess, freshDir, readJsonLines, repoRoot, writeKeyFile } from './cli-process.js';
 
-const TOKEN = 'a-token-for-the-resume-test';
+const KEY = 'a-key-for-the-resume-test';
 const READ_LIMIT_BYTES = 64 * 1024 * 1024;
 
 /** Answers the challenge with a correct proof and `resume`; resolves to the error code sent back. */
@@ -27,7 +27,7 @@ function helloWithResume(url: string, resume: Uint8Array): Promise<string> {
     ws.on('message', (data: Buffer) => {
       const message = decodeMessage(new Uint8Array(data), READ_LIMIT_BYTES) as Record<string, unknown>;
       if (message.type === 'challenge') {
-        ws.send(encodeMessage({ type: 'hello', protocolVersion: PROTOCOL_VERSION, workerName: 'stranger', slots: 1, proof: proveToken(TOKEN, message.nonce as Uint8Array), resume }), { binary: true });
+        ws.send(encodeMessage({ type: 'hello', protocolVersion: PROTOCOL_VERSION, workerName: 'stranger', capacity: 1, proof: proveKey(KEY, message.nonce as Uint8Array), resume }), { binary: true });
       } else {
         ws.close();
         resolve(message.type === 'error' ? (message.code as string) : `unexpected ${String(message.type)}`);
@@ -109,18 +109,19 @@ interface Run {
   relayedClientIds: number[];
 }
 
-/** Coordinator, two direct workers and one relayed worker (3 slots each for quickstart's 8 clients). */
+/** Coordinator, two direct workers and one relayed worker (capacity 3 each for quickstart's 8 clients). */
 async function startRun(prefix: string, extra: string[]): Promise<Run> {
   const out = freshDir(prefix);
+  const keyFile = writeKeyFile(out, KEY);
   // Wall clock, 10 ms steps: quickstart's FedLin rounds last a few tenths of a second, long
   // enough to cut in, and the run a few seconds.
-  const coordinator = start(['coordinator', join(repoRoot, 'scenarios/quickstart.yaml'), '--listen', '127.0.0.1:0', '--token', TOKEN, '--workers-min', '3', '--out', out,
+  const coordinator = start(['coordinator', join(repoRoot, 'scenarios/quickstart.yaml'), '--listen', '127.0.0.1:0', '--key-file', keyFile, '--workers-min', '3', '--out', out,
     '--set', 'timing.clock=wall', '--set', 'timing.stepCostSeconds=0.01', ...extra]);
   const url = (await coordinator.waitForStderr(/listening on (ws:\/\/\S+)/, 20_000))[1];
   const relay = new Relay(Number(new URL(url).port));
   relays.push(relay);
   const relayUrl = await relay.listen();
-  const workerArgs = (name: string, joinUrl: string) => ['worker', '--join', joinUrl, '--token', TOKEN, '--slots', '3', '--name', name];
+  const workerArgs = (name: string, joinUrl: string) => ['worker', joinUrl, '--key-file', keyFile, '--capacity', '3', '--name', name];
   const direct = [start(workerArgs('direct-a', url)), start(workerArgs('direct-b', url))];
   const relayed = start(workerArgs('relayed', relayUrl));
   const hosts = await coordinator.waitForStderr(/worker "relayed" hosts clients ([\d, ]+)/, 30_000);
@@ -134,7 +135,7 @@ interface Summary {
 }
 
 function readSummary(out: string): Summary {
-  return JSON.parse(readFileSync(join(out, 'summary.json'), 'utf8')) as Summary;
+  return JSON.parse(readFileSync(join(out, 'outcome.json'), 'utf8')) as Summary;
 }
 
 function takesPart(record: RoundRecord, clientId: number): boolean {

@@ -26,7 +26,7 @@ async function run(name: string, overrides: string[]): Promise<{ rounds: RoundRe
   } finally {
     cli.kill();
   }
-  return { rounds: readJsonLines<RoundRecord>(join(out, 'rounds.jsonl')), clients: readJsonLines<ClientRoundRecord>(join(out, 'clients.jsonl')), summary: JSON.parse(readFileSync(join(out, 'summary.json'), 'utf8')) as { stopReason: string } };
+  return { rounds: readJsonLines<RoundRecord>(join(out, 'rounds.jsonl')), clients: readJsonLines<ClientRoundRecord>(join(out, 'clients.jsonl')), summary: JSON.parse(readFileSync(join(out, 'outcome.json'), 'utf8')) as { stopReason: string } };
 }
 
 function slowClients(record: RoundRecord): string[] {

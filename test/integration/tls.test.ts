@@ -13,9 +13,9 @@ import { createServer } from 'node:http';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { connectWithRetry, JoinError } from '../../client/connection.js';
-import { CliProcess, freshDir, repoRoot } from './cli-process.js';
+import { CliProcess, freshDir, repoRoot, writeKeyFile } from './cli-process.js';
 
-const TOKEN = 'a-token-for-the-tls-test';
+const KEY = 'a-key-for-the-tls-test';
 
 function hasOpenssl(): boolean {
   try {
@@ -37,6 +37,7 @@ function makeCertificate(dir: string): { certFile: string; keyFile: string } {
 describe('a coordinator serving wss://', () => {
   let coordinator: CliProcess;
   let certFile = '';
+  let keyFile = '';
   let url = '';
   let out = '';
   const started: CliProcess[] = [];
@@ -47,8 +48,9 @@ describe('a coordinator serving wss://', () => {
     const dir = freshDir('tls');
     const files = makeCertificate(dir);
     certFile = files.certFile;
+    keyFile = writeKeyFile(dir, KEY);
     out = join(dir, 'results');
-    coordinator = new CliProcess(['coordinator', join(repoRoot, 'scenarios/quickstart.yaml'), '--listen', '127.0.0.1:0', '--token', TOKEN, '--tls-cert', files.certFile, '--tls-key', files.keyFile, '--join-timeout', '40', '--out', out, '--set', 'run.rounds=5', '--set', 'run.target=0']);
+    coordinator = new CliProcess(['coordinator', join(repoRoot, 'scenarios/quickstart.yaml'), '--listen', '127.0.0.1:0', '--key-file', keyFile, '--tls-cert', files.certFile, '--tls-key', files.keyFile, '--workers-wait-seconds', '40', '--out', out, '--set', 'run.rounds=5', '--set', 'run.target=0']);
     started.push(coordinator);
     url = (await coordinator.waitForStderr(/listening on (\S+)/, 30_000))[1];
   }, 40_000);
@@ -57,8 +59,8 @@ describe('a coordinator serving wss://', () => {
     for (const p of started) p.kill();
   });
 
-  function worker(join: string, extra: string[]): CliProcess {
-    const p = new CliProcess(['worker', '--join', join, '--slots', '8', ...extra], { ROUNDWIRE_TOKEN: TOKEN });
+  function worker(coordinatorUrl: string, extra: string[]): CliProcess {
+    const p = new CliProcess(['worker', coordinatorUrl, '--key-file', keyFile, '--capacity', '8', ...extra]);
     started.push(p);
     return p;
   }
@@ -93,7 +95,7 @@ describe('a coordinator serving wss://', () => {
     expect(trusting.stderr).toMatch(/done \(rounds-complete\), hosted clients 0, 1, 2, 3, 4, 5, 6, 7/);
     const exit = await coordinator.exit(20_000);
     expect(exit.code, coordinator.stderr).toBe(0);
-    const summary = JSON.parse(readFileSync(join(out, 'summary.json'), 'utf8')) as { stopReason: string; distributed: { workers: { workerName: string }[]; lostWorkers: unknown[] } };
+    const summary = JSON.parse(readFileSync(join(out, 'outcome.json'), 'utf8')) as { stopReason: string; distributed: { workers: { workerName: string }[]; lostWorkers: unknown[] } };
     expect(summary.stopReason).toBe('rounds-complete');
     expect(summary.distributed.workers.map((w) => w.workerName)).toEqual(['trusting']);
     expect(summary.distributed.lostWorkers).toEqual([]);
@@ -105,7 +107,7 @@ describe('a coordinator serving wss://', () => {
 describe('roundwire worker --ca', () => {
   it('exits 2 when the file holds no certificate', async () => {
     const dir = freshDir('tls-bad-ca');
-    const p = new CliProcess(['worker', '--join', 'wss://127.0.0.1:9', '--ca', join(dir, 'missing.pem')], { ROUNDWIRE_TOKEN: TOKEN });
+    const p = new CliProcess(['worker', 'wss://127.0.0.1:9', '--key-file', writeKeyFile(dir, KEY), '--ca', join(dir, 'missing.pem')]);
     try {
       const exit = await p.exit(15_000);
       expect(exit.code).toBe(2);

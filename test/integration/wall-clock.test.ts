@@ -17,7 +17,7 @@ describe('wall clock', () => {
     } finally {
       cli.kill();
     }
-    const summary = JSON.parse(readFileSync(join(out, 'summary.json'), 'utf8')) as { clock: string; seconds: { wall: number; virtual: number } };
+    const summary = JSON.parse(readFileSync(join(out, 'outcome.json'), 'utf8')) as { clock: string; seconds: { wall: number; virtual: number } };
     expect(summary.clock).toBe('wall');
     expect(summary.seconds.wall).toBeLessThan(30);
     const records = readJsonLines<ClientRoundRecord>(join(out, 'clients.jsonl'));

@@ -25,7 +25,7 @@ async function runAndRead(name: string, overrides: string[]): Promise<{ records:
   } finally {
     run.kill();
   }
-  return { records: readJsonLines<ClientRoundRecord>(join(out, 'clients.jsonl')), summary: JSON.parse(readFileSync(join(out, 'summary.json'), 'utf8')) as SummaryBytes };
+  return { records: readJsonLines<ClientRoundRecord>(join(out, 'clients.jsonl')), summary: JSON.parse(readFileSync(join(out, 'outcome.json'), 'utf8')) as SummaryBytes };
 }
 
 function checkFraming(records: readonly ClientRoundRecord[], summary: SummaryBytes): void {

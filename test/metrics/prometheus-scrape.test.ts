@@ -8,7 +8,7 @@ import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { afterAll, describe, expect, it } from 'vitest';
 import { parse as parseYaml } from 'yaml';
-import { CliProcess, freshDir, repoRoot } from '../integration/cli-process.js';
+import { CliProcess, freshDir, repoRoot, writeKeyFile } from '../integration/cli-process.js';
 import { fetchText, PrometheusServer, promtoolCheckConfig, promtoolCheckMetrics, waitFor, type QueryResult } from './prometheus-tools.js';
 
 interface DashboardPanel {
@@ -26,7 +26,7 @@ function forPrometheus(expr: string): string {
   return expr.replaceAll('$__rate_interval', '1m');
 }
 
-const TOKEN = 'metrics-test-token';
+const KEY = 'a-key-for-the-metrics-test';
 const started: CliProcess[] = [];
 let prometheus: PrometheusServer | null = null;
 
@@ -36,8 +36,9 @@ afterAll(async () => {
   await Promise.all(started.map((p) => p.exit(15_000).catch(() => p.kill())));
 });
 
-function start(args: string[]): CliProcess {
-  const p = new CliProcess(args, { ROUNDWIRE_TOKEN: TOKEN });
+/** Starts a command that reads its key file from ROUNDWIRE_KEY_FILE, the way an environment names it once for every command. */
+function start(args: string[], keyFile: string): CliProcess {
+  const p = new CliProcess(args, { ROUNDWIRE_KEY_FILE: keyFile });
   started.push(p);
   return p;
 }
@@ -71,10 +72,11 @@ describe('the Grafana folder', () => {
 describe('Prometheus scraping a coordinator and a worker', () => {
   it('answers every dashboard query with data', async () => {
     const out = freshDir('metrics-prometheus');
-    const coordinator = start(['coordinator', join(repoRoot, 'scenarios/quickstart.yaml'), '--listen', '127.0.0.1:0', '--workers-min', '2', '--out', out, '--set', 'run.rounds=30', '--metrics', '127.0.0.1:0', '--metrics-linger', '60']);
-    const joinUrl = (await coordinator.waitForStderr(/listening on (ws:\/\/\S+)/, 30_000))[1];
+    const keyFile = writeKeyFile(out, KEY);
+    const coordinator = start(['coordinator', join(repoRoot, 'scenarios/quickstart.yaml'), '--listen', '127.0.0.1:0', '--workers-min', '2', '--out', out, '--set', 'run.rounds=30', '--metrics', '127.0.0.1:0', '--metrics-linger', '60'], keyFile);
+    const coordinatorUrl = (await coordinator.waitForStderr(/listening on (ws:\/\/\S+)/, 30_000))[1];
     const coordinatorMetrics = new URL((await coordinator.waitForStderr(/metrics on (http:\/\/\S+)/, 5_000))[1]);
-    const metered = start(['worker', '--join', joinUrl, '--slots', '8', '--name', 'metered', '--metrics', '127.0.0.1:0', '--metrics-linger', '60']);
+    const metered = start(['worker', coordinatorUrl, '--capacity', '8', '--name', 'metered', '--metrics', '127.0.0.1:0', '--metrics-linger', '60'], keyFile);
     const workerMetrics = new URL((await metered.waitForStderr(/metrics on (http:\/\/\S+)/, 30_000))[1]);
 
     prometheus = await PrometheusServer.start({ 'roundwire-coordinator': [coordinatorMetrics.host], 'roundwire-workers': [workerMetrics.host] });
@@ -83,10 +85,10 @@ describe('Prometheus scraping a coordinator and a worker', () => {
       const up = await prometheus!.query('up == 1');
       return up.data?.result.length === 2 ? true : null;
     });
-    start(['worker', '--join', joinUrl, '--slots', '8', '--name', 'plain']);
+    start(['worker', coordinatorUrl, '--capacity', '8', '--name', 'plain'], keyFile);
     await coordinator.waitForStderr(/metrics: the run is over/, 50_000);
     await metered.waitForStderr(/metrics: the run is over/, 20_000);
-    const summary = JSON.parse(readFileSync(join(out, 'summary.json'), 'utf8')) as { rounds: number };
+    const summary = JSON.parse(readFileSync(join(out, 'outcome.json'), 'utf8')) as { rounds: number };
 
     await waitFor('the final round count scraped', 20_000, async () => {
       const rounds = await prometheus!.query('roundwire_rounds_completed_total');

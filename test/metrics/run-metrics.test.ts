@@ -1,7 +1,7 @@
 // /metrics of a real `roundwire run`, read during --metrics-linger after the run ended, parsed by
 // an independent parser (parse-prometheus-text-format, which follows the Prometheus text
 // exposition format, prometheus.io/docs/instrumenting/exposition_formats) and checked against the
-// same run's summary.json: names, types, labels, and values that must agree exactly (rounds,
+// same run's outcome.json: names, types, labels, and values that must agree exactly (rounds,
 // bytes by direction and layer summed over clients, final f - f*, drops, the rates). The text
 // must also pass `promtool check metrics` (Prometheus's own linter) without a complaint.
 
@@ -42,7 +42,7 @@ beforeAll(async () => {
   expect(scraped.status).toBe(200);
   text = scraped.text;
   contentType = scraped.contentType;
-  summary = JSON.parse(readFileSync(join(out, 'summary.json'), 'utf8')) as Summary;
+  summary = JSON.parse(readFileSync(join(out, 'outcome.json'), 'utf8')) as Summary;
   families = new Map(parsePrometheusTextFormat(text).map((f) => [f.name, f]));
 }, 60_000);
 

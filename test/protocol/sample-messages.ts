@@ -2,14 +2,14 @@
 // of a method with a 'gradient' and a 'local' exchange, in round 3. Values are arbitrary
 // inputs; no test asserts a number taken from here without computing it.
 
-import { proveToken } from '../../src/protocol/auth.js';
+import { proveKey } from '../../src/protocol/auth.js';
 import { HANDSHAKE_LIMITS, limitsForPlan, type ProtocolLimits } from '../../src/protocol/limits.js';
 import { NONCE_BYTES, PROTOCOL_VERSION, type FieldDims, type Message } from '../../src/protocol/messages.js';
 import type { ValidationContext } from '../../src/protocol/validate.js';
 import { toWire, type WireVector } from '../../src/protocol/wire-vector.js';
 
 export const DIM = 6;
-export const TOKEN = 'shared-secret-for-tests';
+export const SHARED_KEY = 'shared-secret-for-tests';
 export const NONCE = Uint8Array.from({ length: NONCE_BYTES }, (_, i) => (i * 37 + 11) & 0xff);
 
 /** Downs a worker reads, per exchange. */
@@ -34,7 +34,7 @@ export function sparseF32(dim: number, indices: number[], values: number[]): Wir
 export function sampleMessages(): Message[] {
   return [
     { type: 'challenge', protocolVersion: PROTOCOL_VERSION, nonce: NONCE },
-    { type: 'hello', protocolVersion: PROTOCOL_VERSION, workerName: 'laptop-1', slots: 2, proof: proveToken(TOKEN, NONCE) },
+    { type: 'hello', protocolVersion: PROTOCOL_VERSION, workerName: 'laptop-1', capacity: 2, proof: proveKey(SHARED_KEY, NONCE) },
     {
       type: 'welcome',
       assignments: [2, 5],
@@ -77,7 +77,7 @@ export function serverContext(overrides: Partial<ValidationContext> = {}): Valid
     expectedExchange: 'local',
     ownedClientIds: new Set([2, 5]),
     fieldDims: UP_FIELD_DIMS,
-    auth: { token: TOKEN, nonce: NONCE },
+    auth: { key: SHARED_KEY, nonce: NONCE },
     ...overrides,
   };
 }

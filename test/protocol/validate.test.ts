@@ -2,7 +2,7 @@
 // decoder (receiveMessage) unless the fault is one the encoder itself would refuse to write.
 
 import { describe, expect, it } from 'vitest';
-import { proveToken } from '../../src/protocol/auth.js';
+import { proveKey } from '../../src/protocol/auth.js';
 import { encodeMessage } from '../../src/protocol/codec.js';
 import { ProtocolError, type ProtocolErrorCode } from '../../src/protocol/errors.js';
 import { HANDSHAKE_LIMITS } from '../../src/protocol/limits.js';
@@ -17,7 +17,7 @@ import {
   sampleMessages,
   serverContext,
   sparseF32,
-  TOKEN,
+  SHARED_KEY,
   workerContext,
 } from './sample-messages.js';
 
@@ -191,17 +191,17 @@ describe('E_SIZE', () => {
   });
 
   it('more clients than a worker may host', () => {
-    expectCode('E_SIZE', () => receive(hello({ slots: 3 }), serverContext()), 'hello.slots');
+    expectCode('E_SIZE', () => receive(hello({ capacity: 3 }), serverContext()), 'hello.capacity');
     const assignments = Array.from({ length: HANDSHAKE_LIMITS.maxClientsPerWorker + 1 }, (_, i) => i);
     expectCode('E_SIZE', () => receive({ ...sample('welcome'), assignments }, handshake), 'welcome.assignments');
   });
 });
 
 describe('E_AUTH', () => {
-  it('a proof under another token, or for another nonce', () => {
-    expectCode('E_AUTH', () => receive(hello({ proof: proveToken('wrong-token', NONCE) }), serverContext()));
+  it('a proof under another key, or for another nonce', () => {
+    expectCode('E_AUTH', () => receive(hello({ proof: proveKey('a-wrong-shared-key', NONCE) }), serverContext()));
     const otherNonce = NONCE.map((b) => b ^ 1);
-    expectCode('E_AUTH', () => receive(hello({ proof: proveToken(TOKEN, otherNonce) }), serverContext()));
+    expectCode('E_AUTH', () => receive(hello({ proof: proveKey(SHARED_KEY, otherNonce) }), serverContext()));
   });
 
   it('accepts the right proof', () => {

@@ -62,6 +62,6 @@ describe('run report page', () => {
   });
 
   it('refuses a folder that is not a results folder, naming the file', () => {
-    expect(() => readRunResults(join(root, 'missing'))).toThrow(/summary\.json|scenario\.yaml/);
+    expect(() => readRunResults(join(root, 'missing'))).toThrow(/resolved-scenario\.yaml/);
   });
 });

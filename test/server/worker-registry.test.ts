@@ -1,13 +1,13 @@
 // Dealing clients to workers: round-robin in join order within each worker's capacity
-// (min(slots, maxClientsPerWorker)), ids increasing per worker; the run is ready only when
+// (min(its capacity, maxClientsPerWorker)), ids increasing per worker; the run is ready only when
 // enough workers joined and their capacity covers every client.
 
 import { describe, expect, it } from 'vitest';
 import { WorkerRegistry } from '../../server/worker-registry.js';
 import type { WorkerSession } from '../../server/worker-session.js';
 
-function session(name: string, slots: number): WorkerSession {
-  return { workerName: name, slots, state: 'handshake', clientIds: new Set() } as unknown as WorkerSession;
+function session(name: string, capacity: number): WorkerSession {
+  return { workerName: name, capacity, state: 'handshake', clientIds: new Set() } as unknown as WorkerSession;
 }
 
 describe('WorkerRegistry', () => {
