@@ -73,7 +73,7 @@ export function curveChartSpec(rows: readonly CurvePointRow[], options: CurveCha
 /** Bytes per round: colour says the layer, line style and point shape the direction. */
 export function bytesChartSpec(rows: readonly BytesRow[], layers: readonly Layer[]): TopLevelSpec {
   const directions = Object.keys(DIRECTION_STYLES) as (keyof typeof DIRECTION_STYLES)[];
-  const directionLegend = { orient: 'bottom', title: null, symbolType: 'stroke', symbolSize: 300, symbolStrokeWidth: 2 } as const;
+  const directionLegend = { orient: 'bottom', title: 'direction', symbolType: 'stroke', symbolSize: 300, symbolStrokeWidth: 2 } as const;
   return {
     width: chartWidth,
     height: chartHeight,
@@ -85,7 +85,7 @@ export function bytesChartSpec(rows: readonly BytesRow[], layers: readonly Layer
       y: { field: 'bytes', type: 'quantitative', title: 'bytes in the round (all clients)', axis: { format: '~s' } },
       color: { field: 'layer', type: 'nominal', sort: [...layers], scale: { domain: [...layers], range: layers.map((l) => LAYER_COLOURS[l]) }, legend: { orient: 'bottom', title: 'layer' } },
       strokeDash: { field: 'direction', type: 'nominal', sort: directions, scale: { domain: directions, range: directions.map((d) => [...DIRECTION_STYLES[d].dash]) }, legend: directionLegend },
-      ...(rows.length <= 400 ? { shape: { field: 'direction', type: 'nominal', sort: directions, scale: { domain: directions, range: directions.map((d) => DIRECTION_STYLES[d].shape) }, legend: null } } : {}),
+      ...(rows.length <= 400 ? { shape: { field: 'direction', type: 'nominal', sort: directions, scale: { domain: directions, range: directions.map((d) => DIRECTION_STYLES[d].shape) }, legend: directionLegend } } : {}),
     },
   };
 }
