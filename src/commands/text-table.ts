@@ -88,8 +88,9 @@ function folded(columns: readonly Column[], rows: readonly Cell[][]): string[] {
 
 /**
  * The table as text lines joined by "\n" (no final newline): as columns when every line fits
- * `widthMax` characters, folded into one block per row otherwise. A column given as a string is
- * a name without a unit. Rows hold one cell per column.
+ * `widthMax` characters, folded into one block per row otherwise (a table of one column has
+ * nothing to fold and stays as it is). A column given as a string is a name without a unit.
+ * Rows hold one cell per column.
  */
 export function formatTable(columns: readonly (Column | string)[], rows: readonly Cell[][], options: { widthMax?: number } = {}): string {
   const widthMax = options.widthMax ?? TEXT_TABLE_LIMITS.widthMax;
