@@ -132,6 +132,7 @@ export class Coordinator {
       clientCount: plan.clientCount,
       optimumLoss: theory.optimum.loss,
       predictedRate: () => predictRun(plan, theory).rate,
+      method: scenario.method.name,
     });
     this.driver = new RoundDriver({
       plan,

@@ -6,6 +6,7 @@
 
 import { Counter, Gauge, Histogram, Registry } from 'prom-client';
 import { PROTOCOL_ERROR_CODES } from '../src/protocol/index.js';
+import type { MethodName } from '../src/algorithm/method.js';
 import type { ClientRoundRecord, RoundRecord } from '../src/engine/round-record.js';
 import { curveOf } from '../src/engine/run-summary.js';
 import { fitLinearRate } from '../src/theory/measure-curve.js';
@@ -27,6 +28,8 @@ export interface CoordinatorMetricsSources {
   optimumLoss: number;
   /** the theory's per-round rate, or null where it predicts none; called at most once */
   predictedRate: () => number | null;
+  /** the run's method, for roundwire_run_info */
+  method: MethodName;
 }
 
 /** Round durations from a millisecond (a virtual round of a small problem) to five minutes. */
@@ -59,6 +62,8 @@ export class CoordinatorMetrics {
     this.sources = sources;
     const registers = [this.registry];
     const metrics = this;
+    // An info series (value 1): queries join it on the target to label and colour series by method.
+    new Gauge({ name: 'roundwire_run_info', help: "Always 1; the method label names the run's method.", labelNames: ['method'], registers }).set({ method: sources.method }, 1);
     this.roundsCompleted = new Counter({ name: 'roundwire_rounds_completed_total', help: 'Rounds completed.', registers });
     new Gauge({
       name: 'roundwire_round_current',

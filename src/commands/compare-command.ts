@@ -79,6 +79,6 @@ export async function runComparison(plan: ComparisonPlan, outDir: string, option
   const comparison = buildComparison(plan.base.name, plan.base.run.target, plan.axes, outcomes);
   writeFileSync(join(outDir, compareFiles.csv), comparisonCsv(comparison));
   writeFileSync(join(outDir, compareFiles.json), comparisonJson(comparison));
-  writeFileSync(join(outDir, compareFiles.html), await buildComparePage(comparison, outcomes.map((o) => o.rounds)));
+  writeFileSync(join(outDir, compareFiles.html), await buildComparePage(comparison, outcomes));
   return comparison;
 }

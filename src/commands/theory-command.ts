@@ -59,10 +59,10 @@ export function theoryReport(scenario: Scenario): TheoryReport {
 
 export function formatTheoryReport(r: TheoryReport): string {
   const exact = r.problem === 'least-squares' ? 'exact' : 'bound';
+  const title = `${r.scenario} (problem ${r.problemHash.slice(0, 12)}): ${r.problem}, dimension ${r.dimension}, ${r.clientCount} clients, ${r.sampleCount} samples`;
   const summary = formatTable(
     ['quantity', 'value', 'note'],
     [
-      ['problem', r.problem, `dimension ${r.dimension}, ${r.clientCount} clients, ${r.sampleCount} samples`],
       ['smoothness L', r.smoothness, exact],
       ['strong convexity mu', r.strongConvexity, exact],
       ['condition number L/mu', r.conditionNumber, exact],
@@ -77,5 +77,5 @@ export function formatTheoryReport(r: TheoryReport): string {
     ['client', 'samples', 'weight p_i', 'L_i', 'mu_i', '|grad f_i(x*)|', '|x_i* - x*|'],
     r.clients.map((k) => [k.id, k.samples, k.weight, k.smoothness, k.strongConvexity, k.gradientNormAtOptimum, k.minimizerDistance]),
   );
-  return `${r.scenario} (problem ${r.problemHash.slice(0, 12)})\n\n${summary}\n\n${clients}\n`;
+  return `${title}\n\n${summary}\n\n${clients}\n`;
 }

@@ -1,8 +1,10 @@
 // Vega-Lite specifications of every chart in the reports. Data arrive inline and already
-// bounded; nothing refers to a URL, so the rendered SVG needs nothing from the network.
+// bounded; nothing refers to a URL, so the rendered SVG needs nothing from the network. Every
+// colour and line style comes from palette.ts; no chart falls back on the library's scheme.
 
 import type { TopLevelSpec } from 'vega-lite';
-import type { BytesRow, CurvePointRow, HistogramBar, TimelineSegment } from './run-series.js';
+import { ACTIVITY_COLOURS, DIRECTION_STYLES, LAYER_COLOURS, NEUTRAL_MARK_COLOUR } from './palette.js';
+import type { BytesRow, CurvePointRow, HistogramBar, Layer, TimelineSegment } from './run-series.js';
 
 const chartWidth = 560;
 const chartHeight = 260;
@@ -23,22 +25,29 @@ export const curveAxisTitles: Record<CurveAxis, string> = {
   seconds: 'seconds',
 };
 
+/** One line of a curve chart and how it is drawn. */
+export interface CurveSeries {
+  label: string;
+  /** a palette colour (palette.ts): the method's */
+  colour: string;
+  /** a palette dash: solid for a measurement, PREDICTED_DASH for a prediction */
+  dash: readonly number[];
+}
+
 export interface CurveChartOptions {
   axis: CurveAxis;
   /** overrides the axis title, e.g. to say which clock the seconds come from */
   axisTitle?: string;
   /** series in legend order */
-  series: string[];
-  /** series drawn dashed (predictions) */
-  dashed?: string[];
+  series: readonly CurveSeries[];
   /** the y range, when some series (a prediction) should not stretch it */
   yDomain?: [number, number];
 }
 
 /** Suboptimality on a log scale against rounds, cumulative bytes or seconds, one line a series. */
 export function curveChartSpec(rows: readonly CurvePointRow[], options: CurveChartOptions): TopLevelSpec {
-  const dashed = new Set(options.dashed ?? []);
-  const legend = { orient: 'bottom', columns: 2, title: null, symbolType: 'stroke', symbolSize: 300 } as const;
+  const labels = options.series.map((s) => s.label);
+  const legend = { orient: 'bottom', columns: 2, title: null, symbolType: 'stroke', symbolSize: 300, symbolStrokeWidth: 2 } as const;
   return {
     width: chartWidth,
     height: chartHeight,
@@ -55,29 +64,28 @@ export function curveChartSpec(rows: readonly CurvePointRow[], options: CurveCha
         axis: { format: '.0e' },
       },
       // One legend shows both channels: the same field, domain and legend settings merge them.
-      color: { field: 'series', type: 'nominal', sort: options.series, scale: { domain: options.series, scheme: options.series.length > 10 ? 'category20' : 'category10' }, legend },
-      strokeDash: {
-        field: 'series',
-        type: 'nominal',
-        sort: options.series,
-        scale: { domain: options.series, range: options.series.map((s) => (dashed.has(s) ? [6, 4] : [1, 0])) },
-        legend,
-      },
+      color: { field: 'series', type: 'nominal', sort: labels, scale: { domain: labels, range: options.series.map((s) => s.colour) }, legend },
+      strokeDash: { field: 'series', type: 'nominal', sort: labels, scale: { domain: labels, range: options.series.map((s) => [...s.dash]) }, legend },
     },
   };
 }
 
-export function bytesChartSpec(rows: readonly BytesRow[], series: string[]): TopLevelSpec {
+/** Bytes per round: colour says the layer, line style and point shape the direction. */
+export function bytesChartSpec(rows: readonly BytesRow[], layers: readonly Layer[]): TopLevelSpec {
+  const directions = Object.keys(DIRECTION_STYLES) as (keyof typeof DIRECTION_STYLES)[];
+  const directionLegend = { orient: 'bottom', title: 'direction', symbolType: 'stroke', symbolSize: 300, symbolStrokeWidth: 2 } as const;
   return {
     width: chartWidth,
     height: chartHeight,
     config: baseConfig,
     data: { values: rows.map((r) => ({ ...r })) },
-    mark: { type: 'line', point: rows.length <= 400 ? { size: 12 } : false, strokeWidth: 1.5 },
+    mark: { type: 'line', point: rows.length <= 400 ? { size: 14, filled: true } : false, strokeWidth: 1.5 },
     encoding: {
       x: { field: 'round', type: 'quantitative', title: 'round' },
       y: { field: 'bytes', type: 'quantitative', title: 'bytes in the round (all clients)', axis: { format: '~s' } },
-      color: { field: 'series', type: 'nominal', sort: series, scale: { domain: series }, legend: { orient: 'bottom', title: null } },
+      color: { field: 'layer', type: 'nominal', sort: [...layers], scale: { domain: [...layers], range: layers.map((l) => LAYER_COLOURS[l]) }, legend: { orient: 'bottom', title: 'layer' } },
+      strokeDash: { field: 'direction', type: 'nominal', sort: directions, scale: { domain: directions, range: directions.map((d) => [...DIRECTION_STYLES[d].dash]) }, legend: directionLegend },
+      ...(rows.length <= 400 ? { shape: { field: 'direction', type: 'nominal', sort: directions, scale: { domain: directions, range: directions.map((d) => DIRECTION_STYLES[d].shape) }, legend: directionLegend } } : {}),
     },
   };
 }
@@ -88,7 +96,7 @@ export function histogramChartSpec(bars: readonly HistogramBar[]): TopLevelSpec 
     height: 200,
     config: baseConfig,
     data: { values: bars.map((b) => ({ ...b })) },
-    mark: { type: 'bar', color: '#4c78a8' },
+    mark: { type: 'bar', color: NEUTRAL_MARK_COLOUR },
     encoding: {
       x: { field: 'label', type: 'ordinal', sort: bars.map((b) => b.label), title: 'local steps tau_i', axis: { labelAngle: 0 } },
       y: { field: 'count', type: 'quantitative', title: '(client, round) pairs' },
@@ -96,10 +104,8 @@ export function histogramChartSpec(bars: readonly HistogramBar[]): TopLevelSpec 
   };
 }
 
-const activityColours = { compute: '#4c78a8', transfer: '#f58518', idle: '#d3d3d3' };
-
 export function timelineChartSpec(segments: readonly TimelineSegment[], clientLabels: string[]): TopLevelSpec {
-  const activities = Object.keys(activityColours);
+  const activities = Object.keys(ACTIVITY_COLOURS);
   return {
     width: chartWidth,
     height: { step: Math.max(6, Math.min(16, Math.floor(480 / Math.max(1, clientLabels.length)))) },
@@ -110,7 +116,7 @@ export function timelineChartSpec(segments: readonly TimelineSegment[], clientLa
       x: { field: 'start', type: 'quantitative', title: 'modelled seconds since the first shown round began' },
       x2: { field: 'end' },
       y: { field: 'client', type: 'nominal', sort: clientLabels, title: null },
-      color: { field: 'activity', type: 'nominal', scale: { domain: activities, range: Object.values(activityColours) }, legend: { orient: 'bottom', title: null } },
+      color: { field: 'activity', type: 'nominal', scale: { domain: activities, range: Object.values(ACTIVITY_COLOURS) }, legend: { orient: 'bottom', title: null } },
     },
   };
 }

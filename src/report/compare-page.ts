@@ -1,29 +1,44 @@
 // compare.html: the comparison table, the verdict lines and every variant's suboptimality curve
-// overlaid against rounds, payload bytes and seconds.
+// overlaid against rounds, payload bytes and seconds. A variant is drawn in its method's colour;
+// variants of one method differ by line style.
 
-import type { RoundRecord } from '../engine/round-record.js';
 import { formatNumber } from '../commands/text-table.js';
-import { curveChartSpec, type CurveAxis } from './chart-specs.js';
-import { tableHeader, tableRows, verdictLines, type Comparison } from './compare-table.js';
+import { curveChartSpec, type CurveAxis, type CurveSeries } from './chart-specs.js';
+import { tableHeader, tableRows, verdictLines, type Comparison, type VariantOutcome } from './compare-table.js';
 import { figure, grid, heading, page, paragraph, section, table, type Html } from './html-page.js';
+import { methodColour, VARIANT_DASHES } from './palette.js';
 import { renderSvg } from './render-svg.js';
 import { measuredCurve, type CurvePointRow } from './run-series.js';
 
 /** Points drawn in all for one chart, shared among the variants. */
 const comparePointsMax = 6000;
 
-export async function buildComparePage(c: Comparison, roundsByVariant: readonly (readonly RoundRecord[])[]): Promise<string> {
+/** Each variant's line: its method's colour, and the next line style among that method's variants. */
+export function variantSeries(labels: readonly string[], methods: readonly string[]): CurveSeries[] {
+  const seen = new Map<string, number>();
+  return labels.map((label, i) => {
+    const nth = seen.get(methods[i]) ?? 0;
+    seen.set(methods[i], nth + 1);
+    return { label, colour: methodColour(methods[i]), dash: VARIANT_DASHES[nth % VARIANT_DASHES.length] };
+  });
+}
+
+/** `outcomes` in the order of the comparison's rows. */
+export async function buildComparePage(c: Comparison, outcomes: readonly Pick<VariantOutcome, 'summary' | 'rounds'>[]): Promise<string> {
   const perVariant = Math.max(50, Math.floor(comparePointsMax / Math.max(1, c.rows.length)));
   const clock = c.timeBasis === 'modelled' ? 'virtual' : 'wall';
   const rows: CurvePointRow[] = [];
   let thinned = false;
   c.rows.forEach((r, i) => {
-    const curve = measuredCurve(roundsByVariant[i], clock, r.variant, perVariant);
+    const curve = measuredCurve(outcomes[i].rounds, clock, r.variant, perVariant);
     thinned ||= curve.points.length < curve.pointsTotal;
     rows.push(...curve.points);
   });
-  const series = c.rows.map((r) => r.variant);
-  const caption = `One line a variant, same seed, speeds and links. ${thinned ? `At most ${perVariant} points a variant, evenly spread. ` : ''}Target ${formatNumber(c.target)}.`;
+  const series = variantSeries(
+    c.rows.map((r) => r.variant),
+    outcomes.map((o) => o.summary.method),
+  );
+  const caption = `One line a variant, same seed, speeds and links; colour says the method, line style tells apart variants of one method. ${thinned ? `At most ${perVariant} points a variant, evenly spread. ` : ''}Target ${formatNumber(c.target)}.`;
   const axes: [CurveAxis, string, string | undefined][] = [
     ['round', 'Suboptimality against rounds', undefined],
     ['payloadBytes', 'Suboptimality against payload bytes', undefined],

@@ -3,7 +3,7 @@
 
 import type { RoundRecord } from '../engine/round-record.js';
 import type { RunSummary } from '../engine/run-summary.js';
-import { formatNumber, formatTable } from '../commands/text-table.js';
+import { columnTitle, formatNumber, formatTable, type Column } from '../commands/text-table.js';
 import type { Variant, VaryAxis } from './compare-variants.js';
 
 export interface CompareRow {
@@ -120,10 +120,31 @@ export function buildComparison(scenario: string, target: number, axes: VaryAxis
   };
 }
 
-export const tableHeader = ['variant', 'stop', 'rounds', 'to target', 'payload B to target', 'uplink B to target', 'seconds to target', 'floor measured', 'rate measured', 'rate predicted', 'dropped'];
+/** The columns of the printed and the HTML table; seconds are on the comparison's time basis. */
+export const tableColumns: Column[] = [
+  { name: 'variant' },
+  { name: 'stop' },
+  { name: 'rounds' },
+  { name: 'to target', unit: 'rounds' },
+  { name: 'payload to target', unit: 'kB' },
+  { name: 'uplink to target', unit: 'kB' },
+  { name: 'time to target', unit: 's' },
+  { name: 'floor measured' },
+  { name: 'rate measured' },
+  { name: 'rate predicted' },
+  { name: 'dropped', unit: 'updates' },
+];
+
+export const tableHeader = tableColumns.map(columnTitle);
+
+const bytesPerKilobyte = 1000;
+
+function kilobytes(bytes: number | null): number | null {
+  return bytes === null ? null : bytes / bytesPerKilobyte;
+}
 
 export function tableRows(c: Comparison): (string | number | null)[][] {
-  return c.rows.map((r) => [r.variant, r.stopReason, r.rounds, r.roundsToTarget, r.payloadBytesToTarget, r.uplinkPayloadBytesToTarget, r.secondsToTarget, r.floorMeasured, r.rateMeasured, r.ratePredicted, r.droppedUpdates]);
+  return c.rows.map((r) => [r.variant, r.stopReason, r.rounds, r.roundsToTarget, kilobytes(r.payloadBytesToTarget), kilobytes(r.uplinkPayloadBytesToTarget), r.secondsToTarget, r.floorMeasured, r.rateMeasured, r.ratePredicted, r.droppedUpdates]);
 }
 
 /** The verdict lines: cheapest by bytes and fastest by time to target, or that none reached it. */
@@ -140,7 +161,7 @@ export function formatComparison(c: Comparison, outDir: string): string {
   return [
     `${c.scenario}: ${c.rows.length} variants, ${c.runtime}, target ${formatNumber(c.target)}; ${basis}`,
     '',
-    formatTable(tableHeader, tableRows(c)),
+    formatTable(tableColumns, tableRows(c)),
     '',
     ...verdictLines(c),
     `results: ${outDir} (compare.html, compare.csv, compare.json, one folder per variant)`,

@@ -4,8 +4,9 @@
 
 import type { RunSummary } from '../engine/run-summary.js';
 import { formatNumber } from '../commands/text-table.js';
-import { bytesChartSpec, curveChartSpec, histogramChartSpec, timelineChartSpec, type CurveAxis } from './chart-specs.js';
+import { bytesChartSpec, curveChartSpec, histogramChartSpec, timelineChartSpec, type CurveAxis, type CurveSeries } from './chart-specs.js';
 import { figure, grid, heading, page, paragraph, section, table, type Html, type TableCell } from './html-page.js';
+import { methodColour, PREDICTED_DASH, SOLID_DASH } from './palette.js';
 import { renderSvg } from './render-svg.js';
 import type { RunResults } from './run-results.js';
 import { bytesByLayer, clientTimeline, localStepsHistogram, measuredCurve, predictedCurve, SERIES_LIMITS } from './run-series.js';
@@ -60,7 +61,10 @@ async function curveFigures(results: RunResults): Promise<Html[]> {
   const curve = measuredCurve(results.rounds, s.clock, measuredLabel);
   const prediction = predictedCurve(s, curve.points, predictedLabel);
   const rows = prediction === null ? curve.points : [...curve.points, ...prediction];
-  const series = prediction === null ? [measuredLabel] : [measuredLabel, predictedLabel];
+  // Both lines in the method's colour: the line style, not the colour, says which is the prediction.
+  const colour = methodColour(s.method);
+  const measuredSeries: CurveSeries = { label: measuredLabel, colour, dash: SOLID_DASH };
+  const series = prediction === null ? [measuredSeries] : [measuredSeries, { label: predictedLabel, colour, dash: PREDICTED_DASH }];
   const values = curve.points.map((p) => p.suboptimality);
   const yDomain: [number, number] | undefined = prediction !== null && values.length > 0 ? [Math.min(...values), Math.max(...values)] : undefined;
   const caption = curveCaption(results, curve, prediction !== null);
@@ -71,7 +75,7 @@ async function curveFigures(results: RunResults): Promise<Html[]> {
   ];
   const figures: Html[] = [];
   for (const [axis, title] of axes) {
-    const spec = curveChartSpec(rows, { axis, series, dashed: [predictedLabel], yDomain, ...(axis === 'seconds' ? { axisTitle: secondsTitle(s.clock) } : {}) });
+    const spec = curveChartSpec(rows, { axis, series, yDomain, ...(axis === 'seconds' ? { axisTitle: secondsTitle(s.clock) } : {}) });
     figures.push(figure(await renderSvg(spec, `curve-${axis}`), caption, title));
   }
   return figures;
@@ -79,12 +83,11 @@ async function curveFigures(results: RunResults): Promise<Html[]> {
 
 async function bytesFigure(results: RunResults): Promise<Html> {
   const bytes = bytesByLayer(results.rounds);
-  const series = bytes.layers.flatMap((l) => [`${l} up`, `${l} down`]);
-  const notes = [`Layers recorded: ${bytes.layers.join(', ')}.`];
+  const notes = [`Layers recorded: ${bytes.layers.join(', ')}; uplink solid, downlink dotted.`];
   if (!bytes.layers.includes('wire')) notes.push('Encoded and wire bytes are counted where a network carries the run (the distributed runtime).');
   const shown = new Set(bytes.rows.map((r) => r.round)).size;
   if (shown < bytes.roundsTotal) notes.push(`${shown} of ${bytes.roundsTotal} rounds drawn, evenly spread.`);
-  return figure(await renderSvg(bytesChartSpec(bytes.rows, series), 'bytes'), notes.join(' '), 'Bytes per round by layer');
+  return figure(await renderSvg(bytesChartSpec(bytes.rows, bytes.layers), 'bytes'), notes.join(' '), 'Bytes per round by layer');
 }
 
 async function timelineFigure(results: RunResults): Promise<Html> {

@@ -4,6 +4,7 @@
 import { parse } from 'yaml';
 import type { ClientRoundRecord, RoundRecord } from '../engine/round-record.js';
 import type { RunSummary } from '../engine/run-summary.js';
+import { isMethodName, METHOD_NAMES } from './palette.js';
 import { ReportError } from './report-error.js';
 
 export interface RunResults {
@@ -48,6 +49,10 @@ export function parseRunResults(text: RunResultsText): RunResults {
   }
   if (!isRecord(summary) || !isRecord(summary.rate) || !isRecord(summary.floor) || !isRecord(summary.suboptimality) || typeof summary.clock !== 'string') {
     throw new ReportError('E_RESULTS_CONTENT', 'outcome.json lacks the fields a run writes (rate, floor, suboptimality, clock)');
+  }
+  // The charts draw a run in its method's colour, so the method must be one roundwire knows.
+  if (typeof summary.method !== 'string' || !isMethodName(summary.method)) {
+    throw new ReportError('E_RESULTS_CONTENT', `outcome.json: method ${JSON.stringify(summary.method)} is not one of ${METHOD_NAMES.join(', ')}`);
   }
   const scenario: unknown = parse(text.resolvedScenario);
   const rounds = jsonLines<RoundRecord>(text.rounds, 'rounds.jsonl');

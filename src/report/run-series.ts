@@ -82,20 +82,22 @@ export function predictedCurve(summary: RunSummary, measured: readonly CurvePoin
   return rows;
 }
 
+const layerNames = ['payload', 'encoded', 'wire'] as const;
+
+export type Layer = (typeof layerNames)[number];
+
 export interface BytesRow {
   round: number;
-  /** e.g. "payload up", "wire down" */
-  series: string;
+  layer: Layer;
+  direction: 'up' | 'down';
   bytes: number;
 }
 
 export interface BytesByLayer {
   rows: BytesRow[];
-  layers: string[];
+  layers: Layer[];
   roundsTotal: number;
 }
-
-const layerNames = ['payload', 'encoded', 'wire'] as const;
 
 export function bytesByLayer(rounds: readonly RoundRecord[], roundsMax: number = SERIES_LIMITS.bytesRoundsMax): BytesByLayer {
   // Round 0 is the evaluation of the starting point: nothing has crossed a link yet.
@@ -106,8 +108,8 @@ export function bytesByLayer(rounds: readonly RoundRecord[], roundsMax: number =
     for (const layer of layers) {
       const counts = r.bytes[layer];
       if (counts === undefined) continue;
-      rows.push({ round: r.round, series: `${layer} up`, bytes: counts.up });
-      rows.push({ round: r.round, series: `${layer} down`, bytes: counts.down });
+      rows.push({ round: r.round, layer, direction: 'up', bytes: counts.up });
+      rows.push({ round: r.round, layer, direction: 'down', bytes: counts.down });
     }
   }
   return { rows, layers: [...layers], roundsTotal: traffic.length };

@@ -73,6 +73,7 @@ describe('coordinator metrics labels', () => {
     clientCount,
     optimumLoss: 0,
     predictedRate: () => null,
+    method: 'scaffold',
   };
 
   it('aggregates clients beyond the label limit under client="other"', async () => {
@@ -107,5 +108,6 @@ describe('coordinator metrics labels', () => {
     expect(families.get('roundwire_rate_predicted')!.metrics[0].value).toBe('Nan');
     expect(families.get('roundwire_rate_measured')!.metrics[0].value).toBe('Nan');
     expect(families.get('roundwire_workers_connected')!.metrics[0].value).toBe('2');
+    expect(families.get('roundwire_run_info')!.metrics).toEqual([{ labels: { method: 'scaffold' }, value: '1' }]);
   });
 });

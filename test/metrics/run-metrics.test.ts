@@ -15,6 +15,7 @@ import { CliProcess, freshDir, repoRoot } from '../integration/cli-process.js';
 import { fetchText, promtoolCheckMetrics } from './prometheus-tools.js';
 
 interface Summary {
+  method: string;
   rounds: number;
   clients: number;
   suboptimality: { initial: number; final: number };
@@ -78,6 +79,7 @@ describe('coordinator /metrics after a real run', () => {
     expect(single('roundwire_suboptimality', 'GAUGE')).toBe(summary.suboptimality.final);
     expect(single('roundwire_suboptimality_initial', 'GAUGE')).toBe(summary.suboptimality.initial);
     expect(single('roundwire_distance_to_optimum', 'GAUGE')).toBe(summary.distance.final);
+    expect(family('roundwire_run_info', 'GAUGE').metrics).toEqual([{ labels: { method: summary.method }, value: '1' }]);
     expect(summary.rate.predicted).not.toBeNull();
     expect(single('roundwire_rate_predicted', 'GAUGE')).toBe(summary.rate.predicted);
     expect(summary.rate.measured).not.toBeNull();

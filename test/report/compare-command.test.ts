@@ -45,13 +45,27 @@ describe('roundwire compare', () => {
     expect(csv[0]).toEqual(compareColumns);
     c.rows.forEach((row, i) => expect(csv[i + 1]).toEqual(compareColumns.map((k) => (row[k] === null ? '' : String(row[k])))));
 
-    // the printed table shows the same numbers
+    // the printed table shows the same numbers; wider than 100 columns, it folds into one block a
+    // variant: "variant <label>", then "  <field> ..... <value> <unit>" lines
     const lines = r.stdout.split('\n');
+    const withUnit = (value: number | null, unit: string) => (value === null ? '-' : `${formatNumber(value)} ${unit}`);
+    const kilobytes = (bytes: number | null) => (bytes === null ? null : bytes / 1000);
     for (const row of c.rows) {
-      const line = lines.find((l) => l.startsWith(`${row.variant}  `));
-      expect(line, row.variant).toBeDefined();
-      const cells = line!.split(/\s{2,}/);
-      expect(cells).toEqual([row.variant, row.stopReason, ...[row.rounds, row.roundsToTarget, row.payloadBytesToTarget, row.uplinkPayloadBytesToTarget, row.secondsToTarget, row.floorMeasured, row.rateMeasured, row.ratePredicted, row.droppedUpdates].map(formatNumber)]);
+      const start = lines.indexOf(`variant ${row.variant}`);
+      expect(start, row.variant).toBeGreaterThanOrEqual(0);
+      const fields = lines.slice(start + 1, start + 11).map((l) => /^ {2}(.+?) \.{2,} (.+)$/.exec(l)?.slice(1));
+      expect(fields).toEqual([
+        ['stop', row.stopReason],
+        ['rounds', formatNumber(row.rounds)],
+        ['to target', withUnit(row.roundsToTarget, 'rounds')],
+        ['payload to target', withUnit(kilobytes(row.payloadBytesToTarget), 'kB')],
+        ['uplink to target', withUnit(kilobytes(row.uplinkPayloadBytesToTarget), 'kB')],
+        ['time to target', withUnit(row.secondsToTarget, 's')],
+        ['floor measured', formatNumber(row.floorMeasured)],
+        ['rate measured', formatNumber(row.rateMeasured)],
+        ['rate predicted', formatNumber(row.ratePredicted)],
+        ['dropped', withUnit(row.droppedUpdates, 'updates')],
+      ]);
     }
 
     // the verdict lines name the variants the JSON picks, which are the least among those reaching the target

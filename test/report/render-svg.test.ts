@@ -12,7 +12,7 @@ describe('inlineSvg', () => {
 
   it('gives the same text for the same chart rendered twice in one process', async () => {
     const rows = [0, 1, 2].map((round) => ({ series: 'm', round, payloadBytes: round * 10, seconds: round, suboptimality: 10 ** -round }));
-    const spec = curveChartSpec(rows, { axis: 'round', series: ['m'], yDomain: [0.01, 1] });
+    const spec = curveChartSpec(rows, { axis: 'round', series: [{ label: 'm', colour: '#000000', dash: [1, 0] }], yDomain: [0.01, 1] });
     const first = await renderSvg(spec, 'c');
     expect(await renderSvg(spec, 'c')).toBe(first);
     expect(first).toContain('clip-path="url(#c-1)"');

@@ -66,10 +66,10 @@ describe('bytesByLayer', () => {
     const plain = bytesByLayer([round(0, 1), round(1, 1), round(2, 1)]);
     expect(plain.layers).toEqual(['payload']);
     expect(plain.rows).toEqual([
-      { round: 1, series: 'payload up', bytes: 100 },
-      { round: 1, series: 'payload down', bytes: 50 },
-      { round: 2, series: 'payload up', bytes: 100 },
-      { round: 2, series: 'payload down', bytes: 50 },
+      { round: 1, layer: 'payload', direction: 'up', bytes: 100 },
+      { round: 1, layer: 'payload', direction: 'down', bytes: 50 },
+      { round: 2, layer: 'payload', direction: 'up', bytes: 100 },
+      { round: 2, layer: 'payload', direction: 'down', bytes: 50 },
     ]);
     const wire = bytesByLayer([round(1, 1, { bytes: { payload: { up: 1, down: 2 }, encoded: { up: 3, down: 4 }, wire: { up: 5, down: 6 } } })]);
     expect(wire.layers).toEqual(['payload', 'encoded', 'wire']);

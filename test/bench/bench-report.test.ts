@@ -1,0 +1,51 @@
+// The benchmark document's shape, on a run of every case at tiny sizes (a few milliseconds a
+// case). No duration is asserted: only that each figure is there, positive and where the schema
+// puts it.
+import { describe, expect, it } from 'vitest';
+import { BENCH_REPORT_VERSION, benchReport, benchReportSchema } from './bench-report.js';
+import { runBench, type BenchSizes } from './bench-cases.js';
+
+const TINY_SIZES: BenchSizes = {
+  dotLengths: [64],
+  matVecShapes: [[16, 8]],
+  gradient: { samples: 32, features: 4, classes: 3 },
+  topK: [[256, 0.05]],
+  batchSeconds: 0.001,
+  samples: 3,
+};
+
+describe('bench output', () => {
+  const report = benchReport(runBench(TINY_SIZES));
+
+  it('is one versioned document with the machine and every case', () => {
+    expect(report.roundwireBench).toBe(BENCH_REPORT_VERSION);
+    expect(report.machine.node).toBe(process.version);
+    expect(report.results.map((r) => `${r.suite}/${r.case}`)).toEqual([
+      'vec/dot',
+      'vec/matVec',
+      'problem/gradient least-squares',
+      'problem/gradient logistic',
+      'problem/gradient softmax',
+      'compress/top-k select',
+    ]);
+    expect(report.results[0].shape).toEqual({ d: 64 });
+    expect(report.results[4].shape).toEqual({ samples: 32, features: 4, classes: 3 });
+  });
+
+  it('gives top-k selection a full sort as its reference, with the ratio of the two figures', () => {
+    const topK = report.results.find((r) => r.case === 'top-k select')!;
+    // k = ceil(d * fraction) = ceil(256 * 0.05) = 13
+    expect(topK.shape).toEqual({ d: 256, k: 13 });
+    expect(topK.reference?.against).toBe('full sort');
+    expect(topK.reference!.ratio).toBeCloseTo(topK.figure / topK.reference!.figure, 12);
+    expect(report.results.filter((r) => r.reference !== undefined)).toHaveLength(1);
+  });
+
+  it('survives JSON and the schema, which refuses the list-of-figures form and unknown keys', () => {
+    expect(benchReportSchema.parse(JSON.parse(JSON.stringify(report)))).toEqual(report);
+    const listForm = report.results.map((r) => ({ name: r.case, params: r.shape, value: r.figure, unit: r.unit }));
+    expect(benchReportSchema.safeParse(listForm).success).toBe(false);
+    expect(benchReportSchema.safeParse({ ...report, results: [{ ...report.results[0], value: 1 }] }).success).toBe(false);
+    expect(benchReportSchema.safeParse({ ...report, roundwireBench: 2 }).success).toBe(false);
+  });
+});
