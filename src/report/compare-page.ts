@@ -1,4 +1,4 @@
-// compare.html: the comparison table, the verdict lines and every variant's suboptimality curve
+// compare.html: the comparison table, the verdict and every variant's suboptimality curve
 // overlaid against rounds, payload bytes and seconds.
 
 import type { RoundRecord } from '../engine/round-record.js';
@@ -6,6 +6,7 @@ import { formatNumber } from '../commands/text-table.js';
 import { curveChartSpec, type CurveAxis } from './chart-specs.js';
 import { tableHeader, tableRows, verdictLines, type Comparison } from './compare-table.js';
 import { figure, grid, heading, page, paragraph, section, table, type Html } from './html-page.js';
+import { ladderOptionText } from './ladder.js';
 import { renderSvg } from './render-svg.js';
 import { measuredCurve, type CurvePointRow } from './run-series.js';
 
@@ -13,16 +14,16 @@ import { measuredCurve, type CurvePointRow } from './run-series.js';
 const comparePointsMax = 6000;
 
 export async function buildComparePage(c: Comparison, roundsByVariant: readonly (readonly RoundRecord[])[]): Promise<string> {
-  const perVariant = Math.max(50, Math.floor(comparePointsMax / Math.max(1, c.rows.length)));
+  const perVariant = Math.max(50, Math.floor(comparePointsMax / Math.max(1, c.variants.length)));
   const clock = c.timeBasis === 'modelled' ? 'virtual' : 'wall';
   const rows: CurvePointRow[] = [];
   let thinned = false;
-  c.rows.forEach((r, i) => {
+  c.variants.forEach((r, i) => {
     const curve = measuredCurve(roundsByVariant[i], clock, r.variant, perVariant);
     thinned ||= curve.points.length < curve.pointsTotal;
     rows.push(...curve.points);
   });
-  const series = c.rows.map((r) => r.variant);
+  const series = c.variants.map((r) => r.variant);
   const caption = `One line a variant, same seed, speeds and links. ${thinned ? `At most ${perVariant} points a variant, evenly spread. ` : ''}Target ${formatNumber(c.target)}.`;
   const axes: [CurveAxis, string, string | undefined][] = [
     ['round', 'Suboptimality against rounds', undefined],
@@ -33,10 +34,10 @@ export async function buildComparePage(c: Comparison, roundsByVariant: readonly 
   for (const [axis, title, axisTitle] of axes) {
     figures.push(figure(await renderSvg(curveChartSpec(rows, { axis, series, ...(axisTitle ? { axisTitle } : {}) }), `compare-${axis}`), caption, title));
   }
-  const axesText = c.axes.map((a) => `${a.path} in {${a.values.join(', ')}}`).join('; ');
+  const laddersText = c.ladders.map((l) => `--ladder ${ladderOptionText(l)}`).join(' ');
   return page(`roundwire compare: ${c.scenario}`, [
     heading(`roundwire compare: ${c.scenario}`),
-    paragraph(`${c.rows.length} variants (${axesText}), ${c.runtime} runtime; seconds are ${c.timeBasis === 'modelled' ? 'modelled (virtual clock)' : 'wall-clock'}.`, 'note'),
+    paragraph(`${c.variants.length} variants (${laddersText}), ${c.runtime} runtime; seconds are ${c.timeBasis === 'modelled' ? 'modelled (virtual clock)' : 'wall-clock'}.`, 'note'),
     ...verdictLines(c).map((line) => paragraph(line, 'verdict')),
     section('Variants', [table(tableHeader, tableRows(c), formatNumber), paragraph('Each variant has its own results folder (with its report.html) beside this page.', 'note')]),
     section('Convergence', [grid(figures)]),

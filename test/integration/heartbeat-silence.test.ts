@@ -58,7 +58,7 @@ afterEach(() => {
 describe('a worker that falls silent', () => {
   it('is lost after the silence limit and the run completes without it', async () => {
     const out = freshDir('silence');
-    const coordinator = new CliProcess(['coordinator', join(repoRoot, 'scenarios/quickstart.yaml'), '--listen', '127.0.0.1:0', '--token', TOKEN, '--workers-min', '3', '--join-timeout', '40', '--heartbeat-silence-seconds', String(SILENCE_SECONDS), '--out', out, '--set', `run.rounds=${ROUNDS}`, '--set', 'run.target=0']);
+    const coordinator = new CliProcess(['coordinator', join(repoRoot, 'scenarios/quickstart.yaml'), '--listen', '127.0.0.1:0', '--token', TOKEN, '--workers-min', '3', '--join-timeout', '40', '--heartbeat-silence-seconds', String(SILENCE_SECONDS), '--out', out, '--tweak', `run.rounds:${ROUNDS}`, '--tweak', 'run.target:0']);
     started.push(coordinator);
     const url = (await coordinator.waitForStderr(/listening on (ws:\/\/\S+)/, 30_000))[1];
     const steady = ['steady-1', 'steady-2'].map((name) => new CliProcess(['worker', '--join', url, '--slots', '3', '--name', name], { ROUNDWIRE_TOKEN: TOKEN }));

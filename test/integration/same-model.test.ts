@@ -22,9 +22,9 @@ function modelBytes(x: Float64Array): Buffer {
 describe('roundwire run (4 workers, 8 clients) equals runInProcess bit for bit', () => {
   for (const method of METHODS) {
     it(method, async () => {
-      const overrides = [`method.name=${method}`, 'run.rounds=3', 'run.workers=4', 'run.target=0'];
+      const overrides = [`method.name:${method}`, 'run.rounds:3', 'run.workers:4', 'run.target:0'];
       const out = freshDir(`same-${method}`);
-      const run = new CliProcess(['run', join(repoRoot, 'scenarios/quickstart.yaml'), '--out', out, ...overrides.flatMap((o) => ['--set', o])]);
+      const run = new CliProcess(['run', join(repoRoot, 'scenarios/quickstart.yaml'), '--out', out, ...overrides.flatMap((o) => ['--tweak', o])]);
       try {
         const exit = await run.exit(50_000);
         expect(exit.code, run.stderr).toBe(0);

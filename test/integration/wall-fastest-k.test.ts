@@ -20,18 +20,18 @@ import { CliProcess, freshDir, readJsonLines, repoRoot } from './cli-process.js'
 const SCENARIO = join(repoRoot, 'scenarios/quickstart.yaml');
 const ROUNDS = 8;
 const COMMON = [
-  'timing.clock=wall',
-  'timing.slowdown={kind: two-class, fraction: 0.25, factor: 10}',
-  'timing.policy={kind: fastest-k, k: 6}',
-  `run.rounds=${ROUNDS}`,
-  'run.target=0',
+  'timing.clock:wall',
+  'timing.slowdown:{kind: two-class, fraction: 0.25, factor: 10}',
+  'timing.policy:{kind: fastest-k, k: 6}',
+  `run.rounds:${ROUNDS}`,
+  'run.target:0',
 ];
 // At a slowdown factor of 10, a slow client's update comes 9 step costs per step after a fast
 // one's: 450 ms for FedAvg's 5 local steps of 10 ms, and for FedLin's one-step gradient
 // exchange with steps of 50 ms; well above the scheduling delays of a few processes sharing two
 // cores.
-const FEDAVG = [...COMMON, 'timing.stepCostSeconds=0.01', 'method.name=fedavg', 'method.stepPolicy=fixed'];
-const FEDLIN = [...COMMON, 'timing.stepCostSeconds=0.05'];
+const FEDAVG = [...COMMON, 'timing.stepCostSeconds:0.01', 'method.name:fedavg', 'method.stepPolicy:fixed'];
+const FEDLIN = [...COMMON, 'timing.stepCostSeconds:0.05'];
 
 /** The clients the scenario's speed model makes slow (slowdown above 1), from the model itself. */
 function slowClientIds(overrides: string[]): number[] {
@@ -42,7 +42,7 @@ function slowClientIds(overrides: string[]): number[] {
 
 async function run(name: string, overrides: string[]): Promise<{ rounds: RoundRecord[]; clients: ClientRoundRecord[] }> {
   const out = freshDir(name);
-  const cli = new CliProcess(['run', SCENARIO, '--out', out, '--set', 'run.workers=2', ...overrides.flatMap((o) => ['--set', o])]);
+  const cli = new CliProcess(['run', SCENARIO, '--out', out, '--tweak', 'run.workers:2', ...overrides.flatMap((o) => ['--tweak', o])]);
   try {
     const exit = await cli.exit(50_000);
     expect(exit.code, cli.stderr).toBe(0);
