@@ -21,8 +21,8 @@ method: {name: fedavg, localSteps: {uniform: [1, 20]}, stepPolicy: inverse-steps
 run: {rounds: 400, target: 0}
 `;
 
-function scenario(overrides: string[] = [], text = base): Scenario {
-  return scenarioFromText(text, 'engine-test.yaml', overrides);
+function scenario(tweaks: string[] = [], text = base): Scenario {
+  return scenarioFromText(text, 'engine-test.yaml', tweaks);
 }
 
 function summaryOf(s: Scenario) {
@@ -44,12 +44,12 @@ function quadraticPieces(s: Scenario) {
 }
 
 describe('FedLin keeps x* fixed (FedLin, Mitra et al., NeurIPS 2021: x* is a fixed point of its round)', () => {
-  for (const [label, overrides] of [
+  for (const [label, tweaks] of [
     ['tau_i from 1 to 50', ['method.localSteps:{uniform: [1, 50]}']],
     ['with top-k 10% and error feedback on the uploaded deltas', ['method.localSteps:{uniform: [1, 50]}', 'compression.uplink.fields:{delta: {kind: top-k, fraction: 0.1, errorFeedback: true}}']],
   ] as const) {
     it(label, () => {
-      const s = scenario(['method.name:fedlin', 'run.rounds:1', ...overrides]);
+      const s = scenario(['method.name:fedlin', 'run.rounds:1', ...tweaks]);
       const first = runInProcess(s, { initialModel: new Float64Array(8) });
       const xStar = first.theory.optimum.x;
       const r = runInProcess(s, { initialModel: Float64Array.from(xStar) });
@@ -170,12 +170,12 @@ describe('compression with error feedback', () => {
 
 describe('determinism', () => {
   it('the same scenario and seed give the same final model bit for bit (minibatches, rand-k, partial participation, stragglers)', () => {
-    const overrides = ['method.name:scaffold', 'method.gradient:{minibatch: 8}', 'method.participation:0.5', 'compression.uplink.default:{kind: rand-k, fraction: 0.5}', 'timing.slowdown:{kind: two-class, fraction: 0.34, factor: 5}', 'timing.jitter:0.2', 'run.rounds:40'];
-    const a = runInProcess(scenario(overrides));
-    const b = runInProcess(scenario(overrides));
+    const tweaks = ['method.name:scaffold', 'method.gradient:{minibatch: 8}', 'method.participation:0.5', 'compression.uplink.default:{kind: rand-k, fraction: 0.5}', 'timing.slowdown:{kind: two-class, fraction: 0.34, factor: 5}', 'timing.jitter:0.2', 'run.rounds:40'];
+    const a = runInProcess(scenario(tweaks));
+    const b = runInProcess(scenario(tweaks));
     expect(Buffer.from(a.finalModel.buffer).equals(Buffer.from(b.finalModel.buffer))).toBe(true);
     expect(JSON.stringify(a.rounds.map((r) => ({ ...r, wallSeconds: 0 })))).toBe(JSON.stringify(b.rounds.map((r) => ({ ...r, wallSeconds: 0 }))));
-    const c = runInProcess(scenario([...overrides.slice(0, -1), 'seed:20', 'run.rounds:40']));
+    const c = runInProcess(scenario([...tweaks.slice(0, -1), 'seed:20', 'run.rounds:40']));
     expect(Buffer.from(a.finalModel.buffer).equals(Buffer.from(c.finalModel.buffer))).toBe(false);
   });
 });

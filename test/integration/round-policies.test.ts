@@ -17,9 +17,9 @@ const SLOW_TWO = 'timing.slowdown:{kind: two-class, fraction: 0.25, factor: 10}'
 // stepCostSeconds is 0.001 by default: a budget of 0.01 s holds 10 fast steps or 1 slow one.
 const DEADLINE = 'timing.policy:{kind: deadline, budgetSeconds: 0.01}';
 
-async function run(name: string, overrides: string[]): Promise<{ rounds: RoundRecord[]; clients: ClientRoundRecord[]; summary: { stopReason: string } }> {
+async function run(name: string, tweaks: string[]): Promise<{ rounds: RoundRecord[]; clients: ClientRoundRecord[]; summary: { stopReason: string } }> {
   const out = freshDir(name);
-  const cli = new CliProcess(['run', join(repoRoot, 'scenarios/quickstart.yaml'), '--out', out, '--tweak', 'run.workers:2', ...overrides.flatMap((o) => ['--tweak', o])]);
+  const cli = new CliProcess(['run', join(repoRoot, 'scenarios/quickstart.yaml'), '--out', out, '--tweak', 'run.workers:2', ...tweaks.flatMap((o) => ['--tweak', o])]);
   try {
     const exit = await cli.exit(55_000);
     expect(exit.code, cli.stderr).toBe(0);

@@ -16,9 +16,9 @@ interface SummaryBytes {
   distributed: { controlBytes: { wire: { up: number; down: number } }; socketBytes: { up: number; down: number } };
 }
 
-async function runAndRead(name: string, overrides: string[]): Promise<{ records: ClientRoundRecord[]; summary: SummaryBytes }> {
+async function runAndRead(name: string, tweaks: string[]): Promise<{ records: ClientRoundRecord[]; summary: SummaryBytes }> {
   const out = freshDir(name);
-  const run = new CliProcess(['run', join(repoRoot, 'scenarios/quickstart.yaml'), '--out', out, '--tweak', 'run.rounds:4', '--tweak', 'run.workers:2', ...overrides.flatMap((o) => ['--tweak', o])]);
+  const run = new CliProcess(['run', join(repoRoot, 'scenarios/quickstart.yaml'), '--out', out, '--tweak', 'run.rounds:4', '--tweak', 'run.workers:2', ...tweaks.flatMap((o) => ['--tweak', o])]);
   try {
     const exit = await run.exit(50_000);
     expect(exit.code, run.stderr).toBe(0);

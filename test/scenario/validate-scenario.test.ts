@@ -8,9 +8,9 @@ import { ScenarioError } from '../../src/scenario/scenario-error.js';
 
 const quickstart = readFileSync(new URL('../../scenarios/quickstart.yaml', import.meta.url), 'utf8');
 
-function failure(text: string, overrides: string[] = [], name = 'bad.yaml'): ScenarioError {
+function failure(text: string, tweaks: string[] = [], name = 'bad.yaml'): ScenarioError {
   try {
-    scenarioFromText(text, name, overrides);
+    scenarioFromText(text, name, tweaks);
   } catch (error) {
     expect(error).toBeInstanceOf(ScenarioError);
     return error as ScenarioError;
