@@ -21,6 +21,7 @@ import { coordinatorOptionsProblem, runCoordinatorCommand, type CoordinatorComma
 import { writeRunReport } from './commands/report-command.js';
 import { defaultCompareDir, planComparison, runComparison, type CompareOptions } from './commands/compare-command.js';
 import { comparisonJson, formatComparison } from './report/compare-table.js';
+import { ladderOptionHelp } from './report/ladder-option.js';
 import { ReportError } from './report/report-error.js';
 import { parseLingerSeconds, parseMetricsAddress, type MetricsAddress } from '../server/metrics-server.js';
 import { JoinError } from '../client/connection.js';
@@ -37,25 +38,6 @@ function collect(value: string, previous: string[]): string[] {
 const tweakOption = new Option('--tweak <field:value>', 'change one scenario field; the first colon ends the field and the value is read as YAML, e.g. --tweak method.localSteps:10 (repeatable, applied in order)')
   .argParser(collect)
   .default([] as string[]);
-
-const ladderHelp = `
-Ladders:
-  A ladder moves one field through its rungs; several ladders run as their product.
-    --ladder method.name:fedavg/fedlin                  2 variants
-    --ladder method.localSteps:1/5/20 --ladder method.name:fedavg/fedlin
-                                                        3 x 2 = 6 variants
-  A zipped ladder moves several fields together, rung by rung (not their product):
-    --ladder method.name+method.stepSize:fedavg,0.05/fedlin,0.2
-                                                        2 variants
-  The first colon ends the field (fields joined by +); a slash separates rungs; in a zipped
-  ladder a comma separates one rung's values, one per field. Values are read as YAML, like the
-  scenario file; a slash or comma inside brackets, braces or quotes stays part of the value:
-    --ladder 'method.localSteps:[1, 2]/{uniform: [1, 5]}'
-  In the scenario file the same ladders read:
-    ladders:
-      - {field: method.localSteps, rungs: [1, 5, 20]}
-      - {fields: [method.name, method.stepSize], rungs: [[fedavg, 0.05], [fedlin, 0.2]]}
-  --ladder options replace the scenario's ladders.`;
 
 function asArgument<T>(parse: (text: string) => T): (text: string) => T {
   return (text) => {
@@ -221,7 +203,7 @@ function buildProgram(io: Io): Command {
     .option('--distributed', 'run each variant with local worker processes over WebSockets instead of in process')
     .option('--out <dir>', 'folder for compare.html, compare.csv, compare.json and one results folder per variant (default results/compare-<name>-<time>)')
     .option('--json', 'print compare.json instead of the table')
-    .addHelpText('after', ladderHelp)
+    .addHelpText('after', ladderOptionHelp)
     .addHelpText('after', exitCodesHelp)
     .action(async (file: string, opts: CompareOptions & { json?: boolean }) => {
       const plan = planComparison(file, opts);

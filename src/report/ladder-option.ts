@@ -13,6 +13,26 @@ import { fieldPathKeys, readYamlValue } from '../scenario/tweaks.js';
 import type { Ladder } from './ladder.js';
 import { ReportError } from './report-error.js';
 
+/** The grammar as `roundwire compare --help` shows it. */
+export const ladderOptionHelp = `
+Ladders:
+  A ladder moves one field through its rungs; several ladders run as their product.
+    --ladder method.name:fedavg/fedlin                  2 variants
+    --ladder method.localSteps:1/5/20 --ladder method.name:fedavg/fedlin
+                                                        3 x 2 = 6 variants
+  A zipped ladder moves several fields together, rung by rung (not their product):
+    --ladder method.name+method.stepSize:fedavg,0.05/fedlin,0.2
+                                                        2 variants
+  The first colon ends the field (fields joined by +); a slash separates rungs; in a zipped
+  ladder a comma separates one rung's values, one per field. Values are read as YAML, like the
+  scenario file; a slash or comma inside brackets, braces or quotes stays part of the value:
+    --ladder 'method.localSteps:[1, 2]/{uniform: [1, 5]}'
+  In the scenario file the same ladders read:
+    ladders:
+      - {field: method.localSteps, rungs: [1, 5, 20]}
+      - {fields: [method.name, method.stepSize], rungs: [[fedavg, 0.05], [fedlin, 0.2]]}
+  --ladder options replace the scenario's ladders.`;
+
 /** As in YAML, a quote opens a quoted value only where a value starts (so `it's` is plain text). */
 function startsValue(text: string, at: number, separator: string): boolean {
   const before = text.slice(0, at).trimEnd();
