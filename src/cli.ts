@@ -21,6 +21,7 @@ import { coordinatorOptionsProblem, runCoordinatorCommand, type CoordinatorComma
 import { writeRunReport } from './commands/report-command.js';
 import { defaultCompareDir, planComparison, runComparison, type CompareOptions } from './commands/compare-command.js';
 import { comparisonJson, formatComparison } from './report/compare-table.js';
+import { ladderOptionHelp } from './report/ladder-option.js';
 import { ReportError } from './report/report-error.js';
 import { parseLingerSeconds, parseMetricsAddress, type MetricsAddress } from '../server/metrics-server.js';
 import { JoinError } from '../client/connection.js';
@@ -35,7 +36,7 @@ function collect(value: string, previous: string[]): string[] {
   return [...previous, value];
 }
 
-const setOption = new Option('--set <path=value>', 'override a scenario field, e.g. --set method.localSteps=10 (repeatable)')
+const tweakOption = new Option('--tweak <field:value>', 'change one scenario field; the first colon ends the field and the value is read as YAML, e.g. --tweak method.localSteps:10 (repeatable, applied in order)')
   .argParser(collect)
   .default([] as string[]);
 
@@ -83,11 +84,11 @@ function buildProgram(io: Io): Command {
     .command('theory')
     .description("solve the scenario's problem with the oracle and print x*'s certificate and the constants (L, mu, heterogeneity)")
     .argument('<scenario>', 'scenario file (YAML or JSON)')
-    .addOption(setOption)
+    .addOption(tweakOption)
     .option('--json', 'print JSON instead of a table')
     .addHelpText('after', exitCodesHelp)
-    .action((file: string, opts: { set: string[]; json?: boolean }) => {
-      const report = theoryReport(loadScenarioFile(file, opts.set));
+    .action((file: string, opts: { tweak: string[]; json?: boolean }) => {
+      const report = theoryReport(loadScenarioFile(file, opts.tweak));
       io.out(opts.json ? `${JSON.stringify(report, null, 2)}\n` : formatTheoryReport(report));
     });
 
@@ -96,11 +97,11 @@ function buildProgram(io: Io): Command {
     .description("write every client's shard as CSV (features, then target), one file per client")
     .argument('<scenario>', 'scenario file (YAML or JSON)')
     .requiredOption('--out <dir>', 'folder to write client-NNN.csv files into')
-    .addOption(setOption)
+    .addOption(tweakOption)
     .option('--json', 'print the written files as JSON')
     .addHelpText('after', exitCodesHelp)
-    .action((file: string, opts: { set: string[]; out: string; json?: boolean }) => {
-      const files = writeShards(loadScenarioFile(file, opts.set), opts.out);
+    .action((file: string, opts: { tweak: string[]; out: string; json?: boolean }) => {
+      const files = writeShards(loadScenarioFile(file, opts.tweak), opts.out);
       io.out(opts.json ? `${JSON.stringify({ dir: opts.out, files }, null, 2)}\n` : `wrote ${files.length} shards to ${opts.out}\n`);
     });
 
@@ -108,16 +109,16 @@ function buildProgram(io: Io): Command {
     .command('run')
     .description('run a scenario: real rounds between a coordinator and worker processes, or --in-process with no network')
     .argument('<scenario>', 'scenario file (YAML or JSON)')
-    .addOption(setOption)
+    .addOption(tweakOption)
     .option('--in-process', 'run every client in this process with the virtual clock (no sockets)')
     .option('--out <dir>', 'results folder (default results/<name>-<method>-<time>)')
     .option('--json', 'print outcome.json (see the results folder in README.md) instead of the table')
     .addOption(metricsOption)
     .addOption(metricsLingerOption)
     .addHelpText('after', exitCodesHelp)
-    .action(async (file: string, opts: { set: string[]; inProcess?: boolean; out?: string; json?: boolean } & MetricsOptions) => {
+    .action(async (file: string, opts: { tweak: string[]; inProcess?: boolean; out?: string; json?: boolean } & MetricsOptions) => {
       if (opts.inProcess && opts.metrics !== undefined) throw new UsageError('--metrics serves the coordinator of a distributed run; --in-process has none');
-      const scenario = loadScenarioFile(file, opts.set);
+      const scenario = loadScenarioFile(file, opts.tweak);
       const outDir = opts.out ?? defaultResultsDir(scenario, new Date());
       const progress = new ProgressLine({ write: io.err, isTTY: process.stderr.isTTY === true }, scenario.run.rounds);
       if (!opts.inProcess) {
@@ -166,14 +167,14 @@ function buildProgram(io: Io): Command {
     .option('--resume-grace-seconds <s>', 'a worker whose connection drops mid-run may reconnect and resume this long (0 to 3600 s; 0: lost at once); its clients sit out meanwhile (default 5)')
     .option('--out <dir>', 'results folder (default results/<name>-<method>-<time>)')
     .option('--json', 'print outcome.json (see the results folder in README.md) instead of the table')
-    .addOption(setOption)
+    .addOption(tweakOption)
     .addOption(metricsOption)
     .addOption(metricsLingerOption)
     .addHelpText('after', exitCodesHelp)
-    .action(async (file: string, opts: CoordinatorCommandOptions & MetricsOptions & { set: string[]; out?: string; json?: boolean }) => {
+    .action(async (file: string, opts: CoordinatorCommandOptions & MetricsOptions & { tweak: string[]; out?: string; json?: boolean }) => {
       const problem = coordinatorOptionsProblem(opts, process.env);
       if (problem !== null) throw new UsageError(problem);
-      const scenario = loadScenarioFile(file, opts.set);
+      const scenario = loadScenarioFile(file, opts.tweak);
       const outDir = opts.out ?? defaultResultsDir(scenario, new Date());
       const progress = new ProgressLine({ write: io.err, isTTY: process.stderr.isTTY === true }, scenario.run.rounds);
       const result = await runCoordinatorCommand(scenario, opts, outDir, process.env, { err: io.err, onRound: (r) => progress.update(r) }, metricsServing(opts));
@@ -196,13 +197,14 @@ function buildProgram(io: Io): Command {
 
   program
     .command('compare')
-    .description("run every combination of --vary values (or the scenario's sweep field) with the same seed, speeds and links; compare rounds, bytes and seconds to target")
+    .description("run one variant for every combination of rungs of the ladders (--ladder, or the scenario's ladders section) with the same seed, speeds and links; compare rounds, bytes and time to target")
     .argument('<scenario>', 'scenario file (YAML or JSON)')
-    .addOption(new Option('--vary <path=v1,v2,...>', 'vary a scenario field over values read like --set values, e.g. method.name=fedavg,fedlin (repeatable; the product runs)').argParser(collect).default([] as string[]))
-    .addOption(setOption)
+    .addOption(new Option('--ladder <field:rung/rung>', 'move a field through rungs, e.g. method.name:fedavg/fedlin; several fields together: a+b:1,2/3,4 (repeatable: the product runs; see Ladders below)').argParser(collect).default([] as string[]))
+    .addOption(tweakOption)
     .option('--distributed', 'run each variant with local worker processes over WebSockets instead of in process')
     .option('--out <dir>', 'folder for compare.html, compare.csv, compare.json and one results folder per variant (default results/compare-<name>-<time>)')
     .option('--json', 'print compare.json instead of the table')
+    .addHelpText('after', ladderOptionHelp)
     .addHelpText('after', exitCodesHelp)
     .action(async (file: string, opts: CompareOptions & { json?: boolean }) => {
       const plan = planComparison(file, opts);

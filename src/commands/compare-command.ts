@@ -1,17 +1,22 @@
-// `roundwire compare <scenario> --vary path=v1,v2 ...`: every combination of the varied values,
-// each run with the same seed, speeds and links into its own results folder (with report.html),
-// then one table, compare.html, compare.csv and compare.json.
+// `roundwire compare <scenario> --ladder field:rung/rung ...`: every combination of one rung from
+// each ladder, each run with the same seed, speeds and links into its own results folder (with
+// report.html), then one table, compare.html, compare.csv and compare.json.
 
 import { mkdirSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
-import { loadScenarioFile } from '../scenario/load-scenario.js';
+import { readScenarioDocument, scenarioFromDocument } from '../scenario/load-scenario.js';
 import type { Scenario } from '../scenario/schema.js';
+import { parseTweak, type Tweak } from '../scenario/tweaks.js';
+import { ScenarioError } from '../scenario/scenario-error.js';
 import { runInProcess } from '../engine/in-process-engine.js';
 import { finishRun } from './run-report.js';
 import { runDistributed } from './run-distributed.js';
 import { readRunResults, reportFileName } from './report-command.js';
 import { buildRunReport } from '../report/run-report-page.js';
-import { expandVariants, parseVary, sweepAxes, type Variant, type VaryAxis } from '../report/compare-variants.js';
+import { expandVariants, type Variant } from '../report/compare-variants.js';
+import { checkLadders, ladderName, laddersFromScenario, rungText, rungTweaks, type Ladder } from '../report/ladder.js';
+import { parseLadderOption } from '../report/ladder-option.js';
+import { ReportError } from '../report/report-error.js';
 import { buildComparison, comparisonCsv, comparisonJson, type Comparison, type VariantOutcome } from '../report/compare-table.js';
 import { buildComparePage } from '../report/compare-page.js';
 import { formatNumber } from './text-table.js';
@@ -19,8 +24,9 @@ import { formatNumber } from './text-table.js';
 export const compareFiles = { html: 'compare.html', csv: 'compare.csv', json: 'compare.json' } as const;
 
 export interface CompareOptions {
-  vary: string[];
-  set: string[];
+  /** `--ladder` texts; when given, they replace the scenario's own ladders */
+  ladder: string[];
+  tweak: string[];
   out?: string;
   distributed?: boolean;
 }
@@ -37,16 +43,47 @@ export interface PlannedVariant {
 
 export interface ComparisonPlan {
   base: Scenario;
-  axes: VaryAxis[];
+  ladders: Ladder[];
   variants: PlannedVariant[];
 }
 
-/** Validates the base scenario and every variant before anything runs, so bad input costs nothing. */
-export function planComparison(file: string, options: Pick<CompareOptions, 'vary' | 'set'>): ComparisonPlan {
-  const base = loadScenarioFile(file, options.set);
-  const axes = options.vary.length > 0 ? options.vary.map(parseVary) : sweepAxes(base);
-  const variants = expandVariants(axes).map((variant) => ({ variant, scenario: loadScenarioFile(file, [...options.set, ...variant.overrides]) }));
-  return { base, axes, variants };
+/** The scenario's reason, shown after what was being checked; its field only where the context does not name it. */
+function reasonOf(error: unknown, contextField: string | null): string {
+  if (error instanceof ScenarioError && error.fieldPath === contextField) return error.detail;
+  if (error instanceof ScenarioError) return error.message;
+  throw error;
+}
+
+/** Each rung on its own over the base, so that a bad value is blamed on its ladder and rung. */
+function checkRungs(document: unknown, tweaks: readonly Tweak[], ladders: readonly Ladder[]): void {
+  for (const ladder of ladders) {
+    ladder.rungs.forEach((rung, i) => {
+      try {
+        scenarioFromDocument(document, [...tweaks, ...rungTweaks(ladder, i)]);
+      } catch (error) {
+        const reason = reasonOf(error, ladder.fields.length === 1 ? ladder.fields[0] : null);
+        throw new ReportError('E_LADDER_RUNG', `ladder ${ladderName(ladder)}, rung ${i + 1} (${rungText(rung)}): ${reason}`);
+      }
+    });
+  }
+}
+
+/** Validates the base scenario, every rung and every variant before anything runs, so bad input costs nothing. */
+export function planComparison(file: string, options: Pick<CompareOptions, 'ladder' | 'tweak'>): ComparisonPlan {
+  const document = readScenarioDocument(file);
+  const tweaks = options.tweak.map(parseTweak);
+  const base = scenarioFromDocument(document, tweaks);
+  const ladders = options.ladder.length > 0 ? options.ladder.map(parseLadderOption) : laddersFromScenario(base.ladders);
+  checkLadders(ladders);
+  checkRungs(document, tweaks, ladders);
+  const variants = expandVariants(ladders).map((variant) => {
+    try {
+      return { variant, scenario: scenarioFromDocument(document, [...tweaks, ...variant.tweaks]) };
+    } catch (error) {
+      throw new ReportError('E_COMPARE_VARIANTS', `variant ${variant.index + 1} (${variant.label}): these rungs do not go together: ${reasonOf(error, null)}`);
+    }
+  });
+  return { base, ladders, variants };
 }
 
 /** results/compare-<scenario>-<utc stamp>: sorts by time and says what was compared. */
@@ -76,7 +113,7 @@ export async function runComparison(plan: ComparisonPlan, outDir: string, option
     io.err(`variant ${planned.variant.index + 1}/${plan.variants.length} ${planned.variant.label}: ${s.rounds} rounds (${s.stopReason}), f-f* ${formatNumber(s.suboptimality.final)}\n`);
     outcomes.push({ variant: planned.variant, summary: s, rounds: results.rounds });
   }
-  const comparison = buildComparison(plan.base.name, plan.base.run.target, plan.axes, outcomes);
+  const comparison = buildComparison(plan.base.name, plan.base.run.target, plan.ladders, outcomes);
   writeFileSync(join(outDir, compareFiles.csv), comparisonCsv(comparison));
   writeFileSync(join(outDir, compareFiles.json), comparisonJson(comparison));
   writeFileSync(join(outDir, compareFiles.html), await buildComparePage(comparison, outcomes));

@@ -4,7 +4,7 @@ export const exitCodes = {
   ok: 0,
   /** the run failed: a runtime error, a lost coordinator, an uncertified optimum */
   failure: 1,
-  /** bad input: a scenario file, a --set override, a command-line argument */
+  /** bad input: a scenario file, a --tweak, a --ladder, any other command-line argument */
   badInput: 2,
   /** interrupted (SIGINT / Ctrl-C); 128 + signal number, as shells do */
   interrupted: 130,
@@ -14,5 +14,5 @@ export const exitCodesHelp = `
 Exit codes:
   0    success
   1    the run failed (runtime error)
-  2    bad input: scenario file, --set override or command-line argument
+  2    bad input: scenario file, --tweak, --ladder or other argument
   130  interrupted (Ctrl-C)`;

@@ -7,6 +7,7 @@ import { curveChartSpec, type CurveAxis, type CurveSeries } from './chart-specs.
 import { tableHeader, tableRows, verdictLines, type Comparison, type VariantOutcome } from './compare-table.js';
 import { figure, grid, heading, page, paragraph, section, table, type Html } from './html-page.js';
 import { methodColour, VARIANT_DASHES } from './palette.js';
+import { ladderOptionText } from './ladder.js';
 import { renderSvg } from './render-svg.js';
 import { measuredCurve, type CurvePointRow } from './run-series.js';
 
@@ -25,17 +26,17 @@ export function variantSeries(labels: readonly string[], methods: readonly strin
 
 /** `outcomes` in the order of the comparison's rows. */
 export async function buildComparePage(c: Comparison, outcomes: readonly Pick<VariantOutcome, 'summary' | 'rounds'>[]): Promise<string> {
-  const perVariant = Math.max(50, Math.floor(comparePointsMax / Math.max(1, c.rows.length)));
+  const perVariant = Math.max(50, Math.floor(comparePointsMax / Math.max(1, c.variants.length)));
   const clock = c.timeBasis === 'modelled' ? 'virtual' : 'wall';
   const rows: CurvePointRow[] = [];
   let thinned = false;
-  c.rows.forEach((r, i) => {
+  c.variants.forEach((r, i) => {
     const curve = measuredCurve(outcomes[i].rounds, clock, r.variant, perVariant);
     thinned ||= curve.points.length < curve.pointsTotal;
     rows.push(...curve.points);
   });
   const series = variantSeries(
-    c.rows.map((r) => r.variant),
+    c.variants.map((r) => r.variant),
     outcomes.map((o) => o.summary.method),
   );
   const caption = `One line a variant, same seed, speeds and links; colour says the method, line style tells apart variants of one method. ${thinned ? `At most ${perVariant} points a variant, evenly spread. ` : ''}Target ${formatNumber(c.target)}.`;
@@ -48,10 +49,10 @@ export async function buildComparePage(c: Comparison, outcomes: readonly Pick<Va
   for (const [axis, title, axisTitle] of axes) {
     figures.push(figure(await renderSvg(curveChartSpec(rows, { axis, series, ...(axisTitle ? { axisTitle } : {}) }), `compare-${axis}`), caption, title));
   }
-  const axesText = c.axes.map((a) => `${a.path} in {${a.values.join(', ')}}`).join('; ');
+  const laddersText = c.ladders.map((l) => `--ladder ${ladderOptionText(l)}`).join(' ');
   return page(`roundwire compare: ${c.scenario}`, [
     heading(`roundwire compare: ${c.scenario}`),
-    paragraph(`${c.rows.length} variants (${axesText}), ${c.runtime} runtime; seconds are ${c.timeBasis === 'modelled' ? 'modelled (virtual clock)' : 'wall-clock'}.`, 'note'),
+    paragraph(`${c.variants.length} variants (${laddersText}), ${c.runtime} runtime; seconds are ${c.timeBasis === 'modelled' ? 'modelled (virtual clock)' : 'wall-clock'}.`, 'note'),
     ...verdictLines(c).map((line) => paragraph(line, 'verdict')),
     section('Variants', [table(tableHeader, tableRows(c), formatNumber), paragraph('Each variant has its own results folder (with its report.html) beside this page.', 'note')]),
     section('Convergence', [grid(figures)]),

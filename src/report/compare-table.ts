@@ -1,49 +1,88 @@
-// The comparison's numbers: one row per variant, the cheapest and fastest variants among those
-// that reached the target, and the same rows as a text table, CSV (RFC 4180) and JSON.
+// The comparison's numbers: one row per variant, the verdict (which variant needed the fewest
+// bytes and the least time to reach the target, and by how much over the runner-up), and the
+// same rows as a text table, CSV (RFC 4180) and JSON. The CSV columns, the JSON keys and the
+// table's headings are one list, so that the three always agree.
 
 import type { RoundRecord } from '../engine/round-record.js';
 import type { RunSummary } from '../engine/run-summary.js';
 import { columnTitle, formatNumber, formatTable, type Column } from '../commands/text-table.js';
-import type { Variant, VaryAxis } from './compare-variants.js';
+import type { Variant } from './compare-variants.js';
+import type { Ladder } from './ladder.js';
 
 export interface CompareRow {
   variant: string;
-  folder: string;
-  stopReason: string;
+  stop: string;
   rounds: number;
   roundsToTarget: number | null;
   /** payload bytes up and down, through the round that reached the target */
-  payloadBytesToTarget: number | null;
+  bytesToTarget: number | null;
   /** payload bytes up only, through the round that reached the target */
-  uplinkPayloadBytesToTarget: number | null;
+  uplinkBytesToTarget: number | null;
   /** modelled seconds when every variant ran on the virtual clock, wall seconds otherwise */
   secondsToTarget: number | null;
   floorMeasured: number | null;
   rateMeasured: number | null;
   ratePredicted: number | null;
   droppedUpdates: number;
+  /** the variant's results folder, beside compare.json */
+  folder: string;
 }
 
+/** CSV columns and JSON keys, in order; the table shows all but the folder. */
 export const compareColumns: (keyof CompareRow)[] = [
   'variant',
-  'folder',
-  'stopReason',
+  'stop',
   'rounds',
   'roundsToTarget',
-  'payloadBytesToTarget',
-  'uplinkPayloadBytesToTarget',
+  'bytesToTarget',
+  'uplinkBytesToTarget',
   'secondsToTarget',
   'floorMeasured',
   'rateMeasured',
   'ratePredicted',
   'droppedUpdates',
+  'folder',
 ];
+
+const tableKeys = compareColumns.filter((k) => k !== 'folder');
+
+/** Units shown in the printed and HTML table's header; bytes there are in kB (1000 bytes). */
+const COLUMN_UNITS: Partial<Record<keyof CompareRow, string>> = {
+  roundsToTarget: 'rounds',
+  bytesToTarget: 'kB',
+  uplinkBytesToTarget: 'kB',
+  secondsToTarget: 's',
+  droppedUpdates: 'updates',
+};
+
+/** A column's heading in the table: its key in words ("bytesToTarget" -> "bytes to target"). */
+export function columnHeading(key: keyof CompareRow): string {
+  return key.replace(/[A-Z]/g, (c) => ` ${c.toLowerCase()}`);
+}
+
+/** The columns of the printed and the HTML table; seconds are on the comparison's time basis. */
+export const tableColumns: Column[] = tableKeys.map((k) => ({ name: columnHeading(k), unit: COLUMN_UNITS[k] }));
 
 export type TimeBasis = 'modelled' | 'wall';
 
-export interface Pick {
+export interface Ranking {
+  /** the least value among the variants that reached the target; ties go to the earlier variant */
   variant: string;
   value: number;
+  /** the next least; null when only one variant reached the target */
+  runnerUp: { variant: string; value: number } | null;
+  /** how much more the runner-up needed (runner-up's value minus the leader's) */
+  margin: number | null;
+  /** the runner-up's value over the leader's; null without a runner-up or when the leader's is 0 */
+  ratio: number | null;
+}
+
+export interface Verdict {
+  /** how many variants reached the target */
+  reachedTarget: number;
+  fewestBytesToTarget: Ranking | null;
+  fewestUplinkBytesToTarget: Ranking | null;
+  leastTimeToTarget: Ranking | null;
 }
 
 export interface Comparison {
@@ -51,11 +90,9 @@ export interface Comparison {
   target: number;
   runtime: RunSummary['runtime'];
   timeBasis: TimeBasis;
-  axes: VaryAxis[];
-  rows: CompareRow[];
-  cheapest: Pick | null;
-  cheapestUplink: Pick | null;
-  fastest: Pick | null;
+  ladders: Ladder[];
+  variants: CompareRow[];
+  verdict: Verdict;
 }
 
 export interface VariantOutcome {
@@ -78,32 +115,31 @@ export function compareRow(outcome: VariantOutcome, timeBasis: TimeBasis): Compa
   }
   return {
     variant: variant.label,
-    folder: variant.folderName,
-    stopReason: s.stopReason,
+    stop: s.stopReason,
     rounds: s.rounds,
     roundsToTarget: s.roundsToTarget,
-    payloadBytesToTarget: s.toTarget.payloadBytes,
-    uplinkPayloadBytesToTarget: uplink,
+    bytesToTarget: s.toTarget.payloadBytes,
+    uplinkBytesToTarget: uplink,
     secondsToTarget: timeBasis === 'modelled' ? s.toTarget.virtualSeconds : s.toTarget.wallSeconds,
     floorMeasured: s.floor.measured,
     rateMeasured: s.rate.measured,
     ratePredicted: s.rate.predicted,
     droppedUpdates: s.droppedUpdates,
+    folder: variant.folderName,
   };
 }
 
-/** The row with the smallest value among rows that have one; ties go to the earlier variant. */
-export function pickLeast(rows: readonly CompareRow[], key: 'payloadBytesToTarget' | 'uplinkPayloadBytesToTarget' | 'secondsToTarget'): Pick | null {
-  let best: Pick | null = null;
-  for (const r of rows) {
-    const value = r[key];
-    if (r.roundsToTarget === null || value === null) continue;
-    if (best === null || value < best.value) best = { variant: r.variant, value };
-  }
-  return best;
+/** The least and the next least value among rows that reached the target; ties keep row order. */
+export function rankLeast(rows: readonly CompareRow[], key: 'bytesToTarget' | 'uplinkBytesToTarget' | 'secondsToTarget'): Ranking | null {
+  const reached = rows.filter((r) => r.roundsToTarget !== null && r[key] !== null).map((r) => ({ variant: r.variant, value: r[key] as number }));
+  const sorted = reached.map((entry, order) => ({ entry, order })).sort((a, b) => a.entry.value - b.entry.value || a.order - b.order).map((s) => s.entry);
+  if (sorted.length === 0) return null;
+  const [leader, runnerUp] = sorted;
+  if (runnerUp === undefined) return { ...leader, runnerUp: null, margin: null, ratio: null };
+  return { ...leader, runnerUp, margin: runnerUp.value - leader.value, ratio: leader.value > 0 ? runnerUp.value / leader.value : null };
 }
 
-export function buildComparison(scenario: string, target: number, axes: VaryAxis[], outcomes: readonly VariantOutcome[]): Comparison {
+export function buildComparison(scenario: string, target: number, ladders: Ladder[], outcomes: readonly VariantOutcome[]): Comparison {
   const summaries = outcomes.map((o) => o.summary);
   const timeBasis = timeBasisOf(summaries);
   const rows = outcomes.map((o) => compareRow(o, timeBasis));
@@ -112,54 +148,60 @@ export function buildComparison(scenario: string, target: number, axes: VaryAxis
     target,
     runtime: summaries.every((s) => s.runtime === 'in-process') ? 'in-process' : 'distributed',
     timeBasis,
-    axes,
-    rows,
-    cheapest: pickLeast(rows, 'payloadBytesToTarget'),
-    cheapestUplink: pickLeast(rows, 'uplinkPayloadBytesToTarget'),
-    fastest: pickLeast(rows, 'secondsToTarget'),
+    ladders,
+    variants: rows,
+    verdict: {
+      reachedTarget: rows.filter((r) => r.roundsToTarget !== null).length,
+      fewestBytesToTarget: rankLeast(rows, 'bytesToTarget'),
+      fewestUplinkBytesToTarget: rankLeast(rows, 'uplinkBytesToTarget'),
+      leastTimeToTarget: rankLeast(rows, 'secondsToTarget'),
+    },
   };
 }
-
-/** The columns of the printed and the HTML table; seconds are on the comparison's time basis. */
-export const tableColumns: Column[] = [
-  { name: 'variant' },
-  { name: 'stop' },
-  { name: 'rounds' },
-  { name: 'to target', unit: 'rounds' },
-  { name: 'payload to target', unit: 'kB' },
-  { name: 'uplink to target', unit: 'kB' },
-  { name: 'time to target', unit: 's' },
-  { name: 'floor measured' },
-  { name: 'rate measured' },
-  { name: 'rate predicted' },
-  { name: 'dropped', unit: 'updates' },
-];
 
 export const tableHeader = tableColumns.map(columnTitle);
 
 const bytesPerKilobyte = 1000;
-
-function kilobytes(bytes: number | null): number | null {
-  return bytes === null ? null : bytes / bytesPerKilobyte;
-}
+const KILOBYTE_KEYS = new Set<keyof CompareRow>(['bytesToTarget', 'uplinkBytesToTarget']);
 
 export function tableRows(c: Comparison): (string | number | null)[][] {
-  return c.rows.map((r) => [r.variant, r.stopReason, r.rounds, r.roundsToTarget, kilobytes(r.payloadBytesToTarget), kilobytes(r.uplinkPayloadBytesToTarget), r.secondsToTarget, r.floorMeasured, r.rateMeasured, r.ratePredicted, r.droppedUpdates]);
+  return c.variants.map((r) =>
+    tableKeys.map((k) => {
+      const v = r[k];
+      return KILOBYTE_KEYS.has(k) && typeof v === 'number' ? v / bytesPerKilobyte : v;
+    }),
+  );
 }
 
-/** The verdict lines: cheapest by bytes and fastest by time to target, or that none reached it. */
+function formatRatio(ratio: number): string {
+  return ratio >= 100 ? ratio.toFixed(0) : ratio.toPrecision(3);
+}
+
+/** One verdict line: the leader, its value, and how far ahead of the runner-up it is. */
+function rankingLine(title: string, r: Ranking, unit: string, fewer: string, times: string): string {
+  const value = `${formatNumber(r.value)} ${unit}`;
+  if (r.runnerUp === null) return `${title}: ${r.variant} (${value}; the only variant that reached the target)`;
+  if (r.margin === 0) return `${title}: ${r.variant} (${value}; tied with runner-up ${r.runnerUp.variant})`;
+  const ratio = r.ratio === null ? '' : `, which needs ${formatRatio(r.ratio)} times ${times}`;
+  return `${title}: ${r.variant} (${value}; ${formatNumber(r.margin)} ${unit} ${fewer} than runner-up ${r.runnerUp.variant}${ratio})`;
+}
+
+/** The verdict in words: how many reached the target and, among them, who needed the least. */
 export function verdictLines(c: Comparison): string[] {
-  if (c.cheapest === null) return [`none of the ${c.rows.length} variants reached the target ${formatNumber(c.target)}`];
-  const lines = [`cheapest by payload bytes to target (up and down): ${c.cheapest.variant} (${c.cheapest.value} bytes)`];
-  if (c.cheapestUplink !== null) lines.push(`cheapest by uplink payload bytes to target: ${c.cheapestUplink.variant} (${c.cheapestUplink.value} bytes)`);
-  if (c.fastest !== null) lines.push(`fastest by ${c.timeBasis} seconds to target: ${c.fastest.variant} (${formatNumber(c.fastest.value)} s)`);
+  const v = c.verdict;
+  const target = `the target f - f* <= ${formatNumber(c.target)}`;
+  if (v.reachedTarget === 0) return [`no variant reached ${target} within its rounds, so none is ranked`];
+  const lines = [`${v.reachedTarget} of ${c.variants.length} variants reached ${target}`];
+  if (v.fewestBytesToTarget !== null) lines.push(rankingLine('fewest bytes to target', v.fewestBytesToTarget, 'bytes', 'fewer', 'as many'));
+  if (v.fewestUplinkBytesToTarget !== null) lines.push(rankingLine('fewest uplink bytes to target', v.fewestUplinkBytesToTarget, 'bytes', 'fewer', 'as many'));
+  if (v.leastTimeToTarget !== null) lines.push(rankingLine(`least ${c.timeBasis} time to target`, v.leastTimeToTarget, 's', 'less', 'as long'));
   return lines;
 }
 
 export function formatComparison(c: Comparison, outDir: string): string {
   const basis = c.timeBasis === 'modelled' ? 'seconds are modelled (virtual clock)' : 'seconds are wall-clock';
   return [
-    `${c.scenario}: ${c.rows.length} variants, ${c.runtime}, target ${formatNumber(c.target)}; ${basis}`,
+    `${c.scenario}: ${c.variants.length} variants, ${c.runtime}, target ${formatNumber(c.target)}; bytes are payload bytes up and down; ${basis}`,
     '',
     formatTable(tableColumns, tableRows(c)),
     '',
@@ -176,7 +218,7 @@ function csvField(value: string | number | null): string {
 
 /** RFC 4180 CSV: CRLF line ends, fields quoted when they hold a comma, quote or line break. */
 export function comparisonCsv(c: Comparison): string {
-  const lines = [compareColumns.join(','), ...c.rows.map((r) => compareColumns.map((k) => csvField(r[k])).join(','))];
+  const lines = [compareColumns.join(','), ...c.variants.map((r) => compareColumns.map((k) => csvField(r[k])).join(','))];
   return `${lines.join('\r\n')}\r\n`;
 }
 

@@ -7,9 +7,13 @@ export type ReportErrorCode =
   | 'E_RESULTS_FILE'
   /** a results file does not hold what a run writes */
   | 'E_RESULTS_CONTENT'
-  /** a --vary option is malformed or gives no values */
-  | 'E_COMPARE_VARY'
-  /** nothing to compare, or more variants than the limit */
+  /** a --ladder option does not follow the grammar (colon, rungs, one value per field) */
+  | 'E_LADDER_SYNTAX'
+  /** a field moved by two ladders, or too many ladders */
+  | 'E_LADDER_FIELDS'
+  /** a rung the scenario rejects, a rung given twice, or too many rungs */
+  | 'E_LADDER_RUNG'
+  /** nothing to compare, more variants than the limit, or a combination of rungs the scenario rejects */
   | 'E_COMPARE_VARIANTS';
 
 export class ReportError extends CodedError<ReportErrorCode> {}

@@ -1,19 +1,14 @@
-// From a file (or text) and overrides to a complete, validated scenario.
+// From a file (or text) and tweaks to a complete, validated scenario.
 
 import { readFileSync } from 'node:fs';
 import type { Scenario } from './schema.js';
 import { parseScenarioText } from './parse-document.js';
-import { applyOverride, parseOverride } from './overrides.js';
+import { applyTweak, parseTweak, type Tweak } from './tweaks.js';
 import { validateScenario } from './validate-scenario.js';
 import { ScenarioError } from './scenario-error.js';
 
-export function scenarioFromText(text: string, sourceName: string, overrides: readonly string[] = []): Scenario {
-  let document = parseScenarioText(text, sourceName);
-  for (const o of overrides) document = applyOverride(document, parseOverride(o));
-  return validateScenario(document);
-}
-
-export function loadScenarioFile(file: string, overrides: readonly string[] = []): Scenario {
+/** Reads and parses a scenario file without validating it, so that variants of it can share the reading. */
+export function readScenarioDocument(file: string): unknown {
   let text: string;
   try {
     text = readFileSync(file, 'utf8');
@@ -21,5 +16,37 @@ export function loadScenarioFile(file: string, overrides: readonly string[] = []
     const code = (error as NodeJS.ErrnoException).code;
     throw new ScenarioError('E_SCENARIO_FILE', '', `${file}: cannot read the scenario (${code ?? (error as Error).message})`);
   }
-  return scenarioFromText(text, file, overrides);
+  return parseScenarioText(text, file);
+}
+
+function isUnder(fieldPath: string, ancestor: string): boolean {
+  return fieldPath === ancestor || fieldPath.startsWith(`${ancestor}.`) || fieldPath.startsWith(`${ancestor}[`);
+}
+
+/**
+ * Applies the tweaks in order and validates the result. When the last tweak to touch the failing
+ * field (set it, a mapping around it or a field inside it) came from the command line, the message
+ * names that tweak, so that the user knows which option to change.
+ */
+export function scenarioFromDocument(document: unknown, tweaks: readonly Tweak[] = []): Scenario {
+  let tweaked = document;
+  for (const t of tweaks) tweaked = applyTweak(tweaked, t);
+  try {
+    return validateScenario(tweaked);
+  } catch (error) {
+    if (!(error instanceof ScenarioError)) throw error;
+    const culprit = tweaks.filter((t) => isUnder(error.fieldPath, t.path.join('.')) || isUnder(t.path.join('.'), error.fieldPath)).at(-1);
+    if (culprit?.text === undefined) throw error;
+    throw new ScenarioError(error.code, error.fieldPath, `${error.detail} (from --tweak ${JSON.stringify(culprit.text)})`);
+  }
+}
+
+/** `tweaks` are command-line texts (`field:value`), applied in order. */
+export function scenarioFromText(text: string, sourceName: string, tweaks: readonly string[] = []): Scenario {
+  return scenarioFromDocument(parseScenarioText(text, sourceName), tweaks.map(parseTweak));
+}
+
+/** `tweaks` are command-line texts (`field:value`), applied in order. */
+export function loadScenarioFile(file: string, tweaks: readonly string[] = []): Scenario {
+  return scenarioFromDocument(readScenarioDocument(file), tweaks.map(parseTweak));
 }

@@ -193,6 +193,49 @@ export const runSchema = z
   })
   .strict();
 
+export const ladderLimits = {
+  laddersMax: 8,
+  /** fields one zipped ladder moves together */
+  fieldsMax: 8,
+  rungsMax: 100,
+} as const;
+
+const fieldPathPattern = /^[A-Za-z_][A-Za-z0-9_-]*(\.[A-Za-z_][A-Za-z0-9_-]*)*$/;
+const fieldPath = z
+  .string()
+  .refine((text) => fieldPathPattern.test(text), { message: 'expected a dotted field path such as method.name' })
+  .meta({ description: 'a dotted field path, e.g. method.localSteps', pattern: fieldPathPattern.source });
+
+/**
+ * A ladder moves one field (`field`) through its rungs, or several fields together (`fields`),
+ * rung by rung: then each rung is a list with one value per field. Values are checked when
+ * `roundwire compare` applies them, exactly as the same values in the file would be.
+ */
+export const ladderSchema = z
+  .object({
+    field: fieldPath.optional(),
+    fields: z.array(fieldPath).min(2).max(ladderLimits.fieldsMax).optional(),
+    rungs: z.array(z.unknown()).min(1).max(ladderLimits.rungsMax),
+  })
+  .strict()
+  .superRefine((ladder, ctx) => {
+    if ((ladder.field === undefined) === (ladder.fields === undefined)) {
+      ctx.addIssue({ code: 'custom', path: [], message: 'expected either field (one field) or fields (several fields moved together), not both or neither' });
+      return;
+    }
+    const fields = ladder.fields;
+    if (fields === undefined) return;
+    const twice = fields.find((f, i) => fields.indexOf(f) !== i);
+    if (twice !== undefined) ctx.addIssue({ code: 'custom', path: ['fields'], message: `${twice} is listed twice` });
+    ladder.rungs.forEach((rung, i) => {
+      if (!Array.isArray(rung) || rung.length !== fields.length) {
+        const given = Array.isArray(rung) ? `a list of ${rung.length}` : 'a single value';
+        ctx.addIssue({ code: 'custom', path: ['rungs', i], message: `expected a list of ${fields.length} values, one for each of ${fields.join(', ')}; got ${given}` });
+      }
+    });
+  });
+export type ScenarioLadder = z.output<typeof ladderSchema>;
+
 export const scenarioSchema = z
   .object({
     name: z.string().min(1).max(200),
@@ -218,12 +261,10 @@ export const scenarioSchema = z
     }),
     run: runSchema,
     /**
-     * Variants for `roundwire compare`: field path -> values. Every combination runs with the
-     * same seed; `roundwire run` runs the base scenario and ignores this.
+     * Variants for `roundwire compare`: every combination of one rung from each ladder runs with
+     * the same seed; `roundwire run` runs the base scenario and ignores this.
      */
-    sweep: z
-      .record(z.string().regex(/^[A-Za-z_][A-Za-z0-9_-]*(\.[A-Za-z_][A-Za-z0-9_-]*)*$/), z.array(z.union([z.number(), z.string(), z.boolean()])).min(1).max(100))
-      .optional(),
+    ladders: z.array(ladderSchema).max(ladderLimits.laddersMax).optional(),
   })
   .strict();
 

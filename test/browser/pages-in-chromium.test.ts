@@ -17,9 +17,9 @@ let context: BrowserContext | null = null;
 
 beforeAll(async () => {
   if (!existsSync(chromiumPath)) throw new Error(`${chromiumPath} is missing: install Debian's chromium package (the CI script does); these tests do not skip`);
-  const run = await runCli(['run', 'scenarios/quickstart.yaml', '--in-process', '--set', 'run.rounds=60', '--out', join(root, 'run')]);
+  const run = await runCli(['run', 'scenarios/quickstart.yaml', '--in-process', '--tweak', 'run.rounds:60', '--out', join(root, 'run')]);
   expect(run.code, run.stderr).toBe(0);
-  const compare = await runCli(['compare', 'scenarios/quickstart.yaml', '--vary', 'method.name=fedavg,fedlin', '--set', 'run.rounds=40', '--out', join(root, 'compare')]);
+  const compare = await runCli(['compare', 'scenarios/quickstart.yaml', '--ladder', 'method.name:fedavg/fedlin', '--tweak', 'run.rounds:40', '--out', join(root, 'compare')]);
   expect(compare.code, compare.stderr).toBe(0);
   context = await chromium.launchPersistentContext(join(root, 'chromium-profile'), { executablePath: chromiumPath, args: chromiumArgs, headless: true, viewport: { width: 1400, height: 1000 } });
 }, 120_000);

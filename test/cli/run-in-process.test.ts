@@ -52,7 +52,7 @@ describe('roundwire run --in-process', () => {
   it('names the reason when no prediction is made', async () => {
     const dir = mkdtempSync(join(tmpdir(), 'roundwire-run-'));
     try {
-      const r = await runCli(['run', 'scenarios/quickstart.yaml', '--in-process', '--json', '--out', dir, '--set', 'problem.kind=logistic', '--set', 'run.rounds=20']);
+      const r = await runCli(['run', 'scenarios/quickstart.yaml', '--in-process', '--json', '--out', dir, '--tweak', 'problem.kind:logistic', '--tweak', 'run.rounds:20']);
       expect(r.code).toBe(0);
       const outcome = JSON.parse(r.stdout);
       expect(outcome.prediction.available).toBe(false);

@@ -28,7 +28,7 @@ describe('roundwire theory', () => {
   // data with 20 clients (the certificate threshold 1e-10 is the design's requirement).
   for (const kind of ['logistic', 'softmax']) {
     it(`certifies the ${kind} optimum to a gradient norm of at most 1e-10 with 20 clients`, async () => {
-      const r = await runCli(['theory', 'scenarios/quickstart.yaml', '--json', '--set', `problem.kind=${kind}`, '--set', 'clients.count=20', '--set', 'data.minimizerSpread=0.5']);
+      const r = await runCli(['theory', 'scenarios/quickstart.yaml', '--json', '--tweak', `problem.kind:${kind}`, '--tweak', 'clients.count:20', '--tweak', 'data.minimizerSpread:0.5']);
       expect(r.stderr).toBe('');
       const report = JSON.parse(r.stdout);
       expect(report.clientCount).toBe(20);
@@ -110,10 +110,10 @@ describe('bad input exits with code 2 and one message naming the field', () => {
     expect(r.stderr).toMatch(/unknown option '--bogus'/);
   });
 
-  it('a malformed --set', async () => {
-    const r = await runCli(['theory', 'scenarios/quickstart.yaml', '--set', 'seed']);
+  it('a malformed --tweak', async () => {
+    const r = await runCli(['theory', 'scenarios/quickstart.yaml', '--tweak', 'seed']);
     expect(r.code).toBe(2);
-    expect(r.stderr).toMatch(/expected path=value/);
+    expect(r.stderr).toBe('roundwire: --tweak "seed": no colon; expected field:value, e.g. method.localSteps:10\n');
   });
 });
 

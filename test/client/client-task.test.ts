@@ -20,9 +20,9 @@ function bits(fields: EncodedFields): string {
 describe('clientTask snapshots', () => {
   it('continue a client bit for bit across fresh runtimes', () => {
     const scenario = loadScenarioFile(`${repoRoot}scenarios/quickstart.yaml`, [
-      'method.name=scaffold',
-      'compression.uplink.default={kind: top-k, fraction: 0.25}',
-      'compression.downlink.default={kind: top-k, fraction: 0.5}',
+      'method.name:scaffold',
+      'compression.uplink.default:{kind: top-k, fraction: 0.25}',
+      'compression.downlink.default:{kind: top-k, fraction: 0.5}',
     ]);
     const { plan } = planFor(scenario);
     const server = new ServerRuntime(plan);

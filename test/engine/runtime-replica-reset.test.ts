@@ -13,8 +13,8 @@ const text = readFileSync(new URL('../../scenarios/quickstart.yaml', import.meta
 describe('replica reset on both ends', () => {
   it('restarts both ends from zero, and the next message rebuilds the client replica exactly', () => {
     const scenario = scenarioFromText(text, 'quickstart.yaml', [
-      'compression.downlink.default={kind: top-k, fraction: 0.3, errorFeedback: true}',
-      'compression.uplink.fields={gradient: {kind: top-k, fraction: 0.3, errorFeedback: true}}',
+      'compression.downlink.default:{kind: top-k, fraction: 0.3, errorFeedback: true}',
+      'compression.uplink.fields:{gradient: {kind: top-k, fraction: 0.3, errorFeedback: true}}',
     ]);
     const { plan, theory } = planFor(scenario);
     const server = new ServerRuntime(plan);

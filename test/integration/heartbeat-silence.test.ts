@@ -59,7 +59,7 @@ describe('a worker that falls silent', () => {
   it('is lost after the silence limit and the run completes without it', async () => {
     const out = freshDir('silence');
     const keyFile = writeKeyFile(out, KEY);
-    const coordinator = new CliProcess(['coordinator', join(repoRoot, 'scenarios/quickstart.yaml'), '--listen', '127.0.0.1:0', '--key-file', keyFile, '--workers-min', '3', '--workers-wait-seconds', '40', '--heartbeat-silence-seconds', String(SILENCE_SECONDS), '--out', out, '--set', `run.rounds=${ROUNDS}`, '--set', 'run.target=0']);
+    const coordinator = new CliProcess(['coordinator', join(repoRoot, 'scenarios/quickstart.yaml'), '--listen', '127.0.0.1:0', '--key-file', keyFile, '--workers-min', '3', '--workers-wait-seconds', '40', '--heartbeat-silence-seconds', String(SILENCE_SECONDS), '--out', out, '--tweak', `run.rounds:${ROUNDS}`, '--tweak', 'run.target:0']);
     started.push(coordinator);
     const url = (await coordinator.waitForStderr(/listening on (ws:\/\/\S+)/, 30_000))[1];
     const steady = ['steady-1', 'steady-2'].map((name) => new CliProcess(['worker', url, '--key-file', keyFile, '--capacity', '3', '--name', name]));

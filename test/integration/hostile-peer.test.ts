@@ -19,7 +19,7 @@ import { validateScenario } from '../../src/scenario/validate-scenario.js';
 import { CliProcess, freshDir, repoRoot, writeKeyFile } from './cli-process.js';
 
 const KEY = 'a-key-for-the-hostile-peer-test';
-const OVERRIDES = ['run.rounds=3', 'run.target=0'];
+const TWEAKS = ['run.rounds:3', 'run.target:0'];
 const READ_LIMIT_BYTES = 64 * 1024 * 1024;
 
 type Plain = Record<string, unknown>;
@@ -50,7 +50,7 @@ describe('hostile peers', () => {
   it('a wrong key is refused before the plan; malformed frames get coded errors and change nothing', async () => {
     const out = freshDir('hostile');
     const keyFile = writeKeyFile(out, KEY);
-    const coordinator = new CliProcess(['coordinator', join(repoRoot, 'scenarios/quickstart.yaml'), '--listen', '127.0.0.1:0', '--key-file', keyFile, '--workers-min', '2', '--workers-wait-seconds', '40', '--out', out, ...OVERRIDES.flatMap((o) => ['--set', o])]);
+    const coordinator = new CliProcess(['coordinator', join(repoRoot, 'scenarios/quickstart.yaml'), '--listen', '127.0.0.1:0', '--key-file', keyFile, '--workers-min', '2', '--workers-wait-seconds', '40', '--out', out, ...TWEAKS.flatMap((o) => ['--tweak', o])]);
     started.push(coordinator);
     const url = (await coordinator.waitForStderr(/listening on (ws:\/\/\S+)/, 30_000))[1];
 
@@ -134,7 +134,7 @@ describe('hostile peers', () => {
     const summary = JSON.parse(readFileSync(join(out, 'outcome.json'), 'utf8')) as { protocolErrors: Record<string, number> };
     expect(summary.protocolErrors).toEqual({ E_AUTH: 1, E_DECODE: 1, E_ROUND: 1, E_CLIENT: 1, E_DIMENSION: 1, E_NOT_FINITE: 1, E_SIZE: 1 });
 
-    const clean = runInProcess(loadScenarioFile(join(repoRoot, 'scenarios/quickstart.yaml'), OVERRIDES));
+    const clean = runInProcess(loadScenarioFile(join(repoRoot, 'scenarios/quickstart.yaml'), TWEAKS));
     const expected = Buffer.alloc(clean.finalModel.length * 8);
     clean.finalModel.forEach((v, j) => expected.writeDoubleLE(v, j * 8));
     expect(readFileSync(join(out, 'model.f64')).equals(expected)).toBe(true);

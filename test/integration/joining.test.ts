@@ -40,7 +40,7 @@ describe('joining a coordinator on loopback', () => {
   it('writes a private key file, refuses a wrong key, and runs with a worker holding the right one', async () => {
     const dir = freshDir('joining');
     const out = join(dir, 'results');
-    const coordinator = start(['coordinator', join(repoRoot, 'scenarios/quickstart.yaml'), '--listen', '127.0.0.1:0', '--workers-min', '1', '--workers-wait-seconds', '40', '--out', out, '--set', 'run.rounds=3', '--set', 'run.target=0']);
+    const coordinator = start(['coordinator', join(repoRoot, 'scenarios/quickstart.yaml'), '--listen', '127.0.0.1:0', '--workers-min', '1', '--workers-wait-seconds', '40', '--out', out, '--tweak', 'run.rounds:3', '--tweak', 'run.target:0']);
     const keyPath = (await coordinator.waitForStderr(/key file: (\S+) \(/, 30_000))[1];
     const url = (await coordinator.waitForStderr(/listening on (ws:\/\/127\.0\.0\.1:\d+)/, 5_000))[1];
     // One line says where; the file is this user's alone, in a private folder of the temp dir.

@@ -11,7 +11,7 @@ describe('a worker killed mid-round', () => {
   it('is marked lost and the run completes with every round recorded', async () => {
     const out = freshDir('lost');
     // Wall clock, 20 ms steps: a round lasts about a tenth of a second, long enough to kill in.
-    const cli = new CliProcess(['run', join(repoRoot, 'scenarios/quickstart.yaml'), '--out', out, '--set', 'run.workers=4', '--set', 'run.rounds=30', '--set', 'run.target=0', '--set', 'timing.clock=wall', '--set', 'timing.stepCostSeconds=0.02']);
+    const cli = new CliProcess(['run', join(repoRoot, 'scenarios/quickstart.yaml'), '--out', out, '--tweak', 'run.workers:4', '--tweak', 'run.rounds:30', '--tweak', 'run.target:0', '--tweak', 'timing.clock:wall', '--tweak', 'timing.stepCostSeconds:0.02']);
     try {
       await cli.waitForStderr(/round 2\/30/, 30_000);
       const victim = cli.workerPids()[1];

@@ -116,7 +116,7 @@ async function startRun(prefix: string, extra: string[]): Promise<Run> {
   // Wall clock, 10 ms steps: quickstart's FedLin rounds last a few tenths of a second, long
   // enough to cut in, and the run a few seconds.
   const coordinator = start(['coordinator', join(repoRoot, 'scenarios/quickstart.yaml'), '--listen', '127.0.0.1:0', '--key-file', keyFile, '--workers-min', '3', '--out', out,
-    '--set', 'timing.clock=wall', '--set', 'timing.stepCostSeconds=0.01', ...extra]);
+    '--tweak', 'timing.clock:wall', '--tweak', 'timing.stepCostSeconds:0.01', ...extra]);
   const url = (await coordinator.waitForStderr(/listening on (ws:\/\/\S+)/, 20_000))[1];
   const relay = new Relay(Number(new URL(url).port));
   relays.push(relay);
@@ -148,8 +148,8 @@ describe('a worker whose connection drops mid-run', () => {
     // which a resume must start afresh on both ends; quickstart reaches its target so in under
     // 100 of its 150 rounds without a cut (measured with `roundwire run`).
     const run = await startRun('resume', ['--resume-grace-seconds', '10',
-      '--set', 'compression.uplink.default={kind: top-k, fraction: 0.5, errorFeedback: true}',
-      '--set', 'compression.downlink.default={kind: top-k, fraction: 0.5, errorFeedback: true}']);
+      '--tweak', 'compression.uplink.default:{kind: top-k, fraction: 0.5, errorFeedback: true}',
+      '--tweak', 'compression.downlink.default:{kind: top-k, fraction: 0.5, errorFeedback: true}']);
     await run.coordinator.waitForStderr(/round (?:[4-9]|[1-9]\d+)\//, 30_000);
     run.relay.cut();
     const disconnected = Number((await run.coordinator.waitForStderr(/worker "relayed" disconnected in round (\d+)/, 10_000))[1]);
@@ -189,7 +189,7 @@ describe('a worker whose connection drops mid-run', () => {
   }, 90_000);
 
   it('is marked lost when it does not come back within the grace, and the run completes', async () => {
-    const run = await startRun('resume-lost', ['--resume-grace-seconds', '1', '--set', 'run.rounds=120', '--set', 'run.target=0']);
+    const run = await startRun('resume-lost', ['--resume-grace-seconds', '1', '--tweak', 'run.rounds:120', '--tweak', 'run.target:0']);
     await run.coordinator.waitForStderr(/round (?:[4-9]|[1-9]\d+)\//, 30_000);
     run.relay.refusing = true;
     run.relay.cut();

@@ -22,15 +22,15 @@ function modelBytes(x: Float64Array): Buffer {
 describe('roundwire run (4 workers, 8 clients) equals runInProcess bit for bit', () => {
   for (const method of METHODS) {
     it(method, async () => {
-      const overrides = [`method.name=${method}`, 'run.rounds=3', 'run.workers=4', 'run.target=0'];
+      const tweaks = [`method.name:${method}`, 'run.rounds:3', 'run.workers:4', 'run.target:0'];
       const out = freshDir(`same-${method}`);
-      const run = new CliProcess(['run', join(repoRoot, 'scenarios/quickstart.yaml'), '--out', out, ...overrides.flatMap((o) => ['--set', o])]);
+      const run = new CliProcess(['run', join(repoRoot, 'scenarios/quickstart.yaml'), '--out', out, ...tweaks.flatMap((o) => ['--tweak', o])]);
       try {
         const exit = await run.exit(50_000);
         expect(exit.code, run.stderr).toBe(0);
         expect(run.workerPids()).toHaveLength(4);
         const distributed = readFileSync(join(out, 'model.f64'));
-        const engine = runInProcess(loadScenarioFile(join(repoRoot, 'scenarios/quickstart.yaml'), overrides));
+        const engine = runInProcess(loadScenarioFile(join(repoRoot, 'scenarios/quickstart.yaml'), tweaks));
         expect(distributed.equals(modelBytes(engine.finalModel))).toBe(true);
         expect(await survivorsAfter(run.workerPids(), 5_000)).toEqual([]);
       } finally {

@@ -50,7 +50,7 @@ describe('a coordinator serving wss://', () => {
     certFile = files.certFile;
     keyFile = writeKeyFile(dir, KEY);
     out = join(dir, 'results');
-    coordinator = new CliProcess(['coordinator', join(repoRoot, 'scenarios/quickstart.yaml'), '--listen', '127.0.0.1:0', '--key-file', keyFile, '--tls-cert', files.certFile, '--tls-key', files.keyFile, '--workers-wait-seconds', '40', '--out', out, '--set', 'run.rounds=5', '--set', 'run.target=0']);
+    coordinator = new CliProcess(['coordinator', join(repoRoot, 'scenarios/quickstart.yaml'), '--listen', '127.0.0.1:0', '--key-file', keyFile, '--tls-cert', files.certFile, '--tls-key', files.keyFile, '--workers-wait-seconds', '40', '--out', out, '--tweak', 'run.rounds:5', '--tweak', 'run.target:0']);
     started.push(coordinator);
     url = (await coordinator.waitForStderr(/listening on (\S+)/, 30_000))[1];
   }, 40_000);

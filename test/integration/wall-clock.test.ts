@@ -10,7 +10,7 @@ import { CliProcess, freshDir, readJsonLines, repoRoot } from './cli-process.js'
 describe('wall clock', () => {
   it('runs the quickstart in seconds and records compute, wait and transfer per client', async () => {
     const out = freshDir('wall');
-    const cli = new CliProcess(['run', join(repoRoot, 'scenarios/quickstart.yaml'), '--out', out, '--set', 'timing.clock=wall']);
+    const cli = new CliProcess(['run', join(repoRoot, 'scenarios/quickstart.yaml'), '--out', out, '--tweak', 'timing.clock:wall']);
     try {
       const exit = await cli.exit(50_000);
       expect(exit.code, cli.stderr).toBe(0);

@@ -20,29 +20,29 @@ import { CliProcess, freshDir, readJsonLines, repoRoot } from './cli-process.js'
 const SCENARIO = join(repoRoot, 'scenarios/quickstart.yaml');
 const ROUNDS = 8;
 const COMMON = [
-  'timing.clock=wall',
-  'timing.slowdown={kind: two-class, fraction: 0.25, factor: 10}',
-  'timing.policy={kind: fastest-k, k: 6}',
-  `run.rounds=${ROUNDS}`,
-  'run.target=0',
+  'timing.clock:wall',
+  'timing.slowdown:{kind: two-class, fraction: 0.25, factor: 10}',
+  'timing.policy:{kind: fastest-k, k: 6}',
+  `run.rounds:${ROUNDS}`,
+  'run.target:0',
 ];
 // At a slowdown factor of 10, a slow client's update comes 9 step costs per step after a fast
 // one's: 450 ms for FedAvg's 5 local steps of 10 ms, and for FedLin's one-step gradient
 // exchange with steps of 50 ms; well above the scheduling delays of a few processes sharing two
 // cores.
-const FEDAVG = [...COMMON, 'timing.stepCostSeconds=0.01', 'method.name=fedavg', 'method.stepPolicy=fixed'];
-const FEDLIN = [...COMMON, 'timing.stepCostSeconds=0.05'];
+const FEDAVG = [...COMMON, 'timing.stepCostSeconds:0.01', 'method.name:fedavg', 'method.stepPolicy:fixed'];
+const FEDLIN = [...COMMON, 'timing.stepCostSeconds:0.05'];
 
 /** The clients the scenario's speed model makes slow (slowdown above 1), from the model itself. */
-function slowClientIds(overrides: string[]): number[] {
-  const scenario = loadScenarioFile(SCENARIO, overrides);
+function slowClientIds(tweaks: string[]): number[] {
+  const scenario = loadScenarioFile(SCENARIO, tweaks);
   const slowdowns = drawSlowdowns(scenario.timing, scenario.clients.count, scenario.seed);
   return [...slowdowns.keys()].filter((id) => slowdowns[id] > 1);
 }
 
-async function run(name: string, overrides: string[]): Promise<{ rounds: RoundRecord[]; clients: ClientRoundRecord[] }> {
+async function run(name: string, tweaks: string[]): Promise<{ rounds: RoundRecord[]; clients: ClientRoundRecord[] }> {
   const out = freshDir(name);
-  const cli = new CliProcess(['run', SCENARIO, '--out', out, '--set', 'run.workers=2', ...overrides.flatMap((o) => ['--set', o])]);
+  const cli = new CliProcess(['run', SCENARIO, '--out', out, '--tweak', 'run.workers:2', ...tweaks.flatMap((o) => ['--tweak', o])]);
   try {
     const exit = await cli.exit(50_000);
     expect(exit.code, cli.stderr).toBe(0);
@@ -56,11 +56,11 @@ async function run(name: string, overrides: string[]): Promise<{ rounds: RoundRe
 
 describe('wall-clock fastest-k with two clients 10x slower', () => {
   it('FedAvg: the slow clients take part in every round and are dropped in every round after the first', async () => {
-    const overrides = FEDAVG;
-    const slow = slowClientIds(overrides);
+    const tweaks = FEDAVG;
+    const slow = slowClientIds(tweaks);
     // fraction 0.25 of 8 clients (the scenario's two-class definition).
     expect(slow).toHaveLength(2);
-    const { rounds, clients } = await run('wall-fastest-k-fedavg', overrides);
+    const { rounds, clients } = await run('wall-fastest-k-fedavg', tweaks);
     expect(rounds.map((r) => r.round)).toEqual(Array.from({ length: ROUNDS + 1 }, (_, i) => i));
     for (const r of rounds.slice(2)) {
       expect(r.dropped, `round ${r.round}`).toEqual(slow);
@@ -70,10 +70,10 @@ describe('wall-clock fastest-k with two clients 10x slower', () => {
   }, 60_000);
 
   it('FedLin: the slow clients are dropped at the gradient exchange and never do local work on a stale gradient', async () => {
-    const overrides = FEDLIN;
-    const slow = slowClientIds(overrides);
+    const tweaks = FEDLIN;
+    const slow = slowClientIds(tweaks);
     expect(slow).toHaveLength(2);
-    const { rounds, clients } = await run('wall-fastest-k-fedlin', overrides);
+    const { rounds, clients } = await run('wall-fastest-k-fedlin', tweaks);
     expect(rounds.map((r) => r.round)).toEqual(Array.from({ length: ROUNDS + 1 }, (_, i) => i));
     for (const r of rounds.slice(2)) expect(r.dropped, `round ${r.round}`).toEqual(slow);
     for (let round = 1; round <= ROUNDS; round++) {

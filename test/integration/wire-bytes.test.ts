@@ -16,9 +16,9 @@ interface SummaryBytes {
   distributed: { controlBytes: { wire: { up: number; down: number } }; socketBytes: { up: number; down: number } };
 }
 
-async function runAndRead(name: string, overrides: string[]): Promise<{ records: ClientRoundRecord[]; summary: SummaryBytes }> {
+async function runAndRead(name: string, tweaks: string[]): Promise<{ records: ClientRoundRecord[]; summary: SummaryBytes }> {
   const out = freshDir(name);
-  const run = new CliProcess(['run', join(repoRoot, 'scenarios/quickstart.yaml'), '--out', out, '--set', 'run.rounds=4', '--set', 'run.workers=2', ...overrides.flatMap((o) => ['--set', o])]);
+  const run = new CliProcess(['run', join(repoRoot, 'scenarios/quickstart.yaml'), '--out', out, '--tweak', 'run.rounds:4', '--tweak', 'run.workers:2', ...tweaks.flatMap((o) => ['--tweak', o])]);
   try {
     const exit = await run.exit(50_000);
     expect(exit.code, run.stderr).toBe(0);
@@ -56,7 +56,7 @@ describe('wire bytes = encoded bytes + RFC 6455 headers, from the sockets', () =
   }, 60_000);
 
   it('sparse top-k uplink messages', async () => {
-    const { records, summary } = await runAndRead('wire-sparse', ['compression.uplink.default={kind: top-k, fraction: 0.25}', 'method.name=fedavg']);
+    const { records, summary } = await runAndRead('wire-sparse', ['compression.uplink.default:{kind: top-k, fraction: 0.25}', 'method.name:fedavg']);
     checkFraming(records, summary);
     // A quarter of 20 entries, at 8 bytes a value plus an index byte each, against 160 dense.
     const ups = records.map((r) => r.bytes.payload.up);

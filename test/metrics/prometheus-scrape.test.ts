@@ -73,7 +73,7 @@ describe('Prometheus scraping a coordinator and a worker', () => {
   it('answers every dashboard query with data', async () => {
     const out = freshDir('metrics-prometheus');
     const keyFile = writeKeyFile(out, KEY);
-    const coordinator = start(['coordinator', join(repoRoot, 'scenarios/quickstart.yaml'), '--listen', '127.0.0.1:0', '--workers-min', '2', '--out', out, '--set', 'run.rounds=30', '--metrics', '127.0.0.1:0', '--metrics-linger', '60'], keyFile);
+    const coordinator = start(['coordinator', join(repoRoot, 'scenarios/quickstart.yaml'), '--listen', '127.0.0.1:0', '--workers-min', '2', '--out', out, '--tweak', 'run.rounds:30', '--metrics', '127.0.0.1:0', '--metrics-linger', '60'], keyFile);
     const coordinatorUrl = (await coordinator.waitForStderr(/listening on (ws:\/\/\S+)/, 30_000))[1];
     const coordinatorMetrics = new URL((await coordinator.waitForStderr(/metrics on (http:\/\/\S+)/, 5_000))[1]);
     const metered = start(['worker', coordinatorUrl, '--capacity', '8', '--name', 'metered', '--metrics', '127.0.0.1:0', '--metrics-linger', '60'], keyFile);

@@ -36,7 +36,7 @@ let families: Map<string, ParsedFamily>;
 
 beforeAll(async () => {
   const out = freshDir('metrics-run');
-  run = new CliProcess(['run', join(repoRoot, 'scenarios/quickstart.yaml'), '--out', out, '--set', 'run.rounds=30', '--metrics', '127.0.0.1:0', '--metrics-linger', String(LINGER_SECONDS)]);
+  run = new CliProcess(['run', join(repoRoot, 'scenarios/quickstart.yaml'), '--out', out, '--tweak', 'run.rounds:30', '--metrics', '127.0.0.1:0', '--metrics-linger', String(LINGER_SECONDS)]);
   const url = (await run.waitForStderr(/metrics on (http:\/\/127\.0\.0\.1:\d+\/metrics)/, 30_000))[1];
   await run.waitForStderr(/metrics: the run is over/, 50_000);
   const scraped = await fetchText(url);

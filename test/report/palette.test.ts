@@ -43,10 +43,10 @@ const dashText = (dash: readonly number[]) => dash.join(',');
 
 function runOf(method: MethodName): VariantOutcome {
   const dir = join(root, method);
-  const scenario = scenarioFromText(readFileSync('scenarios/quickstart.yaml', 'utf8'), 'quickstart.yaml', [`method.name=${method}`, 'run.rounds=4']);
+  const scenario = scenarioFromText(readFileSync('scenarios/quickstart.yaml', 'utf8'), 'quickstart.yaml', [`method.name:${method}`, 'run.rounds:4']);
   finishRun(runInProcess(scenario), 'in-process', dir);
   const results = readRunResults(dir);
-  return { variant: { index: METHOD_NAMES.indexOf(method), label: `name=${method}`, overrides: [], folderName: method }, summary: results.summary, rounds: results.rounds };
+  return { variant: { index: METHOD_NAMES.indexOf(method), label: `name:${method}`, folderName: method, rungs: [METHOD_NAMES.indexOf(method)], tweaks: [] }, summary: results.summary, rounds: results.rounds };
 }
 
 describe('the palette', () => {
@@ -87,12 +87,12 @@ describe('each method in its colour on every page', () => {
   });
 
   it('compare.html: each variant in its method colour', async () => {
-    const c = buildComparison('quickstart', 1e-10, [{ path: 'method.name', values: [...METHOD_NAMES] }], outcomes);
+    const c = buildComparison('quickstart', 1e-10, [{ fields: ['method.name'], rungs: METHOD_NAMES.map((m) => [m]) }], outcomes);
     const marks = lineMarks(await buildComparePage(c, outcomes));
     // three charts (rounds, payload bytes, seconds), one line a variant
     expect(marks).toHaveLength(3 * METHOD_NAMES.length);
     for (const m of marks) {
-      const method = m.fields.get('series')!.replace('name=', '') as MethodName;
+      const method = m.fields.get('series')!.replace('name:', '') as MethodName;
       expect(m.stroke, method).toBe(METHOD_COLOURS[method]);
       expect(m.dash, method).toBe(dashText(SOLID_DASH));
     }

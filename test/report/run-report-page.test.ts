@@ -17,16 +17,16 @@ afterAll(() => rmSync(root, { recursive: true, force: true }));
 const hostileName = `<script>alert("name")</script> & 'co'`;
 const hostileDescription = '<img src=x onerror=alert(1)>';
 
-function runInto(dir: string, overrides: string[]): string {
+function runInto(dir: string, tweaks: string[]): string {
   const text = readFileSync('scenarios/quickstart.yaml', 'utf8');
-  const scenario = scenarioFromText(text, 'quickstart.yaml', [`name=${JSON.stringify(hostileName)}`, `description=${JSON.stringify(hostileDescription)}`, 'run.rounds=60', ...overrides]);
+  const scenario = scenarioFromText(text, 'quickstart.yaml', [`name:${JSON.stringify(hostileName)}`, `description:${JSON.stringify(hostileDescription)}`, 'run.rounds:60', ...tweaks]);
   finishRun(runInProcess(scenario), 'in-process', dir);
   return dir;
 }
 
 describe('run report page', () => {
   const withPrediction = runInto(join(root, 'fedlin'), []);
-  const withoutPrediction = runInto(join(root, 'logistic'), ['problem.kind=logistic', 'run.rounds=20']);
+  const withoutPrediction = runInto(join(root, 'logistic'), ['problem.kind:logistic', 'run.rounds:20']);
 
   it('renders the same page twice from the same folder', async () => {
     const first = await writeRunReport(withPrediction);
