@@ -7,6 +7,7 @@ import { join } from 'node:path';
 import { loadScenarioFile } from '../scenario/load-scenario.js';
 import type { Scenario } from '../scenario/schema.js';
 import { runInProcess } from '../engine/in-process-engine.js';
+import { assertPlannable } from '../engine/run-plan.js';
 import { finishRun } from './run-report.js';
 import { runDistributed } from './run-distributed.js';
 import { readRunResults, reportFileName } from './report-command.js';
@@ -46,6 +47,7 @@ export function planComparison(file: string, options: Pick<CompareOptions, 'vary
   const base = loadScenarioFile(file, options.set);
   const axes = options.vary.length > 0 ? options.vary.map(parseVary) : sweepAxes(base);
   const variants = expandVariants(axes).map((variant) => ({ variant, scenario: loadScenarioFile(file, [...options.set, ...variant.overrides]) }));
+  for (const { scenario } of variants) assertPlannable(scenario);
   return { base, axes, variants };
 }
 

@@ -18,7 +18,7 @@ import { allFinite } from '../vec/kernels.js';
 import type { ClientRoundRecord, RoundRecord } from './round-record.js';
 import { assignmentsFor, isLocalWorkExchange, roundParticipants, type ClientAssignment } from './round-schedule.js';
 import type { RunPlan } from './run-plan.js';
-import type { StopReason } from './run-summary.js';
+import type { RunOutcome, StopReason } from './run-summary.js';
 import type { EncodedUpload, ServerRuntime } from './server-runtime.js';
 import { settleExchange } from './settle-exchange.js';
 import { ask, type ByteLayer, type ExchangeDown, type ExchangeRequest, type WalkRequest } from './walk-transport.js';
@@ -119,14 +119,8 @@ export interface RunWalkSetup extends WalkSetup {
   onRound?: (record: RoundRecord, clients: readonly ClientRoundRecord[]) => void;
 }
 
-export interface WalkedRun {
-  /** round 0 (the initial model), then one record per round walked */
-  rounds: RoundRecord[];
-  clients: ClientRoundRecord[];
-  finalModel: Float64Array;
-  stopReason: StopReason;
-  virtualSeconds: number;
-}
+/** A run's outcome as the walk knows it: round 0 (the initial model), then one record per round walked. */
+export type WalkedRun = Pick<RunOutcome, 'rounds' | 'clients' | 'finalModel' | 'stopReason'> & { virtualSeconds: number };
 
 function bytesOf(records: readonly ClientRoundRecord[], byteLayers: readonly ByteLayer[]): RoundRecord['bytes'] {
   const bytes: RoundRecord['bytes'] = { payload: { up: 0, down: 0 } };

@@ -107,3 +107,8 @@ export function freshDir(prefix: string): string {
 export function readJsonLines<T>(file: string): T[] {
   return readFileSync(file, 'utf8').split('\n').filter((l) => l.length > 0).map((l) => JSON.parse(l) as T);
 }
+
+/** Command-line arguments that override scenario fields (path -> YAML value): the one place that knows the flag's syntax. */
+export function overrideArgs(overrides: Readonly<Record<string, string>>): string[] {
+  return Object.entries(overrides).flatMap(([path, value]) => ['--set', `${path}=${value}`]);
+}
