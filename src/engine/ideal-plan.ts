@@ -3,6 +3,7 @@
 // map predicts from it, and the field-shape probe reads the method's fields from it.
 
 import type { Scenario } from '../scenario/schema.js';
+import { hashOf } from '../scenario/plan-hash.js';
 import type { RunPlan } from './run-plan.js';
 
 const exactChannel: Scenario['compression']['uplink'] = { default: { kind: 'none', errorFeedback: true, unbiased: false, values: 'f64' }, fields: {} };
@@ -13,5 +14,5 @@ export function idealPlan(plan: RunPlan): RunPlan {
     method: { ...plan.scenario.method, participation: 1 },
     compression: { uplink: exactChannel, downlink: exactChannel },
   };
-  return { ...plan, scenario };
+  return { ...plan, scenario, planHash: hashOf({ scenario, methodConfig: plan.methodConfig, dim: plan.dim }) };
 }

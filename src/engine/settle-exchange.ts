@@ -54,7 +54,7 @@ export function settleExchange(plan: RunPlan, order: ExchangeOrder, reply: Excha
       bytes: { payload: { up: arrived?.payloadBytes ?? 0, down: down.payloadBytes } },
       dropped: !counted,
     };
-    const layers = (arrived?.up ?? reply.returns.get(a.clientId))?.layers;
+    const layers = reply.returns.get(a.clientId)?.layers;
     for (const layer of byteLayers) record.bytes[layer] = { ...(layers?.[layer] ?? { up: 0, down: 0 }) };
     if (arrived !== undefined && t !== undefined) {
       const measured = arrived.up.measured;
