@@ -10,6 +10,7 @@ import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import type { RoundRecord } from '../../src/engine/round-record.js';
+import { resultFiles } from '../../src/results/results-folder.js';
 import { runCli } from '../cli/run-cli.js';
 import { freshDir, overrideArgs, readJsonLines } from './cli-process.js';
 
@@ -24,9 +25,9 @@ describe('a diverging run', () => {
       expect(r.code, r.stderr).toBe(0);
       expect((JSON.parse(r.stdout) as { stopReason: string }).stopReason).toBe('diverged');
     }
-    const rounds = (name: string) => readJsonLines<RoundRecord>(join(dir, name, 'rounds.jsonl')).map((r) => r.round);
+    const rounds = (name: string) => readJsonLines<RoundRecord>(join(dir, name, resultFiles.rounds)).map((r) => r.round);
     expect(rounds('distributed')).toEqual(rounds('in-process'));
     expect(rounds('in-process').length).toBeLessThan(201);
-    expect(readFileSync(join(dir, 'distributed', 'model.f64')).equals(readFileSync(join(dir, 'in-process', 'model.f64')))).toBe(true);
+    expect(readFileSync(join(dir, 'distributed', resultFiles.modelBinary)).equals(readFileSync(join(dir, 'in-process', resultFiles.modelBinary)))).toBe(true);
   }, 90_000);
 });

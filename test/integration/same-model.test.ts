@@ -6,9 +6,9 @@
 // cells). A covering sample runs here: every method meets every value of every other axis, and
 // every pair of policy and compression, of compression and participation, and of participation
 // and gradient occurs (checked below). Each cell is one `roundwire run` with 2 worker processes
-// over 127.0.0.1 hosting 8 clients; the in-process engine then runs the scenario.yaml that run
-// resolved, and model.f64, rounds.jsonl and clients.jsonl are compared (wall seconds aside, and
-// the encoded and wire byte layers, which only a network has).
+// over 127.0.0.1 hosting 8 clients; the in-process engine then runs the scenario that run
+// resolved (as its results folder holds it), and model.f64, rounds.jsonl and clients.jsonl are
+// compared (wall seconds aside, and the encoded and wire byte layers, which only a network has).
 
 import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
@@ -16,6 +16,7 @@ import { describe, expect, it } from 'vitest';
 import { loadScenarioFile } from '../../src/scenario/load-scenario.js';
 import { runInProcess } from '../../src/engine/in-process-engine.js';
 import { finishRun } from '../../src/commands/run-report.js';
+import { resultFiles } from '../../src/results/results-folder.js';
 import type { ClientRoundRecord, RoundRecord } from '../../src/engine/round-record.js';
 import { CliProcess, freshDir, overrideArgs, readJsonLines, repoRoot, survivorsAfter } from './cli-process.js';
 
@@ -132,11 +133,11 @@ describe(`roundwire run (${WORKERS} workers, ${CLIENTS} clients, ${ROUNDS} round
       }
 
       const inProcess = freshDir(`same-${cell.method}-in-process`);
-      finishRun(runInProcess(loadScenarioFile(join(out, 'scenario.yaml'))), 'in-process', inProcess);
-      expect(readFileSync(join(out, 'model.f64')).equals(readFileSync(join(inProcess, 'model.f64')))).toBe(true);
-      const rounds = readJsonLines<RoundRecord>(join(out, 'rounds.jsonl'));
-      expect(rounds.map(comparable)).toEqual(readJsonLines<RoundRecord>(join(inProcess, 'rounds.jsonl')).map(comparable));
-      expect(readJsonLines<ClientRoundRecord>(join(out, 'clients.jsonl')).map(comparable)).toEqual(readJsonLines<ClientRoundRecord>(join(inProcess, 'clients.jsonl')).map(comparable));
+      finishRun(runInProcess(loadScenarioFile(join(out, resultFiles.scenario))), 'in-process', inProcess);
+      expect(readFileSync(join(out, resultFiles.modelBinary)).equals(readFileSync(join(inProcess, resultFiles.modelBinary)))).toBe(true);
+      const rounds = readJsonLines<RoundRecord>(join(out, resultFiles.rounds));
+      expect(rounds.map(comparable)).toEqual(readJsonLines<RoundRecord>(join(inProcess, resultFiles.rounds)).map(comparable));
+      expect(readJsonLines<ClientRoundRecord>(join(out, resultFiles.clients)).map(comparable)).toEqual(readJsonLines<ClientRoundRecord>(join(inProcess, resultFiles.clients)).map(comparable));
 
       // The cell exercised what it names.
       expect(rounds.map((r) => r.round)).toEqual(Array.from({ length: ROUNDS + 1 }, (_, r) => r));
