@@ -12,7 +12,8 @@ import type { WirePlan } from '../src/engine/run-plan.js';
 import { clientObjective } from '../src/problem/problem-instance.js';
 import { hashOf } from '../src/scenario/plan-hash.js';
 import { compiledModulePath } from './compiled-module.js';
-import type { ClientTask, ClientTaskResult } from './client-task.js';
+import type { ClientTask, ClientTaskNonFinite, ClientTaskResult } from './client-task.js';
+import { CodedError } from '../src/coded-error.js';
 
 export interface HostedWork {
   clientId: number;
@@ -41,7 +42,7 @@ export class ClientHost {
   private readonly plan: WirePlan;
   private readonly planKey: string;
   private readonly inline: Map<number, ClientRuntime> | null;
-  private readonly pool: Piscina<ClientTask, ClientTaskResult> | null;
+  private readonly pool: Piscina<ClientTask, ClientTaskResult | ClientTaskNonFinite> | null;
   private readonly snapshots = new Map<number, ClientRuntimeSnapshot | null>();
   /** each client's last queued work, so the next waits for it */
   private readonly queues = new Map<number, Promise<unknown>>();
@@ -55,7 +56,7 @@ export class ClientHost {
     } else {
       this.inline = null;
       const threads = Math.max(1, Math.min(clientIds.length, options.threadsMax, availableParallelism()));
-      this.pool = new Piscina<ClientTask, ClientTaskResult>({ filename: compiledModulePath(import.meta.url, 'client-task.js'), minThreads: threads, maxThreads: threads });
+      this.pool = new Piscina<ClientTask, ClientTaskResult | ClientTaskNonFinite>({ filename: compiledModulePath(import.meta.url, 'client-task.js'), minThreads: threads, maxThreads: threads });
       for (const id of clientIds) this.snapshots.set(id, null);
     }
   }
@@ -105,6 +106,7 @@ export class ClientHost {
       return { ...result, measuredSeconds: (performance.now() - started) / 1000, queuedSeconds };
     }
     const result = await this.pool!.run({ plan: this.plan, planKey: this.planKey, snapshot: this.snapshots.get(job.clientId) ?? null, ...job });
+    if ('nonFinite' in result) throw new CodedError('E_NOT_FINITE', result.nonFinite);
     this.snapshots.set(job.clientId, result.snapshot);
     return { encodedUp: result.encodedUp, stepsTaken: result.stepsTaken, measuredSeconds: result.measuredSeconds, queuedSeconds };
   }

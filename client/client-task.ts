@@ -7,6 +7,7 @@ import { ClientRuntime, type ClientRuntimeSnapshot, type EncodedFields } from '.
 import type { WirePlan } from '../src/engine/run-plan.js';
 import type { Objective } from '../src/problem/objective.js';
 import { clientObjective } from '../src/problem/problem-instance.js';
+import { hasErrorCode } from '../src/coded-error.js';
 
 export interface ClientTask {
   plan: WirePlan;
@@ -30,6 +31,14 @@ export interface ClientTaskResult {
   measuredSeconds: number;
 }
 
+/**
+ * A client whose update is no longer finite (it diverged). Said as data: an error's code does
+ * not survive the trip back from a pool thread, and the coordinator needs it to stop the run.
+ */
+export interface ClientTaskNonFinite {
+  nonFinite: string;
+}
+
 /** Objectives kept per thread; a worker hosts at most its capacity's worth. */
 const OBJECTIVE_CACHE_ENTRIES_MAX = 1024;
 const objectives = new Map<string, Objective>();
@@ -45,11 +54,17 @@ function objectiveFor(task: ClientTask): Objective {
   return objective;
 }
 
-export default function clientTask(task: ClientTask): ClientTaskResult {
+export default function clientTask(task: ClientTask): ClientTaskResult | ClientTaskNonFinite {
   const runtime = new ClientRuntime(task.plan, task.clientId, objectiveFor(task));
   if (task.snapshot !== null) runtime.restore(task.snapshot);
   const started = performance.now();
-  const result = runtime.work(task.round, task.exchange, task.encodedDown, task.localSteps, task.stepSize);
+  let result;
+  try {
+    result = runtime.work(task.round, task.exchange, task.encodedDown, task.localSteps, task.stepSize);
+  } catch (error) {
+    if (hasErrorCode(error, 'E_NOT_FINITE')) return { nonFinite: (error as Error).message };
+    throw error;
+  }
   const measuredSeconds = (performance.now() - started) / 1000;
   return { snapshot: runtime.snapshot(), encodedUp: result.encodedUp, stepsTaken: result.stepsTaken, measuredSeconds };
 }

@@ -25,7 +25,8 @@ import {
 } from '../src/protocol/index.js';
 import type { EncodedFields } from '../src/engine/client-runtime.js';
 import type { WirePlan } from '../src/engine/run-plan.js';
-import { encodedPayloadBytes } from '../src/engine/in-process-engine.js';
+import { fieldsPayloadBytes } from '../src/compress/payload-bytes.js';
+import { hasErrorCode } from '../src/coded-error.js';
 import { methodByName } from '../src/algorithm/registry.js';
 import { validateScenario } from '../src/scenario/validate-scenario.js';
 import { speedModelFor } from '../src/timing/round-speed.js';
@@ -326,12 +327,12 @@ export class Worker {
 
   private async answer(hosting: Hosting, message: DownMessage, encodedDown: EncodedFields): Promise<void> {
     const { clientId, round, exchange } = message;
-    const downSeconds = await hosting.link.received(encodedPayloadBytes(encodedDown));
+    const downSeconds = await hosting.link.received(fieldsPayloadBytes(encodedDown));
     const result = await hosting.host.work({ clientId, round, exchange, encodedDown, localSteps: message.localSteps, stepSize: message.stepSize });
     const computeSeconds = await hosting.pacer.pace(clientId, round, result.stepsTaken, result.measuredSeconds);
     const fields: WireFields = {};
     for (const [name, cv] of Object.entries(result.encodedUp)) fields[name] = toWire(cv, `up.fields.${name}`);
-    const upSeconds = await hosting.link.beforeSend(encodedPayloadBytes(result.encodedUp));
+    const upSeconds = await hosting.link.beforeSend(fieldsPayloadBytes(result.encodedUp));
     this.options.metrics?.clientWorked(clientId, computeSeconds, result.stepsTaken);
     this.options.metrics?.linkDelay('down', downSeconds);
     this.options.metrics?.linkDelay('up', upSeconds);
@@ -350,9 +351,12 @@ export class Worker {
     });
   }
 
-  /** A client that cannot answer (a diverged update, a method fault) tells the coordinator why. */
+  /**
+   * A client that cannot answer tells the coordinator why; a diverged update (E_NOT_FINITE)
+   * stops the run there as it does in the engine.
+   */
   private reportFailure(message: DownMessage, error: Error): void {
-    const code = error instanceof ProtocolError ? error.code : 'E_TYPE';
+    const code = error instanceof ProtocolError ? error.code : hasErrorCode(error, 'E_NOT_FINITE') ? 'E_NOT_FINITE' : 'E_TYPE';
     const limit = this.hosting?.limits.maxErrorMessageLength ?? HANDSHAKE_LIMITS.maxErrorMessageLength;
     this.options.log(`client ${message.clientId}, round ${message.round} (${message.exchange}) failed: ${error.message}`);
     this.send({ type: 'error', code, message: `client ${message.clientId}, round ${message.round}, exchange ${message.exchange}: ${error.message}`.slice(0, limit) });

@@ -1,12 +1,17 @@
 // The vectors each exchange of a method moves, with their dimensions, for validating what a
-// worker sends. Methods do not declare their fields; the coordinator learns them by driving a
-// throwaway copy of the method through one round with a single client (one local step, full
-// gradient), so the table can never drift from what the method really sends.
+// worker sends. Methods do not declare their fields; the coordinator reads them off one round of
+// the round walk itself (src/engine/round-walk.ts) over the plan's ideal twin, with client 0
+// alone taking one local step, so the table can never drift from what a run really sends.
 
 import type { Objective } from '../src/problem/objective.js';
 import type { FieldDims } from '../src/protocol/index.js';
 import type { RunPlan } from '../src/engine/run-plan.js';
-import { methodByName } from '../src/algorithm/registry.js';
+import { ClientRuntime, type EncodedFields } from '../src/engine/client-runtime.js';
+import { DirectTransport } from '../src/engine/direct-transport.js';
+import { idealPlan } from '../src/engine/ideal-plan.js';
+import { walkRound, walkSetup } from '../src/engine/round-walk.js';
+import { ServerRuntime } from '../src/engine/server-runtime.js';
+import { driveSync, type ExchangeOrder, type ExchangeReply } from '../src/engine/walk-transport.js';
 
 export interface FieldShapes {
   /** exchange -> field -> dimension, server to worker */
@@ -15,26 +20,34 @@ export interface FieldShapes {
   up: FieldDims;
 }
 
-function dimsOf(fields: Record<string, Float64Array>): Record<string, number> {
+function dimsOf(fields: EncodedFields): Record<string, number> {
   const out: Record<string, number> = {};
-  for (const [name, v] of Object.entries(fields)) out[name] = v.length;
+  for (const [name, cv] of Object.entries(fields)) out[name] = cv.dim;
   return out;
 }
 
-/** Probes the plan's method with `objective` (any client's; only its dimension matters). */
-export function fieldShapesFor(plan: RunPlan, objective: Objective): FieldShapes {
-  const method = methodByName(plan.scenario.method.name);
-  const server = method.initServer(plan.dim, plan.methodConfig, new Float64Array(plan.dim));
-  const client = method.initClient(plan.dim, plan.methodConfig, 0);
-  const down: Record<string, Record<string, number>> = {};
-  const up: Record<string, Record<string, number>> = {};
-  const stepSize = plan.methodConfig.stepSize;
-  for (const exchange of method.exchanges) {
-    const sent = method.broadcast(server, exchange);
-    down[exchange] = dimsOf(sent);
-    const returned = method.work(client, objective, sent, { localSteps: 1, stepSize, sampler: null }, exchange);
-    up[exchange] = dimsOf(returned);
-    method.aggregate(server, [{ clientId: 0, weight: 1, localSteps: 1, stepSize, fields: returned }], exchange);
+/** Direct calls to client 0 that note the fields crossing each way. */
+class ShapeProbe extends DirectTransport {
+  readonly down: Record<string, Record<string, number>> = {};
+  readonly up: Record<string, Record<string, number>> = {};
+
+  override exchange(order: ExchangeOrder): ExchangeReply {
+    const reply = super.exchange(order);
+    for (const { assignment, encodedDown } of order.downs) {
+      this.down[order.exchange] = dimsOf(encodedDown);
+      const returned = reply.returns.get(assignment.clientId);
+      if (returned?.kind === 'up') this.up[order.exchange] = dimsOf(returned.encodedUp);
+    }
+    return reply;
   }
-  return { down, up };
+}
+
+/** Probes the plan's method with `objective` (client 0's; only its dimension matters). */
+export function fieldShapesFor(plan: RunPlan, objective: Objective): FieldShapes {
+  const ideal = idealPlan(plan);
+  // One step under a policy that keeps it: the probe's cost stays that of one gradient.
+  const probePlan: RunPlan = { ...ideal, scenario: { ...ideal.scenario, timing: { ...ideal.scenario.timing, policy: { kind: 'all' } } }, plannedSteps: new Int32Array(plan.clientCount).fill(1) };
+  const probe = new ShapeProbe([new ClientRuntime(probePlan, 0, objective)]);
+  driveSync(walkRound(walkSetup(probePlan, new ServerRuntime(probePlan)), 1), probe);
+  return { down: probe.down, up: probe.up };
 }

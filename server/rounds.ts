@@ -1,22 +1,22 @@
-// The round state machine: the same walk as the in-process engine (runInProcess), over the
-// network. Per round: participants; per exchange: broadcast, one down per client (its own
-// downlink replica), wait for the ups, decide timing and drops, aggregate in ascending client
-// id; then evaluate. With the virtual clock every decision comes from the models, exactly as
-// decideRound makes it in the engine, so the final model is the engine's bit for bit. With the
-// wall clock, fastest-k counts the first k arrivals and a deadline counts what arrived in time.
+// The coordinator's transport for the round walk (src/engine/round-walk.ts). The walk decides
+// what a round is: participants, tau_i and eta_i, the downs, timing and drops, aggregation in
+// ascending client id, divergence and the records, exactly as in the in-process engine, which is
+// why a virtual-clock run ends on the engine's model bit for bit. This file carries it over the
+// WebSocket sessions: a down per client through its worker's session, an ExchangeWait for the
+// ups under the clock's closing rules (wall clock: fastest-k closes at the first k arrivals, a
+// deadline at its time), the byte ledger, and the workers that leave, come back or go silent.
 
 import type { RunPlan } from '../src/engine/run-plan.js';
-import { ServerRuntime, type EncodedUpload } from '../src/engine/server-runtime.js';
+import { ServerRuntime } from '../src/engine/server-runtime.js';
 import type { EncodedFields } from '../src/engine/client-runtime.js';
-import { assignmentsFor, isLocalWorkExchange, roundParticipants, type ClientAssignment } from '../src/engine/round-schedule.js';
+import type { ClientAssignment } from '../src/engine/round-schedule.js';
 import type { ClientRoundRecord, RoundRecord } from '../src/engine/round-record.js';
 import type { Evaluation } from '../src/engine/evaluate.js';
-import { encodedPayloadBytes } from '../src/engine/in-process-engine.js';
+import { walkRun, walkSetup, type WalkedRun } from '../src/engine/round-walk.js';
+import { driveAsync, type ClientReturn, type ExchangeOrder, type ExchangeReply, type RoundTransport } from '../src/engine/walk-transport.js';
 import { payloadBytes } from '../src/compress/payload-bytes.js';
-import { speedModelFor, type SpeedModel } from '../src/timing/round-speed.js';
-import { decideRound, type RoundParticipant, type RoundTiming } from '../src/timing/round-policy.js';
+import { policyForUpdates } from '../src/timing/round-policy.js';
 import { downlinkSecondsFor, uplinkSecondsFor } from '../src/timing/links.js';
-import { VirtualClock } from '../src/timing/virtual-clock.js';
 import { ProtocolError, fromWire, toWire, type UpMessage, type WireFields } from '../src/protocol/index.js';
 import type { ByteLedger } from './byte-ledger.js';
 import { ExchangeWait, type CloseRule } from './exchange-wait.js';
@@ -45,13 +45,7 @@ export interface RoundDriverOptions {
   onRoundRecords?: (record: RoundRecord, clients: readonly ClientRoundRecord[]) => void;
 }
 
-export interface RoundsResult {
-  rounds: RoundRecord[];
-  clients: ClientRoundRecord[];
-  finalModel: Float64Array;
-  stopReason: StopReason;
-  virtualSeconds: number;
-}
+export type RoundsResult = WalkedRun;
 
 interface Owed {
   wait: ExchangeWait;
@@ -60,29 +54,16 @@ interface Owed {
   record: ClientRoundRecord | null;
 }
 
+/** The encoded and wire bytes of a down as sent (0 when its client's worker was away). */
 interface SentDown {
-  payloadBytes: number;
   encodedBytes: number;
   wireBytes: number;
 }
 
-function layerSum(records: readonly ClientRoundRecord[]): RoundRecord['bytes'] {
-  const bytes = { payload: { up: 0, down: 0 }, encoded: { up: 0, down: 0 }, wire: { up: 0, down: 0 } };
-  for (const r of records) {
-    for (const layer of ['payload', 'encoded', 'wire'] as const) {
-      bytes[layer].up += r.bytes[layer]?.up ?? 0;
-      bytes[layer].down += r.bytes[layer]?.down ?? 0;
-    }
-  }
-  return bytes;
-}
-
-export class RoundDriver {
+export class RoundDriver implements RoundTransport<'async'> {
   private readonly options: RoundDriverOptions;
   private readonly plan: RunPlan;
   private readonly server: ServerRuntime;
-  private readonly speed: SpeedModel;
-  private readonly clock = new VirtualClock();
   private readonly owed = new Map<number, Owed>();
   /** per client, an up still owed to a closed wait when a newer down replaced it (it may yet arrive, late) */
   private readonly superseded = new Map<number, Owed>();
@@ -96,7 +77,6 @@ export class RoundDriver {
     this.options = options;
     this.plan = options.plan;
     this.server = new ServerRuntime(options.plan);
-    this.speed = speedModelFor(options.plan.scenario.timing, options.plan.clientCount, options.plan.scenario.seed);
     this.wall = options.plan.scenario.timing.clock === 'wall';
   }
 
@@ -174,7 +154,7 @@ export class RoundDriver {
     for (const id of clientIds) this.server.resetReplicas(id);
   }
 
-  /** A worker reported a non-finite update: the run diverged, as the engine's aggregate would find. */
+  /** A worker reported a non-finite update: the run diverged, as the engine's walk would find. */
   divergenceReported(): void {
     this.current?.diverge();
   }
@@ -185,25 +165,59 @@ export class RoundDriver {
     this.current?.abort();
   }
 
+  /** Runs every round; resolves when the run stops. */
+  run(wallSecondsNow: () => number): Promise<RoundsResult> {
+    const onRound = (record: RoundRecord, clients: readonly ClientRoundRecord[]): void => {
+      this.options.onRoundRecords?.(record, clients);
+      this.options.onRound?.(record);
+    };
+    return driveAsync(walkRun({ ...walkSetup(this.plan, this.server, ['encoded', 'wire']), wallSeconds: wallSecondsNow, onRound }), this);
+  }
+
+  async openRound(round: number): Promise<StopReason | null> {
+    await this.options.untilConnected?.();
+    if (this.stopRequested) return 'stopped';
+    this.round = round;
+    return null;
+  }
+
   /**
-   * A client still owing the up of a closed wait (too slow for fastest-k, past a deadline) takes
-   * part too: its new down supersedes the discarded work, so that it works from the current
-   * model as in the engine, and the worker withholds the superseded up. A client whose worker is
-   * disconnected takes part as well and is dropped at once (sendDowns), so that the round's
-   * records show it missing rather than absent.
+   * Every client still in the run. A client still owing the up of a closed wait (too slow for
+   * fastest-k, past a deadline) takes part too: its new down supersedes the discarded work, so
+   * that it works from the current model as in the engine, and the worker withholds the
+   * superseded up. A client whose worker is disconnected takes part as well and is missing at
+   * once (sendDowns), so that the round's records show it missing rather than absent.
    */
-  private participantsOf(round: number, excluded: ReadonlySet<number>): number[] {
-    const out: number[] = [];
-    for (const id of roundParticipants(this.plan, round)) {
-      if (this.options.registry.isClientInRun(id) && !excluded.has(id)) out.push(id);
-    }
-    return out;
+  members(_round: number, _exchange: string, candidates: readonly number[]): number[] {
+    return candidates.filter((id) => this.options.registry.isClientInRun(id));
+  }
+
+  async exchange(order: ExchangeOrder): Promise<ExchangeReply> {
+    const assignments = order.downs.map((d) => d.assignment);
+    const clientIds = assignments.map((a) => a.clientId);
+    const wait = new ExchangeWait(order.round, order.exchange, clientIds, this.closeRuleFor(assignments, this.options.nowMs()), this.options.exchangeTimeoutSeconds, this.options.nowMs);
+    this.current = wait;
+    const sent = this.sendDowns(order, wait);
+    await wait.done;
+    this.current = null;
+    return this.replyOf(order, wait, sent);
+  }
+
+  /** The last round is this one once no worker is left, or a stop was asked for. */
+  closeRound(): StopReason | null {
+    const registry = this.options.registry;
+    if (registry.activeSessions().length === 0 && registry.disconnectedSessions().length === 0) return 'workers-lost';
+    return this.stopRequested ? 'stopped' : null;
+  }
+
+  evaluate(model: Float64Array): Promise<Evaluation> {
+    return this.options.evaluate(model);
   }
 
   private closeRuleFor(assignments: readonly ClientAssignment[], sentMs: number): CloseRule {
-    const policy = this.plan.scenario.timing.policy;
     if (!this.wall) return { kind: 'all' };
-    if (policy.kind === 'fastest-k') return { kind: 'first-k', k: Math.min(policy.k, assignments.length) };
+    const policy = policyForUpdates(this.plan.scenario.timing.policy, assignments.length);
+    if (policy.kind === 'fastest-k') return { kind: 'first-k', k: policy.k };
     if (policy.kind === 'deadline') {
       const links = this.plan.scenario.timing.links;
       const denseBytes = this.plan.dim * 8 * 4;
@@ -213,21 +227,18 @@ export class RoundDriver {
     return { kind: 'all' };
   }
 
-  private sendDowns(round: number, exchange: string, assignments: readonly ClientAssignment[], wait: ExchangeWait): Map<number, SentDown> {
-    const broadcast = this.server.broadcast(exchange);
+  private sendDowns(order: ExchangeOrder, wait: ExchangeWait): Map<number, SentDown> {
+    const { round, exchange } = order;
     const policy = this.plan.scenario.timing.policy;
     const deadlineSeconds = policy.kind === 'deadline' ? policy.budgetSeconds : null;
     const sent = new Map<number, SentDown>();
-    for (const a of assignments) {
-      const encodedDown = this.server.encodeDown(a.clientId, round, exchange, broadcast);
+    for (const { assignment: a, encodedDown } of order.downs) {
       const fields: WireFields = {};
       const fieldPayloadBytes: Record<string, number> = {};
       for (const [name, cv] of Object.entries(encodedDown)) {
         fields[name] = toWire(cv, `down.fields.${name}`);
         fieldPayloadBytes[name] = payloadBytes(cv);
       }
-      const down: SentDown = { payloadBytes: encodedPayloadBytes(encodedDown), encodedBytes: 0, wireBytes: 0 };
-      sent.set(a.clientId, down);
       const session = this.options.registry.hostOfClient(a.clientId);
       if (session === null) {
         wait.lose(a.clientId);
@@ -237,174 +248,39 @@ export class RoundDriver {
       if (earlier !== undefined) this.superseded.set(a.clientId, earlier);
       this.owed.set(a.clientId, { wait, assignment: a, record: null });
       const bytes = session.send({ type: 'down', round, exchange, clientId: a.clientId, localSteps: a.localSteps, stepSize: a.stepSize, fields, deadlineSeconds });
-      down.encodedBytes = bytes.encodedBytes;
-      down.wireBytes = bytes.wireBytes;
+      sent.set(a.clientId, bytes);
       this.options.ledger.recordRoundMessage('down', a.clientId, fieldPayloadBytes, bytes.encodedBytes, bytes.wireBytes);
     }
     return sent;
   }
 
-  /** Timing as the models account it, over the clients whose up arrived in time. */
-  private modelledTiming(assignments: readonly ClientAssignment[], wait: ExchangeWait, downs: Map<number, SentDown>): RoundTiming {
-    const inputs: RoundParticipant[] = [];
-    for (const a of assignments) {
+  /** What came back in a closed wait, with the bytes each way at the codec and socket layers. */
+  private replyOf(order: ExchangeOrder, wait: ExchangeWait, sent: ReadonlyMap<number, SentDown>): ExchangeReply {
+    const returns = new Map<number, ClientReturn>();
+    for (const { assignment: a } of order.downs) {
+      const down = sent.get(a.clientId) ?? { encodedBytes: 0, wireBytes: 0 };
       const arrival = wait.arrivals.get(a.clientId);
-      if (arrival === undefined) continue;
-      inputs.push({ clientId: a.clientId, stepSeconds: a.stepSeconds, plannedSteps: a.localSteps, stepsTaken: arrival.message.localSteps, downBytes: downs.get(a.clientId)!.payloadBytes, upBytes: arrival.payloadBytes });
+      const layers = {
+        encoded: { up: arrival?.encodedBytes ?? 0, down: down.encodedBytes },
+        wire: { up: arrival?.wireBytes ?? 0, down: down.wireBytes },
+      };
+      if (arrival === undefined) {
+        returns.set(a.clientId, { kind: 'missing', layers });
+        continue;
+      }
+      const m = arrival.message;
+      // Wall clock: the seconds are the worker's, plus the idle time until the wait closed.
+      const measured = this.wall ? { computeSeconds: m.computeSeconds, transferSeconds: m.transferSeconds, waitSeconds: m.waitSeconds + Math.max(0, wait.closedMs - arrival.arrivedMs) / 1000 } : undefined;
+      returns.set(a.clientId, { kind: 'up', encodedUp: arrival.encodedUp, stepsTaken: m.localSteps, layers, measured });
     }
-    if (inputs.length === 0) return { participants: [], roundSeconds: 0 };
-    const policy = this.plan.scenario.timing.policy;
-    // Lost clients shrink the round; fastest-k then counts at most everyone left.
-    const effective = policy.kind === 'fastest-k' ? { ...policy, k: Math.min(policy.k, inputs.length) } : policy;
-    return decideRound(effective, this.plan.scenario.timing.links, inputs);
+    return { returns, diverged: wait.cause === 'diverged', recorded: (records) => this.keepForLateUps(wait, records) };
   }
 
-  /** Records, drops and the counted uploads of a closed exchange. */
-  private settleExchange(round: number, exchange: string, assignments: readonly ClientAssignment[], wait: ExchangeWait, downs: Map<number, SentDown>) {
-    const timing = this.modelledTiming(assignments, wait, downs);
-    const byId = new Map(timing.participants.map((t) => [t.clientId, t]));
-    const counted = new Set<number>();
-    if (this.wall && wait.cause === 'first-k') {
-      for (const id of wait.arrivalOrder) counted.add(id);
-    } else {
-      for (const t of timing.participants) if (!t.dropped) counted.add(t.clientId);
+  /** A client that owes this wait's up keeps its record, for a late up's bytes and seconds. */
+  private keepForLateUps(wait: ExchangeWait, records: readonly ClientRoundRecord[]): void {
+    for (const record of records) {
+      const owed = this.owed.get(record.clientId);
+      if (owed !== undefined && owed.wait === wait && !wait.arrivals.has(record.clientId)) owed.record = record;
     }
-    const records: ClientRoundRecord[] = [];
-    const uploads: EncodedUpload[] = [];
-    for (const a of assignments) {
-      const down = downs.get(a.clientId)!;
-      const arrival = wait.arrivals.get(a.clientId);
-      const t = byId.get(a.clientId);
-      const isCounted = counted.has(a.clientId);
-      const record: ClientRoundRecord = {
-        round,
-        exchange,
-        clientId: a.clientId,
-        localSteps: t?.localSteps ?? a.localSteps,
-        computeSeconds: 0,
-        waitSeconds: 0,
-        transferSeconds: 0,
-        bytes: {
-          payload: { up: arrival?.payloadBytes ?? 0, down: down.payloadBytes },
-          encoded: { up: arrival?.encodedBytes ?? 0, down: down.encodedBytes },
-          wire: { up: arrival?.wireBytes ?? 0, down: down.wireBytes },
-        },
-        dropped: !isCounted,
-      };
-      if (arrival !== undefined && t !== undefined) {
-        if (this.wall) {
-          record.computeSeconds = arrival.message.computeSeconds;
-          record.transferSeconds = arrival.message.transferSeconds;
-          record.waitSeconds = arrival.message.waitSeconds + (isCounted ? Math.max(0, wait.closedMs - arrival.arrivedMs) / 1000 : 0);
-        } else {
-          record.computeSeconds = t.computeSeconds;
-          record.transferSeconds = t.downSeconds + t.upSeconds;
-          record.waitSeconds = isCounted ? t.waitSeconds : 0;
-        }
-        if (isCounted) uploads.push({ clientId: a.clientId, stepsTaken: arrival.message.localSteps, stepSize: a.stepSize, encodedUp: arrival.encodedUp });
-      } else {
-        const owed = this.owed.get(a.clientId);
-        if (owed !== undefined && owed.wait === wait) owed.record = record;
-      }
-      records.push(record);
-    }
-    return { records, uploads, roundSeconds: timing.roundSeconds };
-  }
-
-  /** Runs every round; resolves when the run stops. */
-  async run(wallSecondsNow: () => number): Promise<RoundsResult> {
-    const scenario = this.plan.scenario;
-    const exchanges = this.server.method.exchanges;
-    const initial = await this.options.evaluate(this.server.model());
-    const rounds: RoundRecord[] = [
-      { round: 0, suboptimality: initial.suboptimality, distance: initial.distance, bytes: { payload: { up: 0, down: 0 }, encoded: { up: 0, down: 0 }, wire: { up: 0, down: 0 } }, localSteps: {}, dropped: [], roundSeconds: 0, virtualSeconds: 0, wallSeconds: wallSecondsNow() },
-    ];
-    this.options.onRoundRecords?.(rounds[0], []);
-    const clients: ClientRoundRecord[] = [];
-    let stopReason: StopReason = 'rounds-complete';
-    const { rounds: roundsMax, evalEvery, target } = scenario.run;
-
-    for (let round = 1; round <= roundsMax && !this.stopRequested; round++) {
-      await this.options.untilConnected?.();
-      if (this.stopRequested) {
-        stopReason = 'stopped';
-        break;
-      }
-      this.round = round;
-      const excluded = new Set<number>();
-      const roundRecords: ClientRoundRecord[] = [];
-      const localSteps: Record<string, number> = {};
-      const dropped = new Set<number>();
-      let roundSeconds = 0;
-      let diverged = false;
-      for (const exchange of exchanges) {
-        const participants = this.participantsOf(round, excluded);
-        if (participants.length === 0) break;
-        const assignments = assignmentsFor(this.plan, this.speed, round, exchanges, exchange, participants);
-        const wait = new ExchangeWait(round, exchange, participants, this.closeRuleFor(assignments, this.options.nowMs()), this.options.exchangeTimeoutSeconds, this.options.nowMs);
-        this.current = wait;
-        const downs = this.sendDowns(round, exchange, assignments, wait);
-        await wait.done;
-        this.current = null;
-        if (wait.cause === 'timeout' && !this.stopRequested) {
-          // Silent past the exchange limit: as good as lost for this exchange.
-          for (const id of wait.pending()) excluded.add(id);
-        }
-        const settled = this.settleExchange(round, exchange, assignments, wait, downs);
-        roundSeconds += settled.roundSeconds;
-        for (const r of settled.records) {
-          if (r.dropped) dropped.add(r.clientId);
-          if (isLocalWorkExchange(exchanges, exchange)) localSteps[String(r.clientId)] = r.localSteps;
-          // A client left out of one exchange (late, lost) sits out the rest of the round.
-          if (!wait.arrivals.has(r.clientId)) excluded.add(r.clientId);
-        }
-        roundRecords.push(...settled.records);
-        if (wait.cause === 'diverged') {
-          diverged = true;
-          break;
-        }
-        try {
-          this.server.aggregate(exchange, settled.uploads);
-        } catch (error) {
-          if ((error as { code?: string }).code !== 'E_NOT_FINITE') throw error;
-          diverged = true;
-          break;
-        }
-      }
-      if (diverged) stopReason = 'diverged';
-      clients.push(...roundRecords);
-      const virtualSeconds = this.clock.advance(roundSeconds);
-      const noneLeft = this.options.registry.activeSessions().length === 0 && this.options.registry.disconnectedSessions().length === 0;
-      const last = round === roundsMax || diverged || noneLeft || this.stopRequested;
-      const evaluated = round % evalEvery === 0 || last ? await this.options.evaluate(this.server.model()) : null;
-      const record: RoundRecord = {
-        round,
-        suboptimality: evaluated ? evaluated.suboptimality : null,
-        distance: evaluated ? evaluated.distance : null,
-        bytes: layerSum(roundRecords),
-        localSteps,
-        dropped: [...dropped].sort((a, b) => a - b),
-        roundSeconds,
-        virtualSeconds,
-        wallSeconds: wallSecondsNow(),
-      };
-      rounds.push(record);
-      this.options.onRoundRecords?.(record, roundRecords);
-      this.options.onRound?.(record);
-      if (diverged) break;
-      if (noneLeft) {
-        stopReason = 'workers-lost';
-        break;
-      }
-      if (this.stopRequested) {
-        stopReason = 'stopped';
-        break;
-      }
-      if (evaluated && target > 0 && evaluated.suboptimality <= target) {
-        stopReason = 'target-reached';
-        break;
-      }
-    }
-    return { rounds, clients, finalModel: this.server.model(), stopReason, virtualSeconds: this.clock.now() };
   }
 }

@@ -10,3 +10,8 @@ export class CodedError<Code extends string> extends Error {
     this.code = code;
   }
 }
+
+/** True when `error` carries `code` (any module's coded error, or a plain object with a code). */
+export function hasErrorCode(error: unknown, code: string): boolean {
+  return typeof error === 'object' && error !== null && (error as { code?: unknown }).code === code;
+}

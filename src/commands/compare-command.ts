@@ -9,6 +9,7 @@ import type { Scenario } from '../scenario/schema.js';
 import { parseTweak, type Tweak } from '../scenario/tweaks.js';
 import { ScenarioError } from '../scenario/scenario-error.js';
 import { runInProcess } from '../engine/in-process-engine.js';
+import { assertPlannable } from '../engine/run-plan.js';
 import { finishRun } from './run-report.js';
 import { runDistributed } from './run-distributed.js';
 import { readRunResults, reportFileName } from './report-command.js';
@@ -83,6 +84,7 @@ export function planComparison(file: string, options: Pick<CompareOptions, 'ladd
       throw new ReportError('E_COMPARE_VARIANTS', `variant ${variant.index + 1} (${variant.label}): these rungs do not go together: ${reasonOf(error, null)}`);
     }
   });
+  for (const { scenario } of variants) assertPlannable(scenario);
   return { base, ladders, variants };
 }
 

@@ -26,6 +26,13 @@ export function payloadBytes(cv: CompressedVector): number {
   return cv.indices === null ? denseBytes(cv.dim, bytesPerValue) : sparseBytes(cv.indices, bytesPerValue);
 }
 
+/** The payload bytes of a message's fields, summed. */
+export function fieldsPayloadBytes(fields: Readonly<Record<string, CompressedVector>>): number {
+  let total = 0;
+  for (const cv of Object.values(fields)) total += payloadBytes(cv);
+  return total;
+}
+
 /**
  * log2 C(d, k): the bits needed to name one k-subset of d positions when every subset is
  * possible, the floor under any index coding. Summed as logs of the ratios (d - m + i) / i,

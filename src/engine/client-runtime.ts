@@ -107,8 +107,13 @@ export class ClientRuntime {
     this.restore(snapshotWithReplicasReset(this.snapshot(), this.method.uplinkStateFields ?? []));
   }
 
-  /** The method state (plain data), for the theory's round map. */
+  /** The method state itself (plain data), for the round map. */
   methodState(): unknown {
     return this.state;
+  }
+
+  /** Continues from this method state, which the runtime keeps as it is (no copy): the round map's states. */
+  adoptMethodState(state: unknown): void {
+    this.state = state;
   }
 }

@@ -8,7 +8,6 @@ import { predictRate } from '../theory/predict-rate.js';
 import { affineFixedPoint, FIXED_POINT_DIMENSION_MAX } from '../theory/fixed-point.js';
 import { TheoryError } from '../theory/theory-error.js';
 import type { PlanTheory } from '../theory/plan-theory.js';
-import { stepSecondsFor, speedModelFor } from '../timing/round-speed.js';
 import { buildRoundMap, predictionBlocker } from './round-map.js';
 import type { RunPlan } from './run-plan.js';
 import { evaluateModel } from './evaluate.js';
@@ -41,8 +40,7 @@ export function predictRun(plan: RunPlan, theory: PlanTheory, initialModel: Floa
   const blocker = predictionBlocker(plan);
   if (blocker) return none(blocker);
   const objectives: readonly Objective[] = theory.instance.objectives;
-  const speed = speedModelFor(plan.scenario.timing, plan.clientCount, plan.scenario.seed);
-  const roundMap = buildRoundMap(plan, objectives, (i) => stepSecondsFor(speed, i, 1), initialModel);
+  const roundMap = buildRoundMap(plan, objectives, initialModel);
   const rate = predictRate(roundMap.map, roundMap.start);
   if (!rate.converged) return none(`the spectral radius did not settle within ${rate.mapApplications} round-map applications`);
   // Without the limit the floor is missing, and so is the rate of f: rho^2 or rho depends on

@@ -1,22 +1,34 @@
-// One round of a method as a map of its full state, for predictions. It replays exactly the
-// engine's arithmetic with no compression and full participation, which is where DESIGN.md's
-// claim holds: for quadratic objectives with full gradients a round is an affine map.
+// One round of a method as a map of its full state, for predictions: the round walk itself
+// (round-walk.ts), over the plan's ideal twin (no compression, full participation) with direct
+// calls, so that participants, tau_i and eta_i are decided by the very code a run uses. This is
+// where DESIGN.md's claim holds: for quadratic objectives with full gradients a round is an
+// affine map.
 
-import type { Method, Upload } from '../algorithm/method.js';
-import { methodByName } from '../algorithm/registry.js';
 import type { Objective } from '../problem/objective.js';
 import type { RoundMap } from '../theory/affine-map.js';
-import type { RunPlan } from './run-plan.js';
-import { float64Leaves, flattenState, unflattenState } from './state-vector.js';
-import { isLocalWorkExchange } from './round-schedule.js';
-import { stepsUnderPolicy } from '../timing/round-policy.js';
 import { keptCount } from '../compress/compressor.js';
 import type { CompressorSpec } from '../scenario/schema.js';
+import { ClientRuntime } from './client-runtime.js';
+import { DirectTransport } from './direct-transport.js';
+import { idealPlan } from './ideal-plan.js';
+import { walkRound, walkSetup } from './round-walk.js';
+import type { RunPlan } from './run-plan.js';
+import { ServerRuntime } from './server-runtime.js';
+import { float64Leaves, flattenState, unflattenState } from './state-vector.js';
+import { driveSync } from './walk-transport.js';
 
 interface FullState {
   server: unknown;
   clients: unknown[];
 }
+
+/**
+ * The round the map walks every time. Where a prediction is made the step times, and with them
+ * tau_i, are the same every round (no jitter, no transient stragglers under a deadline), and
+ * nothing else that depends on the round number (minibatches, rand-k draws, participant draws)
+ * is in play.
+ */
+const MAP_ROUND = 1;
 
 /** Why no prediction is made for a plan, or null when the round map is affine and fixed. */
 export function predictionBlocker(plan: RunPlan): string | null {
@@ -34,11 +46,6 @@ export function predictionBlocker(plan: RunPlan): string | null {
   return null;
 }
 
-/** tau_i per client as the engine would decide it (deadline without jitter: the same every round). */
-function stepsPerClient(plan: RunPlan, stepSeconds: (clientId: number) => number): number[] {
-  return Array.from({ length: plan.clientCount }, (_, i) => stepsUnderPolicy(plan.scenario.timing.policy, stepSeconds(i), plan.plannedSteps[i]));
-}
-
 export interface PlanRoundMap {
   map: RoundMap;
   /** the state after one round from the initial model (leaves flags such as "started" set) */
@@ -47,41 +54,25 @@ export interface PlanRoundMap {
   modelOf(state: Float64Array): Float64Array;
 }
 
-export function buildRoundMap(plan: RunPlan, objectives: readonly Objective[], stepSeconds: (clientId: number) => number, initialModel: Float64Array): PlanRoundMap {
-  const method: Method = methodByName(plan.scenario.method.name);
-  const steps = stepsPerClient(plan, stepSeconds);
-  const eta = plan.methodConfig.stepSize;
-  const inverse = plan.scenario.method.stepPolicy === 'inverse-steps';
-
-  const runRound = (state: FullState): void => {
-    for (const exchange of method.exchanges) {
-      const localWork = isLocalWorkExchange(method.exchanges, exchange);
-      const down = method.broadcast(state.server, exchange);
-      const uploads: Upload[] = [];
-      for (let i = 0; i < plan.clientCount; i++) {
-        const tau = localWork ? steps[i] : 1;
-        const stepSize = inverse ? eta / tau : eta;
-        const fields = method.work(state.clients[i], objectives[i], down, { localSteps: tau, stepSize, sampler: null }, exchange);
-        const taken = method.stepsTaken ? method.stepsTaken(state.clients[i]) : tau;
-        uploads.push({ clientId: i, weight: plan.weights[i], localSteps: taken, stepSize, fields });
-      }
-      method.aggregate(state.server, uploads, exchange);
-    }
+export function buildRoundMap(plan: RunPlan, objectives: readonly Objective[], initialModel: Float64Array): PlanRoundMap {
+  const ideal = idealPlan(plan);
+  const server = new ServerRuntime(ideal, initialModel);
+  const clients = objectives.map((objective, id) => new ClientRuntime(ideal, id, objective));
+  const setup = walkSetup(ideal, server);
+  const transport = new DirectTransport(clients);
+  const stateNow = (): FullState => ({ server: server.methodState(), clients: clients.map((c) => c.methodState()) });
+  const runRound = (state: FullState): FullState => {
+    server.adoptMethodState(state.server);
+    state.clients.forEach((s, i) => clients[i].adoptMethodState(s));
+    driveSync(walkRound(setup, MAP_ROUND), transport);
+    return stateNow();
   };
 
-  const template: FullState = {
-    server: method.initServer(plan.dim, plan.methodConfig, initialModel),
-    clients: Array.from({ length: plan.clientCount }, (_, i) => method.initClient(plan.dim, plan.methodConfig, i)),
-  };
-  runRound(template);
-  const map: RoundMap = (vector) => {
-    const state = unflattenState(template, vector);
-    runRound(state);
-    return flattenState(state);
-  };
-  // The model's position: perturb nothing, read the server's model leaf by identity.
+  const template = structuredClone(runRound(stateNow()));
+  const map: RoundMap = (vector) => flattenState(runRound(unflattenState(template, vector)));
+  // The model's position: read the server's model leaf by identity.
   const probe = unflattenState(template, flattenState(template));
-  const modelLeaf = method.model(probe.server);
+  const modelLeaf = server.method.model(probe.server);
   const full = flattenState(probe);
   let modelOffset = -1;
   let offset = 0;

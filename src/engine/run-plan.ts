@@ -6,6 +6,8 @@ import type { Scenario } from '../scenario/schema.js';
 import type { MethodConfig } from '../algorithm/method.js';
 import { hashOf } from '../scenario/plan-hash.js';
 import { localStepsFor } from '../timing/local-steps.js';
+import { participantCount } from '../timing/participation.js';
+import { assertPolicyFitsRound } from '../timing/round-policy.js';
 
 /** What a worker needs to host clients: JSON-able, sent in the welcome message. */
 export interface WirePlan {
@@ -45,7 +47,18 @@ export function methodConfigFor(scenario: Scenario, smoothness: number): MethodC
   };
 }
 
+/**
+ * Refuses what the schema cannot see field by field, with exit code 2, before any work: both
+ * runtimes plan through here, so they accept and refuse the same scenarios.
+ */
+export function assertPlannable(scenario: Scenario): void {
+  const { participation } = scenario.method;
+  const perRound = participantCount(participation, scenario.clients.count);
+  assertPolicyFitsRound(scenario.timing.policy, perRound, `method.participation ${participation} of clients.count ${scenario.clients.count}`);
+}
+
 export function resolveRunPlan(scenario: Scenario, facts: PlanProblemFacts): RunPlan {
+  assertPlannable(scenario);
   const wire: WirePlan = { scenario, methodConfig: methodConfigFor(scenario, facts.smoothness), dim: facts.dim };
   return {
     ...wire,

@@ -20,7 +20,7 @@ export interface EncodedUpload {
 export class ServerRuntime {
   readonly method: Method;
   private readonly plan: RunPlan;
-  private readonly state: unknown;
+  private state: unknown;
   private readonly downlinks: DownlinkEncoder[];
   private readonly uplinks: UplinkDecoder[];
 
@@ -64,7 +64,13 @@ export class ServerRuntime {
     return Float64Array.from(this.method.model(this.state));
   }
 
+  /** The method state itself (plain data), for the round map. */
   methodState(): unknown {
     return this.state;
+  }
+
+  /** Continues from this method state, which the runtime keeps as it is (no copy): the round map's states. */
+  adoptMethodState(state: unknown): void {
+    this.state = state;
   }
 }

@@ -77,6 +77,29 @@ export function stepsUnderPolicy(policy: RoundPolicy, stepSeconds: number, plann
   return Math.min(policy.stepsMax, Math.max(1, fitting));
 }
 
+/**
+ * Refuses a fastest-k whose k exceeds the clients that take part in a round, when the plan is
+ * made, so that both runtimes refuse it alike before any work. `perRoundWhy` says where the
+ * count comes from (participation of the clients).
+ */
+export function assertPolicyFitsRound(policy: RoundPolicy, participantsPerRound: number, perRoundWhy: string): void {
+  if (policy.kind !== 'fastest-k' || policy.k <= participantsPerRound) return;
+  throw new TimingError(
+    'E_POLICY_K',
+    `timing.policy.k: fastest-k counts the first k updates of a round, but a round has ${participantsPerRound} participants (${perRoundWhy}); give k <= ${participantsPerRound}, got ${policy.k}`,
+    'timing.policy.k',
+  );
+}
+
+/**
+ * The policy over the updates that came back. The plan holds k within a round's participants;
+ * only clients lost mid-run (a distributed run's workers) leave fewer updates than k, and
+ * fastest-k then counts every one left.
+ */
+export function policyForUpdates(policy: RoundPolicy, updates: number): RoundPolicy {
+  return policy.kind === 'fastest-k' && policy.k > updates ? { ...policy, k: updates } : policy;
+}
+
 function checkParticipants(participants: readonly RoundParticipant[]): void {
   if (participants.length === 0) throw new TimingError('E_TIMING_ARGUMENT', 'a round needs at least one participant');
   let previousId = -1;

@@ -26,7 +26,7 @@ describe('--tweak reaches the command', () => {
     const summary = JSON.parse(r.stdout);
     expect(summary.method).toBe('fedavg');
     expect(summary.rounds).toBe(7);
-    const resolved = parse(readFileSync(join(out, 'scenario.yaml'), 'utf8'));
+    const resolved = parse(readFileSync(join(out, 'resolved-scenario.yaml'), 'utf8'));
     expect(resolved.method.name).toBe('fedavg');
     expect(resolved.run).toMatchObject({ rounds: 7, target: 0 });
   });
@@ -37,7 +37,7 @@ describe('--tweak reaches the command', () => {
     expect(r.code, r.stderr).toBe(0);
     const c = JSON.parse(r.stdout);
     expect(c.variants.map((v: { rounds: number }) => v.rounds)).toEqual([4, 4]);
-    const steps = c.variants.map((v: { folder: string }) => parse(readFileSync(join(out, v.folder, 'scenario.yaml'), 'utf8')).method.localSteps);
+    const steps = c.variants.map((v: { folder: string }) => parse(readFileSync(join(out, v.folder, 'resolved-scenario.yaml'), 'utf8')).method.localSteps);
     expect(steps).toEqual([1, 2]);
   });
 });

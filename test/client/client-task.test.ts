@@ -33,6 +33,7 @@ describe('clientTask snapshots', () => {
       const encodedDown = server.encodeDown(clientId, round, 'local', server.broadcast('local'));
       const expected = direct.work(round, 'local', encodedDown, 5, plan.methodConfig.stepSize);
       const result = clientTask(structuredClone({ plan, planKey: plan.planHash, clientId, snapshot, round, exchange: 'local', encodedDown, localSteps: 5, stepSize: plan.methodConfig.stepSize }));
+      if ('nonFinite' in result) throw new Error(result.nonFinite);
       snapshot = structuredClone(result.snapshot);
       expect(bits(result.encodedUp)).toBe(bits(expected.encodedUp));
       expect(result.stepsTaken).toBe(expected.stepsTaken);

@@ -119,3 +119,8 @@ export function writeKeyFile(dir: string, key: string, name = 'shared.key', mode
   chmodSync(file, mode);
   return file;
 }
+
+/** Command-line arguments that tweak scenario fields (path -> YAML value): the one place that knows the flag's syntax. */
+export function overrideArgs(overrides: Readonly<Record<string, string>>): string[] {
+  return Object.entries(overrides).flatMap(([path, value]) => ['--tweak', `${path}:${value}`]);
+}

@@ -33,7 +33,7 @@ function readComparison(out: string): Comparison {
 
 /** The resolved scenario each variant ran, from its own results folder. */
 function variantScenarios(out: string, c: Comparison): { method: { name: string; localSteps: unknown; stepSize: unknown }; seed: number; run: { rounds: number } }[] {
-  return c.variants.map((row) => parse(readFileSync(join(out, row.folder, 'scenario.yaml'), 'utf8')));
+  return c.variants.map((row) => parse(readFileSync(join(out, row.folder, 'resolved-scenario.yaml'), 'utf8')));
 }
 
 async function compare(name: string, args: string[], file = 'scenarios/quickstart.yaml'): Promise<{ out: string; c: Comparison; stdout: string }> {

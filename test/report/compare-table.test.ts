@@ -4,7 +4,7 @@
 import { describe, expect, it } from 'vitest';
 import type { RunSummary } from '../../src/engine/run-summary.js';
 import type { RoundRecord } from '../../src/engine/round-record.js';
-import { buildComparison, columnHeading, compareColumns, comparisonCsv, tableHeader, verdictLines } from '../../src/report/compare-table.js';
+import { buildComparison, columnHeading, compareColumns, comparisonCsv, tableColumns, tableHeader, verdictLines } from '../../src/report/compare-table.js';
 import type { Variant } from '../../src/report/compare-variants.js';
 
 function outcome(label: string, reached: number | null, payload: number | null, virtualSeconds: number | null, clock: 'virtual' | 'wall' = 'virtual') {
@@ -61,8 +61,10 @@ describe('buildComparison', () => {
 });
 
 describe('columns', () => {
-  it('the table headings are the CSV and JSON keys in words', () => {
-    expect(tableHeader).toEqual(compareColumns.filter((k) => k !== 'folder').map(columnHeading));
+  it('the table headings are the CSV and JSON keys in words, with units in brackets', () => {
+    expect(tableColumns.map((c) => c.name)).toEqual(compareColumns.filter((k) => k !== 'folder').map(columnHeading));
+    expect(tableHeader).toContain('bytes to target [kB]');
+    expect(tableHeader).toContain('seconds to target [s]');
     expect(columnHeading('uplinkBytesToTarget')).toBe('uplink bytes to target');
   });
 });

@@ -1,0 +1,184 @@
+// The round walk: the one definition of what a round is, for every runtime. Per round: the
+// participants (round-schedule.ts); per exchange: who is still in the run, tau_i and eta_i under
+// the round and step policies, one down per client encoded against its own replicas, the ups
+// (from the transport), timing and drops (settle-exchange.ts), aggregation in ascending client
+// id; then the round's record and evaluation. A non-finite value anywhere (the model, a
+// client's update, the aggregate) stops the run with reason "diverged".
+//
+// The walk is a generator over requests (walk-transport.ts): the in-process engine and the
+// round map answer them with direct calls, the coordinator with its WebSocket sessions. Given
+// the same answers, every runtime takes the same steps in the same order, which is why a
+// virtual-clock run ends on the same model bit for bit in both.
+
+import { fieldsPayloadBytes } from '../compress/payload-bytes.js';
+import { hasErrorCode } from '../coded-error.js';
+import { speedModelFor, type SpeedModel } from '../timing/round-speed.js';
+import { VirtualClock } from '../timing/virtual-clock.js';
+import { allFinite } from '../vec/kernels.js';
+import type { ClientRoundRecord, RoundRecord } from './round-record.js';
+import { assignmentsFor, isLocalWorkExchange, roundParticipants, type ClientAssignment } from './round-schedule.js';
+import type { RunPlan } from './run-plan.js';
+import type { RunOutcome, StopReason } from './run-summary.js';
+import type { EncodedUpload, ServerRuntime } from './server-runtime.js';
+import { settleExchange } from './settle-exchange.js';
+import { ask, type ByteLayer, type ExchangeDown, type ExchangeRequest, type WalkRequest } from './walk-transport.js';
+
+/** What every round of a walk shares. */
+export interface WalkSetup {
+  plan: RunPlan;
+  server: ServerRuntime;
+  speed: SpeedModel;
+  /** byte layers beyond the payload that the transport counts */
+  byteLayers: readonly ByteLayer[];
+}
+
+export function walkSetup(plan: RunPlan, server: ServerRuntime, byteLayers: readonly ByteLayer[] = []): WalkSetup {
+  return { plan, server, speed: speedModelFor(plan.scenario.timing, plan.clientCount, plan.scenario.seed), byteLayers };
+}
+
+/** One round walked. */
+export interface WalkedRound {
+  /** every client sent a down, exchange by exchange */
+  records: ClientRoundRecord[];
+  /** tau_i of the local-work exchange, by client id */
+  localSteps: Record<string, number>;
+  /** ascending: clients whose update did not count in some exchange */
+  dropped: number[];
+  roundSeconds: number;
+  diverged: boolean;
+}
+
+/** The downs of one exchange, or null when the server's state is no longer finite. */
+function encodeDowns(server: ServerRuntime, round: number, exchange: string, assignments: readonly ClientAssignment[]): ExchangeDown[] | null {
+  try {
+    const broadcast = server.broadcast(exchange);
+    return assignments.map((assignment) => {
+      const encodedDown = server.encodeDown(assignment.clientId, round, exchange, broadcast);
+      return { assignment, encodedDown, payloadBytes: fieldsPayloadBytes(encodedDown) };
+    });
+  } catch (error) {
+    if (hasErrorCode(error, 'E_NOT_FINITE')) return null;
+    throw error;
+  }
+}
+
+/** Folds the uploads in; false when that meets or makes a non-finite value. */
+function aggregateFinite(server: ServerRuntime, exchange: string, uploads: readonly EncodedUpload[]): boolean {
+  try {
+    server.aggregate(exchange, uploads);
+  } catch (error) {
+    if (hasErrorCode(error, 'E_NOT_FINITE')) return false;
+    throw error;
+  }
+  return allFinite(server.model());
+}
+
+/** Walks one round's exchanges. */
+export function* walkRound(setup: WalkSetup, round: number): Generator<ExchangeRequest, WalkedRound, unknown> {
+  const { plan, server, speed } = setup;
+  const exchanges = server.method.exchanges;
+  const out: WalkedRound = { records: [], localSteps: {}, dropped: [], roundSeconds: 0, diverged: false };
+  const dropped = new Set<number>();
+  // A client whose up did not come back in one exchange (lost, late) sits out the rest of the round.
+  const sittingOut = new Set<number>();
+  for (const exchange of exchanges) {
+    const candidates = Array.from(roundParticipants(plan, round)).filter((id) => !sittingOut.has(id));
+    const members = candidates.length === 0 ? [] : yield* ask({ kind: 'members', round, exchange, candidates });
+    if (members.length === 0) break;
+    const downs = encodeDowns(server, round, exchange, assignmentsFor(plan, speed, round, exchanges, exchange, members));
+    if (downs === null) {
+      out.diverged = true;
+      break;
+    }
+    const order = { round, exchange, downs };
+    const reply = yield* ask({ kind: 'exchange', order });
+    const settled = settleExchange(plan, order, reply, setup.byteLayers);
+    reply.recorded?.(settled.records);
+    const localWork = isLocalWorkExchange(exchanges, exchange);
+    for (const r of settled.records) {
+      if (r.dropped) dropped.add(r.clientId);
+      if (localWork) out.localSteps[String(r.clientId)] = r.localSteps;
+    }
+    for (const id of settled.missing) sittingOut.add(id);
+    out.records.push(...settled.records);
+    out.roundSeconds += settled.roundSeconds;
+    if (reply.diverged || !aggregateFinite(server, exchange, settled.uploads)) {
+      out.diverged = true;
+      break;
+    }
+  }
+  out.dropped = [...dropped].sort((a, b) => a - b);
+  return out;
+}
+
+/** What a run needs beyond one round. */
+export interface RunWalkSetup extends WalkSetup {
+  /** wall-clock seconds since the run began */
+  wallSeconds: () => number;
+  /** every round with its clients' records, round 0 (the initial evaluation, no clients) first */
+  onRound?: (record: RoundRecord, clients: readonly ClientRoundRecord[]) => void;
+}
+
+/** A run's outcome as the walk knows it: round 0 (the initial model), then one record per round walked. */
+export type WalkedRun = Pick<RunOutcome, 'rounds' | 'clients' | 'finalModel' | 'stopReason'> & { virtualSeconds: number };
+
+function bytesOf(records: readonly ClientRoundRecord[], byteLayers: readonly ByteLayer[]): RoundRecord['bytes'] {
+  const bytes: RoundRecord['bytes'] = { payload: { up: 0, down: 0 } };
+  for (const layer of byteLayers) bytes[layer] = { up: 0, down: 0 };
+  for (const r of records) {
+    for (const layer of ['payload', ...byteLayers] as const) {
+      bytes[layer]!.up += r.bytes[layer]?.up ?? 0;
+      bytes[layer]!.down += r.bytes[layer]?.down ?? 0;
+    }
+  }
+  return bytes;
+}
+
+/** Walks a run to its target, its round limit, divergence, or the stop its transport calls. */
+export function* walkRun(setup: RunWalkSetup): Generator<WalkRequest, WalkedRun, unknown> {
+  const { server, byteLayers } = setup;
+  const { rounds: roundsMax, evalEvery, target } = setup.plan.scenario.run;
+  const clock = new VirtualClock();
+  const initial = yield* ask({ kind: 'evaluate', model: server.model() });
+  const first: RoundRecord = { round: 0, suboptimality: initial.suboptimality, distance: initial.distance, bytes: bytesOf([], byteLayers), localSteps: {}, dropped: [], roundSeconds: 0, virtualSeconds: 0, wallSeconds: setup.wallSeconds() };
+  const rounds: RoundRecord[] = [first];
+  const clients: ClientRoundRecord[] = [];
+  setup.onRound?.(first, []);
+  let stopReason: StopReason = 'rounds-complete';
+
+  for (let round = 1; round <= roundsMax; round++) {
+    const refused = yield* ask({ kind: 'open-round', round });
+    if (refused !== null) {
+      stopReason = refused;
+      break;
+    }
+    const walked = yield* walkRound(setup, round);
+    clients.push(...walked.records);
+    const virtualSeconds = clock.advance(walked.roundSeconds);
+    const ending = walked.diverged ? 'diverged' : yield* ask({ kind: 'close-round', round });
+    const last = round === roundsMax || ending !== null;
+    const evaluated = round % evalEvery === 0 || last ? yield* ask({ kind: 'evaluate', model: server.model() }) : null;
+    const record: RoundRecord = {
+      round,
+      suboptimality: evaluated ? evaluated.suboptimality : null,
+      distance: evaluated ? evaluated.distance : null,
+      bytes: bytesOf(walked.records, byteLayers),
+      localSteps: walked.localSteps,
+      dropped: walked.dropped,
+      roundSeconds: walked.roundSeconds,
+      virtualSeconds,
+      wallSeconds: setup.wallSeconds(),
+    };
+    rounds.push(record);
+    setup.onRound?.(record, walked.records);
+    if (ending !== null) {
+      stopReason = ending;
+      break;
+    }
+    if (evaluated && target > 0 && evaluated.suboptimality <= target) {
+      stopReason = 'target-reached';
+      break;
+    }
+  }
+  return { rounds, clients, finalModel: server.model(), stopReason, virtualSeconds: clock.now() };
+}

@@ -1,0 +1,129 @@
+// What the round walk (round-walk.ts) asks of the thing that carries its messages, and the two
+// drivers that answer it. The walk is a generator: it yields a request whenever it needs the
+// outside world (who is still in the run, the ups of an exchange, an evaluation) and resumes with
+// the answer. driveSync answers at once (direct calls: the in-process engine, the round map);
+// driveAsync awaits each answer (the coordinator's WebSocket sessions). Everything else, from
+// budgets to records, happens inside the walk, once, for every transport.
+
+import type { ByteCounts, ClientRoundRecord } from './round-record.js';
+import type { ClientAssignment } from './round-schedule.js';
+import type { EncodedFields } from './client-runtime.js';
+import type { Evaluation } from './evaluate.js';
+import type { StopReason } from './run-summary.js';
+
+/** Byte layers beyond the payload that a transport counts (a network's codec and socket). */
+export type ByteLayer = 'encoded' | 'wire';
+
+/** One client's down in an exchange, encoded against its own replicas. */
+export interface ExchangeDown {
+  assignment: ClientAssignment;
+  encodedDown: EncodedFields;
+  /** payload bytes of encodedDown */
+  payloadBytes: number;
+}
+
+/** The downs of one exchange, in ascending client id. */
+export interface ExchangeOrder {
+  round: number;
+  exchange: string;
+  downs: readonly ExchangeDown[];
+}
+
+/** Seconds a client's up reports from a real clock, replacing the models' (wall clock). */
+export interface MeasuredSeconds {
+  computeSeconds: number;
+  transferSeconds: number;
+  waitSeconds: number;
+}
+
+/** Bytes of one client's down and up at the transport's own layers. */
+export type LayerBytes = Partial<Record<ByteLayer, ByteCounts>>;
+
+/** What came back from one client: its up, or nothing (lost, late, silent). */
+export type ClientReturn =
+  | { kind: 'up'; encodedUp: EncodedFields; stepsTaken: number; layers?: LayerBytes; measured?: MeasuredSeconds }
+  | { kind: 'missing'; layers?: LayerBytes };
+
+export interface ExchangeReply {
+  /** by client id; a down with no entry counts as missing */
+  returns: ReadonlyMap<number, ClientReturn>;
+  /** a client met a non-finite value in its work: the run diverged */
+  diverged: boolean;
+  /** called with the exchange's records once settled (a late up may still fill in its bytes) */
+  recorded?: (records: readonly ClientRoundRecord[]) => void;
+}
+
+export type ExchangeRequest =
+  | { kind: 'members'; round: number; exchange: string; candidates: readonly number[] }
+  | { kind: 'exchange'; order: ExchangeOrder };
+
+export type WalkRequest = ExchangeRequest | { kind: 'open-round'; round: number } | { kind: 'close-round'; round: number } | { kind: 'evaluate'; model: Float64Array };
+
+/** What a request of each kind is answered with. */
+export interface WalkAnswers {
+  members: readonly number[];
+  exchange: ExchangeReply;
+  'open-round': StopReason | null;
+  'close-round': StopReason | null;
+  evaluate: Evaluation;
+}
+
+type Answer<T, Mode extends 'sync' | 'async'> = Mode extends 'sync' ? T : T | Promise<T>;
+
+/** Carries one round's exchanges: enough to walk a round (the round map needs no more). */
+export interface ExchangeTransport<Mode extends 'sync' | 'async' = 'sync'> {
+  /** the candidates (ascending) that are still in the run; a client that left takes no part */
+  members(round: number, exchange: string, candidates: readonly number[]): Answer<readonly number[], Mode>;
+  /** delivers the downs to their clients and returns what came back */
+  exchange(order: ExchangeOrder): Answer<ExchangeReply, Mode>;
+}
+
+/** Carries a whole run. */
+export interface RoundTransport<Mode extends 'sync' | 'async' = 'sync'> extends ExchangeTransport<Mode> {
+  /** before a round starts: null to go on, or why the run stops first */
+  openRound(round: number): Answer<StopReason | null, Mode>;
+  /** after a round's exchanges: null to go on, or why this round is the last */
+  closeRound(round: number): Answer<StopReason | null, Mode>;
+  evaluate(model: Float64Array): Answer<Evaluation, Mode>;
+}
+
+/** One request, typed by its answer: the walk writes `yield* ask(request)`. */
+export function* ask<R extends WalkRequest>(request: R): Generator<R, WalkAnswers[R['kind']], unknown> {
+  return (yield request) as WalkAnswers[R['kind']];
+}
+
+/** A transport of either mode as the drivers see it: each method gives its answer or a promise of it. */
+type Answering = { [K in keyof RoundTransport]: (...args: Parameters<RoundTransport[K]>) => unknown };
+
+function answer(transport: Answering, request: WalkRequest): unknown {
+  switch (request.kind) {
+    case 'members':
+      return transport.members(request.round, request.exchange, request.candidates);
+    case 'exchange':
+      return transport.exchange(request.order);
+    case 'open-round':
+      return transport.openRound(request.round);
+    case 'close-round':
+      return transport.closeRound(request.round);
+    case 'evaluate':
+      return transport.evaluate(request.model);
+  }
+}
+
+/** Walks to the end, answering every request at once. */
+export function driveSync<T>(walk: Generator<ExchangeRequest, T, unknown>, transport: ExchangeTransport): T;
+export function driveSync<T>(walk: Generator<WalkRequest, T, unknown>, transport: RoundTransport): T;
+export function driveSync<T>(walk: Generator<WalkRequest, T, unknown>, transport: ExchangeTransport | RoundTransport): T {
+  // The overloads pair a walk with a transport that answers every request it can yield.
+  const answering = transport as Answering;
+  let step = walk.next();
+  while (step.done !== true) step = walk.next(answer(answering, step.value));
+  return step.value;
+}
+
+/** Walks to the end, awaiting every answer. */
+export async function driveAsync<T>(walk: Generator<WalkRequest, T, unknown>, transport: RoundTransport<'async'>): Promise<T> {
+  let step = walk.next();
+  while (step.done !== true) step = walk.next(await answer(transport, step.value));
+  return step.value;
+}
