@@ -9,11 +9,11 @@ import { Piscina } from 'piscina';
 import { ClientRuntime, snapshotWithReplicasReset, type ClientRuntimeSnapshot, type EncodedFields } from '../src/engine/client-runtime.js';
 import { methodByName } from '../src/algorithm/registry.js';
 import type { WirePlan } from '../src/engine/run-plan.js';
-import { clientObjective } from '../src/problem/problem-instance.js';
+import { clientObjective } from '../src/data/problem-instance.js';
 import { hashOf } from '../src/scenario/plan-hash.js';
 import { compiledModulePath } from './compiled-module.js';
 import type { ClientTask, ClientTaskNonFinite, ClientTaskResult } from './client-task.js';
-import { CodedError } from '../src/coded-error.js';
+import { CodedError } from '../src/base/coded-error.js';
 
 export interface HostedWork {
   clientId: number;

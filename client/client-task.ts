@@ -6,8 +6,8 @@ import { performance } from 'node:perf_hooks';
 import { ClientRuntime, type ClientRuntimeSnapshot, type EncodedFields } from '../src/engine/client-runtime.js';
 import type { WirePlan } from '../src/engine/run-plan.js';
 import type { Objective } from '../src/problem/objective.js';
-import { clientObjective } from '../src/problem/problem-instance.js';
-import { hasErrorCode } from '../src/coded-error.js';
+import { clientObjective } from '../src/data/problem-instance.js';
+import { hasErrorCode } from '../src/base/coded-error.js';
 
 export interface ClientTask {
   plan: WirePlan;

@@ -26,7 +26,7 @@ import {
 import type { EncodedFields } from '../src/engine/client-runtime.js';
 import type { WirePlan } from '../src/engine/run-plan.js';
 import { fieldsPayloadBytes } from '../src/compress/payload-bytes.js';
-import { hasErrorCode } from '../src/coded-error.js';
+import { hasErrorCode } from '../src/base/coded-error.js';
 import { methodByName } from '../src/algorithm/registry.js';
 import { validateScenario } from '../src/scenario/validate-scenario.js';
 import { speedModelFor } from '../src/timing/round-speed.js';

@@ -61,7 +61,9 @@ export class CoordinatorMetrics {
   constructor(sources: CoordinatorMetricsSources) {
     this.sources = sources;
     const registers = [this.registry];
-    const metrics = this;
+    // prom-client calls collect() with the gauge as `this`, so the rates are bound here.
+    const predictedRate = () => this.predictedRate();
+    const measuredRate = () => this.measuredRate();
     // An info series (value 1): queries join it on the target to label and colour series by method.
     new Gauge({ name: 'roundwire_run_info', help: "Always 1; the method label names the run's method.", labelNames: ['method'], registers }).set({ method: sources.method }, 1);
     this.roundsCompleted = new Counter({ name: 'roundwire_rounds_completed_total', help: 'Rounds completed.', registers });
@@ -81,7 +83,7 @@ export class CoordinatorMetrics {
       help: "The theory's per-round contraction of f - f* (NaN where it predicts none).",
       registers,
       collect() {
-        this.set(metrics.predictedRate());
+        this.set(predictedRate());
       },
     });
     new Gauge({
@@ -89,7 +91,7 @@ export class CoordinatorMetrics {
       help: 'Per-round contraction of f - f* fitted to the curve so far (NaN until it can be fitted).',
       registers,
       collect() {
-        this.set(metrics.measuredRate());
+        this.set(measuredRate());
       },
     });
     new Counter({

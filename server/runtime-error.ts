@@ -1,6 +1,6 @@
 // Errors of the distributed runtime that a caller may branch on (the CLI maps them to exit codes).
 
-import { CodedError } from '../src/coded-error.js';
+import { CodedError } from '../src/base/coded-error.js';
 
 export type RuntimeErrorCode =
   /** the workers that joined cannot host every client, or a join timed out */

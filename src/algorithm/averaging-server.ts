@@ -3,7 +3,8 @@
 // size). Kept in one place so that gd and FedAvg aggregate bit for bit alike.
 
 import { assertConfig, assertUploads, copyInitialModel } from './invariants.js';
-import type { Fields, MethodConfig, Upload } from './method.js';
+import type { MethodConfig, Upload } from './method.js';
+import type { Fields } from '../vec/fields.js';
 import { renormalizedWeights, weightedFieldSum } from './participant-weights.js';
 
 export interface AveragingServerState {

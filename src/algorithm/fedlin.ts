@@ -19,7 +19,8 @@ import {
   requireField,
 } from './invariants.js';
 import { descend, freshDifference } from './local-descent.js';
-import type { Fields, Method } from './method.js';
+import type { Method } from './method.js';
+import type { Fields } from '../vec/fields.js';
 import { MethodError } from './method-error.js';
 import { renormalizedWeights, weightedFieldSum } from './participant-weights.js';
 

@@ -4,7 +4,8 @@
 
 import { allFinite } from '../vec/kernels.js';
 import type { Objective } from '../problem/objective.js';
-import type { Budget, Fields, MethodConfig, Upload } from './method.js';
+import type { Budget, MethodConfig, Upload } from './method.js';
+import type { Fields } from '../vec/fields.js';
 import { MethodError } from './method-error.js';
 
 /** The most local steps one client may take in one exchange; the timing layer caps lower. */

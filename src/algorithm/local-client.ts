@@ -4,7 +4,8 @@
 import type { Objective } from '../problem/objective.js';
 import { assertBudget, assertClientId, assertConfig, assertObjectiveDimension, requireField } from './invariants.js';
 import { descend, freshDifference } from './local-descent.js';
-import type { Budget, Fields, MethodConfig } from './method.js';
+import type { Budget, MethodConfig } from './method.js';
+import type { Fields } from '../vec/fields.js';
 
 export interface LocalClientState {
   dim: number;

@@ -3,7 +3,7 @@
 // gd, FedAvg and FedNova bit-identical where their definitions coincide.
 
 import type { Objective } from '../problem/objective.js';
-import type { MinibatchSampler } from './method.js';
+import type { MinibatchSampler } from '../problem/minibatch-sampler.js';
 
 /** out <- the gradient used by one local step: full, or over the sampler's next minibatch. */
 export function stepGradient(objective: Objective, sampler: MinibatchSampler | null, y: Float64Array, out: Float64Array): void {

@@ -2,7 +2,7 @@
 // so that the engine and the coordinator can branch on the cause (E_NOT_FINITE: a client
 // diverged; E_SEQUENCE: exchanges driven out of order) and tests can assert it.
 
-import { CodedError } from '../coded-error.js';
+import { CodedError } from '../base/coded-error.js';
 
 export type MethodErrorCode =
   /** a method name the registry does not know */

@@ -4,9 +4,8 @@
 // between `broadcast`/`work` (down) and `work`/`aggregate` (up).
 
 import type { Objective } from '../problem/objective.js';
-
-/** Named vectors that cross the wire in one direction of one exchange. */
-export type Fields = Record<string, Float64Array>;
+import type { MinibatchSampler } from '../problem/minibatch-sampler.js';
+import type { Fields } from '../vec/fields.js';
 
 export type MethodName = 'gd' | 'fedavg' | 'fedprox' | 'fednova' | 'scaffold' | 'fedlin' | 'fedsplit';
 
@@ -22,11 +21,6 @@ export interface MethodConfig {
   proxCoefficient: number;
   /** FedSplit: stop inner prox steps once the gradient norm is at or below this (0: run all tau_i) */
   proxTolerance: number;
-}
-
-/** Draws the sample indices of one minibatch; the engine seeds it per (client, round, step). */
-export interface MinibatchSampler {
-  next(): Uint32Array;
 }
 
 /** What a client may spend in one exchange, fixed before it starts. */

@@ -20,7 +20,7 @@ import { parseLadderOption } from '../report/ladder-option.js';
 import { ReportError } from '../report/report-error.js';
 import { buildComparison, comparisonCsv, comparisonJson, type Comparison, type VariantOutcome } from '../report/compare-table.js';
 import { buildComparePage } from '../report/compare-page.js';
-import { formatNumber } from './text-table.js';
+import { formatNumber } from '../report/text-table.js';
 
 export const compareFiles = { html: 'compare.html', csv: 'compare.csv', json: 'compare.json' } as const;
 

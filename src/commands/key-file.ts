@@ -13,7 +13,7 @@ import { randomBytes } from 'node:crypto';
 import { mkdtempSync, readFileSync, rmSync, statSync, writeFileSync, type Stats } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
-import { CodedError } from '../coded-error.js';
+import { CodedError } from '../base/coded-error.js';
 
 /** Names the key file when --key-file is absent. */
 export const KEY_FILE_ENVIRONMENT_VARIABLE = 'ROUNDWIRE_KEY_FILE';

@@ -3,7 +3,7 @@
 // stay readable. No colour is used, so NO_COLOR needs no special case here.
 
 import type { RoundRecord } from '../engine/round-record.js';
-import { formatNumber } from './text-table.js';
+import { formatNumber } from '../report/text-table.js';
 
 export interface ProgressSink {
   write(text: string): void;

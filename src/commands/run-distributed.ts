@@ -64,7 +64,7 @@ export interface DistributedRunResult {
  * added (the true stop reason, control traffic, socket counters, workers).
  */
 export function writeDistributedResults(outcome: RunOutcome, outDir: string): RunSummary {
-  const summary = finishRun(engineOutcomeOf(outcome), 'distributed', outDir);
+  finishRun(engineOutcomeOf(outcome), 'distributed', outDir);
   const file = join(outDir, resultFiles.outcome);
   const merged = { ...(JSON.parse(readFileSync(file, 'utf8')) as RunSummary), ...distributedDetails(outcome) };
   writeFileSync(file, `${JSON.stringify(merged, null, 2)}\n`);

@@ -5,7 +5,7 @@ import type { RunOutcome, RunSummary } from '../engine/run-summary.js';
 import { buildRunSummary } from '../engine/run-summary.js';
 import { predictRun } from '../engine/predict-run.js';
 import { writeResultsFolder } from '../results/results-folder.js';
-import { formatTable } from './text-table.js';
+import { formatTable } from '../report/text-table.js';
 import { formatBytes } from './progress.js';
 
 export function finishRun(outcome: RunOutcome, runtime: RunSummary['runtime'], outDir: string): RunSummary {

@@ -6,7 +6,7 @@ import { mkdirSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import type { Scenario } from '../scenario/schema.js';
 import { buildShard } from '../data/build-shard.js';
-import type { Shard } from '../data/shard.js';
+import type { Shard } from '../problem/shard.js';
 
 export function shardCsv(shard: Shard): string {
   const p = shard.featureCount;

@@ -2,7 +2,7 @@
 
 import type { Scenario } from '../scenario/schema.js';
 import { theoryOf } from '../theory/plan-theory.js';
-import { formatTable } from './text-table.js';
+import { formatTable } from '../report/text-table.js';
 
 export interface TheoryReport {
   scenario: string;

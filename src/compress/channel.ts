@@ -3,7 +3,7 @@
 // overrides. This file holds what both directions and both ends share, so that the sender and
 // the receiver of a field always agree on how it travels.
 
-import type { Rng } from '../data/rng.js';
+import type { Rng } from '../base/rng.js';
 import type { CompressorSpec, Scenario } from '../scenario/schema.js';
 import { isExact } from './compressor.js';
 

@@ -2,7 +2,7 @@
 // validator, the coordinator, a test) can branch on it; the codes E_DIMENSION and E_NOT_FINITE
 // mean the same here as in the protocol.
 
-import { CodedError } from '../coded-error.js';
+import { CodedError } from '../base/coded-error.js';
 
 export type CompressErrorCode =
   /** A vector whose length does not match its channel, or a dimension below 1. */

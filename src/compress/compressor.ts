@@ -3,7 +3,7 @@
 // index, so runs repeat); rand-k keeps a seeded uniform k-subset, scaled by d/k when unbiased
 // (Stich, Cordonnier and Jaggi, NeurIPS 2018, analyse both with error feedback).
 
-import type { Rng } from '../data/rng.js';
+import type { Rng } from '../base/rng.js';
 import type { CompressorSpec } from '../scenario/schema.js';
 import { allFinite } from '../vec/kernels.js';
 import { topKIndices } from '../vec/topk.js';

@@ -8,7 +8,7 @@
 // 'none' at f64 goes dense and exact with no replica. Both ends add the same numbers in the
 // same order, so the two replicas stay equal bit for bit as long as no message is lost.
 
-import type { Fields } from '../algorithm/method.js';
+import type { Fields } from '../vec/fields.js';
 import { CompressError } from './compress-error.js';
 import type { ChannelSpec, RngForField } from './channel.js';
 import { compressorForField, downlinkMode, rngForSpec } from './channel.js';

@@ -4,7 +4,7 @@
 //   c = C(v + e);  e <- v + e - c.
 // Summed over rounds, sum(c) + e = sum(v): the receiver gets every input in the end.
 
-import type { Rng } from '../data/rng.js';
+import type { Rng } from '../base/rng.js';
 import type { CompressorSpec } from '../scenario/schema.js';
 import { CompressError } from './compress-error.js';
 import { axpyCompressed, type CompressedVector } from './compressed-vector.js';

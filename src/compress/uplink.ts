@@ -9,7 +9,7 @@
 // Memories and replicas are keyed by field name, so a method must not reuse a field name for two
 // different quantities (e.g. across the exchanges of one round).
 
-import type { Fields } from '../algorithm/method.js';
+import type { Fields } from '../vec/fields.js';
 import type { ChannelSpec, RngForField } from './channel.js';
 import { compressorForField, rngForSpec } from './channel.js';
 import { decompress, validateCompressedVector, type CompressedVector } from './compressed-vector.js';

@@ -16,9 +16,9 @@ import { featureScales } from './covariance.js';
 import { DataError } from './data-error.js';
 import { loadDataset } from './datasets.js';
 import { partitionPool, type LabelledPool } from './partition.js';
-import { Rng } from './rng.js';
+import { Rng } from '../base/rng.js';
 import { samplesForAllClients, samplesForClient } from './sample-counts.js';
-import type { Shard } from './shard.js';
+import type { Shard } from '../problem/shard.js';
 import { drawSamples, type SampleModel } from './synthetic.js';
 import { clientFeatureMean, clientMinimizer, parameterDimension, syntheticCentre } from './synthetic-models.js';
 

@@ -3,8 +3,6 @@
 // one (e.g. "data.samplesPerClient"), and the message names it too.
 
 export type DataErrorCode =
-  /** A random-number request outside its domain (n < 1, shape <= 0, k > n, ...). */
-  | 'E_RNG_ARGUMENT'
   /** A data specification that cannot be honoured (list length, too few groups, ...). */
   | 'E_DATA_SPEC'
   /** A data set that cannot be loaded or does not have the expected shape. */

@@ -13,7 +13,7 @@
 
 import type { Scenario } from '../scenario/schema.js';
 import { DataError } from './data-error.js';
-import type { Rng } from './rng.js';
+import type { Rng } from '../base/rng.js';
 
 export type PartitionSpec = Scenario['data']['partition'];
 

@@ -4,7 +4,7 @@
 
 import type { CountSpec } from '../scenario/schema.js';
 import { DataError } from './data-error.js';
-import { Rng } from './rng.js';
+import { Rng } from '../base/rng.js';
 
 export function samplesForClient(spec: CountSpec, clientCount: number, seed: number, clientId: number): number {
   if (!Number.isInteger(clientId) || clientId < 0 || clientId >= clientCount) {

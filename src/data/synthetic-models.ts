@@ -3,7 +3,7 @@
 // Each is drawn from its own derived stream, so a knob changes only what it names: raising the
 // spread moves the client models and leaves x0, the features and the noise draws as they were.
 
-import { Rng } from './rng.js';
+import { Rng } from '../base/rng.js';
 import type { ProblemKind } from '../problem/objective.js';
 
 /**

@@ -15,7 +15,7 @@
 
 import type { ProblemKind } from '../problem/objective.js';
 import { DataError } from './data-error.js';
-import type { Rng } from './rng.js';
+import type { Rng } from '../base/rng.js';
 
 export interface SampleModel {
   kind: ProblemKind;

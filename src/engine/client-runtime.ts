@@ -3,7 +3,8 @@
 // The in-process engine and the worker process run this very class, which is what makes their
 // models equal bit for bit.
 
-import type { Budget, Method, MinibatchSampler } from '../algorithm/method.js';
+import type { Budget, Method } from '../algorithm/method.js';
+import type { MinibatchSampler } from '../problem/minibatch-sampler.js';
 import { methodByName } from '../algorithm/registry.js';
 import type { Objective } from '../problem/objective.js';
 import { UniformMinibatchSampler } from '../problem/minibatch-sampler.js';

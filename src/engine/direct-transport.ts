@@ -2,7 +2,7 @@
 // and answers its down at once, and every up comes back. The in-process engine runs on it; so
 // do the round map for predictions and the field-shape probe, over the plan's ideal twin.
 
-import { hasErrorCode } from '../coded-error.js';
+import { hasErrorCode } from '../base/coded-error.js';
 import type { ClientRuntime } from './client-runtime.js';
 import type { ClientReturn, ExchangeOrder, ExchangeReply, ExchangeTransport } from './walk-transport.js';
 

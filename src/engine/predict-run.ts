@@ -7,6 +7,7 @@ import type { Objective } from '../problem/objective.js';
 import { predictRate } from '../theory/predict-rate.js';
 import { affineFixedPoint, FIXED_POINT_DIMENSION_MAX } from '../theory/fixed-point.js';
 import { TheoryError } from '../theory/theory-error.js';
+import { LinalgError } from '../linalg/linalg-error.js';
 import type { PlanTheory } from '../theory/plan-theory.js';
 import { buildRoundMap, predictionBlocker } from './round-map.js';
 import type { RunPlan } from './run-plan.js';
@@ -52,7 +53,7 @@ export function predictRun(plan: RunPlan, theory: PlanTheory, initialModel: Floa
   try {
     fixed = affineFixedPoint(roundMap.map, roundMap.start.length, { base: roundMap.start });
   } catch (error) {
-    if (error instanceof TheoryError) return { ...none(`no floor: ${error.message}`), spectralRadius: rate.spectralRadius };
+    if (error instanceof TheoryError || error instanceof LinalgError) return { ...none(`no floor: ${error.message}`), spectralRadius: rate.spectralRadius };
     throw error;
   }
   const limit = roundMap.modelOf(fixed.state);

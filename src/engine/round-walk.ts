@@ -11,7 +11,7 @@
 // virtual-clock run ends on the same model bit for bit in both.
 
 import { fieldsPayloadBytes } from '../compress/payload-bytes.js';
-import { hasErrorCode } from '../coded-error.js';
+import { hasErrorCode } from '../base/coded-error.js';
 import { speedModelFor, type SpeedModel } from '../timing/round-speed.js';
 import { VirtualClock } from '../timing/virtual-clock.js';
 import { allFinite } from '../vec/kernels.js';

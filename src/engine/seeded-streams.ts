@@ -1,7 +1,7 @@
 // Every random stream of a run, named in one place, so that the engine, the coordinator and the
 // workers draw exactly the same numbers for the same (round, exchange, client, field).
 
-import { Rng } from '../data/rng.js';
+import { Rng } from '../base/rng.js';
 import type { RngForField } from '../compress/channel.js';
 
 export function minibatchRng(seed: number, clientId: number, round: number, exchange: string): Rng {

@@ -2,7 +2,8 @@
 // (each client's replica differs once rounds are skipped or compressed). The in-process engine
 // and the coordinator both drive it.
 
-import type { Fields, Method, Upload } from '../algorithm/method.js';
+import type { Method, Upload } from '../algorithm/method.js';
+import type { Fields } from '../vec/fields.js';
 import { methodByName } from '../algorithm/registry.js';
 import { DownlinkEncoder } from '../compress/downlink.js';
 import { UplinkDecoder } from '../compress/uplink.js';

@@ -1,7 +1,7 @@
 // Builds a client's objective from the problem specification and its shard: the one place that
 // maps a problem kind to its implementation.
 
-import type { Shard } from '../data/shard.js';
+import type { Shard } from './shard.js';
 import { LeastSquaresObjective } from './least-squares.js';
 import { LogisticObjective } from './logistic.js';
 import type { Objective, ObjectiveSpec } from './objective.js';

@@ -2,9 +2,9 @@
 // all three objectives. The p x p matrix is never formed: Lanczos only needs v -> A^T (A v) / n,
 // two passes over the data, and the extremes usually converge long before p steps.
 
-import type { Shard } from '../data/shard.js';
+import type { Shard } from './shard.js';
 import { matTVec, matVec, scale } from '../vec/kernels.js';
-import { semidefiniteExtremeEigenvalues } from '../theory/spectrum.js';
+import { semidefiniteExtremeEigenvalues } from '../linalg/spectrum.js';
 
 export interface GramExtremes {
   /** 0 when the shard has fewer independent rows than features (to rounding) */

@@ -4,7 +4,7 @@
 // Its curvature bounds are exact: the extreme eigenvalues of that Hessian, computed once on
 // first request.
 
-import type { Shard } from '../data/shard.js';
+import type { Shard } from './shard.js';
 import { axpy, normSquared, scale } from '../vec/kernels.js';
 import { gramExtremeEigenvalues, type GramExtremes } from './gram-spectrum.js';
 import type { Objective } from './objective.js';

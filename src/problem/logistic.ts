@@ -5,7 +5,7 @@
 // (equality at z = 0), L <= lambda_max(A^T A / n)/4 + lambda; the loss term is only convex, so
 // mu >= lambda is all that holds for every x.
 
-import type { Shard } from '../data/shard.js';
+import type { Shard } from './shard.js';
 import { axpy, normSquared, scale } from '../vec/kernels.js';
 import { gramExtremeEigenvalues } from './gram-spectrum.js';
 import type { Objective } from './objective.js';

@@ -1,9 +1,13 @@
 // Uniform minibatches without replacement within a batch (batches are independent of each other),
 // drawn from the seeded Rng the engine hands over, so that a run repeats bit for bit.
 
-import type { MinibatchSampler } from '../algorithm/method.js';
-import type { Rng } from '../data/rng.js';
+import type { Rng } from '../base/rng.js';
 import { ProblemError } from './problem-error.js';
+
+/** Draws the sample indices of one minibatch; the engine seeds it per (client, round, step). */
+export interface MinibatchSampler {
+  next(): Uint32Array;
+}
 
 export class UniformMinibatchSampler implements MinibatchSampler {
   private readonly rng: Rng;

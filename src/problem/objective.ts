@@ -2,8 +2,6 @@
 //   f_i(x) = (1/n_i) sum_{s in shard i} loss(x; a_s, b_s) + (lambda/2) ||x||^2,
 // so that with weights p_i = n_i/n the global f = sum_i p_i f_i is the pooled empirical risk.
 
-import type { Shard } from '../data/shard.js';
-
 export type ProblemKind = 'least-squares' | 'logistic' | 'softmax';
 
 export interface Objective {

@@ -1,7 +1,7 @@
 // Errors of the objectives and of the oracle that solves them. The code is stable so that the
 // scenario loader, the runtimes and the tests can branch on the cause.
 
-import { CodedError } from '../coded-error.js';
+import { CodedError } from '../base/coded-error.js';
 
 export type ProblemErrorCode =
   /** a shard whose arrays do not match its counts, or a shard with no samples */

@@ -1,7 +1,7 @@
 // The invariants an objective relies on, checked once where the objective is built (shard shape,
 // finite data, lambda) or at each call that takes outside indices (a minibatch).
 
-import type { Shard } from '../data/shard.js';
+import type { Shard } from './shard.js';
 import { allFinite } from '../vec/kernels.js';
 import { ProblemError } from './problem-error.js';
 

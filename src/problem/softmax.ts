@@ -7,7 +7,7 @@
 // hence L <= lambda_max(A^T A / n)/2 + lambda. Adding one vector to every row of W leaves every
 // loss unchanged, so the loss term is flat along those directions and mu = lambda exactly.
 
-import type { Shard } from '../data/shard.js';
+import type { Shard } from './shard.js';
 import { axpy, normSquared, scale } from '../vec/kernels.js';
 import { gramExtremeEigenvalues } from './gram-spectrum.js';
 import type { Objective } from './objective.js';

@@ -4,7 +4,7 @@
 // bounds are weighted sums of the clients' bounds, except for least squares, where the interface
 // promises exact values: there the Hessian is constant and its extremes are computed directly.
 
-import { semidefiniteExtremeEigenvalues } from '../theory/spectrum.js';
+import { semidefiniteExtremeEigenvalues } from '../linalg/spectrum.js';
 import { axpy, zero } from '../vec/kernels.js';
 import type { Objective, ProblemKind } from './objective.js';
 import { ProblemError, assertLength } from './problem-error.js';

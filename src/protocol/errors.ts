@@ -2,7 +2,7 @@
 // can reply with it in an `error` message, count it in a metric labelled by reason, and a test
 // can assert it; the message names the offending field path for the human reading the log.
 
-import { CodedError } from '../coded-error.js';
+import { CodedError } from '../base/coded-error.js';
 
 export const PROTOCOL_ERROR_CODES = [
   /** The frame is not one MessagePack value of the core types this protocol uses. */

@@ -2,7 +2,7 @@
 // overlaid against rounds, payload bytes and seconds. A variant is drawn in its method's colour;
 // variants of one method differ by line style.
 
-import { formatNumber } from '../commands/text-table.js';
+import { formatNumber } from './text-table.js';
 import { curveChartSpec, type CurveAxis, type CurveSeries } from './chart-specs.js';
 import { tableHeader, tableRows, verdictLines, type Comparison, type VariantOutcome } from './compare-table.js';
 import { figure, grid, heading, page, paragraph, section, table, type Html } from './html-page.js';

@@ -5,7 +5,7 @@
 
 import type { RoundRecord } from '../engine/round-record.js';
 import type { RunSummary } from '../engine/run-summary.js';
-import { columnTitle, formatNumber, formatTable, type Column } from '../commands/text-table.js';
+import { columnTitle, formatNumber, formatTable, type Column } from './text-table.js';
 import type { Variant } from './compare-variants.js';
 import type { Ladder } from './ladder.js';
 

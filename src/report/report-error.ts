@@ -1,6 +1,6 @@
 // Problems with a report's or a comparison's input. The CLI maps every code to exit code 2.
 
-import { CodedError } from '../coded-error.js';
+import { CodedError } from '../base/coded-error.js';
 
 export type ReportErrorCode =
   /** the results folder or one of its files is missing or unreadable */

@@ -3,7 +3,7 @@
 // histogram and the summary table (measured beside predicted).
 
 import type { RunSummary } from '../engine/run-summary.js';
-import { formatNumber } from '../commands/text-table.js';
+import { formatNumber } from './text-table.js';
 import { bytesChartSpec, curveChartSpec, histogramChartSpec, timelineChartSpec, type CurveAxis, type CurveSeries } from './chart-specs.js';
 import { figure, grid, heading, page, paragraph, section, table, type Html, type TableCell } from './html-page.js';
 import { methodColour, PREDICTED_DASH, SOLID_DASH } from './palette.js';

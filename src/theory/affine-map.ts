@@ -1,18 +1,17 @@
 // A method's round as a map of its whole state s (server model and every client's persistent
 // state, flattened to one Float64Array). For quadratic objectives with full gradients and no
 // compression every round is affine, T(s) = M s + b; the predictions read M and b through
+import type { LinearOperator } from '../linalg/linear-operator.js';
 // applications of T only, so that any method the engine can run can be predicted without a
 // formula of its own.
 
-import { Rng } from '../data/rng.js';
+import { Rng } from '../base/rng.js';
 import { allFinite, norm2 } from '../vec/kernels.js';
 import { TheoryError, assertTheoryLength } from './theory-error.js';
 
 /** One round: the state after it, as a new array. Must not modify or keep its argument. */
 export type RoundMap = (state: Float64Array) => Float64Array;
 
-/** v -> M v as a new array. */
-export type LinearOperator = (v: Float64Array) => Float64Array;
 
 export interface LinearPartOptions {
   /**

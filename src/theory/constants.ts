@@ -8,7 +8,8 @@ import { ProblemError, assertLength } from '../problem/problem-error.js';
 import { WeightedSumObjective } from '../problem/weighted-sum.js';
 import { distanceSquared, norm2 } from '../vec/kernels.js';
 import { solveOptimum, type OracleOptions } from './oracle.js';
-import { hessianExtremeEigenvalues } from './spectrum.js';
+import { LinalgError } from '../linalg/linalg-error.js';
+import { hessianExtremeEigenvalues } from '../problem/hessian-spectrum.js';
 
 export interface ClientConstants {
   /** L_i: the client's smoothness bound (exact for least squares) */
@@ -44,6 +45,8 @@ function ownMinimizer(client: Objective, options: OracleOptions): Float64Array |
   try {
     return solveOptimum(client, options).x;
   } catch (error) {
+    // Cholesky refuses the Hessian itself (least squares) or Newton's shifts give up (smooth losses).
+    if (error instanceof LinalgError && error.code === 'E_LINALG_NOT_POSITIVE_DEFINITE') return null;
     if (error instanceof ProblemError && error.code === 'E_NOT_POSITIVE_DEFINITE') return null;
     throw error;
   }

@@ -21,7 +21,7 @@
 import type { Objective } from '../problem/objective.js';
 import { allFinite } from '../vec/kernels.js';
 import { assembleHessian } from './oracle.js';
-import { luFactor, luSolve } from './lu.js';
+import { luFactor, luSolve } from '../linalg/lu.js';
 import { TheoryError, assertTheoryLength } from './theory-error.js';
 
 export interface QuadraticClient {

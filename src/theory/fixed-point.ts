@@ -14,7 +14,7 @@
 
 import { norm2 } from '../vec/kernels.js';
 import { applyRoundMap, linearPart, type RoundMap } from './affine-map.js';
-import { gmres } from './gmres.js';
+import { gmres } from '../linalg/gmres.js';
 import { TheoryError, assertTheoryLength } from './theory-error.js';
 
 export interface FixedPointOptions {

@@ -12,7 +12,8 @@
 import type { Objective } from '../problem/objective.js';
 import { ProblemError } from '../problem/problem-error.js';
 import { axpy, dot, norm2, scale } from '../vec/kernels.js';
-import { choleskyFactor, choleskySolve } from './cholesky.js';
+import { LinalgError } from '../linalg/linalg-error.js';
+import { choleskyFactor, choleskySolve } from '../linalg/cholesky.js';
 
 export interface OptimumCertificate {
   x: Float64Array;
@@ -77,7 +78,7 @@ function factorWithShift(h: Float64Array, n: number): Float64Array {
   try {
     return choleskyFactor(h, n);
   } catch (error) {
-    if (!(error instanceof ProblemError) || error.code !== 'E_NOT_POSITIVE_DEFINITE') throw error;
+    if (!(error instanceof LinalgError) || error.code !== 'E_LINALG_NOT_POSITIVE_DEFINITE') throw error;
   }
   let diagonalMax = 0;
   for (let j = 0; j < n; j++) diagonalMax = Math.max(diagonalMax, Math.abs(h[j * n + j]));
@@ -88,7 +89,7 @@ function factorWithShift(h: Float64Array, n: number): Float64Array {
     try {
       return choleskyFactor(shifted, n);
     } catch (error) {
-      if (!(error instanceof ProblemError) || error.code !== 'E_NOT_POSITIVE_DEFINITE') throw error;
+      if (!(error instanceof LinalgError) || error.code !== 'E_LINALG_NOT_POSITIVE_DEFINITE') throw error;
     }
     shift *= 10;
   }

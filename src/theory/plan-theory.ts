@@ -5,7 +5,7 @@
 
 import type { Scenario } from '../scenario/schema.js';
 import { hashOf } from '../scenario/plan-hash.js';
-import { buildProblemInstance, type ProblemInstance } from '../problem/problem-instance.js';
+import { buildProblemInstance, type ProblemInstance } from '../data/problem-instance.js';
 import { solveOptimum, type OptimumCertificate } from './oracle.js';
 import { computeConstants, type ProblemConstants } from './constants.js';
 

@@ -17,9 +17,10 @@
 // whose eigenvalues cluster just below the dominant one, takes thousands of rounds; a Krylov
 // space of a few dozen vectors separates such a cluster in tens of rounds.
 
-import { Rng } from '../data/rng.js';
-import { dominantEigenvalue } from './arnoldi.js';
-import { linearPart, type LinearOperator, type RoundMap } from './affine-map.js';
+import { Rng } from '../base/rng.js';
+import { dominantEigenvalue } from '../linalg/arnoldi.js';
+import { linearPart, type RoundMap } from './affine-map.js';
+import type { LinearOperator } from '../linalg/linear-operator.js';
 import { TheoryError } from './theory-error.js';
 
 export interface PredictRateOptions {

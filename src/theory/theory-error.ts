@@ -2,7 +2,7 @@
 // fitted curves). The code is stable so that the engine and the report can branch on the cause:
 // E_SINGULAR, for instance, means that a method's round map has no unique limit to predict.
 
-import { CodedError } from '../coded-error.js';
+import { CodedError } from '../base/coded-error.js';
 
 export type TheoryErrorCode =
   /** a state, matrix or vector whose length does not match the dimension it is used with */

@@ -2,7 +2,7 @@
 // a seeded draw from a uniform integer range. A round policy may lower or raise them per round
 // (deadline); the plan is what the policy starts from.
 
-import { Rng } from '../data/rng.js';
+import { Rng } from '../base/rng.js';
 import type { CountSpec } from '../scenario/schema.js';
 import { TimingError, assertIntegerInRange } from './errors.js';
 

@@ -1,7 +1,7 @@
 // Who takes part in a round: a seeded sample without replacement, drawn from
 // Rng.derive(seed, 'participants', round) so that every process agrees on it without talking.
 
-import { Rng } from '../data/rng.js';
+import { Rng } from '../base/rng.js';
 import { TimingError, assertIntegerInRange } from './errors.js';
 
 /** Participants per round for a fraction of m clients: max(1, round(fraction m)), half rounding up. */

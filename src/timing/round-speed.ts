@@ -9,7 +9,7 @@
 // value does not depend on which other clients or rounds were asked for first: the engine, the
 // coordinator and a worker all get the same number.
 
-import { Rng } from '../data/rng.js';
+import { Rng } from '../base/rng.js';
 import type { Scenario } from '../scenario/schema.js';
 import { assertIntegerInRange } from './errors.js';
 import { drawSlowdowns } from './slowdown.js';

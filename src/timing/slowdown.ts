@@ -17,7 +17,7 @@
 // - two-class(fraction, factor): round(fraction m) clients (half rounds up) have s = factor, the
 //   rest s = 1.
 
-import { Rng } from '../data/rng.js';
+import { Rng } from '../base/rng.js';
 import type { Scenario } from '../scenario/schema.js';
 import { TimingError, assertIntegerInRange } from './errors.js';
 

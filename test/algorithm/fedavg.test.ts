@@ -1,7 +1,8 @@
 import { Matrix, solve } from 'ml-matrix';
 import { describe, expect, it } from 'vitest';
 import { fedavg } from '../../src/algorithm/fedavg.js';
-import type { MinibatchSampler, Upload } from '../../src/algorithm/method.js';
+import type { Upload } from '../../src/algorithm/method.js';
+import type { MinibatchSampler } from '../../src/problem/minibatch-sampler.js';
 import { MethodError } from '../../src/algorithm/method-error.js';
 import { fromColumn, standardProblem } from './fixtures/least-squares-problem.js';
 import { clientMinimizer, localStepMap, referenceLocalDescent } from './fixtures/quadratic-reference.js';

@@ -1,5 +1,6 @@
 import { describe, expect, it } from 'vitest';
-import type { Fields, Method, MethodName } from '../../src/algorithm/method.js';
+import type { Method, MethodName } from '../../src/algorithm/method.js';
+import type { Fields } from '../../src/vec/fields.js';
 import { methodByName } from '../../src/algorithm/registry.js';
 import { standardProblem } from './fixtures/least-squares-problem.js';
 import { bitwiseEqual, budgetOf, modelOf, runRound, runRounds, startRun, type Run } from './fixtures/round-loop.js';

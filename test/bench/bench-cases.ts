@@ -6,9 +6,9 @@
 import { performance } from 'node:perf_hooks';
 import { dot, matVec } from '../../src/vec/kernels.js';
 import { topKIndices } from '../../src/vec/topk.js';
-import { Rng } from '../../src/data/rng.js';
+import { Rng } from '../../src/base/rng.js';
 import { createObjective } from '../../src/problem/create-objective.js';
-import type { Shard } from '../../src/data/shard.js';
+import type { Shard } from '../../src/problem/shard.js';
 import type { BenchResult } from './bench-report.js';
 
 export interface BenchSizes {

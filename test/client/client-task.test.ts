@@ -9,7 +9,7 @@ import clientTask from '../../client/client-task.js';
 import { ClientRuntime, type EncodedFields } from '../../src/engine/client-runtime.js';
 import { ServerRuntime } from '../../src/engine/server-runtime.js';
 import { planFor } from '../../src/engine/in-process-engine.js';
-import { clientObjective } from '../../src/problem/problem-instance.js';
+import { clientObjective } from '../../src/data/problem-instance.js';
 import { loadScenarioFile } from '../../src/scenario/load-scenario.js';
 import { repoRoot } from '../integration/cli-process.js';
 

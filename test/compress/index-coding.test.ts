@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { Rng } from '../../src/data/rng.js';
+import { Rng } from '../../src/base/rng.js';
 import { CompressError } from '../../src/compress/compress-error.js';
 import {
   decodeIndicesDeltaVarint,

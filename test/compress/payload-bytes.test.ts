@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { Rng } from '../../src/data/rng.js';
+import { Rng } from '../../src/base/rng.js';
 import { encodeIndicesDeltaVarint } from '../../src/compress/index-coding.js';
 import { informationBoundBits, payloadBytes, valueBytes } from '../../src/compress/payload-bytes.js';
 

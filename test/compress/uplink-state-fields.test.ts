@@ -4,7 +4,7 @@
 // ||v - topk(v)||^2 <= (1 - k/d)||v||^2; Stich, Cordonnier and Jaggi, NeurIPS 2018), while
 // error feedback on the value itself keeps delivering sparse caricatures of it.
 import { describe, expect, it } from 'vitest';
-import { Rng } from '../../src/data/rng.js';
+import { Rng } from '../../src/base/rng.js';
 import { UplinkDecoder, UplinkEncoder } from '../../src/compress/uplink.js';
 import type { ChannelSpec } from '../../src/compress/channel.js';
 

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { Rng } from '../../src/data/rng.js';
+import { Rng } from '../../src/base/rng.js';
 import { decompress } from '../../src/compress/compressed-vector.js';
 import { compress } from '../../src/compress/compressor.js';
 import { denseBytes, payloadBytes, sparseBytes } from '../../src/compress/payload-bytes.js';

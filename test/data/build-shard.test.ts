@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { buildAllShards, buildShard, POOL_CACHE_ENTRIES_MAX, sampleCountsOf } from '../../src/data/build-shard.js';
-import type { Shard } from '../../src/data/shard.js';
+import type { Shard } from '../../src/problem/shard.js';
 import type { Scenario } from '../../src/scenario/schema.js';
 import { scenarioWith } from './scenario-fixture.js';
 

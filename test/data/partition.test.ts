@@ -10,7 +10,7 @@ import {
   type LabelledPool,
   type PartitionSpec,
 } from '../../src/data/partition.js';
-import { Rng } from '../../src/data/rng.js';
+import { Rng } from '../../src/base/rng.js';
 
 /** A pool of `perClass` samples of each of `classes` labels, interleaved (label = index mod classes). */
 function balancedPool(classes: number, perClass: number): LabelledPool {

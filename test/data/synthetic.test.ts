@@ -2,7 +2,7 @@ import { EigenvalueDecomposition, Matrix, solve } from 'ml-matrix';
 import { describe, expect, it } from 'vitest';
 import { buildAllShards, buildShard, sampleCountsOf } from '../../src/data/build-shard.js';
 import { featureVariances } from '../../src/data/covariance.js';
-import type { Shard } from '../../src/data/shard.js';
+import type { Shard } from '../../src/problem/shard.js';
 import { CENTRE_NORM, clientFeatureMean, clientMinimizer, syntheticCentre } from '../../src/data/synthetic-models.js';
 import { dot, norm2 } from '../../src/vec/kernels.js';
 import { scenarioWith } from './scenario-fixture.js';

@@ -18,7 +18,7 @@ describe('fastest-k with k above the participants of a round', () => {
     const runs = {
       inProcess: await runCli(['run', 'scenarios/quickstart.yaml', '--in-process', '--out', join(dir, 'in-process'), ...overrideArgs(OVERRIDES)]),
       distributed: await runCli(['run', 'scenarios/quickstart.yaml', '--out', join(dir, 'distributed'), ...overrideArgs(OVERRIDES)]),
-      compare: await runCli(['compare', 'scenarios/quickstart.yaml', '--out', join(dir, 'compare'), ...overrideArgs({ ...OVERRIDES, sweep: '{method.name: [fedavg, fedlin]}' })]),
+      compare: await runCli(['compare', 'scenarios/quickstart.yaml', '--out', join(dir, 'compare'), ...overrideArgs(OVERRIDES), '--ladder', 'method.name:fedavg/fedlin']),
     };
     for (const [name, r] of Object.entries(runs)) {
       expect(r.code, `${name}: ${r.stderr}`).toBe(2);

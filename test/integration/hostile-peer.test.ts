@@ -13,7 +13,7 @@ import { decodeMessage, encodeMessage, fromWire, proveKey, PROTOCOL_VERSION, toW
 import { ClientRuntime, type EncodedFields } from '../../src/engine/client-runtime.js';
 import type { WirePlan } from '../../src/engine/run-plan.js';
 import { runInProcess } from '../../src/engine/in-process-engine.js';
-import { clientObjective } from '../../src/problem/problem-instance.js';
+import { clientObjective } from '../../src/data/problem-instance.js';
 import { loadScenarioFile } from '../../src/scenario/load-scenario.js';
 import { validateScenario } from '../../src/scenario/validate-scenario.js';
 import { CliProcess, freshDir, repoRoot, writeKeyFile } from './cli-process.js';

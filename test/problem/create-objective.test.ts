@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { Rng } from '../../src/data/rng.js';
+import { Rng } from '../../src/base/rng.js';
 import { createObjective } from '../../src/problem/create-objective.js';
 import { LeastSquaresObjective } from '../../src/problem/least-squares.js';
 import { LogisticObjective } from '../../src/problem/logistic.js';

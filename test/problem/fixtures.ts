@@ -1,10 +1,10 @@
 // Seeded test data and independent numerical references shared by the objective and oracle tests.
 
+import { CodedError } from '../../src/base/coded-error.js';
 import { EigenvalueDecomposition, Matrix } from 'ml-matrix';
-import type { Shard } from '../../src/data/shard.js';
-import { Rng } from '../../src/data/rng.js';
+import type { Shard } from '../../src/problem/shard.js';
+import { Rng } from '../../src/base/rng.js';
 import type { Objective } from '../../src/problem/objective.js';
-import { ProblemError } from '../../src/problem/problem-error.js';
 
 /** 'real': targets a.w + noise; 'binary': 0/1 labels from a noisy logistic model; a number C: class indices. */
 export type TargetKind = 'real' | 'binary' | number;
@@ -135,7 +135,7 @@ export function errorCode(fn: () => unknown): string {
   try {
     fn();
   } catch (error) {
-    return error instanceof ProblemError ? error.code : 'other';
+    return error instanceof CodedError ? error.code : 'other';
   }
   return 'none';
 }

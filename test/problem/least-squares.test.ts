@@ -1,6 +1,6 @@
 import { Matrix } from 'ml-matrix';
 import { describe, expect, it } from 'vitest';
-import { Rng } from '../../src/data/rng.js';
+import { Rng } from '../../src/base/rng.js';
 import { LeastSquaresObjective } from '../../src/problem/least-squares.js';
 import {
   centralDifferenceGradient,

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { Rng } from '../../src/data/rng.js';
+import { Rng } from '../../src/base/rng.js';
 import { UniformMinibatchSampler } from '../../src/problem/minibatch-sampler.js';
 import { errorCode } from './fixtures.js';
 

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { Rng } from '../../src/data/rng.js';
+import { Rng } from '../../src/base/rng.js';
 import { SoftmaxObjective } from '../../src/problem/softmax.js';
 import {
   centralDifferenceGradient,

@@ -1,6 +1,6 @@
 import { Packr, pack } from 'msgpackr';
 import { describe, expect, it } from 'vitest';
-import { Rng } from '../../src/data/rng.js';
+import { Rng } from '../../src/base/rng.js';
 import { decodeMessage, encodeMessage, NESTING_DEPTH_MAX } from '../../src/protocol/codec.js';
 import { ProtocolError } from '../../src/protocol/errors.js';
 import { HANDSHAKE_LIMITS } from '../../src/protocol/limits.js';

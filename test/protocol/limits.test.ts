@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { deltaVarintByteLength } from '../../src/compress/index-coding.js';
-import { Rng } from '../../src/data/rng.js';
+import { Rng } from '../../src/base/rng.js';
 import { encodeMessage } from '../../src/protocol/codec.js';
 import {
   frameLimitBytesFor,

@@ -11,9 +11,9 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { parse } from 'yaml';
 import { runCli } from '../cli/run-cli.js';
-import { formatNumber } from '../../src/commands/text-table.js';
+import { formatNumber } from '../../src/report/text-table.js';
 import type { Comparison, CompareRow, Ranking } from '../../src/report/compare-table.js';
-import { compareColumns, tableHeader } from '../../src/report/compare-table.js';
+import { compareColumns } from '../../src/report/compare-table.js';
 
 const root = mkdtempSync(join(tmpdir(), 'roundwire-compare-'));
 afterAll(() => rmSync(root, { recursive: true, force: true }));

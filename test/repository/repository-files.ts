@@ -41,13 +41,13 @@ export function repositoryTextFiles(): RepositoryFile[] {
   const files: RepositoryFile[] = [];
   for (const path of trackedPaths()) {
     const full = join(repoRoot, path);
-    let size: number;
+    let stat;
     try {
-      size = statSync(full).size;
+      stat = statSync(full);
     } catch {
       continue;
     }
-    if (size > TEXT_FILE_BYTES_MAX) continue;
+    if (!stat.isFile() || stat.size > TEXT_FILE_BYTES_MAX) continue;
     const text = readFileSync(full, 'utf8');
     if (!text.includes('\0')) files.push({ path, text });
   }

@@ -1,5 +1,5 @@
 // The code of the error an action throws, for tests that assert stable error codes.
-import { CodedError } from '../../src/coded-error.js';
+import { CodedError } from '../../src/base/coded-error.js';
 
 type CodedErrorClass = abstract new (...args: never[]) => CodedError<string>;
 

@@ -1,6 +1,6 @@
 import { Matrix } from 'ml-matrix';
 import { describe, expect, it } from 'vitest';
-import { Rng } from '../../src/data/rng.js';
+import { Rng } from '../../src/base/rng.js';
 import { affineDefect, applyRoundMap, linearPart } from '../../src/theory/affine-map.js';
 import { TheoryError } from '../../src/theory/theory-error.js';
 import { matrixMap, randomArray, randomMatrix } from './fixtures/affine-maps.js';

@@ -1,7 +1,7 @@
 import { CholeskyDecomposition, Matrix } from 'ml-matrix';
 import { describe, expect, it } from 'vitest';
-import type { Shard } from '../../src/data/shard.js';
-import { Rng } from '../../src/data/rng.js';
+import type { Shard } from '../../src/problem/shard.js';
+import { Rng } from '../../src/base/rng.js';
 import { LeastSquaresObjective } from '../../src/problem/least-squares.js';
 import { LogisticObjective } from '../../src/problem/logistic.js';
 import { WeightedSumObjective } from '../../src/problem/weighted-sum.js';

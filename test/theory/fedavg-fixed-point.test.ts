@@ -1,7 +1,7 @@
 import { Matrix, inverse, pseudoInverse } from 'ml-matrix';
 import { describe, expect, it } from 'vitest';
 import { fedavg } from '../../src/algorithm/fedavg.js';
-import { Rng } from '../../src/data/rng.js';
+import { Rng } from '../../src/base/rng.js';
 import { LeastSquaresObjective } from '../../src/problem/least-squares.js';
 import { LogisticObjective } from '../../src/problem/logistic.js';
 import { fedavgFixedPoint, leastSquaresQuadratic, type QuadraticClient } from '../../src/theory/fedavg-fixed-point.js';

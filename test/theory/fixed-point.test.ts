@@ -2,7 +2,7 @@ import { Matrix, solve } from 'ml-matrix';
 import { describe, expect, it } from 'vitest';
 import { fedavg } from '../../src/algorithm/fedavg.js';
 import { scaffold } from '../../src/algorithm/scaffold.js';
-import { Rng } from '../../src/data/rng.js';
+import { Rng } from '../../src/base/rng.js';
 import { affineFixedPoint, FIXED_POINT_DIMENSION_MAX } from '../../src/theory/fixed-point.js';
 import { TheoryError } from '../../src/theory/theory-error.js';
 import { fromColumn, standardProblem } from '../algorithm/fixtures/least-squares-problem.js';

@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import { fedavg } from '../../src/algorithm/fedavg.js';
 import { gd } from '../../src/algorithm/gd.js';
-import { Rng } from '../../src/data/rng.js';
+import { Rng } from '../../src/base/rng.js';
 import { fedavgFixedPoint } from '../../src/theory/fedavg-fixed-point.js';
 import { fitLinearRate, measureFloor, roundsToTarget, type CurvePoint } from '../../src/theory/measure-curve.js';
 import { predictRate } from '../../src/theory/predict-rate.js';

@@ -1,7 +1,7 @@
 import { CholeskyDecomposition, Matrix } from 'ml-matrix';
 import { describe, expect, it } from 'vitest';
-import type { Shard } from '../../src/data/shard.js';
-import { Rng } from '../../src/data/rng.js';
+import type { Shard } from '../../src/problem/shard.js';
+import { Rng } from '../../src/base/rng.js';
 import { LeastSquaresObjective } from '../../src/problem/least-squares.js';
 import { LogisticObjective } from '../../src/problem/logistic.js';
 import { SoftmaxObjective } from '../../src/problem/softmax.js';
@@ -119,6 +119,6 @@ describe('solveOptimum', () => {
 
   it('refuses least squares without a unique minimizer (lambda = 0, fewer samples than features)', () => {
     const shard = gaussianShard(Rng.fromSeed(6), 0, 3, 8, 'real');
-    expect(errorCode(() => solveOptimum(new LeastSquaresObjective(shard, 0)))).toBe('E_NOT_POSITIVE_DEFINITE');
+    expect(errorCode(() => solveOptimum(new LeastSquaresObjective(shard, 0)))).toBe('E_LINALG_NOT_POSITIVE_DEFINITE');
   });
 });

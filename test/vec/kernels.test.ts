@@ -1,7 +1,7 @@
 // Kernels against ml-matrix (a reference linear-algebra library) on seeded random data.
 import { describe, expect, it } from 'vitest';
 import { Matrix } from 'ml-matrix';
-import { Rng } from '../../src/data/rng.js';
+import { Rng } from '../../src/base/rng.js';
 import { add, allFinite, axpy, distanceSquared, dot, matTVec, matVec, norm2, normInf, normSquared, scale, subtract } from '../../src/vec/kernels.js';
 
 const rng = Rng.derive(11, 'test', 'kernels');

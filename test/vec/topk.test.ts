@@ -1,6 +1,6 @@
 // Top-k selection against a full sort (the definition), ties to the lower index.
 import { describe, expect, it } from 'vitest';
-import { Rng } from '../../src/data/rng.js';
+import { Rng } from '../../src/base/rng.js';
 import { topKIndices } from '../../src/vec/topk.js';
 
 function bySort(v: Float64Array, k: number): number[] {

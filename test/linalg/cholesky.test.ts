@@ -1,7 +1,7 @@
 import { CholeskyDecomposition, Matrix, solve } from 'ml-matrix';
 import { describe, expect, it } from 'vitest';
-import { Rng } from '../../src/data/rng.js';
-import { choleskyFactor, choleskySolve } from '../../src/theory/cholesky.js';
+import { Rng } from '../../src/base/rng.js';
+import { choleskyFactor, choleskySolve } from '../../src/linalg/cholesky.js';
 import { errorCode, relativeError } from '../problem/fixtures.js';
 
 /** B B^T / n + I for a random n x n B: symmetric positive definite by construction. */
@@ -36,9 +36,9 @@ describe('choleskyFactor and choleskySolve', () => {
 
   it('names the failing pivot of an indefinite or singular matrix', () => {
     // [[1, 2], [2, 1]] has eigenvalues 3 and -1; [[1, 1], [1, 1]] has 2 and 0.
-    expect(errorCode(() => choleskyFactor(Float64Array.of(1, 2, 2, 1), 2))).toBe('E_NOT_POSITIVE_DEFINITE');
+    expect(errorCode(() => choleskyFactor(Float64Array.of(1, 2, 2, 1), 2))).toBe('E_LINALG_NOT_POSITIVE_DEFINITE');
     expect(() => choleskyFactor(Float64Array.of(1, 1, 1, 1), 2)).toThrow(/pivot 1 of 2 is 0/);
-    expect(errorCode(() => choleskyFactor(Float64Array.of(Number.NaN), 1))).toBe('E_NOT_POSITIVE_DEFINITE');
-    expect(errorCode(() => choleskyFactor(Float64Array.of(1, 0, 0), 2))).toBe('E_DIMENSION');
+    expect(errorCode(() => choleskyFactor(Float64Array.of(Number.NaN), 1))).toBe('E_LINALG_NOT_POSITIVE_DEFINITE');
+    expect(errorCode(() => choleskyFactor(Float64Array.of(1, 0, 0), 2))).toBe('E_LINALG_DIMENSION');
   });
 });

@@ -1,14 +1,14 @@
 import { EigenvalueDecomposition, Matrix } from 'ml-matrix';
 import { describe, expect, it } from 'vitest';
-import { Rng } from '../../src/data/rng.js';
+import { Rng } from '../../src/base/rng.js';
 import { LeastSquaresObjective } from '../../src/problem/least-squares.js';
 import {
   extremeEigenvalues,
-  hessianExtremeEigenvalues,
   semidefiniteExtremeEigenvalues,
   tridiagonalEigen,
   type SymmetricOperator,
-} from '../../src/theory/spectrum.js';
+} from '../../src/linalg/spectrum.js';
+import { hessianExtremeEigenvalues } from '../../src/problem/hessian-spectrum.js';
 import { errorCode, featureMatrix, gaussianShard, symmetricExtremes } from '../problem/fixtures.js';
 
 function denseOperator(m: Matrix): SymmetricOperator {
@@ -116,11 +116,11 @@ describe('extremeEigenvalues (Lanczos with full reorthogonalization)', () => {
     };
     expect(semidefiniteExtremeEigenvalues(gram, 12).smallest).toBe(0);
     const indefinite = randomSymmetric(Rng.fromSeed(5), 6);
-    expect(errorCode(() => semidefiniteExtremeEigenvalues(denseOperator(indefinite), 6))).toBe('E_NOT_POSITIVE_DEFINITE');
+    expect(errorCode(() => semidefiniteExtremeEigenvalues(denseOperator(indefinite), 6))).toBe('E_LINALG_NOT_POSITIVE_DEFINITE');
   });
 
   it('refuses to return unconverged Ritz values', () => {
     const m = randomSymmetric(Rng.fromSeed(6), 50);
-    expect(errorCode(() => extremeEigenvalues(denseOperator(m), 50, { iterationsMax: 3 }))).toBe('E_NOT_CONVERGED');
+    expect(errorCode(() => extremeEigenvalues(denseOperator(m), 50, { iterationsMax: 3 }))).toBe('E_LINALG_NOT_CONVERGED');
   });
 });

@@ -10,8 +10,8 @@
 // itself reaches.
 
 import { axpy, dot, norm2 } from '../vec/kernels.js';
-import type { LinearOperator } from './affine-map.js';
-import { TheoryError, assertTheoryLength } from './theory-error.js';
+import type { LinearOperator } from './linear-operator.js';
+import { LinalgError, assertLinalgLength } from './linalg-error.js';
 
 export interface GmresOptions {
   /** Arnoldi steps at most, i.e. products with A (default: the dimension) */
@@ -54,11 +54,11 @@ export function gmres(apply: LinearOperator, rhs: Float64Array, options: GmresOp
   const iterationsMax = options.iterationsMax ?? dim;
   const relativeTolerance = options.relativeTolerance ?? DEFAULT_RELATIVE_TOLERANCE;
   if (!Number.isInteger(iterationsMax) || iterationsMax < 1) {
-    throw new TheoryError('E_ARGUMENT', `iterationsMax must be a positive integer, got ${iterationsMax}`);
+    throw new LinalgError('E_LINALG_ARGUMENT', `iterationsMax must be a positive integer, got ${iterationsMax}`);
   }
   const absoluteTolerance = options.absoluteTolerance ?? 0;
-  if (!(relativeTolerance > 0)) throw new TheoryError('E_ARGUMENT', `relativeTolerance must be positive, got ${relativeTolerance}`);
-  if (!(absoluteTolerance >= 0)) throw new TheoryError('E_ARGUMENT', `absoluteTolerance must be >= 0, got ${absoluteTolerance}`);
+  if (!(relativeTolerance > 0)) throw new LinalgError('E_LINALG_ARGUMENT', `relativeTolerance must be positive, got ${relativeTolerance}`);
+  if (!(absoluteTolerance >= 0)) throw new LinalgError('E_LINALG_ARGUMENT', `absoluteTolerance must be >= 0, got ${absoluteTolerance}`);
   const solution = new Float64Array(dim);
   const beta = norm2(rhs);
   const target = Math.max(relativeTolerance * beta, absoluteTolerance);
@@ -81,7 +81,7 @@ export function gmres(apply: LinearOperator, rhs: Float64Array, options: GmresOp
     const k = columns.length;
     const w = apply(basis[k]);
     products++;
-    assertTheoryLength('operator output', w, dim);
+    assertLinalgLength('operator output', w, dim);
     const h = new Float64Array(k + 2);
     // Modified Gram-Schmidt, twice: one pass loses orthogonality like eps * cond (Parlett, section 6.9).
     for (let pass = 0; pass < 2; pass++) {

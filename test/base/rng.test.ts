@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { Rng, SplitMix64 } from '../../src/data/rng.js';
+import { Rng, SplitMix64 } from '../../src/base/rng.js';
 
 // Upper critical values of the chi-square distribution at significance 0.001, from the
 // NIST/SEMATECH e-Handbook of Statistical Methods, section 1.3.6.7.4 (values recalled from

@@ -2,7 +2,7 @@
 // block per row with dot leaders once a line would pass the width limit (100 characters, the
 // module's own contract; 80 and 100 columns are common practice for terminals and logs).
 import { describe, expect, it } from 'vitest';
-import { columnTitle, formatNumber, formatTable, TEXT_TABLE_LIMITS } from '../../src/commands/text-table.js';
+import { columnTitle, formatNumber, formatTable, TEXT_TABLE_LIMITS } from '../../src/report/text-table.js';
 
 describe('formatTable as columns', () => {
   it('right-aligns number columns, header included, and left-aligns text columns', () => {

@@ -3,10 +3,10 @@
 // only the clients it hosts (clientObjective).
 
 import type { Scenario } from '../scenario/schema.js';
-import { buildAllShards, buildShard } from '../data/build-shard.js';
-import { createObjective } from './create-objective.js';
-import type { Objective, ObjectiveSpec } from './objective.js';
-import { WeightedSumObjective } from './weighted-sum.js';
+import { buildAllShards, buildShard } from './build-shard.js';
+import { createObjective } from '../problem/create-objective.js';
+import type { Objective, ObjectiveSpec } from '../problem/objective.js';
+import { WeightedSumObjective } from '../problem/weighted-sum.js';
 
 export interface ProblemInstance {
   dim: number;

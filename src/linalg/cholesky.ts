@@ -3,7 +3,7 @@
 // Matrices are row-major Float64Array of n x n. The oracle uses it for the normal equations of
 // least squares and for Newton steps, where n is at most a few thousand.
 
-import { ProblemError, assertLength } from '../problem/problem-error.js';
+import { LinalgError, assertLinalgLength } from './linalg-error.js';
 
 /**
  * The lower-triangular factor L (row-major, zeros above the diagonal) of the SPD matrix `a`. Reads
@@ -12,9 +12,9 @@ import { ProblemError, assertLength } from '../problem/problem-error.js';
  */
 export function choleskyFactor(a: Float64Array, n: number): Float64Array {
   if (!Number.isInteger(n) || n < 1) {
-    throw new ProblemError('E_DIMENSION', `a Cholesky factorization needs n >= 1, got ${n}`);
+    throw new LinalgError('E_LINALG_DIMENSION', `a Cholesky factorization needs n >= 1, got ${n}`);
   }
-  assertLength('matrix', a, n * n);
+  assertLinalgLength('matrix', a, n * n);
   const l = new Float64Array(n * n);
   for (let j = 0; j < n; j++) {
     const rowJ = j * n;
@@ -22,8 +22,7 @@ export function choleskyFactor(a: Float64Array, n: number): Float64Array {
     for (let k = 0; k < j; k++) pivot -= l[rowJ + k] * l[rowJ + k];
     // `!(pivot > 0)` also catches NaN from a non-finite input.
     if (!(pivot > 0) || !Number.isFinite(pivot)) {
-      throw new ProblemError(
-        'E_NOT_POSITIVE_DEFINITE',
+      throw new LinalgError('E_LINALG_NOT_POSITIVE_DEFINITE',
         `matrix is not positive definite: pivot ${j} of ${n} is ${pivot}`,
       );
     }
@@ -41,9 +40,9 @@ export function choleskyFactor(a: Float64Array, n: number): Float64Array {
 
 /** out <- A^{-1} b given the factor L of A (out may be b itself). */
 export function choleskySolve(factor: Float64Array, n: number, b: Float64Array, out: Float64Array): void {
-  assertLength('factor', factor, n * n);
-  assertLength('right-hand side', b, n);
-  assertLength('solution', out, n);
+  assertLinalgLength('factor', factor, n * n);
+  assertLinalgLength('right-hand side', b, n);
+  assertLinalgLength('solution', out, n);
   // L y = b, forward.
   for (let i = 0; i < n; i++) {
     const rowI = i * n;

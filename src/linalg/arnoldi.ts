@@ -32,8 +32,8 @@
 
 import { EigenvalueDecomposition, Matrix } from 'ml-matrix';
 import { axpy, dot, norm2, scale } from '../vec/kernels.js';
-import type { LinearOperator } from './affine-map.js';
-import { TheoryError, assertTheoryLength } from './theory-error.js';
+import type { LinearOperator } from './linear-operator.js';
+import { LinalgError, assertLinalgLength } from './linalg-error.js';
 
 export interface ArnoldiOptions {
   /** basis vectors per cycle, i.e. products per cycle (default 30; at most the dimension) */
@@ -120,18 +120,18 @@ function ritzPairs(h: Float64Array, krylov: number, k: number, next: number): Ri
 
 function checkOptions(krylovDimension: number, productsMax: number, tolerance: number): void {
   if (!Number.isInteger(krylovDimension) || krylovDimension < 1) {
-    throw new TheoryError('E_ARGUMENT', `krylovDimension must be a positive integer, got ${krylovDimension}`);
+    throw new LinalgError('E_LINALG_ARGUMENT', `krylovDimension must be a positive integer, got ${krylovDimension}`);
   }
   if (!Number.isInteger(productsMax) || productsMax < 1) {
-    throw new TheoryError('E_ARGUMENT', `productsMax must be a positive integer, got ${productsMax}`);
+    throw new LinalgError('E_LINALG_ARGUMENT', `productsMax must be a positive integer, got ${productsMax}`);
   }
-  if (!(tolerance > 0) || !(tolerance < 1)) throw new TheoryError('E_ARGUMENT', `tolerance must be in (0, 1), got ${tolerance}`);
+  if (!(tolerance > 0) || !(tolerance < 1)) throw new LinalgError('E_LINALG_ARGUMENT', `tolerance must be in (0, 1), got ${tolerance}`);
 }
 
 /** The eigenvalue of M of largest modulus (on the range of I - M with movingOnly), from `start`; see the file comment. */
 export function dominantEigenvalue(apply: LinearOperator, start: Float64Array, options: ArnoldiOptions = {}): DominantEigenvalue {
   const dim = start.length;
-  if (dim < 1) throw new TheoryError('E_DIMENSION', 'the start vector must have length >= 1');
+  if (dim < 1) throw new LinalgError('E_LINALG_DIMENSION', 'the start vector must have length >= 1');
   const krylovDimension = options.krylovDimension ?? DEFAULT_KRYLOV_DIMENSION;
   const productsMax = options.productsMax ?? DEFAULT_PRODUCTS_MAX;
   const tolerance = options.tolerance ?? DEFAULT_TOLERANCE;
@@ -143,7 +143,7 @@ export function dominantEigenvalue(apply: LinearOperator, start: Float64Array, o
   const product = (v: Float64Array): Float64Array => {
     products++;
     const image = apply(v);
-    assertTheoryLength('operator output', image, dim);
+    assertLinalgLength('operator output', image, dim);
     return image;
   };
   /** (I - M) v as a new array */
@@ -168,7 +168,7 @@ export function dominantEigenvalue(apply: LinearOperator, start: Float64Array, o
 
   let first: Float64Array = Float64Array.from(start);
   const startLength = norm2(first);
-  if (!(startLength > 0)) throw new TheoryError('E_ARGUMENT', 'the start vector is zero');
+  if (!(startLength > 0)) throw new LinalgError('E_LINALG_ARGUMENT', 'the start vector is zero');
   if (movingOnly) {
     first = filtered(first);
     if (!(norm2(first) > COLLAPSE_RATIO * startLength)) return nothingMoves();

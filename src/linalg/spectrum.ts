@@ -7,10 +7,9 @@
 // matrix has exactly the operator's eigenvalues, so for a constant Hessian the result is exact to
 // rounding; usually the extremes converge in far fewer steps.
 
-import { Rng } from '../data/rng.js';
+import { Rng } from '../base/rng.js';
 import { axpy, dot, norm2, scale } from '../vec/kernels.js';
-import type { Objective } from '../problem/objective.js';
-import { ProblemError } from '../problem/problem-error.js';
+import { LinalgError } from './linalg-error.js';
 
 /** out <- A v for a symmetric A; must not keep or modify v. */
 export type SymmetricOperator = (v: Float64Array, out: Float64Array) => void;
@@ -62,7 +61,7 @@ export interface TridiagonalEigen {
 export function tridiagonalEigen(diagonal: ArrayLike<number>, offDiagonal: ArrayLike<number>): TridiagonalEigen {
   const n = diagonal.length;
   if (n < 1 || offDiagonal.length !== n - 1) {
-    throw new ProblemError('E_DIMENSION', `tridiagonal needs n >= 1 and n - 1 off-diagonal entries, got ${n} and ${offDiagonal.length}`);
+    throw new LinalgError('E_LINALG_DIMENSION', `tridiagonal needs n >= 1 and n - 1 off-diagonal entries, got ${n} and ${offDiagonal.length}`);
   }
   const d = Float64Array.from(diagonal);
   // e[i] couples d[i] and d[i + 1]; e[n - 1] is a zero sentinel.
@@ -79,7 +78,7 @@ export function tridiagonalEigen(diagonal: ArrayLike<number>, offDiagonal: Array
       }
       if (m === l) break;
       if (++sweeps > QL_SWEEPS_MAX) {
-        throw new ProblemError('E_NOT_CONVERGED', `implicit QL did not split off eigenvalue ${l} in ${QL_SWEEPS_MAX} sweeps`);
+        throw new LinalgError('E_LINALG_NOT_CONVERGED', `implicit QL did not split off eigenvalue ${l} in ${QL_SWEEPS_MAX} sweeps`);
       }
       let g = (d[l + 1] - d[l]) / (2 * e[l]);
       let r = Math.hypot(g, 1);
@@ -183,7 +182,7 @@ export function extremeEigenvalues(
   options: LanczosOptions = {},
 ): ExtremeEigenvalues {
   if (!Number.isInteger(dim) || dim < 1) {
-    throw new ProblemError('E_DIMENSION', `an operator needs a positive integer dimension, got ${dim}`);
+    throw new LinalgError('E_LINALG_DIMENSION', `an operator needs a positive integer dimension, got ${dim}`);
   }
   const relativeTolerance = options.relativeTolerance ?? DEFAULT_RELATIVE_TOLERANCE;
   const stepsMax = Math.min(dim, options.iterationsMax ?? DEFAULT_ITERATIONS_MAX);
@@ -201,7 +200,7 @@ export function extremeEigenvalues(
     apply(q, w);
     for (let j = 0; j < dim; j++) {
       if (!Number.isFinite(w[j])) {
-        throw new ProblemError('E_NOT_FINITE', `the operator returned a non-finite entry at step ${step}`);
+        throw new LinalgError('E_LINALG_NOT_FINITE', `the operator returned a non-finite entry at step ${step}`);
       }
     }
     const alpha = dot(q, w);
@@ -223,7 +222,7 @@ export function extremeEigenvalues(
     scale(1 / beta, w);
     q = w;
   }
-  throw new ProblemError('E_NOT_CONVERGED', `Lanczos did not reach relative tolerance ${relativeTolerance} in ${stepsMax} steps`);
+  throw new LinalgError('E_LINALG_NOT_CONVERGED', `Lanczos did not reach relative tolerance ${relativeTolerance} in ${stepsMax} steps`);
 }
 
 /**
@@ -240,17 +239,8 @@ export function semidefiniteExtremeEigenvalues(
   const result = extremeEigenvalues(apply, dim, options);
   const roundingLevel = dim * EPSILON * Math.abs(result.largest);
   if (result.smallest < -SEMIDEFINITE_SLACK * Math.abs(result.largest)) {
-    throw new ProblemError('E_NOT_POSITIVE_DEFINITE', `an operator said to be semidefinite has eigenvalue ${result.smallest}`);
+    throw new LinalgError('E_LINALG_NOT_POSITIVE_DEFINITE', `an operator said to be semidefinite has eigenvalue ${result.smallest}`);
   }
   const smallest = result.smallest <= roundingLevel ? 0 : result.smallest;
   return { smallest, largest: result.largest, iterations: result.iterations };
-}
-
-/** Smallest and largest eigenvalue of the Hessian of `objective` at `x`. */
-export function hessianExtremeEigenvalues(
-  objective: Objective,
-  x: Float64Array,
-  options: LanczosOptions = {},
-): ExtremeEigenvalues {
-  return extremeEigenvalues((v, out) => objective.hessianVector(x, v, out), objective.dim, options);
 }

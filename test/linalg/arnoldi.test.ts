@@ -1,9 +1,9 @@
 import { Matrix } from 'ml-matrix';
 import { describe, expect, it } from 'vitest';
-import { Rng } from '../../src/data/rng.js';
-import { dominantEigenvalue } from '../../src/theory/arnoldi.js';
-import { TheoryError } from '../../src/theory/theory-error.js';
-import { randomArray, randomMatrix, referenceSpectrum, similarTo } from './fixtures/affine-maps.js';
+import { Rng } from '../../src/base/rng.js';
+import { dominantEigenvalue } from '../../src/linalg/arnoldi.js';
+import { LinalgError } from '../../src/linalg/linalg-error.js';
+import { randomArray, randomMatrix, referenceSpectrum, similarTo } from '../theory/fixtures/affine-maps.js';
 
 // Every reference is max |lambda| from ml-matrix's EigenvalueDecomposition of the same matrix;
 // 1e-8 relative is the accuracy asked of the estimate (its residual tolerance is 1e-10 here,
@@ -83,8 +83,8 @@ describe('dominantEigenvalue (restarted Arnoldi)', () => {
   it('rejects bad options and a zero start with E_ARGUMENT', () => {
     const identity = (v: Float64Array) => Float64Array.from(v);
     for (const options of [{ krylovDimension: 0 }, { productsMax: 0 }, { tolerance: 0 }]) {
-      expect(() => dominantEigenvalue(identity, Float64Array.of(1, 2), options)).toThrowError(TheoryError);
+      expect(() => dominantEigenvalue(identity, Float64Array.of(1, 2), options)).toThrowError(LinalgError);
     }
-    expect(() => dominantEigenvalue(identity, new Float64Array(2))).toThrowError(TheoryError);
+    expect(() => dominantEigenvalue(identity, new Float64Array(2))).toThrowError(LinalgError);
   });
 });

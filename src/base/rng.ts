@@ -8,7 +8,7 @@
 // The 64-bit words are kept as uint32 halves because BigInt arithmetic is far too slow for the
 // sampling loops; BigInt appears only in seeding and in nextUint64 (test vectors).
 
-import { DataError } from './data-error.js';
+import { RngError } from './rng-error.js';
 
 const UINT64_MASK = (1n << 64n) - 1n;
 const GOLDEN_GAMMA = 0x9e3779b97f4a7c15n;
@@ -29,7 +29,7 @@ function mix64(z: bigint): bigint {
 
 function toUint64(value: number | bigint, what: string): bigint {
   if (typeof value === 'number' && !Number.isSafeInteger(value)) {
-    throw new DataError('E_RNG_ARGUMENT', `${what} must be a safe integer, got ${value}`);
+    throw new RngError('E_RNG_ARGUMENT', `${what} must be a safe integer, got ${value}`);
   }
   return BigInt.asUintN(64, BigInt(value));
 }
@@ -86,7 +86,7 @@ export class Rng {
   /** A generator with the raw state s0..s3 (for published test vectors); not all zero. */
   static fromState(words: readonly [bigint, bigint, bigint, bigint]): Rng {
     if (words.every((w) => BigInt.asUintN(64, w) === 0n)) {
-      throw new DataError('E_RNG_ARGUMENT', 'the all-zero state is a fixed point of xoshiro256**');
+      throw new RngError('E_RNG_ARGUMENT', 'the all-zero state is a fixed point of xoshiro256**');
     }
     return new Rng(words);
   }
@@ -166,7 +166,7 @@ export class Rng {
   /** Uniform integer in [0, n), n an integer in [1, 2^53]; rejection removes modulo bias. */
   nextInt(n: number): number {
     if (!Number.isInteger(n) || n < 1 || n > TWO_POW_53) {
-      throw new DataError('E_RNG_ARGUMENT', `nextInt needs an integer n in [1, 2^53], got ${n}`);
+      throw new RngError('E_RNG_ARGUMENT', `nextInt needs an integer n in [1, 2^53], got ${n}`);
     }
     // The largest multiple of n not above 2^53; both operands are exact in a double.
     const limit = TWO_POW_53 - (TWO_POW_53 % n);
@@ -238,7 +238,7 @@ export class Rng {
   /** A point of the simplex from Dir(alpha), by normalized Gamma(alpha_j) draws. */
   dirichlet(alpha: ArrayLike<number>): Float64Array {
     const k = alpha.length;
-    if (k < 1) throw new DataError('E_RNG_ARGUMENT', 'dirichlet needs at least one concentration');
+    if (k < 1) throw new RngError('E_RNG_ARGUMENT', 'dirichlet needs at least one concentration');
     const logs = new Float64Array(k);
     let logMax = -Infinity;
     for (let j = 0; j < k; j++) {
@@ -273,10 +273,10 @@ export class Rng {
    */
   sampleWithoutReplacement(n: number, k: number): Uint32Array {
     if (!Number.isInteger(n) || n < 0 || n > 0xffffffff) {
-      throw new DataError('E_RNG_ARGUMENT', `sampleWithoutReplacement needs an integer n in [0, 2^32), got ${n}`);
+      throw new RngError('E_RNG_ARGUMENT', `sampleWithoutReplacement needs an integer n in [0, 2^32), got ${n}`);
     }
     if (!Number.isInteger(k) || k < 0 || k > n) {
-      throw new DataError('E_RNG_ARGUMENT', `sampleWithoutReplacement needs an integer k in [0, ${n}], got ${k}`);
+      throw new RngError('E_RNG_ARGUMENT', `sampleWithoutReplacement needs an integer k in [0, ${n}], got ${k}`);
     }
     const chosen = new Set<number>();
     for (let j = n - k; j < n; j++) {
@@ -291,6 +291,6 @@ export class Rng {
 
 function checkShape(shape: number): void {
   if (!(shape > 0) || !Number.isFinite(shape)) {
-    throw new DataError('E_RNG_ARGUMENT', `gamma shape must be positive and finite, got ${shape}`);
+    throw new RngError('E_RNG_ARGUMENT', `gamma shape must be positive and finite, got ${shape}`);
   }
 }

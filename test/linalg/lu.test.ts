@@ -1,12 +1,12 @@
 import { Matrix, solve } from 'ml-matrix';
 import { describe, expect, it } from 'vitest';
-import { Rng } from '../../src/data/rng.js';
-import { luFactor, luSolve } from '../../src/theory/lu.js';
-import { TheoryError } from '../../src/theory/theory-error.js';
-import { randomArray, randomMatrix } from './fixtures/affine-maps.js';
+import { Rng } from '../../src/base/rng.js';
+import { luFactor, luSolve } from '../../src/linalg/lu.js';
+import { LinalgError } from '../../src/linalg/linalg-error.js';
+import { randomArray, randomMatrix } from '../theory/fixtures/affine-maps.js';
 import { codeOf } from '../support/error-code.js';
 
-const theoryErrorCode = (action: () => unknown): string => codeOf(action, TheoryError);
+const theoryErrorCode = (action: () => unknown): string => codeOf(action, LinalgError);
 
 
 const rowMajor = (a: Matrix) => Float64Array.from(a.to1DArray());
@@ -34,11 +34,11 @@ describe('luFactor and luSolve', () => {
   });
 
   it('refuses singular matrices, non-finite entries, wrong sizes and in-place solves with stable codes', () => {
-    expect(theoryErrorCode(() => luFactor(Float64Array.of(1, 2, 2, 4), 2))).toBe('E_SINGULAR');
-    expect(theoryErrorCode(() => luFactor(Float64Array.of(1, NaN, 0, 1), 2))).toBe('E_NOT_FINITE');
-    expect(theoryErrorCode(() => luFactor(Float64Array.of(1, 0, 0), 2))).toBe('E_DIMENSION');
+    expect(theoryErrorCode(() => luFactor(Float64Array.of(1, 2, 2, 4), 2))).toBe('E_LINALG_SINGULAR');
+    expect(theoryErrorCode(() => luFactor(Float64Array.of(1, NaN, 0, 1), 2))).toBe('E_LINALG_NOT_FINITE');
+    expect(theoryErrorCode(() => luFactor(Float64Array.of(1, 0, 0), 2))).toBe('E_LINALG_DIMENSION');
     const factors = luFactor(Float64Array.of(2, 0, 0, 2), 2);
     const b = Float64Array.of(1, 1);
-    expect(theoryErrorCode(() => luSolve(factors, b, b))).toBe('E_ARGUMENT');
+    expect(theoryErrorCode(() => luSolve(factors, b, b))).toBe('E_LINALG_ARGUMENT');
   });
 });

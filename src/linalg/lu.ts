@@ -4,7 +4,7 @@
 // Matrices are row-major Float64Array of n x n, n at most a few thousand.
 
 import { allFinite } from '../vec/kernels.js';
-import { TheoryError, assertTheoryLength } from './theory-error.js';
+import { LinalgError, assertLinalgLength } from './linalg-error.js';
 
 export interface LuFactors {
   n: number;
@@ -19,9 +19,9 @@ export interface LuFactors {
  * n * eps * max |a_ij|: the matrix is singular to working precision and a solve would return noise.
  */
 export function luFactor(a: Float64Array, n: number): LuFactors {
-  if (!Number.isInteger(n) || n < 1) throw new TheoryError('E_DIMENSION', `an LU factorization needs n >= 1, got ${n}`);
-  assertTheoryLength('matrix', a, n * n);
-  if (!allFinite(a)) throw new TheoryError('E_NOT_FINITE', 'the matrix to factor has a non-finite entry');
+  if (!Number.isInteger(n) || n < 1) throw new LinalgError('E_LINALG_DIMENSION', `an LU factorization needs n >= 1, got ${n}`);
+  assertLinalgLength('matrix', a, n * n);
+  if (!allFinite(a)) throw new LinalgError('E_LINALG_NOT_FINITE', 'the matrix to factor has a non-finite entry');
   const lu = Float64Array.from(a);
   const pivots = new Uint32Array(n);
   for (let i = 0; i < n; i++) pivots[i] = i;
@@ -40,7 +40,7 @@ export function luFactor(a: Float64Array, n: number): LuFactors {
       }
     }
     if (pivotSize <= negligible) {
-      throw new TheoryError('E_SINGULAR', `matrix is singular to working precision: pivot ${k} of ${n} is ${pivotSize}`);
+      throw new LinalgError('E_LINALG_SINGULAR', `matrix is singular to working precision: pivot ${k} of ${n} is ${pivotSize}`);
     }
     if (pivotRow !== k) {
       for (let j = 0; j < n; j++) {
@@ -68,9 +68,9 @@ export function luFactor(a: Float64Array, n: number): LuFactors {
 /** out <- A^{-1} b from the factors of A (out must not be b). */
 export function luSolve(factors: LuFactors, b: Float64Array, out: Float64Array): void {
   const { n, lu, pivots } = factors;
-  assertTheoryLength('right-hand side', b, n);
-  assertTheoryLength('solution', out, n);
-  if (out === b) throw new TheoryError('E_ARGUMENT', 'luSolve cannot solve in place');
+  assertLinalgLength('right-hand side', b, n);
+  assertLinalgLength('solution', out, n);
+  if (out === b) throw new LinalgError('E_LINALG_ARGUMENT', 'luSolve cannot solve in place');
   // L y = P b, forward, unit diagonal.
   for (let i = 0; i < n; i++) {
     const rowI = i * n;

@@ -1,9 +1,9 @@
 import { Matrix, inverse, solve } from 'ml-matrix';
 import { describe, expect, it } from 'vitest';
-import { Rng } from '../../src/data/rng.js';
-import { gmres } from '../../src/theory/gmres.js';
-import { TheoryError } from '../../src/theory/theory-error.js';
-import { randomArray, randomMatrix } from './fixtures/affine-maps.js';
+import { Rng } from '../../src/base/rng.js';
+import { gmres } from '../../src/linalg/gmres.js';
+import { LinalgError } from '../../src/linalg/linalg-error.js';
+import { randomArray, randomMatrix } from '../theory/fixtures/affine-maps.js';
 
 const operatorOf = (a: Matrix) => (v: Float64Array) => Float64Array.from(a.mmul(Matrix.columnVector(Array.from(v))).getColumn(0));
 const distance = (a: ArrayLike<number>, b: ArrayLike<number>) => Math.hypot(...Array.from(a, (value, j) => value - b[j]));
@@ -58,7 +58,7 @@ describe('gmres', () => {
     const result = gmres((v) => v, new Float64Array(3));
     expect(Array.from(result.solution)).toEqual([0, 0, 0]);
     expect(result.products).toBe(0);
-    expect(() => gmres((v) => v, Float64Array.of(1), { iterationsMax: 0 })).toThrowError(TheoryError);
-    expect(() => gmres((v) => v, Float64Array.of(1), { relativeTolerance: 0 })).toThrowError(TheoryError);
+    expect(() => gmres((v) => v, Float64Array.of(1), { iterationsMax: 0 })).toThrowError(LinalgError);
+    expect(() => gmres((v) => v, Float64Array.of(1), { relativeTolerance: 0 })).toThrowError(LinalgError);
   });
 });
