@@ -49,6 +49,9 @@ export default tseslint.config(
     files: ['src/**/*.ts', 'server/**/*.ts', 'client/**/*.ts', 'runtime/**/*.ts', 'test/**/*.ts'],
     plugins: { 'import-x': importX },
     settings: {
+      // no-cycle parses the modules an import leads to: it must know TypeScript files and their parser.
+      'import-x/extensions': ['.ts', '.js'],
+      'import-x/parsers': { '@typescript-eslint/parser': ['.ts'] },
       'import-x/resolver-next': [createTypeScriptImportResolver({ project: './tsconfig.json' })],
     },
     rules: {

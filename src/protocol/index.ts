@@ -17,6 +17,7 @@ export {
   type ProtocolLimits,
 } from './limits.js';
 export * from './messages.js';
+export * from './field-dims.js';
 export { receiveMessage } from './receive.js';
 export { validateMessage, type ValidationContext } from './validate.js';
 export { checkWireVector, fromWire, toWire, type ValueWidthBytes, type WireVector } from './wire-vector.js';

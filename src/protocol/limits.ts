@@ -4,7 +4,7 @@
 // of clients. Both ends apply the same numbers.
 
 import { z } from 'zod';
-import type { FieldDims } from './messages.js';
+import type { FieldDims } from './field-dims.js';
 
 export const protocolLimitsSchema = z
   .object({

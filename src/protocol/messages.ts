@@ -64,8 +64,6 @@ export type DoneReason = (typeof DONE_REASONS)[number];
 /** Named vectors of one message, by field name (as the method names them). */
 export type WireFields = Record<string, WireVector>;
 
-/** What the plan says vectors look like: exchange name -> field name -> dimension. */
-export type FieldDims = Readonly<Record<string, Readonly<Record<string, number>>>>;
 
 export interface ChallengeMessage {
   type: 'challenge';

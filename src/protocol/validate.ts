@@ -19,12 +19,12 @@ import {
   PROTOCOL_VERSION,
   RESUME_TOKEN_BYTES,
   type DownMessage,
-  type FieldDims,
   type Message,
   type MessageType,
   type UpMessage,
   type WireFields,
 } from './messages.js';
+import type { FieldDims } from './field-dims.js';
 import { checkWireVector } from './wire-vector.js';
 
 /** What the receiver expects, from its own state. A null member is not checked. */

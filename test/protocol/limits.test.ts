@@ -8,7 +8,8 @@ import {
   limitsForPlan,
   protocolLimitsSchema,
 } from '../../src/protocol/limits.js';
-import { NAME_LENGTH_MAX, type FieldDims, type WireFields } from '../../src/protocol/messages.js';
+import { NAME_LENGTH_MAX, type WireFields } from '../../src/protocol/messages.js';
+import type { FieldDims } from '../../src/protocol/field-dims.js';
 import { toWire } from '../../src/protocol/wire-vector.js';
 
 const longName = (letter: string) => letter + 'x'.repeat(NAME_LENGTH_MAX - 1);

@@ -4,7 +4,8 @@
 
 import { proveKey } from '../../src/protocol/auth.js';
 import { HANDSHAKE_LIMITS, limitsForPlan, type ProtocolLimits } from '../../src/protocol/limits.js';
-import { NONCE_BYTES, PROTOCOL_VERSION, type FieldDims, type Message } from '../../src/protocol/messages.js';
+import { NONCE_BYTES, PROTOCOL_VERSION, type Message } from '../../src/protocol/messages.js';
+import type { FieldDims } from '../../src/protocol/field-dims.js';
 import type { ValidationContext } from '../../src/protocol/validate.js';
 import { toWire, type WireVector } from '../../src/protocol/wire-vector.js';
 
