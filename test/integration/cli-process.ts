@@ -17,8 +17,8 @@ export class CliProcess {
   readonly exited: Promise<{ code: number | null; signal: NodeJS.Signals | null }>;
   private readonly watchers: (() => void)[] = [];
 
-  constructor(args: string[], env: NodeJS.ProcessEnv = {}) {
-    this.child = spawn(process.execPath, [bin, ...args], { cwd: repoRoot, env: { ...process.env, NO_COLOR: '1', ...env }, stdio: ['ignore', 'pipe', 'pipe'] });
+  constructor(args: string[], env: NodeJS.ProcessEnv = {}, cwd: string = repoRoot) {
+    this.child = spawn(process.execPath, [bin, ...args], { cwd, env: { ...process.env, NO_COLOR: '1', ...env }, stdio: ['ignore', 'pipe', 'pipe'] });
     this.child.stdout!.setEncoding('utf8').on('data', (t: string) => {
       this.stdout += t;
       this.notify();
