@@ -199,7 +199,7 @@ export class Coordinator {
     session.capacity = hello.capacity;
     if (this.stopRequested || !this.registry.join(session)) {
       this.sendControl(session, { type: 'error', code: 'E_CLIENT', message: 'the run has no clients left to host' });
-      session.state = 'refused';
+      session.moveTo('refused');
       session.close(CLOSE_POLICY_VIOLATION, 'no clients left');
       return;
     }
@@ -273,7 +273,7 @@ export class Coordinator {
       this.errors.countReceived('E_AUTH');
       this.options.log(`${session.label()} refused (E_AUTH): its resume token names no session waiting to resume`);
       this.sendControl(session, { type: 'error', code: 'E_AUTH', message: 'hello.resume: names no session waiting to resume (an unknown resume token, or its grace has passed)' });
-      session.state = 'refused';
+      session.moveTo('refused');
       session.close(CLOSE_POLICY_VIOLATION, 'E_AUTH');
       return;
     }
@@ -369,7 +369,7 @@ export class Coordinator {
       socketBytes.down += totals.writtenBytes;
     }
     for (const session of this.registry.activeSessions()) {
-      session.state = 'finished';
+      session.moveTo('finished');
       session.close(CLOSE_NORMAL, 'done');
     }
     const layers = this.ledger.roundTotals();

@@ -43,13 +43,13 @@ export function awaitHello(session: WorkerSession, deps: HandshakeDeps): Promise
       deps.log(`${session.label()} refused (${error.code}): ${error.message}`);
       const sent = session.send({ type: 'error', code: error.code, message: error.message.slice(0, HANDSHAKE_LIMITS.maxErrorMessageLength) });
       deps.ledger.recordControlMessage('down', sent.encodedBytes, sent.wireBytes);
-      session.state = 'refused';
+      session.moveTo('refused');
       session.close(CLOSE_POLICY_VIOLATION, error.code);
       settle(null);
     };
     const timer = setTimeout(() => {
       deps.log(`${session.label()} sent no hello within ${deps.timeoutSeconds} s`);
-      session.state = 'refused';
+      session.moveTo('refused');
       session.terminate();
       settle(null);
     }, deps.timeoutSeconds * 1000);

@@ -37,7 +37,7 @@ export class WorkerRegistry {
   /** Adds a worker that passed the handshake; false when the run is already dealt or full. */
   join(session: WorkerSession): boolean {
     if (this.assigned || this.joined.length >= this.limits.workersMax) return false;
-    session.state = 'joined';
+    session.moveTo('joined');
     this.joined.push(session);
     return true;
   }
@@ -84,7 +84,7 @@ export class WorkerRegistry {
     }
     for (const [session, ids] of out) {
       session.clientIds = new Set(ids);
-      session.state = 'active';
+      session.moveTo('active');
     }
     return out;
   }
@@ -115,7 +115,7 @@ export class WorkerRegistry {
    */
   markDisconnected(session: WorkerSession): number[] {
     if (session.state !== 'active') return [];
-    session.state = 'disconnected';
+    session.moveTo('disconnected');
     return [...session.clientIds].sort((a, b) => a - b);
   }
 
@@ -131,12 +131,12 @@ export class WorkerRegistry {
     if (at < 0) return null;
     const previous = this.joined[at];
     const previousState = previous.state as 'active' | 'disconnected';
-    previous.state = 'resumed';
+    previous.moveTo('resumed');
     session.workerName = previous.workerName;
     session.capacity = previous.capacity;
     session.clientIds = previous.clientIds;
     session.resumeToken = previous.resumeToken;
-    session.state = 'active';
+    session.moveTo('active');
     this.joined[at] = session;
     for (const clientId of session.clientIds) this.hostOf.set(clientId, session);
     return { previous, previousState };
@@ -148,7 +148,7 @@ export class WorkerRegistry {
    */
   markLost(session: WorkerSession, round: number, reason: string): number[] {
     if (session.state !== 'active' && session.state !== 'disconnected') return [];
-    session.state = 'lost';
+    session.moveTo('lost');
     const clientIds = [...session.clientIds].sort((a, b) => a - b);
     this.lost.push({ workerName: session.workerName, clientIds, round, reason });
     return clientIds;

@@ -5,13 +5,8 @@
 import type { Socket } from 'node:net';
 import type { WebSocket } from 'ws';
 import { encodeMessage, type Message } from '../src/protocol/index.js';
+import { SessionStateMachine, type SessionState } from './session-states.js';
 import { WireMeter } from './wire-meter.js';
-
-/**
- * 'disconnected': an active worker's socket closed and it may resume within the grace period;
- * 'resumed': a disconnected session whose worker came back on a new connection (a new session).
- */
-export type SessionState = 'handshake' | 'joined' | 'active' | 'disconnected' | 'resumed' | 'lost' | 'refused' | 'finished';
 
 export interface SentBytes {
   encodedBytes: number;
@@ -22,7 +17,6 @@ export type FrameHandler = (frame: Uint8Array, wireBytes: number) => void;
 
 export class WorkerSession {
   readonly sessionId: number;
-  state: SessionState = 'handshake';
   workerName = '';
   /** clients this worker offered to host (its hello's capacity) */
   capacity = 0;
@@ -32,6 +26,7 @@ export class WorkerSession {
   lastHeardMs: number;
   private readonly ws: WebSocket;
   private readonly meter: WireMeter;
+  private readonly machine = new SessionStateMachine();
   private handler: FrameHandler = () => undefined;
 
   constructor(sessionId: number, ws: WebSocket, socket: Socket, nowMs: number) {
@@ -45,6 +40,15 @@ export class WorkerSession {
       const wireBytes = this.meter.takeMessageBytes();
       this.handler(new Uint8Array(data.buffer, data.byteOffset, data.byteLength), wireBytes);
     });
+  }
+
+  get state(): SessionState {
+    return this.machine.state;
+  }
+
+  /** Moves along the session state table (server/session-states.ts); throws E_SESSION_TRANSITION off it. */
+  moveTo(to: SessionState): void {
+    this.machine.moveTo(to);
   }
 
   /** A label for logs: the worker's name once known. */

@@ -3,11 +3,13 @@
 // enough workers joined and their capacity covers every client.
 
 import { describe, expect, it } from 'vitest';
+import { SessionStateMachine } from '../../server/session-states.js';
 import { WorkerRegistry } from '../../server/worker-registry.js';
 import type { WorkerSession } from '../../server/worker-session.js';
 
 function session(name: string, capacity: number): WorkerSession {
-  return { workerName: name, capacity, state: 'handshake', clientIds: new Set() } as unknown as WorkerSession;
+  // The registry reads a session's name, capacity and clients and moves its state along the real table.
+  return Object.assign(new SessionStateMachine(), { workerName: name, capacity, clientIds: new Set<number>() }) as unknown as WorkerSession;
 }
 
 describe('WorkerRegistry', () => {
