@@ -13,7 +13,7 @@ import { Coordinator, type CoordinatorOptions } from '../../server/coordinator.j
 import { LocalWorker } from '../../server/local-workers.js';
 import { distributedDetails, engineOutcomeOf } from '../../server/results.js';
 import type { RunOutcome } from '../../server/run-outcome.js';
-import { lingerFor, metricsListeningLine, startMetricsServer, type MetricsAddress, type MetricsServer } from '../../server/metrics-server.js';
+import { lingerFor, metricsListeningLine, startMetricsServer, type MetricsAddress, type MetricsServer } from '../../runtime/metrics-server.js';
 import { finishRun, formatRunSummary } from './run-report.js';
 import { writeFreshKeyFile } from './key-file.js';
 import type { RunSummary } from '../engine/run-summary.js';
