@@ -32,7 +32,7 @@ import { CoordinatorMetrics } from './metrics.js';
 import { OraclePool } from './oracle-pool.js';
 import { ProtocolErrorCounter } from './protocol-error-counter.js';
 import { RoundDriver, type StopReason } from './rounds.js';
-import type { RunOutcome } from './run-outcome.js';
+import type { CoordinatorOutcome } from './run-outcome.js';
 import { RuntimeError } from './runtime-error.js';
 import { WorkerRegistry } from './worker-registry.js';
 import { WorkerSession } from './worker-session.js';
@@ -350,7 +350,7 @@ export class Coordinator {
   }
 
   /** Waits for workers, runs every round, says done; resolves to what the run produced. */
-  async run(): Promise<RunOutcome> {
+  async run(): Promise<CoordinatorOutcome> {
     await this.waitForWorkers();
     this.welcomeAll();
     this.liveness.start();
