@@ -11,7 +11,7 @@ import { methodByName } from '../src/algorithm/registry.js';
 import type { WirePlan } from '../src/engine/run-plan.js';
 import { clientObjective } from '../src/data/problem-instance.js';
 import { hashOf } from '../src/scenario/plan-hash.js';
-import { compiledModulePath } from './compiled-module.js';
+import { compiledModulePath } from '../runtime/compiled-module.js';
 import type { ClientTask, ClientTaskNonFinite, ClientTaskResult } from './client-task.js';
 import { CodedError } from '../src/base/coded-error.js';
 

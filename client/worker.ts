@@ -8,6 +8,7 @@
 import { performance } from 'node:perf_hooks';
 import type WebSocket from 'ws';
 import {
+  CLOSE_NORMAL,
   HANDSHAKE_LIMITS,
   PROTOCOL_VERSION,
   ProtocolError,
@@ -168,7 +169,7 @@ export class Worker {
   /** Closes the connection and the client pool. */
   async stop(): Promise<void> {
     this.stopHeartbeats();
-    if (this.ws !== null && this.ws.readyState === this.ws.OPEN) this.ws.close(1000, 'worker done');
+    if (this.ws !== null && this.ws.readyState === this.ws.OPEN) this.ws.close(CLOSE_NORMAL, 'worker done');
     await this.hosting?.host.close();
   }
 

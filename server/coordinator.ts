@@ -13,6 +13,8 @@ import type { RunPlan, WirePlan } from '../src/engine/run-plan.js';
 import type { PlanTheory } from '../src/theory/plan-theory.js';
 import type { RoundRecord } from '../src/engine/round-record.js';
 import {
+  CLOSE_NORMAL,
+  CLOSE_POLICY_VIOLATION,
   HANDSHAKE_LIMITS,
   ProtocolError,
   limitsForPlan,
@@ -23,14 +25,14 @@ import {
 } from '../src/protocol/index.js';
 import { ByteLedger } from './byte-ledger.js';
 import { fieldShapesFor, type FieldShapes } from './field-shapes.js';
-import { awaitHello, CLOSE_POLICY_VIOLATION } from './handshake.js';
+import { awaitHello } from './handshake.js';
 import { startListener, type Listener, type TlsFiles } from './listener.js';
 import { Liveness } from './liveness.js';
 import { CoordinatorMetrics } from './metrics.js';
 import { OraclePool } from './oracle-pool.js';
 import { ProtocolErrorCounter } from './protocol-error-counter.js';
 import { RoundDriver, type StopReason } from './rounds.js';
-import type { RunOutcome } from './run-outcome.js';
+import type { CoordinatorOutcome } from './run-outcome.js';
 import { RuntimeError } from './runtime-error.js';
 import { WorkerRegistry } from './worker-registry.js';
 import { WorkerSession } from './worker-session.js';
@@ -66,9 +68,6 @@ export interface CoordinatorOptions {
  * from a quarter second), short enough that a dead worker's clients are not waited for long.
  */
 export const DEFAULT_RESUME_GRACE_SECONDS = 5;
-
-/** WebSocket close code 1000, normal closure (RFC 6455 section 7.4.1). */
-const CLOSE_NORMAL = 1000;
 
 const DONE_REASON_OF: Record<StopReason, DoneReason> = {
   'target-reached': 'target-reached',
@@ -351,7 +350,7 @@ export class Coordinator {
   }
 
   /** Waits for workers, runs every round, says done; resolves to what the run produced. */
-  async run(): Promise<RunOutcome> {
+  async run(): Promise<CoordinatorOutcome> {
     await this.waitForWorkers();
     this.welcomeAll();
     this.liveness.start();

@@ -3,6 +3,7 @@
 // closed before anything of the plan is sent; so does silence past the handshake limit.
 
 import {
+  CLOSE_POLICY_VIOLATION,
   HANDSHAKE_LIMITS,
   PROTOCOL_VERSION,
   ProtocolError,
@@ -13,9 +14,6 @@ import {
 import type { ByteLedger } from './byte-ledger.js';
 import type { ProtocolErrorCounter } from './protocol-error-counter.js';
 import type { WorkerSession } from './worker-session.js';
-
-/** WebSocket close code 1008, policy violation (RFC 6455 section 7.4.1). */
-export const CLOSE_POLICY_VIOLATION = 1008;
 
 export interface HandshakeDeps {
   /** the shared key */

@@ -4,7 +4,7 @@
 import { Piscina } from 'piscina';
 import type { Scenario } from '../src/scenario/schema.js';
 import type { Evaluation } from '../src/engine/evaluate.js';
-import { compiledModulePath } from './compiled-module.js';
+import { compiledModulePath } from '../runtime/compiled-module.js';
 import type { OracleTask } from './oracle-task.js';
 
 /** A pool thread unused this long exits; evaluations come every round, so it rarely does. */

@@ -2,10 +2,10 @@
 // engine's outcome shape for the shared summary, and the distributed details (control traffic,
 // the sockets' own counters, bytes by field, workers, lost workers, protocol errors).
 
-import type { RunOutcome as EngineOutcome } from '../src/engine/run-summary.js';
-import type { RunOutcome } from './run-outcome.js';
+import type { RunOutcome } from '../src/engine/run-summary.js';
+import type { CoordinatorOutcome } from './run-outcome.js';
 
-export function engineOutcomeOf(outcome: RunOutcome): EngineOutcome {
+export function engineOutcomeOf(outcome: CoordinatorOutcome): RunOutcome {
   return {
     plan: outcome.plan,
     theory: outcome.theory,
@@ -21,18 +21,18 @@ export function engineOutcomeOf(outcome: RunOutcome): EngineOutcome {
 }
 
 export interface DistributedDetails {
-  stopReason: RunOutcome['stopReason'];
+  stopReason: CoordinatorOutcome['stopReason'];
   distributed: {
-    controlBytes: RunOutcome['controlBytes'];
-    socketBytes: RunOutcome['socketBytes'];
-    payloadBytesByField: RunOutcome['payloadBytesByField'];
-    workers: RunOutcome['workers'];
-    lostWorkers: RunOutcome['lostWorkers'];
+    controlBytes: CoordinatorOutcome['controlBytes'];
+    socketBytes: CoordinatorOutcome['socketBytes'];
+    payloadBytesByField: CoordinatorOutcome['payloadBytesByField'];
+    workers: CoordinatorOutcome['workers'];
+    lostWorkers: CoordinatorOutcome['lostWorkers'];
     protocolErrorsReported: Record<string, number>;
   };
 }
 
-export function distributedDetails(outcome: RunOutcome): DistributedDetails {
+export function distributedDetails(outcome: CoordinatorOutcome): DistributedDetails {
   return {
     stopReason: outcome.stopReason,
     distributed: {

@@ -1,11 +1,12 @@
 // What a distributed run produces: the engine's result shape (so that the same summary and
-// results code serve both) plus the layers of bytes, lost workers and protocol errors.
+// results code serve both) plus the layers of bytes, lost workers and protocol errors, in more
+// detail than outcome.json keeps (server/results.ts reduces them).
 
-import type { RunOutcome as EngineRunOutcome } from '../src/engine/run-summary.js';
+import type { RunOutcomeBase } from '../src/engine/run-summary.js';
 import type { DirectionBytes } from './byte-ledger.js';
 import type { LostWorker } from './worker-registry.js';
 
-export interface RunOutcome extends Omit<EngineRunOutcome, 'bytesLayers' | 'lostWorkers' | 'protocolErrors'> {
+export interface CoordinatorOutcome extends RunOutcomeBase {
   virtualSeconds: number;
   /** round traffic (down and up messages) at the three layers */
   bytesLayers: { payload: DirectionBytes; encoded: DirectionBytes; wire: DirectionBytes };

@@ -23,7 +23,7 @@ import { defaultCompareDir, planComparison, runComparison, type CompareOptions }
 import { comparisonJson, formatComparison } from './report/compare-table.js';
 import { ladderOptionHelp } from './report/ladder-option.js';
 import { ReportError } from './report/report-error.js';
-import { parseLingerSeconds, parseMetricsAddress, type MetricsAddress } from '../server/metrics-server.js';
+import { parseLingerSeconds, parseMetricsAddress, type MetricsAddress } from '../runtime/metrics-server.js';
 import { JoinError } from '../client/connection.js';
 import { KeyFileError } from './commands/key-file.js';
 

@@ -4,13 +4,13 @@
 // Beyond loopback a key file is required; on loopback without one, the coordinator writes a
 // fresh key file and says where (key-file.ts).
 
-import { isIP } from 'node:net';
 import { HANDSHAKE_LIMITS } from '../protocol/index.js';
 import type { Scenario } from '../scenario/schema.js';
 import type { RoundRecord } from '../engine/round-record.js';
 import { Coordinator } from '../../server/coordinator.js';
 import type { TlsFiles } from '../../server/listener.js';
-import { metricsListeningLine, startMetricsServer, type MetricsServer } from '../../server/metrics-server.js';
+import { metricsListeningLine, startMetricsServer, type MetricsServer } from '../../runtime/metrics-server.js';
+import { isLoopbackHost, parseHostPort } from '../../runtime/address.js';
 import { lingerWithMetrics, writeDistributedResults, RunInterrupted, type DistributedRunResult, type MetricsServing } from './run-distributed.js';
 import { keyFileSource, KEY_FILE_ENVIRONMENT_VARIABLE, readKeyFile, writeFreshKeyFile, type FreshKeyFile } from './key-file.js';
 
@@ -49,30 +49,11 @@ export function heartbeatForSilence(silenceSeconds: number): { intervalSeconds: 
   return { intervalSeconds: silenceSeconds * ratio, silenceSeconds };
 }
 
-export interface ListenAddress {
-  host: string;
-  port: number;
-}
-
-/** HOST:PORT or [IPv6]:PORT; null when malformed. */
-export function parseListenAddress(text: string): ListenAddress | null {
-  const match = /^(?:\[([^\]]+)\]|([^:]+)):(\d{1,5})$/.exec(text);
-  if (match === null) return null;
-  const port = Number(match[3]);
-  if (port > 65535) return null;
-  return { host: match[1] ?? match[2], port };
-}
-
-export function isLoopback(host: string): boolean {
-  if (host === 'localhost' || host === '::1') return true;
-  return isIP(host) === 4 && host.startsWith('127.');
-}
-
 /** Why these options may not be used (exit code 2), or null. */
 export function coordinatorOptionsProblem(opts: CoordinatorCommandOptions, env: NodeJS.ProcessEnv): string | null {
-  const address = parseListenAddress(opts.listen);
+  const address = parseHostPort(opts.listen);
   if (address === null) return `--listen: expected HOST:PORT (e.g. 0.0.0.0:7070), got "${opts.listen}"`;
-  if (!isLoopback(address.host) && keyFileSource(opts.keyFile, env) === null) {
+  if (!isLoopbackHost(address.host) && keyFileSource(opts.keyFile, env) === null) {
     return `refusing to listen on ${address.host} without a key file: anyone who can reach the port could join. Give --key-file PATH (or ${KEY_FILE_ENVIRONMENT_VARIABLE}), or listen on 127.0.0.1`;
   }
   if ((opts.tlsCert === undefined) !== (opts.tlsKey === undefined)) return '--tls-cert and --tls-key go together';
@@ -103,11 +84,11 @@ export async function runCoordinatorCommand(
   io: { err: (text: string) => void; onRound?: (record: RoundRecord) => void },
   metrics: MetricsServing | null = null,
 ): Promise<DistributedRunResult> {
-  const address = parseListenAddress(opts.listen)!;
+  const address = parseHostPort(opts.listen)!;
   const source = keyFileSource(opts.keyFile, env);
   // Read before anything listens, so that a bad key file ends the command at once.
   const givenKey = source === null ? null : readKeyFile(source);
-  if (givenKey === null && !isLoopback(address.host)) throw new RangeError(`a fresh key file serves loopback only, not ${address.host}`);
+  if (givenKey === null && !isLoopbackHost(address.host)) throw new RangeError(`a fresh key file serves loopback only, not ${address.host}`);
   const fresh = givenKey === null ? writeFreshKeyFile() : null;
   const removeFresh = (): void => fresh?.remove();
   // A second Ctrl-C exits at once, past the finally below.
@@ -128,7 +109,7 @@ async function coordinate(
   io: { err: (text: string) => void; onRound?: (record: RoundRecord) => void },
   metrics: MetricsServing | null,
 ): Promise<DistributedRunResult> {
-  const address = parseListenAddress(opts.listen)!;
+  const address = parseHostPort(opts.listen)!;
   const tls: TlsFiles | null = opts.tlsCert && opts.tlsKey ? { certFile: opts.tlsCert, keyFile: opts.tlsKey } : null;
   const coordinator = new Coordinator(scenario, {
     host: address.host,

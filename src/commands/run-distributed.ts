@@ -12,8 +12,8 @@ import { resultFiles } from '../results/results-folder.js';
 import { Coordinator, type CoordinatorOptions } from '../../server/coordinator.js';
 import { LocalWorker } from '../../server/local-workers.js';
 import { distributedDetails, engineOutcomeOf } from '../../server/results.js';
-import type { RunOutcome } from '../../server/run-outcome.js';
-import { lingerFor, metricsListeningLine, startMetricsServer, type MetricsAddress, type MetricsServer } from '../../server/metrics-server.js';
+import type { CoordinatorOutcome } from '../../server/run-outcome.js';
+import { lingerFor, metricsListeningLine, startMetricsServer, type MetricsAddress, type MetricsServer } from '../../runtime/metrics-server.js';
 import { finishRun, formatRunSummary } from './run-report.js';
 import { writeFreshKeyFile } from './key-file.js';
 import type { RunSummary } from '../engine/run-summary.js';
@@ -55,7 +55,7 @@ export async function lingerWithMetrics(server: MetricsServer | null, lingerSeco
 }
 
 export interface DistributedRunResult {
-  outcome: RunOutcome;
+  outcome: CoordinatorOutcome;
   summary: RunSummary;
 }
 
@@ -63,7 +63,7 @@ export interface DistributedRunResult {
  * Writes the results folder: the shared outcome.json (finishRun) with the distributed details
  * added (the true stop reason, control traffic, socket counters, workers).
  */
-export function writeDistributedResults(outcome: RunOutcome, outDir: string): RunSummary {
+export function writeDistributedResults(outcome: CoordinatorOutcome, outDir: string): RunSummary {
   finishRun(engineOutcomeOf(outcome), 'distributed', outDir);
   const file = join(outDir, resultFiles.outcome);
   const merged = { ...(JSON.parse(readFileSync(file, 'utf8')) as RunSummary), ...distributedDetails(outcome) };

@@ -7,7 +7,7 @@ import { readFileSync } from 'node:fs';
 import { hostname } from 'node:os';
 import { Worker, type WorkerExit } from '../../client/worker.js';
 import { WorkerMetrics } from '../../client/metrics.js';
-import { lingerFor, metricsListeningLine, startMetricsServer, type MetricsAddress, type MetricsServer } from '../../server/metrics-server.js';
+import { lingerFor, metricsListeningLine, startMetricsServer, type MetricsAddress, type MetricsServer } from '../../runtime/metrics-server.js';
 import { keyFileSource, KEY_FILE_ENVIRONMENT_VARIABLE, readKeyFile } from './key-file.js';
 
 export interface WorkerCommandOptions {

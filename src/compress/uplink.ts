@@ -3,7 +3,7 @@
 //   through its own error-feedback memory and the server uses each message as it is;
 // - a state (FedLin's gradient grad f_i(x)): the receiver wants the latest value, so, as on the
 //   downlink, the client sends compressed differences against a replica that both ends keep
-//   (see downlink.ts). At a fixed point the differences vanish, so compression costs no accuracy
+//   (see replica.ts). At a fixed point the differences vanish, so compression costs no accuracy
 //   there; error feedback on the value itself would keep sending top-k caricatures of a dense
 //   vector forever and leave a floor.
 // Memories and replicas are keyed by field name, so a method must not reuse a field name for two
@@ -14,7 +14,7 @@ import type { ChannelSpec, RngForField } from './channel.js';
 import { compressorForField, rngForSpec } from './channel.js';
 import { decompress, validateCompressedVector, type CompressedVector } from './compressed-vector.js';
 import { ErrorFeedbackEncoder } from './error-feedback.js';
-import { DownlinkDecoder, DownlinkEncoder } from './downlink.js';
+import { ReplicaDecoder, ReplicaEncoder } from './replica.js';
 
 /** Client side, one per client: the fields' error-feedback encoders, made on first use. */
 export class UplinkEncoder {
@@ -22,12 +22,12 @@ export class UplinkEncoder {
   private readonly encoders = new Map<string, ErrorFeedbackEncoder>();
   private readonly stateFields: ReadonlySet<string>;
   /** replicas of the state fields, kept exactly as the server keeps them */
-  private readonly states: DownlinkEncoder;
+  private readonly states: ReplicaEncoder;
 
   constructor(channel: ChannelSpec, stateFields: readonly string[] = []) {
     this.channel = channel;
     this.stateFields = new Set(stateFields);
-    this.states = new DownlinkEncoder(channel);
+    this.states = new ReplicaEncoder(channel);
   }
 
   /** Compresses every field; a field keeps the dimension it first had (E_DIMENSION otherwise). */
@@ -87,11 +87,11 @@ export class UplinkEncoder {
  */
 export class UplinkDecoder {
   private readonly stateFields: ReadonlySet<string>;
-  private readonly states: DownlinkDecoder;
+  private readonly states: ReplicaDecoder;
 
   constructor(channel: ChannelSpec, stateFields: readonly string[] = []) {
     this.stateFields = new Set(stateFields);
-    this.states = new DownlinkDecoder(channel);
+    this.states = new ReplicaDecoder(channel);
   }
 
   decode(encoded: Record<string, CompressedVector>): Fields {

@@ -12,6 +12,7 @@
 //           comes from the partition alone. Pools are cached per data-relevant plan.
 
 import type { Scenario } from '../scenario/schema.js';
+import { canonicalJson } from '../scenario/plan-hash.js';
 import { featureScales } from './covariance.js';
 import { DataError } from './data-error.js';
 import { loadDataset } from './datasets.js';
@@ -138,19 +139,8 @@ function datasetPool(scenario: Scenario): { featureCount: number; pool: Labelled
   return { featureCount: dataset.featureCount, pool };
 }
 
-/** JSON with object keys sorted, so equal plans give equal cache keys whatever their key order. */
-function canonicalJson(value: unknown): string {
-  if (Array.isArray(value)) return `[${value.map(canonicalJson).join(',')}]`;
-  if (value !== null && typeof value === 'object') {
-    const entries = Object.keys(value as Record<string, unknown>)
-      .sort()
-      .map((key) => `${JSON.stringify(key)}:${canonicalJson((value as Record<string, unknown>)[key])}`);
-    return `{${entries.join(',')}}`;
-  }
-  return JSON.stringify(value);
-}
-
 function pooledData(scenario: Scenario): PooledData {
+  // Keys sorted: equal plans give equal cache keys whatever their key order.
   const key = canonicalJson({
     seed: scenario.seed,
     kind: scenario.problem.kind,

@@ -9,7 +9,7 @@ import { methodByName } from '../algorithm/registry.js';
 import type { Objective } from '../problem/objective.js';
 import { UniformMinibatchSampler } from '../problem/minibatch-sampler.js';
 import { UplinkEncoder } from '../compress/uplink.js';
-import { DownlinkDecoder } from '../compress/downlink.js';
+import { ReplicaDecoder } from '../compress/replica.js';
 import type { CompressedVector } from '../compress/compressed-vector.js';
 import type { WirePlan } from './run-plan.js';
 import { minibatchRng, uplinkRngFor } from './seeded-streams.js';
@@ -51,7 +51,7 @@ export class ClientRuntime {
   private readonly objective: Objective;
   private state: unknown;
   private readonly uplink: UplinkEncoder;
-  private readonly downlink: DownlinkDecoder;
+  private readonly downlink: ReplicaDecoder;
 
   constructor(plan: WirePlan, clientId: number, objective: Objective) {
     this.plan = plan;
@@ -60,7 +60,7 @@ export class ClientRuntime {
     this.objective = objective;
     this.state = this.method.initClient(plan.dim, plan.methodConfig, clientId);
     this.uplink = new UplinkEncoder(plan.scenario.compression.uplink, this.method.uplinkStateFields);
-    this.downlink = new DownlinkDecoder(plan.scenario.compression.downlink);
+    this.downlink = new ReplicaDecoder(plan.scenario.compression.downlink);
   }
 
   private samplerFor(round: number, exchange: string): MinibatchSampler | null {

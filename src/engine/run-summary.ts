@@ -10,8 +10,8 @@ import type { RunPrediction } from './predict-run.js';
 /** Why a run ended: its target, its round limit, a non-finite update, every worker lost, or Ctrl-C. */
 export type StopReason = 'target-reached' | 'rounds-complete' | 'diverged' | 'workers-lost' | 'stopped';
 
-/** What either runtime hands over at the end of a run. */
-export interface RunOutcome {
+/** What every run hands over at its end, whichever runtime ran it (the coordinator's adds to it). */
+export interface RunOutcomeBase {
   plan: RunPlan;
   theory: PlanTheory;
   rounds: RoundRecord[];
@@ -19,6 +19,10 @@ export interface RunOutcome {
   finalModel: Float64Array;
   stopReason: StopReason;
   wallSeconds: number;
+}
+
+/** What outcome.json is built from: the run, and the network's counts where a network carried it. */
+export interface RunOutcome extends RunOutcomeBase {
   /** encoded and wire layers, where a network carried the run */
   bytesLayers?: { encoded: ByteCounts; wire: ByteCounts };
   /** workers marked lost during the run */

@@ -5,7 +5,7 @@
 import type { Method, Upload } from '../algorithm/method.js';
 import type { Fields } from '../vec/fields.js';
 import { methodByName } from '../algorithm/registry.js';
-import { DownlinkEncoder } from '../compress/downlink.js';
+import { ReplicaEncoder } from '../compress/replica.js';
 import { UplinkDecoder } from '../compress/uplink.js';
 import type { EncodedFields } from './client-runtime.js';
 import type { RunPlan } from './run-plan.js';
@@ -22,14 +22,14 @@ export class ServerRuntime {
   readonly method: Method;
   private readonly plan: RunPlan;
   private state: unknown;
-  private readonly downlinks: DownlinkEncoder[];
+  private readonly downlinks: ReplicaEncoder[];
   private readonly uplinks: UplinkDecoder[];
 
   constructor(plan: RunPlan, initialModel: Float64Array = new Float64Array(plan.dim)) {
     this.plan = plan;
     this.method = methodByName(plan.scenario.method.name);
     this.state = this.method.initServer(plan.dim, plan.methodConfig, initialModel);
-    this.downlinks = Array.from({ length: plan.clientCount }, () => new DownlinkEncoder(plan.scenario.compression.downlink));
+    this.downlinks = Array.from({ length: plan.clientCount }, () => new ReplicaEncoder(plan.scenario.compression.downlink));
     this.uplinks = Array.from({ length: plan.clientCount }, () => new UplinkDecoder(plan.scenario.compression.uplink, this.method.uplinkStateFields));
   }
 
@@ -48,7 +48,7 @@ export class ServerRuntime {
    * leaves the two ends out of step, and zero is the one value both know they share.
    */
   resetReplicas(clientId: number): void {
-    this.downlinks[clientId] = new DownlinkEncoder(this.plan.scenario.compression.downlink);
+    this.downlinks[clientId] = new ReplicaEncoder(this.plan.scenario.compression.downlink);
     this.uplinks[clientId] = new UplinkDecoder(this.plan.scenario.compression.uplink, this.method.uplinkStateFields);
   }
 

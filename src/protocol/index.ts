@@ -5,6 +5,7 @@
 //            then fromWire(message.fields.delta) for the typed arrays.
 
 export { createChallengeNonce, proveKey, verifyProof } from './auth.js';
+export { CLOSE_NORMAL, CLOSE_POLICY_VIOLATION } from './close-codes.js';
 export { decodeMessage, encodeMessage, NESTING_DEPTH_MAX } from './codec.js';
 export { isProtocolErrorCode, PROTOCOL_ERROR_CODES, ProtocolError, type ProtocolErrorCode } from './errors.js';
 export { frameBytes, frameHeaderBytes } from './framing.js';

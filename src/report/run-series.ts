@@ -4,7 +4,7 @@
 
 import type { ClientRoundRecord, RoundRecord } from '../engine/round-record.js';
 import type { RunSummary } from '../engine/run-summary.js';
-import { thin } from './thin.js';
+import { thin } from '../base/thin.js';
 
 export const SERIES_LIMITS = {
   /** points per curve */

@@ -35,6 +35,7 @@
 //     window ends there, the longest straight window anywhere is taken.
 // The rate is exp(slope) of the final fit; r2 is its coefficient of determination.
 
+import { thin } from '../base/thin.js';
 import { TheoryError } from './theory-error.js';
 
 export interface CurvePoint {
@@ -212,19 +213,6 @@ function noiseSigma(x: ArrayLike<number>, y: ArrayLike<number>, count: number): 
   return MAD_TO_SIGMA * median(deviations);
 }
 
-/** Every stride-th point and always the last, when there are more than `limit`. */
-function thin(x: number[], y: number[], limit: number): { x: number[]; y: number[] } {
-  if (x.length <= limit) return { x, y };
-  const stride = Math.ceil(x.length / limit);
-  const keptX: number[] = [];
-  const keptY: number[] = [];
-  for (let j = (x.length - 1) % stride; j < x.length; j += stride) {
-    keptX.push(x[j]);
-    keptY.push(y[j]);
-  }
-  return { x: keptX, y: keptY };
-}
-
 /**
  * The straight window (residual RMS at most `tolerance`) spanning the most rounds among those
  * ending at or after `endFrom`, the latest among equals; null if there is none. Running sums over
@@ -305,7 +293,8 @@ export function fitLinearRate(points: readonly CurvePoint[], options: CurveOptio
   }
   if (rounds.length < FIT_POINTS_MIN) return null;
 
-  const { x, y } = thin(rounds, logs, SEARCH_POINTS_MAX);
+  const x = thin(rounds, SEARCH_POINTS_MAX);
+  const y = thin(logs, SEARCH_POINTS_MAX);
   const tolerance = Math.max(straightness, NOISE_MULTIPLE * noiseSigma(x, y, x.length));
   const endFrom = x.length - Math.max(FIT_POINTS_MIN, Math.ceil(END_ZONE_SHARE * x.length));
   const window = longestStraightWindow(x, y, tolerance, endFrom) ?? longestStraightWindow(x, y, tolerance, 0);

@@ -1,6 +1,6 @@
 // After a resumed connection both ends restart a client's compression replicas; the two sides
 // must then agree again bit for bit (the replica scheme's invariant: both ends add the same
-// decompressed messages in the same order; see src/compress/downlink.ts).
+// decompressed messages in the same order; see src/compress/replica.ts).
 import { describe, expect, it } from 'vitest';
 import { readFileSync } from 'node:fs';
 import { scenarioFromText } from '../../src/scenario/load-scenario.js';

@@ -7,7 +7,7 @@
 import { afterEach, describe, expect, it } from 'vitest';
 import { Counter, Registry } from 'prom-client';
 import parsePrometheusTextFormat from 'parse-prometheus-text-format';
-import { parseLingerSeconds, parseMetricsAddress, startMetricsServer, type MetricsServer } from '../../server/metrics-server.js';
+import { parseLingerSeconds, parseMetricsAddress, startMetricsServer, type MetricsServer } from '../../runtime/metrics-server.js';
 import { CoordinatorMetrics, type CoordinatorMetricsSources } from '../../server/metrics.js';
 import { CLIENT_LABELS_MAX } from '../../server/metrics-labels.js';
 import type { LayerBytes } from '../../server/byte-ledger.js';

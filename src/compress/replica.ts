@@ -1,10 +1,11 @@
-// The downlink (server -> client). Compressing a model itself would zero most of it: a client
-// would work from a top-k caricature of x. So, as is common practice, the server sends
-// compressed DIFFERENCES against a replica r of what the client already holds:
-//   c = C(v - r);  both ends: r <- r + decompress(c);  the client's value is r.
+// Fields that carry a state (every downlink field; on the uplink, the fields a method declares in
+// uplinkStateFields, such as FedLin's gradient). Compressing a state itself would zero most of
+// it: a client would work from a top-k caricature of x. So, as is common practice, the sender
+// sends compressed DIFFERENCES against a replica r of what the receiver already holds:
+//   c = C(v - r);  both ends: r <- r + decompress(c);  the receiver's value is r.
 // This is error feedback in another guise: v - r is exactly the input not yet delivered, so
 // it plays the memory's part, and when v stops changing, v - r shrinks by C's contraction
-// every round. With error feedback off the client gets C(v) raw; a field whose compressor is
+// every round. With error feedback off the receiver gets C(v) raw; a field whose compressor is
 // 'none' at f64 goes dense and exact with no replica. Both ends add the same numbers in the
 // same order, so the two replicas stay equal bit for bit as long as no message is lost.
 
@@ -21,7 +22,7 @@ function replicaFor(replicas: Map<string, Float64Array>, field: string, dim: num
     r = new Float64Array(dim);
     replicas.set(field, r);
   } else if (r.length !== dim) {
-    throw new CompressError('E_DIMENSION', `downlink field "${field}" has dimension ${r.length}, given ${dim}`);
+    throw new CompressError('E_DIMENSION', `replicated field "${field}" has dimension ${r.length}, given ${dim}`);
   }
   return r;
 }
@@ -37,8 +38,8 @@ function restoreReplicas(replicas: Map<string, Float64Array>, from: Readonly<Rec
   for (const [field, r] of Object.entries(from)) replicas.set(field, Float64Array.from(r));
 }
 
-/** Server side, one per client: the replicas of what that client holds. */
-export class DownlinkEncoder {
+/** Sending side, one per receiver: the replicas of what that receiver holds. */
+export class ReplicaEncoder {
   private readonly channel: ChannelSpec;
   /** r per replica-mode field, starting at zero on both ends */
   private readonly replicas = new Map<string, Float64Array>();
@@ -47,7 +48,7 @@ export class DownlinkEncoder {
     this.channel = channel;
   }
 
-  /** The message for this client; replicas advance as if it were delivered. */
+  /** The message for the receiver; replicas advance as if it were delivered. */
   encode(fields: Fields, rngFor?: RngForField): Record<string, CompressedVector> {
     const out: Record<string, CompressedVector> = {};
     for (const [field, v] of Object.entries(fields)) {
@@ -67,7 +68,7 @@ export class DownlinkEncoder {
     return out;
   }
 
-  /** A copy of the server's replica of a field, or null when the field keeps none. */
+  /** A copy of the sender's replica of a field, or null when the field keeps none. */
   replica(field: string): Float64Array | null {
     return this.replicas.get(field)?.slice() ?? null;
   }
@@ -83,8 +84,8 @@ export class DownlinkEncoder {
   }
 }
 
-/** Client side: the client's replicas; turns each message into the dense fields to work from. */
-export class DownlinkDecoder {
+/** Receiving side: its replicas; turns each message into the dense fields to work from. */
+export class ReplicaDecoder {
   private readonly channel: ChannelSpec;
   private readonly replicas = new Map<string, Float64Array>();
 
@@ -108,7 +109,7 @@ export class DownlinkDecoder {
     return out;
   }
 
-  /** Copies of the client's replicas, so that the decoder can move to another thread and back. */
+  /** Copies of the receiver's replicas, so that the decoder can move to another thread and back. */
   snapshot(): Record<string, Float64Array> {
     return snapshotReplicas(this.replicas);
   }

@@ -3,7 +3,7 @@ import { Rng } from '../../src/base/rng.js';
 import { CompressError } from '../../src/compress/compress-error.js';
 import { decompress } from '../../src/compress/compressed-vector.js';
 import { compress } from '../../src/compress/compressor.js';
-import { DownlinkDecoder, DownlinkEncoder } from '../../src/compress/downlink.js';
+import { ReplicaDecoder, ReplicaEncoder } from '../../src/compress/replica.js';
 import { channelSchema } from '../../src/scenario/schema.js';
 import { distanceSquared, normSquared } from '../../src/vec/kernels.js';
 
@@ -15,8 +15,8 @@ describe('downlink with a replica (top-k and error feedback)', () => {
     const d = 50;
     const k = 5;
     const channel = channelSchema.parse({ default: { kind: 'top-k', count: k } });
-    const server = new DownlinkEncoder(channel);
-    const client = new DownlinkDecoder(channel);
+    const server = new ReplicaEncoder(channel);
+    const client = new ReplicaDecoder(channel);
     const rng = Rng.derive(31, 'downlink');
     const v = Float64Array.from({ length: d }, () => rng.normal());
     let previousGap = Infinity;
@@ -37,8 +37,8 @@ describe('downlink with a replica (top-k and error feedback)', () => {
 
   it('returns fresh arrays: mutating what the client got does not move its replica', () => {
     const channel = channelSchema.parse({ default: { kind: 'top-k', count: 1 } });
-    const server = new DownlinkEncoder(channel);
-    const client = new DownlinkDecoder(channel);
+    const server = new ReplicaEncoder(channel);
+    const client = new ReplicaDecoder(channel);
     const first = client.decode(server.encode({ model: Float64Array.of(3, 1) })).model;
     first[0] = 100;
     const second = client.decode(server.encode({ model: Float64Array.of(3, 1) })).model;
@@ -49,8 +49,8 @@ describe('downlink with a replica (top-k and error feedback)', () => {
 describe('downlink without a replica', () => {
   it("sends 'none' at f64 dense and exact, with no replica on either end", () => {
     const channel = channelSchema.parse({});
-    const server = new DownlinkEncoder(channel);
-    const client = new DownlinkDecoder(channel);
+    const server = new ReplicaEncoder(channel);
+    const client = new ReplicaDecoder(channel);
     const v = Float64Array.of(1 / 3, -0, 1e300);
     const sent = server.encode({ model: v });
     expect(sent.model.indices).toBeNull();
@@ -61,8 +61,8 @@ describe('downlink without a replica', () => {
   it('with error feedback off gives the client C(v) as it arrives', () => {
     const spec = { kind: 'top-k', count: 2, errorFeedback: false } as const;
     const channel = channelSchema.parse({ default: spec });
-    const server = new DownlinkEncoder(channel);
-    const client = new DownlinkDecoder(channel);
+    const server = new ReplicaEncoder(channel);
+    const client = new ReplicaDecoder(channel);
     const v = Float64Array.of(5, -1, 4, 0.5);
     for (let round = 0; round < 3; round++) {
       expect(client.decode(server.encode({ model: v })).model).toEqual(decompress(compress(v, channel.default)));
@@ -74,8 +74,8 @@ describe('downlink without a replica', () => {
     // Each round sends fround(v - r): the residual after round t is below 2^-24 of the last
     // (binary32 has a 24-bit significand, IEEE 754), so three rounds reach binary64 rounding.
     const channel = channelSchema.parse({ default: { kind: 'none', values: 'f32' } });
-    const server = new DownlinkEncoder(channel);
-    const client = new DownlinkDecoder(channel);
+    const server = new ReplicaEncoder(channel);
+    const client = new ReplicaDecoder(channel);
     const v = Float64Array.of(Math.PI, -Math.E, 1 / 3);
     let held: Float64Array = new Float64Array(3);
     for (let round = 0; round < 3; round++) held = client.decode(server.encode({ model: v })).model;
@@ -84,7 +84,7 @@ describe('downlink without a replica', () => {
 
   it('rejects a message whose dimension differs from the replica', () => {
     const channel = channelSchema.parse({ default: { kind: 'top-k', count: 1 } });
-    const client = new DownlinkDecoder(channel);
+    const client = new ReplicaDecoder(channel);
     client.decode({ model: { dim: 3, indices: Uint32Array.of(0), values: Float64Array.of(1) } });
     let code: string | undefined;
     try {

@@ -1,5 +1,6 @@
-// Bounds what a chart draws: a long run keeps its first and last points and an even spread
-// between them, so the picture keeps its shape while the page stays small.
+// Bounds a long series: it keeps its first and last points and an even spread between them, so
+// a chart keeps its shape while the page stays small, and a curve fit keeps its span while its
+// search stays affordable.
 
 /** Indices 0..length-1, at most `pointsMax` of them, evenly spread, always first and last. */
 export function thinIndices(length: number, pointsMax: number): number[] {

@@ -3,14 +3,11 @@
 // metrics name clients and workers, which is nobody's business beyond this machine by default.
 
 import { createServer, type Server } from 'node:http';
-import { isIP, type AddressInfo } from 'node:net';
+import type { AddressInfo } from 'node:net';
 import type { Registry } from 'prom-client';
+import { isLoopbackHost, parseHostPort, urlHost, type HostPort } from './address.js';
 
-export interface MetricsAddress {
-  host: string;
-  /** 0: the OS picks */
-  port: number;
-}
+export type MetricsAddress = HostPort;
 
 export class MetricsOptionError extends Error {
   readonly code = 'E_METRICS_OPTION';
@@ -26,12 +23,11 @@ const CONNECTIONS_MAX = 16;
 
 /** HOST:PORT, [IPv6]:PORT or a bare PORT (on 127.0.0.1). Throws MetricsOptionError when malformed. */
 export function parseMetricsAddress(text: string): MetricsAddress {
-  const match = /^(?:(?:\[([^\]]+)\]|([^:[\]]+)):)?(\d{1,5})$/.exec(text);
-  const port = match === null ? Number.NaN : Number(match[3]);
-  if (match === null || port > 65535) {
+  const address = parseHostPort(text, METRICS_HOST_DEFAULT);
+  if (address === null) {
     throw new MetricsOptionError(`--metrics: expected HOST:PORT or PORT (e.g. 127.0.0.1:9464, port 0: any free port), got "${text}"`);
   }
-  return { host: match[1] ?? match[2] ?? METRICS_HOST_DEFAULT, port };
+  return address;
 }
 
 /** Linger after the run: the most a finished process keeps serving. */
@@ -46,20 +42,11 @@ export function parseLingerSeconds(text: string): number {
   return seconds;
 }
 
-export function isLoopbackHost(host: string): boolean {
-  if (host === 'localhost' || host === '::1') return true;
-  return isIP(host) === 4 && host.startsWith('127.');
-}
-
 export interface MetricsServer {
   /** http://HOST:PORT/metrics as bound */
   url: string;
   port: number;
   close(): Promise<void>;
-}
-
-function urlHost(host: string): string {
-  return host.includes(':') ? `[${host}]` : host;
 }
 
 /** Serves `registry` at /metrics on `address`; resolves once listening. */

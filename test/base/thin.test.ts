@@ -1,7 +1,7 @@
 // Thinning keeps the first and last points and an even spread between (common practice for
 // plotting long series); the bounds are the module's own contract.
 import { describe, expect, it } from 'vitest';
-import { thin, thinIndices } from '../../src/report/thin.js';
+import { thin, thinIndices } from '../../src/base/thin.js';
 
 describe('thinIndices', () => {
   it('keeps everything when the series fits', () => {
