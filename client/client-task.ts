@@ -7,7 +7,7 @@ import { ClientRuntime, type ClientRuntimeSnapshot, type EncodedFields } from '.
 import type { WirePlan } from '../src/engine/run-plan.js';
 import type { Objective } from '../src/problem/objective.js';
 import { clientObjective } from '../src/data/problem-instance.js';
-import { hasErrorCode } from '../src/base/coded-error.js';
+import { isNonFiniteError } from '../src/base/coded-error.js';
 
 export interface ClientTask {
   plan: WirePlan;
@@ -62,7 +62,7 @@ export default function clientTask(task: ClientTask): ClientTaskResult | ClientT
   try {
     result = runtime.work(task.round, task.exchange, task.encodedDown, task.localSteps, task.stepSize);
   } catch (error) {
-    if (hasErrorCode(error, 'E_NOT_FINITE')) return { nonFinite: (error as Error).message };
+    if (isNonFiniteError(error)) return { nonFinite: (error as Error).message };
     throw error;
   }
   const measuredSeconds = (performance.now() - started) / 1000;

@@ -25,7 +25,7 @@ export function backoffSeconds(policy: RetryPolicy, attempt: number): number {
 }
 
 export class JoinError extends Error {
-  readonly code = 'E_JOIN';
+  readonly code = 'E_WORKER_JOIN';
 }
 
 /** Receives every frame; attached before the connection opens, since the server speaks first. */

@@ -27,7 +27,7 @@ import {
 import type { EncodedFields } from '../src/engine/client-runtime.js';
 import type { WirePlan } from '../src/engine/run-plan.js';
 import { fieldsPayloadBytes } from '../src/compress/payload-bytes.js';
-import { hasErrorCode } from '../src/base/coded-error.js';
+import { isNonFiniteError } from '../src/base/coded-error.js';
 import { methodByName } from '../src/algorithm/registry.js';
 import { validateScenario } from '../src/scenario/validate-scenario.js';
 import { speedModelFor } from '../src/timing/round-speed.js';
@@ -357,7 +357,7 @@ export class Worker {
    * stops the run there as it does in the engine.
    */
   private reportFailure(message: DownMessage, error: Error): void {
-    const code = error instanceof ProtocolError ? error.code : hasErrorCode(error, 'E_NOT_FINITE') ? 'E_NOT_FINITE' : 'E_TYPE';
+    const code = error instanceof ProtocolError ? error.code : isNonFiniteError(error) ? 'E_NOT_FINITE' : 'E_TYPE';
     const limit = this.hosting?.limits.maxErrorMessageLength ?? HANDSHAKE_LIMITS.maxErrorMessageLength;
     this.options.log(`client ${message.clientId}, round ${message.round} (${message.exchange}) failed: ${error.message}`);
     this.send({ type: 'error', code, message: `client ${message.clientId}, round ${message.round}, exchange ${message.exchange}: ${error.message}`.slice(0, limit) });

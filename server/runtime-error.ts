@@ -7,8 +7,6 @@ export type RuntimeErrorCode =
   | 'E_NOT_ENOUGH_WORKERS'
   /** every worker was lost; the run cannot go on */
   | 'E_ALL_WORKERS_LOST'
-  /** a worker could not reach or join the coordinator */
-  | 'E_JOIN'
   /** the run was stopped (SIGINT, SIGTERM) */
   | 'E_STOPPED';
 

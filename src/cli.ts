@@ -4,11 +4,8 @@
 import { Command, CommanderError, InvalidArgumentError, Option } from 'commander';
 import { writeFileSync } from 'node:fs';
 import { loadScenarioFile } from './scenario/load-scenario.js';
-import { ScenarioError } from './scenario/scenario-error.js';
 import { scenarioJsonSchema } from './scenario/json-schema.js';
-import { DataError } from './data/data-error.js';
-import { TimingError } from './timing/errors.js';
-import { exitCodes, exitCodesHelp } from './commands/exit-codes.js';
+import { exitCodeOf, exitCodes, exitCodesHelp } from './commands/exit-codes.js';
 import { formatTheoryReport, theoryReport } from './commands/theory-command.js';
 import { writeShards } from './commands/shards-command.js';
 import { runInProcess } from './engine/in-process-engine.js';
@@ -22,10 +19,8 @@ import { writeRunReport } from './commands/report-command.js';
 import { defaultCompareDir, planComparison, runComparison, type CompareOptions } from './commands/compare-command.js';
 import { comparisonJson, formatComparison } from './report/compare-table.js';
 import { ladderOptionHelp } from './report/ladder-option.js';
-import { ReportError } from './report/report-error.js';
 import { parseLingerSeconds, parseMetricsAddress, type MetricsAddress } from '../runtime/metrics-server.js';
 import { JoinError } from '../client/connection.js';
-import { KeyFileError } from './commands/key-file.js';
 
 /** An input problem found by a command itself (not by the scenario schema). */
 export class UsageError extends Error {
@@ -228,7 +223,7 @@ function buildProgram(io: Io): Command {
 }
 
 function isBadInput(error: unknown): error is Error {
-  return error instanceof ScenarioError || error instanceof DataError || error instanceof TimingError || error instanceof UsageError || error instanceof ReportError || error instanceof KeyFileError;
+  return error instanceof Error && exitCodeOf(error) === exitCodes.badInput;
 }
 
 /** Runs the command line; resolves to the process exit code. */

@@ -97,7 +97,7 @@ export const fedlin: Method<FedLinServerState, FedLinClientState> = {
       return { gradient: Float64Array.from(client.anchorGradient) };
     }
     if (!client.anchorReady) {
-      throw new MethodError('E_SEQUENCE', `client ${client.clientId}: FedLin's local exchange needs this round's gradient exchange first`);
+      throw new MethodError('E_METHOD_SEQUENCE', `client ${client.clientId}: FedLin's local exchange needs this round's gradient exchange first`);
     }
     assertBudget(budget);
     const g = requireField(down, 'gradient', client.dim);

@@ -35,7 +35,7 @@ export const fednova: Method<AveragingServerState, LocalClientState> = {
     for (const upload of uploads) {
       const tau = upload.localSteps;
       if (!Number.isInteger(tau) || tau < 1 || tau > LOCAL_STEPS_MAX) {
-        throw new MethodError('E_BUDGET', `client ${upload.clientId}: local steps must be an integer in [1, ${LOCAL_STEPS_MAX}], got ${tau}`);
+        throw new MethodError('E_METHOD_BUDGET', `client ${upload.clientId}: local steps must be an integer in [1, ${LOCAL_STEPS_MAX}], got ${tau}`);
       }
     }
     if (uploads.length === 0) return;

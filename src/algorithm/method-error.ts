@@ -6,24 +6,24 @@ import { CodedError } from '../base/coded-error.js';
 
 export type MethodErrorCode =
   /** a method name the registry does not know */
-  | 'E_UNKNOWN_METHOD'
+  | 'E_METHOD_UNKNOWN'
   /** an exchange name the method does not have */
-  | 'E_EXCHANGE'
+  | 'E_METHOD_EXCHANGE'
   /** a MethodConfig value, dimension or client id outside its domain */
-  | 'E_CONFIG'
+  | 'E_METHOD_CONFIG'
   /** a named vector the method needs is absent */
-  | 'E_MISSING_FIELD'
+  | 'E_METHOD_MISSING_FIELD'
   /** a vector or an objective whose length is not the state's dimension */
-  | 'E_DIMENSION'
+  | 'E_METHOD_DIMENSION'
   /** an upload or initial model with NaN or an infinity */
-  | 'E_NOT_FINITE'
+  | 'E_METHOD_NOT_FINITE'
   /** upload client ids out of range, unsorted or repeated */
-  | 'E_UPLOAD_ORDER'
+  | 'E_METHOD_UPLOAD_ORDER'
   /** an upload weight that is not positive and finite */
-  | 'E_WEIGHT'
+  | 'E_METHOD_WEIGHT'
   /** local steps not an integer in [1, LOCAL_STEPS_MAX], or a step size not positive and finite */
-  | 'E_BUDGET'
+  | 'E_METHOD_BUDGET'
   /** an exchange that needs an earlier exchange of the same round, called without it */
-  | 'E_SEQUENCE';
+  | 'E_METHOD_SEQUENCE';
 
 export class MethodError extends CodedError<MethodErrorCode> {}

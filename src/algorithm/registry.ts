@@ -14,6 +14,6 @@ import { MethodError } from './method-error.js';
 const METHODS: Readonly<Record<MethodName, Method>> = { gd, fedavg, fedprox, fednova, scaffold, fedlin, fedsplit };
 
 export function methodByName(name: MethodName): Method {
-  if (!Object.hasOwn(METHODS, name)) throw new MethodError('E_UNKNOWN_METHOD', `no method named "${String(name)}"`);
+  if (!Object.hasOwn(METHODS, name)) throw new MethodError('E_METHOD_UNKNOWN', `no method named "${String(name)}"`);
   return METHODS[name];
 }

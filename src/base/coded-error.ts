@@ -11,7 +11,12 @@ export class CodedError<Code extends string> extends Error {
   }
 }
 
-/** True when `error` carries `code` (any module's coded error, or a plain object with a code). */
-export function hasErrorCode(error: unknown, code: string): boolean {
-  return typeof error === 'object' && error !== null && (error as { code?: unknown }).code === code;
+/**
+ * True when `error` says a value stopped being finite, whichever layer noticed it: every such
+ * code is E_NOT_FINITE (the protocol's) or E_<LAYER>_NOT_FINITE (E_METHOD_NOT_FINITE,
+ * E_COMPRESS_NOT_FINITE, ...). A diverging run is recognised by this, not by one layer's code.
+ */
+export function isNonFiniteError(error: unknown): boolean {
+  const code = typeof error === 'object' && error !== null ? (error as { code?: unknown }).code : undefined;
+  return typeof code === 'string' && /^E_([A-Z]+_)?NOT_FINITE$/.test(code);
 }

@@ -10,6 +10,43 @@ export const exitCodes = {
   interrupted: 130,
 } as const;
 
+/**
+ * The one table from an error's code to the exit code: every code that means the input was bad
+ * (a scenario, a tweak, a ladder, an argument, a key file, a results folder) exits 2. Any other
+ * error is a failed run (1); an interrupted one exits 130 (RunInterrupted, not a code).
+ */
+export const BAD_INPUT_CODES: ReadonlySet<string> = new Set([
+  // src/scenario
+  'E_SCENARIO_SYNTAX',
+  'E_SCENARIO_FIELD',
+  'E_SCENARIO_TWEAK',
+  'E_SCENARIO_FILE',
+  // src/data
+  'E_DATA_SPEC',
+  'E_DATASET',
+  // src/timing
+  'E_TIMING_ARGUMENT',
+  'E_TIMING_LOCAL_STEPS_LENGTH',
+  'E_TIMING_POLICY_K',
+  'E_TIMING_SLOWDOWN_NOT_FINITE',
+  // src/report
+  'E_COMPARE_VARIANTS',
+  'E_LADDER_FIELDS',
+  'E_LADDER_RUNG',
+  'E_LADDER_SYNTAX',
+  'E_RESULTS_CONTENT',
+  'E_RESULTS_FILE',
+  // src/commands and src/cli.ts
+  'E_KEY_FILE',
+  'E_USAGE',
+]);
+
+/** The exit code for an error a command did not handle itself. */
+export function exitCodeOf(error: unknown): number {
+  const code = typeof error === 'object' && error !== null ? (error as { code?: unknown }).code : undefined;
+  return typeof code === 'string' && BAD_INPUT_CODES.has(code) ? exitCodes.badInput : exitCodes.failure;
+}
+
 export const exitCodesHelp = `
 Exit codes:
   0    success

@@ -34,7 +34,7 @@ export function keptCount(dim: number, spec: CompressorSpec): number {
     const nearest = Math.round(product);
     k = Math.abs(product - nearest) <= INTEGER_SNAP_RELATIVE * Math.max(1, nearest) ? nearest : Math.ceil(product);
   } else {
-    throw new CompressError('E_SPEC', `${spec.kind} needs a fraction or a count`);
+    throw new CompressError('E_COMPRESS_SPEC', `${spec.kind} needs a fraction or a count`);
   }
   return Math.min(dim, Math.max(1, k));
 }
@@ -55,7 +55,7 @@ function gather(
 function assertValuesFinite(values: Float64Array | Float32Array, spec: CompressorSpec): void {
   for (let i = 0; i < values.length; i++) {
     if (!Number.isFinite(values[i])) {
-      throw new CompressError('E_NOT_FINITE', `a kept value is not finite at width ${spec.values} after ${spec.kind}`);
+      throw new CompressError('E_COMPRESS_NOT_FINITE', `a kept value is not finite at width ${spec.values} after ${spec.kind}`);
     }
   }
 }
@@ -67,8 +67,8 @@ function assertValuesFinite(values: Float64Array | Float32Array, spec: Compresso
  */
 export function compress(v: Float64Array, spec: CompressorSpec, rng?: Rng): CompressedVector {
   const dim = v.length;
-  if (dim < 1) throw new CompressError('E_DIMENSION', 'cannot compress a vector of dimension 0');
-  if (!allFinite(v)) throw new CompressError('E_NOT_FINITE', 'cannot compress a vector with a NaN or an infinity');
+  if (dim < 1) throw new CompressError('E_COMPRESS_DIMENSION', 'cannot compress a vector of dimension 0');
+  if (!allFinite(v)) throw new CompressError('E_COMPRESS_NOT_FINITE', 'cannot compress a vector with a NaN or an infinity');
   let result: CompressedVector;
   switch (spec.kind) {
     case 'none':
@@ -80,7 +80,7 @@ export function compress(v: Float64Array, spec: CompressorSpec, rng?: Rng): Comp
       break;
     }
     case 'rand-k': {
-      if (rng === undefined) throw new CompressError('E_RNG_REQUIRED', 'rand-k needs a seeded Rng');
+      if (rng === undefined) throw new CompressError('E_COMPRESS_RNG_REQUIRED', 'rand-k needs a seeded Rng');
       const k = keptCount(dim, spec);
       const indices = rng.sampleWithoutReplacement(dim, k);
       result = toWireForm(dim, indices, gather(v, indices, spec.unbiased ? dim / k : 1, spec.values));

@@ -22,7 +22,7 @@ function assertStrictlyIncreasing(indices: Uint32Array): void {
   for (let i = 1; i < indices.length; i++) {
     if (indices[i] <= indices[i - 1]) {
       throw new CompressError(
-        'E_INDEX_ORDER',
+        'E_COMPRESS_INDEX_ORDER',
         `indices must be strictly increasing: position ${i} holds ${indices[i]} after ${indices[i - 1]}`,
       );
     }
@@ -65,11 +65,11 @@ export function encodeIndicesDeltaVarint(indices: Uint32Array): Uint8Array {
  */
 export function decodeIndicesDeltaVarint(bytes: Uint8Array, k: number): Uint32Array {
   if (!Number.isInteger(k) || k < 0) {
-    throw new CompressError('E_VARINT', `index count must be a non-negative integer, got ${k}`);
+    throw new CompressError('E_COMPRESS_VARINT', `index count must be a non-negative integer, got ${k}`);
   }
   // Every index takes at least one byte: this bounds the allocation below by the message size.
   if (k > bytes.length) {
-    throw new CompressError('E_VARINT', `${k} indices cannot fit in ${bytes.length} bytes`);
+    throw new CompressError('E_COMPRESS_VARINT', `${k} indices cannot fit in ${bytes.length} bytes`);
   }
   const out = new Uint32Array(k);
   let pos = 0;
@@ -79,15 +79,15 @@ export function decodeIndicesDeltaVarint(bytes: Uint8Array, k: number): Uint32Ar
     let weight = 1;
     for (let group = 0; ; group++) {
       if (pos >= bytes.length) {
-        throw new CompressError('E_VARINT', `index ${i} is truncated at byte ${pos}`);
+        throw new CompressError('E_COMPRESS_VARINT', `index ${i} is truncated at byte ${pos}`);
       }
       const byte = bytes[pos++];
       const last = (byte & 0x80) === 0;
       if (group === VARINT_BYTES_MAX - 1 && (!last || byte > 0x0f)) {
-        throw new CompressError('E_VARINT', `index ${i} overflows 32 bits at byte ${pos - 1}`);
+        throw new CompressError('E_COMPRESS_VARINT', `index ${i} overflows 32 bits at byte ${pos - 1}`);
       }
       if (last && byte === 0 && group > 0) {
-        throw new CompressError('E_VARINT', `index ${i} has an overlong coding at byte ${pos - 1}`);
+        throw new CompressError('E_COMPRESS_VARINT', `index ${i} has an overlong coding at byte ${pos - 1}`);
       }
       gap += (byte & 0x7f) * weight;
       if (last) break;
@@ -95,13 +95,13 @@ export function decodeIndicesDeltaVarint(bytes: Uint8Array, k: number): Uint32Ar
     }
     const index = previous + 1 + gap;
     if (index > UINT32_MAX) {
-      throw new CompressError('E_INDEX_RANGE', `index ${i} is ${index}, beyond uint32`);
+      throw new CompressError('E_COMPRESS_INDEX_RANGE', `index ${i} is ${index}, beyond uint32`);
     }
     out[i] = index;
     previous = index;
   }
   if (pos !== bytes.length) {
-    throw new CompressError('E_VARINT', `${bytes.length - pos} bytes left after ${k} indices`);
+    throw new CompressError('E_COMPRESS_VARINT', `${bytes.length - pos} bytes left after ${k} indices`);
   }
   return out;
 }

@@ -22,7 +22,7 @@ function replicaFor(replicas: Map<string, Float64Array>, field: string, dim: num
     r = new Float64Array(dim);
     replicas.set(field, r);
   } else if (r.length !== dim) {
-    throw new CompressError('E_DIMENSION', `replicated field "${field}" has dimension ${r.length}, given ${dim}`);
+    throw new CompressError('E_COMPRESS_DIMENSION', `replicated field "${field}" has dimension ${r.length}, given ${dim}`);
   }
   return r;
 }

@@ -2,7 +2,7 @@
 // and answers its down at once, and every up comes back. The in-process engine runs on it; so
 // do the round map for predictions and the field-shape probe, over the plan's ideal twin.
 
-import { hasErrorCode } from '../base/coded-error.js';
+import { isNonFiniteError } from '../base/coded-error.js';
 import type { ClientRuntime } from './client-runtime.js';
 import type { ClientReturn, ExchangeOrder, ExchangeReply, ExchangeTransport } from './walk-transport.js';
 
@@ -26,7 +26,7 @@ export class DirectTransport implements ExchangeTransport {
         returns.set(a.clientId, { kind: 'up', encodedUp: result.encodedUp, stepsTaken: result.stepsTaken });
       } catch (error) {
         // A client whose update is no longer finite cannot encode it: the run diverged.
-        if (hasErrorCode(error, 'E_NOT_FINITE')) return { returns, diverged: true };
+        if (isNonFiniteError(error)) return { returns, diverged: true };
         throw error;
       }
     }

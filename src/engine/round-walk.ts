@@ -11,7 +11,7 @@
 // virtual-clock run ends on the same model bit for bit in both.
 
 import { fieldsPayloadBytes } from '../compress/payload-bytes.js';
-import { hasErrorCode } from '../base/coded-error.js';
+import { isNonFiniteError } from '../base/coded-error.js';
 import { speedModelFor, type SpeedModel } from '../timing/round-speed.js';
 import { VirtualClock } from '../timing/virtual-clock.js';
 import { allFinite } from '../vec/kernels.js';
@@ -57,7 +57,7 @@ function encodeDowns(server: ServerRuntime, round: number, exchange: string, ass
       return { assignment, encodedDown, payloadBytes: fieldsPayloadBytes(encodedDown) };
     });
   } catch (error) {
-    if (hasErrorCode(error, 'E_NOT_FINITE')) return null;
+    if (isNonFiniteError(error)) return null;
     throw error;
   }
 }
@@ -67,7 +67,7 @@ function aggregateFinite(server: ServerRuntime, exchange: string, uploads: reado
   try {
     server.aggregate(exchange, uploads);
   } catch (error) {
-    if (hasErrorCode(error, 'E_NOT_FINITE')) return false;
+    if (isNonFiniteError(error)) return false;
     throw error;
   }
   return allFinite(server.model());

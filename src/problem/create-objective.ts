@@ -15,11 +15,11 @@ export function createObjective(spec: ObjectiveSpec, shard: Shard): Objective {
     case 'logistic':
       return new LogisticObjective(shard, spec.regularization);
     case 'softmax':
-      if (spec.classes === undefined) throw new ProblemError('E_SPEC', 'a softmax objective needs a class count');
+      if (spec.classes === undefined) throw new ProblemError('E_PROBLEM_SPEC', 'a softmax objective needs a class count');
       return new SoftmaxObjective(shard, spec.regularization, spec.classes);
     default: {
       const unknown: never = spec.kind;
-      throw new ProblemError('E_SPEC', `unknown problem kind ${String(unknown)}`);
+      throw new ProblemError('E_PROBLEM_SPEC', `unknown problem kind ${String(unknown)}`);
     }
   }
 }

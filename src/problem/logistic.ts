@@ -38,7 +38,7 @@ export class LogisticObjective implements Objective {
     for (let s = 0; s < shard.sampleCount; s++) {
       const b = shard.targets[s];
       if (b !== 0 && b !== 1) {
-        throw new ProblemError('E_TARGET', `client ${shard.clientId}: logistic labels must be 0 or 1, sample ${s} has ${b}`);
+        throw new ProblemError('E_PROBLEM_TARGET', `client ${shard.clientId}: logistic labels must be 0 or 1, sample ${s} has ${b}`);
       }
     }
     this.shard = shard;

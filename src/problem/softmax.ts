@@ -34,13 +34,13 @@ export class SoftmaxObjective implements Objective {
     checkShard(shard);
     checkRegularization(regularization);
     if (!Number.isInteger(classCount) || classCount < 2 || classCount > CLASSES_MAX) {
-      throw new ProblemError('E_SPEC', `softmax needs an integer class count in [2, ${CLASSES_MAX}], got ${classCount}`);
+      throw new ProblemError('E_PROBLEM_SPEC', `softmax needs an integer class count in [2, ${CLASSES_MAX}], got ${classCount}`);
     }
     for (let s = 0; s < shard.sampleCount; s++) {
       const b = shard.targets[s];
       if (!Number.isInteger(b) || b < 0 || b >= classCount) {
         throw new ProblemError(
-          'E_TARGET',
+          'E_PROBLEM_TARGET',
           `client ${shard.clientId}: softmax labels must be class indices in [0, ${classCount}), sample ${s} has ${b}`,
         );
       }

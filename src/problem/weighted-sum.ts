@@ -24,9 +24,9 @@ export class WeightedSumObjective implements Objective {
   private exactExtremes: { smallest: number; largest: number } | null = null;
 
   constructor(components: readonly Objective[], weights: ArrayLike<number>) {
-    if (components.length === 0) throw new ProblemError('E_WEIGHTS', 'a weighted sum needs at least one objective');
+    if (components.length === 0) throw new ProblemError('E_PROBLEM_WEIGHTS', 'a weighted sum needs at least one objective');
     if (weights.length !== components.length) {
-      throw new ProblemError('E_WEIGHTS', `${weights.length} weights for ${components.length} objectives`);
+      throw new ProblemError('E_PROBLEM_WEIGHTS', `${weights.length} weights for ${components.length} objectives`);
     }
     const { kind, dim } = components[0];
     let weightTotal = 0;
@@ -37,18 +37,18 @@ export class WeightedSumObjective implements Objective {
       const component = components[i];
       if (component.kind !== kind || component.dim !== dim) {
         throw new ProblemError(
-          'E_DIMENSION',
+          'E_PROBLEM_DIMENSION',
           `objective ${i} is ${component.kind} of dimension ${component.dim}, the first is ${kind} of dimension ${dim}`,
         );
       }
       const w = weights[i];
-      if (!Number.isFinite(w) || w < 0) throw new ProblemError('E_WEIGHTS', `weight ${i} must be finite and >= 0, got ${w}`);
+      if (!Number.isFinite(w) || w < 0) throw new ProblemError('E_PROBLEM_WEIGHTS', `weight ${i} must be finite and >= 0, got ${w}`);
       weightTotal += w;
       regularization += w * component.regularization;
       this.sampleOffsets[i] = sampleCount;
       sampleCount += component.sampleCount;
     }
-    if (!(weightTotal > 0)) throw new ProblemError('E_WEIGHTS', 'the weights sum to zero');
+    if (!(weightTotal > 0)) throw new ProblemError('E_PROBLEM_WEIGHTS', 'the weights sum to zero');
     this.kind = kind;
     this.dim = dim;
     this.sampleCount = sampleCount;
@@ -84,14 +84,14 @@ export class WeightedSumObjective implements Objective {
    */
   minibatchGradient(x: Float64Array, sampleIndices: Uint32Array, out: Float64Array): void {
     assertLength('gradient', out, this.dim);
-    if (sampleIndices.length === 0) throw new ProblemError('E_BATCH', 'a minibatch needs at least one sample');
+    if (sampleIndices.length === 0) throw new ProblemError('E_PROBLEM_BATCH', 'a minibatch needs at least one sample');
     const m = this.components.length;
     const perClient = new Uint32Array(m);
     const owner = new Uint32Array(sampleIndices.length);
     for (let t = 0; t < sampleIndices.length; t++) {
       const s = sampleIndices[t];
       if (s >= this.sampleCount) {
-        throw new ProblemError('E_BATCH', `minibatch index ${s} is outside the ${this.sampleCount} samples`);
+        throw new ProblemError('E_PROBLEM_BATCH', `minibatch index ${s} is outside the ${this.sampleCount} samples`);
       }
       const i = this.ownerOf(s);
       owner[t] = i;

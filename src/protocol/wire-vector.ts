@@ -37,12 +37,12 @@ function widthOf(values: Float64Array | Float32Array): ValueWidthBytes {
 function protocolErrorOf(error: unknown, path: string): unknown {
   if (!(error instanceof CompressError)) return error;
   switch (error.code) {
-    case 'E_NOT_FINITE':
+    case 'E_COMPRESS_NOT_FINITE':
       return new ProtocolError('E_NOT_FINITE', `${path}: ${error.message}`);
-    case 'E_DIMENSION':
-    case 'E_INDEX_ORDER':
-    case 'E_INDEX_RANGE':
-    case 'E_VARINT':
+    case 'E_COMPRESS_DIMENSION':
+    case 'E_COMPRESS_INDEX_ORDER':
+    case 'E_COMPRESS_INDEX_RANGE':
+    case 'E_COMPRESS_VARINT':
       return new ProtocolError('E_DIMENSION', `${path}: ${error.message}`);
     default:
       return error;

@@ -47,7 +47,7 @@ function ownMinimizer(client: Objective, options: OracleOptions): Float64Array |
   } catch (error) {
     // Cholesky refuses the Hessian itself (least squares) or Newton's shifts give up (smooth losses).
     if (error instanceof LinalgError && error.code === 'E_LINALG_NOT_POSITIVE_DEFINITE') return null;
-    if (error instanceof ProblemError && error.code === 'E_NOT_POSITIVE_DEFINITE') return null;
+    if (error instanceof ProblemError && error.code === 'E_PROBLEM_NOT_POSITIVE_DEFINITE') return null;
     throw error;
   }
 }

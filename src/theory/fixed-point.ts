@@ -67,13 +67,13 @@ function fixedPointResidual(map: RoundMap, s: Float64Array, out: Float64Array): 
  * E_NOT_CONVERGED when GMRES ran out of steps first, E_SIZE_LIMIT beyond FIXED_POINT_DIMENSION_MAX.
  */
 export function affineFixedPoint(map: RoundMap, dim: number, options: FixedPointOptions = {}): AffineFixedPoint {
-  if (!Number.isInteger(dim) || dim < 1) throw new TheoryError('E_DIMENSION', `dimension must be a positive integer, got ${dim}`);
+  if (!Number.isInteger(dim) || dim < 1) throw new TheoryError('E_THEORY_DIMENSION', `dimension must be a positive integer, got ${dim}`);
   if (dim > FIXED_POINT_DIMENSION_MAX) {
-    throw new TheoryError('E_SIZE_LIMIT', `fixed points are solved up to dimension ${FIXED_POINT_DIMENSION_MAX}, got ${dim}`);
+    throw new TheoryError('E_THEORY_SIZE_LIMIT', `fixed points are solved up to dimension ${FIXED_POINT_DIMENSION_MAX}, got ${dim}`);
   }
   const refinementsMax = options.refinementsMax ?? DEFAULT_REFINEMENTS_MAX;
   if (!Number.isInteger(refinementsMax) || refinementsMax < 0) {
-    throw new TheoryError('E_ARGUMENT', `refinementsMax must be an integer >= 0, got ${refinementsMax}`);
+    throw new TheoryError('E_THEORY_ARGUMENT', `refinementsMax must be an integer >= 0, got ${refinementsMax}`);
   }
   const iterationsMax = options.iterationsMax ?? Math.min(dim, FIXED_POINT_KRYLOV_MAX);
   const base = options.base ?? new Float64Array(dim);
@@ -120,13 +120,13 @@ export function affineFixedPoint(map: RoundMap, dim: number, options: FixedPoint
   if (residualNorm > ACCEPTED_RESIDUAL * (norm2(state) + imageNorm)) {
     if (exhausted) {
       throw new TheoryError(
-        'E_SINGULAR',
+        'E_THEORY_SINGULAR',
         `the round map has no fixed point in reach: ||T(s) - s|| stays at ${residualNorm.toExponential(3)} ` +
           '(I - M is singular and the state drifts along a direction the round conserves)',
       );
     }
     throw new TheoryError(
-      'E_NOT_CONVERGED',
+      'E_THEORY_NOT_CONVERGED',
       `GMRES left ||T(s) - s|| at ${residualNorm.toExponential(3)} after ${iterationsMax} steps per solve`,
     );
   }

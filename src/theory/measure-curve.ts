@@ -93,12 +93,12 @@ const SEARCH_POINTS_MAX = 2048;
 function checkPoints(points: readonly CurvePoint[]): void {
   for (let j = 0; j < points.length; j++) {
     const { round, suboptimality } = points[j];
-    if (!Number.isFinite(round)) throw new TheoryError('E_POINTS', `point ${j} has round ${round}`);
+    if (!Number.isFinite(round)) throw new TheoryError('E_THEORY_POINTS', `point ${j} has round ${round}`);
     if (j > 0 && !(round > points[j - 1].round)) {
-      throw new TheoryError('E_POINTS', `rounds must increase: point ${j} has round ${round} after ${points[j - 1].round}`);
+      throw new TheoryError('E_THEORY_POINTS', `rounds must increase: point ${j} has round ${round} after ${points[j - 1].round}`);
     }
     if (!Number.isFinite(suboptimality)) {
-      throw new TheoryError('E_NOT_FINITE', `point ${j} (round ${round}) has suboptimality ${suboptimality}`);
+      throw new TheoryError('E_THEORY_NOT_FINITE', `point ${j} (round ${round}) has suboptimality ${suboptimality}`);
     }
   }
 }
@@ -106,7 +106,7 @@ function checkPoints(points: readonly CurvePoint[]): void {
 function noiseLevelOf(points: readonly CurvePoint[], options: CurveOptions): number {
   if (options.noiseLevel !== undefined) {
     if (!(options.noiseLevel >= 0) || !Number.isFinite(options.noiseLevel)) {
-      throw new TheoryError('E_ARGUMENT', `noiseLevel must be finite and >= 0, got ${options.noiseLevel}`);
+      throw new TheoryError('E_THEORY_ARGUMENT', `noiseLevel must be finite and >= 0, got ${options.noiseLevel}`);
     }
     return options.noiseLevel;
   }
@@ -268,7 +268,7 @@ export function fitLinearRate(points: readonly CurvePoint[], options: CurveOptio
   checkPoints(points);
   const straightness = options.straightness ?? STRAIGHTNESS_DEFAULT;
   if (!(straightness > 0) || !Number.isFinite(straightness)) {
-    throw new TheoryError('E_ARGUMENT', `straightness must be positive and finite, got ${straightness}`);
+    throw new TheoryError('E_THEORY_ARGUMENT', `straightness must be positive and finite, got ${straightness}`);
   }
   const noise = noiseLevelOf(points, options);
   const measured = floorOf(points, noise);
@@ -313,7 +313,7 @@ export function fitLinearRate(points: readonly CurvePoint[], options: CurveOptio
 /** The first round at which f - f* is at or below `target`, or null if the curve never gets there. */
 export function roundsToTarget(points: readonly CurvePoint[], target: number): number | null {
   checkPoints(points);
-  if (Number.isNaN(target)) throw new TheoryError('E_ARGUMENT', 'the target is NaN');
+  if (Number.isNaN(target)) throw new TheoryError('E_THEORY_ARGUMENT', 'the target is NaN');
   for (const { round, suboptimality } of points) if (suboptimality <= target) return round;
   return null;
 }

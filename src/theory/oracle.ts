@@ -47,7 +47,7 @@ const SHIFT_ATTEMPTS_MAX = 12;
 export function assembleHessian(objective: Objective, x: Float64Array): Float64Array {
   const n = objective.dim;
   if (n > DENSE_DIMENSION_MAX) {
-    throw new ProblemError('E_SIZE_LIMIT', `the oracle assembles dense Hessians up to dimension ${DENSE_DIMENSION_MAX}, got ${n}`);
+    throw new ProblemError('E_PROBLEM_SIZE_LIMIT', `the oracle assembles dense Hessians up to dimension ${DENSE_DIMENSION_MAX}, got ${n}`);
   }
   const h = new Float64Array(n * n);
   const unit = new Float64Array(n);
@@ -93,12 +93,12 @@ function factorWithShift(h: Float64Array, n: number): Float64Array {
     }
     shift *= 10;
   }
-  throw new ProblemError('E_NOT_POSITIVE_DEFINITE', `the Hessian stays indefinite after a diagonal shift of ${shift / 10}`);
+  throw new ProblemError('E_PROBLEM_NOT_POSITIVE_DEFINITE', `the Hessian stays indefinite after a diagonal shift of ${shift / 10}`);
 }
 
 function notCertified(reached: number, tolerance: number, iterations: number, why: string): ProblemError {
   return new ProblemError(
-    'E_NOT_CERTIFIED',
+    'E_PROBLEM_NOT_CERTIFIED',
     `oracle reached ||grad f|| = ${reached.toExponential(3)} after ${iterations} iterations, above the tolerance ${tolerance} (${why})`,
   );
 }
@@ -175,7 +175,7 @@ function solveByNewton(objective: Objective, tolerance: number, iterationsMax: n
 }
 
 /**
- * Minimizes `objective` to a certified gradient norm. Throws E_NOT_CERTIFIED (stating the norm it
+ * Minimizes `objective` to a certified gradient norm. Throws E_PROBLEM_NOT_CERTIFIED (stating the norm it
  * reached) when it cannot, e.g. a logistic problem with lambda = 0 on separable data, which has no
  * minimizer; E_SIZE_LIMIT when the dense Hessian would be too large.
  */
@@ -183,7 +183,7 @@ export function solveOptimum(objective: Objective, options: OracleOptions = {}):
   const tolerance = options.gradientTolerance ?? DEFAULT_GRADIENT_TOLERANCE;
   const iterationsMax = options.iterationsMax ?? DEFAULT_ITERATIONS_MAX;
   if (!(tolerance > 0) || !Number.isInteger(iterationsMax) || iterationsMax < 1) {
-    throw new ProblemError('E_SPEC', `oracle needs a positive tolerance and iteration cap, got ${tolerance} and ${iterationsMax}`);
+    throw new ProblemError('E_PROBLEM_SPEC', `oracle needs a positive tolerance and iteration cap, got ${tolerance} and ${iterationsMax}`);
   }
   return objective.kind === 'least-squares'
     ? solveLeastSquares(objective, tolerance, iterationsMax)

@@ -3,11 +3,11 @@
 
 export type TimingErrorCode =
   /** method.localSteps is a list whose length is not the client count */
-  | 'E_LOCAL_STEPS_LENGTH'
+  | 'E_TIMING_LOCAL_STEPS_LENGTH'
   /** a slowdown draw overflowed (a pareto shape far below 1) */
-  | 'E_SLOWDOWN_NOT_FINITE'
+  | 'E_TIMING_SLOWDOWN_NOT_FINITE'
   /** fastest-k asks for more updates than the round has participants */
-  | 'E_POLICY_K'
+  | 'E_TIMING_POLICY_K'
   /** a count, time, size or index outside its domain (a caller's bug, not a scenario's) */
   | 'E_TIMING_ARGUMENT';
 

@@ -16,7 +16,7 @@ export function localStepsFor(spec: CountSpec, clientCount: number, seed: number
   } else if (Array.isArray(spec)) {
     if (spec.length !== clientCount) {
       throw new TimingError(
-        'E_LOCAL_STEPS_LENGTH',
+        'E_TIMING_LOCAL_STEPS_LENGTH',
         `method.localSteps lists ${spec.length} counts but there are ${clientCount} clients; give one per client`,
         'method.localSteps',
       );

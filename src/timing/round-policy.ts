@@ -85,7 +85,7 @@ export function stepsUnderPolicy(policy: RoundPolicy, stepSeconds: number, plann
 export function assertPolicyFitsRound(policy: RoundPolicy, participantsPerRound: number, perRoundWhy: string): void {
   if (policy.kind !== 'fastest-k' || policy.k <= participantsPerRound) return;
   throw new TimingError(
-    'E_POLICY_K',
+    'E_TIMING_POLICY_K',
     `timing.policy.k: fastest-k counts the first k updates of a round, but a round has ${participantsPerRound} participants (${perRoundWhy}); give k <= ${participantsPerRound}, got ${policy.k}`,
     'timing.policy.k',
   );
@@ -134,7 +134,7 @@ export function decideRound(policy: RoundPolicy, link: LinkModel, participants: 
   if (policy.kind === 'fastest-k') {
     if (policy.k > count) {
       throw new TimingError(
-        'E_POLICY_K',
+        'E_TIMING_POLICY_K',
         `fastest-k needs k <= participants per round (${count}), got k = ${policy.k}`,
         'timing.policy.k',
       );

@@ -63,7 +63,7 @@ export function drawSlowdowns(timing: { slowdown: SlowdownSpec }, clientCount: n
     const s = drawOne(spec, Rng.derive(seed, 'slowdown', i));
     // A pareto shape far below 1 can overflow to Infinity; no round could then end.
     if (!Number.isFinite(s)) {
-      throw new TimingError('E_SLOWDOWN_NOT_FINITE', `client ${i} drew slowdown ${s}; choose a larger shape`, 'timing.slowdown');
+      throw new TimingError('E_TIMING_SLOWDOWN_NOT_FINITE', `client ${i} drew slowdown ${s}; choose a larger shape`, 'timing.slowdown');
     }
     slowdowns[i] = s;
   }

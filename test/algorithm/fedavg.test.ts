@@ -102,17 +102,17 @@ describe('fedavg', () => {
       { clientId: 0, weight: 0.5, localSteps: 1, stepSize: eta, fields: { delta: good } },
       { clientId: 2, weight: 0.5, localSteps: 1, stepSize: eta, fields: { delta: bad } },
     ];
-    expect(() => fedavg.aggregate(run.server, uploads, 'local')).toThrow(expect.objectContaining({ code: 'E_NOT_FINITE' }));
+    expect(() => fedavg.aggregate(run.server, uploads, 'local')).toThrow(expect.objectContaining({ code: 'E_METHOD_NOT_FINITE' }));
     expect(bitwiseEqual(modelOf(run), x0)).toBe(true);
   });
 
   it('rejects an unknown exchange and a missing model field with stable codes', () => {
     const run = startRun(fedavg, problem);
     expect(() => fedavg.broadcast(run.server, 'gradient')).toThrow(MethodError);
-    expect(() => fedavg.broadcast(run.server, 'gradient')).toThrow(expect.objectContaining({ code: 'E_EXCHANGE' }));
+    expect(() => fedavg.broadcast(run.server, 'gradient')).toThrow(expect.objectContaining({ code: 'E_METHOD_EXCHANGE' }));
     const budget = { localSteps: 1, stepSize: eta, sampler: null };
     expect(() => fedavg.work(run.clients[0], problem.objectives[0], {}, budget, 'local')).toThrow(
-      expect.objectContaining({ code: 'E_MISSING_FIELD' }),
+      expect.objectContaining({ code: 'E_METHOD_MISSING_FIELD' }),
     );
   });
 

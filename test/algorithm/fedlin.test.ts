@@ -75,7 +75,7 @@ describe('fedlin', () => {
     const gradientDown = fedlin.broadcast(run.server, 'gradient');
     const localDown = fedlin.broadcast(run.server, 'local');
     expect(() => fedlin.work(run.clients[0], problem.objectives[0], localDown, budgetOf(plan, 0), 'local')).toThrow(
-      expect.objectContaining({ code: 'E_SEQUENCE' }),
+      expect.objectContaining({ code: 'E_METHOD_SEQUENCE' }),
     );
     const up = fedlin.work(run.clients[0], problem.objectives[0], gradientDown, budgetOf(plan, 0), 'gradient');
     const uploads: Upload[] = [{ clientId: 0, weight: problem.weights[0], localSteps: 0, stepSize: eta, fields: up }];
@@ -83,7 +83,7 @@ describe('fedlin', () => {
     const down = fedlin.broadcast(run.server, 'local');
     fedlin.work(run.clients[0], problem.objectives[0], down, budgetOf(plan, 0), 'local');
     expect(() => fedlin.work(run.clients[0], problem.objectives[0], down, budgetOf(plan, 0), 'local')).toThrow(
-      expect.objectContaining({ code: 'E_SEQUENCE' }),
+      expect.objectContaining({ code: 'E_METHOD_SEQUENCE' }),
     );
   });
 });

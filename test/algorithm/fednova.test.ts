@@ -66,6 +66,6 @@ describe('fednova', () => {
   it('rejects an upload whose step count is not a positive integer', () => {
     const run = startRun(fednova, problem);
     const upload = { clientId: 0, weight: 1, localSteps: 0, stepSize: eta, fields: { delta: new Float64Array(problem.dim) } };
-    expect(() => fednova.aggregate(run.server, [upload], 'local')).toThrow(expect.objectContaining({ code: 'E_BUDGET' }));
+    expect(() => fednova.aggregate(run.server, [upload], 'local')).toThrow(expect.objectContaining({ code: 'E_METHOD_BUDGET' }));
   });
 });

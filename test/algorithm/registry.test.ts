@@ -23,7 +23,7 @@ describe('methodByName', () => {
   });
 
   it('rejects an unknown name with a stable code', () => {
-    expect(() => methodByName('fedsgd' as MethodName)).toThrow(expect.objectContaining({ code: 'E_UNKNOWN_METHOD' }));
+    expect(() => methodByName('fedsgd' as MethodName)).toThrow(expect.objectContaining({ code: 'E_METHOD_UNKNOWN' }));
   });
 
   for (const name of NAMES) {

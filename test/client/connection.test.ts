@@ -1,5 +1,5 @@
 // Reconnection: exponential backoff doubling from the first delay up to a cap (common
-// practice), and a bounded number of attempts that ends in E_JOIN.
+// practice), and a bounded number of attempts that ends in E_WORKER_JOIN.
 
 import { createServer } from 'node:net';
 import { describe, expect, it } from 'vitest';
@@ -12,7 +12,7 @@ describe('backoff', () => {
     expect([1, 2, 3, 4, 5].map((a) => backoffSeconds(policy, a))).toEqual([0, 0.01, 0.02, 0.03, 0.03]);
   });
 
-  it('gives up with E_JOIN after the last attempt', async () => {
+  it('gives up with E_WORKER_JOIN after the last attempt', async () => {
     // A port that was free a moment ago: nothing listens there now.
     const probe = createServer();
     await new Promise<void>((r) => probe.listen(0, '127.0.0.1', () => r()));
@@ -21,7 +21,7 @@ describe('backoff', () => {
     const lines: string[] = [];
     const error = await connectWithRetry(`ws://127.0.0.1:${port}`, policy, 1024, () => undefined, (l) => lines.push(l)).catch((e: unknown) => e);
     expect(error).toBeInstanceOf(JoinError);
-    expect((error as JoinError).code).toBe('E_JOIN');
+    expect((error as JoinError).code).toBe('E_WORKER_JOIN');
     expect(lines).toHaveLength(3);
   });
 });

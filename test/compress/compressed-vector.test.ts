@@ -33,7 +33,7 @@ describe('axpyCompressed', () => {
     axpyCompressed(-1, { dim: 4, indices: Uint32Array.of(0, 3), values: Float64Array.of(2, 5) }, out);
     expect(Array.from(out)).toEqual([-1, 1, 1, -4]);
     expect(compressErrorCode(() => axpyCompressed(1, { dim: 3, indices: null, values: new Float64Array(3) }, out))).toBe(
-      'E_DIMENSION',
+      'E_COMPRESS_DIMENSION',
     );
   });
 });
@@ -47,16 +47,16 @@ describe('validateCompressedVector', () => {
 
   it('names each broken invariant with its code', () => {
     const bad: [CompressedVector, number | undefined, string][] = [
-      [{ dim: 0, indices: null, values: new Float64Array(0) }, undefined, 'E_DIMENSION'],
-      [{ dim: 2.5, indices: null, values: new Float64Array(2) }, undefined, 'E_DIMENSION'],
-      [{ dim: 3, indices: null, values: new Float64Array(3) }, 4, 'E_DIMENSION'],
-      [{ dim: 3, indices: null, values: new Float64Array(2) }, undefined, 'E_DIMENSION'],
-      [{ dim: 3, indices: Uint32Array.of(0), values: Float64Array.of(1, 2) }, undefined, 'E_DIMENSION'],
-      [{ dim: 2, indices: Uint32Array.of(0, 1, 2), values: new Float64Array(3) }, undefined, 'E_DIMENSION'],
-      [{ dim: 3, indices: Uint32Array.of(1, 1), values: new Float64Array(2) }, undefined, 'E_INDEX_ORDER'],
-      [{ dim: 3, indices: Uint32Array.of(0, 3), values: new Float64Array(2) }, undefined, 'E_INDEX_RANGE'],
-      [{ dim: 3, indices: null, values: Float64Array.of(0, NaN, 0) }, undefined, 'E_NOT_FINITE'],
-      [{ dim: 3, indices: Uint32Array.of(2), values: Float32Array.of(Infinity) }, undefined, 'E_NOT_FINITE'],
+      [{ dim: 0, indices: null, values: new Float64Array(0) }, undefined, 'E_COMPRESS_DIMENSION'],
+      [{ dim: 2.5, indices: null, values: new Float64Array(2) }, undefined, 'E_COMPRESS_DIMENSION'],
+      [{ dim: 3, indices: null, values: new Float64Array(3) }, 4, 'E_COMPRESS_DIMENSION'],
+      [{ dim: 3, indices: null, values: new Float64Array(2) }, undefined, 'E_COMPRESS_DIMENSION'],
+      [{ dim: 3, indices: Uint32Array.of(0), values: Float64Array.of(1, 2) }, undefined, 'E_COMPRESS_DIMENSION'],
+      [{ dim: 2, indices: Uint32Array.of(0, 1, 2), values: new Float64Array(3) }, undefined, 'E_COMPRESS_DIMENSION'],
+      [{ dim: 3, indices: Uint32Array.of(1, 1), values: new Float64Array(2) }, undefined, 'E_COMPRESS_INDEX_ORDER'],
+      [{ dim: 3, indices: Uint32Array.of(0, 3), values: new Float64Array(2) }, undefined, 'E_COMPRESS_INDEX_RANGE'],
+      [{ dim: 3, indices: null, values: Float64Array.of(0, NaN, 0) }, undefined, 'E_COMPRESS_NOT_FINITE'],
+      [{ dim: 3, indices: Uint32Array.of(2), values: Float32Array.of(Infinity) }, undefined, 'E_COMPRESS_NOT_FINITE'],
     ];
     for (const [cv, expectedDim, code] of bad) {
       expect(compressErrorCode(() => validateCompressedVector(cv, expectedDim))).toBe(code);

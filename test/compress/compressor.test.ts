@@ -45,7 +45,7 @@ describe('keptCount', () => {
 
   it('rejects a top-k without fraction or count (a spec built by hand, past the schema)', () => {
     const bare = { kind: 'top-k', errorFeedback: true, unbiased: false, values: 'f64' } as CompressorSpec;
-    expect(compressErrorCode(() => keptCount(10, bare))).toBe('E_SPEC');
+    expect(compressErrorCode(() => keptCount(10, bare))).toBe('E_COMPRESS_SPEC');
   });
 });
 
@@ -156,19 +156,19 @@ describe('rand-k', () => {
   });
 
   it('needs a seeded Rng', () => {
-    expect(compressErrorCode(() => compress(new Float64Array(4), spec({ kind: 'rand-k', count: 1 })))).toBe('E_RNG_REQUIRED');
+    expect(compressErrorCode(() => compress(new Float64Array(4), spec({ kind: 'rand-k', count: 1 })))).toBe('E_COMPRESS_RNG_REQUIRED');
   });
 });
 
 describe('input checks', () => {
   it('rejects non-finite inputs, values beyond f32, and an empty vector', () => {
     const s = spec({ kind: 'top-k', count: 1 });
-    expect(compressErrorCode(() => compress(Float64Array.from([1, NaN]), s))).toBe('E_NOT_FINITE');
-    expect(compressErrorCode(() => compress(Float64Array.from([Infinity]), spec({ kind: 'none' })))).toBe('E_NOT_FINITE');
+    expect(compressErrorCode(() => compress(Float64Array.from([1, NaN]), s))).toBe('E_COMPRESS_NOT_FINITE');
+    expect(compressErrorCode(() => compress(Float64Array.from([Infinity]), spec({ kind: 'none' })))).toBe('E_COMPRESS_NOT_FINITE');
     // 1e39 is finite in binary64 but beyond the largest binary32, about 3.4e38 (IEEE 754).
     expect(compressErrorCode(() => compress(Float64Array.from([1e39, 0]), spec({ kind: 'top-k', count: 1, values: 'f32' })))).toBe(
-      'E_NOT_FINITE',
+      'E_COMPRESS_NOT_FINITE',
     );
-    expect(compressErrorCode(() => compress(new Float64Array(0), s))).toBe('E_DIMENSION');
+    expect(compressErrorCode(() => compress(new Float64Array(0), s))).toBe('E_COMPRESS_DIMENSION');
   });
 });

@@ -89,6 +89,6 @@ describe('ErrorFeedbackEncoder', () => {
     } catch (error) {
       code = (error as CompressError).code;
     }
-    expect(code).toBe('E_DIMENSION');
+    expect(code).toBe('E_COMPRESS_DIMENSION');
   });
 });

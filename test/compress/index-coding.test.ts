@@ -63,22 +63,22 @@ describe('delta varint index coding', () => {
   });
 
   it('refuses indices that are not strictly increasing', () => {
-    expect(compressErrorCode(() => encodeIndicesDeltaVarint(Uint32Array.of(3, 1)))).toBe('E_INDEX_ORDER');
-    expect(compressErrorCode(() => encodeIndicesDeltaVarint(Uint32Array.of(4, 4)))).toBe('E_INDEX_ORDER');
-    expect(compressErrorCode(() => deltaVarintByteLength(Uint32Array.of(9, 2)))).toBe('E_INDEX_ORDER');
+    expect(compressErrorCode(() => encodeIndicesDeltaVarint(Uint32Array.of(3, 1)))).toBe('E_COMPRESS_INDEX_ORDER');
+    expect(compressErrorCode(() => encodeIndicesDeltaVarint(Uint32Array.of(4, 4)))).toBe('E_COMPRESS_INDEX_ORDER');
+    expect(compressErrorCode(() => deltaVarintByteLength(Uint32Array.of(9, 2)))).toBe('E_COMPRESS_INDEX_ORDER');
   });
 
   it('rejects malformed bytes with a stable code', () => {
-    expect(compressErrorCode(() => decodeIndicesDeltaVarint(Uint8Array.of(0x80), 1))).toBe('E_VARINT');
-    expect(compressErrorCode(() => decodeIndicesDeltaVarint(Uint8Array.of(0x01, 0x02), 1))).toBe('E_VARINT');
-    expect(compressErrorCode(() => decodeIndicesDeltaVarint(Uint8Array.of(0x81, 0x00), 1))).toBe('E_VARINT');
-    expect(compressErrorCode(() => decodeIndicesDeltaVarint(Uint8Array.of(0xff, 0xff, 0xff, 0xff, 0x10), 1))).toBe('E_VARINT');
-    expect(compressErrorCode(() => decodeIndicesDeltaVarint(Uint8Array.of(0x80, 0x80, 0x80, 0x80, 0x80, 0x01), 1))).toBe('E_VARINT');
-    expect(compressErrorCode(() => decodeIndicesDeltaVarint(Uint8Array.of(0x01), 2))).toBe('E_VARINT');
-    expect(compressErrorCode(() => decodeIndicesDeltaVarint(Uint8Array.of(0x01), -1))).toBe('E_VARINT');
+    expect(compressErrorCode(() => decodeIndicesDeltaVarint(Uint8Array.of(0x80), 1))).toBe('E_COMPRESS_VARINT');
+    expect(compressErrorCode(() => decodeIndicesDeltaVarint(Uint8Array.of(0x01, 0x02), 1))).toBe('E_COMPRESS_VARINT');
+    expect(compressErrorCode(() => decodeIndicesDeltaVarint(Uint8Array.of(0x81, 0x00), 1))).toBe('E_COMPRESS_VARINT');
+    expect(compressErrorCode(() => decodeIndicesDeltaVarint(Uint8Array.of(0xff, 0xff, 0xff, 0xff, 0x10), 1))).toBe('E_COMPRESS_VARINT');
+    expect(compressErrorCode(() => decodeIndicesDeltaVarint(Uint8Array.of(0x80, 0x80, 0x80, 0x80, 0x80, 0x01), 1))).toBe('E_COMPRESS_VARINT');
+    expect(compressErrorCode(() => decodeIndicesDeltaVarint(Uint8Array.of(0x01), 2))).toBe('E_COMPRESS_VARINT');
+    expect(compressErrorCode(() => decodeIndicesDeltaVarint(Uint8Array.of(0x01), -1))).toBe('E_COMPRESS_VARINT');
     // 0xffffffff then a gap of 0: the next index would be 2^32.
     expect(compressErrorCode(() => decodeIndicesDeltaVarint(Uint8Array.of(0xff, 0xff, 0xff, 0xff, 0x0f, 0x00), 2))).toBe(
-      'E_INDEX_RANGE',
+      'E_COMPRESS_INDEX_RANGE',
     );
   });
 });

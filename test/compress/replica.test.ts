@@ -92,6 +92,6 @@ describe('downlink without a replica', () => {
     } catch (error) {
       code = (error as CompressError).code;
     }
-    expect(code).toBe('E_DIMENSION');
+    expect(code).toBe('E_COMPRESS_DIMENSION');
   });
 });

@@ -1,5 +1,5 @@
 // fastest-k's k is checked against a round's participants once, when the plan is made, so that
-// the in-process engine and the coordinator refuse the same scenarios alike (E_POLICY_K, naming
+// the in-process engine and the coordinator refuse the same scenarios alike (E_TIMING_POLICY_K, naming
 // timing.policy.k). Participants per round follow the round schedule's own rule,
 // max(1, round(participation * clients)) (src/timing/participation.ts).
 
@@ -30,7 +30,7 @@ describe('assertPlannable: fastest-k against the participants of a round', () =>
       const perRound = participantCount(participation, 8);
       expect(refusal([`method.participation:${participation}`, `timing.policy:{kind: fastest-k, k: ${perRound}}`])).toBeNull();
       const refused = refusal([`method.participation:${participation}`, `timing.policy:{kind: fastest-k, k: ${perRound + 1}}`]);
-      expect(refused).toMatchObject({ code: 'E_POLICY_K', fieldPath: 'timing.policy.k' });
+      expect(refused).toMatchObject({ code: 'E_TIMING_POLICY_K', fieldPath: 'timing.policy.k' });
       expect(refused!.message).toBe(
         `timing.policy.k: fastest-k counts the first k updates of a round, but a round has ${perRound} participants (method.participation ${participation} of clients.count 8); give k <= ${perRound}, got ${perRound + 1}`,
       );

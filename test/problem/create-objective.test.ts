@@ -25,6 +25,6 @@ describe('createObjective', () => {
 
   it('needs a class count for softmax', () => {
     const shard = gaussianShard(Rng.fromSeed(2), 0, 10, 4, 3);
-    expect(errorCode(() => createObjective({ kind: 'softmax', regularization: 0.1 }, shard))).toBe('E_SPEC');
+    expect(errorCode(() => createObjective({ kind: 'softmax', regularization: 0.1 }, shard))).toBe('E_PROBLEM_SPEC');
   });
 });

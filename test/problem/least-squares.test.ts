@@ -90,14 +90,14 @@ describe('LeastSquaresObjective', () => {
 
   it('rejects malformed shards, vectors and batches with stable codes', () => {
     const { shard, objective } = setup(7);
-    expect(errorCode(() => new LeastSquaresObjective({ ...shard, targets: shard.targets.subarray(1) }, LAMBDA))).toBe('E_SHARD_SHAPE');
-    expect(errorCode(() => new LeastSquaresObjective({ ...shard, sampleCount: 0, features: new Float64Array(0), targets: new Float64Array(0) }, LAMBDA))).toBe('E_SHARD_SHAPE');
+    expect(errorCode(() => new LeastSquaresObjective({ ...shard, targets: shard.targets.subarray(1) }, LAMBDA))).toBe('E_PROBLEM_SHARD_SHAPE');
+    expect(errorCode(() => new LeastSquaresObjective({ ...shard, sampleCount: 0, features: new Float64Array(0), targets: new Float64Array(0) }, LAMBDA))).toBe('E_PROBLEM_SHARD_SHAPE');
     const poisoned = Float64Array.from(shard.features);
     poisoned[5] = Number.NaN;
-    expect(errorCode(() => new LeastSquaresObjective({ ...shard, features: poisoned }, LAMBDA))).toBe('E_NOT_FINITE');
-    expect(errorCode(() => new LeastSquaresObjective(shard, -1))).toBe('E_SPEC');
-    expect(errorCode(() => objective.loss(new Float64Array(5)))).toBe('E_DIMENSION');
-    expect(errorCode(() => objective.minibatchGradient(new Float64Array(6), Uint32Array.of(30), new Float64Array(6)))).toBe('E_BATCH');
-    expect(errorCode(() => objective.minibatchGradient(new Float64Array(6), new Uint32Array(0), new Float64Array(6)))).toBe('E_BATCH');
+    expect(errorCode(() => new LeastSquaresObjective({ ...shard, features: poisoned }, LAMBDA))).toBe('E_PROBLEM_NOT_FINITE');
+    expect(errorCode(() => new LeastSquaresObjective(shard, -1))).toBe('E_PROBLEM_SPEC');
+    expect(errorCode(() => objective.loss(new Float64Array(5)))).toBe('E_PROBLEM_DIMENSION');
+    expect(errorCode(() => objective.minibatchGradient(new Float64Array(6), Uint32Array.of(30), new Float64Array(6)))).toBe('E_PROBLEM_BATCH');
+    expect(errorCode(() => objective.minibatchGradient(new Float64Array(6), new Uint32Array(0), new Float64Array(6)))).toBe('E_PROBLEM_BATCH');
   });
 });

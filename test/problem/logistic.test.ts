@@ -106,8 +106,8 @@ describe('LogisticObjective', () => {
     const { shard } = setup(7);
     const targets = Float64Array.from(shard.targets);
     targets[2] = 2;
-    expect(errorCode(() => new LogisticObjective({ ...shard, targets }, LAMBDA))).toBe('E_TARGET');
+    expect(errorCode(() => new LogisticObjective({ ...shard, targets }, LAMBDA))).toBe('E_PROBLEM_TARGET');
     targets[2] = -1;
-    expect(errorCode(() => new LogisticObjective({ ...shard, targets }, LAMBDA))).toBe('E_TARGET');
+    expect(errorCode(() => new LogisticObjective({ ...shard, targets }, LAMBDA))).toBe('E_PROBLEM_TARGET');
   });
 });

@@ -45,7 +45,7 @@ describe('UniformMinibatchSampler', () => {
   });
 
   it('rejects empty shards and batches', () => {
-    expect(errorCode(() => new UniformMinibatchSampler(Rng.fromSeed(4), 0, 1))).toBe('E_BATCH');
-    expect(errorCode(() => new UniformMinibatchSampler(Rng.fromSeed(4), 10, 0))).toBe('E_BATCH');
+    expect(errorCode(() => new UniformMinibatchSampler(Rng.fromSeed(4), 0, 1))).toBe('E_PROBLEM_BATCH');
+    expect(errorCode(() => new UniformMinibatchSampler(Rng.fromSeed(4), 10, 0))).toBe('E_PROBLEM_BATCH');
   });
 });

@@ -122,9 +122,9 @@ describe('SoftmaxObjective', () => {
     const { shard } = setup(6);
     const targets = Float64Array.from(shard.targets);
     targets[0] = CLASSES;
-    expect(errorCode(() => new SoftmaxObjective({ ...shard, targets }, LAMBDA, CLASSES))).toBe('E_TARGET');
+    expect(errorCode(() => new SoftmaxObjective({ ...shard, targets }, LAMBDA, CLASSES))).toBe('E_PROBLEM_TARGET');
     targets[0] = 0.5;
-    expect(errorCode(() => new SoftmaxObjective({ ...shard, targets }, LAMBDA, CLASSES))).toBe('E_TARGET');
-    expect(errorCode(() => new SoftmaxObjective(shard, LAMBDA, 1))).toBe('E_SPEC');
+    expect(errorCode(() => new SoftmaxObjective({ ...shard, targets }, LAMBDA, CLASSES))).toBe('E_PROBLEM_TARGET');
+    expect(errorCode(() => new SoftmaxObjective(shard, LAMBDA, 1))).toBe('E_PROBLEM_SPEC');
   });
 });

@@ -126,12 +126,12 @@ describe('WeightedSumObjective', () => {
   it('rejects mixed dimensions and bad weights', () => {
     const clients = logisticClients(11, [5, 5]);
     const other = new LogisticObjective(gaussianShard(Rng.fromSeed(12), 2, 5, P + 1, 'binary'), LAMBDA);
-    expect(errorCode(() => new WeightedSumObjective([clients[0], other], [0.5, 0.5]))).toBe('E_DIMENSION');
-    expect(errorCode(() => new WeightedSumObjective(clients, [0.5]))).toBe('E_WEIGHTS');
-    expect(errorCode(() => new WeightedSumObjective(clients, [1, -0.5]))).toBe('E_WEIGHTS');
-    expect(errorCode(() => new WeightedSumObjective(clients, [0, 0]))).toBe('E_WEIGHTS');
-    expect(errorCode(() => new WeightedSumObjective(clients, [0.5, Number.NaN]))).toBe('E_WEIGHTS');
+    expect(errorCode(() => new WeightedSumObjective([clients[0], other], [0.5, 0.5]))).toBe('E_PROBLEM_DIMENSION');
+    expect(errorCode(() => new WeightedSumObjective(clients, [0.5]))).toBe('E_PROBLEM_WEIGHTS');
+    expect(errorCode(() => new WeightedSumObjective(clients, [1, -0.5]))).toBe('E_PROBLEM_WEIGHTS');
+    expect(errorCode(() => new WeightedSumObjective(clients, [0, 0]))).toBe('E_PROBLEM_WEIGHTS');
+    expect(errorCode(() => new WeightedSumObjective(clients, [0.5, Number.NaN]))).toBe('E_PROBLEM_WEIGHTS');
     const sum = new WeightedSumObjective(clients, [0.5, 0.5]);
-    expect(errorCode(() => sum.minibatchGradient(new Float64Array(P), Uint32Array.of(10), new Float64Array(P)))).toBe('E_BATCH');
+    expect(errorCode(() => sum.minibatchGradient(new Float64Array(P), Uint32Array.of(10), new Float64Array(P)))).toBe('E_PROBLEM_BATCH');
   });
 });

@@ -53,10 +53,10 @@ describe('linearPart', () => {
     const copy = Float64Array.from(base);
     linearPart(map, base)(Float64Array.from(randomArray(rng, n)));
     expect(Array.from(base)).toEqual(Array.from(copy));
-    expect(theoryErrorCode(() => linearPart((s) => s.subarray(1), base))).toBe('E_DIMENSION');
-    expect(theoryErrorCode(() => applyRoundMap((s) => s.map(() => NaN), base))).toBe('E_NOT_FINITE');
-    expect(theoryErrorCode(() => linearPart(map, base)(new Float64Array(n + 1)))).toBe('E_DIMENSION');
-    expect(theoryErrorCode(() => linearPart(map, base, { probeNorm: 0 }))).toBe('E_ARGUMENT');
+    expect(theoryErrorCode(() => linearPart((s) => s.subarray(1), base))).toBe('E_THEORY_DIMENSION');
+    expect(theoryErrorCode(() => applyRoundMap((s) => s.map(() => NaN), base))).toBe('E_THEORY_NOT_FINITE');
+    expect(theoryErrorCode(() => linearPart(map, base)(new Float64Array(n + 1)))).toBe('E_THEORY_DIMENSION');
+    expect(theoryErrorCode(() => linearPart(map, base, { probeNorm: 0 }))).toBe('E_THEORY_ARGUMENT');
   });
 });
 

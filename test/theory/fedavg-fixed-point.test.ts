@@ -112,12 +112,12 @@ describe('fedavgFixedPoint', () => {
       }
       return undefined;
     };
-    expect(codeOf([{ ...good[0], weight: -1 }])).toBe('E_ARGUMENT');
-    expect(codeOf([{ ...good[0], localSteps: 0 }])).toBe('E_ARGUMENT');
-    expect(codeOf([{ ...good[0], stepSize: 0 }])).toBe('E_ARGUMENT');
-    expect(codeOf(good.map((client) => ({ ...client, weight: 0 })))).toBe('E_ARGUMENT');
-    expect(codeOf([{ ...good[0], linear: new Float64Array(2) }])).toBe('E_DIMENSION');
-    expect(codeOf([])).toBe('E_ARGUMENT');
+    expect(codeOf([{ ...good[0], weight: -1 }])).toBe('E_THEORY_ARGUMENT');
+    expect(codeOf([{ ...good[0], localSteps: 0 }])).toBe('E_THEORY_ARGUMENT');
+    expect(codeOf([{ ...good[0], stepSize: 0 }])).toBe('E_THEORY_ARGUMENT');
+    expect(codeOf(good.map((client) => ({ ...client, weight: 0 })))).toBe('E_THEORY_ARGUMENT');
+    expect(codeOf([{ ...good[0], linear: new Float64Array(2) }])).toBe('E_THEORY_DIMENSION');
+    expect(codeOf([])).toBe('E_THEORY_ARGUMENT');
   });
 });
 

@@ -95,7 +95,7 @@ describe('affineFixedPoint', () => {
   it('reports E_SINGULAR when the state drifts along a conserved direction (no fixed point)', () => {
     // s -> (s_0 + 1, s_1 / 2): the first coordinate grows by 1 every round.
     const drifting = (s: Float64Array) => Float64Array.of(s[0] + 1, 0.5 * s[1]);
-    expect(theoryErrorCode(() => affineFixedPoint(drifting, 2))).toBe('E_SINGULAR');
+    expect(theoryErrorCode(() => affineFixedPoint(drifting, 2))).toBe('E_THEORY_SINGULAR');
   });
 
   it("finds SCAFFOLD's limit on its whole flattened state: x* (Karimireddy et al., ICML 2020), conserved part kept", () => {
@@ -131,14 +131,14 @@ describe('affineFixedPoint', () => {
       applications++;
       return s;
     };
-    expect(theoryErrorCode(() => affineFixedPoint(map, FIXED_POINT_DIMENSION_MAX + 1))).toBe('E_SIZE_LIMIT');
+    expect(theoryErrorCode(() => affineFixedPoint(map, FIXED_POINT_DIMENSION_MAX + 1))).toBe('E_THEORY_SIZE_LIMIT');
     expect(applications).toBe(0);
-    expect(theoryErrorCode(() => affineFixedPoint(map, 3, { base: new Float64Array(2) }))).toBe('E_DIMENSION');
-    expect(theoryErrorCode(() => affineFixedPoint(map, 3, { refinementsMax: -1 }))).toBe('E_ARGUMENT');
+    expect(theoryErrorCode(() => affineFixedPoint(map, 3, { base: new Float64Array(2) }))).toBe('E_THEORY_DIMENSION');
+    expect(theoryErrorCode(() => affineFixedPoint(map, 3, { refinementsMax: -1 }))).toBe('E_THEORY_ARGUMENT');
     // A GMRES budget too small for the system: the residual cannot reach rounding level.
     const rng = Rng.fromSeed(44);
     expect(theoryErrorCode(() => affineFixedPoint(matrixMap(randomMatrix(rng, 20, 0.9), randomArray(rng, 20)), 20, { iterationsMax: 2, refinementsMax: 0 }))).toBe(
-      'E_NOT_CONVERGED',
+      'E_THEORY_NOT_CONVERGED',
     );
   });
 });

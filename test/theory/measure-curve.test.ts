@@ -167,11 +167,11 @@ describe('roundsToTarget', () => {
 
 describe('curve validation', () => {
   it('rejects unordered rounds and non-finite values with stable codes', () => {
-    expect(theoryErrorCode(() => fitLinearRate([{ round: 1, suboptimality: 1 }, { round: 1, suboptimality: 0.5 }]))).toBe('E_POINTS');
-    expect(theoryErrorCode(() => measureFloor([{ round: NaN, suboptimality: 1 }]))).toBe('E_POINTS');
-    expect(theoryErrorCode(() => roundsToTarget([{ round: 0, suboptimality: Infinity }], 1))).toBe('E_NOT_FINITE');
-    expect(theoryErrorCode(() => fitLinearRate(geometric(range(0, 10), 1, 0.5), { straightness: 0 }))).toBe('E_ARGUMENT');
-    expect(theoryErrorCode(() => fitLinearRate(geometric(range(0, 10), 1, 0.5), { noiseLevel: -1 }))).toBe('E_ARGUMENT');
+    expect(theoryErrorCode(() => fitLinearRate([{ round: 1, suboptimality: 1 }, { round: 1, suboptimality: 0.5 }]))).toBe('E_THEORY_POINTS');
+    expect(theoryErrorCode(() => measureFloor([{ round: NaN, suboptimality: 1 }]))).toBe('E_THEORY_POINTS');
+    expect(theoryErrorCode(() => roundsToTarget([{ round: 0, suboptimality: Infinity }], 1))).toBe('E_THEORY_NOT_FINITE');
+    expect(theoryErrorCode(() => fitLinearRate(geometric(range(0, 10), 1, 0.5), { straightness: 0 }))).toBe('E_THEORY_ARGUMENT');
+    expect(theoryErrorCode(() => fitLinearRate(geometric(range(0, 10), 1, 0.5), { noiseLevel: -1 }))).toBe('E_THEORY_ARGUMENT');
   });
 });
 

@@ -113,7 +113,7 @@ describe('solveOptimum', () => {
   it('says which gradient norm it reached when it cannot certify within its cap', () => {
     const { shards, weights } = federatedShards(5, 6, 'binary');
     const global = new WeightedSumObjective(shards.map((shard) => new LogisticObjective(shard, 1e-3)), weights);
-    expect(errorCode(() => solveOptimum(global, { iterationsMax: 1 }))).toBe('E_NOT_CERTIFIED');
+    expect(errorCode(() => solveOptimum(global, { iterationsMax: 1 }))).toBe('E_PROBLEM_NOT_CERTIFIED');
     expect(() => solveOptimum(global, { iterationsMax: 1 })).toThrow(/reached \|\|grad f\|\| = \d\.\d{3}e-?\d+ after 1 iterations/);
   });
 

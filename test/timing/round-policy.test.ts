@@ -136,7 +136,7 @@ describe('decideRound: fastest-k', () => {
 
   it('refuses k above the number of participants, naming timing.policy.k', () => {
     expect(() => decideRound({ kind: 'fastest-k', k: 3 }, freeLink, [participant(0, 1, 1), participant(1, 1, 1)])).toThrowError(
-      expect.objectContaining({ code: 'E_POLICY_K', fieldPath: 'timing.policy.k' }),
+      expect.objectContaining({ code: 'E_TIMING_POLICY_K', fieldPath: 'timing.policy.k' }),
     );
   });
 });

@@ -99,7 +99,7 @@ describe('drawSlowdowns', () => {
     // shape 0.001: s = (1 - U)^(-1000) exceeds the largest double once 1 - U < 2^(-1.024), about
     // half the clients.
     expect(() => draw({ kind: 'pareto', shape: 0.001 }, 100)).toThrowError(
-      expect.objectContaining({ code: 'E_SLOWDOWN_NOT_FINITE', fieldPath: 'timing.slowdown' }),
+      expect.objectContaining({ code: 'E_TIMING_SLOWDOWN_NOT_FINITE', fieldPath: 'timing.slowdown' }),
     );
     expect(() => draw({ kind: 'pareto', shape: 0.001 }, 100)).toThrow(TimingError);
   });
