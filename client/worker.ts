@@ -29,7 +29,6 @@ import type { WirePlan } from '../src/engine/run-plan.js';
 import { fieldsPayloadBytes } from '../src/compress/payload-bytes.js';
 import { isNonFiniteError } from '../src/base/coded-error.js';
 import { methodByName } from '../src/algorithm/registry.js';
-import { validateScenario } from '../src/scenario/validate-scenario.js';
 import { speedModelFor } from '../src/timing/round-speed.js';
 import { ClientHost } from './client-host.js';
 import { connectWithRetry, DEFAULT_RETRY_POLICY, JoinError, type RetryPolicy } from './connection.js';
@@ -79,25 +78,6 @@ interface Hosting {
   limits: ProtocolLimits;
   /** from the welcome; null when the coordinator does not let workers resume */
   resumeToken: Uint8Array | null;
-}
-
-function parsePlan(welcome: WelcomeMessage): WirePlan {
-  const raw = welcome.plan as Partial<Record<keyof WirePlan, unknown>>;
-  let scenario: WirePlan['scenario'];
-  try {
-    scenario = validateScenario(raw.scenario);
-  } catch (error) {
-    throw new ProtocolError('E_TYPE', `welcome.plan.scenario: ${(error as Error).message}`);
-  }
-  const dim = raw.dim;
-  const config = raw.methodConfig as WirePlan['methodConfig'] | undefined;
-  if (typeof dim !== 'number' || !Number.isSafeInteger(dim) || dim < 1) throw new ProtocolError('E_TYPE', 'welcome.plan.dim: a positive integer expected');
-  const numbers = ['clientCount', 'stepSize', 'serverStepSize', 'proxCoefficient', 'proxTolerance'] as const;
-  if (config === undefined || config === null || numbers.some((k) => typeof config[k] !== 'number' || !Number.isFinite(config[k]))) {
-    throw new ProtocolError('E_TYPE', `welcome.plan.methodConfig: finite numbers expected for ${numbers.join(', ')}`);
-  }
-  if (welcome.assignments.some((id) => id >= scenario.clients.count)) throw new ProtocolError('E_CLIENT', 'welcome.assignments: a client id beyond the plan\'s clients');
-  return { scenario, methodConfig: { clientCount: config.clientCount, stepSize: config.stepSize, serverStepSize: config.serverStepSize, proxCoefficient: config.proxCoefficient, proxTolerance: config.proxTolerance }, dim };
 }
 
 export class Worker {
@@ -257,7 +237,7 @@ export class Worker {
   }
 
   private welcome(message: WelcomeMessage): void {
-    const plan = parsePlan(message);
+    const { plan } = message;
     if (message.assignments.length > this.options.capacity) throw new ProtocolError('E_SIZE', `welcome.assignments: ${message.assignments.length} clients for a capacity of ${this.options.capacity}`);
     const wall = plan.scenario.timing.clock === 'wall';
     this.hosting = {

@@ -33,15 +33,6 @@ export function parseMetricsAddress(text: string): MetricsAddress {
 /** Linger after the run: the most a finished process keeps serving. */
 export const METRICS_LINGER_SECONDS_MAX = 86_400;
 
-/** --metrics-linger SECONDS: from 0 to a day. Throws MetricsOptionError otherwise. */
-export function parseLingerSeconds(text: string): number {
-  const seconds = Number(text);
-  if (text.trim() === '' || !(seconds >= 0) || seconds > METRICS_LINGER_SECONDS_MAX) {
-    throw new MetricsOptionError(`--metrics-linger: expected seconds from 0 to ${METRICS_LINGER_SECONDS_MAX}, got "${text}"`);
-  }
-  return seconds;
-}
-
 export interface MetricsServer {
   /** http://HOST:PORT/metrics as bound */
   url: string;

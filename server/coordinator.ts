@@ -289,7 +289,7 @@ export class Coordinator {
     }
     this.driver.clientsResumed(clientIds);
     session.onFrame((frame, wireBytes) => this.receive(session, frame, wireBytes));
-    this.sendControl(session, { type: 'welcome', assignments: clientIds, plan: this.wirePlan() as unknown as Record<string, unknown>, limits, resumeToken: session.resumeToken! });
+    this.sendControl(session, { type: 'welcome', assignments: clientIds, plan: this.wirePlan(), limits, resumeToken: session.resumeToken! });
     this.options.log(`${session.label()} resumed in round ${this.driver.round}; clients ${clientIds.join(', ')} take part again from the next exchange`);
     this.presenceChanged();
   }
@@ -344,7 +344,7 @@ export class Coordinator {
       this.limitsOf.set(session, limits);
       // Authentication only, like the challenge nonce: no result depends on it.
       session.resumeToken = this.resumeGraceSeconds > 0 ? new Uint8Array(randomBytes(RESUME_TOKEN_BYTES)) : null;
-      this.sendControl(session, { type: 'welcome', assignments: clientIds, plan: wire as unknown as Record<string, unknown>, limits, ...(session.resumeToken === null ? {} : { resumeToken: session.resumeToken }) });
+      this.sendControl(session, { type: 'welcome', assignments: clientIds, plan: wire, limits, ...(session.resumeToken === null ? {} : { resumeToken: session.resumeToken }) });
       this.options.log(`${session.label()} hosts clients ${clientIds.join(', ')}`);
     }
   }

@@ -13,13 +13,23 @@ import { finishRun, formatRunSummary } from './commands/run-report.js';
 import { ProgressLine } from './commands/progress.js';
 import { defaultResultsDir } from './results/results-folder.js';
 import { formatDistributedSummary, runDistributed, RunInterrupted } from './commands/run-distributed.js';
-import { runWorkerCommand, workerOptionsProblem, type WorkerCommandOptions } from './commands/worker-command.js';
-import { coordinatorOptionsProblem, runCoordinatorCommand, type CoordinatorCommandOptions } from './commands/coordinator-command.js';
+import { runWorkerCommand, WORKER_CAPACITY_MAX, workerOptionsProblem, type WorkerCommandOptions } from './commands/worker-command.js';
+import {
+  coordinatorOptionsProblem,
+  HEARTBEAT_SILENCE_SECONDS_MAX,
+  HEARTBEAT_SILENCE_SECONDS_MIN,
+  RESUME_GRACE_SECONDS_MAX,
+  runCoordinatorCommand,
+  WORKERS_MIN_MAX,
+  WORKERS_WAIT_SECONDS_MAX,
+  type CoordinatorCommandOptions,
+} from './commands/coordinator-command.js';
+import { integerInRange, secondsInRange } from './commands/number-options.js';
 import { writeRunReport } from './commands/report-command.js';
 import { defaultCompareDir, planComparison, runComparison, type CompareOptions } from './commands/compare-command.js';
 import { comparisonJson, formatComparison } from './report/compare-table.js';
 import { ladderOptionHelp } from './report/ladder-option.js';
-import { parseLingerSeconds, parseMetricsAddress, type MetricsAddress } from '../runtime/metrics-server.js';
+import { METRICS_LINGER_SECONDS_MAX, parseMetricsAddress, type MetricsAddress } from '../runtime/metrics-server.js';
 import { JoinError } from '../client/connection.js';
 
 /** An input problem found by a command itself (not by the scenario schema). */
@@ -49,7 +59,7 @@ const metricsOption = new Option('--metrics <host:port>', 'serve Prometheus metr
   asArgument(parseMetricsAddress),
 );
 const metricsLingerOption = new Option('--metrics-linger <seconds>', 'after the run, keep serving the final metrics this long so that a scraper reads them')
-  .argParser(asArgument(parseLingerSeconds))
+  .argParser(secondsInRange('--metrics-linger', 0, METRICS_LINGER_SECONDS_MAX))
   .default(0);
 
 interface MetricsOptions {
@@ -135,7 +145,7 @@ function buildProgram(io: Io): Command {
     .description('join a coordinator and host the clients it deals to this process')
     .argument('<coordinator-url>', 'the coordinator, ws://HOST:PORT or wss://HOST:PORT')
     .option('--key-file <path>', 'file holding the shared key, private to you (chmod 600), at least 16 bytes (default: the file ROUNDWIRE_KEY_FILE names)')
-    .option('--capacity <n>', 'how many clients this worker offers to host', '1')
+    .addOption(new Option('--capacity <n>', `how many clients this worker offers to host (1 to ${WORKER_CAPACITY_MAX})`).argParser(integerInRange('--capacity', 1, WORKER_CAPACITY_MAX)).default(1))
     .option('--name <name>', 'worker name for logs and metrics (default host-pid)')
     .option('--ca <file>', "PEM certificate(s) to trust for a wss:// coordinator beside the system's, e.g. its self-signed --tls-cert")
     .addOption(metricsOption)
@@ -156,10 +166,22 @@ function buildProgram(io: Io): Command {
     .option('--key-file <path>', 'file holding the shared key workers prove, private to you (chmod 600); required beyond loopback (default: the file ROUNDWIRE_KEY_FILE names; on loopback without either, a fresh one, whose path is printed)')
     .option('--tls-cert <file>', 'PEM certificate: serve wss:// instead of ws://')
     .option('--tls-key <file>', 'PEM private key for --tls-cert')
-    .option('--workers-wait-seconds <s>', 'give up if the workers have not joined within this many seconds', '300')
-    .option('--workers-min <n>', 'wait for at least this many workers', '1')
-    .option('--heartbeat-silence-seconds <s>', 'a worker silent this long (1 to 3600 s) is lost and its clients leave the run; heartbeats go every sixth of it (default 30)')
-    .option('--resume-grace-seconds <s>', 'a worker whose connection drops mid-run may reconnect and resume this long (0 to 3600 s; 0: lost at once); its clients sit out meanwhile (default 5)')
+    .addOption(
+      new Option('--workers-wait-seconds <s>', 'give up if the workers have not joined within this many seconds')
+        .argParser(secondsInRange('--workers-wait-seconds', 0, WORKERS_WAIT_SECONDS_MAX, true))
+        .default(300),
+    )
+    .addOption(new Option('--workers-min <n>', 'wait for at least this many workers').argParser(integerInRange('--workers-min', 1, WORKERS_MIN_MAX)).default(1))
+    .addOption(
+      new Option('--heartbeat-silence-seconds <s>', 'a worker silent this long (1 to 3600 s) is lost and its clients leave the run; heartbeats go every sixth of it (default 30)').argParser(
+        secondsInRange('--heartbeat-silence-seconds', HEARTBEAT_SILENCE_SECONDS_MIN, HEARTBEAT_SILENCE_SECONDS_MAX),
+      ),
+    )
+    .addOption(
+      new Option('--resume-grace-seconds <s>', 'a worker whose connection drops mid-run may reconnect and resume this long (0 to 3600 s; 0: lost at once); its clients sit out meanwhile (default 5)').argParser(
+        secondsInRange('--resume-grace-seconds', 0, RESUME_GRACE_SECONDS_MAX),
+      ),
+    )
     .option('--out <dir>', 'results folder (default results/<name>-<method>-<time>)')
     .option('--json', 'print outcome.json (see the results folder in README.md) instead of the table')
     .addOption(tweakOption)

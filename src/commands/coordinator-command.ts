@@ -21,13 +21,22 @@ export interface CoordinatorCommandOptions {
   tlsCert?: string;
   tlsKey?: string;
   /** give up when the workers have not joined within this many seconds */
-  workersWaitSeconds: string;
-  workersMin: string;
+  workersWaitSeconds: number;
+  workersMin: number;
   /** absent: the protocol's default (HANDSHAKE_LIMITS) */
-  heartbeatSilenceSeconds?: string;
+  heartbeatSilenceSeconds?: number;
   /** absent: DEFAULT_RESUME_GRACE_SECONDS */
-  resumeGraceSeconds?: string;
+  resumeGraceSeconds?: number;
 }
+
+/**
+ * Most --workers-wait-seconds: a week, well inside what a Node timer can count (about 24.8
+ * days; a longer one fires at once).
+ */
+export const WORKERS_WAIT_SECONDS_MAX = 604_800;
+
+/** Most --workers-min: each worker hosts a client at least, and a scenario has at most 10,000. */
+export const WORKERS_MIN_MAX = 10_000;
 
 /** Most --resume-grace-seconds: as long as a silent worker may hold a round (HEARTBEAT_SILENCE_SECONDS_MAX). */
 export const RESUME_GRACE_SECONDS_MAX = 3600;
@@ -57,22 +66,6 @@ export function coordinatorOptionsProblem(opts: CoordinatorCommandOptions, env: 
     return `refusing to listen on ${address.host} without a key file: anyone who can reach the port could join. Give --key-file PATH (or ${KEY_FILE_ENVIRONMENT_VARIABLE}), or listen on 127.0.0.1`;
   }
   if ((opts.tlsCert === undefined) !== (opts.tlsKey === undefined)) return '--tls-cert and --tls-key go together';
-  const seconds = Number(opts.workersWaitSeconds);
-  if (!(seconds > 0) || !Number.isFinite(seconds)) return `--workers-wait-seconds: expected positive seconds, got "${opts.workersWaitSeconds}"`;
-  const workersMin = Number(opts.workersMin);
-  if (!Number.isInteger(workersMin) || workersMin < 1) return `--workers-min: expected a positive integer, got "${opts.workersMin}"`;
-  if (opts.heartbeatSilenceSeconds !== undefined) {
-    const silence = Number(opts.heartbeatSilenceSeconds);
-    if (opts.heartbeatSilenceSeconds.trim() === '' || !(silence >= HEARTBEAT_SILENCE_SECONDS_MIN && silence <= HEARTBEAT_SILENCE_SECONDS_MAX)) {
-      return `--heartbeat-silence-seconds: expected seconds from ${HEARTBEAT_SILENCE_SECONDS_MIN} to ${HEARTBEAT_SILENCE_SECONDS_MAX}, got "${opts.heartbeatSilenceSeconds}"`;
-    }
-  }
-  if (opts.resumeGraceSeconds !== undefined) {
-    const grace = Number(opts.resumeGraceSeconds);
-    if (opts.resumeGraceSeconds.trim() === '' || !(grace >= 0 && grace <= RESUME_GRACE_SECONDS_MAX)) {
-      return `--resume-grace-seconds: expected seconds from 0 to ${RESUME_GRACE_SECONDS_MAX}, got "${opts.resumeGraceSeconds}"`;
-    }
-  }
   return null;
 }
 
@@ -116,15 +109,15 @@ async function coordinate(
     port: address.port,
     key: auth.key,
     tls,
-    workersMin: Number(opts.workersMin),
+    workersMin: opts.workersMin,
     workersMax: scenario.clients.count,
     maxClientsPerWorker: scenario.clients.count,
-    joinTimeoutSeconds: Number(opts.workersWaitSeconds),
+    joinTimeoutSeconds: opts.workersWaitSeconds,
     handshakeTimeoutSeconds: 10,
     exchangeTimeoutSeconds: 300,
     wallGraceSeconds: 0.5,
-    ...(opts.heartbeatSilenceSeconds === undefined ? {} : { heartbeat: heartbeatForSilence(Number(opts.heartbeatSilenceSeconds)) }),
-    ...(opts.resumeGraceSeconds === undefined ? {} : { resumeGraceSeconds: Number(opts.resumeGraceSeconds) }),
+    ...(opts.heartbeatSilenceSeconds === undefined ? {} : { heartbeat: heartbeatForSilence(opts.heartbeatSilenceSeconds) }),
+    ...(opts.resumeGraceSeconds === undefined ? {} : { resumeGraceSeconds: opts.resumeGraceSeconds }),
     onRound: io.onRound,
     log: (line) => io.err(`coordinator: ${line}\n`),
   });

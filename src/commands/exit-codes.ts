@@ -38,6 +38,7 @@ export const BAD_INPUT_CODES: ReadonlySet<string> = new Set([
   'E_RESULTS_FILE',
   // src/commands and src/cli.ts
   'E_KEY_FILE',
+  'E_OPTION_VALUE',
   'E_USAGE',
 ]);
 

@@ -14,7 +14,7 @@ export interface WorkerCommandOptions {
   /** the file holding the shared key (absent: ROUNDWIRE_KEY_FILE) */
   keyFile?: string;
   /** how many clients this worker offers to host */
-  capacity: string;
+  capacity: number;
   name?: string;
   /** serve the worker's metrics at http://HOST:PORT/metrics */
   metrics?: MetricsAddress;
@@ -61,8 +61,6 @@ export function coordinatorUrlProblem(text: string): string | null {
 export function workerOptionsProblem(url: string, opts: WorkerCommandOptions, env: NodeJS.ProcessEnv): string | null {
   const urlProblem = coordinatorUrlProblem(url);
   if (urlProblem !== null) return urlProblem;
-  const capacity = Number(opts.capacity);
-  if (!/^\d+$/.test(opts.capacity) || capacity < 1 || capacity > WORKER_CAPACITY_MAX) return `--capacity: expected an integer from 1 to ${WORKER_CAPACITY_MAX}, got "${opts.capacity}"`;
   if (keyFileSource(opts.keyFile, env) === null) return `a key file is needed: --key-file PATH, or ${KEY_FILE_ENVIRONMENT_VARIABLE} naming the file`;
   if (opts.ca !== undefined) {
     if (!url.startsWith('wss://')) return `--ca is for a wss:// coordinator; the coordinator URL is "${url}"`;
@@ -85,9 +83,9 @@ export async function runWorkerCommand(url: string, opts: WorkerCommandOptions, 
   const worker = new Worker({
     url,
     key,
-    capacity: Number(opts.capacity),
+    capacity: opts.capacity,
     workerName,
-    threadsMax: Number(opts.capacity),
+    threadsMax: opts.capacity,
     ...(metrics === null ? {} : { metrics }),
     ...(certificates !== null && 'pem' in certificates ? { trustedCertificatesPem: certificates.pem } : {}),
     log: (line) => err(`worker ${workerName}: ${line}\n`),

@@ -4,17 +4,13 @@
 
 import type { Scenario } from '../scenario/schema.js';
 import type { MethodConfig } from '../algorithm/method.js';
+import type { WirePlan } from '../protocol/wire-plan.js';
 import { hashOf } from '../scenario/plan-hash.js';
 import { localStepsFor } from '../timing/local-steps.js';
 import { participantCount } from '../timing/participation.js';
 import { assertPolicyFitsRound } from '../timing/round-policy.js';
 
-/** What a worker needs to host clients: JSON-able, sent in the welcome message. */
-export interface WirePlan {
-  scenario: Scenario;
-  methodConfig: MethodConfig;
-  dim: number;
-}
+export type { WirePlan };
 
 export interface RunPlan extends WirePlan {
   planHash: string;

@@ -25,6 +25,7 @@
 
 import type { ProtocolErrorCode } from './errors.js';
 import type { ProtocolLimits } from './limits.js';
+import type { WirePlan } from './wire-plan.js';
 import type { WireVector } from './wire-vector.js';
 
 /** Bumped on any change to a message's shape or meaning; peers must match exactly. */
@@ -89,8 +90,8 @@ export interface WelcomeMessage {
   type: 'welcome';
   /** ids of the clients this worker hosts, strictly increasing */
   assignments: number[];
-  /** the resolved scenario as plain data; the worker validates it against the scenario schema */
-  plan: Record<string, unknown>;
+  /** the resolved scenario, the method's numbers and the dimension (wire-plan.ts) */
+  plan: WirePlan;
   /** the limits both ends apply from now on (frame size from the plan, heartbeat timing) */
   limits: ProtocolLimits;
   /**

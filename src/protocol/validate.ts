@@ -25,6 +25,8 @@ import {
   type WireFields,
 } from './messages.js';
 import type { FieldDims } from './field-dims.js';
+import { wirePlanSchema } from './wire-plan.js';
+import { formatIssue } from '../scenario/validate-scenario.js';
 import { checkWireVector } from './wire-vector.js';
 
 /** What the receiver expects, from its own state. A null member is not checked. */
@@ -70,7 +72,7 @@ const shapes = {
   welcome: z.strictObject({
     type: z.literal('welcome'),
     assignments: z.array(count),
-    plan: z.record(z.string(), z.unknown()),
+    plan: wirePlanSchema,
     limits: protocolLimitsSchema,
     resumeToken: bytes.optional(),
   }),
@@ -115,13 +117,27 @@ function valueAt(raw: unknown, path: readonly PropertyKey[]): unknown {
   return value;
 }
 
+const SCENARIO_PATH = ['plan', 'scenario'] as const;
+
+/**
+ * One line for one issue. A welcome's scenario is described as a scenario file's problem is
+ * (what was expected, what came), since it is the same schema.
+ */
+function describeIssue(issue: z.core.$ZodIssue, raw: Record<string, unknown>, type: string): string {
+  if (type === 'welcome' && SCENARIO_PATH.every((key, i) => issue.path[i] === key)) {
+    const { fieldPath, message } = formatIssue({ ...issue, path: issue.path.slice(SCENARIO_PATH.length) }, valueAt(raw, SCENARIO_PATH));
+    return `${formatPath(type, SCENARIO_PATH)}${fieldPath === '' ? '' : `.${fieldPath}`}: ${message}`;
+  }
+  return `${formatPath(type, issue.path)}: ${issue.message}`;
+}
+
 function parseShape<T>(schema: z.ZodType<T>, raw: Record<string, unknown>, type: string): T {
   const result = schema.safeParse(raw);
   if (result.success) return result.data;
   const issue = result.error.issues[0];
   const value = valueAt(raw, issue.path);
   const code = typeof value === 'number' && !Number.isFinite(value) ? 'E_NOT_FINITE' : 'E_TYPE';
-  throw new ProtocolError(code, `${formatPath(type, issue.path)}: ${issue.message}`);
+  throw new ProtocolError(code, describeIssue(issue, raw, type));
 }
 
 function checkName(name: string, path: string): void {
@@ -209,7 +225,7 @@ function checkHello(message: z.output<typeof shapes.hello>, context: ValidationC
 }
 
 function checkWelcome(message: z.output<typeof shapes.welcome>, limits: ProtocolLimits): void {
-  const { assignments, resumeToken } = message;
+  const { assignments, resumeToken, plan } = message;
   if (resumeToken !== undefined && resumeToken.length !== RESUME_TOKEN_BYTES) {
     throw new ProtocolError('E_TYPE', `welcome.resumeToken: ${RESUME_TOKEN_BYTES} bytes expected, got ${resumeToken.length}`);
   }
@@ -220,6 +236,11 @@ function checkWelcome(message: z.output<typeof shapes.welcome>, limits: Protocol
     if (assignments[i] <= assignments[i - 1]) {
       throw new ProtocolError('E_TYPE', `welcome.assignments[${i}]: client ids must be strictly increasing`);
     }
+  }
+  const clientCount = plan.scenario.clients.count;
+  const beyond = assignments.findIndex((id) => id >= clientCount);
+  if (beyond >= 0) {
+    throw new ProtocolError('E_CLIENT', `welcome.assignments[${beyond}]: client ${assignments[beyond]}, the plan has clients 0 to ${clientCount - 1}`);
   }
 }
 

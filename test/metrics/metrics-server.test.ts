@@ -7,13 +7,13 @@
 import { afterEach, describe, expect, it } from 'vitest';
 import { Counter, Registry } from 'prom-client';
 import parsePrometheusTextFormat from 'parse-prometheus-text-format';
-import { parseLingerSeconds, parseMetricsAddress, startMetricsServer, type MetricsServer } from '../../runtime/metrics-server.js';
+import { parseMetricsAddress, startMetricsServer, type MetricsServer } from '../../runtime/metrics-server.js';
 import { CoordinatorMetrics, type CoordinatorMetricsSources } from '../../server/metrics.js';
 import { CLIENT_LABELS_MAX } from '../../server/metrics-labels.js';
 import type { LayerBytes } from '../../server/byte-ledger.js';
 import type { ClientRoundRecord, RoundRecord } from '../../src/engine/round-record.js';
 
-describe('--metrics and --metrics-linger values', () => {
+describe('--metrics values', () => {
   it('reads HOST:PORT, [IPv6]:PORT and a bare PORT on loopback', () => {
     expect(parseMetricsAddress('0.0.0.0:9464')).toEqual({ host: '0.0.0.0', port: 9464 });
     expect(parseMetricsAddress('[::1]:0')).toEqual({ host: '::1', port: 0 });
@@ -24,12 +24,6 @@ describe('--metrics and --metrics-linger values', () => {
     for (const bad of ['', 'host', 'host:', ':9464', '127.0.0.1:65536', '::1:80']) {
       expect(() => parseMetricsAddress(bad), bad).toThrow(expect.objectContaining({ code: 'E_METRICS_OPTION' }));
     }
-  });
-
-  it('takes linger seconds from 0 to a day', () => {
-    expect(parseLingerSeconds('0')).toBe(0);
-    expect(parseLingerSeconds('2.5')).toBe(2.5);
-    for (const bad of ['', '-1', 'soon', 'NaN', '86401']) expect(() => parseLingerSeconds(bad), bad).toThrow(expect.objectContaining({ code: 'E_METRICS_OPTION' }));
   });
 });
 

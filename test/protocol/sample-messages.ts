@@ -8,6 +8,8 @@ import { NONCE_BYTES, PROTOCOL_VERSION, type Message } from '../../src/protocol/
 import type { FieldDims } from '../../src/protocol/field-dims.js';
 import type { ValidationContext } from '../../src/protocol/validate.js';
 import { toWire, type WireVector } from '../../src/protocol/wire-vector.js';
+import type { WirePlan } from '../../src/protocol/wire-plan.js';
+import { validateScenario } from '../../src/scenario/validate-scenario.js';
 
 export const DIM = 6;
 export const SHARED_KEY = 'shared-secret-for-tests';
@@ -24,6 +26,21 @@ export const PLAN_LIMITS: ProtocolLimits = limitsForPlan({
   clientsPerWorker: 2,
 });
 
+/** A welcome's plan: 6 clients of a 6-dimensional least-squares problem under FedLin. */
+export function samplePlan(): WirePlan {
+  const scenario = validateScenario({
+    name: 'tiny',
+    seed: 7,
+    problem: { kind: 'least-squares' },
+    data: { source: 'synthetic', features: DIM },
+    clients: { count: 6 },
+    method: { name: 'fedlin', localSteps: [3, 4] },
+    run: { rounds: 3 },
+  });
+  const methodConfig = { clientCount: 6, stepSize: 0.025, serverStepSize: 1, proxCoefficient: 0.1, proxTolerance: 0 };
+  return { scenario, methodConfig, dim: DIM };
+}
+
 export function denseF64(values: number[]): WireVector {
   return toWire({ dim: values.length, indices: null, values: Float64Array.from(values) });
 }
@@ -39,7 +56,7 @@ export function sampleMessages(): Message[] {
     {
       type: 'welcome',
       assignments: [2, 5],
-      plan: { name: 'tiny', seed: 7, method: { name: 'fedlin', localSteps: [3, 4] }, description: null },
+      plan: samplePlan(),
       limits: PLAN_LIMITS,
     },
     {

@@ -15,6 +15,7 @@ import {
   NONCE,
   PLAN_LIMITS,
   sampleMessages,
+  samplePlan,
   serverContext,
   sparseF32,
   SHARED_KEY,
@@ -112,6 +113,26 @@ describe('E_TYPE', () => {
     const limits = { ...PLAN_LIMITS, heartbeatSilenceSeconds: PLAN_LIMITS.heartbeatIntervalSeconds };
     expectCode('E_TYPE', () => receive({ ...sample('welcome'), limits }, handshake), 'welcome.limits.heartbeatSilenceSeconds');
   });
+
+  it('a welcome plan with a malformed field, named by its path', () => {
+    const plan = samplePlan();
+    expectCode('E_TYPE', () => receive({ ...sample('welcome'), plan: { ...plan, dim: 0 } }, handshake), 'welcome.plan.dim');
+    expectCode('E_TYPE', () => receive({ ...sample('welcome'), plan: { ...plan, dim: 2.5 } }, handshake), 'welcome.plan.dim');
+    const methodConfig = { ...plan.methodConfig, stepSize: 'fast' };
+    expectCode('E_TYPE', () => receive({ ...sample('welcome'), plan: { ...plan, methodConfig } }, handshake), 'welcome.plan.methodConfig.stepSize');
+    expectCode('E_TYPE', () => receive({ ...sample('welcome'), plan: { scenario: plan.scenario, dim: DIM } }, handshake), 'welcome.plan.methodConfig');
+    expectCode('E_TYPE', () => receive({ ...sample('welcome'), plan: { ...plan, extra: 1 } }, handshake), 'welcome.plan');
+  });
+
+  it('a welcome plan whose scenario breaks the scenario schema, described as a scenario file would be', () => {
+    const plan = samplePlan();
+    const scenario = { ...plan.scenario, clients: { ...plan.scenario.clients, count: -1 } };
+    const error = errorOf(() => receive({ ...sample('welcome'), plan: { ...plan, scenario } }, handshake));
+    expect(error.code).toBe('E_TYPE');
+    expect(error.message).toMatch(/^welcome\.plan\.scenario\.clients\.count: expected .*, got -1/);
+    const misspelt = { ...plan.scenario, sed: 7 };
+    expectCode('E_TYPE', () => receive({ ...sample('welcome'), plan: { ...plan, scenario: misspelt } }, handshake), 'welcome.plan.scenario.sed: unknown key');
+  });
 });
 
 describe('E_VERSION', () => {
@@ -137,6 +158,10 @@ describe('E_CLIENT', () => {
   it('a client id the worker does not host, on either end', () => {
     expectCode('E_CLIENT', () => receive(up({ clientId: 3 }), serverContext()), 'client 3');
     expectCode('E_CLIENT', () => receive(down({ clientId: 0 }), workerContext()));
+  });
+
+  it('a welcome assigning a client beyond the plan\'s clients', () => {
+    expectCode('E_CLIENT', () => receive({ ...sample('welcome'), assignments: [2, 6] }, handshake), 'welcome.assignments[1]: client 6');
   });
 });
 
