@@ -6,6 +6,7 @@ import { createServer, type Server } from 'node:http';
 import type { AddressInfo } from 'node:net';
 import type { Registry } from 'prom-client';
 import { isLoopbackHost, parseHostPort, urlHost, type HostPort } from './address.js';
+import { listenFailure } from './listen-error.js';
 
 export type MetricsAddress = HostPort;
 
@@ -40,7 +41,7 @@ export interface MetricsServer {
   close(): Promise<void>;
 }
 
-/** Serves `registry` at /metrics on `address`; resolves once listening. */
+/** Serves `registry` at /metrics on `address`; resolves once listening, rejects with a ListenError when the address cannot be had. */
 export function startMetricsServer(registry: Registry, address: MetricsAddress): Promise<MetricsServer> {
   const server: Server = createServer((request, response) => {
     const path = (request.url ?? '').split('?')[0];
@@ -65,9 +66,10 @@ export function startMetricsServer(registry: Registry, address: MetricsAddress):
   server.requestTimeout = SCRAPE_TIMEOUT_MS;
   server.maxConnections = CONNECTIONS_MAX;
   return new Promise((resolve, reject) => {
-    server.once('error', reject);
+    const onError = (error: Error): void => reject(listenFailure(error, '--metrics', address));
+    server.once('error', onError);
     server.listen(address.port, address.host, () => {
-      server.off('error', reject);
+      server.off('error', onError);
       const bound = server.address() as AddressInfo;
       resolve({
         url: `http://${urlHost(address.host)}:${bound.port}${METRICS_PATH}`,

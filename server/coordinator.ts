@@ -352,9 +352,13 @@ export class Coordinator {
   /** Waits for workers, runs every round, says done; resolves to what the run produced. */
   async run(): Promise<CoordinatorOutcome> {
     await this.waitForWorkers();
+    // Wall seconds (per round, the ETA, the total) count from the first round: waiting for
+    // workers to join is the cluster's start-up, not the method's cost, and is reported apart.
+    const roundsStartedMs = performance.now();
+    const joinSeconds = (roundsStartedMs - this.startedMs) / 1000;
     this.welcomeAll();
     this.liveness.start();
-    const result = await this.driver.run(() => (performance.now() - this.startedMs) / 1000);
+    const result = await this.driver.run(() => (performance.now() - roundsStartedMs) / 1000);
     this.liveness.stop();
     this.runEnded = true;
     // A worker still away when the run ends never came back: its clients left the run.
@@ -379,7 +383,8 @@ export class Coordinator {
       clients: result.clients,
       finalModel: result.finalModel,
       stopReason: result.stopReason,
-      wallSeconds: (performance.now() - this.startedMs) / 1000,
+      wallSeconds: (performance.now() - roundsStartedMs) / 1000,
+      joinSeconds,
       virtualSeconds: result.virtualSeconds,
       bytesLayers: layers,
       controlBytes: this.ledger.controlTotals(),

@@ -40,13 +40,8 @@ export async function startListener(options: ListenerOptions, onConnection: (ws:
     ? createHttpsServer({ cert: readFileSync(options.tls.certFile), key: readFileSync(options.tls.keyFile) })
     : createHttpServer();
   http.maxConnections = options.connectionsMax;
-  const wss = new WebSocketServer({
-    server: http,
-    perMessageDeflate: false,
-    maxPayload: options.maxFrameBytes * WS_PAYLOAD_HEADROOM_FACTOR,
-    clientTracking: true,
-  });
-  wss.on('connection', (ws, request) => onConnection(ws, request.socket as Socket));
+  // Listen before ws attaches: ws re-emits the server's errors on itself, so a busy port would
+  // surface as an unhandled 'error' event instead of this rejection.
   await new Promise<void>((resolve, reject) => {
     http.once('error', reject);
     http.listen(options.port, options.host, () => {
@@ -54,6 +49,13 @@ export async function startListener(options: ListenerOptions, onConnection: (ws:
       resolve();
     });
   });
+  const wss = new WebSocketServer({
+    server: http,
+    perMessageDeflate: false,
+    maxPayload: options.maxFrameBytes * WS_PAYLOAD_HEADROOM_FACTOR,
+    clientTracking: true,
+  });
+  wss.on('connection', (ws, request) => onConnection(ws, request.socket as Socket));
   const address = http.address();
   if (address === null || typeof address === 'string') throw new Error('the listener has no TCP address');
   const hostForUrl = address.family === 'IPv6' ? `[${address.address}]` : address.address;

@@ -8,6 +8,8 @@ import type { LostWorker } from './worker-registry.js';
 
 export interface CoordinatorOutcome extends RunOutcomeBase {
   virtualSeconds: number;
+  /** from the coordinator's start until enough workers had joined; not part of wallSeconds */
+  joinSeconds: number;
   /** round traffic (down and up messages) at the three layers */
   bytesLayers: { payload: DirectionBytes; encoded: DirectionBytes; wire: DirectionBytes };
   /** handshake, heartbeats, errors and done: no payload */

@@ -11,7 +11,7 @@ import { writeShards } from './commands/shards-command.js';
 import { runInProcess } from './engine/in-process-engine.js';
 import { finishRun, formatRunSummary } from './commands/run-report.js';
 import { ProgressLine } from './commands/progress.js';
-import { defaultResultsDir } from './results/results-folder.js';
+import { defaultResultsDir, prepareResultsFolder } from './results/results-folder.js';
 import { formatDistributedSummary, runDistributed, RunInterrupted } from './commands/run-distributed.js';
 import { runWorkerCommand, WORKER_CAPACITY_MAX, workerOptionsProblem, type WorkerCommandOptions } from './commands/worker-command.js';
 import {
@@ -125,6 +125,7 @@ function buildProgram(io: Io): Command {
       if (opts.inProcess && opts.metrics !== undefined) throw new UsageError('--metrics serves the coordinator of a distributed run; --in-process has none');
       const scenario = loadScenarioFile(file, opts.tweak);
       const outDir = opts.out ?? defaultResultsDir(scenario, new Date());
+      prepareResultsFolder(outDir);
       const progress = new ProgressLine({ write: io.err, isTTY: process.stderr.isTTY === true }, scenario.run.rounds);
       if (!opts.inProcess) {
         const result = await runDistributed(scenario, outDir, { out: io.out, err: io.err, onRound: (r) => progress.update(r) }, metricsServing(opts));
@@ -193,6 +194,7 @@ function buildProgram(io: Io): Command {
       if (problem !== null) throw new UsageError(problem);
       const scenario = loadScenarioFile(file, opts.tweak);
       const outDir = opts.out ?? defaultResultsDir(scenario, new Date());
+      prepareResultsFolder(outDir);
       const progress = new ProgressLine({ write: io.err, isTTY: process.stderr.isTTY === true }, scenario.run.rounds);
       const result = await runCoordinatorCommand(scenario, opts, outDir, process.env, { err: io.err, onRound: (r) => progress.update(r) }, metricsServing(opts));
       progress.finish();
@@ -226,6 +228,7 @@ function buildProgram(io: Io): Command {
     .action(async (file: string, opts: CompareOptions & { json?: boolean }) => {
       const plan = planComparison(file, opts);
       const outDir = opts.out ?? defaultCompareDir(plan.base, new Date());
+      prepareResultsFolder(outDir);
       const comparison = await runComparison(plan, outDir, opts, { err: io.err });
       io.out(opts.json ? comparisonJson(comparison) : formatComparison(comparison, outDir));
     });

@@ -11,6 +11,7 @@ import { Coordinator } from '../../server/coordinator.js';
 import type { TlsFiles } from '../../server/listener.js';
 import { metricsListeningLine, startMetricsServer, type MetricsServer } from '../../runtime/metrics-server.js';
 import { isLoopbackHost, parseHostPort } from '../../runtime/address.js';
+import { listenFailure } from '../../runtime/listen-error.js';
 import { lingerWithMetrics, writeDistributedResults, RunInterrupted, type DistributedRunResult, type MetricsServing } from './run-distributed.js';
 import { keyFileSource, KEY_FILE_ENVIRONMENT_VARIABLE, readKeyFile, writeFreshKeyFile, type FreshKeyFile } from './key-file.js';
 
@@ -137,7 +138,9 @@ async function coordinate(
       metricsServer = await startMetricsServer(coordinator.metrics.registry, metrics.address);
       io.err(metricsListeningLine(metricsServer, metrics.address));
     }
-    const url = await coordinator.listen();
+    const url = await coordinator.listen().catch((error: unknown) => {
+      throw listenFailure(error, '--listen', address);
+    });
     if (auth.fresh !== null) io.err(`key file: ${auth.fresh.path} (fresh, private to you, removed when the coordinator ends; workers on this machine join with --key-file ${auth.fresh.path})\n`);
     io.err(`listening on ${url}\n`);
     const outcome = await coordinator.run();

@@ -29,6 +29,8 @@ export const BAD_INPUT_CODES: ReadonlySet<string> = new Set([
   'E_TIMING_LOCAL_STEPS_LENGTH',
   'E_TIMING_POLICY_K',
   'E_TIMING_SLOWDOWN_NOT_FINITE',
+  // src/results
+  'E_RESULTS_FOLDER',
   // src/report
   'E_COMPARE_VARIANTS',
   'E_LADDER_FIELDS',
@@ -36,6 +38,8 @@ export const BAD_INPUT_CODES: ReadonlySet<string> = new Set([
   'E_LADDER_SYNTAX',
   'E_RESULTS_CONTENT',
   'E_RESULTS_FILE',
+  // runtime
+  'E_LISTEN_ADDRESS',
   // src/commands and src/cli.ts
   'E_KEY_FILE',
   'E_OPTION_VALUE',

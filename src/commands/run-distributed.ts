@@ -66,7 +66,8 @@ export interface DistributedRunResult {
 export function writeDistributedResults(outcome: CoordinatorOutcome, outDir: string): RunSummary {
   finishRun(engineOutcomeOf(outcome), 'distributed', outDir);
   const file = join(outDir, resultFiles.outcome);
-  const merged = { ...(JSON.parse(readFileSync(file, 'utf8')) as RunSummary), ...distributedDetails(outcome) };
+  const summary = JSON.parse(readFileSync(file, 'utf8')) as RunSummary;
+  const merged = { ...summary, seconds: { ...summary.seconds, join: outcome.joinSeconds }, ...distributedDetails(outcome) };
   writeFileSync(file, `${JSON.stringify(merged, null, 2)}\n`);
   return merged as unknown as RunSummary;
 }

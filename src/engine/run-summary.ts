@@ -57,7 +57,8 @@ export interface RunSummary {
   roundsToTarget: number | null;
   toTarget: { payloadBytes: number | null; virtualSeconds: number | null; wallSeconds: number | null };
   bytes: { payload: ByteCounts; encoded?: ByteCounts; wire?: ByteCounts };
-  seconds: { virtual: number; wall: number };
+  /** wall: from the first round; join (distributed runs): waiting for workers before it */
+  seconds: { virtual: number; wall: number; join?: number };
   droppedUpdates: number;
   lostWorkers: string[];
   protocolErrors: Record<string, number>;

@@ -3,11 +3,15 @@
 // added by src/commands/report-command.ts. This is the one module under src/ that writes run
 // results; the core computes, this records.
 
-import { mkdirSync, writeFileSync } from 'node:fs';
+import { accessSync, constants, mkdirSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { stringify } from 'yaml';
 import type { Scenario } from '../scenario/schema.js';
 import type { ClientRoundRecord, RoundRecord } from '../engine/round-record.js';
+import { CodedError } from '../base/coded-error.js';
+
+/** The results folder cannot be created or written. */
+export class ResultsFolderError extends CodedError<'E_RESULTS_FOLDER'> {}
 
 export const resultFiles = {
   resolvedScenario: 'resolved-scenario.yaml',
@@ -35,6 +39,20 @@ function jsonLines(items: readonly unknown[]): string {
 export function defaultResultsDir(scenario: Scenario, now: Date): string {
   const stamp = now.toISOString().replace(/[-:]/g, '').replace(/\.\d+Z$/, 'Z');
   return join('results', `${scenario.name.replace(/[^A-Za-z0-9_.-]+/g, '_')}-${scenario.method.name}-${stamp}`);
+}
+
+/**
+ * Creates the results folder and checks that it can be written, so that a bad --out ends the
+ * command before the run rather than after it. Throws ResultsFolderError naming --out.
+ */
+export function prepareResultsFolder(dir: string): void {
+  try {
+    mkdirSync(dir, { recursive: true });
+    accessSync(dir, constants.W_OK);
+  } catch (error) {
+    const code = (error as NodeJS.ErrnoException).code ?? (error as Error).message;
+    throw new ResultsFolderError('E_RESULTS_FOLDER', `--out ${dir}: cannot create or write the results folder (${code})`);
+  }
 }
 
 export function writeResultsFolder(dir: string, payload: ResultsPayload): void {

@@ -1,22 +1,15 @@
 // From a file (or text) and tweaks to a complete, validated scenario.
 
-import { readFileSync } from 'node:fs';
 import type { Scenario } from './schema.js';
 import { parseScenarioText } from './parse-document.js';
 import { applyTweak, parseTweak, type Tweak } from './tweaks.js';
 import { validateScenario } from './validate-scenario.js';
 import { ScenarioError } from './scenario-error.js';
+import { readScenarioText } from './read-scenario-text.js';
 
 /** Reads and parses a scenario file without validating it, so that variants of it can share the reading. */
 export function readScenarioDocument(file: string): unknown {
-  let text: string;
-  try {
-    text = readFileSync(file, 'utf8');
-  } catch (error) {
-    const code = (error as NodeJS.ErrnoException).code;
-    throw new ScenarioError('E_SCENARIO_FILE', '', `${file}: cannot read the scenario (${code ?? (error as Error).message})`);
-  }
-  return parseScenarioText(text, file);
+  return parseScenarioText(readScenarioText(file), file);
 }
 
 function isUnder(fieldPath: string, ancestor: string): boolean {
