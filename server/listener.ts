@@ -23,6 +23,7 @@ export interface ListenerOptions {
   tls: TlsFiles | null;
   /** most simultaneous connections, handshaking ones included */
   connectionsMax: number;
+  log: (line: string) => void;
 }
 
 /** Headroom over the legal maximum: frames up to twice the limit reach our check and get E_SIZE. */
@@ -47,10 +48,18 @@ export async function startListener(options: ListenerOptions, onConnection: (ws:
     clientTracking: true,
   });
   wss.on('connection', (ws, request) => onConnection(ws, request.socket as Socket));
+  // ws re-emits the HTTP server's errors, and an 'error' with no listener ends the process. A
+  // failure to listen rejects below; once listening, a server error (say, no file descriptor
+  // left to accept a connection with, which enough peers can cause) costs that connection only.
+  let listening = false;
+  wss.on('error', (error) => {
+    if (listening) options.log(`the listener failed to accept a connection: ${error.message}`);
+  });
   await new Promise<void>((resolve, reject) => {
     http.once('error', reject);
     http.listen(options.port, options.host, () => {
       http.off('error', reject);
+      listening = true;
       resolve();
     });
   });
