@@ -75,22 +75,67 @@ interface Kind {
 // Each violation and the close code RFC 6455 section 7.4.1 gives it.
 const KINDS: Kind[] = [
   // Section 5.3: a client masks every frame; the three bytes of an unmasked one-byte binary frame.
-  { name: 'unmasked frame', bytes: () => Buffer.from([FIN | OP.binary, 0x01, 0xc0]), reason: 'E_FRAME_MASK', closeCode: CLOSE_PROTOCOL_ERROR },
+  {
+    name: 'unmasked frame',
+    bytes: () => Buffer.from([FIN | OP.binary, 0x01, 0xc0]),
+    reason: 'E_FRAME_MASK',
+    closeCode: CLOSE_PROTOCOL_ERROR,
+  },
   // 16 MiB, past ws's maxPayload (twice the 4 MiB handshake frame limit, server/listener.ts).
-  { name: 'length 16 MiB', bytes: () => lengthClaim(16n * 1024n * 1024n), reason: 'E_FRAME_TOO_BIG', closeCode: CLOSE_MESSAGE_TOO_BIG },
-  { name: 'length 2^62', bytes: () => lengthClaim(2n ** 62n), reason: 'E_FRAME_TOO_BIG', closeCode: CLOSE_MESSAGE_TOO_BIG },
+  {
+    name: 'length 16 MiB',
+    bytes: () => lengthClaim(16n * 1024n * 1024n),
+    reason: 'E_FRAME_TOO_BIG',
+    closeCode: CLOSE_MESSAGE_TOO_BIG,
+  },
+  {
+    name: 'length 2^62',
+    bytes: () => lengthClaim(2n ** 62n),
+    reason: 'E_FRAME_TOO_BIG',
+    closeCode: CLOSE_MESSAGE_TOO_BIG,
+  },
   // Section 5.2: opcodes 3-7 are reserved for further non-control frames.
-  { name: 'opcode 3', bytes: () => maskedFrame(FIN | 0x3, Uint8Array.of(1)), reason: 'E_FRAME_OPCODE', closeCode: CLOSE_PROTOCOL_ERROR },
+  {
+    name: 'opcode 3',
+    bytes: () => maskedFrame(FIN | 0x3, Uint8Array.of(1)),
+    reason: 'E_FRAME_OPCODE',
+    closeCode: CLOSE_PROTOCOL_ERROR,
+  },
   // Section 5.2: RSV1 must be 0 unless an extension says otherwise; none is negotiated.
-  { name: 'RSV1 set', bytes: () => maskedFrame(FIN | RSV1 | OP.binary, Uint8Array.of(1)), reason: 'E_FRAME_RSV', closeCode: CLOSE_PROTOCOL_ERROR },
+  {
+    name: 'RSV1 set',
+    bytes: () => maskedFrame(FIN | RSV1 | OP.binary, Uint8Array.of(1)),
+    reason: 'E_FRAME_RSV',
+    closeCode: CLOSE_PROTOCOL_ERROR,
+  },
   // Section 8.1: a text frame must be UTF-8; 0xff never occurs in UTF-8 (RFC 3629 section 1).
-  { name: 'invalid UTF-8 text', bytes: () => maskedFrame(FIN | OP.text, Uint8Array.of(0xff, 0xfe)), reason: 'E_FRAME_UTF8', closeCode: CLOSE_INVALID_PAYLOAD },
+  {
+    name: 'invalid UTF-8 text',
+    bytes: () => maskedFrame(FIN | OP.text, Uint8Array.of(0xff, 0xfe)),
+    reason: 'E_FRAME_UTF8',
+    closeCode: CLOSE_INVALID_PAYLOAD,
+  },
   // Section 5.5: a control frame's payload is 125 bytes at most.
-  { name: 'oversized ping', bytes: () => maskedFrame(FIN | OP.ping, new Uint8Array(126)), reason: 'E_FRAME_CONTROL', closeCode: CLOSE_PROTOCOL_ERROR },
+  {
+    name: 'oversized ping',
+    bytes: () => maskedFrame(FIN | OP.ping, new Uint8Array(126)),
+    reason: 'E_FRAME_CONTROL',
+    closeCode: CLOSE_PROTOCOL_ERROR,
+  },
   // Section 5.4: a continuation frame only continues a fragmented message.
-  { name: 'stray continuation', bytes: () => maskedFrame(FIN | OP.continuation, Uint8Array.of(1)), reason: 'E_FRAME_OPCODE', closeCode: CLOSE_PROTOCOL_ERROR },
+  {
+    name: 'stray continuation',
+    bytes: () => maskedFrame(FIN | OP.continuation, Uint8Array.of(1)),
+    reason: 'E_FRAME_OPCODE',
+    closeCode: CLOSE_PROTOCOL_ERROR,
+  },
   // Section 7.4.2: codes 0-999 are not used.
-  { name: 'close code 999', bytes: () => maskedFrame(FIN | OP.close, Uint8Array.of(999 >> 8, 999 & 0xff)), reason: 'E_FRAME_CLOSE_CODE', closeCode: CLOSE_PROTOCOL_ERROR },
+  {
+    name: 'close code 999',
+    bytes: () => maskedFrame(FIN | OP.close, Uint8Array.of(999 >> 8, 999 & 0xff)),
+    reason: 'E_FRAME_CLOSE_CODE',
+    closeCode: CLOSE_PROTOCOL_ERROR,
+  },
 ];
 
 /** A raw connection past the HTTP upgrade: the server's frames as they come, and its end. */
@@ -120,12 +165,16 @@ class RawPeer {
     });
     const peer = new RawPeer(socket);
     const key = randomBytes(16).toString('base64');
-    socket.write(`GET / HTTP/1.1\r\nHost: 127.0.0.1:${port}\r\nUpgrade: websocket\r\nConnection: Upgrade\r\nSec-WebSocket-Key: ${key}\r\nSec-WebSocket-Version: 13\r\n\r\n`);
+    socket.write(
+      `GET / HTTP/1.1\r\nHost: 127.0.0.1:${port}\r\nUpgrade: websocket\r\nConnection: Upgrade\r\nSec-WebSocket-Key: ${key}\r\nSec-WebSocket-Version: 13\r\n\r\n`,
+    );
     await peer.until(() => peer.received.includes('\r\n\r\n'));
     const end = peer.received.indexOf('\r\n\r\n');
     const response = peer.received.subarray(0, end).toString('latin1');
     expect(response).toMatch(/^HTTP\/1\.1 101 /);
-    const accept = createHash('sha1').update(key + WEBSOCKET_GUID).digest('base64');
+    const accept = createHash('sha1')
+      .update(key + WEBSOCKET_GUID)
+      .digest('base64');
     expect(response).toContain(`Sec-WebSocket-Accept: ${accept}`);
     peer.received = peer.received.subarray(end + 4);
     peer.upgraded = true;
@@ -134,7 +183,10 @@ class RawPeer {
 
   private until(done: () => boolean): Promise<void> {
     return new Promise((resolve, reject) => {
-      const timer = setTimeout(() => reject(new Error('the coordinator did not answer in time')), PROBE_TIMEOUT_MS);
+      const timer = setTimeout(
+        () => reject(new Error('the coordinator did not answer in time')),
+        PROBE_TIMEOUT_MS,
+      );
       const check = (): void => {
         if (done()) {
           clearTimeout(timer);
@@ -153,10 +205,18 @@ class RawPeer {
       const lengthCode = this.received[i + 1] & 0x7f;
       const extended = lengthCode === 126 ? 2 : lengthCode === 127 ? 8 : 0;
       if (i + 2 + extended > this.received.length) break;
-      const length = extended === 0 ? lengthCode : extended === 2 ? this.received.readUInt16BE(i + 2) : Number(this.received.readBigUInt64BE(i + 2));
+      const length =
+        extended === 0
+          ? lengthCode
+          : extended === 2
+            ? this.received.readUInt16BE(i + 2)
+            : Number(this.received.readBigUInt64BE(i + 2));
       const start = i + 2 + extended;
       if (start + length > this.received.length) break;
-      frames.push({ opcode: this.received[i] & 0x0f, payload: this.received.subarray(start, start + length) });
+      frames.push({
+        opcode: this.received[i] & 0x0f,
+        payload: this.received.subarray(start, start + length),
+      });
       i = start + length;
     }
     return frames;
@@ -165,9 +225,18 @@ class RawPeer {
   /** Waits for the challenge and answers it with a valid hello. */
   async hello(workerName: string): Promise<void> {
     await this.until(() => this.frames().some((f) => f.opcode === OP.binary));
-    const challenge = decodeMessage(new Uint8Array(this.frames().find((f) => f.opcode === OP.binary)!.payload), READ_LIMIT_BYTES) as { type: string; nonce: Uint8Array };
+    const challenge = decodeMessage(
+      new Uint8Array(this.frames().find((f) => f.opcode === OP.binary)!.payload),
+      READ_LIMIT_BYTES,
+    ) as { type: string; nonce: Uint8Array };
     expect(challenge.type).toBe('challenge');
-    const hello = encodeMessage({ type: 'hello', protocolVersion: PROTOCOL_VERSION, workerName, capacity: 1, proof: proveKey(KEY, challenge.nonce) });
+    const hello = encodeMessage({
+      type: 'hello',
+      protocolVersion: PROTOCOL_VERSION,
+      workerName,
+      capacity: 1,
+      proof: proveKey(KEY, challenge.nonce),
+    });
     this.socket.write(maskedFrame(FIN | OP.binary, hello));
   }
 
@@ -194,7 +263,21 @@ describe('malformed WebSocket frames', () => {
   it('close only the connection that sent them, with the RFC 6455 close code; the run finishes unchanged', async () => {
     const out = freshDir('frames');
     const keyFile = writeKeyFile(out, KEY);
-    const coordinator = new CliProcess(['coordinator', join(repoRoot, 'scenarios/quickstart.yaml'), '--listen', '127.0.0.1:0', '--key-file', keyFile, '--workers-min', '2', '--workers-wait-seconds', '40', '--out', out, ...TWEAKS.flatMap((o) => ['--tweak', o])]);
+    const coordinator = new CliProcess([
+      'coordinator',
+      join(repoRoot, 'scenarios/quickstart.yaml'),
+      '--listen',
+      '127.0.0.1:0',
+      '--key-file',
+      keyFile,
+      '--workers-min',
+      '2',
+      '--workers-wait-seconds',
+      '40',
+      '--out',
+      out,
+      ...TWEAKS.flatMap((o) => ['--tweak', o]),
+    ]);
     started.push(coordinator);
     const url = (await coordinator.waitForStderr(/listening on (ws:\/\/\S+)/, 30_000))[1];
     const port = Number(new URL(url).port);
@@ -218,9 +301,22 @@ describe('malformed WebSocket frames', () => {
 
     // Before any worker: each kind before a hello, and a few after a valid one.
     for (const kind of KINDS) await probe('before hello', kind, false);
-    for (const kind of [KINDS[0], KINDS[1], KINDS[5], KINDS[8]]) await probe('after hello', kind, true);
+    for (const kind of [KINDS[0], KINDS[1], KINDS[5], KINDS[8]])
+      await probe('after hello', kind, true);
 
-    const workers = [1, 2].map((i) => new CliProcess(['worker', url, '--key-file', keyFile, '--capacity', '4', '--name', `honest-${i}`]));
+    const workers = [1, 2].map(
+      (i) =>
+        new CliProcess([
+          'worker',
+          url,
+          '--key-file',
+          keyFile,
+          '--capacity',
+          '4',
+          '--name',
+          `honest-${i}`,
+        ]),
+    );
     started.push(...workers);
     await coordinator.waitForStderr(/worker "honest-2" hosts clients/, 30_000);
     // During the run: every kind again, on fresh connections.
@@ -232,12 +328,16 @@ describe('malformed WebSocket frames', () => {
     for (const worker of workers) expect((await worker.exit(20_000)).code).toBe(0);
     expect(runningAfterProbes).toBe(true);
 
-    const summary = JSON.parse(readFileSync(join(out, 'outcome.json'), 'utf8')) as { distributed: { frameErrors: Record<string, number> } };
+    const summary = JSON.parse(readFileSync(join(out, 'outcome.json'), 'utf8')) as {
+      distributed: { frameErrors: Record<string, number> };
+    };
     console.log('close codes by probe:', closeCodes);
     console.log('frame errors counted by the coordinator:', summary.distributed.frameErrors);
     expect(summary.distributed.frameErrors).toEqual(expectedCounts);
 
-    const clean = runInProcess(loadScenarioFile(join(repoRoot, 'scenarios/quickstart.yaml'), TWEAKS));
+    const clean = runInProcess(
+      loadScenarioFile(join(repoRoot, 'scenarios/quickstart.yaml'), TWEAKS),
+    );
     const expected = Buffer.alloc(clean.finalModel.length * 8);
     clean.finalModel.forEach((v, j) => expected.writeDoubleLE(v, j * 8));
     expect(readFileSync(join(out, 'model.f64')).equals(expected)).toBe(true);

@@ -21,12 +21,22 @@ describe('classifyFrameError', () => {
       ['WS_ERR_TOO_MANY_BUFFERED_PARTS', 'E_FRAME_TOO_MANY_PARTS', 1008],
     ];
     for (const [code, reason, closeCode] of cases) {
-      expect(classifyFrameError(wsError(code))).toEqual({ reason, closeCode, detail: `ws says ${code}` });
+      expect(classifyFrameError(wsError(code))).toEqual({
+        reason,
+        closeCode,
+        detail: `ws says ${code}`,
+      });
     }
   });
 
   it('names an unknown error E_FRAME_OTHER, a protocol error', () => {
-    expect(classifyFrameError(wsError(undefined))).toMatchObject({ reason: 'E_FRAME_OTHER', closeCode: 1002 });
-    expect(classifyFrameError(wsError('ECONNRESET'))).toMatchObject({ reason: 'E_FRAME_OTHER', closeCode: 1002 });
+    expect(classifyFrameError(wsError(undefined))).toMatchObject({
+      reason: 'E_FRAME_OTHER',
+      closeCode: 1002,
+    });
+    expect(classifyFrameError(wsError('ECONNRESET'))).toMatchObject({
+      reason: 'E_FRAME_OTHER',
+      closeCode: 1002,
+    });
   });
 });

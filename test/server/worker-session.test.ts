@@ -11,7 +11,12 @@ import { encodeMessage, type FrameFailure, type Message } from '../../src/protoc
 import { WorkerSession } from '../../server/worker-session.js';
 
 /** A socket that counts reads of bytesWritten, and a ws that records what it was asked to send. */
-function fakeConnection(): { socket: Socket; ws: WebSocket & EventEmitter; sent: Uint8Array[]; bytesWrittenReads: () => number } {
+function fakeConnection(): {
+  socket: Socket;
+  ws: WebSocket & EventEmitter;
+  sent: Uint8Array[];
+  bytesWrittenReads: () => number;
+} {
   let reads = 0;
   const socket = new EventEmitter() as Socket & EventEmitter;
   Object.defineProperty(socket, 'bytesRead', { value: 0 });
@@ -23,7 +28,12 @@ function fakeConnection(): { socket: Socket; ws: WebSocket & EventEmitter; sent:
   });
   const sent: Uint8Array[] = [];
   const ws = new EventEmitter() as WebSocket & EventEmitter;
-  Object.assign(ws, { OPEN: 1, CONNECTING: 0, readyState: 1, send: (bytes: Uint8Array) => sent.push(bytes) });
+  Object.assign(ws, {
+    OPEN: 1,
+    CONNECTING: 0,
+    readyState: 1,
+    send: (bytes: Uint8Array) => sent.push(bytes),
+  });
   return { socket, ws, sent, bytesWrittenReads: () => reads };
 }
 
@@ -33,7 +43,11 @@ describe('WorkerSession', () => {
     const session = new WorkerSession(1, ws, socket, 0, () => undefined);
     const readsAtStart = bytesWrittenReads();
     // Error messages with texts of 0, 200 and 70 000 characters: each header form once.
-    const messages: Message[] = [0, 200, 70_000].map((n) => ({ type: 'error', code: 'E_DECODE', message: 'x'.repeat(n) }));
+    const messages: Message[] = [0, 200, 70_000].map((n) => ({
+      type: 'error',
+      code: 'E_DECODE',
+      message: 'x'.repeat(n),
+    }));
     for (let i = 0; i < 1000; i++) {
       for (const message of messages) {
         const encodedBytes = encodeMessage(message).byteLength;
@@ -49,8 +63,19 @@ describe('WorkerSession', () => {
     const { socket, ws } = fakeConnection();
     const failures: FrameFailure[] = [];
     new WorkerSession(1, ws, socket, 0, (_, failure) => failures.push(failure));
-    ws.emit('error', Object.assign(new RangeError('Invalid WebSocket frame: invalid UTF-8 sequence'), { code: 'WS_ERR_INVALID_UTF8' }));
+    ws.emit(
+      'error',
+      Object.assign(new RangeError('Invalid WebSocket frame: invalid UTF-8 sequence'), {
+        code: 'WS_ERR_INVALID_UTF8',
+      }),
+    );
     // RFC 6455 section 7.4.1: 1007 for data inconsistent with the message's type.
-    expect(failures).toEqual([{ reason: 'E_FRAME_UTF8', closeCode: 1007, detail: 'Invalid WebSocket frame: invalid UTF-8 sequence' }]);
+    expect(failures).toEqual([
+      {
+        reason: 'E_FRAME_UTF8',
+        closeCode: 1007,
+        detail: 'Invalid WebSocket frame: invalid UTF-8 sequence',
+      },
+    ]);
   });
 });
