@@ -6,6 +6,7 @@
 
 import { connect as connectTls, rootCertificates } from 'node:tls';
 import WebSocket from 'ws';
+import { classifyFrameError } from '../src/protocol/index.js';
 import { sleepSeconds } from './sleep.js';
 
 export interface RetryPolicy {
@@ -48,7 +49,7 @@ const CERTIFICATE_ERROR_CODES: ReadonlySet<string> = new Set([
   'ERR_TLS_CERT_ALTNAME_INVALID',
 ]);
 
-function connectOnce(url: string, policy: RetryPolicy, maxPayloadBytes: number, onFrame: FrameListener, trustedCertificatesPem: string | null): Promise<WebSocket> {
+function connectOnce(url: string, policy: RetryPolicy, maxPayloadBytes: number, onFrame: FrameListener, log: (line: string) => void, trustedCertificatesPem: string | null): Promise<WebSocket> {
   return new Promise((resolve, reject) => {
     const ws = new WebSocket(url, {
       perMessageDeflate: false,
@@ -69,6 +70,13 @@ function connectOnce(url: string, policy: RetryPolicy, maxPayloadBytes: number, 
     };
     ws.once('open', () => {
       ws.off('error', fail);
+      // Once open, an 'error' is a frame that broke RFC 6455: ws closes the connection with the
+      // matching close code, and the worker's close handler takes it from there. An 'error' with
+      // no listener would end the process, so one listens from here on.
+      ws.on('error', (error) => {
+        const failure = classifyFrameError(error);
+        log(`the connection was closed with code ${failure.closeCode} (${failure.reason}): ${failure.detail}`);
+      });
       resolve(ws);
     });
     ws.once('error', fail);
@@ -127,7 +135,7 @@ export async function connectWithRetry(
   for (let attempt = 1; attempt <= policy.attemptsMax; attempt++) {
     await sleepSeconds(backoffSeconds(policy, attempt));
     try {
-      return await connectOnce(url, policy, maxPayloadBytes, onFrame, trustedCertificatesPem);
+      return await connectOnce(url, policy, maxPayloadBytes, onFrame, log, trustedCertificatesPem);
     } catch (error) {
       lastError = error as Error;
       const advice = await permanentFailure(url, lastError, policy);

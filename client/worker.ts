@@ -113,7 +113,6 @@ export class Worker {
         const outcome = await new Promise<WorkerExit | 'closed'>((resolve, reject) => {
           ended.then(resolve, reject);
           ws.on('close', () => resolve('closed'));
-          ws.on('error', (error) => this.options.log(`connection error: ${error.message}`));
         });
         if (outcome !== 'closed') return outcome;
         this.stopHeartbeats();

@@ -41,8 +41,13 @@ export interface MetricsServer {
   close(): Promise<void>;
 }
 
+/** Where the endpoint reports a server error once listening, when the caller names no place. */
+function logToStderr(line: string): void {
+  process.stderr.write(`${line}\n`);
+}
+
 /** Serves `registry` at /metrics on `address`; resolves once listening, rejects with a ListenError when the address cannot be had. */
-export function startMetricsServer(registry: Registry, address: MetricsAddress): Promise<MetricsServer> {
+export function startMetricsServer(registry: Registry, address: MetricsAddress, log: (line: string) => void = logToStderr): Promise<MetricsServer> {
   const server: Server = createServer((request, response) => {
     const path = (request.url ?? '').split('?')[0];
     if (path !== METRICS_PATH) {
@@ -70,6 +75,9 @@ export function startMetricsServer(registry: Registry, address: MetricsAddress):
     server.once('error', onError);
     server.listen(address.port, address.host, () => {
       server.off('error', onError);
+      // A failure to accept one scraper (say, no file descriptor left) must not end the run: an
+      // 'error' with no listener would. A malformed request is answered 400 by node:http itself.
+      server.on('error', (error) => log(`metrics endpoint: ${error.message}`));
       const bound = server.address() as AddressInfo;
       resolve({
         url: `http://${urlHost(address.host)}:${bound.port}${METRICS_PATH}`,

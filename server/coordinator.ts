@@ -21,6 +21,7 @@ import {
   receiveMessage,
   RESUME_TOKEN_BYTES,
   type DoneReason,
+  type FrameFailure,
   type ProtocolLimits,
 } from '../src/protocol/index.js';
 import { ByteLedger } from './byte-ledger.js';
@@ -165,6 +166,7 @@ export class Coordinator {
         tls: this.options.tls,
         maxFrameBytes: Math.max(planLimits.maxFrameBytes, HANDSHAKE_LIMITS.maxFrameBytes),
         connectionsMax: this.options.workersMax * 2,
+        log: this.options.log,
       },
       (ws, socket) => void this.accept(ws, socket),
     );
@@ -185,7 +187,7 @@ export class Coordinator {
   }
 
   private async accept(ws: WebSocket, socket: Socket): Promise<void> {
-    const session = new WorkerSession(this.nextSessionId++, ws, socket, performance.now());
+    const session = new WorkerSession(this.nextSessionId++, ws, socket, performance.now(), (bad, failure) => this.frameFailed(bad, failure));
     this.sessions.push(session);
     session.onClose(() => this.closed(session));
     const hello = await awaitHello(session, { key: this.options.key, timeoutSeconds: this.options.handshakeTimeoutSeconds, ledger: this.ledger, errors: this.errors, log: this.options.log });
@@ -205,6 +207,12 @@ export class Coordinator {
     session.onFrame((frame, wireBytes) => this.receive(session, frame, wireBytes));
     this.options.log(`${session.label()} joined with capacity ${hello.capacity} (${this.registry.workersJoined()} workers, capacity ${this.registry.capacityJoined()} for ${this.plan.clientCount} clients)`);
     this.joinChanged();
+  }
+
+  /** A malformed frame cost `session` its connection; its close handler does the rest. */
+  private frameFailed(session: WorkerSession, failure: FrameFailure): void {
+    this.errors.countFrame(failure.reason);
+    this.options.log(`${session.label()} closed with code ${failure.closeCode} (${failure.reason}): ${failure.detail}`);
   }
 
   private receive(session: WorkerSession, frame: Uint8Array, wireBytes: number): void {

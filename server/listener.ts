@@ -23,6 +23,7 @@ export interface ListenerOptions {
   tls: TlsFiles | null;
   /** most simultaneous connections, handshaking ones included */
   connectionsMax: number;
+  log: (line: string) => void;
 }
 
 /** Headroom over the legal maximum: frames up to twice the limit reach our check and get E_SIZE. */
@@ -56,6 +57,10 @@ export async function startListener(options: ListenerOptions, onConnection: (ws:
     clientTracking: true,
   });
   wss.on('connection', (ws, request) => onConnection(ws, request.socket as Socket));
+  // ws re-emits the HTTP server's errors, and an 'error' with no listener ends the process. Once
+  // listening, a server error (say, no file descriptor left to accept a connection with, which
+  // enough peers can cause) costs that connection only.
+  wss.on('error', (error) => options.log(`the listener failed to accept a connection: ${error.message}`));
   const address = http.address();
   if (address === null || typeof address === 'string') throw new Error('the listener has no TCP address');
   const hostForUrl = address.family === 'IPv6' ? `[${address.address}]` : address.address;

@@ -5,12 +5,13 @@
 // rate is computed at the first scrape that needs it: a run nobody scrapes never pays for either.
 
 import { Counter, Gauge, Histogram, Registry } from 'prom-client';
-import { PROTOCOL_ERROR_CODES } from '../src/protocol/index.js';
+import { FRAME_ERROR_REASONS, PROTOCOL_ERROR_CODES } from '../src/protocol/index.js';
 import type { MethodName } from '../src/algorithm/method.js';
 import type { ClientRoundRecord, RoundRecord } from '../src/engine/round-record.js';
 import { curveOf } from '../src/engine/run-summary.js';
 import { fitLinearRate } from '../src/theory/measure-curve.js';
 import type { ByteLedger } from './byte-ledger.js';
+import type { ProtocolErrorCounts } from './protocol-error-counter.js';
 import { CLIENT_LABELS_MAX, clientLabel } from './metrics-labels.js';
 
 /** What the metrics read from the coordinator at scrape time. */
@@ -21,7 +22,7 @@ export interface CoordinatorMetricsSources {
   /** workers past the handshake whose connection is open */
   connectedWorkers: () => number;
   lostWorkers: () => number;
-  protocolErrors: () => { received: Record<string, number>; reported: Record<string, number> };
+  protocolErrors: () => ProtocolErrorCounts;
   /** clients of the plan: each gets its dropped-updates series at 0 from the start */
   clientCount: number;
   /** f* of the problem, for the noise level of the rate fit */
@@ -142,13 +143,14 @@ export class CoordinatorMetrics {
     for (let id = 0; id < Math.min(sources.clientCount, CLIENT_LABELS_MAX + 1); id++) this.dropped.inc({ client: clientLabel(id) }, 0);
     new Counter({
       name: 'roundwire_protocol_errors_total',
-      help: 'Protocol errors by code: bad messages received from workers, and errors workers reported.',
+      help: 'Protocol errors by code: bad messages received from workers, errors workers reported, and connections closed for a malformed WebSocket frame (origin "frame").',
       labelNames: ['code', 'origin'],
       registers,
       collect() {
         this.reset();
         const counts = sources.protocolErrors();
         for (const origin of ERROR_ORIGINS) for (const code of PROTOCOL_ERROR_CODES) this.inc({ code, origin }, counts[origin][code] ?? 0);
+        for (const reason of FRAME_ERROR_REASONS) this.inc({ code: reason, origin: 'frame' }, counts.frame[reason] ?? 0);
       },
     });
     new Counter({

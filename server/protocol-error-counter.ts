@@ -1,13 +1,23 @@
-// Protocol errors by reason: bad messages a worker sent us, and errors workers reported. The
-// metrics endpoint reads these counters later; the results record them.
+// Protocol errors by reason: bad messages a worker sent us, errors workers reported, and
+// malformed WebSocket frames that cost a peer its connection. The metrics endpoint reads these
+// counters later; the results record them.
 
-import type { ProtocolErrorCode } from '../src/protocol/index.js';
+import type { FrameErrorReason, ProtocolErrorCode } from '../src/protocol/index.js';
+
+export interface ProtocolErrorCounts {
+  received: Record<string, number>;
+  reported: Record<string, number>;
+  /** connections closed for a malformed frame, by reason */
+  frame: Record<string, number>;
+}
 
 export class ProtocolErrorCounter {
   /** bad messages received, by the code of the error we answered with */
   private readonly received = new Map<ProtocolErrorCode, number>();
   /** error messages workers sent, by their code */
   private readonly reported = new Map<ProtocolErrorCode, number>();
+  /** connections closed for a malformed frame, by reason */
+  private readonly frame = new Map<FrameErrorReason, number>();
 
   countReceived(code: ProtocolErrorCode): void {
     this.received.set(code, (this.received.get(code) ?? 0) + 1);
@@ -17,8 +27,12 @@ export class ProtocolErrorCounter {
     this.reported.set(code, (this.reported.get(code) ?? 0) + 1);
   }
 
-  snapshot(): { received: Record<string, number>; reported: Record<string, number> } {
-    return { received: Object.fromEntries(this.received), reported: Object.fromEntries(this.reported) };
+  countFrame(reason: FrameErrorReason): void {
+    this.frame.set(reason, (this.frame.get(reason) ?? 0) + 1);
+  }
+
+  snapshot(): ProtocolErrorCounts {
+    return { received: Object.fromEntries(this.received), reported: Object.fromEntries(this.reported), frame: Object.fromEntries(this.frame) };
   }
 
   totalReceived(): number {

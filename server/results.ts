@@ -29,6 +29,8 @@ export interface DistributedDetails {
     workers: CoordinatorOutcome['workers'];
     lostWorkers: CoordinatorOutcome['lostWorkers'];
     protocolErrorsReported: Record<string, number>;
+    /** connections closed for a malformed WebSocket frame, by reason */
+    frameErrors: Record<string, number>;
   };
 }
 
@@ -42,6 +44,7 @@ export function distributedDetails(outcome: CoordinatorOutcome): DistributedDeta
       workers: outcome.workers,
       lostWorkers: outcome.lostWorkers,
       protocolErrorsReported: outcome.protocolErrors.reported,
+      frameErrors: outcome.protocolErrors.frame,
     },
   };
 }

@@ -4,6 +4,7 @@
 
 import type { RunOutcomeBase } from '../src/engine/run-summary.js';
 import type { DirectionBytes } from './byte-ledger.js';
+import type { ProtocolErrorCounts } from './protocol-error-counter.js';
 import type { LostWorker } from './worker-registry.js';
 
 export interface CoordinatorOutcome extends RunOutcomeBase {
@@ -19,5 +20,5 @@ export interface CoordinatorOutcome extends RunOutcomeBase {
   payloadBytesByField: { up: Record<string, number>; down: Record<string, number> };
   workers: { workerName: string; clientIds: number[] }[];
   lostWorkers: LostWorker[];
-  protocolErrors: { received: Record<string, number>; reported: Record<string, number> };
+  protocolErrors: ProtocolErrorCounts;
 }

@@ -1,9 +1,8 @@
-// Wire bytes from the socket itself. Sends: the socket's bytesWritten before and after ws
-// writes a frame (ws writes synchronously when permessage-deflate is off, which the listener
-// ensures). Receives: the bytes of the raw stream are walked frame by frame (RFC 6455 section
-// 5.2 header: 2 bytes, a 16- or 64-bit extended length, a 4-byte mask key when masked), so that
-// each data message ws emits can be matched with the bytes it occupied on the socket, control
-// frames (close, ping, pong) apart. Counting starts after the HTTP upgrade.
+// Wire bytes of each received message, and the socket's own counters (sends are metered by
+// their frame size, in worker-session.ts). The bytes of the raw stream are walked frame by frame
+// (RFC 6455 section 5.2 header: 2 bytes, a 16- or 64-bit extended length, a 4-byte mask key
+// when masked), so that each data message ws emits can be matched with the bytes it occupied on
+// the socket, control frames (close, ping, pong) apart. Counting starts after the HTTP upgrade.
 
 import type { Socket } from 'node:net';
 
@@ -36,19 +35,12 @@ export class WireMeter {
     socket.prependListener('data', (chunk: Buffer) => this.scan(chunk));
   }
 
-  /** Runs `write` (one ws send) and returns the bytes it put on the socket. */
-  measureWrite(write: () => void): number {
-    const before = this.socket.bytesWritten;
-    write();
-    return this.socket.bytesWritten - before;
-  }
-
   /** Wire bytes of the next data message ws emits (call once per 'message' event). */
   takeMessageBytes(): number {
     return this.completedMessageBytes.shift() ?? 0;
   }
 
-  /** The socket's own counters since the upgrade. */
+  /** The socket's own counters since the upgrade (read once, at the end of a run). */
   totals(): { readBytes: number; writtenBytes: number } {
     return { readBytes: this.socket.bytesRead - this.readBaselineBytes, writtenBytes: this.socket.bytesWritten - this.writeBaselineBytes };
   }

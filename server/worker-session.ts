@@ -4,7 +4,7 @@
 
 import type { Socket } from 'node:net';
 import type { WebSocket } from 'ws';
-import { encodeMessage, type Message } from '../src/protocol/index.js';
+import { classifyFrameError, encodeMessage, frameBytes, type FrameFailure, type Message } from '../src/protocol/index.js';
 import { SessionStateMachine, type SessionState } from './session-states.js';
 import { WireMeter } from './wire-meter.js';
 
@@ -14,6 +14,9 @@ export interface SentBytes {
 }
 
 export type FrameHandler = (frame: Uint8Array, wireBytes: number) => void;
+
+/** Told of a malformed frame; ws has already closed the connection with `failure.closeCode`. */
+export type FrameErrorHandler = (session: WorkerSession, failure: FrameFailure) => void;
 
 export class WorkerSession {
   readonly sessionId: number;
@@ -29,12 +32,15 @@ export class WorkerSession {
   private readonly machine = new SessionStateMachine();
   private handler: FrameHandler = () => undefined;
 
-  constructor(sessionId: number, ws: WebSocket, socket: Socket, nowMs: number) {
+  constructor(sessionId: number, ws: WebSocket, socket: Socket, nowMs: number, onFrameError: FrameErrorHandler) {
     this.sessionId = sessionId;
     this.ws = ws;
     this.meter = new WireMeter(socket);
     this.lastHeardMs = nowMs;
     ws.binaryType = 'nodebuffer';
+    // ws emits 'error' for a frame that breaks RFC 6455 (and closes the connection itself); an
+    // 'error' with no listener would end the process, so every session listens from the start.
+    ws.on('error', (error) => onFrameError(this, classifyFrameError(error)));
     // A text frame is not part of this protocol; it reaches the validator as bytes and fails there.
     ws.on('message', (data: Buffer) => {
       const wireBytes = this.meter.takeMessageBytes();
@@ -72,8 +78,11 @@ export class WorkerSession {
   send(message: Message): SentBytes {
     if (!this.isOpen()) return { encodedBytes: 0, wireBytes: 0 };
     const bytes = encodeMessage(message);
-    const wireBytes = this.meter.measureWrite(() => this.ws.send(bytes, { binary: true }));
-    return { encodedBytes: bytes.byteLength, wireBytes };
+    this.ws.send(bytes, { binary: true });
+    // The frame's size by the RFC 6455 section 5.2 header rule (a server's frames are unmasked;
+    // permessage-deflate is off): O(1) per send, where reading socket.bytesWritten would walk
+    // the socket's write queue, which grows without bound when a peer stops reading.
+    return { encodedBytes: bytes.byteLength, wireBytes: frameBytes(bytes.byteLength, false) };
   }
 
   wireTotals(): { readBytes: number; writtenBytes: number; controlReadBytes: number } {

@@ -168,7 +168,7 @@ export async function runDistributed(scenario: Scenario, outDir: string, io: Dis
 export function formatDistributedSummary(result: DistributedRunResult, outDir: string): string {
   const { outcome, summary } = result;
   const lost = outcome.lostWorkers.length === 0 ? 'none' : outcome.lostWorkers.map((w) => `${w.workerName} (round ${w.round}, clients ${w.clientIds.join(' ')})`).join(', ');
-  const errors = Object.entries(outcome.protocolErrors.received).map(([code, n]) => `${code} ${n}`).join(', ') || 'none';
+  const errors = Object.entries({ ...outcome.protocolErrors.received, ...outcome.protocolErrors.frame }).map(([code, n]) => `${code} ${n}`).join(', ') || 'none';
   const layers = outcome.bytesLayers;
   return `${formatRunSummary(summary, outDir)}bytes up/down: payload ${layers.payload.up}/${layers.payload.down}, encoded ${layers.encoded.up}/${layers.encoded.down}, wire ${layers.wire.up}/${layers.wire.down}\nworkers: ${outcome.workers.length}, lost: ${lost}; protocol errors: ${errors}; stop: ${outcome.stopReason}\n`;
 }

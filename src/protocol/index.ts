@@ -5,9 +5,10 @@
 //            then fromWire(message.fields.delta) for the typed arrays.
 
 export { createChallengeNonce, proveKey, verifyProof } from './auth.js';
-export { CLOSE_NORMAL, CLOSE_POLICY_VIOLATION } from './close-codes.js';
+export { CLOSE_INVALID_PAYLOAD, CLOSE_MESSAGE_TOO_BIG, CLOSE_NORMAL, CLOSE_POLICY_VIOLATION, CLOSE_PROTOCOL_ERROR } from './close-codes.js';
 export { decodeMessage, encodeMessage, NESTING_DEPTH_MAX } from './codec.js';
 export { isProtocolErrorCode, PROTOCOL_ERROR_CODES, ProtocolError, type ProtocolErrorCode } from './errors.js';
+export { classifyFrameError, FRAME_ERROR_REASONS, type FrameErrorReason, type FrameFailure } from './frame-errors.js';
 export { frameBytes, frameHeaderBytes } from './framing.js';
 export {
   frameLimitBytesFor,

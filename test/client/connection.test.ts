@@ -1,8 +1,12 @@
 // Reconnection: exponential backoff doubling from the first delay up to a cap (common
-// practice), and a bounded number of attempts that ends in E_WORKER_JOIN.
+// practice), and a bounded number of attempts that ends in E_WORKER_JOIN. A malformed frame
+// from the coordinator closes the connection with its RFC 6455 code and is logged, never thrown.
 
-import { createServer } from 'node:net';
+import { createServer as createHttpServer } from 'node:http';
+import { createServer, type Socket } from 'node:net';
+import { WebSocketServer } from 'ws';
 import { describe, expect, it } from 'vitest';
+import { CLOSE_PROTOCOL_ERROR } from '../../src/protocol/index.js';
 import { backoffSeconds, connectWithRetry, JoinError, type RetryPolicy } from '../../client/connection.js';
 
 const policy: RetryPolicy = { attemptsMax: 3, firstDelaySeconds: 0.01, delayCapSeconds: 0.03, connectTimeoutSeconds: 2 };
@@ -23,5 +27,31 @@ describe('backoff', () => {
     expect(error).toBeInstanceOf(JoinError);
     expect((error as JoinError).code).toBe('E_WORKER_JOIN');
     expect(lines).toHaveLength(3);
+  });
+});
+
+describe('a malformed frame from the coordinator', () => {
+  it('closes the connection with 1002 and is logged under its reason', async () => {
+    const http = createHttpServer();
+    const wss = new WebSocketServer({ noServer: true });
+    http.on('upgrade', (request, socket, head) => {
+      wss.handleUpgrade(request, socket, head, (serverSide) => {
+        serverSide.on('error', () => undefined);
+        // RFC 6455 section 5.1: a server must not mask its frames; this one-byte binary frame is masked.
+        setTimeout(() => (socket as Socket).write(Buffer.from([0x82, 0x81, 1, 2, 3, 4, 0xc0 ^ 1])), 50);
+      });
+    });
+    await new Promise<void>((r) => http.listen(0, '127.0.0.1', () => r()));
+    const port = (http.address() as { port: number }).port;
+    const lines: string[] = [];
+    try {
+      const ws = await connectWithRetry(`ws://127.0.0.1:${port}`, policy, 1024, () => undefined, (l) => lines.push(l));
+      await new Promise<void>((resolve) => ws.once('close', () => resolve()));
+      expect(lines.some((l) => l.includes(`code ${CLOSE_PROTOCOL_ERROR}`) && l.includes('E_FRAME_MASK'))).toBe(true);
+    } finally {
+      for (const client of wss.clients) client.terminate();
+      http.closeAllConnections();
+      await new Promise<void>((r) => http.close(() => r()));
+    }
   });
 });

@@ -63,7 +63,7 @@ describe('coordinator metrics labels', () => {
     currentRound: () => 1,
     connectedWorkers: () => 2,
     lostWorkers: () => 0,
-    protocolErrors: () => ({ received: { E_DIMENSION: 2 }, reported: {} }),
+    protocolErrors: () => ({ received: { E_DIMENSION: 2 }, reported: {}, frame: { E_FRAME_MASK: 3 } }),
     clientCount,
     optimumLoss: 0,
     predictedRate: () => null,
@@ -98,6 +98,7 @@ describe('coordinator metrics labels', () => {
     expect(Number(dropped.find((m) => m.labels!.client === 'other')!.value)).toBe(1);
     const errors = families.get('roundwire_protocol_errors_total')!.metrics;
     expect(errors.find((m) => m.labels!.code === 'E_DIMENSION' && m.labels!.origin === 'received')!.value).toBe('2');
+    expect(errors.find((m) => m.labels!.code === 'E_FRAME_MASK' && m.labels!.origin === 'frame')!.value).toBe('3');
     // No prediction and too short a curve for a fit: NaN, not a made-up number.
     expect(families.get('roundwire_rate_predicted')!.metrics[0].value).toBe('Nan');
     expect(families.get('roundwire_rate_measured')!.metrics[0].value).toBe('Nan');

@@ -9,7 +9,7 @@ import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import parsePrometheusTextFormat, { type ParsedFamily } from 'parse-prometheus-text-format';
-import { PROTOCOL_ERROR_CODES } from '../../src/protocol/index.js';
+import { FRAME_ERROR_REASONS, PROTOCOL_ERROR_CODES } from '../../src/protocol/index.js';
 import { ROUND_DURATION_BUCKETS_SECONDS } from '../../server/metrics.js';
 import { CliProcess, freshDir, repoRoot } from '../integration/cli-process.js';
 import { fetchText, promtoolCheckMetrics } from './prometheus-tools.js';
@@ -132,9 +132,9 @@ describe('coordinator /metrics after a real run', () => {
     const dropped = family('roundwire_dropped_updates_total', 'COUNTER').metrics.reduce((s, m) => s + Number(m.value), 0);
     expect(dropped).toBe(summary.droppedUpdates);
     const errors = family('roundwire_protocol_errors_total', 'COUNTER');
-    expect(errors.metrics).toHaveLength(2 * PROTOCOL_ERROR_CODES.length);
+    expect(errors.metrics).toHaveLength(2 * PROTOCOL_ERROR_CODES.length + FRAME_ERROR_REASONS.length);
     for (const m of errors.metrics) {
-      expect(PROTOCOL_ERROR_CODES).toContain(m.labels?.code);
+      expect(m.labels?.origin === 'frame' ? FRAME_ERROR_REASONS : PROTOCOL_ERROR_CODES).toContain(m.labels?.code);
       expect(Number(m.value)).toBe(0);
     }
     expect(single('roundwire_workers_lost_total', 'COUNTER')).toBe(summary.lostWorkers.length);

@@ -23,7 +23,8 @@ function walk(dir: string, out: string[]): void {
 function trackedPaths(): string[] {
   try {
     const listed = execFileSync('git', ['ls-files', '-z', '--cached', '--others', '--exclude-standard'], { cwd: repoRoot, encoding: 'utf8' });
-    return listed.split('\0').filter((p) => p.length > 0);
+    // A path in the middle of a merge is listed once per stage: each file counts once.
+    return [...new Set(listed.split('\0').filter((p) => p.length > 0))];
   } catch {
     const out: string[] = [];
     walk(repoRoot, out);
