@@ -33,10 +33,16 @@ function zones() {
   LAYERS.forEach((layer, level) => {
     const higher = LAYERS.slice(level + 1).flat();
     for (const target of layer) {
-      const siblings = layer.filter((f) => f !== target && !SIBLINGS_MAY.some(([a, b]) => a === target && b === f));
+      const siblings = layer.filter(
+        (f) => f !== target && !SIBLINGS_MAY.some(([a, b]) => a === target && b === f),
+      );
       const from = [...higher, ...siblings];
       if (from.length === 0) continue;
-      out.push({ target: `./${target}`, from: from.map((f) => `./${f}`), message: `${target} sits below these in the layers (eslint.config.js, DEVELOPERS.md)` });
+      out.push({
+        target: `./${target}`,
+        from: from.map((f) => `./${f}`),
+        message: `${target} sits below these in the layers (eslint.config.js, DEVELOPERS.md)`,
+      });
     }
   });
   return out;
@@ -57,7 +63,10 @@ export default tseslint.config(
     rules: {
       'import-x/no-cycle': ['error', { ignoreExternal: true }],
       'import-x/no-restricted-paths': ['error', { zones: zones() }],
-      '@typescript-eslint/no-unused-vars': ['error', { argsIgnorePattern: '^_', varsIgnorePattern: '^_' }],
+      '@typescript-eslint/no-unused-vars': [
+        'error',
+        { argsIgnorePattern: '^_', varsIgnorePattern: '^_' },
+      ],
     },
   },
   {

@@ -6,7 +6,12 @@
 import { performance } from 'node:perf_hooks';
 import { availableParallelism } from 'node:os';
 import { Piscina } from 'piscina';
-import { ClientRuntime, snapshotWithReplicasReset, type ClientRuntimeSnapshot, type EncodedFields } from '../src/engine/client-runtime.js';
+import {
+  ClientRuntime,
+  snapshotWithReplicasReset,
+  type ClientRuntimeSnapshot,
+  type EncodedFields,
+} from '../src/engine/client-runtime.js';
 import { methodByName } from '../src/algorithm/registry.js';
 import type { WirePlan } from '../src/engine/run-plan.js';
 import { clientObjective } from '../src/data/problem-instance.js';
@@ -51,12 +56,24 @@ export class ClientHost {
     this.plan = plan;
     this.planKey = hashOf(plan);
     if (clientIds.length <= 1) {
-      this.inline = new Map(clientIds.map((id) => [id, new ClientRuntime(plan, id, clientObjective(plan.scenario, id))]));
+      this.inline = new Map(
+        clientIds.map((id) => [
+          id,
+          new ClientRuntime(plan, id, clientObjective(plan.scenario, id)),
+        ]),
+      );
       this.pool = null;
     } else {
       this.inline = null;
-      const threads = Math.max(1, Math.min(clientIds.length, options.threadsMax, availableParallelism()));
-      this.pool = new Piscina<ClientTask, ClientTaskResult | ClientTaskNonFinite>({ filename: compiledModulePath(import.meta.url, 'client-task.js'), minThreads: threads, maxThreads: threads });
+      const threads = Math.max(
+        1,
+        Math.min(clientIds.length, options.threadsMax, availableParallelism()),
+      );
+      this.pool = new Piscina<ClientTask, ClientTaskResult | ClientTaskNonFinite>({
+        filename: compiledModulePath(import.meta.url, 'client-task.js'),
+        minThreads: threads,
+        maxThreads: threads,
+      });
       for (const id of clientIds) this.snapshots.set(id, null);
     }
   }
@@ -67,10 +84,13 @@ export class ClientHost {
 
   /** Queues one exchange of one client after its earlier ones. */
   work(job: HostedWork): Promise<HostedResult> {
-    if (!this.hosts(job.clientId)) throw new RangeError(`client ${job.clientId} is not hosted here`);
+    if (!this.hosts(job.clientId))
+      throw new RangeError(`client ${job.clientId} is not hosted here`);
     const calledMs = performance.now();
     const previous = this.queues.get(job.clientId) ?? Promise.resolve();
-    const next = previous.catch(() => undefined).then(() => this.run(job, (performance.now() - calledMs) / 1000));
+    const next = previous
+      .catch(() => undefined)
+      .then(() => this.run(job, (performance.now() - calledMs) / 1000));
     this.queues.set(job.clientId, next);
     return next;
   }
@@ -85,14 +105,17 @@ export class ClientHost {
     for (const clientId of clientIds) {
       if (!this.hosts(clientId)) throw new RangeError(`client ${clientId} is not hosted here`);
       const previous = this.queues.get(clientId) ?? Promise.resolve();
-      const next = previous.catch(() => undefined).then(() => {
-        if (this.inline !== null) {
-          this.inline.get(clientId)!.resetReplicas();
-          return;
-        }
-        const snapshot = this.snapshots.get(clientId) ?? null;
-        if (snapshot !== null) this.snapshots.set(clientId, snapshotWithReplicasReset(snapshot, stateFields));
-      });
+      const next = previous
+        .catch(() => undefined)
+        .then(() => {
+          if (this.inline !== null) {
+            this.inline.get(clientId)!.resetReplicas();
+            return;
+          }
+          const snapshot = this.snapshots.get(clientId) ?? null;
+          if (snapshot !== null)
+            this.snapshots.set(clientId, snapshotWithReplicasReset(snapshot, stateFields));
+        });
       this.queues.set(clientId, next);
       resets.push(next);
     }
@@ -102,13 +125,25 @@ export class ClientHost {
   private async run(job: HostedWork, queuedSeconds: number): Promise<HostedResult> {
     if (this.inline !== null) {
       const started = performance.now();
-      const result = this.inline.get(job.clientId)!.work(job.round, job.exchange, job.encodedDown, job.localSteps, job.stepSize);
+      const result = this.inline
+        .get(job.clientId)!
+        .work(job.round, job.exchange, job.encodedDown, job.localSteps, job.stepSize);
       return { ...result, measuredSeconds: (performance.now() - started) / 1000, queuedSeconds };
     }
-    const result = await this.pool!.run({ plan: this.plan, planKey: this.planKey, snapshot: this.snapshots.get(job.clientId) ?? null, ...job });
+    const result = await this.pool!.run({
+      plan: this.plan,
+      planKey: this.planKey,
+      snapshot: this.snapshots.get(job.clientId) ?? null,
+      ...job,
+    });
     if ('nonFinite' in result) throw new CodedError('E_NOT_FINITE', result.nonFinite);
     this.snapshots.set(job.clientId, result.snapshot);
-    return { encodedUp: result.encodedUp, stepsTaken: result.stepsTaken, measuredSeconds: result.measuredSeconds, queuedSeconds };
+    return {
+      encodedUp: result.encodedUp,
+      stepsTaken: result.stepsTaken,
+      measuredSeconds: result.measuredSeconds,
+      queuedSeconds,
+    };
   }
 
   async close(): Promise<void> {

@@ -3,7 +3,11 @@
 // every client continues bit for bit. Objectives (the shards) are built once per thread.
 
 import { performance } from 'node:perf_hooks';
-import { ClientRuntime, type ClientRuntimeSnapshot, type EncodedFields } from '../src/engine/client-runtime.js';
+import {
+  ClientRuntime,
+  type ClientRuntimeSnapshot,
+  type EncodedFields,
+} from '../src/engine/client-runtime.js';
 import type { WirePlan } from '../src/engine/run-plan.js';
 import type { Objective } from '../src/problem/objective.js';
 import { clientObjective } from '../src/data/problem-instance.js';
@@ -49,7 +53,8 @@ function objectiveFor(task: ClientTask): Objective {
   if (objective === undefined) {
     objective = clientObjective(task.plan.scenario, task.clientId);
     objectives.set(key, objective);
-    if (objectives.size > OBJECTIVE_CACHE_ENTRIES_MAX) objectives.delete(objectives.keys().next().value as string);
+    if (objectives.size > OBJECTIVE_CACHE_ENTRIES_MAX)
+      objectives.delete(objectives.keys().next().value as string);
   }
   return objective;
 }
@@ -60,11 +65,22 @@ export default function clientTask(task: ClientTask): ClientTaskResult | ClientT
   const started = performance.now();
   let result;
   try {
-    result = runtime.work(task.round, task.exchange, task.encodedDown, task.localSteps, task.stepSize);
+    result = runtime.work(
+      task.round,
+      task.exchange,
+      task.encodedDown,
+      task.localSteps,
+      task.stepSize,
+    );
   } catch (error) {
     if (isNonFiniteError(error)) return { nonFinite: (error as Error).message };
     throw error;
   }
   const measuredSeconds = (performance.now() - started) / 1000;
-  return { snapshot: runtime.snapshot(), encodedUp: result.encodedUp, stepsTaken: result.stepsTaken, measuredSeconds };
+  return {
+    snapshot: runtime.snapshot(),
+    encodedUp: result.encodedUp,
+    stepsTaken: result.stepsTaken,
+    measuredSeconds,
+  };
 }

@@ -17,7 +17,12 @@ export interface RetryPolicy {
   connectTimeoutSeconds: number;
 }
 
-export const DEFAULT_RETRY_POLICY: RetryPolicy = { attemptsMax: 8, firstDelaySeconds: 0.25, delayCapSeconds: 5, connectTimeoutSeconds: 10 };
+export const DEFAULT_RETRY_POLICY: RetryPolicy = {
+  attemptsMax: 8,
+  firstDelaySeconds: 0.25,
+  delayCapSeconds: 5,
+  connectTimeoutSeconds: 10,
+};
 
 /** The wait before attempt `attempt` (1-based; the first attempt does not wait). */
 export function backoffSeconds(policy: RetryPolicy, attempt: number): number {
@@ -49,19 +54,30 @@ const CERTIFICATE_ERROR_CODES: ReadonlySet<string> = new Set([
   'ERR_TLS_CERT_ALTNAME_INVALID',
 ]);
 
-function connectOnce(url: string, policy: RetryPolicy, maxPayloadBytes: number, onFrame: FrameListener, log: (line: string) => void, trustedCertificatesPem: string | null): Promise<WebSocket> {
+function connectOnce(
+  url: string,
+  policy: RetryPolicy,
+  maxPayloadBytes: number,
+  onFrame: FrameListener,
+  log: (line: string) => void,
+  trustedCertificatesPem: string | null,
+): Promise<WebSocket> {
   return new Promise((resolve, reject) => {
     const ws = new WebSocket(url, {
       perMessageDeflate: false,
       maxPayload: maxPayloadBytes,
       handshakeTimeout: policy.connectTimeoutSeconds * 1000,
       // Node's `ca` replaces the default roots; the extra certificates are trusted beside them.
-      ...(trustedCertificatesPem === null ? {} : { ca: [...rootCertificates, trustedCertificatesPem] }),
+      ...(trustedCertificatesPem === null
+        ? {}
+        : { ca: [...rootCertificates, trustedCertificatesPem] }),
     });
     ws.binaryType = 'nodebuffer';
     // The challenge may arrive with the upgrade response, before an 'open' listener's promise
     // continuation could attach a handler; so the handler is attached here, now.
-    ws.on('message', (data: Buffer) => onFrame(new Uint8Array(data.buffer, data.byteOffset, data.byteLength), ws));
+    ws.on('message', (data: Buffer) =>
+      onFrame(new Uint8Array(data.buffer, data.byteOffset, data.byteLength), ws),
+    );
     const fail = (error: Error): void => {
       ws.removeAllListeners();
       ws.on('error', () => undefined);
@@ -75,7 +91,9 @@ function connectOnce(url: string, policy: RetryPolicy, maxPayloadBytes: number, 
       // no listener would end the process, so one listens from here on.
       ws.on('error', (error) => {
         const failure = classifyFrameError(error);
-        log(`the connection was closed with code ${failure.closeCode} (${failure.reason}): ${failure.detail}`);
+        log(
+          `the connection was closed with code ${failure.closeCode} (${failure.reason}): ${failure.detail}`,
+        );
       });
       resolve(ws);
     });
@@ -87,7 +105,11 @@ function connectOnce(url: string, policy: RetryPolicy, maxPayloadBytes: number, 
 function speaksTls(url: URL, timeoutSeconds: number): Promise<boolean> {
   return new Promise((resolve) => {
     // Only asks whether the port answers in TLS; nothing is sent over this connection.
-    const socket = connectTls({ host: url.hostname.replace(/^\[|\]$/g, ''), port: Number(url.port || 80), rejectUnauthorized: false });
+    const socket = connectTls({
+      host: url.hostname.replace(/^\[|\]$/g, ''),
+      port: Number(url.port || 80),
+      rejectUnauthorized: false,
+    });
     const settle = (answer: boolean): void => {
       socket.destroy();
       resolve(answer);
@@ -99,7 +121,11 @@ function speaksTls(url: URL, timeoutSeconds: number): Promise<boolean> {
 }
 
 /** Why no retry can succeed, as advice to the user; null when the failure may be transient. */
-async function permanentFailure(url: string, error: Error & { code?: string }, policy: RetryPolicy): Promise<string | null> {
+async function permanentFailure(
+  url: string,
+  error: Error & { code?: string },
+  policy: RetryPolicy,
+): Promise<string | null> {
   const parsed = new URL(url);
   const code = error.code ?? '';
   if (parsed.protocol === 'wss:') {
@@ -112,7 +138,10 @@ async function permanentFailure(url: string, error: Error & { code?: string }, p
     return null;
   }
   // A TLS server drops a plain HTTP upgrade request without a reply.
-  if ((code === 'ECONNRESET' || /socket hang up/.test(error.message)) && (await speaksTls(parsed, policy.connectTimeoutSeconds))) {
+  if (
+    (code === 'ECONNRESET' || /socket hang up/.test(error.message)) &&
+    (await speaksTls(parsed, policy.connectTimeoutSeconds))
+  ) {
     return `${parsed.host} serves TLS: join with wss://${parsed.host} instead of ws://`;
   }
   return null;
@@ -143,5 +172,7 @@ export async function connectWithRetry(
       log(`attempt ${attempt}/${policy.attemptsMax} to reach ${url} failed: ${lastError.message}`);
     }
   }
-  throw new JoinError(`could not reach ${url} after ${policy.attemptsMax} attempts (${lastError?.message ?? 'no attempt'})`);
+  throw new JoinError(
+    `could not reach ${url} after ${policy.attemptsMax} attempts (${lastError?.message ?? 'no attempt'})`,
+  );
 }

@@ -3,7 +3,12 @@
 // hosted client (compute seconds, local steps). Every name starts with roundwire_worker_.
 
 import { collectDefaultMetrics, Counter, Gauge, Registry } from 'prom-client';
-import { MESSAGE_TYPES, PROTOCOL_ERROR_CODES, type MessageType, type ProtocolErrorCode } from '../src/protocol/index.js';
+import {
+  MESSAGE_TYPES,
+  PROTOCOL_ERROR_CODES,
+  type MessageType,
+  type ProtocolErrorCode,
+} from '../src/protocol/index.js';
 
 export type LinkDirection = 'up' | 'down';
 
@@ -18,7 +23,11 @@ function clientLabel(clientId: number): string {
 }
 
 const PREFIX = 'roundwire_worker_';
-const MISNAMED_DEFAULT_GAUGES = ['nodejs_active_handles_total', 'nodejs_active_requests_total', 'nodejs_active_resources_total'];
+const MISNAMED_DEFAULT_GAUGES = [
+  'nodejs_active_handles_total',
+  'nodejs_active_requests_total',
+  'nodejs_active_resources_total',
+];
 
 export class WorkerMetrics {
   readonly registry = new Registry();
@@ -35,14 +44,49 @@ export class WorkerMetrics {
     collectDefaultMetrics({ register: this.registry, prefix: PREFIX });
     // prom-client names these gauges with _total, which Prometheus's naming rules keep for
     // counters (promtool check metrics rejects them); the other process figures stay.
-    for (const name of MISNAMED_DEFAULT_GAUGES) this.registry.removeSingleMetric(`${PREFIX}${name}`);
-    this.messages = new Counter({ name: 'roundwire_worker_messages_total', help: 'Valid messages by direction (up: to the coordinator) and type.', labelNames: ['direction', 'type'], registers });
-    this.messageBytes = new Counter({ name: 'roundwire_worker_message_bytes_total', help: 'Encoded bytes of the frames sent (up) and received (down).', labelNames: ['direction'], registers });
-    this.linkDelaySeconds = new Counter({ name: 'roundwire_worker_link_delay_seconds_total', help: 'Link seconds the link model charged, by direction.', labelNames: ['direction'], registers });
-    this.computeSeconds = new Counter({ name: 'roundwire_worker_compute_seconds_total', help: 'Seconds of local work by hosted client, as reported to the coordinator.', labelNames: ['client'], registers });
-    this.localSteps = new Counter({ name: 'roundwire_worker_local_steps_total', help: 'Local steps by hosted client.', labelNames: ['client'], registers });
-    this.clientsHosted = new Gauge({ name: 'roundwire_worker_clients_hosted', help: 'Clients this worker hosts.', registers });
-    this.protocolErrors = new Counter({ name: 'roundwire_worker_protocol_errors_total', help: 'Bad messages received from the coordinator, by error code.', labelNames: ['code'], registers });
+    for (const name of MISNAMED_DEFAULT_GAUGES)
+      this.registry.removeSingleMetric(`${PREFIX}${name}`);
+    this.messages = new Counter({
+      name: 'roundwire_worker_messages_total',
+      help: 'Valid messages by direction (up: to the coordinator) and type.',
+      labelNames: ['direction', 'type'],
+      registers,
+    });
+    this.messageBytes = new Counter({
+      name: 'roundwire_worker_message_bytes_total',
+      help: 'Encoded bytes of the frames sent (up) and received (down).',
+      labelNames: ['direction'],
+      registers,
+    });
+    this.linkDelaySeconds = new Counter({
+      name: 'roundwire_worker_link_delay_seconds_total',
+      help: 'Link seconds the link model charged, by direction.',
+      labelNames: ['direction'],
+      registers,
+    });
+    this.computeSeconds = new Counter({
+      name: 'roundwire_worker_compute_seconds_total',
+      help: 'Seconds of local work by hosted client, as reported to the coordinator.',
+      labelNames: ['client'],
+      registers,
+    });
+    this.localSteps = new Counter({
+      name: 'roundwire_worker_local_steps_total',
+      help: 'Local steps by hosted client.',
+      labelNames: ['client'],
+      registers,
+    });
+    this.clientsHosted = new Gauge({
+      name: 'roundwire_worker_clients_hosted',
+      help: 'Clients this worker hosts.',
+      registers,
+    });
+    this.protocolErrors = new Counter({
+      name: 'roundwire_worker_protocol_errors_total',
+      help: 'Bad messages received from the coordinator, by error code.',
+      labelNames: ['code'],
+      registers,
+    });
     for (const direction of ['up', 'down'] as const) {
       this.messageBytes.inc({ direction }, 0);
       this.linkDelaySeconds.inc({ direction }, 0);

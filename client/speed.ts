@@ -19,11 +19,17 @@ export class ComputePacer {
    * Called after `steps` local steps that took `measuredSeconds` of real compute; resolves to the
    * compute seconds to report once the client's modelled pace has been kept.
    */
-  async pace(clientId: number, round: number, steps: number, measuredSeconds: number): Promise<number> {
+  async pace(
+    clientId: number,
+    round: number,
+    steps: number,
+    measuredSeconds: number,
+  ): Promise<number> {
     if (!this.wall) return steps * stepSecondsFor(this.speed, clientId, round);
     const stepsCounted = Math.max(1, steps);
     const baseStepSeconds = Math.max(this.speed.stepCostSeconds, measuredSeconds / stepsCounted);
-    const targetSeconds = stepsCounted * baseStepSeconds * stepFactorFor(this.speed, clientId, round);
+    const targetSeconds =
+      stepsCounted * baseStepSeconds * stepFactorFor(this.speed, clientId, round);
     await sleepSeconds(targetSeconds - measuredSeconds);
     return Math.max(targetSeconds, measuredSeconds);
   }

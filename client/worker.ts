@@ -31,7 +31,12 @@ import { isNonFiniteError } from '../src/base/coded-error.js';
 import { methodByName } from '../src/algorithm/registry.js';
 import { speedModelFor } from '../src/timing/round-speed.js';
 import { ClientHost } from './client-host.js';
-import { connectWithRetry, DEFAULT_RETRY_POLICY, JoinError, type RetryPolicy } from './connection.js';
+import {
+  connectWithRetry,
+  DEFAULT_RETRY_POLICY,
+  JoinError,
+  type RetryPolicy,
+} from './connection.js';
 import { LinkShaper } from './link.js';
 import { ComputePacer } from './speed.js';
 import type { WorkerMetrics } from './metrics.js';
@@ -117,10 +122,17 @@ export class Worker {
         if (outcome !== 'closed') return outcome;
         this.stopHeartbeats();
         const resumeToken = this.hosting?.resumeToken ?? null;
-        if (this.hosting === null) throw new JoinError('the coordinator closed the connection before the run');
-        if (resumeToken === null) throw new JoinError('the coordinator closed the connection mid-run');
-        if (resumes >= RESUMES_MAX) throw new JoinError(`the connection dropped mid-run after ${RESUMES_MAX} resumes; giving up`);
-        this.options.log(`the connection dropped mid-run; reconnecting to resume (${resumes + 1}/${RESUMES_MAX})`);
+        if (this.hosting === null)
+          throw new JoinError('the coordinator closed the connection before the run');
+        if (resumeToken === null)
+          throw new JoinError('the coordinator closed the connection mid-run');
+        if (resumes >= RESUMES_MAX)
+          throw new JoinError(
+            `the connection dropped mid-run after ${RESUMES_MAX} resumes; giving up`,
+          );
+        this.options.log(
+          `the connection dropped mid-run; reconnecting to resume (${resumes + 1}/${RESUMES_MAX})`,
+        );
         this.phase = 'challenge';
       }
     } finally {
@@ -129,7 +141,10 @@ export class Worker {
   }
 
   private connect(): Promise<WebSocket> {
-    return connectWithRetry(this.options.url, this.options.retry ?? DEFAULT_RETRY_POLICY, WORKER_FRAME_BYTES_MAX,
+    return connectWithRetry(
+      this.options.url,
+      this.options.retry ?? DEFAULT_RETRY_POLICY,
+      WORKER_FRAME_BYTES_MAX,
       (frame, socket) => {
         // The first frame may come before the connection's promise settles; answer on its socket.
         this.ws = socket;
@@ -148,7 +163,8 @@ export class Worker {
   /** Closes the connection and the client pool. */
   async stop(): Promise<void> {
     this.stopHeartbeats();
-    if (this.ws !== null && this.ws.readyState === this.ws.OPEN) this.ws.close(CLOSE_NORMAL, 'worker done');
+    if (this.ws !== null && this.ws.readyState === this.ws.OPEN)
+      this.ws.close(CLOSE_NORMAL, 'worker done');
     await this.hosting?.host.close();
   }
 
@@ -194,9 +210,18 @@ export class Worker {
       if (message === undefined) this.options.metrics?.frameReceived(null, frame.byteLength);
       this.options.metrics?.protocolError(error.code);
       this.options.log(`bad message from the coordinator (${error.code}): ${error.message}`);
-      this.send({ type: 'error', code: error.code, message: error.message.slice(0, limits.maxErrorMessageLength) });
+      this.send({
+        type: 'error',
+        code: error.code,
+        message: error.message.slice(0, limits.maxErrorMessageLength),
+      });
       // Before the run, a bad challenge or welcome leaves nothing to work with.
-      if (this.phase !== 'active') this.fail(new JoinError(`the coordinator's ${this.phase} was refused (${error.code}): ${error.message}`));
+      if (this.phase !== 'active')
+        this.fail(
+          new JoinError(
+            `the coordinator's ${this.phase} was refused (${error.code}): ${error.message}`,
+          ),
+        );
     }
   }
 
@@ -223,12 +248,18 @@ export class Worker {
         this.down(message);
         return;
       case 'error':
-        if (this.phase !== 'active') this.fail(new JoinError(`refused by the coordinator (${message.code}): ${message.message}`));
+        if (this.phase !== 'active')
+          this.fail(
+            new JoinError(`refused by the coordinator (${message.code}): ${message.message}`),
+          );
         else this.options.log(`the coordinator reported ${message.code}: ${message.message}`);
         return;
       case 'done':
         this.phase = 'done';
-        this.finish({ reason: message.reason, clientIds: [...(this.hosting?.clientIds ?? [])].sort((a, b) => a - b) });
+        this.finish({
+          reason: message.reason,
+          clientIds: [...(this.hosting?.clientIds ?? [])].sort((a, b) => a - b),
+        });
         return;
       default:
         return;
@@ -237,7 +268,11 @@ export class Worker {
 
   private welcome(message: WelcomeMessage): void {
     const { plan } = message;
-    if (message.assignments.length > this.options.capacity) throw new ProtocolError('E_SIZE', `welcome.assignments: ${message.assignments.length} clients for a capacity of ${this.options.capacity}`);
+    if (message.assignments.length > this.options.capacity)
+      throw new ProtocolError(
+        'E_SIZE',
+        `welcome.assignments: ${message.assignments.length} clients for a capacity of ${this.options.capacity}`,
+      );
     const wall = plan.scenario.timing.clock === 'wall';
     this.hosting = {
       plan,
@@ -245,13 +280,18 @@ export class Worker {
       exchanges: methodByName(plan.scenario.method.name).exchanges,
       host: new ClientHost(plan, message.assignments, { threadsMax: this.options.capacity }),
       link: new LinkShaper(plan.scenario.timing.links, wall),
-      pacer: new ComputePacer(speedModelFor(plan.scenario.timing, plan.scenario.clients.count, plan.scenario.seed), wall),
+      pacer: new ComputePacer(
+        speedModelFor(plan.scenario.timing, plan.scenario.clients.count, plan.scenario.seed),
+        wall,
+      ),
       limits: message.limits,
       resumeToken: message.resumeToken ?? null,
     };
     this.phase = 'active';
     this.options.metrics?.hosting(message.assignments.length);
-    this.options.log(`hosting clients ${message.assignments.join(', ')} of "${plan.scenario.name}" (${plan.scenario.method.name})`);
+    this.options.log(
+      `hosting clients ${message.assignments.join(', ')} of "${plan.scenario.name}" (${plan.scenario.method.name})`,
+    );
     this.startHeartbeats(message.limits);
   }
 
@@ -264,8 +304,14 @@ export class Worker {
    */
   private resumed(hosting: Hosting, message: WelcomeMessage): void {
     const ids = [...hosting.clientIds].sort((a, b) => a - b);
-    if (message.assignments.length !== ids.length || message.assignments.some((id, i) => id !== ids[i])) {
-      throw new ProtocolError('E_CLIENT', `welcome.assignments: resumed with clients ${message.assignments.join(', ')}, hosting ${ids.join(', ')}`);
+    if (
+      message.assignments.length !== ids.length ||
+      message.assignments.some((id, i) => id !== ids[i])
+    ) {
+      throw new ProtocolError(
+        'E_CLIENT',
+        `welcome.assignments: resumed with clients ${message.assignments.join(', ')}, hosting ${ids.join(', ')}`,
+      );
     }
     hosting.limits = message.limits;
     hosting.resumeToken = message.resumeToken ?? null;
@@ -280,7 +326,9 @@ export class Worker {
     this.stopHeartbeats();
     this.heartbeatTimer = setInterval(() => {
       if (performance.now() - this.lastHeardMs > limits.heartbeatSilenceSeconds * 1000) {
-        this.options.log(`the coordinator was silent for more than ${limits.heartbeatSilenceSeconds} s; dropping the connection`);
+        this.options.log(
+          `the coordinator was silent for more than ${limits.heartbeatSilenceSeconds} s; dropping the connection`,
+        );
         // Handled as any drop: resumed if the coordinator lets workers resume, else the end.
         this.stopHeartbeats();
         this.ws?.terminate();
@@ -294,24 +342,50 @@ export class Worker {
   private down(message: DownMessage): void {
     const hosting = this.hosting!;
     if (!hosting.exchanges.includes(message.exchange)) {
-      throw new ProtocolError('E_ROUND', `down.exchange: "${message.exchange}" is not an exchange of ${hosting.plan.scenario.method.name}`);
+      throw new ProtocolError(
+        'E_ROUND',
+        `down.exchange: "${message.exchange}" is not an exchange of ${hosting.plan.scenario.method.name}`,
+      );
     }
     const encodedDown: EncodedFields = {};
     for (const [name, wv] of Object.entries(message.fields)) {
-      if (wv.dim !== hosting.plan.dim) throw new ProtocolError('E_DIMENSION', `down.fields.${name}.dim: the plan says ${hosting.plan.dim}, got ${wv.dim}`);
+      if (wv.dim !== hosting.plan.dim)
+        throw new ProtocolError(
+          'E_DIMENSION',
+          `down.fields.${name}.dim: the plan says ${hosting.plan.dim}, got ${wv.dim}`,
+        );
       encodedDown[name] = fromWire(wv, `down.fields.${name}`);
     }
     this.newestDownOf.set(message.clientId, message);
-    void this.answer(hosting, message, encodedDown).catch((error: Error) => this.reportFailure(message, error));
+    void this.answer(hosting, message, encodedDown).catch((error: Error) =>
+      this.reportFailure(message, error),
+    );
   }
 
-  private async answer(hosting: Hosting, message: DownMessage, encodedDown: EncodedFields): Promise<void> {
+  private async answer(
+    hosting: Hosting,
+    message: DownMessage,
+    encodedDown: EncodedFields,
+  ): Promise<void> {
     const { clientId, round, exchange } = message;
     const downSeconds = await hosting.link.received(fieldsPayloadBytes(encodedDown));
-    const result = await hosting.host.work({ clientId, round, exchange, encodedDown, localSteps: message.localSteps, stepSize: message.stepSize });
-    const computeSeconds = await hosting.pacer.pace(clientId, round, result.stepsTaken, result.measuredSeconds);
+    const result = await hosting.host.work({
+      clientId,
+      round,
+      exchange,
+      encodedDown,
+      localSteps: message.localSteps,
+      stepSize: message.stepSize,
+    });
+    const computeSeconds = await hosting.pacer.pace(
+      clientId,
+      round,
+      result.stepsTaken,
+      result.measuredSeconds,
+    );
     const fields: WireFields = {};
-    for (const [name, cv] of Object.entries(result.encodedUp)) fields[name] = toWire(cv, `up.fields.${name}`);
+    for (const [name, cv] of Object.entries(result.encodedUp))
+      fields[name] = toWire(cv, `up.fields.${name}`);
     const upSeconds = await hosting.link.beforeSend(fieldsPayloadBytes(result.encodedUp));
     this.options.metrics?.clientWorked(clientId, computeSeconds, result.stepsTaken);
     this.options.metrics?.linkDelay('down', downSeconds);
@@ -336,9 +410,25 @@ export class Worker {
    * stops the run there as it does in the engine.
    */
   private reportFailure(message: DownMessage, error: Error): void {
-    const code = error instanceof ProtocolError ? error.code : isNonFiniteError(error) ? 'E_NOT_FINITE' : 'E_TYPE';
-    const limit = this.hosting?.limits.maxErrorMessageLength ?? HANDSHAKE_LIMITS.maxErrorMessageLength;
-    this.options.log(`client ${message.clientId}, round ${message.round} (${message.exchange}) failed: ${error.message}`);
-    this.send({ type: 'error', code, message: `client ${message.clientId}, round ${message.round}, exchange ${message.exchange}: ${error.message}`.slice(0, limit) });
+    const code =
+      error instanceof ProtocolError
+        ? error.code
+        : isNonFiniteError(error)
+          ? 'E_NOT_FINITE'
+          : 'E_TYPE';
+    const limit =
+      this.hosting?.limits.maxErrorMessageLength ?? HANDSHAKE_LIMITS.maxErrorMessageLength;
+    this.options.log(
+      `client ${message.clientId}, round ${message.round} (${message.exchange}) failed: ${error.message}`,
+    );
+    this.send({
+      type: 'error',
+      code,
+      message:
+        `client ${message.clientId}, round ${message.round}, exchange ${message.exchange}: ${error.message}`.slice(
+          0,
+          limit,
+        ),
+    });
   }
 }

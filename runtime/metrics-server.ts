@@ -26,7 +26,9 @@ const CONNECTIONS_MAX = 16;
 export function parseMetricsAddress(text: string): MetricsAddress {
   const address = parseHostPort(text, METRICS_HOST_DEFAULT);
   if (address === null) {
-    throw new MetricsOptionError(`--metrics: expected HOST:PORT or PORT (e.g. 127.0.0.1:9464, port 0: any free port), got "${text}"`);
+    throw new MetricsOptionError(
+      `--metrics: expected HOST:PORT or PORT (e.g. 127.0.0.1:9464, port 0: any free port), got "${text}"`,
+    );
   }
   return address;
 }
@@ -47,15 +49,23 @@ function logToStderr(line: string): void {
 }
 
 /** Serves `registry` at /metrics on `address`; resolves once listening, rejects with a ListenError when the address cannot be had. */
-export function startMetricsServer(registry: Registry, address: MetricsAddress, log: (line: string) => void = logToStderr): Promise<MetricsServer> {
+export function startMetricsServer(
+  registry: Registry,
+  address: MetricsAddress,
+  log: (line: string) => void = logToStderr,
+): Promise<MetricsServer> {
   const server: Server = createServer((request, response) => {
     const path = (request.url ?? '').split('?')[0];
     if (path !== METRICS_PATH) {
-      response.writeHead(404, { 'content-type': 'text/plain; charset=utf-8' }).end(`not found; metrics are at ${METRICS_PATH}\n`);
+      response
+        .writeHead(404, { 'content-type': 'text/plain; charset=utf-8' })
+        .end(`not found; metrics are at ${METRICS_PATH}\n`);
       return;
     }
     if (request.method !== 'GET' && request.method !== 'HEAD') {
-      response.writeHead(405, { allow: 'GET, HEAD', 'content-type': 'text/plain; charset=utf-8' }).end('method not allowed\n');
+      response
+        .writeHead(405, { allow: 'GET, HEAD', 'content-type': 'text/plain; charset=utf-8' })
+        .end('method not allowed\n');
       return;
     }
     registry.metrics().then(
@@ -64,7 +74,9 @@ export function startMetricsServer(registry: Registry, address: MetricsAddress, 
         response.end(request.method === 'HEAD' ? undefined : text);
       },
       (error: Error) => {
-        response.writeHead(500, { 'content-type': 'text/plain; charset=utf-8' }).end(`metrics failed: ${error.message}\n`);
+        response
+          .writeHead(500, { 'content-type': 'text/plain; charset=utf-8' })
+          .end(`metrics failed: ${error.message}\n`);
       },
     );
   });
@@ -107,6 +119,8 @@ export function lingerFor(seconds: number): { done: Promise<void>; cut: () => vo
 
 /** The line a command prints once the endpoint listens. */
 export function metricsListeningLine(server: MetricsServer, address: MetricsAddress): string {
-  const exposure = isLoopbackHost(address.host) ? '' : ' (not loopback: anyone who can reach this address can read them)';
+  const exposure = isLoopbackHost(address.host)
+    ? ''
+    : ' (not loopback: anyone who can reach this address can read them)';
   return `metrics on ${server.url}${exposure}\n`;
 }

@@ -24,11 +24,23 @@ function zeroLayers(): LayerBytes {
 export class ByteLedger {
   private readonly byClient = new Map<number, { up: LayerBytes; down: LayerBytes }>();
   /** payload bytes by direction and field name */
-  private readonly byField: Record<Direction, Map<string, number>> = { up: new Map(), down: new Map() };
-  private readonly control: Record<Direction, { encoded: number; wire: number }> = { up: { encoded: 0, wire: 0 }, down: { encoded: 0, wire: 0 } };
+  private readonly byField: Record<Direction, Map<string, number>> = {
+    up: new Map(),
+    down: new Map(),
+  };
+  private readonly control: Record<Direction, { encoded: number; wire: number }> = {
+    up: { encoded: 0, wire: 0 },
+    down: { encoded: 0, wire: 0 },
+  };
 
   /** One down or up message of a client. */
-  recordRoundMessage(direction: Direction, clientId: number, fieldPayloadBytes: Readonly<Record<string, number>>, encodedBytes: number, wireBytes: number): void {
+  recordRoundMessage(
+    direction: Direction,
+    clientId: number,
+    fieldPayloadBytes: Readonly<Record<string, number>>,
+    encodedBytes: number,
+    wireBytes: number,
+  ): void {
     let entry = this.byClient.get(clientId);
     if (entry === undefined) {
       entry = { up: zeroLayers(), down: zeroLayers() };
@@ -51,7 +63,11 @@ export class ByteLedger {
 
   /** Round traffic totals by layer and direction. */
   roundTotals(): Record<keyof LayerBytes, DirectionBytes> {
-    const out = { payload: { up: 0, down: 0 }, encoded: { up: 0, down: 0 }, wire: { up: 0, down: 0 } };
+    const out = {
+      payload: { up: 0, down: 0 },
+      encoded: { up: 0, down: 0 },
+      wire: { up: 0, down: 0 },
+    };
     for (const entry of this.byClient.values()) {
       for (const direction of ['up', 'down'] as const) {
         out.payload[direction] += entry[direction].payload;
@@ -77,7 +93,8 @@ export class ByteLedger {
   /** Layers by client id, per direction. */
   clientTotals(): Record<string, { up: LayerBytes; down: LayerBytes }> {
     const out: Record<string, { up: LayerBytes; down: LayerBytes }> = {};
-    for (const [id, entry] of [...this.byClient].sort((a, b) => a[0] - b[0])) out[String(id)] = { up: { ...entry.up }, down: { ...entry.down } };
+    for (const [id, entry] of [...this.byClient].sort((a, b) => a[0] - b[0]))
+      out[String(id)] = { up: { ...entry.up }, down: { ...entry.down } };
     return out;
   }
 }

@@ -109,7 +109,9 @@ export class Coordinator {
     this.options = options;
     this.resumeGraceSeconds = options.resumeGraceSeconds ?? DEFAULT_RESUME_GRACE_SECONDS;
     if (!(this.resumeGraceSeconds >= 0) || !Number.isFinite(this.resumeGraceSeconds)) {
-      throw new RangeError(`resumeGraceSeconds: finite seconds, at least 0, expected; got ${this.resumeGraceSeconds}`);
+      throw new RangeError(
+        `resumeGraceSeconds: finite seconds, at least 0, expected; got ${this.resumeGraceSeconds}`,
+      );
     }
     const { plan, theory } = planFor(scenario);
     this.plan = plan;
@@ -126,7 +128,9 @@ export class Coordinator {
     this.metrics = new CoordinatorMetrics({
       ledger: this.ledger,
       currentRound: () => this.driver.round,
-      connectedWorkers: () => this.sessions.filter((s) => (s.state === 'joined' || s.state === 'active') && s.isOpen()).length,
+      connectedWorkers: () =>
+        this.sessions.filter((s) => (s.state === 'joined' || s.state === 'active') && s.isOpen())
+          .length,
       lostWorkers: () => this.registry.lost.length,
       protocolErrors: () => this.errors.snapshot(),
       clientCount: plan.clientCount,
@@ -146,12 +150,17 @@ export class Coordinator {
       onRound: options.onRound,
       onRoundRecords: (record, clients) => this.metrics.roundRecorded(record, clients),
     });
-    const heartbeat = options.heartbeat ?? { intervalSeconds: HANDSHAKE_LIMITS.heartbeatIntervalSeconds, silenceSeconds: HANDSHAKE_LIMITS.heartbeatSilenceSeconds };
+    const heartbeat = options.heartbeat ?? {
+      intervalSeconds: HANDSHAKE_LIMITS.heartbeatIntervalSeconds,
+      silenceSeconds: HANDSHAKE_LIMITS.heartbeatSilenceSeconds,
+    };
     this.liveness = new Liveness({
       ...heartbeat,
       sessions: () => this.registry.activeSessions(),
-      sendHeartbeat: (session) => this.sendControl(session, { type: 'heartbeat', sentAtMs: Date.now() }),
-      onSilent: (session) => this.loseWorker(session, `silent for more than ${heartbeat.silenceSeconds} s`),
+      sendHeartbeat: (session) =>
+        this.sendControl(session, { type: 'heartbeat', sentAtMs: Date.now() }),
+      onSilent: (session) =>
+        this.loseWorker(session, `silent for more than ${heartbeat.silenceSeconds} s`),
       nowMs,
     });
   }
@@ -176,8 +185,17 @@ export class Coordinator {
   private limitsFor(clientsPerWorker: number): ProtocolLimits {
     const heartbeat = this.options.heartbeat;
     return {
-      ...limitsForPlan({ downFieldDims: this.shapes.down, upFieldDims: this.shapes.up, clientsPerWorker }),
-      ...(heartbeat ? { heartbeatIntervalSeconds: heartbeat.intervalSeconds, heartbeatSilenceSeconds: heartbeat.silenceSeconds } : {}),
+      ...limitsForPlan({
+        downFieldDims: this.shapes.down,
+        upFieldDims: this.shapes.up,
+        clientsPerWorker,
+      }),
+      ...(heartbeat
+        ? {
+            heartbeatIntervalSeconds: heartbeat.intervalSeconds,
+            heartbeatSilenceSeconds: heartbeat.silenceSeconds,
+          }
+        : {}),
     };
   }
 
@@ -187,10 +205,22 @@ export class Coordinator {
   }
 
   private async accept(ws: WebSocket, socket: Socket): Promise<void> {
-    const session = new WorkerSession(this.nextSessionId++, ws, socket, performance.now(), (bad, failure) => this.frameFailed(bad, failure));
+    const session = new WorkerSession(
+      this.nextSessionId++,
+      ws,
+      socket,
+      performance.now(),
+      (bad, failure) => this.frameFailed(bad, failure),
+    );
     this.sessions.push(session);
     session.onClose(() => this.closed(session));
-    const hello = await awaitHello(session, { key: this.options.key, timeoutSeconds: this.options.handshakeTimeoutSeconds, ledger: this.ledger, errors: this.errors, log: this.options.log });
+    const hello = await awaitHello(session, {
+      key: this.options.key,
+      timeoutSeconds: this.options.handshakeTimeoutSeconds,
+      ledger: this.ledger,
+      errors: this.errors,
+      log: this.options.log,
+    });
     if (hello === null) return;
     if (hello.resume !== undefined) {
       this.resume(session, hello.resume);
@@ -199,20 +229,28 @@ export class Coordinator {
     session.workerName = hello.workerName;
     session.capacity = hello.capacity;
     if (this.stopRequested || !this.registry.join(session)) {
-      this.sendControl(session, { type: 'error', code: 'E_CLIENT', message: 'the run has no clients left to host' });
+      this.sendControl(session, {
+        type: 'error',
+        code: 'E_CLIENT',
+        message: 'the run has no clients left to host',
+      });
       session.moveTo('refused');
       session.close(CLOSE_POLICY_VIOLATION, 'no clients left');
       return;
     }
     session.onFrame((frame, wireBytes) => this.receive(session, frame, wireBytes));
-    this.options.log(`${session.label()} joined with capacity ${hello.capacity} (${this.registry.workersJoined()} workers, capacity ${this.registry.capacityJoined()} for ${this.plan.clientCount} clients)`);
+    this.options.log(
+      `${session.label()} joined with capacity ${hello.capacity} (${this.registry.workersJoined()} workers, capacity ${this.registry.capacityJoined()} for ${this.plan.clientCount} clients)`,
+    );
     this.joinChanged();
   }
 
   /** A malformed frame cost `session` its connection; its close handler does the rest. */
   private frameFailed(session: WorkerSession, failure: FrameFailure): void {
     this.errors.countFrame(failure.reason);
-    this.options.log(`${session.label()} closed with code ${failure.closeCode} (${failure.reason}): ${failure.detail}`);
+    this.options.log(
+      `${session.label()} closed with code ${failure.closeCode} (${failure.reason}): ${failure.detail}`,
+    );
   }
 
   private receive(session: WorkerSession, frame: Uint8Array, wireBytes: number): void {
@@ -220,7 +258,8 @@ export class Coordinator {
     const active = session.state === 'active';
     const limits = this.limitsOf.get(session) ?? HANDSHAKE_LIMITS;
     try {
-      const expectation = this.plan.scenario.timing.clock === 'virtual' ? this.driver.expectation() : null;
+      const expectation =
+        this.plan.scenario.timing.clock === 'virtual' ? this.driver.expectation() : null;
       const message = receiveMessage(frame, {
         limits,
         expectedTypes: active ? ['up', 'heartbeat', 'error'] : ['heartbeat', 'error'],
@@ -244,7 +283,11 @@ export class Coordinator {
       if (!(error instanceof ProtocolError)) throw error;
       this.ledger.recordControlMessage('up', frame.byteLength, wireBytes);
       this.errors.countReceived(error.code);
-      this.sendControl(session, { type: 'error', code: error.code, message: error.message.slice(0, limits.maxErrorMessageLength) });
+      this.sendControl(session, {
+        type: 'error',
+        code: error.code,
+        message: error.message.slice(0, limits.maxErrorMessageLength),
+      });
     }
   }
 
@@ -266,9 +309,18 @@ export class Coordinator {
   private disconnect(session: WorkerSession): void {
     const clientIds = this.registry.markDisconnected(session);
     if (clientIds.length === 0) return;
-    this.options.log(`${session.label()} disconnected in round ${this.driver.round}; clients ${clientIds.join(', ')} sit out until it resumes (grace ${this.resumeGraceSeconds} s)`);
+    this.options.log(
+      `${session.label()} disconnected in round ${this.driver.round}; clients ${clientIds.join(', ')} sit out until it resumes (grace ${this.resumeGraceSeconds} s)`,
+    );
     this.driver.clientsLost(clientIds);
-    const timer = setTimeout(() => this.loseWorker(session, `connection closed, no resume within ${this.resumeGraceSeconds} s`), this.resumeGraceSeconds * 1000);
+    const timer = setTimeout(
+      () =>
+        this.loseWorker(
+          session,
+          `connection closed, no resume within ${this.resumeGraceSeconds} s`,
+        ),
+      this.resumeGraceSeconds * 1000,
+    );
     timer.unref();
     this.graceTimers.set(session, timer);
   }
@@ -278,8 +330,15 @@ export class Coordinator {
     const resumed = this.runEnded ? null : this.registry.resume(resumeToken, session);
     if (resumed === null) {
       this.errors.countReceived('E_AUTH');
-      this.options.log(`${session.label()} refused (E_AUTH): its resume token names no session waiting to resume`);
-      this.sendControl(session, { type: 'error', code: 'E_AUTH', message: 'hello.resume: names no session waiting to resume (an unknown resume token, or its grace has passed)' });
+      this.options.log(
+        `${session.label()} refused (E_AUTH): its resume token names no session waiting to resume`,
+      );
+      this.sendControl(session, {
+        type: 'error',
+        code: 'E_AUTH',
+        message:
+          'hello.resume: names no session waiting to resume (an unknown resume token, or its grace has passed)',
+      });
       session.moveTo('refused');
       session.close(CLOSE_POLICY_VIOLATION, 'E_AUTH');
       return;
@@ -297,8 +356,16 @@ export class Coordinator {
     }
     this.driver.clientsResumed(clientIds);
     session.onFrame((frame, wireBytes) => this.receive(session, frame, wireBytes));
-    this.sendControl(session, { type: 'welcome', assignments: clientIds, plan: this.wirePlan(), limits, resumeToken: session.resumeToken! });
-    this.options.log(`${session.label()} resumed in round ${this.driver.round}; clients ${clientIds.join(', ')} take part again from the next exchange`);
+    this.sendControl(session, {
+      type: 'welcome',
+      assignments: clientIds,
+      plan: this.wirePlan(),
+      limits,
+      resumeToken: session.resumeToken!,
+    });
+    this.options.log(
+      `${session.label()} resumed in round ${this.driver.round}; clients ${clientIds.join(', ')} take part again from the next exchange`,
+    );
     this.presenceChanged();
   }
 
@@ -307,7 +374,9 @@ export class Coordinator {
     this.graceTimers.delete(session);
     const clientIds = this.registry.markLost(session, this.driver.round, reason);
     if (clientIds.length === 0) return;
-    this.options.log(`${session.label()} lost in round ${this.driver.round} (${reason}); clients ${clientIds.join(', ')} leave the run`);
+    this.options.log(
+      `${session.label()} lost in round ${this.driver.round} (${reason}); clients ${clientIds.join(', ')} leave the run`,
+    );
     session.terminate();
     this.driver.clientsLost(clientIds);
     this.presenceChanged();
@@ -315,7 +384,11 @@ export class Coordinator {
 
   /** Resolves once a worker is connected, none is away, or the run is stopping. */
   private async untilConnected(): Promise<void> {
-    while (!this.stopRequested && this.registry.activeSessions().length === 0 && this.registry.disconnectedSessions().length > 0) {
+    while (
+      !this.stopRequested &&
+      this.registry.activeSessions().length === 0 &&
+      this.registry.disconnectedSessions().length > 0
+    ) {
       await new Promise<void>((resolve) => (this.presenceChanged = resolve));
       this.presenceChanged = () => undefined;
     }
@@ -325,7 +398,12 @@ export class Coordinator {
     return new Promise((resolve, reject) => {
       const timer = setTimeout(() => {
         this.joinChanged = () => undefined;
-        reject(new RuntimeError('E_NOT_ENOUGH_WORKERS', `after ${this.options.joinTimeoutSeconds} s, ${this.registry.workersJoined()} workers with capacity ${this.registry.capacityJoined()} joined; ${this.plan.clientCount} clients need hosts (at least ${this.options.workersMin} workers)`));
+        reject(
+          new RuntimeError(
+            'E_NOT_ENOUGH_WORKERS',
+            `after ${this.options.joinTimeoutSeconds} s, ${this.registry.workersJoined()} workers with capacity ${this.registry.capacityJoined()} joined; ${this.plan.clientCount} clients need hosts (at least ${this.options.workersMin} workers)`,
+          ),
+        );
       }, this.options.joinTimeoutSeconds * 1000);
       this.joinChanged = () => {
         if (this.stopRequested) {
@@ -342,7 +420,11 @@ export class Coordinator {
   }
 
   private wirePlan(): WirePlan {
-    return { scenario: this.plan.scenario, methodConfig: this.plan.methodConfig, dim: this.plan.dim };
+    return {
+      scenario: this.plan.scenario,
+      methodConfig: this.plan.methodConfig,
+      dim: this.plan.dim,
+    };
   }
 
   private welcomeAll(): void {
@@ -351,8 +433,15 @@ export class Coordinator {
       const limits = this.limitsFor(Math.max(1, clientIds.length));
       this.limitsOf.set(session, limits);
       // Authentication only, like the challenge nonce: no result depends on it.
-      session.resumeToken = this.resumeGraceSeconds > 0 ? new Uint8Array(randomBytes(RESUME_TOKEN_BYTES)) : null;
-      this.sendControl(session, { type: 'welcome', assignments: clientIds, plan: wire, limits, ...(session.resumeToken === null ? {} : { resumeToken: session.resumeToken }) });
+      session.resumeToken =
+        this.resumeGraceSeconds > 0 ? new Uint8Array(randomBytes(RESUME_TOKEN_BYTES)) : null;
+      this.sendControl(session, {
+        type: 'welcome',
+        assignments: clientIds,
+        plan: wire,
+        limits,
+        ...(session.resumeToken === null ? {} : { resumeToken: session.resumeToken }),
+      });
       this.options.log(`${session.label()} hosts clients ${clientIds.join(', ')}`);
     }
   }
@@ -370,9 +459,11 @@ export class Coordinator {
     this.liveness.stop();
     this.runEnded = true;
     // A worker still away when the run ends never came back: its clients left the run.
-    for (const session of this.registry.disconnectedSessions()) this.loseWorker(session, 'connection closed, not resumed before the run ended');
+    for (const session of this.registry.disconnectedSessions())
+      this.loseWorker(session, 'connection closed, not resumed before the run ended');
     const reason = DONE_REASON_OF[result.stopReason];
-    for (const session of this.registry.activeSessions()) this.sendControl(session, { type: 'done', reason });
+    for (const session of this.registry.activeSessions())
+      this.sendControl(session, { type: 'done', reason });
     const socketBytes = { up: 0, down: 0 };
     for (const session of this.sessions) {
       const totals = session.wireTotals();
@@ -398,7 +489,10 @@ export class Coordinator {
       controlBytes: this.ledger.controlTotals(),
       socketBytes,
       payloadBytesByField: this.ledger.payloadByField(),
-      workers: this.registry.sessions().map((s) => ({ workerName: s.workerName, clientIds: [...s.clientIds].sort((a, b) => a - b) })),
+      workers: this.registry.sessions().map((s) => ({
+        workerName: s.workerName,
+        clientIds: [...s.clientIds].sort((a, b) => a - b),
+      })),
       lostWorkers: [...this.registry.lost],
       protocolErrors: this.errors.snapshot(),
     };

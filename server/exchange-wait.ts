@@ -43,7 +43,14 @@ export class ExchangeWait {
   private resolveDone: () => void = () => undefined;
   readonly done: Promise<void>;
 
-  constructor(round: number, exchange: string, expected: readonly number[], rule: CloseRule, timeoutSeconds: number, now: () => number) {
+  constructor(
+    round: number,
+    exchange: string,
+    expected: readonly number[],
+    rule: CloseRule,
+    timeoutSeconds: number,
+    now: () => number,
+  ) {
     this.round = round;
     this.exchange = exchange;
     this.expected = new Set(expected);
@@ -53,13 +60,18 @@ export class ExchangeWait {
       this.resolveDone = resolve;
     });
     this.timers.push(setTimeout(() => this.close('timeout'), timeoutSeconds * 1000));
-    if (rule.kind === 'until') this.timers.push(setTimeout(() => this.close('deadline'), Math.max(0, rule.closeAtMs - now())));
+    if (rule.kind === 'until')
+      this.timers.push(
+        setTimeout(() => this.close('deadline'), Math.max(0, rule.closeAtMs - now())),
+      );
     this.check();
   }
 
   /** Clients still owing an up (neither arrived nor lost). */
   pending(): number[] {
-    return [...this.expected].filter((id) => !this.arrivals.has(id) && !this.lostClientIds.has(id)).sort((a, b) => a - b);
+    return [...this.expected]
+      .filter((id) => !this.arrivals.has(id) && !this.lostClientIds.has(id))
+      .sort((a, b) => a - b);
   }
 
   deliver(clientId: number, arrival: Arrival): void {

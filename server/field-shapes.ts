@@ -46,7 +46,11 @@ class ShapeProbe extends DirectTransport {
 export function fieldShapesFor(plan: RunPlan, objective: Objective): FieldShapes {
   const ideal = idealPlan(plan);
   // One step under a policy that keeps it: the probe's cost stays that of one gradient.
-  const probePlan: RunPlan = { ...ideal, scenario: { ...ideal.scenario, timing: { ...ideal.scenario.timing, policy: { kind: 'all' } } }, plannedSteps: new Int32Array(plan.clientCount).fill(1) };
+  const probePlan: RunPlan = {
+    ...ideal,
+    scenario: { ...ideal.scenario, timing: { ...ideal.scenario.timing, policy: { kind: 'all' } } },
+    plannedSteps: new Int32Array(plan.clientCount).fill(1),
+  };
   const probe = new ShapeProbe([new ClientRuntime(probePlan, 0, objective)]);
   driveSync(walkRound(walkSetup(probePlan, new ServerRuntime(probePlan)), 1), probe);
   return { down: probe.down, up: probe.up };

@@ -25,7 +25,10 @@ export interface HandshakeDeps {
 }
 
 /** Resolves to the worker's hello, or null when it was refused, fell silent or went away. */
-export function awaitHello(session: WorkerSession, deps: HandshakeDeps): Promise<HelloMessage | null> {
+export function awaitHello(
+  session: WorkerSession,
+  deps: HandshakeDeps,
+): Promise<HelloMessage | null> {
   return new Promise((resolve) => {
     const nonce = createChallengeNonce();
     let settled = false;
@@ -39,7 +42,11 @@ export function awaitHello(session: WorkerSession, deps: HandshakeDeps): Promise
     const refuse = (error: ProtocolError): void => {
       deps.errors.countReceived(error.code);
       deps.log(`${session.label()} refused (${error.code}): ${error.message}`);
-      const sent = session.send({ type: 'error', code: error.code, message: error.message.slice(0, HANDSHAKE_LIMITS.maxErrorMessageLength) });
+      const sent = session.send({
+        type: 'error',
+        code: error.code,
+        message: error.message.slice(0, HANDSHAKE_LIMITS.maxErrorMessageLength),
+      });
       deps.ledger.recordControlMessage('down', sent.encodedBytes, sent.wireBytes);
       session.moveTo('refused');
       session.close(CLOSE_POLICY_VIOLATION, error.code);

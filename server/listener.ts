@@ -36,9 +36,15 @@ export interface Listener {
   close(): Promise<void>;
 }
 
-export async function startListener(options: ListenerOptions, onConnection: (ws: WebSocket, socket: Socket) => void): Promise<Listener> {
+export async function startListener(
+  options: ListenerOptions,
+  onConnection: (ws: WebSocket, socket: Socket) => void,
+): Promise<Listener> {
   const http: HttpServer = options.tls
-    ? createHttpsServer({ cert: readFileSync(options.tls.certFile), key: readFileSync(options.tls.keyFile) })
+    ? createHttpsServer({
+        cert: readFileSync(options.tls.certFile),
+        key: readFileSync(options.tls.keyFile),
+      })
     : createHttpServer();
   http.maxConnections = options.connectionsMax;
   // Listen before ws attaches: ws re-emits the server's errors on itself, so a busy port would
@@ -60,9 +66,12 @@ export async function startListener(options: ListenerOptions, onConnection: (ws:
   // ws re-emits the HTTP server's errors, and an 'error' with no listener ends the process. Once
   // listening, a server error (say, no file descriptor left to accept a connection with, which
   // enough peers can cause) costs that connection only.
-  wss.on('error', (error) => options.log(`the listener failed to accept a connection: ${error.message}`));
+  wss.on('error', (error) =>
+    options.log(`the listener failed to accept a connection: ${error.message}`),
+  );
   const address = http.address();
-  if (address === null || typeof address === 'string') throw new Error('the listener has no TCP address');
+  if (address === null || typeof address === 'string')
+    throw new Error('the listener has no TCP address');
   const hostForUrl = address.family === 'IPv6' ? `[${address.address}]` : address.address;
   return {
     url: `${options.tls ? 'wss' : 'ws'}://${hostForUrl}:${address.port}`,

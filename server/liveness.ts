@@ -40,7 +40,8 @@ export class Liveness {
   private beat(): void {
     const now = this.options.nowMs();
     for (const session of this.options.sessions()) {
-      if (now - Math.max(session.lastHeardMs, this.startedMs) > this.options.silenceSeconds * 1000) this.options.onSilent(session);
+      if (now - Math.max(session.lastHeardMs, this.startedMs) > this.options.silenceSeconds * 1000)
+        this.options.onSilent(session);
       else this.options.sendHeartbeat(session);
     }
   }

@@ -41,16 +41,31 @@ export class LocalWorker {
 
   constructor(spec: LocalWorkerSpec) {
     this.spec = spec;
-    this.child = spawn(process.execPath, [binPath(), 'worker', spec.url, '--key-file', spec.keyFile, '--capacity', String(spec.capacity), '--name', spec.workerName], {
-      stdio: ['ignore', 'ignore', 'pipe'],
-    });
+    this.child = spawn(
+      process.execPath,
+      [
+        binPath(),
+        'worker',
+        spec.url,
+        '--key-file',
+        spec.keyFile,
+        '--capacity',
+        String(spec.capacity),
+        '--name',
+        spec.workerName,
+      ],
+      {
+        stdio: ['ignore', 'ignore', 'pipe'],
+      },
+    );
     let partial = '';
     this.child.stderr!.setEncoding('utf8');
     this.child.stderr!.on('data', (text: string) => {
       const lines = (partial + text).split('\n');
       partial = lines.pop() ?? '';
       this.stderrLines.push(...lines);
-      if (this.stderrLines.length > STDERR_LINES_KEPT) this.stderrLines.splice(0, this.stderrLines.length - STDERR_LINES_KEPT);
+      if (this.stderrLines.length > STDERR_LINES_KEPT)
+        this.stderrLines.splice(0, this.stderrLines.length - STDERR_LINES_KEPT);
     });
     this.exited = new Promise((resolve) => {
       this.child.once('exit', (code) => {

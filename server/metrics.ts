@@ -34,7 +34,9 @@ export interface CoordinatorMetricsSources {
 }
 
 /** Round durations from a millisecond (a virtual round of a small problem) to five minutes. */
-export const ROUND_DURATION_BUCKETS_SECONDS = [0.001, 0.0025, 0.005, 0.01, 0.025, 0.05, 0.1, 0.25, 0.5, 1, 2.5, 5, 10, 30, 60, 120, 300];
+export const ROUND_DURATION_BUCKETS_SECONDS = [
+  0.001, 0.0025, 0.005, 0.01, 0.025, 0.05, 0.1, 0.25, 0.5, 1, 2.5, 5, 10, 30, 60, 120, 300,
+];
 
 const LAYERS = ['payload', 'encoded', 'wire'] as const;
 const DIRECTIONS = ['up', 'down'] as const;
@@ -66,8 +68,17 @@ export class CoordinatorMetrics {
     const predictedRate = () => this.predictedRate();
     const measuredRate = () => this.measuredRate();
     // An info series (value 1): queries join it on the target to label and colour series by method.
-    new Gauge({ name: 'roundwire_run_info', help: "Always 1; the method label names the run's method.", labelNames: ['method'], registers }).set({ method: sources.method }, 1);
-    this.roundsCompleted = new Counter({ name: 'roundwire_rounds_completed_total', help: 'Rounds completed.', registers });
+    new Gauge({
+      name: 'roundwire_run_info',
+      help: "Always 1; the method label names the run's method.",
+      labelNames: ['method'],
+      registers,
+    }).set({ method: sources.method }, 1);
+    this.roundsCompleted = new Counter({
+      name: 'roundwire_rounds_completed_total',
+      help: 'Rounds completed.',
+      registers,
+    });
     new Gauge({
       name: 'roundwire_round_current',
       help: 'The round in progress (0 before the first).',
@@ -76,9 +87,21 @@ export class CoordinatorMetrics {
         this.set(sources.currentRound());
       },
     });
-    this.suboptimality = new Gauge({ name: 'roundwire_suboptimality', help: 'f(x) - f* at the last evaluated round.', registers });
-    this.suboptimalityInitial = new Gauge({ name: 'roundwire_suboptimality_initial', help: 'f(x0) - f* of the initial model.', registers });
-    this.distance = new Gauge({ name: 'roundwire_distance_to_optimum', help: '||x - x*|| at the last evaluated round.', registers });
+    this.suboptimality = new Gauge({
+      name: 'roundwire_suboptimality',
+      help: 'f(x) - f* at the last evaluated round.',
+      registers,
+    });
+    this.suboptimalityInitial = new Gauge({
+      name: 'roundwire_suboptimality_initial',
+      help: 'f(x0) - f* of the initial model.',
+      registers,
+    });
+    this.distance = new Gauge({
+      name: 'roundwire_distance_to_optimum',
+      help: '||x - x*|| at the last evaluated round.',
+      registers,
+    });
     new Gauge({
       name: 'roundwire_rate_predicted',
       help: "The theory's per-round contraction of f - f* (NaN where it predicts none).",
@@ -104,7 +127,9 @@ export class CoordinatorMetrics {
         this.reset();
         for (const [id, entry] of Object.entries(sources.ledger.clientTotals())) {
           const client = clientLabel(Number(id));
-          for (const direction of DIRECTIONS) for (const layer of LAYERS) this.inc({ direction, layer, client }, entry[direction][layer]);
+          for (const direction of DIRECTIONS)
+            for (const layer of LAYERS)
+              this.inc({ direction, layer, client }, entry[direction][layer]);
         }
       },
     });
@@ -116,7 +141,9 @@ export class CoordinatorMetrics {
       collect() {
         this.reset();
         const control = sources.ledger.controlTotals();
-        for (const direction of DIRECTIONS) for (const layer of ['encoded', 'wire'] as const) this.inc({ direction, layer }, control[layer][direction]);
+        for (const direction of DIRECTIONS)
+          for (const layer of ['encoded', 'wire'] as const)
+            this.inc({ direction, layer }, control[layer][direction]);
       },
     });
     this.roundDuration = new Histogram({
@@ -126,10 +153,30 @@ export class CoordinatorMetrics {
       buckets: ROUND_DURATION_BUCKETS_SECONDS,
       registers,
     });
-    this.computeSeconds = new Counter({ name: 'roundwire_client_compute_seconds_total', help: 'Seconds each client spent on local work.', labelNames: ['client'], registers });
-    this.idleSeconds = new Counter({ name: 'roundwire_client_idle_seconds_total', help: 'Seconds each client waited for the round to close after its update.', labelNames: ['client'], registers });
-    this.localSteps = new Counter({ name: 'roundwire_client_local_steps_total', help: 'Local steps each client took.', labelNames: ['client'], registers });
-    this.localStepsLast = new Gauge({ name: 'roundwire_client_local_steps_last', help: 'Local steps tau_i each client took in its last round.', labelNames: ['client'], registers });
+    this.computeSeconds = new Counter({
+      name: 'roundwire_client_compute_seconds_total',
+      help: 'Seconds each client spent on local work.',
+      labelNames: ['client'],
+      registers,
+    });
+    this.idleSeconds = new Counter({
+      name: 'roundwire_client_idle_seconds_total',
+      help: 'Seconds each client waited for the round to close after its update.',
+      labelNames: ['client'],
+      registers,
+    });
+    this.localSteps = new Counter({
+      name: 'roundwire_client_local_steps_total',
+      help: 'Local steps each client took.',
+      labelNames: ['client'],
+      registers,
+    });
+    this.localStepsLast = new Gauge({
+      name: 'roundwire_client_local_steps_last',
+      help: 'Local steps tau_i each client took in its last round.',
+      labelNames: ['client'],
+      registers,
+    });
     new Gauge({
       name: 'roundwire_workers_connected',
       help: 'Workers past the handshake with an open connection.',
@@ -138,9 +185,15 @@ export class CoordinatorMetrics {
         this.set(sources.connectedWorkers());
       },
     });
-    this.dropped = new Counter({ name: 'roundwire_dropped_updates_total', help: 'Updates that did not count (late, beyond fastest-k, or lost), by client.', labelNames: ['client'], registers });
+    this.dropped = new Counter({
+      name: 'roundwire_dropped_updates_total',
+      help: 'Updates that did not count (late, beyond fastest-k, or lost), by client.',
+      labelNames: ['client'],
+      registers,
+    });
     // A run with no drops still shows a flat zero per client rather than no data.
-    for (let id = 0; id < Math.min(sources.clientCount, CLIENT_LABELS_MAX + 1); id++) this.dropped.inc({ client: clientLabel(id) }, 0);
+    for (let id = 0; id < Math.min(sources.clientCount, CLIENT_LABELS_MAX + 1); id++)
+      this.dropped.inc({ client: clientLabel(id) }, 0);
     new Counter({
       name: 'roundwire_protocol_errors_total',
       help: 'Protocol errors by code: bad messages received from workers, errors workers reported, and connections closed for a malformed WebSocket frame (origin "frame").',
@@ -149,8 +202,11 @@ export class CoordinatorMetrics {
       collect() {
         this.reset();
         const counts = sources.protocolErrors();
-        for (const origin of ERROR_ORIGINS) for (const code of PROTOCOL_ERROR_CODES) this.inc({ code, origin }, counts[origin][code] ?? 0);
-        for (const reason of FRAME_ERROR_REASONS) this.inc({ code: reason, origin: 'frame' }, counts.frame[reason] ?? 0);
+        for (const origin of ERROR_ORIGINS)
+          for (const code of PROTOCOL_ERROR_CODES)
+            this.inc({ code, origin }, counts[origin][code] ?? 0);
+        for (const reason of FRAME_ERROR_REASONS)
+          this.inc({ code: reason, origin: 'frame' }, counts.frame[reason] ?? 0);
       },
     });
     new Counter({
@@ -175,7 +231,10 @@ export class CoordinatorMetrics {
       return;
     }
     this.roundsCompleted.inc();
-    this.roundDuration.observe({ clock: 'wall' }, Math.max(0, record.wallSeconds - this.lastWallSeconds));
+    this.roundDuration.observe(
+      { clock: 'wall' },
+      Math.max(0, record.wallSeconds - this.lastWallSeconds),
+    );
     this.roundDuration.observe({ clock: 'modelled' }, record.roundSeconds);
     this.lastWallSeconds = record.wallSeconds;
     for (const c of clients) {
@@ -203,7 +262,8 @@ export class CoordinatorMetrics {
     this.measuredFor = curve.length;
     if (curve.length < 2) return (this.measured = Number.NaN);
     // As the summary: f is evaluated to a few ulps of its scale; below that the curve is noise.
-    const noiseLevel = 1e3 * Number.EPSILON * Math.max(Math.abs(this.sources.optimumLoss), curve[0].suboptimality);
+    const noiseLevel =
+      1e3 * Number.EPSILON * Math.max(Math.abs(this.sources.optimumLoss), curve[0].suboptimality);
     const fit = fitLinearRate(curve, { noiseLevel });
     return (this.measured = fit === null ? Number.NaN : fit.rate);
   }

@@ -32,7 +32,11 @@ export class ProtocolErrorCounter {
   }
 
   snapshot(): ProtocolErrorCounts {
-    return { received: Object.fromEntries(this.received), reported: Object.fromEntries(this.reported), frame: Object.fromEntries(this.frame) };
+    return {
+      received: Object.fromEntries(this.received),
+      reported: Object.fromEntries(this.reported),
+      frame: Object.fromEntries(this.frame),
+    };
   }
 
   totalReceived(): number {

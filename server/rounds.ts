@@ -13,11 +13,23 @@ import type { ClientAssignment } from '../src/engine/round-schedule.js';
 import type { ClientRoundRecord, RoundRecord } from '../src/engine/round-record.js';
 import type { Evaluation } from '../src/engine/evaluate.js';
 import { walkRun, walkSetup, type WalkedRun } from '../src/engine/round-walk.js';
-import { driveAsync, type ClientReturn, type ExchangeOrder, type ExchangeReply, type RoundTransport } from '../src/engine/walk-transport.js';
+import {
+  driveAsync,
+  type ClientReturn,
+  type ExchangeOrder,
+  type ExchangeReply,
+  type RoundTransport,
+} from '../src/engine/walk-transport.js';
 import { payloadBytes } from '../src/compress/payload-bytes.js';
 import { policyForUpdates } from '../src/timing/round-policy.js';
 import { downlinkSecondsFor, uplinkSecondsFor } from '../src/timing/links.js';
-import { ProtocolError, fromWire, toWire, type UpMessage, type WireFields } from '../src/protocol/index.js';
+import {
+  ProtocolError,
+  fromWire,
+  toWire,
+  type UpMessage,
+  type WireFields,
+} from '../src/protocol/index.js';
 import type { ByteLedger } from './byte-ledger.js';
 import { ExchangeWait, type CloseRule } from './exchange-wait.js';
 import type { WorkerRegistry } from './worker-registry.js';
@@ -88,11 +100,20 @@ export class RoundDriver implements RoundTransport<'async'> {
     const owed = this.owedFor(message);
     if (owed === null) {
       const current = this.owed.get(message.clientId);
-      const expected = current === undefined ? 'none' : `round ${current.wait.round}, exchange "${current.wait.exchange}"`;
-      throw new ProtocolError('E_ROUND', `up: client ${message.clientId} owes no up for round ${message.round}, exchange "${message.exchange}" (owed: ${expected})`);
+      const expected =
+        current === undefined
+          ? 'none'
+          : `round ${current.wait.round}, exchange "${current.wait.exchange}"`;
+      throw new ProtocolError(
+        'E_ROUND',
+        `up: client ${message.clientId} owes no up for round ${message.round}, exchange "${message.exchange}" (owed: ${expected})`,
+      );
     }
     if (message.localSteps > owed.assignment.localSteps) {
-      throw new ProtocolError('E_TYPE', `up.localSteps: ${message.localSteps} steps, but ${owed.assignment.localSteps} were assigned`);
+      throw new ProtocolError(
+        'E_TYPE',
+        `up.localSteps: ${message.localSteps} steps, but ${owed.assignment.localSteps} were assigned`,
+      );
     }
     const encodedUp: EncodedFields = {};
     const fieldPayloadBytes: Record<string, number> = {};
@@ -104,32 +125,56 @@ export class RoundDriver implements RoundTransport<'async'> {
     }
     if (this.owed.get(message.clientId) === owed) this.owed.delete(message.clientId);
     else this.superseded.delete(message.clientId);
-    this.options.ledger.recordRoundMessage('up', message.clientId, fieldPayloadBytes, encodedBytes, wireBytes);
+    this.options.ledger.recordRoundMessage(
+      'up',
+      message.clientId,
+      fieldPayloadBytes,
+      encodedBytes,
+      wireBytes,
+    );
     if (owed.wait.closed) {
       // A late up (wall clock): recorded with the bytes it cost, never aggregated.
       if (owed.record !== null) {
         owed.record.bytes.payload.up = payload;
-        owed.record.bytes.encoded = { up: encodedBytes, down: owed.record.bytes.encoded?.down ?? 0 };
+        owed.record.bytes.encoded = {
+          up: encodedBytes,
+          down: owed.record.bytes.encoded?.down ?? 0,
+        };
         owed.record.bytes.wire = { up: wireBytes, down: owed.record.bytes.wire?.down ?? 0 };
         owed.record.computeSeconds = message.computeSeconds;
         owed.record.transferSeconds = message.transferSeconds;
       }
       return;
     }
-    owed.wait.deliver(message.clientId, { message, encodedUp, fieldPayloadBytes, payloadBytes: payload, encodedBytes, wireBytes, arrivedMs: this.options.nowMs() });
+    owed.wait.deliver(message.clientId, {
+      message,
+      encodedUp,
+      fieldPayloadBytes,
+      payloadBytes: payload,
+      encodedBytes,
+      wireBytes,
+      arrivedMs: this.options.nowMs(),
+    });
   }
 
   /** What an up answers: the client's current owed up, or the one its newest down superseded. */
   private owedFor(message: UpMessage): Owed | null {
     for (const owed of [this.owed.get(message.clientId), this.superseded.get(message.clientId)]) {
-      if (owed !== undefined && owed.wait.round === message.round && owed.wait.exchange === message.exchange) return owed;
+      if (
+        owed !== undefined &&
+        owed.wait.round === message.round &&
+        owed.wait.exchange === message.exchange
+      )
+        return owed;
     }
     return null;
   }
 
   /** The round and exchange whose ups are awaited now, or null between exchanges. */
   expectation(): { round: number; exchange: string } | null {
-    return this.current === null ? null : { round: this.current.round, exchange: this.current.exchange };
+    return this.current === null
+      ? null
+      : { round: this.current.round, exchange: this.current.exchange };
   }
 
   /**
@@ -171,7 +216,14 @@ export class RoundDriver implements RoundTransport<'async'> {
       this.options.onRoundRecords?.(record, clients);
       this.options.onRound?.(record);
     };
-    return driveAsync(walkRun({ ...walkSetup(this.plan, this.server, ['encoded', 'wire']), wallSeconds: wallSecondsNow, onRound }), this);
+    return driveAsync(
+      walkRun({
+        ...walkSetup(this.plan, this.server, ['encoded', 'wire']),
+        wallSeconds: wallSecondsNow,
+        onRound,
+      }),
+      this,
+    );
   }
 
   async openRound(round: number): Promise<StopReason | null> {
@@ -195,7 +247,14 @@ export class RoundDriver implements RoundTransport<'async'> {
   async exchange(order: ExchangeOrder): Promise<ExchangeReply> {
     const assignments = order.downs.map((d) => d.assignment);
     const clientIds = assignments.map((a) => a.clientId);
-    const wait = new ExchangeWait(order.round, order.exchange, clientIds, this.closeRuleFor(assignments, this.options.nowMs()), this.options.exchangeTimeoutSeconds, this.options.nowMs);
+    const wait = new ExchangeWait(
+      order.round,
+      order.exchange,
+      clientIds,
+      this.closeRuleFor(assignments, this.options.nowMs()),
+      this.options.exchangeTimeoutSeconds,
+      this.options.nowMs,
+    );
     this.current = wait;
     const sent = this.sendDowns(order, wait);
     await wait.done;
@@ -206,7 +265,8 @@ export class RoundDriver implements RoundTransport<'async'> {
   /** The last round is this one once no worker is left, or a stop was asked for. */
   closeRound(): StopReason | null {
     const registry = this.options.registry;
-    if (registry.activeSessions().length === 0 && registry.disconnectedSessions().length === 0) return 'workers-lost';
+    if (registry.activeSessions().length === 0 && registry.disconnectedSessions().length === 0)
+      return 'workers-lost';
     return this.stopRequested ? 'stopped' : null;
   }
 
@@ -221,8 +281,13 @@ export class RoundDriver implements RoundTransport<'async'> {
     if (policy.kind === 'deadline') {
       const links = this.plan.scenario.timing.links;
       const denseBytes = this.plan.dim * 8 * 4;
-      const transferSeconds = downlinkSecondsFor(links, denseBytes) + uplinkSecondsFor(links, denseBytes);
-      return { kind: 'until', closeAtMs: sentMs + 1000 * (policy.budgetSeconds + transferSeconds + this.options.wallGraceSeconds) };
+      const transferSeconds =
+        downlinkSecondsFor(links, denseBytes) + uplinkSecondsFor(links, denseBytes);
+      return {
+        kind: 'until',
+        closeAtMs:
+          sentMs + 1000 * (policy.budgetSeconds + transferSeconds + this.options.wallGraceSeconds),
+      };
     }
     return { kind: 'all' };
   }
@@ -247,15 +312,34 @@ export class RoundDriver implements RoundTransport<'async'> {
       const earlier = this.owed.get(a.clientId);
       if (earlier !== undefined) this.superseded.set(a.clientId, earlier);
       this.owed.set(a.clientId, { wait, assignment: a, record: null });
-      const bytes = session.send({ type: 'down', round, exchange, clientId: a.clientId, localSteps: a.localSteps, stepSize: a.stepSize, fields, deadlineSeconds });
+      const bytes = session.send({
+        type: 'down',
+        round,
+        exchange,
+        clientId: a.clientId,
+        localSteps: a.localSteps,
+        stepSize: a.stepSize,
+        fields,
+        deadlineSeconds,
+      });
       sent.set(a.clientId, bytes);
-      this.options.ledger.recordRoundMessage('down', a.clientId, fieldPayloadBytes, bytes.encodedBytes, bytes.wireBytes);
+      this.options.ledger.recordRoundMessage(
+        'down',
+        a.clientId,
+        fieldPayloadBytes,
+        bytes.encodedBytes,
+        bytes.wireBytes,
+      );
     }
     return sent;
   }
 
   /** What came back in a closed wait, with the bytes each way at the codec and socket layers. */
-  private replyOf(order: ExchangeOrder, wait: ExchangeWait, sent: ReadonlyMap<number, SentDown>): ExchangeReply {
+  private replyOf(
+    order: ExchangeOrder,
+    wait: ExchangeWait,
+    sent: ReadonlyMap<number, SentDown>,
+  ): ExchangeReply {
     const returns = new Map<number, ClientReturn>();
     for (const { assignment: a } of order.downs) {
       const down = sent.get(a.clientId) ?? { encodedBytes: 0, wireBytes: 0 };
@@ -270,17 +354,34 @@ export class RoundDriver implements RoundTransport<'async'> {
       }
       const m = arrival.message;
       // Wall clock: the seconds are the worker's, plus the idle time until the wait closed.
-      const measured = this.wall ? { computeSeconds: m.computeSeconds, transferSeconds: m.transferSeconds, waitSeconds: m.waitSeconds + Math.max(0, wait.closedMs - arrival.arrivedMs) / 1000 } : undefined;
-      returns.set(a.clientId, { kind: 'up', encodedUp: arrival.encodedUp, stepsTaken: m.localSteps, layers, measured });
+      const measured = this.wall
+        ? {
+            computeSeconds: m.computeSeconds,
+            transferSeconds: m.transferSeconds,
+            waitSeconds: m.waitSeconds + Math.max(0, wait.closedMs - arrival.arrivedMs) / 1000,
+          }
+        : undefined;
+      returns.set(a.clientId, {
+        kind: 'up',
+        encodedUp: arrival.encodedUp,
+        stepsTaken: m.localSteps,
+        layers,
+        measured,
+      });
     }
-    return { returns, diverged: wait.cause === 'diverged', recorded: (records) => this.keepForLateUps(wait, records) };
+    return {
+      returns,
+      diverged: wait.cause === 'diverged',
+      recorded: (records) => this.keepForLateUps(wait, records),
+    };
   }
 
   /** A client that owes this wait's up keeps its record, for a late up's bytes and seconds. */
   private keepForLateUps(wait: ExchangeWait, records: readonly ClientRoundRecord[]): void {
     for (const record of records) {
       const owed = this.owed.get(record.clientId);
-      if (owed !== undefined && owed.wait === wait && !wait.arrivals.has(record.clientId)) owed.record = record;
+      if (owed !== undefined && owed.wait === wait && !wait.arrivals.has(record.clientId))
+        owed.record = record;
     }
   }
 }

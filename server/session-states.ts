@@ -5,7 +5,16 @@
 
 import { CodedError } from '../src/base/coded-error.js';
 
-export const SESSION_STATES = ['handshake', 'joined', 'active', 'disconnected', 'resumed', 'lost', 'refused', 'finished'] as const;
+export const SESSION_STATES = [
+  'handshake',
+  'joined',
+  'active',
+  'disconnected',
+  'resumed',
+  'lost',
+  'refused',
+  'finished',
+] as const;
 
 /**
  * 'handshake': a fresh connection, before its hello; 'joined': passed the handshake, waiting for
@@ -48,7 +57,10 @@ export class SessionStateMachine {
   /** Moves to `to`; throws E_SESSION_TRANSITION when the table has no arrow from the current state. */
   moveTo(to: SessionState): void {
     if (!isTransitionAllowed(this.current, to)) {
-      throw new SessionTransitionError('E_SESSION_TRANSITION', `a worker session cannot move from '${this.current}' to '${to}'`);
+      throw new SessionTransitionError(
+        'E_SESSION_TRANSITION',
+        `a worker session cannot move from '${this.current}' to '${to}'`,
+      );
     }
     this.current = to;
   }

@@ -42,7 +42,10 @@ export class WireMeter {
 
   /** The socket's own counters since the upgrade (read once, at the end of a run). */
   totals(): { readBytes: number; writtenBytes: number } {
-    return { readBytes: this.socket.bytesRead - this.readBaselineBytes, writtenBytes: this.socket.bytesWritten - this.writeBaselineBytes };
+    return {
+      readBytes: this.socket.bytesRead - this.readBaselineBytes,
+      writtenBytes: this.socket.bytesWritten - this.writeBaselineBytes,
+    };
   }
 
   private headerLength(): number {

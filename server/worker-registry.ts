@@ -65,19 +65,26 @@ export class WorkerRegistry {
   }
 
   isReady(): boolean {
-    return this.joined.length >= this.limits.workersMin && this.capacityJoined() >= this.limits.clientCount;
+    return (
+      this.joined.length >= this.limits.workersMin &&
+      this.capacityJoined() >= this.limits.clientCount
+    );
   }
 
   /** Deals every client to a worker; returns each worker's ids (ascending). */
   assign(): Map<WorkerSession, number[]> {
     if (!this.isReady()) {
-      throw new RuntimeError('E_NOT_ENOUGH_WORKERS', `${this.joined.length} workers with capacity ${this.capacityJoined()} cannot host ${this.limits.clientCount} clients`);
+      throw new RuntimeError(
+        'E_NOT_ENOUGH_WORKERS',
+        `${this.joined.length} workers with capacity ${this.capacityJoined()} cannot host ${this.limits.clientCount} clients`,
+      );
     }
     this.assigned = true;
     const out = new Map<WorkerSession, number[]>(this.joined.map((s) => [s, []]));
     let next = 0;
     for (let clientId = 0; clientId < this.limits.clientCount; clientId++) {
-      while (out.get(this.joined[next])!.length >= this.capacityOf(this.joined[next])) next = (next + 1) % this.joined.length;
+      while (out.get(this.joined[next])!.length >= this.capacityOf(this.joined[next]))
+        next = (next + 1) % this.joined.length;
       out.get(this.joined[next])!.push(clientId);
       this.hostOf.set(clientId, this.joined[next]);
       next = (next + 1) % this.joined.length;
@@ -125,9 +132,17 @@ export class WorkerRegistry {
    * be active when the worker saw its socket close before this end did. Null when no active or
    * disconnected session has that token (a wrong token, or its grace has passed).
    */
-  resume(resumeToken: Uint8Array, session: WorkerSession): { previous: WorkerSession; previousState: 'active' | 'disconnected' } | null {
-    const at = this.joined.findIndex((s) => (s.state === 'active' || s.state === 'disconnected') && s.resumeToken !== null
-      && s.resumeToken.length === resumeToken.length && timingSafeEqual(s.resumeToken, resumeToken));
+  resume(
+    resumeToken: Uint8Array,
+    session: WorkerSession,
+  ): { previous: WorkerSession; previousState: 'active' | 'disconnected' } | null {
+    const at = this.joined.findIndex(
+      (s) =>
+        (s.state === 'active' || s.state === 'disconnected') &&
+        s.resumeToken !== null &&
+        s.resumeToken.length === resumeToken.length &&
+        timingSafeEqual(s.resumeToken, resumeToken),
+    );
     if (at < 0) return null;
     const previous = this.joined[at];
     const previousState = previous.state as 'active' | 'disconnected';

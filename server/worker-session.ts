@@ -4,7 +4,13 @@
 
 import type { Socket } from 'node:net';
 import type { WebSocket } from 'ws';
-import { classifyFrameError, encodeMessage, frameBytes, type FrameFailure, type Message } from '../src/protocol/index.js';
+import {
+  classifyFrameError,
+  encodeMessage,
+  frameBytes,
+  type FrameFailure,
+  type Message,
+} from '../src/protocol/index.js';
 import { SessionStateMachine, type SessionState } from './session-states.js';
 import { WireMeter } from './wire-meter.js';
 
@@ -32,7 +38,13 @@ export class WorkerSession {
   private readonly machine = new SessionStateMachine();
   private handler: FrameHandler = () => undefined;
 
-  constructor(sessionId: number, ws: WebSocket, socket: Socket, nowMs: number, onFrameError: FrameErrorHandler) {
+  constructor(
+    sessionId: number,
+    ws: WebSocket,
+    socket: Socket,
+    nowMs: number,
+    onFrameError: FrameErrorHandler,
+  ) {
     this.sessionId = sessionId;
     this.ws = ws;
     this.meter = new WireMeter(socket);
@@ -91,7 +103,8 @@ export class WorkerSession {
 
   /** Closes politely (close frame, then the socket). */
   close(code: number, reason: string): void {
-    if (this.ws.readyState === this.ws.OPEN || this.ws.readyState === this.ws.CONNECTING) this.ws.close(code, reason);
+    if (this.ws.readyState === this.ws.OPEN || this.ws.readyState === this.ws.CONNECTING)
+      this.ws.close(code, reason);
   }
 
   /** Drops the connection at once (a lost or hostile peer). */

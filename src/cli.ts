@@ -12,8 +12,17 @@ import { runInProcess } from './engine/in-process-engine.js';
 import { finishRun, formatRunSummary } from './commands/run-report.js';
 import { ProgressLine } from './commands/progress.js';
 import { defaultResultsDir, prepareResultsFolder } from './results/results-folder.js';
-import { formatDistributedSummary, runDistributed, RunInterrupted } from './commands/run-distributed.js';
-import { runWorkerCommand, WORKER_CAPACITY_MAX, workerOptionsProblem, type WorkerCommandOptions } from './commands/worker-command.js';
+import {
+  formatDistributedSummary,
+  runDistributed,
+  RunInterrupted,
+} from './commands/run-distributed.js';
+import {
+  runWorkerCommand,
+  WORKER_CAPACITY_MAX,
+  workerOptionsProblem,
+  type WorkerCommandOptions,
+} from './commands/worker-command.js';
 import {
   coordinatorOptionsProblem,
   HEARTBEAT_SILENCE_SECONDS_MAX,
@@ -26,10 +35,19 @@ import {
 } from './commands/coordinator-command.js';
 import { integerInRange, secondsInRange } from './commands/number-options.js';
 import { writeRunReport } from './commands/report-command.js';
-import { defaultCompareDir, planComparison, runComparison, type CompareOptions } from './commands/compare-command.js';
+import {
+  defaultCompareDir,
+  planComparison,
+  runComparison,
+  type CompareOptions,
+} from './commands/compare-command.js';
 import { comparisonJson, formatComparison } from './report/compare-table.js';
 import { ladderOptionHelp } from './report/ladder-option.js';
-import { METRICS_LINGER_SECONDS_MAX, parseMetricsAddress, type MetricsAddress } from '../runtime/metrics-server.js';
+import {
+  METRICS_LINGER_SECONDS_MAX,
+  parseMetricsAddress,
+  type MetricsAddress,
+} from '../runtime/metrics-server.js';
 import { JoinError } from '../client/connection.js';
 
 /** An input problem found by a command itself (not by the scenario schema). */
@@ -41,7 +59,10 @@ function collect(value: string, previous: string[]): string[] {
   return [...previous, value];
 }
 
-const tweakOption = new Option('--tweak <field:value>', 'change one scenario field; the first colon ends the field and the value is read as YAML, e.g. --tweak method.localSteps:10 (repeatable, applied in order)')
+const tweakOption = new Option(
+  '--tweak <field:value>',
+  'change one scenario field; the first colon ends the field and the value is read as YAML, e.g. --tweak method.localSteps:10 (repeatable, applied in order)',
+)
   .argParser(collect)
   .default([] as string[]);
 
@@ -55,10 +76,14 @@ function asArgument<T>(parse: (text: string) => T): (text: string) => T {
   };
 }
 
-const metricsOption = new Option('--metrics <host:port>', 'serve Prometheus metrics at http://HOST:PORT/metrics (a bare PORT: on 127.0.0.1; port 0: any free port)').argParser(
-  asArgument(parseMetricsAddress),
-);
-const metricsLingerOption = new Option('--metrics-linger <seconds>', 'after the run, keep serving the final metrics this long so that a scraper reads them')
+const metricsOption = new Option(
+  '--metrics <host:port>',
+  'serve Prometheus metrics at http://HOST:PORT/metrics (a bare PORT: on 127.0.0.1; port 0: any free port)',
+).argParser(asArgument(parseMetricsAddress));
+const metricsLingerOption = new Option(
+  '--metrics-linger <seconds>',
+  'after the run, keep serving the final metrics this long so that a scraper reads them',
+)
   .argParser(secondsInRange('--metrics-linger', 0, METRICS_LINGER_SECONDS_MAX))
   .default(0);
 
@@ -67,8 +92,12 @@ interface MetricsOptions {
   metricsLinger: number;
 }
 
-function metricsServing(opts: MetricsOptions): { address: MetricsAddress; lingerSeconds: number } | null {
-  return opts.metrics === undefined ? null : { address: opts.metrics, lingerSeconds: opts.metricsLinger };
+function metricsServing(
+  opts: MetricsOptions,
+): { address: MetricsAddress; lingerSeconds: number } | null {
+  return opts.metrics === undefined
+    ? null
+    : { address: opts.metrics, lingerSeconds: opts.metricsLinger };
 }
 
 interface Io {
@@ -78,7 +107,9 @@ interface Io {
 
 function buildProgram(io: Io): Command {
   const program = new Command('roundwire')
-    .description('A testbed for federated optimization: real rounds over WebSockets, injected stragglers, counted bytes, theory beside measurement.')
+    .description(
+      'A testbed for federated optimization: real rounds over WebSockets, injected stragglers, counted bytes, theory beside measurement.',
+    )
     .version('0.1.0')
     .configureOutput({ writeOut: io.out, writeErr: io.err })
     .addHelpText('after', exitCodesHelp)
@@ -87,7 +118,9 @@ function buildProgram(io: Io): Command {
 
   program
     .command('theory')
-    .description("solve the scenario's problem with the oracle and print x*'s certificate and the constants (L, mu, heterogeneity)")
+    .description(
+      "solve the scenario's problem with the oracle and print x*'s certificate and the constants (L, mu, heterogeneity)",
+    )
     .argument('<scenario>', 'scenario file (YAML or JSON)')
     .addOption(tweakOption)
     .option('--json', 'print JSON instead of a table')
@@ -107,48 +140,97 @@ function buildProgram(io: Io): Command {
     .addHelpText('after', exitCodesHelp)
     .action((file: string, opts: { tweak: string[]; out: string; json?: boolean }) => {
       const files = writeShards(loadScenarioFile(file, opts.tweak), opts.out);
-      io.out(opts.json ? `${JSON.stringify({ dir: opts.out, files }, null, 2)}\n` : `wrote ${files.length} shards to ${opts.out}\n`);
+      io.out(
+        opts.json
+          ? `${JSON.stringify({ dir: opts.out, files }, null, 2)}\n`
+          : `wrote ${files.length} shards to ${opts.out}\n`,
+      );
     });
 
   program
     .command('run')
-    .description('run a scenario: real rounds between a coordinator and worker processes, or --in-process with no network')
+    .description(
+      'run a scenario: real rounds between a coordinator and worker processes, or --in-process with no network',
+    )
     .argument('<scenario>', 'scenario file (YAML or JSON)')
     .addOption(tweakOption)
     .option('--in-process', 'run every client in this process with the virtual clock (no sockets)')
     .option('--out <dir>', 'results folder (default results/<name>-<method>-<time>)')
-    .option('--json', 'print outcome.json (see the results folder in README.md) instead of the table')
+    .option(
+      '--json',
+      'print outcome.json (see the results folder in README.md) instead of the table',
+    )
     .addOption(metricsOption)
     .addOption(metricsLingerOption)
     .addHelpText('after', exitCodesHelp)
-    .action(async (file: string, opts: { tweak: string[]; inProcess?: boolean; out?: string; json?: boolean } & MetricsOptions) => {
-      if (opts.inProcess && opts.metrics !== undefined) throw new UsageError('--metrics serves the coordinator of a distributed run; --in-process has none');
-      const scenario = loadScenarioFile(file, opts.tweak);
-      const outDir = opts.out ?? defaultResultsDir(scenario, new Date());
-      prepareResultsFolder(outDir);
-      const progress = new ProgressLine({ write: io.err, isTTY: process.stderr.isTTY === true }, scenario.run.rounds);
-      if (!opts.inProcess) {
-        const result = await runDistributed(scenario, outDir, { out: io.out, err: io.err, onRound: (r) => progress.update(r) }, metricsServing(opts));
+    .action(
+      async (
+        file: string,
+        opts: {
+          tweak: string[];
+          inProcess?: boolean;
+          out?: string;
+          json?: boolean;
+        } & MetricsOptions,
+      ) => {
+        if (opts.inProcess && opts.metrics !== undefined)
+          throw new UsageError(
+            '--metrics serves the coordinator of a distributed run; --in-process has none',
+          );
+        const scenario = loadScenarioFile(file, opts.tweak);
+        const outDir = opts.out ?? defaultResultsDir(scenario, new Date());
+        prepareResultsFolder(outDir);
+        const progress = new ProgressLine(
+          { write: io.err, isTTY: process.stderr.isTTY === true },
+          scenario.run.rounds,
+        );
+        if (!opts.inProcess) {
+          const result = await runDistributed(
+            scenario,
+            outDir,
+            { out: io.out, err: io.err, onRound: (r) => progress.update(r) },
+            metricsServing(opts),
+          );
+          progress.finish();
+          await writeRunReport(outDir);
+          io.out(
+            opts.json
+              ? `${JSON.stringify(result.summary, null, 2)}\n`
+              : formatDistributedSummary(result, outDir),
+          );
+          return;
+        }
+        const outcome = runInProcess(scenario, { onRound: (r) => progress.update(r) });
         progress.finish();
+        const summary = finishRun(outcome, 'in-process', outDir);
         await writeRunReport(outDir);
-        io.out(opts.json ? `${JSON.stringify(result.summary, null, 2)}\n` : formatDistributedSummary(result, outDir));
-        return;
-      }
-      const outcome = runInProcess(scenario, { onRound: (r) => progress.update(r) });
-      progress.finish();
-      const summary = finishRun(outcome, 'in-process', outDir);
-      await writeRunReport(outDir);
-      io.out(opts.json ? `${JSON.stringify(summary, null, 2)}\n` : formatRunSummary(summary, outDir));
-    });
+        io.out(
+          opts.json ? `${JSON.stringify(summary, null, 2)}\n` : formatRunSummary(summary, outDir),
+        );
+      },
+    );
 
   program
     .command('worker')
     .description('join a coordinator and host the clients it deals to this process')
     .argument('<coordinator-url>', 'the coordinator, ws://HOST:PORT or wss://HOST:PORT')
-    .option('--key-file <path>', 'file holding the shared key, private to you (chmod 600), at least 16 bytes (default: the file ROUNDWIRE_KEY_FILE names)')
-    .addOption(new Option('--capacity <n>', `how many clients this worker offers to host (1 to ${WORKER_CAPACITY_MAX})`).argParser(integerInRange('--capacity', 1, WORKER_CAPACITY_MAX)).default(1))
+    .option(
+      '--key-file <path>',
+      'file holding the shared key, private to you (chmod 600), at least 16 bytes (default: the file ROUNDWIRE_KEY_FILE names)',
+    )
+    .addOption(
+      new Option(
+        '--capacity <n>',
+        `how many clients this worker offers to host (1 to ${WORKER_CAPACITY_MAX})`,
+      )
+        .argParser(integerInRange('--capacity', 1, WORKER_CAPACITY_MAX))
+        .default(1),
+    )
     .option('--name <name>', 'worker name for logs and metrics (default host-pid)')
-    .option('--ca <file>', "PEM certificate(s) to trust for a wss:// coordinator beside the system's, e.g. its self-signed --tls-cert")
+    .option(
+      '--ca <file>',
+      "PEM certificate(s) to trust for a wss:// coordinator beside the system's, e.g. its self-signed --tls-cert",
+    )
     .addOption(metricsOption)
     .addOption(metricsLingerOption)
     .addHelpText('after', exitCodesHelp)
@@ -163,48 +245,94 @@ function buildProgram(io: Io): Command {
     .command('coordinator')
     .description('wait for workers from other machines, then run the scenario with them')
     .argument('<scenario>', 'scenario file (YAML or JSON)')
-    .requiredOption('--listen <host:port>', 'address to listen on, e.g. 0.0.0.0:7070 (port 0: any free port)')
-    .option('--key-file <path>', 'file holding the shared key workers prove, private to you (chmod 600); required beyond loopback (default: the file ROUNDWIRE_KEY_FILE names; on loopback without either, a fresh one, whose path is printed)')
+    .requiredOption(
+      '--listen <host:port>',
+      'address to listen on, e.g. 0.0.0.0:7070 (port 0: any free port)',
+    )
+    .option(
+      '--key-file <path>',
+      'file holding the shared key workers prove, private to you (chmod 600); required beyond loopback (default: the file ROUNDWIRE_KEY_FILE names; on loopback without either, a fresh one, whose path is printed)',
+    )
     .option('--tls-cert <file>', 'PEM certificate: serve wss:// instead of ws://')
     .option('--tls-key <file>', 'PEM private key for --tls-cert')
     .addOption(
-      new Option('--workers-wait-seconds <s>', 'give up if the workers have not joined within this many seconds')
+      new Option(
+        '--workers-wait-seconds <s>',
+        'give up if the workers have not joined within this many seconds',
+      )
         .argParser(secondsInRange('--workers-wait-seconds', 0, WORKERS_WAIT_SECONDS_MAX, true))
         .default(300),
     )
-    .addOption(new Option('--workers-min <n>', 'wait for at least this many workers').argParser(integerInRange('--workers-min', 1, WORKERS_MIN_MAX)).default(1))
     .addOption(
-      new Option('--heartbeat-silence-seconds <s>', 'a worker silent this long (1 to 3600 s) is lost and its clients leave the run; heartbeats go every sixth of it (default 30)').argParser(
-        secondsInRange('--heartbeat-silence-seconds', HEARTBEAT_SILENCE_SECONDS_MIN, HEARTBEAT_SILENCE_SECONDS_MAX),
+      new Option('--workers-min <n>', 'wait for at least this many workers')
+        .argParser(integerInRange('--workers-min', 1, WORKERS_MIN_MAX))
+        .default(1),
+    )
+    .addOption(
+      new Option(
+        '--heartbeat-silence-seconds <s>',
+        'a worker silent this long (1 to 3600 s) is lost and its clients leave the run; heartbeats go every sixth of it (default 30)',
+      ).argParser(
+        secondsInRange(
+          '--heartbeat-silence-seconds',
+          HEARTBEAT_SILENCE_SECONDS_MIN,
+          HEARTBEAT_SILENCE_SECONDS_MAX,
+        ),
       ),
     )
     .addOption(
-      new Option('--resume-grace-seconds <s>', 'a worker whose connection drops mid-run may reconnect and resume this long (0 to 3600 s; 0: lost at once); its clients sit out meanwhile (default 5)').argParser(
-        secondsInRange('--resume-grace-seconds', 0, RESUME_GRACE_SECONDS_MAX),
-      ),
+      new Option(
+        '--resume-grace-seconds <s>',
+        'a worker whose connection drops mid-run may reconnect and resume this long (0 to 3600 s; 0: lost at once); its clients sit out meanwhile (default 5)',
+      ).argParser(secondsInRange('--resume-grace-seconds', 0, RESUME_GRACE_SECONDS_MAX)),
     )
     .option('--out <dir>', 'results folder (default results/<name>-<method>-<time>)')
-    .option('--json', 'print outcome.json (see the results folder in README.md) instead of the table')
+    .option(
+      '--json',
+      'print outcome.json (see the results folder in README.md) instead of the table',
+    )
     .addOption(tweakOption)
     .addOption(metricsOption)
     .addOption(metricsLingerOption)
     .addHelpText('after', exitCodesHelp)
-    .action(async (file: string, opts: CoordinatorCommandOptions & MetricsOptions & { tweak: string[]; out?: string; json?: boolean }) => {
-      const problem = coordinatorOptionsProblem(opts, process.env);
-      if (problem !== null) throw new UsageError(problem);
-      const scenario = loadScenarioFile(file, opts.tweak);
-      const outDir = opts.out ?? defaultResultsDir(scenario, new Date());
-      prepareResultsFolder(outDir);
-      const progress = new ProgressLine({ write: io.err, isTTY: process.stderr.isTTY === true }, scenario.run.rounds);
-      const result = await runCoordinatorCommand(scenario, opts, outDir, process.env, { err: io.err, onRound: (r) => progress.update(r) }, metricsServing(opts));
-      progress.finish();
-      await writeRunReport(outDir);
-      io.out(opts.json ? `${JSON.stringify(result.summary, null, 2)}\n` : formatDistributedSummary(result, outDir));
-    });
+    .action(
+      async (
+        file: string,
+        opts: CoordinatorCommandOptions &
+          MetricsOptions & { tweak: string[]; out?: string; json?: boolean },
+      ) => {
+        const problem = coordinatorOptionsProblem(opts, process.env);
+        if (problem !== null) throw new UsageError(problem);
+        const scenario = loadScenarioFile(file, opts.tweak);
+        const outDir = opts.out ?? defaultResultsDir(scenario, new Date());
+        prepareResultsFolder(outDir);
+        const progress = new ProgressLine(
+          { write: io.err, isTTY: process.stderr.isTTY === true },
+          scenario.run.rounds,
+        );
+        const result = await runCoordinatorCommand(
+          scenario,
+          opts,
+          outDir,
+          process.env,
+          { err: io.err, onRound: (r) => progress.update(r) },
+          metricsServing(opts),
+        );
+        progress.finish();
+        await writeRunReport(outDir);
+        io.out(
+          opts.json
+            ? `${JSON.stringify(result.summary, null, 2)}\n`
+            : formatDistributedSummary(result, outDir),
+        );
+      },
+    );
 
   program
     .command('report')
-    .description('write report.html for a results folder: curves against rounds, bytes and seconds beside the prediction, traffic, timeline, summary')
+    .description(
+      'write report.html for a results folder: curves against rounds, bytes and seconds beside the prediction, traffic, timeline, summary',
+    )
     .argument('<results-folder>', 'a folder written by run, coordinator or compare')
     .option('--out <file>', 'write the page here (default <results-folder>/report.html)')
     .option('--json', 'print {"report": path} as JSON')
@@ -216,12 +344,27 @@ function buildProgram(io: Io): Command {
 
   program
     .command('compare')
-    .description("run one variant for every combination of rungs of the ladders (--ladder, or the scenario's ladders section) with the same seed, speeds and links; compare rounds, bytes and time to target")
+    .description(
+      "run one variant for every combination of rungs of the ladders (--ladder, or the scenario's ladders section) with the same seed, speeds and links; compare rounds, bytes and time to target",
+    )
     .argument('<scenario>', 'scenario file (YAML or JSON)')
-    .addOption(new Option('--ladder <field:rung/rung>', 'move a field through rungs, e.g. method.name:fedavg/fedlin; several fields together: a+b:1,2/3,4 (repeatable: the product runs; see Ladders below)').argParser(collect).default([] as string[]))
+    .addOption(
+      new Option(
+        '--ladder <field:rung/rung>',
+        'move a field through rungs, e.g. method.name:fedavg/fedlin; several fields together: a+b:1,2/3,4 (repeatable: the product runs; see Ladders below)',
+      )
+        .argParser(collect)
+        .default([] as string[]),
+    )
     .addOption(tweakOption)
-    .option('--distributed', 'run each variant with local worker processes over WebSockets instead of in process')
-    .option('--out <dir>', 'folder for compare.html, compare.csv, compare.json and one results folder per variant (default results/compare-<name>-<time>)')
+    .option(
+      '--distributed',
+      'run each variant with local worker processes over WebSockets instead of in process',
+    )
+    .option(
+      '--out <dir>',
+      'folder for compare.html, compare.csv, compare.json and one results folder per variant (default results/compare-<name>-<time>)',
+    )
     .option('--json', 'print compare.json instead of the table')
     .addHelpText('after', ladderOptionHelp)
     .addHelpText('after', exitCodesHelp)
@@ -252,14 +395,22 @@ function isBadInput(error: unknown): error is Error {
 }
 
 /** Runs the command line; resolves to the process exit code. */
-export async function main(argv: string[], io: Io = { out: (t) => process.stdout.write(t), err: (t) => process.stderr.write(t) }): Promise<number> {
+export async function main(
+  argv: string[],
+  io: Io = { out: (t) => process.stdout.write(t), err: (t) => process.stderr.write(t) },
+): Promise<number> {
   const program = buildProgram(io);
   try {
     await program.parseAsync(argv);
     return exitCodes.ok;
   } catch (error) {
     if (error instanceof CommanderError) {
-      if (error.code === 'commander.helpDisplayed' || error.code === 'commander.help' || error.code === 'commander.version') return exitCodes.ok;
+      if (
+        error.code === 'commander.helpDisplayed' ||
+        error.code === 'commander.help' ||
+        error.code === 'commander.version'
+      )
+        return exitCodes.ok;
       return exitCodes.badInput;
     }
     if (error instanceof JoinError) {
@@ -275,7 +426,9 @@ export async function main(argv: string[], io: Io = { out: (t) => process.stdout
       io.err(`roundwire: ${error.message}\n`);
       return exitCodes.badInput;
     }
-    io.err(`roundwire: ${error instanceof Error ? (error.stack ?? error.message) : String(error)}\n`);
+    io.err(
+      `roundwire: ${error instanceof Error ? (error.stack ?? error.message) : String(error)}\n`,
+    );
     return exitCodes.failure;
   }
 }

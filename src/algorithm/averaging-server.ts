@@ -18,7 +18,11 @@ export interface AveragingServerState {
   meanDelta: Float64Array;
 }
 
-export function initAveragingServer(dim: number, cfg: MethodConfig, initialModel: Float64Array): AveragingServerState {
+export function initAveragingServer(
+  dim: number,
+  cfg: MethodConfig,
+  initialModel: Float64Array,
+): AveragingServerState {
   assertConfig(dim, cfg);
   return {
     dim,

@@ -2,7 +2,12 @@
 // Decentralized Data", AISTATS 2017): y <- x; tau_i times y <- y - eta_i grad f_i(y);
 // upload delta = y - x; x <- x + eta_g sum_{i in S} p~_i delta_i.
 
-import { aggregateDeltas, broadcastModel, initAveragingServer, type AveragingServerState } from './averaging-server.js';
+import {
+  aggregateDeltas,
+  broadcastModel,
+  initAveragingServer,
+  type AveragingServerState,
+} from './averaging-server.js';
 import { assertExchange } from './invariants.js';
 import { initLocalClient, localDescentDelta, type LocalClientState } from './local-client.js';
 import type { Method } from './method.js';

@@ -97,7 +97,10 @@ export const fedlin: Method<FedLinServerState, FedLinClientState> = {
       return { gradient: Float64Array.from(client.anchorGradient) };
     }
     if (!client.anchorReady) {
-      throw new MethodError('E_METHOD_SEQUENCE', `client ${client.clientId}: FedLin's local exchange needs this round's gradient exchange first`);
+      throw new MethodError(
+        'E_METHOD_SEQUENCE',
+        `client ${client.clientId}: FedLin's local exchange needs this round's gradient exchange first`,
+      );
     }
     assertBudget(budget);
     const g = requireField(down, 'gradient', client.dim);
@@ -106,7 +109,15 @@ export const fedlin: Method<FedLinServerState, FedLinClientState> = {
     for (let j = 0; j < correction.length; j++) correction[j] = g[j] - anchorGradient[j];
     const y = client.iterate;
     y.set(client.anchor);
-    descend(objective, budget.sampler, y, budget.localSteps, budget.stepSize, correction, client.gradient);
+    descend(
+      objective,
+      budget.sampler,
+      y,
+      budget.localSteps,
+      budget.stepSize,
+      correction,
+      client.gradient,
+    );
     client.anchorReady = false;
     return { delta: freshDifference(y, client.anchor) };
   },

@@ -7,7 +7,11 @@
 // With equal tau_i and eta_g = 1 this is FedAvg. tau_i comes from upload.localSteps, the steps
 // the client actually took.
 
-import { broadcastModel, initAveragingServer, type AveragingServerState } from './averaging-server.js';
+import {
+  broadcastModel,
+  initAveragingServer,
+  type AveragingServerState,
+} from './averaging-server.js';
 import { assertExchange, assertUploads, LOCAL_STEPS_MAX } from './invariants.js';
 import { initLocalClient, localDescentDelta, type LocalClientState } from './local-client.js';
 import type { Method } from './method.js';
@@ -35,7 +39,10 @@ export const fednova: Method<AveragingServerState, LocalClientState> = {
     for (const upload of uploads) {
       const tau = upload.localSteps;
       if (!Number.isInteger(tau) || tau < 1 || tau > LOCAL_STEPS_MAX) {
-        throw new MethodError('E_METHOD_BUDGET', `client ${upload.clientId}: local steps must be an integer in [1, ${LOCAL_STEPS_MAX}], got ${tau}`);
+        throw new MethodError(
+          'E_METHOD_BUDGET',
+          `client ${upload.clientId}: local steps must be an integer in [1, ${LOCAL_STEPS_MAX}], got ${tau}`,
+        );
       }
     }
     if (uploads.length === 0) return;

@@ -4,7 +4,12 @@
 // y <- x; tau_i times y <- y - eta_i (grad f_i(y) + mu_prox (y - x)); the server is FedAvg's.
 // With mu_prox = 0 every step is FedAvg's step.
 
-import { aggregateDeltas, broadcastModel, initAveragingServer, type AveragingServerState } from './averaging-server.js';
+import {
+  aggregateDeltas,
+  broadcastModel,
+  initAveragingServer,
+  type AveragingServerState,
+} from './averaging-server.js';
 import {
   assertBudget,
   assertClientId,

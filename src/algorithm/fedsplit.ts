@@ -143,7 +143,10 @@ export const fedsplit: Method<FedSplitServerState, FedSplitClientState> = {
     if (client.innerStepSize === 0) {
       const smoothness = objective.smoothnessBound();
       if (!Number.isFinite(smoothness) || smoothness < 0) {
-        throw new MethodError('E_METHOD_CONFIG', `client ${client.clientId}: smoothness bound must be finite and >= 0, got ${smoothness}`);
+        throw new MethodError(
+          'E_METHOD_CONFIG',
+          `client ${client.clientId}: smoothness bound must be finite and >= 0, got ${smoothness}`,
+        );
       }
       client.innerStepSize = 1 / (smoothness + 1 / client.proxStepSize);
     }

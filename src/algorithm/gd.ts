@@ -4,7 +4,12 @@
 // formed as FedAvg forms it (a step, then a difference) rather than as -eta grad f_i(x), so
 // that gd is FedAvg with tau = 1 bit for bit. The budget's local step count is ignored.
 
-import { aggregateDeltas, broadcastModel, initAveragingServer, type AveragingServerState } from './averaging-server.js';
+import {
+  aggregateDeltas,
+  broadcastModel,
+  initAveragingServer,
+  type AveragingServerState,
+} from './averaging-server.js';
 import { assertExchange } from './invariants.js';
 import { initLocalClient, localDescentDelta, type LocalClientState } from './local-client.js';
 import type { Method } from './method.js';

@@ -2,7 +2,13 @@
 // (gd, FedAvg, FedNova): allocated once so that no local step allocates.
 
 import type { Objective } from '../problem/objective.js';
-import { assertBudget, assertClientId, assertConfig, assertObjectiveDimension, requireField } from './invariants.js';
+import {
+  assertBudget,
+  assertClientId,
+  assertConfig,
+  assertObjectiveDimension,
+  requireField,
+} from './invariants.js';
 import { descend, freshDifference } from './local-descent.js';
 import type { Budget, MethodConfig } from './method.js';
 import type { Fields } from '../vec/fields.js';
@@ -16,7 +22,11 @@ export interface LocalClientState {
   gradient: Float64Array;
 }
 
-export function initLocalClient(dim: number, cfg: MethodConfig, clientId: number): LocalClientState {
+export function initLocalClient(
+  dim: number,
+  cfg: MethodConfig,
+  clientId: number,
+): LocalClientState {
   assertConfig(dim, cfg);
   assertClientId(clientId, cfg);
   return { dim, clientId, iterate: new Float64Array(dim), gradient: new Float64Array(dim) };
@@ -26,7 +36,13 @@ export function initLocalClient(dim: number, cfg: MethodConfig, clientId: number
  * y <- x from the down field "model", `steps` plain gradient steps of size budget.stepSize,
  * and the upload { delta: y - x } (a fresh array).
  */
-export function localDescentDelta(client: LocalClientState, objective: Objective, down: Fields, budget: Budget, steps: number): Fields {
+export function localDescentDelta(
+  client: LocalClientState,
+  objective: Objective,
+  down: Fields,
+  budget: Budget,
+  steps: number,
+): Fields {
   assertObjectiveDimension(objective, client.dim);
   assertBudget(budget);
   const x = requireField(down, 'model', client.dim);

@@ -6,7 +6,12 @@ import type { Objective } from '../problem/objective.js';
 import type { MinibatchSampler } from '../problem/minibatch-sampler.js';
 
 /** out <- the gradient used by one local step: full, or over the sampler's next minibatch. */
-export function stepGradient(objective: Objective, sampler: MinibatchSampler | null, y: Float64Array, out: Float64Array): void {
+export function stepGradient(
+  objective: Objective,
+  sampler: MinibatchSampler | null,
+  y: Float64Array,
+  out: Float64Array,
+): void {
   if (sampler === null) objective.gradient(y, out);
   else objective.minibatchGradient(y, sampler.next(), out);
 }

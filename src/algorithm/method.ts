@@ -7,7 +7,8 @@ import type { Objective } from '../problem/objective.js';
 import type { MinibatchSampler } from '../problem/minibatch-sampler.js';
 import type { Fields } from '../vec/fields.js';
 
-export type MethodName = 'gd' | 'fedavg' | 'fedprox' | 'fednova' | 'scaffold' | 'fedlin' | 'fedsplit';
+export type MethodName =
+  'gd' | 'fedavg' | 'fedprox' | 'fednova' | 'scaffold' | 'fedlin' | 'fedsplit';
 
 /** Method settings resolved from the scenario (numbers only; no 'auto' left). */
 export interface MethodConfig {
@@ -62,7 +63,13 @@ export interface Method<ServerState = unknown, ClientState = unknown> {
   /** Vectors going down for this exchange. Must not be mutated by the receiver. */
   broadcast(server: ServerState, exchange: string): Fields;
   /** A client's local work; returns the vectors going up (before compression). */
-  work(client: ClientState, objective: Objective, down: Fields, budget: Budget, exchange: string): Fields;
+  work(
+    client: ClientState,
+    objective: Objective,
+    down: Fields,
+    budget: Budget,
+    exchange: string,
+  ): Fields;
   /** Folds the (decompressed) uploads into the server state; uploads arrive sorted by client id. */
   aggregate(server: ServerState, uploads: Upload[], exchange: string): void;
   /**

@@ -13,7 +13,12 @@ export function renormalizedWeights(uploads: readonly Upload[]): Float64Array {
 }
 
 /** out <- sum_i coefficients[i] * uploads[i].fields[name]; fields already checked by assertUploads. */
-export function weightedFieldSum(uploads: readonly Upload[], coefficients: Float64Array, name: string, out: Float64Array): void {
+export function weightedFieldSum(
+  uploads: readonly Upload[],
+  coefficients: Float64Array,
+  name: string,
+  out: Float64Array,
+): void {
   out.fill(0);
   for (let i = 0; i < uploads.length; i++) {
     const v = uploads[i].fields[name];

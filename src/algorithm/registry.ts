@@ -11,9 +11,18 @@ import { scaffold } from './scaffold.js';
 import type { Method, MethodName } from './method.js';
 import { MethodError } from './method-error.js';
 
-const METHODS: Readonly<Record<MethodName, Method>> = { gd, fedavg, fedprox, fednova, scaffold, fedlin, fedsplit };
+const METHODS: Readonly<Record<MethodName, Method>> = {
+  gd,
+  fedavg,
+  fedprox,
+  fednova,
+  scaffold,
+  fedlin,
+  fedsplit,
+};
 
 export function methodByName(name: MethodName): Method {
-  if (!Object.hasOwn(METHODS, name)) throw new MethodError('E_METHOD_UNKNOWN', `no method named "${String(name)}"`);
+  if (!Object.hasOwn(METHODS, name))
+    throw new MethodError('E_METHOD_UNKNOWN', `no method named "${String(name)}"`);
   return METHODS[name];
 }

@@ -93,7 +93,15 @@ export const scaffold: Method<ScaffoldServerState, ScaffoldClientState> = {
     for (let j = 0; j < correction.length; j++) correction[j] = c[j] - ci[j];
     const y = client.iterate;
     y.set(x);
-    descend(objective, budget.sampler, y, budget.localSteps, budget.stepSize, correction, client.gradient);
+    descend(
+      objective,
+      budget.sampler,
+      y,
+      budget.localSteps,
+      budget.stepSize,
+      correction,
+      client.gradient,
+    );
 
     // Option II: c_i+ - c_i = -c + (x - y) / (tau_i eta_i); the client adds the same vector it
     // uploads, so that the server's c stays the weighted sum of the clients' c_i.

@@ -17,6 +17,7 @@ export class CodedError<Code extends string> extends Error {
  * E_COMPRESS_NOT_FINITE, ...). A diverging run is recognised by this, not by one layer's code.
  */
 export function isNonFiniteError(error: unknown): boolean {
-  const code = typeof error === 'object' && error !== null ? (error as { code?: unknown }).code : undefined;
+  const code =
+    typeof error === 'object' && error !== null ? (error as { code?: unknown }).code : undefined;
   return typeof code === 'string' && /^E_([A-Z]+_)?NOT_FINITE$/.test(code);
 }

@@ -80,7 +80,12 @@ export class Rng {
     const expander = new SplitMix64(toUint64(seed, 'seed'));
     // splitmix64 is a bijection of its counter, so four consecutive outputs are never all
     // zero: the all-zero state (xoshiro's one fixed point) cannot arise.
-    return new Rng([expander.nextUint64(), expander.nextUint64(), expander.nextUint64(), expander.nextUint64()]);
+    return new Rng([
+      expander.nextUint64(),
+      expander.nextUint64(),
+      expander.nextUint64(),
+      expander.nextUint64(),
+    ]);
   }
 
   /** A generator with the raw state s0..s3 (for published test vectors); not all zero. */
@@ -108,8 +113,14 @@ export class Rng {
   /** One xoshiro256** step: output rotl(s1 * 5, 7) * 9 into outHi/outLo, then advance. */
   private step(): void {
     const s = this.state;
-    const s0h = s[0], s0l = s[1], s1h = s[2], s1l = s[3];
-    const s2h = s[4], s2l = s[5], s3h = s[6], s3l = s[7];
+    const s0h = s[0],
+      s0l = s[1],
+      s1h = s[2],
+      s1l = s[3];
+    const s2h = s[4],
+      s2l = s[5],
+      s3h = s[6],
+      s3l = s[7];
 
     // s1 * 5 (mod 2^64): the low product is exact in a double (< 2^35), its overflow carries.
     const p5 = s1l * 5;
@@ -127,8 +138,10 @@ export class Rng {
     const th = ((s1h << 17) | (s1l >>> 15)) >>> 0;
     const tl = (s1l << 17) >>> 0;
     // s2 ^= s0; s3 ^= s1; s1 ^= s2; s0 ^= s3; s2 ^= t; s3 = rotl(s3, 45)
-    const n2h = s2h ^ s0h, n2l = s2l ^ s0l;
-    const n3h = s3h ^ s1h, n3l = s3l ^ s1l;
+    const n2h = s2h ^ s0h,
+      n2l = s2l ^ s0l;
+    const n3h = s3h ^ s1h,
+      n3l = s3l ^ s1l;
     s[2] = s1h ^ n2h;
     s[3] = s1l ^ n2l;
     s[0] = s0h ^ n3h;
@@ -273,10 +286,16 @@ export class Rng {
    */
   sampleWithoutReplacement(n: number, k: number): Uint32Array {
     if (!Number.isInteger(n) || n < 0 || n > 0xffffffff) {
-      throw new RngError('E_RNG_ARGUMENT', `sampleWithoutReplacement needs an integer n in [0, 2^32), got ${n}`);
+      throw new RngError(
+        'E_RNG_ARGUMENT',
+        `sampleWithoutReplacement needs an integer n in [0, 2^32), got ${n}`,
+      );
     }
     if (!Number.isInteger(k) || k < 0 || k > n) {
-      throw new RngError('E_RNG_ARGUMENT', `sampleWithoutReplacement needs an integer k in [0, ${n}], got ${k}`);
+      throw new RngError(
+        'E_RNG_ARGUMENT',
+        `sampleWithoutReplacement needs an integer k in [0, ${n}], got ${k}`,
+      );
     }
     const chosen = new Set<number>();
     for (let j = n - k; j < n; j++) {

@@ -4,7 +4,8 @@
 
 /** Indices 0..length-1, at most `pointsMax` of them, evenly spread, always first and last. */
 export function thinIndices(length: number, pointsMax: number): number[] {
-  if (!Number.isInteger(pointsMax) || pointsMax < 2) throw new RangeError(`thinIndices: pointsMax must be an integer >= 2, got ${pointsMax}`);
+  if (!Number.isInteger(pointsMax) || pointsMax < 2)
+    throw new RangeError(`thinIndices: pointsMax must be an integer >= 2, got ${pointsMax}`);
   if (length <= pointsMax) return Array.from({ length }, (_, i) => i);
   const indices: number[] = [];
   const step = (length - 1) / (pointsMax - 1);

@@ -15,14 +15,31 @@ import { runDistributed } from './run-distributed.js';
 import { readRunResults, reportFileName } from './report-command.js';
 import { buildRunReport } from '../report/run-report-page.js';
 import { expandVariants, type Variant } from '../report/compare-variants.js';
-import { checkLadders, ladderName, laddersFromScenario, rungText, rungTweaks, type Ladder } from '../report/ladder.js';
+import {
+  checkLadders,
+  ladderName,
+  laddersFromScenario,
+  rungText,
+  rungTweaks,
+  type Ladder,
+} from '../report/ladder.js';
 import { parseLadderOption } from '../report/ladder-option.js';
 import { ReportError } from '../report/report-error.js';
-import { buildComparison, comparisonCsv, comparisonJson, type Comparison, type VariantOutcome } from '../report/compare-table.js';
+import {
+  buildComparison,
+  comparisonCsv,
+  comparisonJson,
+  type Comparison,
+  type VariantOutcome,
+} from '../report/compare-table.js';
 import { buildComparePage } from '../report/compare-page.js';
 import { formatNumber } from '../report/text-table.js';
 
-export const compareFiles = { html: 'compare.html', csv: 'compare.csv', json: 'compare.json' } as const;
+export const compareFiles = {
+  html: 'compare.html',
+  csv: 'compare.csv',
+  json: 'compare.json',
+} as const;
 
 export interface CompareOptions {
   /** `--ladder` texts; when given, they replace the scenario's own ladders */
@@ -63,25 +80,37 @@ function checkRungs(document: unknown, tweaks: readonly Tweak[], ladders: readon
         scenarioFromDocument(document, [...tweaks, ...rungTweaks(ladder, i)]);
       } catch (error) {
         const reason = reasonOf(error, ladder.fields.length === 1 ? ladder.fields[0] : null);
-        throw new ReportError('E_LADDER_RUNG', `ladder ${ladderName(ladder)}, rung ${i + 1} (${rungText(rung)}): ${reason}`);
+        throw new ReportError(
+          'E_LADDER_RUNG',
+          `ladder ${ladderName(ladder)}, rung ${i + 1} (${rungText(rung)}): ${reason}`,
+        );
       }
     });
   }
 }
 
 /** Validates the base scenario, every rung and every variant before anything runs, so bad input costs nothing. */
-export function planComparison(file: string, options: Pick<CompareOptions, 'ladder' | 'tweak'>): ComparisonPlan {
+export function planComparison(
+  file: string,
+  options: Pick<CompareOptions, 'ladder' | 'tweak'>,
+): ComparisonPlan {
   const document = readScenarioDocument(file);
   const tweaks = options.tweak.map(parseTweak);
   const base = scenarioFromDocument(document, tweaks);
-  const ladders = options.ladder.length > 0 ? options.ladder.map(parseLadderOption) : laddersFromScenario(base.ladders);
+  const ladders =
+    options.ladder.length > 0
+      ? options.ladder.map(parseLadderOption)
+      : laddersFromScenario(base.ladders);
   checkLadders(ladders);
   checkRungs(document, tweaks, ladders);
   const variants = expandVariants(ladders).map((variant) => {
     try {
       return { variant, scenario: scenarioFromDocument(document, [...tweaks, ...variant.tweaks]) };
     } catch (error) {
-      throw new ReportError('E_COMPARE_VARIANTS', `variant ${variant.index + 1} (${variant.label}): these rungs do not go together: ${reasonOf(error, null)}`);
+      throw new ReportError(
+        'E_COMPARE_VARIANTS',
+        `variant ${variant.index + 1} (${variant.label}): these rungs do not go together: ${reasonOf(error, null)}`,
+      );
     }
   });
   for (const { scenario } of variants) assertPlannable(scenario);
@@ -90,11 +119,19 @@ export function planComparison(file: string, options: Pick<CompareOptions, 'ladd
 
 /** results/compare-<scenario>-<utc stamp>: sorts by time and says what was compared. */
 export function defaultCompareDir(scenario: Scenario, now: Date): string {
-  const stamp = now.toISOString().replace(/[-:]/g, '').replace(/\.\d+Z$/, 'Z');
+  const stamp = now
+    .toISOString()
+    .replace(/[-:]/g, '')
+    .replace(/\.\d+Z$/, 'Z');
   return join('results', `compare-${scenario.name.replace(/[^A-Za-z0-9_.-]+/g, '_')}-${stamp}`);
 }
 
-async function runVariant(planned: PlannedVariant, dir: string, distributed: boolean, io: CompareIo): Promise<void> {
+async function runVariant(
+  planned: PlannedVariant,
+  dir: string,
+  distributed: boolean,
+  io: CompareIo,
+): Promise<void> {
   if (distributed) {
     await runDistributed(planned.scenario, dir, { out: io.err, err: io.err });
     return;
@@ -103,7 +140,12 @@ async function runVariant(planned: PlannedVariant, dir: string, distributed: boo
 }
 
 /** Runs every variant in turn, writes the folders and the comparison files; returns the comparison. */
-export async function runComparison(plan: ComparisonPlan, outDir: string, options: Pick<CompareOptions, 'distributed'>, io: CompareIo): Promise<Comparison> {
+export async function runComparison(
+  plan: ComparisonPlan,
+  outDir: string,
+  options: Pick<CompareOptions, 'distributed'>,
+  io: CompareIo,
+): Promise<Comparison> {
   mkdirSync(outDir, { recursive: true });
   const outcomes: VariantOutcome[] = [];
   for (const planned of plan.variants) {
@@ -112,7 +154,9 @@ export async function runComparison(plan: ComparisonPlan, outDir: string, option
     const results = readRunResults(dir);
     writeFileSync(join(dir, reportFileName), await buildRunReport(results));
     const s = results.summary;
-    io.err(`variant ${planned.variant.index + 1}/${plan.variants.length} ${planned.variant.label}: ${s.rounds} rounds (${s.stopReason}), f-f* ${formatNumber(s.suboptimality.final)}\n`);
+    io.err(
+      `variant ${planned.variant.index + 1}/${plan.variants.length} ${planned.variant.label}: ${s.rounds} rounds (${s.stopReason}), f-f* ${formatNumber(s.suboptimality.final)}\n`,
+    );
     outcomes.push({ variant: planned.variant, summary: s, rounds: results.rounds });
   }
   const comparison = buildComparison(plan.base.name, plan.base.run.target, plan.ladders, outcomes);

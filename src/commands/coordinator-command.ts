@@ -9,11 +9,27 @@ import type { Scenario } from '../scenario/schema.js';
 import type { RoundRecord } from '../engine/round-record.js';
 import { Coordinator } from '../../server/coordinator.js';
 import type { TlsFiles } from '../../server/listener.js';
-import { metricsListeningLine, startMetricsServer, type MetricsServer } from '../../runtime/metrics-server.js';
+import {
+  metricsListeningLine,
+  startMetricsServer,
+  type MetricsServer,
+} from '../../runtime/metrics-server.js';
 import { isLoopbackHost, parseHostPort } from '../../runtime/address.js';
 import { listenFailure } from '../../runtime/listen-error.js';
-import { lingerWithMetrics, writeDistributedResults, RunInterrupted, type DistributedRunResult, type MetricsServing } from './run-distributed.js';
-import { keyFileSource, KEY_FILE_ENVIRONMENT_VARIABLE, readKeyFile, writeFreshKeyFile, type FreshKeyFile } from './key-file.js';
+import {
+  lingerWithMetrics,
+  writeDistributedResults,
+  RunInterrupted,
+  type DistributedRunResult,
+  type MetricsServing,
+} from './run-distributed.js';
+import {
+  keyFileSource,
+  KEY_FILE_ENVIRONMENT_VARIABLE,
+  readKeyFile,
+  writeFreshKeyFile,
+  type FreshKeyFile,
+} from './key-file.js';
 
 export interface CoordinatorCommandOptions {
   listen: string;
@@ -54,19 +70,28 @@ export const HEARTBEAT_SILENCE_SECONDS_MAX = 3600;
  * Heartbeat timing for a silence limit: beats at the protocol default's ratio (a sixth of the
  * limit), so that a worker is lost only after missing several in a row.
  */
-export function heartbeatForSilence(silenceSeconds: number): { intervalSeconds: number; silenceSeconds: number } {
-  const ratio = HANDSHAKE_LIMITS.heartbeatIntervalSeconds / HANDSHAKE_LIMITS.heartbeatSilenceSeconds;
+export function heartbeatForSilence(silenceSeconds: number): {
+  intervalSeconds: number;
+  silenceSeconds: number;
+} {
+  const ratio =
+    HANDSHAKE_LIMITS.heartbeatIntervalSeconds / HANDSHAKE_LIMITS.heartbeatSilenceSeconds;
   return { intervalSeconds: silenceSeconds * ratio, silenceSeconds };
 }
 
 /** Why these options may not be used (exit code 2), or null. */
-export function coordinatorOptionsProblem(opts: CoordinatorCommandOptions, env: NodeJS.ProcessEnv): string | null {
+export function coordinatorOptionsProblem(
+  opts: CoordinatorCommandOptions,
+  env: NodeJS.ProcessEnv,
+): string | null {
   const address = parseHostPort(opts.listen);
-  if (address === null) return `--listen: expected HOST:PORT (e.g. 0.0.0.0:7070), got "${opts.listen}"`;
+  if (address === null)
+    return `--listen: expected HOST:PORT (e.g. 0.0.0.0:7070), got "${opts.listen}"`;
   if (!isLoopbackHost(address.host) && keyFileSource(opts.keyFile, env) === null) {
     return `refusing to listen on ${address.host} without a key file: anyone who can reach the port could join. Give --key-file PATH (or ${KEY_FILE_ENVIRONMENT_VARIABLE}), or listen on 127.0.0.1`;
   }
-  if ((opts.tlsCert === undefined) !== (opts.tlsKey === undefined)) return '--tls-cert and --tls-key go together';
+  if ((opts.tlsCert === undefined) !== (opts.tlsKey === undefined))
+    return '--tls-cert and --tls-key go together';
   return null;
 }
 
@@ -82,13 +107,21 @@ export async function runCoordinatorCommand(
   const source = keyFileSource(opts.keyFile, env);
   // Read before anything listens, so that a bad key file ends the command at once.
   const givenKey = source === null ? null : readKeyFile(source);
-  if (givenKey === null && !isLoopbackHost(address.host)) throw new RangeError(`a fresh key file serves loopback only, not ${address.host}`);
+  if (givenKey === null && !isLoopbackHost(address.host))
+    throw new RangeError(`a fresh key file serves loopback only, not ${address.host}`);
   const fresh = givenKey === null ? writeFreshKeyFile() : null;
   const removeFresh = (): void => fresh?.remove();
   // A second Ctrl-C exits at once, past the finally below.
   process.once('exit', removeFresh);
   try {
-    return await coordinate(scenario, opts, { key: givenKey ?? fresh!.key, fresh }, outDir, io, metrics);
+    return await coordinate(
+      scenario,
+      opts,
+      { key: givenKey ?? fresh!.key, fresh },
+      outDir,
+      io,
+      metrics,
+    );
   } finally {
     removeFresh();
     process.off('exit', removeFresh);
@@ -104,7 +137,8 @@ async function coordinate(
   metrics: MetricsServing | null,
 ): Promise<DistributedRunResult> {
   const address = parseHostPort(opts.listen)!;
-  const tls: TlsFiles | null = opts.tlsCert && opts.tlsKey ? { certFile: opts.tlsCert, keyFile: opts.tlsKey } : null;
+  const tls: TlsFiles | null =
+    opts.tlsCert && opts.tlsKey ? { certFile: opts.tlsCert, keyFile: opts.tlsKey } : null;
   const coordinator = new Coordinator(scenario, {
     host: address.host,
     port: address.port,
@@ -117,8 +151,12 @@ async function coordinate(
     handshakeTimeoutSeconds: 10,
     exchangeTimeoutSeconds: 300,
     wallGraceSeconds: 0.5,
-    ...(opts.heartbeatSilenceSeconds === undefined ? {} : { heartbeat: heartbeatForSilence(opts.heartbeatSilenceSeconds) }),
-    ...(opts.resumeGraceSeconds === undefined ? {} : { resumeGraceSeconds: opts.resumeGraceSeconds }),
+    ...(opts.heartbeatSilenceSeconds === undefined
+      ? {}
+      : { heartbeat: heartbeatForSilence(opts.heartbeatSilenceSeconds) }),
+    ...(opts.resumeGraceSeconds === undefined
+      ? {}
+      : { resumeGraceSeconds: opts.resumeGraceSeconds }),
     onRound: io.onRound,
     log: (line) => io.err(`coordinator: ${line}\n`),
   });
@@ -141,12 +179,21 @@ async function coordinate(
     const url = await coordinator.listen().catch((error: unknown) => {
       throw listenFailure(error, '--listen', address);
     });
-    if (auth.fresh !== null) io.err(`key file: ${auth.fresh.path} (fresh, private to you, removed when the coordinator ends; workers on this machine join with --key-file ${auth.fresh.path})\n`);
+    if (auth.fresh !== null)
+      io.err(
+        `key file: ${auth.fresh.path} (fresh, private to you, removed when the coordinator ends; workers on this machine join with --key-file ${auth.fresh.path})\n`,
+      );
     io.err(`listening on ${url}\n`);
     const outcome = await coordinator.run();
     const summary = writeDistributedResults(outcome, outDir);
-    if (interrupted !== null) throw new RunInterrupted(`interrupted by ${interrupted}; partial results in ${outDir}`);
-    await lingerWithMetrics(metricsServer, metrics?.lingerSeconds ?? 0, io.err, (cut) => (cutLinger = cut));
+    if (interrupted !== null)
+      throw new RunInterrupted(`interrupted by ${interrupted}; partial results in ${outDir}`);
+    await lingerWithMetrics(
+      metricsServer,
+      metrics?.lingerSeconds ?? 0,
+      io.err,
+      (cut) => (cutLinger = cut),
+    );
     return { outcome, summary };
   } finally {
     await metricsServer?.close();

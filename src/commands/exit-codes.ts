@@ -48,8 +48,11 @@ export const BAD_INPUT_CODES: ReadonlySet<string> = new Set([
 
 /** The exit code for an error a command did not handle itself. */
 export function exitCodeOf(error: unknown): number {
-  const code = typeof error === 'object' && error !== null ? (error as { code?: unknown }).code : undefined;
-  return typeof code === 'string' && BAD_INPUT_CODES.has(code) ? exitCodes.badInput : exitCodes.failure;
+  const code =
+    typeof error === 'object' && error !== null ? (error as { code?: unknown }).code : undefined;
+  return typeof code === 'string' && BAD_INPUT_CODES.has(code)
+    ? exitCodes.badInput
+    : exitCodes.failure;
 }
 
 export const exitCodesHelp = `

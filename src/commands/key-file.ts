@@ -43,7 +43,10 @@ export interface KeyFileSource {
 }
 
 /** The key file named by --key-file, else by ROUNDWIRE_KEY_FILE; null when neither names one. */
-export function keyFileSource(option: string | undefined, env: NodeJS.ProcessEnv): KeyFileSource | null {
+export function keyFileSource(
+  option: string | undefined,
+  env: NodeJS.ProcessEnv,
+): KeyFileSource | null {
   if (option !== undefined) return { path: option, origin: '--key-file' };
   const named = env[KEY_FILE_ENVIRONMENT_VARIABLE];
   if (named === undefined || named === '') return null;
@@ -63,14 +66,21 @@ function statOf(source: KeyFileSource): Stats {
 export function readKeyFile(source: KeyFileSource): Uint8Array {
   const { path, origin } = source;
   const stats = statOf(source);
-  if (!stats.isFile()) throw new KeyFileError('E_KEY_FILE', `${origin}: ${path} is not a regular file`);
+  if (!stats.isFile())
+    throw new KeyFileError('E_KEY_FILE', `${origin}: ${path} is not a regular file`);
   // Windows reports no group or other bits worth checking; its folders' ACLs protect the file.
   if (process.platform !== 'win32' && (stats.mode & SHARED_MODE_BITS) !== 0) {
     const mode = (stats.mode & 0o777).toString(8).padStart(3, '0');
-    throw new KeyFileError('E_KEY_FILE', `${origin}: ${path} is open to other users (mode ${mode}); make it private with chmod 600 ${path}`);
+    throw new KeyFileError(
+      'E_KEY_FILE',
+      `${origin}: ${path} is open to other users (mode ${mode}); make it private with chmod 600 ${path}`,
+    );
   }
   if (stats.size > KEY_FILE_BYTES_MAX) {
-    throw new KeyFileError('E_KEY_FILE', `${origin}: ${path} is ${stats.size} bytes, more than a key file holds (at most ${KEY_FILE_BYTES_MAX}); is it the right file?`);
+    throw new KeyFileError(
+      'E_KEY_FILE',
+      `${origin}: ${path} is ${stats.size} bytes, more than a key file holds (at most ${KEY_FILE_BYTES_MAX}); is it the right file?`,
+    );
   }
   let bytes: Buffer;
   try {
@@ -82,7 +92,10 @@ export function readKeyFile(source: KeyFileSource): Uint8Array {
   let end = bytes.length;
   while (end > 0 && (bytes[end - 1] === 0x0a || bytes[end - 1] === 0x0d)) end--;
   if (end < KEY_BYTES_MIN) {
-    throw new KeyFileError('E_KEY_FILE', `${origin}: ${path} holds a ${end}-byte key, at least ${KEY_BYTES_MIN} bytes expected; write a longer random one`);
+    throw new KeyFileError(
+      'E_KEY_FILE',
+      `${origin}: ${path} holds a ${end}-byte key, at least ${KEY_BYTES_MIN} bytes expected; write a longer random one`,
+    );
   }
   return new Uint8Array(bytes.subarray(0, end));
 }
@@ -101,5 +114,9 @@ export function writeFreshKeyFile(): FreshKeyFile {
   const path = join(folder, 'key');
   const text = randomBytes(FRESH_KEY_RANDOM_BYTES).toString('hex');
   writeFileSync(path, `${text}\n`, { mode: 0o600, flag: 'wx' });
-  return { path, key: new Uint8Array(Buffer.from(text, 'utf8')), remove: () => rmSync(folder, { recursive: true, force: true }) };
+  return {
+    path,
+    key: new Uint8Array(Buffer.from(text, 'utf8')),
+    remove: () => rmSync(folder, { recursive: true, force: true }),
+  };
 }

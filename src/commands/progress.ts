@@ -44,7 +44,11 @@ export class ProgressLine {
     const etaSeconds = perRound * (this.roundsMax - record.round);
     const text = `round ${record.round}/${this.roundsMax}  f-f* ${formatNumber(this.lastSuboptimality)}  payload ${formatBytes(this.bytesTotal)}  virtual ${formatNumber(record.virtualSeconds)} s  eta ${etaSeconds.toFixed(1)} s`;
     if (this.sink.isTTY) {
-      if (record.wallSeconds - this.lastDrawWallSeconds < this.redrawIntervalSeconds && record.round !== this.roundsMax) return;
+      if (
+        record.wallSeconds - this.lastDrawWallSeconds < this.redrawIntervalSeconds &&
+        record.round !== this.roundsMax
+      )
+        return;
       this.lastDrawWallSeconds = record.wallSeconds;
       this.sink.write(`\r\x1b[2K${text}`);
       return;

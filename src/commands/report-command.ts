@@ -15,7 +15,10 @@ function readResultsFile(dir: string, file: string): string {
     return readFileSync(join(dir, file), 'utf8');
   } catch (error) {
     const code = (error as NodeJS.ErrnoException).code ?? (error as Error).message;
-    throw new ReportError('E_RESULTS_FILE', `${join(dir, file)}: cannot read it (${code}); is ${dir} a results folder?`);
+    throw new ReportError(
+      'E_RESULTS_FILE',
+      `${join(dir, file)}: cannot read it (${code}); is ${dir} a results folder?`,
+    );
   }
 }
 
@@ -29,7 +32,10 @@ export function readRunResults(dir: string): RunResults {
 }
 
 /** Writes the report of the results folder `dir` to `outFile` (default dir/report.html); returns its path. */
-export async function writeRunReport(dir: string, outFile: string = join(dir, reportFileName)): Promise<string> {
+export async function writeRunReport(
+  dir: string,
+  outFile: string = join(dir, reportFileName),
+): Promise<string> {
   writeFileSync(outFile, await buildRunReport(readRunResults(dir)));
   return outFile;
 }

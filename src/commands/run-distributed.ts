@@ -13,7 +13,13 @@ import { Coordinator, type CoordinatorOptions } from '../../server/coordinator.j
 import { LocalWorker } from '../../server/local-workers.js';
 import { distributedDetails, engineOutcomeOf } from '../../server/results.js';
 import type { CoordinatorOutcome } from '../../server/run-outcome.js';
-import { lingerFor, metricsListeningLine, startMetricsServer, type MetricsAddress, type MetricsServer } from '../../runtime/metrics-server.js';
+import {
+  lingerFor,
+  metricsListeningLine,
+  startMetricsServer,
+  type MetricsAddress,
+  type MetricsServer,
+} from '../../runtime/metrics-server.js';
 import { finishRun, formatRunSummary } from './run-report.js';
 import { writeFreshKeyFile } from './key-file.js';
 import type { RunSummary } from '../engine/run-summary.js';
@@ -46,9 +52,16 @@ export interface MetricsServing {
 }
 
 /** Serves a finished run's final values for the linger time, or until `onCut` is handed a cut. */
-export async function lingerWithMetrics(server: MetricsServer | null, lingerSeconds: number, err: (text: string) => void, onCut: (cut: () => void) => void): Promise<void> {
+export async function lingerWithMetrics(
+  server: MetricsServer | null,
+  lingerSeconds: number,
+  err: (text: string) => void,
+  onCut: (cut: () => void) => void,
+): Promise<void> {
   if (server === null || lingerSeconds <= 0) return;
-  err(`metrics: the run is over; serving its final values at ${server.url} for ${lingerSeconds} s\n`);
+  err(
+    `metrics: the run is over; serving its final values at ${server.url} for ${lingerSeconds} s\n`,
+  );
   const linger = lingerFor(lingerSeconds);
   onCut(linger.cut);
   await linger.done;
@@ -67,12 +80,21 @@ export function writeDistributedResults(outcome: CoordinatorOutcome, outDir: str
   finishRun(engineOutcomeOf(outcome), 'distributed', outDir);
   const file = join(outDir, resultFiles.outcome);
   const summary = JSON.parse(readFileSync(file, 'utf8')) as RunSummary;
-  const merged = { ...summary, seconds: { ...summary.seconds, join: outcome.joinSeconds }, ...distributedDetails(outcome) };
+  const merged = {
+    ...summary,
+    seconds: { ...summary.seconds, join: outcome.joinSeconds },
+    ...distributedDetails(outcome),
+  };
   writeFileSync(file, `${JSON.stringify(merged, null, 2)}\n`);
   return merged as unknown as RunSummary;
 }
 
-export function coordinatorOptionsForEmbedded(scenario: Scenario, key: Uint8Array, workerCount: number, io: DistributedRunIo): CoordinatorOptions {
+export function coordinatorOptionsForEmbedded(
+  scenario: Scenario,
+  key: Uint8Array,
+  workerCount: number,
+  io: DistributedRunIo,
+): CoordinatorOptions {
   return {
     host: '127.0.0.1',
     port: 0,
@@ -88,12 +110,20 @@ export function coordinatorOptionsForEmbedded(scenario: Scenario, key: Uint8Arra
 }
 
 /** Runs the scenario with local worker processes; writes outDir; resolves to the summary. */
-export async function runDistributed(scenario: Scenario, outDir: string, io: DistributedRunIo, metrics: MetricsServing | null = null): Promise<DistributedRunResult> {
+export async function runDistributed(
+  scenario: Scenario,
+  outDir: string,
+  io: DistributedRunIo,
+  metrics: MetricsServing | null = null,
+): Promise<DistributedRunResult> {
   const workerCount = Math.min(scenario.run.workers, scenario.clients.count);
   const keyFile = writeFreshKeyFile();
   let coordinator: Coordinator;
   try {
-    coordinator = new Coordinator(scenario, coordinatorOptionsForEmbedded(scenario, keyFile.key, workerCount, io));
+    coordinator = new Coordinator(
+      scenario,
+      coordinatorOptionsForEmbedded(scenario, keyFile.key, workerCount, io),
+    );
   } catch (error) {
     keyFile.remove();
     throw error;
@@ -132,12 +162,23 @@ export async function runDistributed(scenario: Scenario, outDir: string, io: Dis
     const url = await coordinator.listen();
     const capacity = Math.ceil(scenario.clients.count / workerCount);
     for (let i = 0; i < workerCount; i++) {
-      const worker = new LocalWorker({ url, keyFile: keyFile.path, capacity, workerName: `local-${i + 1}` });
+      const worker = new LocalWorker({
+        url,
+        keyFile: keyFile.path,
+        capacity,
+        workerName: `local-${i + 1}`,
+      });
       workers.push(worker);
       io.err(`started worker local-${i + 1} (pid ${worker.child.pid})\n`);
       void worker.exited.then((code) => {
         // A worker that dies before the run is dealt would leave the join waiting for its timeout.
-        if (code !== 0 && interrupted === null && !runEnded) io.err(`worker local-${i + 1} exited with code ${code}\n${worker.recentStderr().map((l) => `  ${l}`).join('\n')}\n`);
+        if (code !== 0 && interrupted === null && !runEnded)
+          io.err(
+            `worker local-${i + 1} exited with code ${code}\n${worker
+              .recentStderr()
+              .map((l) => `  ${l}`)
+              .join('\n')}\n`,
+          );
       });
     }
     const outcome = await coordinator.run();
@@ -148,10 +189,16 @@ export async function runDistributed(scenario: Scenario, outDir: string, io: Dis
       throw new RunInterrupted(`interrupted by ${interrupted}; partial results in ${outDir}`);
     }
     const summary = writeDistributedResults(outcome, outDir);
-    await lingerWithMetrics(metricsServer, metrics?.lingerSeconds ?? 0, io.err, (cut) => (cutLinger = cut));
+    await lingerWithMetrics(
+      metricsServer,
+      metrics?.lingerSeconds ?? 0,
+      io.err,
+      (cut) => (cutLinger = cut),
+    );
     return { outcome, summary };
   } catch (error) {
-    if (interrupted !== null && !(error instanceof RunInterrupted)) throw new RunInterrupted(`interrupted by ${interrupted}`);
+    if (interrupted !== null && !(error instanceof RunInterrupted))
+      throw new RunInterrupted(`interrupted by ${interrupted}`);
     throw error;
   } finally {
     runEnded = true;
@@ -167,8 +214,16 @@ export async function runDistributed(scenario: Scenario, outDir: string, io: Dis
 
 export function formatDistributedSummary(result: DistributedRunResult, outDir: string): string {
   const { outcome, summary } = result;
-  const lost = outcome.lostWorkers.length === 0 ? 'none' : outcome.lostWorkers.map((w) => `${w.workerName} (round ${w.round}, clients ${w.clientIds.join(' ')})`).join(', ');
-  const errors = Object.entries({ ...outcome.protocolErrors.received, ...outcome.protocolErrors.frame }).map(([code, n]) => `${code} ${n}`).join(', ') || 'none';
+  const lost =
+    outcome.lostWorkers.length === 0
+      ? 'none'
+      : outcome.lostWorkers
+          .map((w) => `${w.workerName} (round ${w.round}, clients ${w.clientIds.join(' ')})`)
+          .join(', ');
+  const errors =
+    Object.entries({ ...outcome.protocolErrors.received, ...outcome.protocolErrors.frame })
+      .map(([code, n]) => `${code} ${n}`)
+      .join(', ') || 'none';
   const layers = outcome.bytesLayers;
   return `${formatRunSummary(summary, outDir)}bytes up/down: payload ${layers.payload.up}/${layers.payload.down}, encoded ${layers.encoded.up}/${layers.encoded.down}, wire ${layers.wire.up}/${layers.wire.down}\nworkers: ${outcome.workers.length}, lost: ${lost}; protocol errors: ${errors}; stop: ${outcome.stopReason}\n`;
 }

@@ -8,10 +8,20 @@ import { writeResultsFolder } from '../results/results-folder.js';
 import { formatTable } from '../report/text-table.js';
 import { formatBytes } from './progress.js';
 
-export function finishRun(outcome: RunOutcome, runtime: RunSummary['runtime'], outDir: string): RunSummary {
+export function finishRun(
+  outcome: RunOutcome,
+  runtime: RunSummary['runtime'],
+  outDir: string,
+): RunSummary {
   const prediction = predictRun(outcome.plan, outcome.theory);
   const summary = buildRunSummary(outcome, prediction, runtime);
-  writeResultsFolder(outDir, { scenario: outcome.plan.scenario, rounds: outcome.rounds, clients: outcome.clients, outcome: summary, finalModel: outcome.finalModel });
+  writeResultsFolder(outDir, {
+    scenario: outcome.plan.scenario,
+    rounds: outcome.rounds,
+    clients: outcome.clients,
+    outcome: summary,
+    finalModel: outcome.finalModel,
+  });
   return summary;
 }
 
@@ -22,7 +32,8 @@ export function formatRunSummary(s: RunSummary, outDir: string): string {
     ['floor f(limit) - f*', null, s.floor.measured, s.floor.predicted],
   ];
   const table = formatTable(['quantity', 'initial', 'measured', 'predicted'], rows);
-  const bytes = (b: { up: number; down: number }) => `${formatBytes(b.up)} up, ${formatBytes(b.down)} down`;
+  const bytes = (b: { up: number; down: number }) =>
+    `${formatBytes(b.up)} up, ${formatBytes(b.down)} down`;
   const lines = [
     `${s.scenario}: ${s.method}, ${s.rounds} rounds (${s.stopReason}), ${s.clients} clients, step size ${s.stepSize.toPrecision(4)}`,
     '',
@@ -31,7 +42,9 @@ export function formatRunSummary(s: RunSummary, outDir: string): string {
     `target ${s.target}: ${s.roundsToTarget === null ? 'not reached' : `reached at round ${s.roundsToTarget}, ${formatBytes(s.toTarget.payloadBytes ?? 0)} payload`}`,
     `payload bytes: ${bytes(s.bytes.payload)}${s.bytes.wire ? `; wire: ${bytes(s.bytes.wire)}` : ''}`,
     `seconds: ${s.seconds.virtual.toPrecision(4)} modelled, ${s.seconds.wall.toFixed(2)} wall; dropped updates ${s.droppedUpdates}`,
-    s.prediction.available ? `prediction: spectral radius ${s.prediction.spectralRadius?.toPrecision(6)}` : `prediction: none (${s.prediction.reason})`,
+    s.prediction.available
+      ? `prediction: spectral radius ${s.prediction.spectralRadius?.toPrecision(6)}`
+      : `prediction: none (${s.prediction.reason})`,
     `results: ${outDir}`,
   ];
   return `${lines.join('\n')}\n`;

@@ -44,7 +44,12 @@ export function theoryReport(scenario: Scenario): TheoryReport {
     conditionNumber: c.conditionNumber,
     hessianAtOptimum: c.hessianAtOptimum,
     heterogeneity: c.heterogeneity,
-    optimum: { loss: t.optimum.loss, gradientNorm: t.optimum.gradientNorm, iterations: t.optimum.iterations, x: Array.from(t.optimum.x) },
+    optimum: {
+      loss: t.optimum.loss,
+      gradientNorm: t.optimum.gradientNorm,
+      iterations: t.optimum.iterations,
+      x: Array.from(t.optimum.x),
+    },
     clients: c.clients.map((k, i) => ({
       id: i,
       samples: t.instance.sampleCounts[i],
@@ -70,12 +75,24 @@ export function formatTheoryReport(r: TheoryReport): string {
       ['Hessian at x*: largest', r.hessianAtOptimum.largest, 'Lanczos'],
       ['heterogeneity sum p_i |grad f_i(x*)|^2', r.heterogeneity, '0 iff x* minimizes every f_i'],
       ['optimum f*', r.optimum.loss, ''],
-      ['certificate |grad f(x*)|', r.optimum.gradientNorm, `after ${r.optimum.iterations} iterations`],
+      [
+        'certificate |grad f(x*)|',
+        r.optimum.gradientNorm,
+        `after ${r.optimum.iterations} iterations`,
+      ],
     ],
   );
   const clients = formatTable(
     ['client', 'samples', 'weight p_i', 'L_i', 'mu_i', '|grad f_i(x*)|', '|x_i* - x*|'],
-    r.clients.map((k) => [k.id, k.samples, k.weight, k.smoothness, k.strongConvexity, k.gradientNormAtOptimum, k.minimizerDistance]),
+    r.clients.map((k) => [
+      k.id,
+      k.samples,
+      k.weight,
+      k.smoothness,
+      k.strongConvexity,
+      k.gradientNormAtOptimum,
+      k.minimizerDistance,
+    ]),
   );
   return `${title}\n\n${summary}\n\n${clients}\n`;
 }

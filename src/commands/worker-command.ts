@@ -7,7 +7,13 @@ import { readFileSync } from 'node:fs';
 import { hostname } from 'node:os';
 import { Worker, type WorkerExit } from '../../client/worker.js';
 import { WorkerMetrics } from '../../client/metrics.js';
-import { lingerFor, metricsListeningLine, startMetricsServer, type MetricsAddress, type MetricsServer } from '../../runtime/metrics-server.js';
+import {
+  lingerFor,
+  metricsListeningLine,
+  startMetricsServer,
+  type MetricsAddress,
+  type MetricsServer,
+} from '../../runtime/metrics-server.js';
 import { keyFileSource, KEY_FILE_ENVIRONMENT_VARIABLE, readKeyFile } from './key-file.js';
 
 export interface WorkerCommandOptions {
@@ -32,12 +38,16 @@ export function readTrustedCertificates(file: string): { pem: string } | { probl
   let text: string;
   try {
     const bytes = readFileSync(file);
-    if (bytes.byteLength > CA_FILE_BYTES_MAX) return { problem: `--ca: ${file} is larger than ${CA_FILE_BYTES_MAX} bytes; expected PEM certificates` };
+    if (bytes.byteLength > CA_FILE_BYTES_MAX)
+      return {
+        problem: `--ca: ${file} is larger than ${CA_FILE_BYTES_MAX} bytes; expected PEM certificates`,
+      };
     text = bytes.toString('utf8');
   } catch (error) {
     return { problem: `--ca: cannot read ${file} (${(error as Error).message})` };
   }
-  if (!text.includes('-----BEGIN CERTIFICATE-----')) return { problem: `--ca: ${file} holds no PEM certificate (-----BEGIN CERTIFICATE-----)` };
+  if (!text.includes('-----BEGIN CERTIFICATE-----'))
+    return { problem: `--ca: ${file} holds no PEM certificate (-----BEGIN CERTIFICATE-----)` };
   return { pem: text };
 }
 
@@ -58,19 +68,30 @@ export function coordinatorUrlProblem(text: string): string | null {
 }
 
 /** Returns a problem with the arguments (bad input), or null when they are usable. */
-export function workerOptionsProblem(url: string, opts: WorkerCommandOptions, env: NodeJS.ProcessEnv): string | null {
+export function workerOptionsProblem(
+  url: string,
+  opts: WorkerCommandOptions,
+  env: NodeJS.ProcessEnv,
+): string | null {
   const urlProblem = coordinatorUrlProblem(url);
   if (urlProblem !== null) return urlProblem;
-  if (keyFileSource(opts.keyFile, env) === null) return `a key file is needed: --key-file PATH, or ${KEY_FILE_ENVIRONMENT_VARIABLE} naming the file`;
+  if (keyFileSource(opts.keyFile, env) === null)
+    return `a key file is needed: --key-file PATH, or ${KEY_FILE_ENVIRONMENT_VARIABLE} naming the file`;
   if (opts.ca !== undefined) {
-    if (!url.startsWith('wss://')) return `--ca is for a wss:// coordinator; the coordinator URL is "${url}"`;
+    if (!url.startsWith('wss://'))
+      return `--ca is for a wss:// coordinator; the coordinator URL is "${url}"`;
     const certificates = readTrustedCertificates(opts.ca);
     if ('problem' in certificates) return certificates.problem;
   }
   return null;
 }
 
-export async function runWorkerCommand(url: string, opts: WorkerCommandOptions, env: NodeJS.ProcessEnv, err: (text: string) => void): Promise<WorkerExit> {
+export async function runWorkerCommand(
+  url: string,
+  opts: WorkerCommandOptions,
+  env: NodeJS.ProcessEnv,
+  err: (text: string) => void,
+): Promise<WorkerExit> {
   const key = readKeyFile(keyFileSource(opts.keyFile, env)!);
   const workerName = opts.name ?? `${hostname()}-${process.pid}`;
   const metrics = opts.metrics === undefined ? null : new WorkerMetrics();
@@ -87,7 +108,9 @@ export async function runWorkerCommand(url: string, opts: WorkerCommandOptions, 
     workerName,
     threadsMax: opts.capacity,
     ...(metrics === null ? {} : { metrics }),
-    ...(certificates !== null && 'pem' in certificates ? { trustedCertificatesPem: certificates.pem } : {}),
+    ...(certificates !== null && 'pem' in certificates
+      ? { trustedCertificatesPem: certificates.pem }
+      : {}),
     log: (line) => err(`worker ${workerName}: ${line}\n`),
   });
   let cutLinger: () => void = () => undefined;
@@ -100,7 +123,9 @@ export async function runWorkerCommand(url: string, opts: WorkerCommandOptions, 
   try {
     const exit = await worker.run();
     if (metricsServer !== null && opts.metricsLinger > 0) {
-      err(`worker ${workerName}: metrics: the run is over; serving final values at ${metricsServer.url} for ${opts.metricsLinger} s\n`);
+      err(
+        `worker ${workerName}: metrics: the run is over; serving final values at ${metricsServer.url} for ${opts.metricsLinger} s\n`,
+      );
       const linger = lingerFor(opts.metricsLinger);
       cutLinger = linger.cut;
       await linger.done;

@@ -22,7 +22,11 @@ export function compressorForField(channel: ChannelSpec, field: string): Compres
 }
 
 /** The Rng a field's compressor needs, if any. */
-export function rngForSpec(spec: CompressorSpec, field: string, rngFor: RngForField | undefined): Rng | undefined {
+export function rngForSpec(
+  spec: CompressorSpec,
+  field: string,
+  rngFor: RngForField | undefined,
+): Rng | undefined {
   return spec.kind === 'rand-k' && rngFor !== undefined ? rngFor(field) : undefined;
 }
 

@@ -27,7 +27,10 @@ export function decompress(cv: CompressedVector): Float64Array {
  */
 export function axpyCompressed(a: number, cv: CompressedVector, out: Float64Array): void {
   if (out.length !== cv.dim) {
-    throw new CompressError('E_COMPRESS_DIMENSION', `compressed vector of dimension ${cv.dim} added to one of ${out.length}`);
+    throw new CompressError(
+      'E_COMPRESS_DIMENSION',
+      `compressed vector of dimension ${cv.dim} added to one of ${out.length}`,
+    );
   }
   const values = cv.values;
   const indices = cv.indices;
@@ -46,29 +49,50 @@ export function axpyCompressed(a: number, cv: CompressedVector, out: Float64Arra
 export function validateCompressedVector(cv: CompressedVector, expectedDim?: number): void {
   const { dim, indices, values } = cv;
   if (!Number.isInteger(dim) || dim < 1) {
-    throw new CompressError('E_COMPRESS_DIMENSION', `dimension must be a positive integer, got ${dim}`);
+    throw new CompressError(
+      'E_COMPRESS_DIMENSION',
+      `dimension must be a positive integer, got ${dim}`,
+    );
   }
   if (expectedDim !== undefined && dim !== expectedDim) {
-    throw new CompressError('E_COMPRESS_DIMENSION', `expected dimension ${expectedDim}, got ${dim}`);
+    throw new CompressError(
+      'E_COMPRESS_DIMENSION',
+      `expected dimension ${expectedDim}, got ${dim}`,
+    );
   }
   if (indices === null) {
     if (values.length !== dim) {
-      throw new CompressError('E_COMPRESS_DIMENSION', `dense form needs ${dim} values, got ${values.length}`);
+      throw new CompressError(
+        'E_COMPRESS_DIMENSION',
+        `dense form needs ${dim} values, got ${values.length}`,
+      );
     }
   } else {
     if (values.length !== indices.length) {
-      throw new CompressError('E_COMPRESS_DIMENSION', `${indices.length} indices but ${values.length} values`);
+      throw new CompressError(
+        'E_COMPRESS_DIMENSION',
+        `${indices.length} indices but ${values.length} values`,
+      );
     }
     if (indices.length > dim) {
-      throw new CompressError('E_COMPRESS_DIMENSION', `${indices.length} indices for dimension ${dim}`);
+      throw new CompressError(
+        'E_COMPRESS_DIMENSION',
+        `${indices.length} indices for dimension ${dim}`,
+      );
     }
     for (let i = 1; i < indices.length; i++) {
       if (indices[i] <= indices[i - 1]) {
-        throw new CompressError('E_COMPRESS_INDEX_ORDER', `indices must be strictly increasing at position ${i}`);
+        throw new CompressError(
+          'E_COMPRESS_INDEX_ORDER',
+          `indices must be strictly increasing at position ${i}`,
+        );
       }
     }
     if (indices.length > 0 && indices[indices.length - 1] >= dim) {
-      throw new CompressError('E_COMPRESS_INDEX_RANGE', `index ${indices[indices.length - 1]} is not below dimension ${dim}`);
+      throw new CompressError(
+        'E_COMPRESS_INDEX_RANGE',
+        `index ${indices[indices.length - 1]} is not below dimension ${dim}`,
+      );
     }
   }
   for (let i = 0; i < values.length; i++) {

@@ -32,7 +32,10 @@ export function keptCount(dim: number, spec: CompressorSpec): number {
   } else if (spec.fraction !== undefined) {
     const product = spec.fraction * dim;
     const nearest = Math.round(product);
-    k = Math.abs(product - nearest) <= INTEGER_SNAP_RELATIVE * Math.max(1, nearest) ? nearest : Math.ceil(product);
+    k =
+      Math.abs(product - nearest) <= INTEGER_SNAP_RELATIVE * Math.max(1, nearest)
+        ? nearest
+        : Math.ceil(product);
   } else {
     throw new CompressError('E_COMPRESS_SPEC', `${spec.kind} needs a fraction or a count`);
   }
@@ -55,7 +58,10 @@ function gather(
 function assertValuesFinite(values: Float64Array | Float32Array, spec: CompressorSpec): void {
   for (let i = 0; i < values.length; i++) {
     if (!Number.isFinite(values[i])) {
-      throw new CompressError('E_COMPRESS_NOT_FINITE', `a kept value is not finite at width ${spec.values} after ${spec.kind}`);
+      throw new CompressError(
+        'E_COMPRESS_NOT_FINITE',
+        `a kept value is not finite at width ${spec.values} after ${spec.kind}`,
+      );
     }
   }
 }
@@ -67,12 +73,21 @@ function assertValuesFinite(values: Float64Array | Float32Array, spec: Compresso
  */
 export function compress(v: Float64Array, spec: CompressorSpec, rng?: Rng): CompressedVector {
   const dim = v.length;
-  if (dim < 1) throw new CompressError('E_COMPRESS_DIMENSION', 'cannot compress a vector of dimension 0');
-  if (!allFinite(v)) throw new CompressError('E_COMPRESS_NOT_FINITE', 'cannot compress a vector with a NaN or an infinity');
+  if (dim < 1)
+    throw new CompressError('E_COMPRESS_DIMENSION', 'cannot compress a vector of dimension 0');
+  if (!allFinite(v))
+    throw new CompressError(
+      'E_COMPRESS_NOT_FINITE',
+      'cannot compress a vector with a NaN or an infinity',
+    );
   let result: CompressedVector;
   switch (spec.kind) {
     case 'none':
-      result = { dim, indices: null, values: spec.values === 'f64' ? v.slice() : Float32Array.from(v) };
+      result = {
+        dim,
+        indices: null,
+        values: spec.values === 'f64' ? v.slice() : Float32Array.from(v),
+      };
       break;
     case 'top-k': {
       const indices = topKIndices(v, keptCount(dim, spec));
@@ -80,10 +95,15 @@ export function compress(v: Float64Array, spec: CompressorSpec, rng?: Rng): Comp
       break;
     }
     case 'rand-k': {
-      if (rng === undefined) throw new CompressError('E_COMPRESS_RNG_REQUIRED', 'rand-k needs a seeded Rng');
+      if (rng === undefined)
+        throw new CompressError('E_COMPRESS_RNG_REQUIRED', 'rand-k needs a seeded Rng');
       const k = keptCount(dim, spec);
       const indices = rng.sampleWithoutReplacement(dim, k);
-      result = toWireForm(dim, indices, gather(v, indices, spec.unbiased ? dim / k : 1, spec.values));
+      result = toWireForm(
+        dim,
+        indices,
+        gather(v, indices, spec.unbiased ? dim / k : 1, spec.values),
+      );
       break;
     }
   }

@@ -23,7 +23,10 @@ export class ErrorFeedbackEncoder {
 
   constructor(dim: number, spec: CompressorSpec) {
     if (!Number.isInteger(dim) || dim < 1) {
-      throw new CompressError('E_COMPRESS_DIMENSION', `a channel needs a positive integer dimension, got ${dim}`);
+      throw new CompressError(
+        'E_COMPRESS_DIMENSION',
+        `a channel needs a positive integer dimension, got ${dim}`,
+      );
     }
     this.dim = dim;
     this.spec = spec;
@@ -35,7 +38,10 @@ export class ErrorFeedbackEncoder {
   /** c = C(v + e), then e <- v + e - c. rng: as for compress (rand-k only). */
   encode(v: Float64Array, rng?: Rng): CompressedVector {
     if (v.length !== this.dim) {
-      throw new CompressError('E_COMPRESS_DIMENSION', `channel of dimension ${this.dim} given a vector of ${v.length}`);
+      throw new CompressError(
+        'E_COMPRESS_DIMENSION',
+        `channel of dimension ${this.dim} given a vector of ${v.length}`,
+      );
     }
     if (!this.keepsMemory) return compress(v, this.spec, rng);
     const u = this.corrected;
@@ -55,7 +61,10 @@ export class ErrorFeedbackEncoder {
   /** Sets e to a copy of `memory` (from memory() of an encoder of the same channel), bit for bit. */
   restoreMemory(memory: Float64Array): void {
     if (memory.length !== this.dim) {
-      throw new CompressError('E_COMPRESS_DIMENSION', `channel of dimension ${this.dim} given a memory of ${memory.length}`);
+      throw new CompressError(
+        'E_COMPRESS_DIMENSION',
+        `channel of dimension ${this.dim} given a memory of ${memory.length}`,
+      );
     }
     this.residual.set(memory);
   }

@@ -65,11 +65,17 @@ export function encodeIndicesDeltaVarint(indices: Uint32Array): Uint8Array {
  */
 export function decodeIndicesDeltaVarint(bytes: Uint8Array, k: number): Uint32Array {
   if (!Number.isInteger(k) || k < 0) {
-    throw new CompressError('E_COMPRESS_VARINT', `index count must be a non-negative integer, got ${k}`);
+    throw new CompressError(
+      'E_COMPRESS_VARINT',
+      `index count must be a non-negative integer, got ${k}`,
+    );
   }
   // Every index takes at least one byte: this bounds the allocation below by the message size.
   if (k > bytes.length) {
-    throw new CompressError('E_COMPRESS_VARINT', `${k} indices cannot fit in ${bytes.length} bytes`);
+    throw new CompressError(
+      'E_COMPRESS_VARINT',
+      `${k} indices cannot fit in ${bytes.length} bytes`,
+    );
   }
   const out = new Uint32Array(k);
   let pos = 0;
@@ -84,10 +90,16 @@ export function decodeIndicesDeltaVarint(bytes: Uint8Array, k: number): Uint32Ar
       const byte = bytes[pos++];
       const last = (byte & 0x80) === 0;
       if (group === VARINT_BYTES_MAX - 1 && (!last || byte > 0x0f)) {
-        throw new CompressError('E_COMPRESS_VARINT', `index ${i} overflows 32 bits at byte ${pos - 1}`);
+        throw new CompressError(
+          'E_COMPRESS_VARINT',
+          `index ${i} overflows 32 bits at byte ${pos - 1}`,
+        );
       }
       if (last && byte === 0 && group > 0) {
-        throw new CompressError('E_COMPRESS_VARINT', `index ${i} has an overlong coding at byte ${pos - 1}`);
+        throw new CompressError(
+          'E_COMPRESS_VARINT',
+          `index ${i} has an overlong coding at byte ${pos - 1}`,
+        );
       }
       gap += (byte & 0x7f) * weight;
       if (last) break;
@@ -101,7 +113,10 @@ export function decodeIndicesDeltaVarint(bytes: Uint8Array, k: number): Uint32Ar
     previous = index;
   }
   if (pos !== bytes.length) {
-    throw new CompressError('E_COMPRESS_VARINT', `${bytes.length - pos} bytes left after ${k} indices`);
+    throw new CompressError(
+      'E_COMPRESS_VARINT',
+      `${bytes.length - pos} bytes left after ${k} indices`,
+    );
   }
   return out;
 }

@@ -23,7 +23,9 @@ export function sparseBytes(indices: Uint32Array, bytesPerValue: number): number
 /** The payload bytes a compressed vector carries in the form it is in. */
 export function payloadBytes(cv: CompressedVector): number {
   const bytesPerValue = cv.values.BYTES_PER_ELEMENT;
-  return cv.indices === null ? denseBytes(cv.dim, bytesPerValue) : sparseBytes(cv.indices, bytesPerValue);
+  return cv.indices === null
+    ? denseBytes(cv.dim, bytesPerValue)
+    : sparseBytes(cv.indices, bytesPerValue);
 }
 
 /** The payload bytes of a message's fields, summed. */

@@ -13,7 +13,12 @@ import type { Fields } from '../vec/fields.js';
 import { CompressError } from './compress-error.js';
 import type { ChannelSpec, RngForField } from './channel.js';
 import { compressorForField, downlinkMode, rngForSpec } from './channel.js';
-import { axpyCompressed, decompress, validateCompressedVector, type CompressedVector } from './compressed-vector.js';
+import {
+  axpyCompressed,
+  decompress,
+  validateCompressedVector,
+  type CompressedVector,
+} from './compressed-vector.js';
 import { compress } from './compressor.js';
 
 function replicaFor(replicas: Map<string, Float64Array>, field: string, dim: number): Float64Array {
@@ -22,18 +27,26 @@ function replicaFor(replicas: Map<string, Float64Array>, field: string, dim: num
     r = new Float64Array(dim);
     replicas.set(field, r);
   } else if (r.length !== dim) {
-    throw new CompressError('E_COMPRESS_DIMENSION', `replicated field "${field}" has dimension ${r.length}, given ${dim}`);
+    throw new CompressError(
+      'E_COMPRESS_DIMENSION',
+      `replicated field "${field}" has dimension ${r.length}, given ${dim}`,
+    );
   }
   return r;
 }
 
-function snapshotReplicas(replicas: ReadonlyMap<string, Float64Array>): Record<string, Float64Array> {
+function snapshotReplicas(
+  replicas: ReadonlyMap<string, Float64Array>,
+): Record<string, Float64Array> {
   const out: Record<string, Float64Array> = {};
   for (const [field, r] of replicas) out[field] = r.slice();
   return out;
 }
 
-function restoreReplicas(replicas: Map<string, Float64Array>, from: Readonly<Record<string, Float64Array>>): void {
+function restoreReplicas(
+  replicas: Map<string, Float64Array>,
+  from: Readonly<Record<string, Float64Array>>,
+): void {
   replicas.clear();
   for (const [field, r] of Object.entries(from)) replicas.set(field, Float64Array.from(r));
 }

@@ -12,7 +12,11 @@
 import type { Fields } from '../vec/fields.js';
 import type { ChannelSpec, RngForField } from './channel.js';
 import { compressorForField, rngForSpec } from './channel.js';
-import { decompress, validateCompressedVector, type CompressedVector } from './compressed-vector.js';
+import {
+  decompress,
+  validateCompressedVector,
+  type CompressedVector,
+} from './compressed-vector.js';
 import { ErrorFeedbackEncoder } from './error-feedback.js';
 import { ReplicaDecoder, ReplicaEncoder } from './replica.js';
 
@@ -73,7 +77,10 @@ export class UplinkEncoder {
         replicas[field] = memory;
         continue;
       }
-      const encoder = new ErrorFeedbackEncoder(memory.length, compressorForField(this.channel, field));
+      const encoder = new ErrorFeedbackEncoder(
+        memory.length,
+        compressorForField(this.channel, field),
+      );
       encoder.restoreMemory(memory);
       this.encoders.set(field, encoder);
     }

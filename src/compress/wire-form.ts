@@ -10,7 +10,11 @@ import type { CompressedVector } from './compressed-vector.js';
 import { denseBytes, sparseBytes } from './payload-bytes.js';
 
 /** Kept entries (sorted indices, one value each) -> the smaller wire form. */
-export function toWireForm(dim: number, indices: Uint32Array, values: Float64Array | Float32Array): CompressedVector {
+export function toWireForm(
+  dim: number,
+  indices: Uint32Array,
+  values: Float64Array | Float32Array,
+): CompressedVector {
   const bytesPerValue = values.BYTES_PER_ELEMENT;
   if (sparseBytes(indices, bytesPerValue) < denseBytes(dim, bytesPerValue)) {
     return { dim, indices, values };

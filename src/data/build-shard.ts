@@ -21,7 +21,12 @@ import { Rng } from '../base/rng.js';
 import { samplesForAllClients, samplesForClient } from './sample-counts.js';
 import type { Shard } from '../problem/shard.js';
 import { drawSamples, type SampleModel } from './synthetic.js';
-import { clientFeatureMean, clientMinimizer, parameterDimension, syntheticCentre } from './synthetic-models.js';
+import {
+  clientFeatureMean,
+  clientMinimizer,
+  parameterDimension,
+  syntheticCentre,
+} from './synthetic-models.js';
 
 type SyntheticData = Extract<Scenario['data'], { source: 'synthetic' }>;
 
@@ -45,7 +50,10 @@ function isDirect(scenario: Scenario): scenario is Scenario & { data: SyntheticD
 
 function checkClientId(scenario: Scenario, clientId: number): void {
   if (!Number.isInteger(clientId) || clientId < 0 || clientId >= scenario.clients.count) {
-    throw new DataError('E_DATA_SPEC', `client id ${clientId} is outside [0, ${scenario.clients.count})`);
+    throw new DataError(
+      'E_DATA_SPEC',
+      `client id ${clientId} is outside [0, ${scenario.clients.count})`,
+    );
   }
 }
 
@@ -71,7 +79,12 @@ function directShard(scenario: Scenario & { data: SyntheticData }, clientId: num
   const { seed, problem, data } = scenario;
   const p = data.features;
   const x0 = syntheticCentre(seed, parameterDimension(problem.kind, p, classCountOf(scenario)));
-  const sampleCount = samplesForClient(data.samplesPerClient, scenario.clients.count, seed, clientId);
+  const sampleCount = samplesForClient(
+    data.samplesPerClient,
+    scenario.clients.count,
+    seed,
+    clientId,
+  );
   checkValueCount(sampleCount, p);
   const model: SampleModel = {
     kind: problem.kind,
@@ -91,7 +104,9 @@ function directShard(scenario: Scenario & { data: SyntheticData }, clientId: num
   return { clientId, ...samples };
 }
 
-function syntheticPool(scenario: Scenario & { data: SyntheticData }): LabelledPool & { features: Float64Array; targets: Float64Array } {
+function syntheticPool(
+  scenario: Scenario & { data: SyntheticData },
+): LabelledPool & { features: Float64Array; targets: Float64Array } {
   const { seed, problem, data } = scenario;
   if (problem.kind === 'least-squares') {
     throw new DataError(
@@ -101,7 +116,10 @@ function syntheticPool(scenario: Scenario & { data: SyntheticData }): LabelledPo
     );
   }
   const p = data.features;
-  const total = samplesForAllClients(data.samplesPerClient, scenario.clients.count, seed).reduce((sum, n) => sum + n, 0);
+  const total = samplesForAllClients(data.samplesPerClient, scenario.clients.count, seed).reduce(
+    (sum, n) => sum + n,
+    0,
+  );
   checkValueCount(total, p);
   const model: SampleModel = {
     kind: problem.kind,
@@ -112,13 +130,22 @@ function syntheticPool(scenario: Scenario & { data: SyntheticData }): LabelledPo
     model: syntheticCentre(seed, parameterDimension(problem.kind, p, classCountOf(scenario))),
     noise: data.noise,
   };
-  const samples = drawSamples(Rng.derive(seed, 'pool', 'features'), Rng.derive(seed, 'pool', 'targets'), model, total);
+  const samples = drawSamples(
+    Rng.derive(seed, 'pool', 'features'),
+    Rng.derive(seed, 'pool', 'targets'),
+    model,
+    total,
+  );
   return { features: samples.features, targets: samples.targets, labels: samples.targets };
 }
 
-function datasetPool(scenario: Scenario): { featureCount: number; pool: LabelledPool & { features: Float64Array; targets: Float64Array } } {
+function datasetPool(scenario: Scenario): {
+  featureCount: number;
+  pool: LabelledPool & { features: Float64Array; targets: Float64Array };
+} {
   const data = scenario.data;
-  if (data.source !== 'dataset') throw new DataError('E_DATA_SPEC', 'not a data set scenario', 'data.source');
+  if (data.source !== 'dataset')
+    throw new DataError('E_DATA_SPEC', 'not a data set scenario', 'data.source');
   const dataset = loadDataset(data.name, { standardize: data.standardize });
   const classCount = dataset.classNames.length;
   if (scenario.problem.kind !== 'softmax') {
@@ -135,7 +162,12 @@ function datasetPool(scenario: Scenario): { featureCount: number; pool: Labelled
       'problem.classes',
     );
   }
-  const pool = { features: dataset.features, targets: dataset.labels, labels: dataset.labels, keys: dataset.keys };
+  const pool = {
+    features: dataset.features,
+    targets: dataset.labels,
+    labels: dataset.labels,
+    keys: dataset.keys,
+  };
   return { featureCount: dataset.featureCount, pool };
 }
 
@@ -159,7 +191,12 @@ function pooledData(scenario: Scenario): PooledData {
   } else {
     ({ featureCount, pool } = datasetPool(scenario));
   }
-  const parts = partitionPool(pool, scenario.data.partition, scenario.clients.count, Rng.derive(scenario.seed, 'partition'));
+  const parts = partitionPool(
+    pool,
+    scenario.data.partition,
+    scenario.clients.count,
+    Rng.derive(scenario.seed, 'partition'),
+  );
   const entry: PooledData = { featureCount, features: pool.features, targets: pool.targets, parts };
 
   if (poolCache.size >= POOL_CACHE_ENTRIES_MAX) {
@@ -180,7 +217,13 @@ function pooledShard(scenario: Scenario, clientId: number): Shard {
     shardFeatures.set(features.subarray(source * p, source * p + p), s * p);
     shardTargets[s] = targets[source];
   }
-  return { clientId, sampleCount: indices.length, featureCount: p, features: shardFeatures, targets: shardTargets };
+  return {
+    clientId,
+    sampleCount: indices.length,
+    featureCount: p,
+    features: shardFeatures,
+    targets: shardTargets,
+  };
 }
 
 /** Client clientId's shard: the same bytes in every process for the same scenario. */
@@ -191,11 +234,18 @@ export function buildShard(scenario: Scenario, clientId: number): Shard {
 
 /** Every client's shard, in client order. */
 export function buildAllShards(scenario: Scenario): Shard[] {
-  return Array.from({ length: scenario.clients.count }, (_, clientId) => buildShard(scenario, clientId));
+  return Array.from({ length: scenario.clients.count }, (_, clientId) =>
+    buildShard(scenario, clientId),
+  );
 }
 
 /** n_i for every client, without building the direct shards. */
 export function sampleCountsOf(scenario: Scenario): number[] {
-  if (isDirect(scenario)) return samplesForAllClients(scenario.data.samplesPerClient, scenario.clients.count, scenario.seed);
+  if (isDirect(scenario))
+    return samplesForAllClients(
+      scenario.data.samplesPerClient,
+      scenario.clients.count,
+      scenario.seed,
+    );
   return pooledData(scenario).parts.map((part) => part.length);
 }

@@ -8,14 +8,23 @@ import { DataError } from './data-error.js';
 /** lambda_j = conditionNumber^(-j/(p-1)), j = 0..p-1 (a single feature has variance 1). */
 export function featureVariances(featureCount: number, conditionNumber: number): Float64Array {
   if (!Number.isInteger(featureCount) || featureCount < 1) {
-    throw new DataError('E_DATA_SPEC', `data.features must be a positive integer, got ${featureCount}`, 'data.features');
+    throw new DataError(
+      'E_DATA_SPEC',
+      `data.features must be a positive integer, got ${featureCount}`,
+      'data.features',
+    );
   }
   if (!(conditionNumber >= 1) || !Number.isFinite(conditionNumber)) {
-    throw new DataError('E_DATA_SPEC', `data.conditionNumber must be finite and at least 1, got ${conditionNumber}`, 'data.conditionNumber');
+    throw new DataError(
+      'E_DATA_SPEC',
+      `data.conditionNumber must be finite and at least 1, got ${conditionNumber}`,
+      'data.conditionNumber',
+    );
   }
   const variances = new Float64Array(featureCount);
   variances[0] = 1;
-  for (let j = 1; j < featureCount; j++) variances[j] = conditionNumber ** (-j / (featureCount - 1));
+  for (let j = 1; j < featureCount; j++)
+    variances[j] = conditionNumber ** (-j / (featureCount - 1));
   // Pin the smallest eigenvalue so cond(Sigma) is the knob's value, not a rounding of it.
   if (featureCount > 1) variances[featureCount - 1] = 1 / conditionNumber;
   return variances;

@@ -31,7 +31,11 @@ export interface DatasetOptions {
  * by n, so that the scaled column has variance exactly 1 over these samples). A constant
  * column is only centred.
  */
-export function standardizeColumns(features: Float64Array, sampleCount: number, featureCount: number): void {
+export function standardizeColumns(
+  features: Float64Array,
+  sampleCount: number,
+  featureCount: number,
+): void {
   for (let j = 0; j < featureCount; j++) {
     let sum = 0;
     for (let s = 0; s < sampleCount; s++) sum += features[s * featureCount + j];
@@ -40,7 +44,8 @@ export function standardizeColumns(features: Float64Array, sampleCount: number, 
     for (let s = 0; s < sampleCount; s++) squares += (features[s * featureCount + j] - mean) ** 2;
     const deviation = Math.sqrt(squares / sampleCount);
     const divisor = deviation > 0 ? deviation : 1;
-    for (let s = 0; s < sampleCount; s++) features[s * featureCount + j] = (features[s * featureCount + j] - mean) / divisor;
+    for (let s = 0; s < sampleCount; s++)
+      features[s * featureCount + j] = (features[s * featureCount + j] - mean) / divisor;
   }
 }
 
@@ -49,7 +54,10 @@ function loadIris(): LabelledDataset {
   const classes = getClasses();
   const featureCount = 4;
   if (rows.length === 0 || rows.length !== classes.length) {
-    throw new DataError('E_DATASET', `iris: ${rows.length} feature rows but ${classes.length} class names`);
+    throw new DataError(
+      'E_DATASET',
+      `iris: ${rows.length} feature rows but ${classes.length} class names`,
+    );
   }
   const features = new Float64Array(rows.length * featureCount);
   rows.forEach((row, s) => {
@@ -66,8 +74,10 @@ function loadIris(): LabelledDataset {
 
 /** A fresh copy of the named data set (the caller may modify it). */
 export function loadDataset(name: DatasetName, options: DatasetOptions): LabelledDataset {
-  if (name !== 'iris') throw new DataError('E_DATASET', `unknown data set "${String(name)}"`, 'data.name');
+  if (name !== 'iris')
+    throw new DataError('E_DATASET', `unknown data set "${String(name)}"`, 'data.name');
   const dataset = loadIris();
-  if (options.standardize) standardizeColumns(dataset.features, dataset.sampleCount, dataset.featureCount);
+  if (options.standardize)
+    standardizeColumns(dataset.features, dataset.sampleCount, dataset.featureCount);
   return dataset;
 }

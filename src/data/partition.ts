@@ -59,11 +59,20 @@ export function nearEqualSizes(total: number, clientCount: number): number[] {
 }
 
 /** iid: a seeded shuffle of the pool cut into blocks of `sizes` (near-equal when absent). */
-export function partitionIid(poolSize: number, clientCount: number, rng: Rng, sizes?: readonly number[]): Uint32Array[] {
+export function partitionIid(
+  poolSize: number,
+  clientCount: number,
+  rng: Rng,
+  sizes?: readonly number[],
+): Uint32Array[] {
   requireEnoughSamples(poolSize, clientCount, 'clients.count');
   const blockSizes = sizes ?? nearEqualSizes(poolSize, clientCount);
   const total = blockSizes.reduce((sum, n) => sum + n, 0);
-  if (blockSizes.length !== clientCount || total !== poolSize || blockSizes.some((n) => !(Number.isInteger(n) && n >= 1))) {
+  if (
+    blockSizes.length !== clientCount ||
+    total !== poolSize ||
+    blockSizes.some((n) => !(Number.isInteger(n) && n >= 1))
+  ) {
     throw new DataError(
       'E_DATA_SPEC',
       `iid sizes must be ${clientCount} positive integers summing to ${poolSize}, got ${blockSizes.length} summing to ${total}`,
@@ -89,7 +98,11 @@ function indicesByLabel(labels: ArrayLike<number>): number[][] {
   for (let i = 0; i < labels.length; i++) {
     const label = labels[i];
     if (!Number.isInteger(label) || label < 0 || label > 0x7fffffff) {
-      throw new DataError('E_DATA_SPEC', `label partitions need class indices; sample ${i} has label ${label}`, 'data.partition');
+      throw new DataError(
+        'E_DATA_SPEC',
+        `label partitions need class indices; sample ${i} has label ${label}`,
+        'data.partition',
+      );
     }
     while (groups.length <= label) groups.push([]);
     groups[label].push(i);
@@ -103,10 +116,19 @@ function indicesByLabel(labels: ArrayLike<number>): number[][] {
  * client has no objective. That conditions the split on non-emptiness, a small tilt that only
  * matters when alpha is tiny or the pool barely exceeds the client count.
  */
-export function partitionDirichlet(pool: LabelledPool, clientCount: number, alpha: number, rng: Rng): Uint32Array[] {
+export function partitionDirichlet(
+  pool: LabelledPool,
+  clientCount: number,
+  alpha: number,
+  rng: Rng,
+): Uint32Array[] {
   requireEnoughSamples(pool.labels.length, clientCount, 'clients.count');
   if (!(alpha > 0) || !Number.isFinite(alpha)) {
-    throw new DataError('E_DATA_SPEC', `data.partition.alpha must be positive, got ${alpha}`, 'data.partition.alpha');
+    throw new DataError(
+      'E_DATA_SPEC',
+      `data.partition.alpha must be positive, got ${alpha}`,
+      'data.partition.alpha',
+    );
   }
   const classes = indicesByLabel(pool.labels);
   const concentration = new Float64Array(clientCount).fill(alpha);
@@ -123,7 +145,10 @@ export function partitionDirichlet(pool: LabelledPool, clientCount: number, alph
       let cumulative = 0;
       for (let client = 0; client < clientCount; client++) {
         cumulative += shares[client];
-        const end = client === clientCount - 1 ? order.length : Math.min(order.length, Math.round(cumulative * order.length));
+        const end =
+          client === clientCount - 1
+            ? order.length
+            : Math.min(order.length, Math.round(cumulative * order.length));
         for (let i = start; i < end; i++) lists[client].push(order[i]);
         start = end;
       }
@@ -142,9 +167,18 @@ export function partitionDirichlet(pool: LabelledPool, clientCount: number, alph
  * of near-equal size, and each client receives c of them in a seeded deal. A client sees at
  * most c classes plus any that a shard boundary straddles.
  */
-export function partitionShards(pool: LabelledPool, clientCount: number, classesPerClient: number, rng: Rng): Uint32Array[] {
+export function partitionShards(
+  pool: LabelledPool,
+  clientCount: number,
+  classesPerClient: number,
+  rng: Rng,
+): Uint32Array[] {
   if (!Number.isInteger(classesPerClient) || classesPerClient < 1) {
-    throw new DataError('E_DATA_SPEC', `data.partition.classesPerClient must be a positive integer, got ${classesPerClient}`, 'data.partition.classesPerClient');
+    throw new DataError(
+      'E_DATA_SPEC',
+      `data.partition.classesPerClient must be a positive integer, got ${classesPerClient}`,
+      'data.partition.classesPerClient',
+    );
   }
   const shardCount = clientCount * classesPerClient;
   if (pool.labels.length < shardCount) {
@@ -168,16 +202,26 @@ export function partitionShards(pool: LabelledPool, clientCount: number, classes
   for (let position = 0; position < shardCount; position++) {
     const shard = deal[position];
     const client = Math.floor(position / classesPerClient);
-    for (let i = shardStarts[shard]; i < shardStarts[shard] + shardSizes[shard]; i++) lists[client].push(byLabel[i]);
+    for (let i = shardStarts[shard]; i < shardStarts[shard] + shardSizes[shard]; i++)
+      lists[client].push(byLabel[i]);
   }
   return sortedCopies(lists);
 }
 
 /** Natural split: samples grouped by key; groups dealt round-robin to clients in a seeded order. */
-export function partitionNatural(pool: LabelledPool, clientCount: number, keyName: string, rng: Rng): Uint32Array[] {
+export function partitionNatural(
+  pool: LabelledPool,
+  clientCount: number,
+  keyName: string,
+  rng: Rng,
+): Uint32Array[] {
   const keys = pool.keys;
   if (keys === undefined) {
-    throw new DataError('E_DATA_SPEC', `data.partition.key "${keyName}" does not exist for this data`, 'data.partition.key');
+    throw new DataError(
+      'E_DATA_SPEC',
+      `data.partition.key "${keyName}" does not exist for this data`,
+      'data.partition.key',
+    );
   }
   const groups = new Map<string | number, number[]>();
   for (let i = 0; i < keys.length; i++) {
@@ -211,7 +255,13 @@ function compareKeys(a: string | number, b: string | number): number {
 }
 
 /** The scenario's partition applied to a pool; `sizes` are the iid block sizes when given. */
-export function partitionPool(pool: LabelledPool, spec: PartitionSpec, clientCount: number, rng: Rng, sizes?: readonly number[]): Uint32Array[] {
+export function partitionPool(
+  pool: LabelledPool,
+  spec: PartitionSpec,
+  clientCount: number,
+  rng: Rng,
+  sizes?: readonly number[],
+): Uint32Array[] {
   switch (spec.kind) {
     case 'iid':
       return partitionIid(pool.labels.length, clientCount, rng, sizes);

@@ -19,7 +19,11 @@ export interface ProblemInstance {
 }
 
 export function objectiveSpecOf(scenario: Scenario): ObjectiveSpec {
-  return { kind: scenario.problem.kind, regularization: scenario.problem.regularization, classes: scenario.problem.classes };
+  return {
+    kind: scenario.problem.kind,
+    regularization: scenario.problem.regularization,
+    classes: scenario.problem.classes,
+  };
 }
 
 /** p_i: by sample count (n_i / n) or uniform (1/m), as the scenario says. */
@@ -46,5 +50,11 @@ export function buildProblemInstance(scenario: Scenario): ProblemInstance {
   const objectives = shards.map((shard) => createObjective(spec, shard));
   const sampleCounts = shards.map((s) => s.sampleCount);
   const weights = clientWeights(scenario, sampleCounts);
-  return { dim: objectives[0].dim, objectives, weights, sampleCounts, global: new WeightedSumObjective(objectives, weights) };
+  return {
+    dim: objectives[0].dim,
+    objectives,
+    weights,
+    sampleCounts,
+    global: new WeightedSumObjective(objectives, weights),
+  };
 }

@@ -6,7 +6,12 @@ import type { CountSpec } from '../scenario/schema.js';
 import { DataError } from './data-error.js';
 import { Rng } from '../base/rng.js';
 
-export function samplesForClient(spec: CountSpec, clientCount: number, seed: number, clientId: number): number {
+export function samplesForClient(
+  spec: CountSpec,
+  clientCount: number,
+  seed: number,
+  clientId: number,
+): number {
   if (!Number.isInteger(clientId) || clientId < 0 || clientId >= clientCount) {
     throw new DataError('E_DATA_SPEC', `client id ${clientId} is outside [0, ${clientCount})`);
   }
@@ -27,5 +32,7 @@ export function samplesForClient(spec: CountSpec, clientCount: number, seed: num
 
 /** n_i for every client, in client order. */
 export function samplesForAllClients(spec: CountSpec, clientCount: number, seed: number): number[] {
-  return Array.from({ length: clientCount }, (_, clientId) => samplesForClient(spec, clientCount, seed, clientId));
+  return Array.from({ length: clientCount }, (_, clientId) =>
+    samplesForClient(spec, clientCount, seed, clientId),
+  );
 }

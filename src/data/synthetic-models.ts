@@ -14,7 +14,11 @@ import type { ProblemKind } from '../problem/objective.js';
 export const CENTRE_NORM = 2;
 
 /** Length of x: p for least squares and logistic, classes * p for softmax (row c is x[c*p, c*p+p)). */
-export function parameterDimension(kind: ProblemKind, featureCount: number, classCount: number): number {
+export function parameterDimension(
+  kind: ProblemKind,
+  featureCount: number,
+  classCount: number,
+): number {
   return kind === 'softmax' ? classCount * featureCount : featureCount;
 }
 
@@ -39,7 +43,12 @@ export function syntheticCentre(seed: number, dim: number): Float64Array {
  * E||u_i||^2 = 1 and E||x_i* - x0|| is about minimizerSpread. A spread of 0 gives x_i* = x0
  * exactly (x0 + 0 * u_i rounds to x0).
  */
-export function clientMinimizer(seed: number, x0: Float64Array, minimizerSpread: number, clientId: number): Float64Array {
+export function clientMinimizer(
+  seed: number,
+  x0: Float64Array,
+  minimizerSpread: number,
+  clientId: number,
+): Float64Array {
   const dim = x0.length;
   const u = standardNormalVector(Rng.derive(seed, 'minimizer', clientId), dim);
   const factor = minimizerSpread / Math.sqrt(dim);
@@ -53,7 +62,12 @@ export function clientMinimizer(seed: number, x0: Float64Array, minimizerSpread:
  * feature mean is shifted by N(0, covariateShift^2), measured in units of the largest feature
  * standard deviation (1).
  */
-export function clientFeatureMean(seed: number, featureCount: number, covariateShift: number, clientId: number): Float64Array {
+export function clientFeatureMean(
+  seed: number,
+  featureCount: number,
+  covariateShift: number,
+  clientId: number,
+): Float64Array {
   const mean = standardNormalVector(Rng.derive(seed, 'covariate-shift', clientId), featureCount);
   for (let j = 0; j < featureCount; j++) mean[j] *= covariateShift;
   return mean;

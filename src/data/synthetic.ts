@@ -43,19 +43,32 @@ export interface Samples {
 function checkModel(spec: SampleModel): void {
   const p = spec.featureCount;
   const dim = spec.kind === 'softmax' ? spec.classCount * p : p;
-  if (spec.featureScales.length !== p || spec.featureMean.length !== p || spec.model.length !== dim) {
+  if (
+    spec.featureScales.length !== p ||
+    spec.featureMean.length !== p ||
+    spec.model.length !== dim
+  ) {
     throw new DataError(
       'E_DATA_SPEC',
       `sample model dimensions disagree: ${spec.featureScales.length} scales, ${spec.featureMean.length} means and a model of ${spec.model.length} for p = ${p} (expected ${dim})`,
     );
   }
   if (spec.kind === 'softmax' && !(Number.isInteger(spec.classCount) && spec.classCount >= 2)) {
-    throw new DataError('E_DATA_SPEC', `problem.classes must be an integer of at least 2, got ${spec.classCount}`, 'problem.classes');
+    throw new DataError(
+      'E_DATA_SPEC',
+      `problem.classes must be an integer of at least 2, got ${spec.classCount}`,
+      'problem.classes',
+    );
   }
 }
 
 /** sampleCount draws of a ~ N(mu, diag(scales^2)), row-major. */
-function drawFeatures(rng: Rng, sampleCount: number, scales: Float64Array, mean: Float64Array): Float64Array {
+function drawFeatures(
+  rng: Rng,
+  sampleCount: number,
+  scales: Float64Array,
+  mean: Float64Array,
+): Float64Array {
   const p = scales.length;
   const features = new Float64Array(sampleCount * p);
   for (let s = 0; s < sampleCount; s++) {
@@ -72,11 +85,18 @@ function rowDot(features: Float64Array, row: number, model: Float64Array): numbe
   return sum;
 }
 
-function leastSquaresTargets(rng: Rng, features: Float64Array, sampleCount: number, model: Float64Array, noise: number): Float64Array {
+function leastSquaresTargets(
+  rng: Rng,
+  features: Float64Array,
+  sampleCount: number,
+  model: Float64Array,
+  noise: number,
+): Float64Array {
   const p = model.length;
   const targets = new Float64Array(sampleCount);
   // One noise draw per sample even when noise = 0, so the stream does not depend on the level.
-  for (let s = 0; s < sampleCount; s++) targets[s] = rowDot(features, s * p, model) + noise * rng.normal();
+  for (let s = 0; s < sampleCount; s++)
+    targets[s] = rowDot(features, s * p, model) + noise * rng.normal();
   return targets;
 }
 
@@ -87,7 +107,12 @@ function sigmoid(z: number): number {
   return e / (1 + e);
 }
 
-function logisticLabels(rng: Rng, features: Float64Array, sampleCount: number, model: Float64Array): Float64Array {
+function logisticLabels(
+  rng: Rng,
+  features: Float64Array,
+  sampleCount: number,
+  model: Float64Array,
+): Float64Array {
   const p = model.length;
   const labels = new Float64Array(sampleCount);
   for (let s = 0; s < sampleCount; s++) {
@@ -97,7 +122,13 @@ function logisticLabels(rng: Rng, features: Float64Array, sampleCount: number, m
   return labels;
 }
 
-function softmaxLabels(rng: Rng, features: Float64Array, sampleCount: number, model: Float64Array, classCount: number): Float64Array {
+function softmaxLabels(
+  rng: Rng,
+  features: Float64Array,
+  sampleCount: number,
+  model: Float64Array,
+  classCount: number,
+): Float64Array {
   const p = model.length / classCount;
   const labels = new Float64Array(sampleCount);
   const weights = new Float64Array(classCount);
@@ -133,7 +164,12 @@ function softmaxLabels(rng: Rng, features: Float64Array, sampleCount: number, mo
 }
 
 /** Targets for given features under the model (labels for logistic and softmax). */
-function drawTargets(rng: Rng, spec: SampleModel, features: Float64Array, sampleCount: number): Float64Array {
+function drawTargets(
+  rng: Rng,
+  spec: SampleModel,
+  features: Float64Array,
+  sampleCount: number,
+): Float64Array {
   switch (spec.kind) {
     case 'least-squares':
       return leastSquaresTargets(rng, features, sampleCount, spec.model, spec.noise);
@@ -145,10 +181,19 @@ function drawTargets(rng: Rng, spec: SampleModel, features: Float64Array, sample
 }
 
 /** sampleCount samples of the model, features from featureRng and targets from targetRng. */
-export function drawSamples(featureRng: Rng, targetRng: Rng, spec: SampleModel, sampleCount: number): Samples {
+export function drawSamples(
+  featureRng: Rng,
+  targetRng: Rng,
+  spec: SampleModel,
+  sampleCount: number,
+): Samples {
   checkModel(spec);
   if (!Number.isInteger(sampleCount) || sampleCount < 1) {
-    throw new DataError('E_DATA_SPEC', `a synthetic client needs at least one sample, got ${sampleCount}`, 'data.samplesPerClient');
+    throw new DataError(
+      'E_DATA_SPEC',
+      `a synthetic client needs at least one sample, got ${sampleCount}`,
+      'data.samplesPerClient',
+    );
   }
   const features = drawFeatures(featureRng, sampleCount, spec.featureScales, spec.featureMean);
   const targets = drawTargets(targetRng, spec, features, sampleCount);

@@ -36,12 +36,20 @@ export interface ClientRuntimeSnapshot {
 }
 
 /** A copy of a snapshot without its replicas: downlink ones and the uplink's state fields. */
-export function snapshotWithReplicasReset(snapshot: ClientRuntimeSnapshot, uplinkStateFields: readonly string[]): ClientRuntimeSnapshot {
+export function snapshotWithReplicasReset(
+  snapshot: ClientRuntimeSnapshot,
+  uplinkStateFields: readonly string[],
+): ClientRuntimeSnapshot {
   const uplinkMemories: Record<string, Float64Array> = {};
   for (const [field, memory] of Object.entries(snapshot.uplinkMemories)) {
     if (!uplinkStateFields.includes(field)) uplinkMemories[field] = memory;
   }
-  return { clientId: snapshot.clientId, methodState: snapshot.methodState, uplinkMemories, downlinkReplicas: {} };
+  return {
+    clientId: snapshot.clientId,
+    methodState: snapshot.methodState,
+    uplinkMemories,
+    downlinkReplicas: {},
+  };
 }
 
 export class ClientRuntime {
@@ -59,23 +67,39 @@ export class ClientRuntime {
     this.method = methodByName(plan.scenario.method.name);
     this.objective = objective;
     this.state = this.method.initClient(plan.dim, plan.methodConfig, clientId);
-    this.uplink = new UplinkEncoder(plan.scenario.compression.uplink, this.method.uplinkStateFields);
+    this.uplink = new UplinkEncoder(
+      plan.scenario.compression.uplink,
+      this.method.uplinkStateFields,
+    );
     this.downlink = new ReplicaDecoder(plan.scenario.compression.downlink);
   }
 
   private samplerFor(round: number, exchange: string): MinibatchSampler | null {
     const gradient = this.plan.scenario.method.gradient;
     if (gradient === 'full') return null;
-    return new UniformMinibatchSampler(minibatchRng(this.plan.scenario.seed, this.clientId, round, exchange), this.objective.sampleCount, gradient.minibatch);
+    return new UniformMinibatchSampler(
+      minibatchRng(this.plan.scenario.seed, this.clientId, round, exchange),
+      this.objective.sampleCount,
+      gradient.minibatch,
+    );
   }
 
   /** Decodes what came down, does the exchange's work and encodes what goes up. */
-  work(round: number, exchange: string, encodedDown: EncodedFields, localSteps: number, stepSize: number): ClientWorkResult {
+  work(
+    round: number,
+    exchange: string,
+    encodedDown: EncodedFields,
+    localSteps: number,
+    stepSize: number,
+  ): ClientWorkResult {
     const down = this.downlink.decode(encodedDown);
     const budget: Budget = { localSteps, stepSize, sampler: this.samplerFor(round, exchange) };
     const up = this.method.work(this.state, this.objective, down, budget, exchange);
     const stepsTaken = this.method.stepsTaken ? this.method.stepsTaken(this.state) : localSteps;
-    const encodedUp = this.uplink.encode(up, uplinkRngFor(this.plan.scenario.seed, this.clientId, round, exchange));
+    const encodedUp = this.uplink.encode(
+      up,
+      uplinkRngFor(this.plan.scenario.seed, this.clientId, round, exchange),
+    );
     return { encodedUp, stepsTaken };
   }
 
@@ -92,7 +116,9 @@ export class ClientRuntime {
   /** Continues from a snapshot of this client (deep-copied, so the snapshot stays the caller's). */
   restore(snapshot: ClientRuntimeSnapshot): void {
     if (snapshot.clientId !== this.clientId) {
-      throw new RangeError(`snapshot of client ${snapshot.clientId} restored into client ${this.clientId}`);
+      throw new RangeError(
+        `snapshot of client ${snapshot.clientId} restored into client ${this.clientId}`,
+      );
     }
     this.state = structuredClone(snapshot.methodState);
     this.uplink.restore(snapshot.uplinkMemories);

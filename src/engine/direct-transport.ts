@@ -4,7 +4,12 @@
 
 import { isNonFiniteError } from '../base/coded-error.js';
 import type { ClientRuntime } from './client-runtime.js';
-import type { ClientReturn, ExchangeOrder, ExchangeReply, ExchangeTransport } from './walk-transport.js';
+import type {
+  ClientReturn,
+  ExchangeOrder,
+  ExchangeReply,
+  ExchangeTransport,
+} from './walk-transport.js';
 
 export class DirectTransport implements ExchangeTransport {
   /** by client id; an id with no runtime here is never a member */
@@ -22,8 +27,18 @@ export class DirectTransport implements ExchangeTransport {
     const returns = new Map<number, ClientReturn>();
     for (const { assignment: a, encodedDown } of order.downs) {
       try {
-        const result = this.clients[a.clientId]!.work(order.round, order.exchange, encodedDown, a.localSteps, a.stepSize);
-        returns.set(a.clientId, { kind: 'up', encodedUp: result.encodedUp, stepsTaken: result.stepsTaken });
+        const result = this.clients[a.clientId]!.work(
+          order.round,
+          order.exchange,
+          encodedDown,
+          a.localSteps,
+          a.stepSize,
+        );
+        returns.set(a.clientId, {
+          kind: 'up',
+          encodedUp: result.encodedUp,
+          stepsTaken: result.stepsTaken,
+        });
       } catch (error) {
         // A client whose update is no longer finite cannot encode it: the run diverged.
         if (isNonFiniteError(error)) return { returns, diverged: true };

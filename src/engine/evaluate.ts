@@ -9,7 +9,12 @@ export interface Evaluation {
   distance: number;
 }
 
-export function evaluateModel(global: Objective, optimumX: Float64Array, optimumLoss: number, x: Float64Array): Evaluation {
+export function evaluateModel(
+  global: Objective,
+  optimumX: Float64Array,
+  optimumLoss: number,
+  x: Float64Array,
+): Evaluation {
   // f(x) - f* can come out a few ulps below zero at the optimum; clamp so that logs stay defined
   // and the record never claims a model better than the certified optimum.
   const gap = global.loss(x) - optimumLoss;

@@ -6,7 +6,10 @@ import type { Scenario } from '../scenario/schema.js';
 import { hashOf } from '../scenario/plan-hash.js';
 import type { RunPlan } from './run-plan.js';
 
-const exactChannel: Scenario['compression']['uplink'] = { default: { kind: 'none', errorFeedback: true, unbiased: false, values: 'f64' }, fields: {} };
+const exactChannel: Scenario['compression']['uplink'] = {
+  default: { kind: 'none', errorFeedback: true, unbiased: false, values: 'f64' },
+  fields: {},
+};
 
 export function idealPlan(plan: RunPlan): RunPlan {
   const scenario: Scenario = {
@@ -14,5 +17,9 @@ export function idealPlan(plan: RunPlan): RunPlan {
     method: { ...plan.scenario.method, participation: 1 },
     compression: { uplink: exactChannel, downlink: exactChannel },
   };
-  return { ...plan, scenario, planHash: hashOf({ scenario, methodConfig: plan.methodConfig, dim: plan.dim }) };
+  return {
+    ...plan,
+    scenario,
+    planHash: hashOf({ scenario, methodConfig: plan.methodConfig, dim: plan.dim }),
+  };
 }

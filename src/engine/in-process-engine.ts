@@ -29,7 +29,11 @@ export type EngineResult = RunOutcome;
 export function planFor(scenario: Scenario): { plan: RunPlan; theory: PlanTheory } {
   assertPlannable(scenario);
   const theory = theoryOf(scenario);
-  const plan = resolveRunPlan(scenario, { dim: theory.instance.dim, weights: theory.instance.weights, smoothness: theory.constants.smoothness });
+  const plan = resolveRunPlan(scenario, {
+    dim: theory.instance.dim,
+    weights: theory.instance.weights,
+    smoothness: theory.constants.smoothness,
+  });
   return { plan, theory };
 }
 
@@ -61,9 +65,28 @@ export function runInProcess(scenario: Scenario, options: EngineOptions = {}): E
   const wallSeconds = () => (performance.now() - started) / 1000;
   const { plan, theory } = planFor(scenario);
   const server = new ServerRuntime(plan, options.initialModel);
-  const clients = theory.instance.objectives.map((objective, id) => new ClientRuntime(plan, id, objective));
-  const transport = new InProcessTransport(clients, (x) => evaluateModel(theory.instance.global, theory.optimum.x, theory.optimum.loss, x));
+  const clients = theory.instance.objectives.map(
+    (objective, id) => new ClientRuntime(plan, id, objective),
+  );
+  const transport = new InProcessTransport(clients, (x) =>
+    evaluateModel(theory.instance.global, theory.optimum.x, theory.optimum.loss, x),
+  );
   const onRound = options.onRound;
-  const walked = driveSync(walkRun({ ...walkSetup(plan, server), wallSeconds, onRound: onRound && ((record) => onRound(record)) }), transport);
-  return { plan, theory, rounds: walked.rounds, clients: walked.clients, finalModel: walked.finalModel, stopReason: walked.stopReason, wallSeconds: wallSeconds() };
+  const walked = driveSync(
+    walkRun({
+      ...walkSetup(plan, server),
+      wallSeconds,
+      onRound: onRound && ((record) => onRound(record)),
+    }),
+    transport,
+  );
+  return {
+    plan,
+    theory,
+    rounds: walked.rounds,
+    clients: walked.clients,
+    finalModel: walked.finalModel,
+    stopReason: walked.stopReason,
+    wallSeconds: wallSeconds(),
+  };
 }

@@ -32,33 +32,63 @@ export interface RunPrediction {
   limit: Float64Array | null;
 }
 
-const none = (reason: string): RunPrediction => ({ unavailableReason: reason, spectralRadius: null, rate: null, floor: null, limitDistance: null, limit: null });
+const none = (reason: string): RunPrediction => ({
+  unavailableReason: reason,
+  spectralRadius: null,
+  rate: null,
+  floor: null,
+  limitDistance: null,
+  limit: null,
+});
 
 /** Below this many ulps of the problem's scale (|f*| or the initial gap), a floor is rounding: the limit is x*. */
 const floorRoundingUlps = 1e4;
 
-export function predictRun(plan: RunPlan, theory: PlanTheory, initialModel: Float64Array = new Float64Array(plan.dim)): RunPrediction {
+export function predictRun(
+  plan: RunPlan,
+  theory: PlanTheory,
+  initialModel: Float64Array = new Float64Array(plan.dim),
+): RunPrediction {
   const blocker = predictionBlocker(plan);
   if (blocker) return none(blocker);
   const objectives: readonly Objective[] = theory.instance.objectives;
   const roundMap = buildRoundMap(plan, objectives, initialModel);
   const rate = predictRate(roundMap.map, roundMap.start);
-  if (!rate.converged) return none(`the spectral radius did not settle within ${rate.mapApplications} round-map applications`);
+  if (!rate.converged)
+    return none(
+      `the spectral radius did not settle within ${rate.mapApplications} round-map applications`,
+    );
   // Without the limit the floor is missing, and so is the rate of f: rho^2 or rho depends on
   // whether the limit is x*. The spectral radius is still reported.
   if (roundMap.start.length > FIXED_POINT_DIMENSION_MAX) {
-    return { ...none(`no floor: the state has ${roundMap.start.length} entries; fixed points are solved up to ${FIXED_POINT_DIMENSION_MAX}`), spectralRadius: rate.spectralRadius };
+    return {
+      ...none(
+        `no floor: the state has ${roundMap.start.length} entries; fixed points are solved up to ${FIXED_POINT_DIMENSION_MAX}`,
+      ),
+      spectralRadius: rate.spectralRadius,
+    };
   }
   let fixed;
   try {
     fixed = affineFixedPoint(roundMap.map, roundMap.start.length, { base: roundMap.start });
   } catch (error) {
-    if (error instanceof TheoryError || error instanceof LinalgError) return { ...none(`no floor: ${error.message}`), spectralRadius: rate.spectralRadius };
+    if (error instanceof TheoryError || error instanceof LinalgError)
+      return { ...none(`no floor: ${error.message}`), spectralRadius: rate.spectralRadius };
     throw error;
   }
   const limit = roundMap.modelOf(fixed.state);
-  const atLimit = evaluateModel(theory.instance.global, theory.optimum.x, theory.optimum.loss, limit);
-  const initial = evaluateModel(theory.instance.global, theory.optimum.x, theory.optimum.loss, initialModel);
+  const atLimit = evaluateModel(
+    theory.instance.global,
+    theory.optimum.x,
+    theory.optimum.loss,
+    limit,
+  );
+  const initial = evaluateModel(
+    theory.instance.global,
+    theory.optimum.x,
+    theory.optimum.loss,
+    initialModel,
+  );
   const scale = Math.max(Math.abs(theory.optimum.loss), initial.suboptimality, Number.MIN_VALUE);
   const limitIsOptimum = atLimit.suboptimality <= floorRoundingUlps * Number.EPSILON * scale;
   return {

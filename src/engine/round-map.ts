@@ -40,9 +40,14 @@ export function predictionBlocker(plan: RunPlan): string | null {
   // k = d, unscaled since d/k = 1), so a "dense" rung of a compression sweep is still predicted.
   const exact = (c: CompressorSpec) => c.values === 'f64' && keptCount(plan.dim, c) >= plan.dim;
   const channels = [s.compression.uplink, s.compression.downlink];
-  if (!channels.every((ch) => exact(ch.default) && Object.values(ch.fields).every(exact))) return 'compression makes the round map nonlinear';
+  if (!channels.every((ch) => exact(ch.default) && Object.values(ch.fields).every(exact)))
+    return 'compression makes the round map nonlinear';
   if (s.timing.policy.kind === 'fastest-k') return 'fastest-k drops updates by timing';
-  if (s.timing.policy.kind === 'deadline' && (s.timing.jitter > 0 || s.timing.transient.probability > 0)) return 'a deadline with jitter changes tau_i every round';
+  if (
+    s.timing.policy.kind === 'deadline' &&
+    (s.timing.jitter > 0 || s.timing.transient.probability > 0)
+  )
+    return 'a deadline with jitter changes tau_i every round';
   return null;
 }
 
@@ -54,13 +59,20 @@ export interface PlanRoundMap {
   modelOf(state: Float64Array): Float64Array;
 }
 
-export function buildRoundMap(plan: RunPlan, objectives: readonly Objective[], initialModel: Float64Array): PlanRoundMap {
+export function buildRoundMap(
+  plan: RunPlan,
+  objectives: readonly Objective[],
+  initialModel: Float64Array,
+): PlanRoundMap {
   const ideal = idealPlan(plan);
   const server = new ServerRuntime(ideal, initialModel);
   const clients = objectives.map((objective, id) => new ClientRuntime(ideal, id, objective));
   const setup = walkSetup(ideal, server);
   const transport = new DirectTransport(clients);
-  const stateNow = (): FullState => ({ server: server.methodState(), clients: clients.map((c) => c.methodState()) });
+  const stateNow = (): FullState => ({
+    server: server.methodState(),
+    clients: clients.map((c) => c.methodState()),
+  });
   const runRound = (state: FullState): FullState => {
     server.adoptMethodState(state.server);
     state.clients.forEach((s, i) => clients[i].adoptMethodState(s));
@@ -80,7 +92,8 @@ export function buildRoundMap(plan: RunPlan, objectives: readonly Objective[], i
     if (leaf === modelLeaf) modelOffset = offset;
     offset += leaf.length;
   }
-  if (modelOffset < 0 || full.length !== offset) throw new Error('the server model is not a Float64Array leaf of the method state');
+  if (modelOffset < 0 || full.length !== offset)
+    throw new Error('the server model is not a Float64Array leaf of the method state');
   return {
     map,
     start: flattenState(template),

@@ -18,7 +18,12 @@ export interface ClientAssignment {
 }
 
 export function roundParticipants(plan: RunPlan, round: number): Uint32Array {
-  return participantsFor(plan.scenario.method.participation, plan.clientCount, plan.scenario.seed, round);
+  return participantsFor(
+    plan.scenario.method.participation,
+    plan.clientCount,
+    plan.scenario.seed,
+    round,
+  );
 }
 
 /** True for the exchange where clients spend their local steps (a method's last). */
@@ -39,7 +44,9 @@ export function assignmentsFor(
   for (let j = 0; j < participants.length; j++) {
     const clientId = participants[j];
     const stepSeconds = stepSecondsFor(speed, clientId, round);
-    const localSteps = localWork ? stepsUnderPolicy(plan.scenario.timing.policy, stepSeconds, plan.plannedSteps[clientId]) : 1;
+    const localSteps = localWork
+      ? stepsUnderPolicy(plan.scenario.timing.policy, stepSeconds, plan.plannedSteps[clientId])
+      : 1;
     const eta = plan.methodConfig.stepSize;
     const stepSize = plan.scenario.method.stepPolicy === 'inverse-steps' ? eta / localSteps : eta;
     out.push({ clientId, localSteps, stepSize, stepSeconds });

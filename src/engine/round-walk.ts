@@ -16,12 +16,23 @@ import { speedModelFor, type SpeedModel } from '../timing/round-speed.js';
 import { VirtualClock } from '../timing/virtual-clock.js';
 import { allFinite } from '../vec/kernels.js';
 import type { ClientRoundRecord, RoundRecord } from './round-record.js';
-import { assignmentsFor, isLocalWorkExchange, roundParticipants, type ClientAssignment } from './round-schedule.js';
+import {
+  assignmentsFor,
+  isLocalWorkExchange,
+  roundParticipants,
+  type ClientAssignment,
+} from './round-schedule.js';
 import type { RunPlan } from './run-plan.js';
 import type { RunOutcome, StopReason } from './run-summary.js';
 import type { EncodedUpload, ServerRuntime } from './server-runtime.js';
 import { settleExchange } from './settle-exchange.js';
-import { ask, type ByteLayer, type ExchangeDown, type ExchangeRequest, type WalkRequest } from './walk-transport.js';
+import {
+  ask,
+  type ByteLayer,
+  type ExchangeDown,
+  type ExchangeRequest,
+  type WalkRequest,
+} from './walk-transport.js';
 
 /** What every round of a walk shares. */
 export interface WalkSetup {
@@ -32,8 +43,17 @@ export interface WalkSetup {
   byteLayers: readonly ByteLayer[];
 }
 
-export function walkSetup(plan: RunPlan, server: ServerRuntime, byteLayers: readonly ByteLayer[] = []): WalkSetup {
-  return { plan, server, speed: speedModelFor(plan.scenario.timing, plan.clientCount, plan.scenario.seed), byteLayers };
+export function walkSetup(
+  plan: RunPlan,
+  server: ServerRuntime,
+  byteLayers: readonly ByteLayer[] = [],
+): WalkSetup {
+  return {
+    plan,
+    server,
+    speed: speedModelFor(plan.scenario.timing, plan.clientCount, plan.scenario.seed),
+    byteLayers,
+  };
 }
 
 /** One round walked. */
@@ -49,7 +69,12 @@ export interface WalkedRound {
 }
 
 /** The downs of one exchange, or null when the server's state is no longer finite. */
-function encodeDowns(server: ServerRuntime, round: number, exchange: string, assignments: readonly ClientAssignment[]): ExchangeDown[] | null {
+function encodeDowns(
+  server: ServerRuntime,
+  round: number,
+  exchange: string,
+  assignments: readonly ClientAssignment[],
+): ExchangeDown[] | null {
   try {
     const broadcast = server.broadcast(exchange);
     return assignments.map((assignment) => {
@@ -63,7 +88,11 @@ function encodeDowns(server: ServerRuntime, round: number, exchange: string, ass
 }
 
 /** Folds the uploads in; false when that meets or makes a non-finite value. */
-function aggregateFinite(server: ServerRuntime, exchange: string, uploads: readonly EncodedUpload[]): boolean {
+function aggregateFinite(
+  server: ServerRuntime,
+  exchange: string,
+  uploads: readonly EncodedUpload[],
+): boolean {
   try {
     server.aggregate(exchange, uploads);
   } catch (error) {
@@ -74,18 +103,35 @@ function aggregateFinite(server: ServerRuntime, exchange: string, uploads: reado
 }
 
 /** Walks one round's exchanges. */
-export function* walkRound(setup: WalkSetup, round: number): Generator<ExchangeRequest, WalkedRound, unknown> {
+export function* walkRound(
+  setup: WalkSetup,
+  round: number,
+): Generator<ExchangeRequest, WalkedRound, unknown> {
   const { plan, server, speed } = setup;
   const exchanges = server.method.exchanges;
-  const out: WalkedRound = { records: [], localSteps: {}, dropped: [], roundSeconds: 0, diverged: false };
+  const out: WalkedRound = {
+    records: [],
+    localSteps: {},
+    dropped: [],
+    roundSeconds: 0,
+    diverged: false,
+  };
   const dropped = new Set<number>();
   // A client whose up did not come back in one exchange (lost, late) sits out the rest of the round.
   const sittingOut = new Set<number>();
   for (const exchange of exchanges) {
-    const candidates = Array.from(roundParticipants(plan, round)).filter((id) => !sittingOut.has(id));
-    const members = candidates.length === 0 ? [] : yield* ask({ kind: 'members', round, exchange, candidates });
+    const candidates = Array.from(roundParticipants(plan, round)).filter(
+      (id) => !sittingOut.has(id),
+    );
+    const members =
+      candidates.length === 0 ? [] : yield* ask({ kind: 'members', round, exchange, candidates });
     if (members.length === 0) break;
-    const downs = encodeDowns(server, round, exchange, assignmentsFor(plan, speed, round, exchanges, exchange, members));
+    const downs = encodeDowns(
+      server,
+      round,
+      exchange,
+      assignmentsFor(plan, speed, round, exchanges, exchange, members),
+    );
     if (downs === null) {
       out.diverged = true;
       break;
@@ -120,9 +166,14 @@ export interface RunWalkSetup extends WalkSetup {
 }
 
 /** A run's outcome as the walk knows it: round 0 (the initial model), then one record per round walked. */
-export type WalkedRun = Pick<RunOutcome, 'rounds' | 'clients' | 'finalModel' | 'stopReason'> & { virtualSeconds: number };
+export type WalkedRun = Pick<RunOutcome, 'rounds' | 'clients' | 'finalModel' | 'stopReason'> & {
+  virtualSeconds: number;
+};
 
-function bytesOf(records: readonly ClientRoundRecord[], byteLayers: readonly ByteLayer[]): RoundRecord['bytes'] {
+function bytesOf(
+  records: readonly ClientRoundRecord[],
+  byteLayers: readonly ByteLayer[],
+): RoundRecord['bytes'] {
   const bytes: RoundRecord['bytes'] = { payload: { up: 0, down: 0 } };
   for (const layer of byteLayers) bytes[layer] = { up: 0, down: 0 };
   for (const r of records) {
@@ -140,7 +191,17 @@ export function* walkRun(setup: RunWalkSetup): Generator<WalkRequest, WalkedRun,
   const { rounds: roundsMax, evalEvery, target } = setup.plan.scenario.run;
   const clock = new VirtualClock();
   const initial = yield* ask({ kind: 'evaluate', model: server.model() });
-  const first: RoundRecord = { round: 0, suboptimality: initial.suboptimality, distance: initial.distance, bytes: bytesOf([], byteLayers), localSteps: {}, dropped: [], roundSeconds: 0, virtualSeconds: 0, wallSeconds: setup.wallSeconds() };
+  const first: RoundRecord = {
+    round: 0,
+    suboptimality: initial.suboptimality,
+    distance: initial.distance,
+    bytes: bytesOf([], byteLayers),
+    localSteps: {},
+    dropped: [],
+    roundSeconds: 0,
+    virtualSeconds: 0,
+    wallSeconds: setup.wallSeconds(),
+  };
   const rounds: RoundRecord[] = [first];
   const clients: ClientRoundRecord[] = [];
   setup.onRound?.(first, []);
@@ -157,7 +218,10 @@ export function* walkRun(setup: RunWalkSetup): Generator<WalkRequest, WalkedRun,
     const virtualSeconds = clock.advance(walked.roundSeconds);
     const ending = walked.diverged ? 'diverged' : yield* ask({ kind: 'close-round', round });
     const last = round === roundsMax || ending !== null;
-    const evaluated = round % evalEvery === 0 || last ? yield* ask({ kind: 'evaluate', model: server.model() }) : null;
+    const evaluated =
+      round % evalEvery === 0 || last
+        ? yield* ask({ kind: 'evaluate', model: server.model() })
+        : null;
     const record: RoundRecord = {
       round,
       suboptimality: evaluated ? evaluated.suboptimality : null,

@@ -50,12 +50,20 @@ export function methodConfigFor(scenario: Scenario, smoothness: number): MethodC
 export function assertPlannable(scenario: Scenario): void {
   const { participation } = scenario.method;
   const perRound = participantCount(participation, scenario.clients.count);
-  assertPolicyFitsRound(scenario.timing.policy, perRound, `method.participation ${participation} of clients.count ${scenario.clients.count}`);
+  assertPolicyFitsRound(
+    scenario.timing.policy,
+    perRound,
+    `method.participation ${participation} of clients.count ${scenario.clients.count}`,
+  );
 }
 
 export function resolveRunPlan(scenario: Scenario, facts: PlanProblemFacts): RunPlan {
   assertPlannable(scenario);
-  const wire: WirePlan = { scenario, methodConfig: methodConfigFor(scenario, facts.smoothness), dim: facts.dim };
+  const wire: WirePlan = {
+    scenario,
+    methodConfig: methodConfigFor(scenario, facts.smoothness),
+    dim: facts.dim,
+  };
   return {
     ...wire,
     planHash: hashOf(wire),

@@ -2,13 +2,19 @@
 // the in-process engine and the coordinator, so both write the same fields.
 
 import type { PlanTheory } from '../theory/plan-theory.js';
-import { fitLinearRate, measureFloor, roundsToTarget, type CurvePoint } from '../theory/measure-curve.js';
+import {
+  fitLinearRate,
+  measureFloor,
+  roundsToTarget,
+  type CurvePoint,
+} from '../theory/measure-curve.js';
 import type { RunPlan } from './run-plan.js';
 import type { ByteCounts, ClientRoundRecord, RoundRecord } from './round-record.js';
 import type { RunPrediction } from './predict-run.js';
 
 /** Why a run ended: its target, its round limit, a non-finite update, every worker lost, or Ctrl-C. */
-export type StopReason = 'target-reached' | 'rounds-complete' | 'diverged' | 'workers-lost' | 'stopped';
+export type StopReason =
+  'target-reached' | 'rounds-complete' | 'diverged' | 'workers-lost' | 'stopped';
 
 /** What every run hands over at its end, whichever runtime ran it (the coordinator's adds to it). */
 export interface RunOutcomeBase {
@@ -52,17 +58,33 @@ export interface RunSummary {
     measuredWindow: [number, number] | null;
   };
   floor: { measured: number | null; predicted: number | null };
-  prediction: { available: boolean; reason: string | null; spectralRadius: number | null; limitDistance: number | null };
+  prediction: {
+    available: boolean;
+    reason: string | null;
+    spectralRadius: number | null;
+    limitDistance: number | null;
+  };
   target: number;
   roundsToTarget: number | null;
-  toTarget: { payloadBytes: number | null; virtualSeconds: number | null; wallSeconds: number | null };
+  toTarget: {
+    payloadBytes: number | null;
+    virtualSeconds: number | null;
+    wallSeconds: number | null;
+  };
   bytes: { payload: ByteCounts; encoded?: ByteCounts; wire?: ByteCounts };
   /** wall: from the first round; join (distributed runs): waiting for workers before it */
   seconds: { virtual: number; wall: number; join?: number };
   droppedUpdates: number;
   lostWorkers: string[];
   protocolErrors: Record<string, number>;
-  theory: { smoothness: number; strongConvexity: number; conditionNumber: number; heterogeneity: number; optimumLoss: number; certificate: number };
+  theory: {
+    smoothness: number;
+    strongConvexity: number;
+    conditionNumber: number;
+    heterogeneity: number;
+    optimumLoss: number;
+    certificate: number;
+  };
 }
 
 /** The evaluated points of a run, cut before the first non-finite one (a diverged run). */
@@ -76,17 +98,22 @@ export function curveOf(rounds: readonly RoundRecord[]): CurvePoint[] {
   return points;
 }
 
-export function buildRunSummary(outcome: RunOutcome, prediction: RunPrediction, runtime: RunSummary['runtime']): RunSummary {
+export function buildRunSummary(
+  outcome: RunOutcome,
+  prediction: RunPrediction,
+  runtime: RunSummary['runtime'],
+): RunSummary {
   const { plan, theory, rounds } = outcome;
   const curve = curveOf(rounds);
   const first = curve[0];
   const last = curve[curve.length - 1];
   // f is evaluated to a few ulps of its scale; below that the curve is noise (common practice).
-  const noiseLevel = 1e3 * Number.EPSILON * Math.max(Math.abs(theory.optimum.loss), first.suboptimality);
+  const noiseLevel =
+    1e3 * Number.EPSILON * Math.max(Math.abs(theory.optimum.loss), first.suboptimality);
   const fit = curve.length > 1 ? fitLinearRate(curve, { noiseLevel }) : null;
   const target = plan.scenario.run.target;
   const reached = target > 0 ? roundsToTarget(curve, target) : null;
-  const reachedRecord = reached === null ? null : rounds.find((r) => r.round === reached) ?? null;
+  const reachedRecord = reached === null ? null : (rounds.find((r) => r.round === reached) ?? null);
   let payloadUp = 0;
   let payloadDown = 0;
   let payloadToTarget = 0;
@@ -94,7 +121,8 @@ export function buildRunSummary(outcome: RunOutcome, prediction: RunPrediction, 
   for (const r of rounds) {
     payloadUp += r.bytes.payload.up;
     payloadDown += r.bytes.payload.down;
-    if (reached !== null && r.round <= reached) payloadToTarget += r.bytes.payload.up + r.bytes.payload.down;
+    if (reached !== null && r.round <= reached)
+      payloadToTarget += r.bytes.payload.up + r.bytes.payload.down;
     dropped += r.dropped.length;
   }
   const lastRound = rounds[rounds.length - 1];
@@ -110,11 +138,30 @@ export function buildRunSummary(outcome: RunOutcome, prediction: RunPrediction, 
     rounds: lastRound.round,
     clients: plan.clientCount,
     stepSize: plan.methodConfig.stepSize,
-    suboptimality: { initial: first.suboptimality, final: lastRound.suboptimality ?? last.suboptimality },
-    distance: { initial: rounds[0].distance ?? Number.NaN, final: [...rounds].reverse().find((r) => r.distance !== null)?.distance ?? Number.NaN },
-    rate: { measured: fit ? fit.rate : null, predicted: prediction.rate, gdBound: 1 - c.strongConvexity / c.smoothness, measuredWindow: fit ? fit.window : null },
-    floor: { measured: curve.length > 1 ? measureFloor(curve, { noiseLevel }) : null, predicted: prediction.floor },
-    prediction: { available: prediction.unavailableReason === null, reason: prediction.unavailableReason, spectralRadius: prediction.spectralRadius, limitDistance: prediction.limitDistance },
+    suboptimality: {
+      initial: first.suboptimality,
+      final: lastRound.suboptimality ?? last.suboptimality,
+    },
+    distance: {
+      initial: rounds[0].distance ?? Number.NaN,
+      final: [...rounds].reverse().find((r) => r.distance !== null)?.distance ?? Number.NaN,
+    },
+    rate: {
+      measured: fit ? fit.rate : null,
+      predicted: prediction.rate,
+      gdBound: 1 - c.strongConvexity / c.smoothness,
+      measuredWindow: fit ? fit.window : null,
+    },
+    floor: {
+      measured: curve.length > 1 ? measureFloor(curve, { noiseLevel }) : null,
+      predicted: prediction.floor,
+    },
+    prediction: {
+      available: prediction.unavailableReason === null,
+      reason: prediction.unavailableReason,
+      spectralRadius: prediction.spectralRadius,
+      limitDistance: prediction.limitDistance,
+    },
     target,
     roundsToTarget: reached,
     toTarget: {
@@ -127,6 +174,13 @@ export function buildRunSummary(outcome: RunOutcome, prediction: RunPrediction, 
     droppedUpdates: dropped,
     lostWorkers: outcome.lostWorkers ?? [],
     protocolErrors: outcome.protocolErrors ?? {},
-    theory: { smoothness: c.smoothness, strongConvexity: c.strongConvexity, conditionNumber: c.conditionNumber, heterogeneity: c.heterogeneity, optimumLoss: theory.optimum.loss, certificate: theory.optimum.gradientNorm },
+    theory: {
+      smoothness: c.smoothness,
+      strongConvexity: c.strongConvexity,
+      conditionNumber: c.conditionNumber,
+      heterogeneity: c.heterogeneity,
+      optimumLoss: theory.optimum.loss,
+      certificate: theory.optimum.gradientNorm,
+    },
   };
 }

@@ -8,10 +8,20 @@ export function minibatchRng(seed: number, clientId: number, round: number, exch
   return Rng.derive(seed, 'minibatch', clientId, round, exchange);
 }
 
-export function uplinkRngFor(seed: number, clientId: number, round: number, exchange: string): RngForField {
+export function uplinkRngFor(
+  seed: number,
+  clientId: number,
+  round: number,
+  exchange: string,
+): RngForField {
   return (field) => Rng.derive(seed, 'compress-up', clientId, round, exchange, field);
 }
 
-export function downlinkRngFor(seed: number, clientId: number, round: number, exchange: string): RngForField {
+export function downlinkRngFor(
+  seed: number,
+  clientId: number,
+  round: number,
+  exchange: string,
+): RngForField {
   return (field) => Rng.derive(seed, 'compress-down', clientId, round, exchange, field);
 }

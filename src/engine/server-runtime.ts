@@ -29,8 +29,14 @@ export class ServerRuntime {
     this.plan = plan;
     this.method = methodByName(plan.scenario.method.name);
     this.state = this.method.initServer(plan.dim, plan.methodConfig, initialModel);
-    this.downlinks = Array.from({ length: plan.clientCount }, () => new ReplicaEncoder(plan.scenario.compression.downlink));
-    this.uplinks = Array.from({ length: plan.clientCount }, () => new UplinkDecoder(plan.scenario.compression.uplink, this.method.uplinkStateFields));
+    this.downlinks = Array.from(
+      { length: plan.clientCount },
+      () => new ReplicaEncoder(plan.scenario.compression.downlink),
+    );
+    this.uplinks = Array.from(
+      { length: plan.clientCount },
+      () => new UplinkDecoder(plan.scenario.compression.uplink, this.method.uplinkStateFields),
+    );
   }
 
   broadcast(exchange: string): Fields {
@@ -39,7 +45,10 @@ export class ServerRuntime {
 
   /** The message for one client; advances that client's downlink replicas. */
   encodeDown(clientId: number, round: number, exchange: string, fields: Fields): EncodedFields {
-    return this.downlinks[clientId].encode(fields, downlinkRngFor(this.plan.scenario.seed, clientId, round, exchange));
+    return this.downlinks[clientId].encode(
+      fields,
+      downlinkRngFor(this.plan.scenario.seed, clientId, round, exchange),
+    );
   }
 
   /**
@@ -49,14 +58,23 @@ export class ServerRuntime {
    */
   resetReplicas(clientId: number): void {
     this.downlinks[clientId] = new ReplicaEncoder(this.plan.scenario.compression.downlink);
-    this.uplinks[clientId] = new UplinkDecoder(this.plan.scenario.compression.uplink, this.method.uplinkStateFields);
+    this.uplinks[clientId] = new UplinkDecoder(
+      this.plan.scenario.compression.uplink,
+      this.method.uplinkStateFields,
+    );
   }
 
   /** Folds the counted uploads into the server state, in ascending client id whatever the arrival order. */
   aggregate(exchange: string, uploads: readonly EncodedUpload[]): void {
     const decoded: Upload[] = [...uploads]
       .sort((a, b) => a.clientId - b.clientId)
-      .map((u) => ({ clientId: u.clientId, weight: this.plan.weights[u.clientId], localSteps: u.stepsTaken, stepSize: u.stepSize, fields: this.uplinks[u.clientId].decode(u.encodedUp) }));
+      .map((u) => ({
+        clientId: u.clientId,
+        weight: this.plan.weights[u.clientId],
+        localSteps: u.stepsTaken,
+        stepSize: u.stepSize,
+        fields: this.uplinks[u.clientId].decode(u.encodedUp),
+      }));
     this.method.aggregate(this.state, decoded, exchange);
   }
 

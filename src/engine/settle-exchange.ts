@@ -3,7 +3,13 @@
 // a down gets a record, and the uploads that count go on to aggregation.
 
 import { fieldsPayloadBytes } from '../compress/payload-bytes.js';
-import { decideRound, policyForUpdates, type ParticipantTiming, type RoundParticipant, type RoundTiming } from '../timing/round-policy.js';
+import {
+  decideRound,
+  policyForUpdates,
+  type ParticipantTiming,
+  type RoundParticipant,
+  type RoundTiming,
+} from '../timing/round-policy.js';
 import type { ClientRoundRecord } from './round-record.js';
 import type { RunPlan } from './run-plan.js';
 import type { EncodedUpload } from './server-runtime.js';
@@ -20,8 +26,16 @@ export interface SettledExchange {
   missing: number[];
 }
 
-export function settleExchange(plan: RunPlan, order: ExchangeOrder, reply: ExchangeReply, byteLayers: readonly ByteLayer[]): SettledExchange {
-  const ups = new Map<number, { up: Extract<ClientReturn, { kind: 'up' }>; payloadBytes: number }>();
+export function settleExchange(
+  plan: RunPlan,
+  order: ExchangeOrder,
+  reply: ExchangeReply,
+  byteLayers: readonly ByteLayer[],
+): SettledExchange {
+  const ups = new Map<
+    number,
+    { up: Extract<ClientReturn, { kind: 'up' }>; payloadBytes: number }
+  >();
   const inputs: RoundParticipant[] = [];
   for (const down of order.downs) {
     const a = down.assignment;
@@ -29,11 +43,23 @@ export function settleExchange(plan: RunPlan, order: ExchangeOrder, reply: Excha
     if (returned?.kind !== 'up') continue;
     const upBytes = fieldsPayloadBytes(returned.encodedUp);
     ups.set(a.clientId, { up: returned, payloadBytes: upBytes });
-    inputs.push({ clientId: a.clientId, stepSeconds: a.stepSeconds, plannedSteps: a.localSteps, stepsTaken: returned.stepsTaken, downBytes: down.payloadBytes, upBytes });
+    inputs.push({
+      clientId: a.clientId,
+      stepSeconds: a.stepSeconds,
+      plannedSteps: a.localSteps,
+      stepsTaken: returned.stepsTaken,
+      downBytes: down.payloadBytes,
+      upBytes,
+    });
   }
   const { timing } = plan.scenario;
-  const decided: RoundTiming = inputs.length === 0 ? { participants: [], roundSeconds: 0 } : decideRound(policyForUpdates(timing.policy, inputs.length), timing.links, inputs);
-  const timingOf = new Map<number, ParticipantTiming>(decided.participants.map((t) => [t.clientId, t]));
+  const decided: RoundTiming =
+    inputs.length === 0
+      ? { participants: [], roundSeconds: 0 }
+      : decideRound(policyForUpdates(timing.policy, inputs.length), timing.links, inputs);
+  const timingOf = new Map<number, ParticipantTiming>(
+    decided.participants.map((t) => [t.clientId, t]),
+  );
 
   const records: ClientRoundRecord[] = [];
   const uploads: EncodedUpload[] = [];
@@ -55,13 +81,20 @@ export function settleExchange(plan: RunPlan, order: ExchangeOrder, reply: Excha
       dropped: !counted,
     };
     const layers = reply.returns.get(a.clientId)?.layers;
-    for (const layer of byteLayers) record.bytes[layer] = { ...(layers?.[layer] ?? { up: 0, down: 0 }) };
+    for (const layer of byteLayers)
+      record.bytes[layer] = { ...(layers?.[layer] ?? { up: 0, down: 0 }) };
     if (arrived !== undefined && t !== undefined) {
       const measured = arrived.up.measured;
       record.computeSeconds = measured?.computeSeconds ?? t.computeSeconds;
       record.transferSeconds = measured?.transferSeconds ?? t.downSeconds + t.upSeconds;
       record.waitSeconds = measured?.waitSeconds ?? t.waitSeconds;
-      if (counted) uploads.push({ clientId: a.clientId, stepsTaken: arrived.up.stepsTaken, stepSize: a.stepSize, encodedUp: arrived.up.encodedUp });
+      if (counted)
+        uploads.push({
+          clientId: a.clientId,
+          stepsTaken: arrived.up.stepsTaken,
+          stepSize: a.stepSize,
+          encodedUp: arrived.up.encodedUp,
+        });
     } else {
       missing.push(a.clientId);
     }

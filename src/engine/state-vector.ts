@@ -9,7 +9,8 @@ export function float64Leaves(value: unknown, out: Float64Array[] = []): Float64
   } else if (Array.isArray(value)) {
     for (const item of value) float64Leaves(item, out);
   } else if (value !== null && typeof value === 'object' && !ArrayBuffer.isView(value)) {
-    for (const key of Object.keys(value).sort()) float64Leaves((value as Record<string, unknown>)[key], out);
+    for (const key of Object.keys(value).sort())
+      float64Leaves((value as Record<string, unknown>)[key], out);
   }
   return out;
 }
@@ -37,6 +38,7 @@ export function unflattenState<T>(template: T, vector: Float64Array): T {
     leaf.set(vector.subarray(offset, offset + leaf.length));
     offset += leaf.length;
   }
-  if (offset !== vector.length) throw new Error(`state vector has ${vector.length} entries, the template ${offset}`);
+  if (offset !== vector.length)
+    throw new Error(`state vector has ${vector.length} entries, the template ${offset}`);
   return copy;
 }

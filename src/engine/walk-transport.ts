@@ -41,7 +41,13 @@ export type LayerBytes = Partial<Record<ByteLayer, ByteCounts>>;
 
 /** What came back from one client: its up, or nothing (lost, late, silent). */
 export type ClientReturn =
-  | { kind: 'up'; encodedUp: EncodedFields; stepsTaken: number; layers?: LayerBytes; measured?: MeasuredSeconds }
+  | {
+      kind: 'up';
+      encodedUp: EncodedFields;
+      stepsTaken: number;
+      layers?: LayerBytes;
+      measured?: MeasuredSeconds;
+    }
   | { kind: 'missing'; layers?: LayerBytes };
 
 export interface ExchangeReply {
@@ -57,7 +63,11 @@ export type ExchangeRequest =
   | { kind: 'members'; round: number; exchange: string; candidates: readonly number[] }
   | { kind: 'exchange'; order: ExchangeOrder };
 
-export type WalkRequest = ExchangeRequest | { kind: 'open-round'; round: number } | { kind: 'close-round'; round: number } | { kind: 'evaluate'; model: Float64Array };
+export type WalkRequest =
+  | ExchangeRequest
+  | { kind: 'open-round'; round: number }
+  | { kind: 'close-round'; round: number }
+  | { kind: 'evaluate'; model: Float64Array };
 
 /** What a request of each kind is answered with. */
 export interface WalkAnswers {
@@ -73,13 +83,19 @@ type Answer<T, Mode extends 'sync' | 'async'> = Mode extends 'sync' ? T : T | Pr
 /** Carries one round's exchanges: enough to walk a round (the round map needs no more). */
 export interface ExchangeTransport<Mode extends 'sync' | 'async' = 'sync'> {
   /** the candidates (ascending) that are still in the run; a client that left takes no part */
-  members(round: number, exchange: string, candidates: readonly number[]): Answer<readonly number[], Mode>;
+  members(
+    round: number,
+    exchange: string,
+    candidates: readonly number[],
+  ): Answer<readonly number[], Mode>;
   /** delivers the downs to their clients and returns what came back */
   exchange(order: ExchangeOrder): Answer<ExchangeReply, Mode>;
 }
 
 /** Carries a whole run. */
-export interface RoundTransport<Mode extends 'sync' | 'async' = 'sync'> extends ExchangeTransport<Mode> {
+export interface RoundTransport<
+  Mode extends 'sync' | 'async' = 'sync',
+> extends ExchangeTransport<Mode> {
   /** before a round starts: null to go on, or why the run stops first */
   openRound(round: number): Answer<StopReason | null, Mode>;
   /** after a round's exchanges: null to go on, or why this round is the last */
@@ -88,12 +104,16 @@ export interface RoundTransport<Mode extends 'sync' | 'async' = 'sync'> extends 
 }
 
 /** One request, typed by its answer: the walk writes `yield* ask(request)`. */
-export function* ask<R extends WalkRequest>(request: R): Generator<R, WalkAnswers[R['kind']], unknown> {
+export function* ask<R extends WalkRequest>(
+  request: R,
+): Generator<R, WalkAnswers[R['kind']], unknown> {
   return (yield request) as WalkAnswers[R['kind']];
 }
 
 /** A transport of either mode as the drivers see it: each method gives its answer or a promise of it. */
-type Answering = { [K in keyof RoundTransport]: (...args: Parameters<RoundTransport[K]>) => unknown };
+type Answering = {
+  [K in keyof RoundTransport]: (...args: Parameters<RoundTransport[K]>) => unknown;
+};
 
 function answer(transport: Answering, request: WalkRequest): unknown {
   switch (request.kind) {
@@ -111,9 +131,18 @@ function answer(transport: Answering, request: WalkRequest): unknown {
 }
 
 /** Walks to the end, answering every request at once. */
-export function driveSync<T>(walk: Generator<ExchangeRequest, T, unknown>, transport: ExchangeTransport): T;
-export function driveSync<T>(walk: Generator<WalkRequest, T, unknown>, transport: RoundTransport): T;
-export function driveSync<T>(walk: Generator<WalkRequest, T, unknown>, transport: ExchangeTransport | RoundTransport): T {
+export function driveSync<T>(
+  walk: Generator<ExchangeRequest, T, unknown>,
+  transport: ExchangeTransport,
+): T;
+export function driveSync<T>(
+  walk: Generator<WalkRequest, T, unknown>,
+  transport: RoundTransport,
+): T;
+export function driveSync<T>(
+  walk: Generator<WalkRequest, T, unknown>,
+  transport: ExchangeTransport | RoundTransport,
+): T {
   // The overloads pair a walk with a transport that answers every request it can yield.
   const answering = transport as Answering;
   let step = walk.next();
@@ -122,7 +151,10 @@ export function driveSync<T>(walk: Generator<WalkRequest, T, unknown>, transport
 }
 
 /** Walks to the end, awaiting every answer. */
-export async function driveAsync<T>(walk: Generator<WalkRequest, T, unknown>, transport: RoundTransport<'async'>): Promise<T> {
+export async function driveAsync<T>(
+  walk: Generator<WalkRequest, T, unknown>,
+  transport: RoundTransport<'async'>,
+): Promise<T> {
   let step = walk.next();
   while (step.done !== true) step = walk.next(await answer(transport, step.value));
   return step.value;

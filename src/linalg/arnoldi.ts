@@ -120,18 +120,30 @@ function ritzPairs(h: Float64Array, krylov: number, k: number, next: number): Ri
 
 function checkOptions(krylovDimension: number, productsMax: number, tolerance: number): void {
   if (!Number.isInteger(krylovDimension) || krylovDimension < 1) {
-    throw new LinalgError('E_LINALG_ARGUMENT', `krylovDimension must be a positive integer, got ${krylovDimension}`);
+    throw new LinalgError(
+      'E_LINALG_ARGUMENT',
+      `krylovDimension must be a positive integer, got ${krylovDimension}`,
+    );
   }
   if (!Number.isInteger(productsMax) || productsMax < 1) {
-    throw new LinalgError('E_LINALG_ARGUMENT', `productsMax must be a positive integer, got ${productsMax}`);
+    throw new LinalgError(
+      'E_LINALG_ARGUMENT',
+      `productsMax must be a positive integer, got ${productsMax}`,
+    );
   }
-  if (!(tolerance > 0) || !(tolerance < 1)) throw new LinalgError('E_LINALG_ARGUMENT', `tolerance must be in (0, 1), got ${tolerance}`);
+  if (!(tolerance > 0) || !(tolerance < 1))
+    throw new LinalgError('E_LINALG_ARGUMENT', `tolerance must be in (0, 1), got ${tolerance}`);
 }
 
 /** The eigenvalue of M of largest modulus (on the range of I - M with movingOnly), from `start`; see the file comment. */
-export function dominantEigenvalue(apply: LinearOperator, start: Float64Array, options: ArnoldiOptions = {}): DominantEigenvalue {
+export function dominantEigenvalue(
+  apply: LinearOperator,
+  start: Float64Array,
+  options: ArnoldiOptions = {},
+): DominantEigenvalue {
   const dim = start.length;
-  if (dim < 1) throw new LinalgError('E_LINALG_DIMENSION', 'the start vector must have length >= 1');
+  if (dim < 1)
+    throw new LinalgError('E_LINALG_DIMENSION', 'the start vector must have length >= 1');
   const krylovDimension = options.krylovDimension ?? DEFAULT_KRYLOV_DIMENSION;
   const productsMax = options.productsMax ?? DEFAULT_PRODUCTS_MAX;
   const tolerance = options.tolerance ?? DEFAULT_TOLERANCE;
@@ -164,7 +176,8 @@ export function dominantEigenvalue(apply: LinearOperator, start: Float64Array, o
     restarts,
     products,
   });
-  const nothingMoves = (): DominantEigenvalue => result({ real: 0, imaginary: 0, modulus: 0, residual: 0 }, true);
+  const nothingMoves = (): DominantEigenvalue =>
+    result({ real: 0, imaginary: 0, modulus: 0, residual: 0 }, true);
 
   let first: Float64Array = Float64Array.from(start);
   const startLength = norm2(first);
@@ -202,11 +215,17 @@ export function dominantEigenvalue(apply: LinearOperator, start: Float64Array, o
       hessenberg[(j + 1) * krylov + j] = next;
       normEstimate = Math.max(normEstimate, Math.sqrt(columnSquared + next * next));
       const roundingLevel = RESIDUAL_ROUNDING * (1 + normEstimate);
-      const converged = (pair: RitzPair) => pair.residual <= Math.max(tolerance * pair.modulus, roundingLevel);
+      const converged = (pair: RitzPair) =>
+        pair.residual <= Math.max(tolerance * pair.modulus, roundingLevel);
       // A converged Ritz value at 1 within its residual is a conserved direction that rounding
       // let in: it is left out, and with it gone nothing may be left that moves.
       const candidates = ritzPairs(hessenberg, krylov, j + 1, next).filter(
-        (pair) => !(movingOnly && converged(pair) && Math.hypot(pair.real - 1, pair.imaginary) <= Math.max(pair.residual, roundingLevel)),
+        (pair) =>
+          !(
+            movingOnly &&
+            converged(pair) &&
+            Math.hypot(pair.real - 1, pair.imaginary) <= Math.max(pair.residual, roundingLevel)
+          ),
       );
       if (candidates.length === 0) return nothingMoves();
       latest = candidates.reduce((best, pair) => (pair.modulus > best.modulus ? pair : best));

@@ -22,7 +22,8 @@ export function choleskyFactor(a: Float64Array, n: number): Float64Array {
     for (let k = 0; k < j; k++) pivot -= l[rowJ + k] * l[rowJ + k];
     // `!(pivot > 0)` also catches NaN from a non-finite input.
     if (!(pivot > 0) || !Number.isFinite(pivot)) {
-      throw new LinalgError('E_LINALG_NOT_POSITIVE_DEFINITE',
+      throw new LinalgError(
+        'E_LINALG_NOT_POSITIVE_DEFINITE',
         `matrix is not positive definite: pivot ${j} of ${n} is ${pivot}`,
       );
     }
@@ -39,7 +40,12 @@ export function choleskyFactor(a: Float64Array, n: number): Float64Array {
 }
 
 /** out <- A^{-1} b given the factor L of A (out may be b itself). */
-export function choleskySolve(factor: Float64Array, n: number, b: Float64Array, out: Float64Array): void {
+export function choleskySolve(
+  factor: Float64Array,
+  n: number,
+  b: Float64Array,
+  out: Float64Array,
+): void {
   assertLinalgLength('factor', factor, n * n);
   assertLinalgLength('right-hand side', b, n);
   assertLinalgLength('solution', out, n);

@@ -49,16 +49,31 @@ const DEFAULT_RELATIVE_TOLERANCE = 1e-10;
 const BREAKDOWN_RATIO = 1e-10;
 
 /** d with A d = r to the tolerance, or the least-squares best in the space built when it stops short. */
-export function gmres(apply: LinearOperator, rhs: Float64Array, options: GmresOptions = {}): GmresResult {
+export function gmres(
+  apply: LinearOperator,
+  rhs: Float64Array,
+  options: GmresOptions = {},
+): GmresResult {
   const dim = rhs.length;
   const iterationsMax = options.iterationsMax ?? dim;
   const relativeTolerance = options.relativeTolerance ?? DEFAULT_RELATIVE_TOLERANCE;
   if (!Number.isInteger(iterationsMax) || iterationsMax < 1) {
-    throw new LinalgError('E_LINALG_ARGUMENT', `iterationsMax must be a positive integer, got ${iterationsMax}`);
+    throw new LinalgError(
+      'E_LINALG_ARGUMENT',
+      `iterationsMax must be a positive integer, got ${iterationsMax}`,
+    );
   }
   const absoluteTolerance = options.absoluteTolerance ?? 0;
-  if (!(relativeTolerance > 0)) throw new LinalgError('E_LINALG_ARGUMENT', `relativeTolerance must be positive, got ${relativeTolerance}`);
-  if (!(absoluteTolerance >= 0)) throw new LinalgError('E_LINALG_ARGUMENT', `absoluteTolerance must be >= 0, got ${absoluteTolerance}`);
+  if (!(relativeTolerance > 0))
+    throw new LinalgError(
+      'E_LINALG_ARGUMENT',
+      `relativeTolerance must be positive, got ${relativeTolerance}`,
+    );
+  if (!(absoluteTolerance >= 0))
+    throw new LinalgError(
+      'E_LINALG_ARGUMENT',
+      `absoluteTolerance must be >= 0, got ${absoluteTolerance}`,
+    );
   const solution = new Float64Array(dim);
   const beta = norm2(rhs);
   const target = Math.max(relativeTolerance * beta, absoluteTolerance);

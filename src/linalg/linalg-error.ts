@@ -25,6 +25,9 @@ export class LinalgError extends CodedError<LinalgErrorCode> {}
 /** Throws E_LINALG_DIMENSION unless `vector` has `length` entries. */
 export function assertLinalgLength(name: string, vector: ArrayLike<number>, length: number): void {
   if (vector.length !== length) {
-    throw new LinalgError('E_LINALG_DIMENSION', `${name} has length ${vector.length}, expected ${length}`);
+    throw new LinalgError(
+      'E_LINALG_DIMENSION',
+      `${name} has length ${vector.length}, expected ${length}`,
+    );
   }
 }

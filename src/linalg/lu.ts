@@ -19,9 +19,11 @@ export interface LuFactors {
  * n * eps * max |a_ij|: the matrix is singular to working precision and a solve would return noise.
  */
 export function luFactor(a: Float64Array, n: number): LuFactors {
-  if (!Number.isInteger(n) || n < 1) throw new LinalgError('E_LINALG_DIMENSION', `an LU factorization needs n >= 1, got ${n}`);
+  if (!Number.isInteger(n) || n < 1)
+    throw new LinalgError('E_LINALG_DIMENSION', `an LU factorization needs n >= 1, got ${n}`);
   assertLinalgLength('matrix', a, n * n);
-  if (!allFinite(a)) throw new LinalgError('E_LINALG_NOT_FINITE', 'the matrix to factor has a non-finite entry');
+  if (!allFinite(a))
+    throw new LinalgError('E_LINALG_NOT_FINITE', 'the matrix to factor has a non-finite entry');
   const lu = Float64Array.from(a);
   const pivots = new Uint32Array(n);
   for (let i = 0; i < n; i++) pivots[i] = i;
@@ -40,7 +42,10 @@ export function luFactor(a: Float64Array, n: number): LuFactors {
       }
     }
     if (pivotSize <= negligible) {
-      throw new LinalgError('E_LINALG_SINGULAR', `matrix is singular to working precision: pivot ${k} of ${n} is ${pivotSize}`);
+      throw new LinalgError(
+        'E_LINALG_SINGULAR',
+        `matrix is singular to working precision: pivot ${k} of ${n} is ${pivotSize}`,
+      );
     }
     if (pivotRow !== k) {
       for (let j = 0; j < n; j++) {

@@ -58,10 +58,16 @@ export interface TridiagonalEigen {
  * O(n) per rotation instead of O(n^2) (the trick of Golub and Welsch, Math. Comp. 1969, who kept
  * the top row).
  */
-export function tridiagonalEigen(diagonal: ArrayLike<number>, offDiagonal: ArrayLike<number>): TridiagonalEigen {
+export function tridiagonalEigen(
+  diagonal: ArrayLike<number>,
+  offDiagonal: ArrayLike<number>,
+): TridiagonalEigen {
   const n = diagonal.length;
   if (n < 1 || offDiagonal.length !== n - 1) {
-    throw new LinalgError('E_LINALG_DIMENSION', `tridiagonal needs n >= 1 and n - 1 off-diagonal entries, got ${n} and ${offDiagonal.length}`);
+    throw new LinalgError(
+      'E_LINALG_DIMENSION',
+      `tridiagonal needs n >= 1 and n - 1 off-diagonal entries, got ${n} and ${offDiagonal.length}`,
+    );
   }
   const d = Float64Array.from(diagonal);
   // e[i] couples d[i] and d[i + 1]; e[n - 1] is a zero sentinel.
@@ -78,7 +84,10 @@ export function tridiagonalEigen(diagonal: ArrayLike<number>, offDiagonal: Array
       }
       if (m === l) break;
       if (++sweeps > QL_SWEEPS_MAX) {
-        throw new LinalgError('E_LINALG_NOT_CONVERGED', `implicit QL did not split off eigenvalue ${l} in ${QL_SWEEPS_MAX} sweeps`);
+        throw new LinalgError(
+          'E_LINALG_NOT_CONVERGED',
+          `implicit QL did not split off eigenvalue ${l} in ${QL_SWEEPS_MAX} sweeps`,
+        );
       }
       let g = (d[l + 1] - d[l]) / (2 * e[l]);
       let r = Math.hypot(g, 1);
@@ -163,8 +172,13 @@ function isConverged(ritz: RitzExtremes, relativeTolerance: number): boolean {
   const normEstimate = Math.max(Math.abs(ritz.smallest), Math.abs(ritz.largest));
   // Below a few ulps of the norm no iteration can do better: that is rounding, not truncation.
   const floor = 4 * EPSILON * normEstimate;
-  const accurate = (value: number, error: number) => error <= Math.max(relativeTolerance * Math.abs(value), floor);
-  return ritz.trusted && accurate(ritz.smallest, ritz.smallestError) && accurate(ritz.largest, ritz.largestError);
+  const accurate = (value: number, error: number) =>
+    error <= Math.max(relativeTolerance * Math.abs(value), floor);
+  return (
+    ritz.trusted &&
+    accurate(ritz.smallest, ritz.smallestError) &&
+    accurate(ritz.largest, ritz.largestError)
+  );
 }
 
 /** Subtracts from w its components along every stored Lanczos vector (modified Gram-Schmidt). */
@@ -182,7 +196,10 @@ export function extremeEigenvalues(
   options: LanczosOptions = {},
 ): ExtremeEigenvalues {
   if (!Number.isInteger(dim) || dim < 1) {
-    throw new LinalgError('E_LINALG_DIMENSION', `an operator needs a positive integer dimension, got ${dim}`);
+    throw new LinalgError(
+      'E_LINALG_DIMENSION',
+      `an operator needs a positive integer dimension, got ${dim}`,
+    );
   }
   const relativeTolerance = options.relativeTolerance ?? DEFAULT_RELATIVE_TOLERANCE;
   const stepsMax = Math.min(dim, options.iterationsMax ?? DEFAULT_ITERATIONS_MAX);
@@ -200,7 +217,10 @@ export function extremeEigenvalues(
     apply(q, w);
     for (let j = 0; j < dim; j++) {
       if (!Number.isFinite(w[j])) {
-        throw new LinalgError('E_LINALG_NOT_FINITE', `the operator returned a non-finite entry at step ${step}`);
+        throw new LinalgError(
+          'E_LINALG_NOT_FINITE',
+          `the operator returned a non-finite entry at step ${step}`,
+        );
       }
     }
     const alpha = dot(q, w);
@@ -222,7 +242,10 @@ export function extremeEigenvalues(
     scale(1 / beta, w);
     q = w;
   }
-  throw new LinalgError('E_LINALG_NOT_CONVERGED', `Lanczos did not reach relative tolerance ${relativeTolerance} in ${stepsMax} steps`);
+  throw new LinalgError(
+    'E_LINALG_NOT_CONVERGED',
+    `Lanczos did not reach relative tolerance ${relativeTolerance} in ${stepsMax} steps`,
+  );
 }
 
 /**
@@ -239,7 +262,10 @@ export function semidefiniteExtremeEigenvalues(
   const result = extremeEigenvalues(apply, dim, options);
   const roundingLevel = dim * EPSILON * Math.abs(result.largest);
   if (result.smallest < -SEMIDEFINITE_SLACK * Math.abs(result.largest)) {
-    throw new LinalgError('E_LINALG_NOT_POSITIVE_DEFINITE', `an operator said to be semidefinite has eigenvalue ${result.smallest}`);
+    throw new LinalgError(
+      'E_LINALG_NOT_POSITIVE_DEFINITE',
+      `an operator said to be semidefinite has eigenvalue ${result.smallest}`,
+    );
   }
   const smallest = result.smallest <= roundingLevel ? 0 : result.smallest;
   return { smallest, largest: result.largest, iterations: result.iterations };

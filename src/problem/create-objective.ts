@@ -15,7 +15,8 @@ export function createObjective(spec: ObjectiveSpec, shard: Shard): Objective {
     case 'logistic':
       return new LogisticObjective(shard, spec.regularization);
     case 'softmax':
-      if (spec.classes === undefined) throw new ProblemError('E_PROBLEM_SPEC', 'a softmax objective needs a class count');
+      if (spec.classes === undefined)
+        throw new ProblemError('E_PROBLEM_SPEC', 'a softmax objective needs a class count');
       return new SoftmaxObjective(shard, spec.regularization, spec.classes);
     default: {
       const unknown: never = spec.kind;

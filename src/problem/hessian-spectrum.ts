@@ -1,7 +1,11 @@
 // The curvature of an objective at a point: the extreme eigenvalues of its Hessian, by Lanczos
 // on Hessian-vector products (never a dense Hessian).
 
-import { extremeEigenvalues, type ExtremeEigenvalues, type LanczosOptions } from '../linalg/spectrum.js';
+import {
+  extremeEigenvalues,
+  type ExtremeEigenvalues,
+  type LanczosOptions,
+} from '../linalg/spectrum.js';
 import type { Objective } from './objective.js';
 
 /** Smallest and largest eigenvalue of the Hessian of `objective` at `x`. */

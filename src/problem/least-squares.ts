@@ -56,7 +56,12 @@ export class LeastSquaresObjective implements Objective {
    * and minibatch gradients share this loop, so a sorted batch of every index gives the full
    * gradient bit for bit.
    */
-  private meanGradient(x: Float64Array, sampleIndices: Uint32Array | null, count: number, out: Float64Array): void {
+  private meanGradient(
+    x: Float64Array,
+    sampleIndices: Uint32Array | null,
+    count: number,
+    out: Float64Array,
+  ): void {
     assertLength('x', x, this.dim);
     assertLength('gradient', out, this.dim);
     const { features, targets } = this.shard;

@@ -38,7 +38,10 @@ export class LogisticObjective implements Objective {
     for (let s = 0; s < shard.sampleCount; s++) {
       const b = shard.targets[s];
       if (b !== 0 && b !== 1) {
-        throw new ProblemError('E_PROBLEM_TARGET', `client ${shard.clientId}: logistic labels must be 0 or 1, sample ${s} has ${b}`);
+        throw new ProblemError(
+          'E_PROBLEM_TARGET',
+          `client ${shard.clientId}: logistic labels must be 0 or 1, sample ${s} has ${b}`,
+        );
       }
     }
     this.shard = shard;
@@ -72,7 +75,12 @@ export class LogisticObjective implements Objective {
   }
 
   /** Shared by the full and minibatch gradients (a sorted batch of every index is bitwise the full gradient). */
-  private meanGradient(x: Float64Array, sampleIndices: Uint32Array | null, count: number, out: Float64Array): void {
+  private meanGradient(
+    x: Float64Array,
+    sampleIndices: Uint32Array | null,
+    count: number,
+    out: Float64Array,
+  ): void {
     assertLength('x', x, this.dim);
     assertLength('gradient', out, this.dim);
     const { features, targets } = this.shard;

@@ -17,10 +17,16 @@ export class UniformMinibatchSampler implements MinibatchSampler {
 
   constructor(rng: Rng, sampleCount: number, batchSize: number) {
     if (!Number.isInteger(sampleCount) || sampleCount < 1 || sampleCount > 0xffffffff) {
-      throw new ProblemError('E_PROBLEM_BATCH', `a sampler needs a sample count in [1, 2^32), got ${sampleCount}`);
+      throw new ProblemError(
+        'E_PROBLEM_BATCH',
+        `a sampler needs a sample count in [1, 2^32), got ${sampleCount}`,
+      );
     }
     if (!Number.isInteger(batchSize) || batchSize < 1) {
-      throw new ProblemError('E_PROBLEM_BATCH', `batch size must be a positive integer, got ${batchSize}`);
+      throw new ProblemError(
+        'E_PROBLEM_BATCH',
+        `batch size must be a positive integer, got ${batchSize}`,
+      );
     }
     this.rng = rng;
     this.sampleCount = sampleCount;
@@ -32,7 +38,8 @@ export class UniformMinibatchSampler implements MinibatchSampler {
    * likely. A batch that covers the shard draws nothing and is the full gradient's sample set.
    */
   next(): Uint32Array {
-    if (this.batchSize === this.sampleCount) return Uint32Array.from({ length: this.sampleCount }, (_, s) => s);
+    if (this.batchSize === this.sampleCount)
+      return Uint32Array.from({ length: this.sampleCount }, (_, s) => s);
     return this.rng.sampleWithoutReplacement(this.sampleCount, this.batchSize);
   }
 }

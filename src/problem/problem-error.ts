@@ -32,6 +32,9 @@ export class ProblemError extends CodedError<ProblemErrorCode> {}
 /** Throws E_DIMENSION unless `vector` has `dim` entries. */
 export function assertLength(name: string, vector: ArrayLike<number>, dim: number): void {
   if (vector.length !== dim) {
-    throw new ProblemError('E_PROBLEM_DIMENSION', `${name} has length ${vector.length}, expected ${dim}`);
+    throw new ProblemError(
+      'E_PROBLEM_DIMENSION',
+      `${name} has length ${vector.length}, expected ${dim}`,
+    );
   }
 }

@@ -34,7 +34,10 @@ export class SoftmaxObjective implements Objective {
     checkShard(shard);
     checkRegularization(regularization);
     if (!Number.isInteger(classCount) || classCount < 2 || classCount > CLASSES_MAX) {
-      throw new ProblemError('E_PROBLEM_SPEC', `softmax needs an integer class count in [2, ${CLASSES_MAX}], got ${classCount}`);
+      throw new ProblemError(
+        'E_PROBLEM_SPEC',
+        `softmax needs an integer class count in [2, ${CLASSES_MAX}], got ${classCount}`,
+      );
     }
     for (let s = 0; s < shard.sampleCount; s++) {
       const b = shard.targets[s];
@@ -111,7 +114,12 @@ export class SoftmaxObjective implements Objective {
   }
 
   /** Shared by the full and minibatch gradients (a sorted batch of every index is bitwise the full gradient). */
-  private meanGradient(w: Float64Array, sampleIndices: Uint32Array | null, count: number, out: Float64Array): void {
+  private meanGradient(
+    w: Float64Array,
+    sampleIndices: Uint32Array | null,
+    count: number,
+    out: Float64Array,
+  ): void {
     assertLength('W', w, this.dim);
     assertLength('gradient', out, this.dim);
     const { features, targets } = this.shard;

@@ -24,9 +24,13 @@ export class WeightedSumObjective implements Objective {
   private exactExtremes: { smallest: number; largest: number } | null = null;
 
   constructor(components: readonly Objective[], weights: ArrayLike<number>) {
-    if (components.length === 0) throw new ProblemError('E_PROBLEM_WEIGHTS', 'a weighted sum needs at least one objective');
+    if (components.length === 0)
+      throw new ProblemError('E_PROBLEM_WEIGHTS', 'a weighted sum needs at least one objective');
     if (weights.length !== components.length) {
-      throw new ProblemError('E_PROBLEM_WEIGHTS', `${weights.length} weights for ${components.length} objectives`);
+      throw new ProblemError(
+        'E_PROBLEM_WEIGHTS',
+        `${weights.length} weights for ${components.length} objectives`,
+      );
     }
     const { kind, dim } = components[0];
     let weightTotal = 0;
@@ -42,7 +46,11 @@ export class WeightedSumObjective implements Objective {
         );
       }
       const w = weights[i];
-      if (!Number.isFinite(w) || w < 0) throw new ProblemError('E_PROBLEM_WEIGHTS', `weight ${i} must be finite and >= 0, got ${w}`);
+      if (!Number.isFinite(w) || w < 0)
+        throw new ProblemError(
+          'E_PROBLEM_WEIGHTS',
+          `weight ${i} must be finite and >= 0, got ${w}`,
+        );
       weightTotal += w;
       regularization += w * component.regularization;
       this.sampleOffsets[i] = sampleCount;
@@ -84,14 +92,18 @@ export class WeightedSumObjective implements Objective {
    */
   minibatchGradient(x: Float64Array, sampleIndices: Uint32Array, out: Float64Array): void {
     assertLength('gradient', out, this.dim);
-    if (sampleIndices.length === 0) throw new ProblemError('E_PROBLEM_BATCH', 'a minibatch needs at least one sample');
+    if (sampleIndices.length === 0)
+      throw new ProblemError('E_PROBLEM_BATCH', 'a minibatch needs at least one sample');
     const m = this.components.length;
     const perClient = new Uint32Array(m);
     const owner = new Uint32Array(sampleIndices.length);
     for (let t = 0; t < sampleIndices.length; t++) {
       const s = sampleIndices[t];
       if (s >= this.sampleCount) {
-        throw new ProblemError('E_PROBLEM_BATCH', `minibatch index ${s} is outside the ${this.sampleCount} samples`);
+        throw new ProblemError(
+          'E_PROBLEM_BATCH',
+          `minibatch index ${s} is outside the ${this.sampleCount} samples`,
+        );
       }
       const i = this.ownerOf(s);
       owner[t] = i;
@@ -111,7 +123,8 @@ export class WeightedSumObjective implements Objective {
       const component = this.components[i];
       // A client's minibatch gradient is (its batch mean) + lambda_i x; its batch contributes
       // c_i times the mean, while the regularizer keeps its full weight p_i.
-      const c = perClient[i] === 0 ? 0 : p * (perClient[i] / component.sampleCount) * inverseInclusion;
+      const c =
+        perClient[i] === 0 ? 0 : p * (perClient[i] / component.sampleCount) * inverseInclusion;
       if (c !== 0) {
         component.minibatchGradient(x, local[i], this.scratch);
         axpy(c, this.scratch, out);
@@ -145,14 +158,16 @@ export class WeightedSumObjective implements Objective {
   smoothnessBound(): number {
     if (this.kind === 'least-squares') return this.leastSquaresExtremes().largest;
     let sum = 0;
-    for (let i = 0; i < this.components.length; i++) sum += this.weights[i] * this.components[i].smoothnessBound();
+    for (let i = 0; i < this.components.length; i++)
+      sum += this.weights[i] * this.components[i].smoothnessBound();
     return sum;
   }
 
   strongConvexityBound(): number {
     if (this.kind === 'least-squares') return this.leastSquaresExtremes().smallest;
     let sum = 0;
-    for (let i = 0; i < this.components.length; i++) sum += this.weights[i] * this.components[i].strongConvexityBound();
+    for (let i = 0; i < this.components.length; i++)
+      sum += this.weights[i] * this.components[i].strongConvexityBound();
     return sum;
   }
 

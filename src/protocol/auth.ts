@@ -23,7 +23,11 @@ export function proveKey(key: string | Uint8Array, nonce: Uint8Array): Uint8Arra
 }
 
 /** True when `proof` answers `nonce` under `key`; compares in constant time. */
-export function verifyProof(key: string | Uint8Array, nonce: Uint8Array, proof: Uint8Array): boolean {
+export function verifyProof(
+  key: string | Uint8Array,
+  nonce: Uint8Array,
+  proof: Uint8Array,
+): boolean {
   const expected = proveKey(key, nonce);
   return proof.length === expected.length && timingSafeEqual(proof, expected);
 }

@@ -55,7 +55,10 @@ function assertPlainData(value: unknown, path: string, depth: number): void {
     case 'object':
       break;
     default:
-      throw new ProtocolError('E_DECODE', `${path}: ${describe(value)} is not a MessagePack core type`);
+      throw new ProtocolError(
+        'E_DECODE',
+        `${path}: ${describe(value)} is not a MessagePack core type`,
+      );
   }
   if (value === null || value instanceof Uint8Array) return;
   if (depth >= NESTING_DEPTH_MAX) {
@@ -66,9 +69,13 @@ function assertPlainData(value: unknown, path: string, depth: number): void {
     return;
   }
   if (Object.getPrototypeOf(value) !== Object.prototype) {
-    throw new ProtocolError('E_DECODE', `${path}: ${describe(value)} is not a MessagePack core type`);
+    throw new ProtocolError(
+      'E_DECODE',
+      `${path}: ${describe(value)} is not a MessagePack core type`,
+    );
   }
-  for (const [key, entry] of Object.entries(value)) assertPlainData(entry, `${path}.${key}`, depth + 1);
+  for (const [key, entry] of Object.entries(value))
+    assertPlainData(entry, `${path}.${key}`, depth + 1);
 }
 
 /**
@@ -78,7 +85,10 @@ function assertPlainData(value: unknown, path: string, depth: number): void {
  */
 export function decodeMessage(bytes: Uint8Array, maxFrameBytes: number): unknown {
   if (bytes.byteLength > maxFrameBytes) {
-    throw new ProtocolError('E_SIZE', `frame of ${bytes.byteLength} bytes exceeds the limit of ${maxFrameBytes}`);
+    throw new ProtocolError(
+      'E_SIZE',
+      `frame of ${bytes.byteLength} bytes exceeds the limit of ${maxFrameBytes}`,
+    );
   }
   if (bytes.byteLength === 0) throw new ProtocolError('E_DECODE', 'empty frame');
   let value: unknown;

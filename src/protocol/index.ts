@@ -5,10 +5,26 @@
 //            then fromWire(message.fields.delta) for the typed arrays.
 
 export { createChallengeNonce, proveKey, verifyProof } from './auth.js';
-export { CLOSE_INVALID_PAYLOAD, CLOSE_MESSAGE_TOO_BIG, CLOSE_NORMAL, CLOSE_POLICY_VIOLATION, CLOSE_PROTOCOL_ERROR } from './close-codes.js';
+export {
+  CLOSE_INVALID_PAYLOAD,
+  CLOSE_MESSAGE_TOO_BIG,
+  CLOSE_NORMAL,
+  CLOSE_POLICY_VIOLATION,
+  CLOSE_PROTOCOL_ERROR,
+} from './close-codes.js';
 export { decodeMessage, encodeMessage, NESTING_DEPTH_MAX } from './codec.js';
-export { isProtocolErrorCode, PROTOCOL_ERROR_CODES, ProtocolError, type ProtocolErrorCode } from './errors.js';
-export { classifyFrameError, FRAME_ERROR_REASONS, type FrameErrorReason, type FrameFailure } from './frame-errors.js';
+export {
+  isProtocolErrorCode,
+  PROTOCOL_ERROR_CODES,
+  ProtocolError,
+  type ProtocolErrorCode,
+} from './errors.js';
+export {
+  classifyFrameError,
+  FRAME_ERROR_REASONS,
+  type FrameErrorReason,
+  type FrameFailure,
+} from './frame-errors.js';
 export { frameBytes, frameHeaderBytes } from './framing.js';
 export {
   frameLimitBytesFor,
@@ -22,4 +38,10 @@ export * from './messages.js';
 export * from './field-dims.js';
 export { receiveMessage } from './receive.js';
 export { validateMessage, type ValidationContext } from './validate.js';
-export { checkWireVector, fromWire, toWire, type ValueWidthBytes, type WireVector } from './wire-vector.js';
+export {
+  checkWireVector,
+  fromWire,
+  toWire,
+  type ValueWidthBytes,
+  type WireVector,
+} from './wire-vector.js';

@@ -67,7 +67,9 @@ function assertFieldDims(fieldDims: FieldDims): void {
   for (const [exchange, fields] of Object.entries(fieldDims)) {
     for (const [field, dim] of Object.entries(fields)) {
       if (!Number.isSafeInteger(dim) || dim < 1) {
-        throw new RangeError(`fieldDims.${exchange}.${field}: dimension must be a positive integer, got ${dim}`);
+        throw new RangeError(
+          `fieldDims.${exchange}.${field}: dimension must be a positive integer, got ${dim}`,
+        );
       }
     }
   }

@@ -47,7 +47,16 @@ export const RESUME_TOKEN_BYTES = 32;
 export const NAME_PATTERN = /^[A-Za-z][A-Za-z0-9_.-]*$/;
 export const NAME_LENGTH_MAX = 64;
 
-export const MESSAGE_TYPES = ['challenge', 'hello', 'welcome', 'down', 'up', 'heartbeat', 'error', 'done'] as const;
+export const MESSAGE_TYPES = [
+  'challenge',
+  'hello',
+  'welcome',
+  'down',
+  'up',
+  'heartbeat',
+  'error',
+  'done',
+] as const;
 export type MessageType = (typeof MESSAGE_TYPES)[number];
 
 export const DONE_REASONS = [
@@ -64,7 +73,6 @@ export type DoneReason = (typeof DONE_REASONS)[number];
 
 /** Named vectors of one message, by field name (as the method names them). */
 export type WireFields = Record<string, WireVector>;
-
 
 export interface ChallengeMessage {
   type: 'challenge';

@@ -98,7 +98,11 @@ const shapes = {
     transferSeconds: seconds,
   }),
   heartbeat: z.strictObject({ type: z.literal('heartbeat'), sentAtMs: z.number().nonnegative() }),
-  error: z.strictObject({ type: z.literal('error'), code: z.enum(PROTOCOL_ERROR_CODES), message: z.string() }),
+  error: z.strictObject({
+    type: z.literal('error'),
+    code: z.enum(PROTOCOL_ERROR_CODES),
+    message: z.string(),
+  }),
   done: z.strictObject({ type: z.literal('done'), reason: z.enum(DONE_REASONS) }),
 } satisfies Record<MessageType, z.ZodType>;
 
@@ -123,9 +127,16 @@ const SCENARIO_PATH = ['plan', 'scenario'] as const;
  * One line for one issue. A welcome's scenario is described as a scenario file's problem is
  * (what was expected, what came), since it is the same schema.
  */
-function describeIssue(issue: z.core.$ZodIssue, raw: Record<string, unknown>, type: string): string {
+function describeIssue(
+  issue: z.core.$ZodIssue,
+  raw: Record<string, unknown>,
+  type: string,
+): string {
   if (type === 'welcome' && SCENARIO_PATH.every((key, i) => issue.path[i] === key)) {
-    const { fieldPath, message } = formatIssue({ ...issue, path: issue.path.slice(SCENARIO_PATH.length) }, valueAt(raw, SCENARIO_PATH));
+    const { fieldPath, message } = formatIssue(
+      { ...issue, path: issue.path.slice(SCENARIO_PATH.length) },
+      valueAt(raw, SCENARIO_PATH),
+    );
     return `${formatPath(type, SCENARIO_PATH)}${fieldPath === '' ? '' : `.${fieldPath}`}: ${message}`;
   }
   return `${formatPath(type, issue.path)}: ${issue.message}`;
@@ -142,37 +153,61 @@ function parseShape<T>(schema: z.ZodType<T>, raw: Record<string, unknown>, type:
 
 function checkName(name: string, path: string): void {
   if (name.length > NAME_LENGTH_MAX) {
-    throw new ProtocolError('E_SIZE', `${path}: ${name.length} characters, at most ${NAME_LENGTH_MAX}`);
+    throw new ProtocolError(
+      'E_SIZE',
+      `${path}: ${name.length} characters, at most ${NAME_LENGTH_MAX}`,
+    );
   }
   if (!NAME_PATTERN.test(name)) {
-    throw new ProtocolError('E_TYPE', `${path}: "${name}" is not a name (letters, digits, '_', '.', '-', first a letter)`);
+    throw new ProtocolError(
+      'E_TYPE',
+      `${path}: "${name}" is not a name (letters, digits, '_', '.', '-', first a letter)`,
+    );
   }
 }
 
-function checkFields(fields: WireFields, expected: Readonly<Record<string, number>> | null, type: string, limits: ProtocolLimits): void {
+function checkFields(
+  fields: WireFields,
+  expected: Readonly<Record<string, number>> | null,
+  type: string,
+  limits: ProtocolLimits,
+): void {
   const names = Object.keys(fields);
   if (names.length > limits.maxFieldsPerMessage) {
-    throw new ProtocolError('E_SIZE', `${type}.fields: ${names.length} fields, at most ${limits.maxFieldsPerMessage}`);
+    throw new ProtocolError(
+      'E_SIZE',
+      `${type}.fields: ${names.length} fields, at most ${limits.maxFieldsPerMessage}`,
+    );
   }
   for (const name of names) checkName(name, `${type}.fields`);
   if (expected !== null) {
     for (const name of names) {
       if (!Object.hasOwn(expected, name)) {
-        throw new ProtocolError('E_TYPE', `${type}.fields.${name}: not a field of this exchange (expected ${Object.keys(expected).join(', ')})`);
+        throw new ProtocolError(
+          'E_TYPE',
+          `${type}.fields.${name}: not a field of this exchange (expected ${Object.keys(expected).join(', ')})`,
+        );
       }
     }
     for (const name of Object.keys(expected)) {
-      if (!Object.hasOwn(fields, name)) throw new ProtocolError('E_TYPE', `${type}.fields.${name}: missing`);
+      if (!Object.hasOwn(fields, name))
+        throw new ProtocolError('E_TYPE', `${type}.fields.${name}: missing`);
     }
   }
   for (const name of names) {
     const path = `${type}.fields.${name}`;
     const vector = fields[name];
     if (vector.dim > limits.maxVectorDim) {
-      throw new ProtocolError('E_SIZE', `${path}.dim: ${vector.dim} exceeds the limit of ${limits.maxVectorDim}`);
+      throw new ProtocolError(
+        'E_SIZE',
+        `${path}.dim: ${vector.dim} exceeds the limit of ${limits.maxVectorDim}`,
+      );
     }
     if (expected !== null && vector.dim !== expected[name]) {
-      throw new ProtocolError('E_DIMENSION', `${path}.dim: the plan says ${expected[name]}, got ${vector.dim}`);
+      throw new ProtocolError(
+        'E_DIMENSION',
+        `${path}.dim: the plan says ${expected[name]}, got ${vector.dim}`,
+      );
     }
     checkWireVector(vector, path);
   }
@@ -182,16 +217,28 @@ function checkRoundTraffic(message: DownMessage | UpMessage, context: Validation
   const { type, round, exchange, clientId } = message;
   checkName(exchange, `${type}.exchange`);
   if (context.expectedRound !== null && round !== context.expectedRound) {
-    throw new ProtocolError('E_ROUND', `${type}.round: expected round ${context.expectedRound}, got ${round}`);
+    throw new ProtocolError(
+      'E_ROUND',
+      `${type}.round: expected round ${context.expectedRound}, got ${round}`,
+    );
   }
   if (context.expectedExchange !== null && exchange !== context.expectedExchange) {
-    throw new ProtocolError('E_ROUND', `${type}.exchange: expected "${context.expectedExchange}", got "${exchange}"`);
+    throw new ProtocolError(
+      'E_ROUND',
+      `${type}.exchange: expected "${context.expectedExchange}", got "${exchange}"`,
+    );
   }
   if (context.fieldDims !== null && !Object.hasOwn(context.fieldDims, exchange)) {
-    throw new ProtocolError('E_ROUND', `${type}.exchange: "${exchange}" is not an exchange of this method`);
+    throw new ProtocolError(
+      'E_ROUND',
+      `${type}.exchange: "${exchange}" is not an exchange of this method`,
+    );
   }
   if (context.ownedClientIds !== null && !context.ownedClientIds.has(clientId)) {
-    throw new ProtocolError('E_CLIENT', `${type}.clientId: client ${clientId} is not hosted by this worker`);
+    throw new ProtocolError(
+      'E_CLIENT',
+      `${type}.clientId: client ${clientId} is not hosted by this worker`,
+    );
   }
   const expected = context.fieldDims === null ? null : context.fieldDims[exchange];
   checkFields(message.fields, expected, type, context.limits);
@@ -207,40 +254,67 @@ function checkHello(message: z.output<typeof shapes.hello>, context: ValidationC
     throw new ProtocolError('E_TYPE', 'hello.workerName: must be non-empty and printable');
   }
   if (workerName.length > limits.maxWorkerNameLength) {
-    throw new ProtocolError('E_SIZE', `hello.workerName: ${workerName.length} characters, at most ${limits.maxWorkerNameLength}`);
+    throw new ProtocolError(
+      'E_SIZE',
+      `hello.workerName: ${workerName.length} characters, at most ${limits.maxWorkerNameLength}`,
+    );
   }
   if (capacity > limits.maxClientsPerWorker) {
-    throw new ProtocolError('E_SIZE', `hello.capacity: ${capacity}, at most ${limits.maxClientsPerWorker}`);
+    throw new ProtocolError(
+      'E_SIZE',
+      `hello.capacity: ${capacity}, at most ${limits.maxClientsPerWorker}`,
+    );
   }
   if (proof.length !== PROOF_BYTES) {
-    throw new ProtocolError('E_TYPE', `hello.proof: ${PROOF_BYTES} bytes expected, got ${proof.length}`);
+    throw new ProtocolError(
+      'E_TYPE',
+      `hello.proof: ${PROOF_BYTES} bytes expected, got ${proof.length}`,
+    );
   }
   // Whether the resume token names a session it may resume is the coordinator's to say (E_AUTH there).
   if (resume !== undefined && resume.length !== RESUME_TOKEN_BYTES) {
-    throw new ProtocolError('E_TYPE', `hello.resume: ${RESUME_TOKEN_BYTES} bytes expected, got ${resume.length}`);
+    throw new ProtocolError(
+      'E_TYPE',
+      `hello.resume: ${RESUME_TOKEN_BYTES} bytes expected, got ${resume.length}`,
+    );
   }
   if (auth !== null && !verifyProof(auth.key, auth.nonce, proof)) {
-    throw new ProtocolError('E_AUTH', 'hello.proof: does not answer this connection\'s challenge under the shared key');
+    throw new ProtocolError(
+      'E_AUTH',
+      "hello.proof: does not answer this connection's challenge under the shared key",
+    );
   }
 }
 
 function checkWelcome(message: z.output<typeof shapes.welcome>, limits: ProtocolLimits): void {
   const { assignments, resumeToken, plan } = message;
   if (resumeToken !== undefined && resumeToken.length !== RESUME_TOKEN_BYTES) {
-    throw new ProtocolError('E_TYPE', `welcome.resumeToken: ${RESUME_TOKEN_BYTES} bytes expected, got ${resumeToken.length}`);
+    throw new ProtocolError(
+      'E_TYPE',
+      `welcome.resumeToken: ${RESUME_TOKEN_BYTES} bytes expected, got ${resumeToken.length}`,
+    );
   }
   if (assignments.length > limits.maxClientsPerWorker) {
-    throw new ProtocolError('E_SIZE', `welcome.assignments: ${assignments.length} clients, at most ${limits.maxClientsPerWorker}`);
+    throw new ProtocolError(
+      'E_SIZE',
+      `welcome.assignments: ${assignments.length} clients, at most ${limits.maxClientsPerWorker}`,
+    );
   }
   for (let i = 1; i < assignments.length; i++) {
     if (assignments[i] <= assignments[i - 1]) {
-      throw new ProtocolError('E_TYPE', `welcome.assignments[${i}]: client ids must be strictly increasing`);
+      throw new ProtocolError(
+        'E_TYPE',
+        `welcome.assignments[${i}]: client ids must be strictly increasing`,
+      );
     }
   }
   const clientCount = plan.scenario.clients.count;
   const beyond = assignments.findIndex((id) => id >= clientCount);
   if (beyond >= 0) {
-    throw new ProtocolError('E_CLIENT', `welcome.assignments[${beyond}]: client ${assignments[beyond]}, the plan has clients 0 to ${clientCount - 1}`);
+    throw new ProtocolError(
+      'E_CLIENT',
+      `welcome.assignments[${beyond}]: client ${assignments[beyond]}, the plan has clients 0 to ${clientCount - 1}`,
+    );
   }
 }
 
@@ -248,7 +322,10 @@ function checkVersion(raw: Record<string, unknown>, type: string): void {
   // Before the shape: a peer of another version may send another shape, and should hear why.
   const version = raw.protocolVersion;
   if (typeof version === 'number' && version !== PROTOCOL_VERSION) {
-    throw new ProtocolError('E_VERSION', `${type}.protocolVersion: this end speaks ${PROTOCOL_VERSION}, the peer ${version}`);
+    throw new ProtocolError(
+      'E_VERSION',
+      `${type}.protocolVersion: this end speaks ${PROTOCOL_VERSION}, the peer ${version}`,
+    );
   }
 }
 
@@ -273,14 +350,20 @@ export function validateMessage(raw: unknown, context: ValidationContext): Messa
     throw new ProtocolError('E_TYPE', `type: unknown message type ${quote(type)}`);
   }
   if (!context.expectedTypes.includes(type)) {
-    throw new ProtocolError('E_TYPE', `type: "${type}" is not expected now (expected ${context.expectedTypes.join(', ')})`);
+    throw new ProtocolError(
+      'E_TYPE',
+      `type: "${type}" is not expected now (expected ${context.expectedTypes.join(', ')})`,
+    );
   }
   switch (type) {
     case 'challenge': {
       checkVersion(record, type);
       const message = parseShape(shapes.challenge, record, type);
       if (message.nonce.length !== NONCE_BYTES) {
-        throw new ProtocolError('E_TYPE', `challenge.nonce: ${NONCE_BYTES} bytes expected, got ${message.nonce.length}`);
+        throw new ProtocolError(
+          'E_TYPE',
+          `challenge.nonce: ${NONCE_BYTES} bytes expected, got ${message.nonce.length}`,
+        );
       }
       return message;
     }
@@ -308,7 +391,10 @@ export function validateMessage(raw: unknown, context: ValidationContext): Messa
     case 'error': {
       const message = parseShape(shapes.error, record, type);
       if (message.message.length > context.limits.maxErrorMessageLength) {
-        throw new ProtocolError('E_SIZE', `error.message: ${message.message.length} characters, at most ${context.limits.maxErrorMessageLength}`);
+        throw new ProtocolError(
+          'E_SIZE',
+          `error.message: ${message.message.length} characters, at most ${context.limits.maxErrorMessageLength}`,
+        );
       }
       return message;
     }

@@ -82,10 +82,16 @@ function checkCounts(wv: WireVector, path: string): void {
     throw new ProtocolError('E_DIMENSION', `${path}.dim: must be a positive integer, got ${dim}`);
   }
   if (!Number.isSafeInteger(count) || count < 0 || count > dim) {
-    throw new ProtocolError('E_DIMENSION', `${path}.count: must be an integer in [0, ${dim}], got ${count}`);
+    throw new ProtocolError(
+      'E_DIMENSION',
+      `${path}.count: must be an integer in [0, ${dim}], got ${count}`,
+    );
   }
   if (indices === null && count !== dim) {
-    throw new ProtocolError('E_DIMENSION', `${path}.count: the dense form carries all ${dim} entries, got ${count}`);
+    throw new ProtocolError(
+      'E_DIMENSION',
+      `${path}.count: the dense form carries all ${dim} entries, got ${count}`,
+    );
   }
   if (values.byteLength !== count * width) {
     throw new ProtocolError(

@@ -3,8 +3,19 @@
 // colour and line style comes from palette.ts; no chart falls back on the library's scheme.
 
 import type { TopLevelSpec } from 'vega-lite';
-import { ACTIVITY_COLOURS, DIRECTION_STYLES, LAYER_COLOURS, NEUTRAL_MARK_COLOUR } from './palette.js';
-import type { BytesRow, CurvePointRow, HistogramBar, Layer, TimelineSegment } from './run-series.js';
+import {
+  ACTIVITY_COLOURS,
+  DIRECTION_STYLES,
+  LAYER_COLOURS,
+  NEUTRAL_MARK_COLOUR,
+} from './palette.js';
+import type {
+  BytesRow,
+  CurvePointRow,
+  HistogramBar,
+  Layer,
+  TimelineSegment,
+} from './run-series.js';
 
 const chartWidth = 560;
 const chartHeight = 260;
@@ -45,17 +56,38 @@ export interface CurveChartOptions {
 }
 
 /** Suboptimality on a log scale against rounds, cumulative bytes or seconds, one line a series. */
-export function curveChartSpec(rows: readonly CurvePointRow[], options: CurveChartOptions): TopLevelSpec {
+export function curveChartSpec(
+  rows: readonly CurvePointRow[],
+  options: CurveChartOptions,
+): TopLevelSpec {
   const labels = options.series.map((s) => s.label);
-  const legend = { orient: 'bottom', columns: 2, title: null, symbolType: 'stroke', symbolSize: 300, symbolStrokeWidth: 2 } as const;
+  const legend = {
+    orient: 'bottom',
+    columns: 2,
+    title: null,
+    symbolType: 'stroke',
+    symbolSize: 300,
+    symbolStrokeWidth: 2,
+  } as const;
   return {
     width: chartWidth,
     height: chartHeight,
     config: baseConfig,
-    data: { values: rows.map((r) => ({ series: r.series, x: r[options.axis], suboptimality: r.suboptimality })) },
+    data: {
+      values: rows.map((r) => ({
+        series: r.series,
+        x: r[options.axis],
+        suboptimality: r.suboptimality,
+      })),
+    },
     mark: { type: 'line', clip: true, strokeWidth: 1.5 },
     encoding: {
-      x: { field: 'x', type: 'quantitative', title: options.axisTitle ?? curveAxisTitles[options.axis], axis: options.axis === 'payloadBytes' ? { format: '~s' } : {} },
+      x: {
+        field: 'x',
+        type: 'quantitative',
+        title: options.axisTitle ?? curveAxisTitles[options.axis],
+        axis: options.axis === 'payloadBytes' ? { format: '~s' } : {},
+      },
       y: {
         field: 'suboptimality',
         type: 'quantitative',
@@ -64,8 +96,20 @@ export function curveChartSpec(rows: readonly CurvePointRow[], options: CurveCha
         axis: { format: '.0e' },
       },
       // One legend shows both channels: the same field, domain and legend settings merge them.
-      color: { field: 'series', type: 'nominal', sort: labels, scale: { domain: labels, range: options.series.map((s) => s.colour) }, legend },
-      strokeDash: { field: 'series', type: 'nominal', sort: labels, scale: { domain: labels, range: options.series.map((s) => [...s.dash]) }, legend },
+      color: {
+        field: 'series',
+        type: 'nominal',
+        sort: labels,
+        scale: { domain: labels, range: options.series.map((s) => s.colour) },
+        legend,
+      },
+      strokeDash: {
+        field: 'series',
+        type: 'nominal',
+        sort: labels,
+        scale: { domain: labels, range: options.series.map((s) => [...s.dash]) },
+        legend,
+      },
     },
   };
 }
@@ -73,19 +117,59 @@ export function curveChartSpec(rows: readonly CurvePointRow[], options: CurveCha
 /** Bytes per round: colour says the layer, line style and point shape the direction. */
 export function bytesChartSpec(rows: readonly BytesRow[], layers: readonly Layer[]): TopLevelSpec {
   const directions = Object.keys(DIRECTION_STYLES) as (keyof typeof DIRECTION_STYLES)[];
-  const directionLegend = { orient: 'bottom', title: 'direction', symbolType: 'stroke', symbolSize: 300, symbolStrokeWidth: 2 } as const;
+  const directionLegend = {
+    orient: 'bottom',
+    title: 'direction',
+    symbolType: 'stroke',
+    symbolSize: 300,
+    symbolStrokeWidth: 2,
+  } as const;
   return {
     width: chartWidth,
     height: chartHeight,
     config: baseConfig,
     data: { values: rows.map((r) => ({ ...r })) },
-    mark: { type: 'line', point: rows.length <= 400 ? { size: 14, filled: true } : false, strokeWidth: 1.5 },
+    mark: {
+      type: 'line',
+      point: rows.length <= 400 ? { size: 14, filled: true } : false,
+      strokeWidth: 1.5,
+    },
     encoding: {
       x: { field: 'round', type: 'quantitative', title: 'round' },
-      y: { field: 'bytes', type: 'quantitative', title: 'bytes in the round (all clients)', axis: { format: '~s' } },
-      color: { field: 'layer', type: 'nominal', sort: [...layers], scale: { domain: [...layers], range: layers.map((l) => LAYER_COLOURS[l]) }, legend: { orient: 'bottom', title: 'layer' } },
-      strokeDash: { field: 'direction', type: 'nominal', sort: directions, scale: { domain: directions, range: directions.map((d) => [...DIRECTION_STYLES[d].dash]) }, legend: directionLegend },
-      ...(rows.length <= 400 ? { shape: { field: 'direction', type: 'nominal', sort: directions, scale: { domain: directions, range: directions.map((d) => DIRECTION_STYLES[d].shape) }, legend: directionLegend } } : {}),
+      y: {
+        field: 'bytes',
+        type: 'quantitative',
+        title: 'bytes in the round (all clients)',
+        axis: { format: '~s' },
+      },
+      color: {
+        field: 'layer',
+        type: 'nominal',
+        sort: [...layers],
+        scale: { domain: [...layers], range: layers.map((l) => LAYER_COLOURS[l]) },
+        legend: { orient: 'bottom', title: 'layer' },
+      },
+      strokeDash: {
+        field: 'direction',
+        type: 'nominal',
+        sort: directions,
+        scale: { domain: directions, range: directions.map((d) => [...DIRECTION_STYLES[d].dash]) },
+        legend: directionLegend,
+      },
+      ...(rows.length <= 400
+        ? {
+            shape: {
+              field: 'direction',
+              type: 'nominal',
+              sort: directions,
+              scale: {
+                domain: directions,
+                range: directions.map((d) => DIRECTION_STYLES[d].shape),
+              },
+              legend: directionLegend,
+            },
+          }
+        : {}),
     },
   };
 }
@@ -98,13 +182,22 @@ export function histogramChartSpec(bars: readonly HistogramBar[]): TopLevelSpec 
     data: { values: bars.map((b) => ({ ...b })) },
     mark: { type: 'bar', color: NEUTRAL_MARK_COLOUR },
     encoding: {
-      x: { field: 'label', type: 'ordinal', sort: bars.map((b) => b.label), title: 'local steps tau_i', axis: { labelAngle: 0 } },
+      x: {
+        field: 'label',
+        type: 'ordinal',
+        sort: bars.map((b) => b.label),
+        title: 'local steps tau_i',
+        axis: { labelAngle: 0 },
+      },
       y: { field: 'count', type: 'quantitative', title: '(client, round) pairs' },
     },
   };
 }
 
-export function timelineChartSpec(segments: readonly TimelineSegment[], clientLabels: string[]): TopLevelSpec {
+export function timelineChartSpec(
+  segments: readonly TimelineSegment[],
+  clientLabels: string[],
+): TopLevelSpec {
   const activities = Object.keys(ACTIVITY_COLOURS);
   return {
     width: chartWidth,
@@ -113,10 +206,19 @@ export function timelineChartSpec(segments: readonly TimelineSegment[], clientLa
     data: { values: segments.map((s) => ({ ...s })) },
     mark: { type: 'rect' },
     encoding: {
-      x: { field: 'start', type: 'quantitative', title: 'modelled seconds since the first shown round began' },
+      x: {
+        field: 'start',
+        type: 'quantitative',
+        title: 'modelled seconds since the first shown round began',
+      },
       x2: { field: 'end' },
       y: { field: 'client', type: 'nominal', sort: clientLabels, title: null },
-      color: { field: 'activity', type: 'nominal', scale: { domain: activities, range: Object.values(ACTIVITY_COLOURS) }, legend: { orient: 'bottom', title: null } },
+      color: {
+        field: 'activity',
+        type: 'nominal',
+        scale: { domain: activities, range: Object.values(ACTIVITY_COLOURS) },
+        legend: { orient: 'bottom', title: null },
+      },
     },
   };
 }

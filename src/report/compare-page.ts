@@ -4,7 +4,13 @@
 
 import { formatNumber } from './text-table.js';
 import { curveChartSpec, type CurveAxis, type CurveSeries } from './chart-specs.js';
-import { tableHeader, tableRows, verdictLines, type Comparison, type VariantOutcome } from './compare-table.js';
+import {
+  tableHeader,
+  tableRows,
+  verdictLines,
+  type Comparison,
+  type VariantOutcome,
+} from './compare-table.js';
 import { figure, grid, heading, page, paragraph, section, table, type Html } from './html-page.js';
 import { methodColour, VARIANT_DASHES } from './palette.js';
 import { ladderOptionText } from './ladder.js';
@@ -15,17 +21,27 @@ import { measuredCurve, type CurvePointRow } from './run-series.js';
 const comparePointsMax = 6000;
 
 /** Each variant's line: its method's colour, and the next line style among that method's variants. */
-export function variantSeries(labels: readonly string[], methods: readonly string[]): CurveSeries[] {
+export function variantSeries(
+  labels: readonly string[],
+  methods: readonly string[],
+): CurveSeries[] {
   const seen = new Map<string, number>();
   return labels.map((label, i) => {
     const nth = seen.get(methods[i]) ?? 0;
     seen.set(methods[i], nth + 1);
-    return { label, colour: methodColour(methods[i]), dash: VARIANT_DASHES[nth % VARIANT_DASHES.length] };
+    return {
+      label,
+      colour: methodColour(methods[i]),
+      dash: VARIANT_DASHES[nth % VARIANT_DASHES.length],
+    };
   });
 }
 
 /** `outcomes` in the order of the comparison's rows. */
-export async function buildComparePage(c: Comparison, outcomes: readonly Pick<VariantOutcome, 'summary' | 'rounds'>[]): Promise<string> {
+export async function buildComparePage(
+  c: Comparison,
+  outcomes: readonly Pick<VariantOutcome, 'summary' | 'rounds'>[],
+): Promise<string> {
   const perVariant = Math.max(50, Math.floor(comparePointsMax / Math.max(1, c.variants.length)));
   const clock = c.timeBasis === 'modelled' ? 'virtual' : 'wall';
   const rows: CurvePointRow[] = [];
@@ -43,18 +59,40 @@ export async function buildComparePage(c: Comparison, outcomes: readonly Pick<Va
   const axes: [CurveAxis, string, string | undefined][] = [
     ['round', 'Suboptimality against rounds', undefined],
     ['payloadBytes', 'Suboptimality against payload bytes', undefined],
-    ['seconds', 'Suboptimality against seconds', c.timeBasis === 'modelled' ? 'modelled seconds (virtual clock)' : 'wall seconds'],
+    [
+      'seconds',
+      'Suboptimality against seconds',
+      c.timeBasis === 'modelled' ? 'modelled seconds (virtual clock)' : 'wall seconds',
+    ],
   ];
   const figures: Html[] = [];
   for (const [axis, title, axisTitle] of axes) {
-    figures.push(figure(await renderSvg(curveChartSpec(rows, { axis, series, ...(axisTitle ? { axisTitle } : {}) }), `compare-${axis}`), caption, title));
+    figures.push(
+      figure(
+        await renderSvg(
+          curveChartSpec(rows, { axis, series, ...(axisTitle ? { axisTitle } : {}) }),
+          `compare-${axis}`,
+        ),
+        caption,
+        title,
+      ),
+    );
   }
   const laddersText = c.ladders.map((l) => `--ladder ${ladderOptionText(l)}`).join(' ');
   return page(`roundwire compare: ${c.scenario}`, [
     heading(`roundwire compare: ${c.scenario}`),
-    paragraph(`${c.variants.length} variants (${laddersText}), ${c.runtime} runtime; seconds are ${c.timeBasis === 'modelled' ? 'modelled (virtual clock)' : 'wall-clock'}.`, 'note'),
+    paragraph(
+      `${c.variants.length} variants (${laddersText}), ${c.runtime} runtime; seconds are ${c.timeBasis === 'modelled' ? 'modelled (virtual clock)' : 'wall-clock'}.`,
+      'note',
+    ),
     ...verdictLines(c).map((line) => paragraph(line, 'verdict')),
-    section('Variants', [table(tableHeader, tableRows(c), formatNumber), paragraph('Each variant has its own results folder (with its report.html) beside this page.', 'note')]),
+    section('Variants', [
+      table(tableHeader, tableRows(c), formatNumber),
+      paragraph(
+        'Each variant has its own results folder (with its report.html) beside this page.',
+        'note',
+      ),
+    ]),
     section('Convergence', [grid(figures)]),
   ]);
 }

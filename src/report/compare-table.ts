@@ -61,7 +61,10 @@ export function columnHeading(key: keyof CompareRow): string {
 }
 
 /** The columns of the printed and the HTML table; seconds are on the comparison's time basis. */
-export const tableColumns: Column[] = tableKeys.map((k) => ({ name: columnHeading(k), unit: COLUMN_UNITS[k] }));
+export const tableColumns: Column[] = tableKeys.map((k) => ({
+  name: columnHeading(k),
+  unit: COLUMN_UNITS[k],
+}));
 
 export type TimeBasis = 'modelled' | 'wall';
 
@@ -130,16 +133,34 @@ export function compareRow(outcome: VariantOutcome, timeBasis: TimeBasis): Compa
 }
 
 /** The least and the next least value among rows that reached the target; ties keep row order. */
-export function rankLeast(rows: readonly CompareRow[], key: 'bytesToTarget' | 'uplinkBytesToTarget' | 'secondsToTarget'): Ranking | null {
-  const reached = rows.filter((r) => r.roundsToTarget !== null && r[key] !== null).map((r) => ({ variant: r.variant, value: r[key] as number }));
-  const sorted = reached.map((entry, order) => ({ entry, order })).sort((a, b) => a.entry.value - b.entry.value || a.order - b.order).map((s) => s.entry);
+export function rankLeast(
+  rows: readonly CompareRow[],
+  key: 'bytesToTarget' | 'uplinkBytesToTarget' | 'secondsToTarget',
+): Ranking | null {
+  const reached = rows
+    .filter((r) => r.roundsToTarget !== null && r[key] !== null)
+    .map((r) => ({ variant: r.variant, value: r[key] as number }));
+  const sorted = reached
+    .map((entry, order) => ({ entry, order }))
+    .sort((a, b) => a.entry.value - b.entry.value || a.order - b.order)
+    .map((s) => s.entry);
   if (sorted.length === 0) return null;
   const [leader, runnerUp] = sorted;
   if (runnerUp === undefined) return { ...leader, runnerUp: null, margin: null, ratio: null };
-  return { ...leader, runnerUp, margin: runnerUp.value - leader.value, ratio: leader.value > 0 ? runnerUp.value / leader.value : null };
+  return {
+    ...leader,
+    runnerUp,
+    margin: runnerUp.value - leader.value,
+    ratio: leader.value > 0 ? runnerUp.value / leader.value : null,
+  };
 }
 
-export function buildComparison(scenario: string, target: number, ladders: Ladder[], outcomes: readonly VariantOutcome[]): Comparison {
+export function buildComparison(
+  scenario: string,
+  target: number,
+  ladders: Ladder[],
+  outcomes: readonly VariantOutcome[],
+): Comparison {
   const summaries = outcomes.map((o) => o.summary);
   const timeBasis = timeBasisOf(summaries);
   const rows = outcomes.map((o) => compareRow(o, timeBasis));
@@ -178,10 +199,18 @@ function formatRatio(ratio: number): string {
 }
 
 /** One verdict line: the leader, its value, and how far ahead of the runner-up it is. */
-function rankingLine(title: string, r: Ranking, unit: string, fewer: string, times: string): string {
+function rankingLine(
+  title: string,
+  r: Ranking,
+  unit: string,
+  fewer: string,
+  times: string,
+): string {
   const value = `${formatNumber(r.value)} ${unit}`;
-  if (r.runnerUp === null) return `${title}: ${r.variant} (${value}; the only variant that reached the target)`;
-  if (r.margin === 0) return `${title}: ${r.variant} (${value}; tied with runner-up ${r.runnerUp.variant})`;
+  if (r.runnerUp === null)
+    return `${title}: ${r.variant} (${value}; the only variant that reached the target)`;
+  if (r.margin === 0)
+    return `${title}: ${r.variant} (${value}; tied with runner-up ${r.runnerUp.variant})`;
   const ratio = r.ratio === null ? '' : `, which needs ${formatRatio(r.ratio)} times ${times}`;
   return `${title}: ${r.variant} (${value}; ${formatNumber(r.margin)} ${unit} ${fewer} than runner-up ${r.runnerUp.variant}${ratio})`;
 }
@@ -190,24 +219,49 @@ function rankingLine(title: string, r: Ranking, unit: string, fewer: string, tim
 export function verdictLines(c: Comparison): string[] {
   const v = c.verdict;
   const target = `the target f - f* <= ${formatNumber(c.target)}`;
-  if (v.reachedTarget === 0) return [`no variant reached ${target} within its rounds, so none is ranked`];
+  if (v.reachedTarget === 0)
+    return [`no variant reached ${target} within its rounds, so none is ranked`];
   const lines = [`${v.reachedTarget} of ${c.variants.length} variants reached ${target}`];
-  if (v.fewestBytesToTarget !== null) lines.push(rankingLine('fewest bytes to target', v.fewestBytesToTarget, 'bytes', 'fewer', 'as many'));
-  if (v.fewestUplinkBytesToTarget !== null) lines.push(rankingLine('fewest uplink bytes to target', v.fewestUplinkBytesToTarget, 'bytes', 'fewer', 'as many'));
-  if (v.leastTimeToTarget !== null) lines.push(rankingLine(`least ${c.timeBasis} time to target`, v.leastTimeToTarget, 's', 'less', 'as long'));
+  if (v.fewestBytesToTarget !== null)
+    lines.push(
+      rankingLine('fewest bytes to target', v.fewestBytesToTarget, 'bytes', 'fewer', 'as many'),
+    );
+  if (v.fewestUplinkBytesToTarget !== null)
+    lines.push(
+      rankingLine(
+        'fewest uplink bytes to target',
+        v.fewestUplinkBytesToTarget,
+        'bytes',
+        'fewer',
+        'as many',
+      ),
+    );
+  if (v.leastTimeToTarget !== null)
+    lines.push(
+      rankingLine(
+        `least ${c.timeBasis} time to target`,
+        v.leastTimeToTarget,
+        's',
+        'less',
+        'as long',
+      ),
+    );
   return lines;
 }
 
 export function formatComparison(c: Comparison, outDir: string): string {
-  const basis = c.timeBasis === 'modelled' ? 'seconds are modelled (virtual clock)' : 'seconds are wall-clock';
-  return [
-    `${c.scenario}: ${c.variants.length} variants, ${c.runtime}, target ${formatNumber(c.target)}; bytes are payload bytes up and down; ${basis}`,
-    '',
-    formatTable(tableColumns, tableRows(c)),
-    '',
-    ...verdictLines(c),
-    `results: ${outDir} (compare.html, compare.csv, compare.json, one folder per variant)`,
-  ].join('\n') + '\n';
+  const basis =
+    c.timeBasis === 'modelled' ? 'seconds are modelled (virtual clock)' : 'seconds are wall-clock';
+  return (
+    [
+      `${c.scenario}: ${c.variants.length} variants, ${c.runtime}, target ${formatNumber(c.target)}; bytes are payload bytes up and down; ${basis}`,
+      '',
+      formatTable(tableColumns, tableRows(c)),
+      '',
+      ...verdictLines(c),
+      `results: ${outDir} (compare.html, compare.csv, compare.json, one folder per variant)`,
+    ].join('\n') + '\n'
+  );
 }
 
 function csvField(value: string | number | null): string {
@@ -218,7 +272,10 @@ function csvField(value: string | number | null): string {
 
 /** RFC 4180 CSV: CRLF line ends, fields quoted when they hold a comma, quote or line break. */
 export function comparisonCsv(c: Comparison): string {
-  const lines = [compareColumns.join(','), ...c.variants.map((r) => compareColumns.map((k) => csvField(r[k])).join(','))];
+  const lines = [
+    compareColumns.join(','),
+    ...c.variants.map((r) => compareColumns.map((k) => csvField(r[k])).join(',')),
+  ];
   return `${lines.join('\r\n')}\r\n`;
 }
 

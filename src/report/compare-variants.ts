@@ -43,10 +43,17 @@ export function variantCount(ladders: readonly Ladder[]): number {
 
 /** Every combination of one rung from each ladder, the first ladder varying slowest; bounded by variantsMax. */
 export function expandVariants(ladders: readonly Ladder[]): Variant[] {
-  if (ladders.length === 0) throw new ReportError('E_COMPARE_VARIANTS', 'nothing to compare: give --ladder field:rung/rung or a ladders section in the scenario');
+  if (ladders.length === 0)
+    throw new ReportError(
+      'E_COMPARE_VARIANTS',
+      'nothing to compare: give --ladder field:rung/rung or a ladders section in the scenario',
+    );
   const total = variantCount(ladders);
   if (total > COMPARE_LIMITS.variantsMax) {
-    throw new ReportError('E_COMPARE_VARIANTS', `${total} variants (${ladders.map((l) => l.rungs.length).join(' x ')} rungs) exceed the limit of ${COMPARE_LIMITS.variantsMax}; use fewer rungs`);
+    throw new ReportError(
+      'E_COMPARE_VARIANTS',
+      `${total} variants (${ladders.map((l) => l.rungs.length).join(' x ')} rungs) exceed the limit of ${COMPARE_LIMITS.variantsMax}; use fewer rungs`,
+    );
   }
   const names = shortNames(ladders.flatMap((l) => l.fields));
   const variants: Variant[] = [];

@@ -21,24 +21,34 @@ export function paragraph(value: string, className?: string): Html {
 }
 
 export function figure(svg: string, caption: string, title: string): Html {
-  return html(`<figure><h3>${escapeHtml(title)}</h3>${svg}<figcaption>${escapeHtml(caption)}</figcaption></figure>`);
+  return html(
+    `<figure><h3>${escapeHtml(title)}</h3>${svg}<figcaption>${escapeHtml(caption)}</figcaption></figure>`,
+  );
 }
 
 export type TableCell = string | number | null;
 
 /** A table of text cells; numbers are formatted by the caller's `format`. */
-export function table(header: readonly string[], rows: readonly TableCell[][], format: (value: number | null) => string): Html {
+export function table(
+  header: readonly string[],
+  rows: readonly TableCell[][],
+  format: (value: number | null) => string,
+): Html {
   const cell = (c: TableCell, tag: 'td' | 'th'): string => {
     const numeric = typeof c === 'number' || c === null;
     return `<${tag}${numeric ? ' class="num"' : ''}>${escapeHtml(numeric ? format(c) : c)}</${tag}>`;
   };
   const head = `<tr>${header.map((h) => `<th>${escapeHtml(h)}</th>`).join('')}</tr>`;
-  const body = rows.map((r) => `<tr>${r.map((c, i) => cell(c, i === 0 ? 'th' : 'td')).join('')}</tr>`).join('\n');
+  const body = rows
+    .map((r) => `<tr>${r.map((c, i) => cell(c, i === 0 ? 'th' : 'td')).join('')}</tr>`)
+    .join('\n');
   return html(`<table><thead>${head}</thead><tbody>\n${body}\n</tbody></table>`);
 }
 
 export function section(title: string, parts: readonly Html[]): Html {
-  return html(`<section><h2>${escapeHtml(title)}</h2>\n${parts.map((p) => p.html).join('\n')}\n</section>`);
+  return html(
+    `<section><h2>${escapeHtml(title)}</h2>\n${parts.map((p) => p.html).join('\n')}\n</section>`,
+  );
 }
 
 const styles = `

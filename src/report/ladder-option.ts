@@ -65,7 +65,11 @@ export function splitOutside(text: string, separator: string): string[] | string
   return parts.map((p) => p.trim());
 }
 
-function rungValues(rungText: string, rungNumber: number, fields: readonly string[]): unknown[] | string {
+function rungValues(
+  rungText: string,
+  rungNumber: number,
+  fields: readonly string[],
+): unknown[] | string {
   const texts = fields.length === 1 ? [rungText] : splitOutside(rungText, ',');
   if (typeof texts === 'string') return `rung ${rungNumber} (${rungText}): ${texts}`;
   if (texts.length !== fields.length) {
@@ -75,7 +79,8 @@ function rungValues(rungText: string, rungNumber: number, fields: readonly strin
   for (const [i, text] of texts.entries()) {
     if (text === '') return `rung ${rungNumber} (${rungText}): no value for ${fields[i]}`;
     const read = readYamlValue(text);
-    if ('reason' in read) return `rung ${rungNumber}: cannot read ${JSON.stringify(text)} as a value: ${read.reason}`;
+    if ('reason' in read)
+      return `rung ${rungNumber}: cannot read ${JSON.stringify(text)} as a value: ${read.reason}`;
     values.push(read.value);
   }
   return values;
@@ -84,10 +89,17 @@ function rungValues(rungText: string, rungNumber: number, fields: readonly strin
 function readLadderOption(text: string): Ladder | string {
   const colon = text.indexOf(':');
   if (colon < 0) return 'no colon; expected field:rung/rung/..., e.g. method.name:fedavg/fedlin';
-  const fields = text.slice(0, colon).split('+').map((f) => f.trim());
-  if (fields.length > ladderLimits.fieldsMax) return `${fields.length} fields; at most ${ladderLimits.fieldsMax} move together`;
+  const fields = text
+    .slice(0, colon)
+    .split('+')
+    .map((f) => f.trim());
+  if (fields.length > ladderLimits.fieldsMax)
+    return `${fields.length} fields; at most ${ladderLimits.fieldsMax} move together`;
   for (const field of fields) {
-    if (field === '') return fields.length === 1 ? 'no field before the colon' : `an empty field name in ${text.slice(0, colon)}`;
+    if (field === '')
+      return fields.length === 1
+        ? 'no field before the colon'
+        : `an empty field name in ${text.slice(0, colon)}`;
     const keys = fieldPathKeys(field);
     if (typeof keys === 'string') return `field ${JSON.stringify(field)}: ${keys}`;
   }
@@ -95,7 +107,8 @@ function readLadderOption(text: string): Ladder | string {
   if (rungsText.trim() === '') return 'no rungs after the colon';
   const rungTexts = splitOutside(rungsText, '/');
   if (typeof rungTexts === 'string') return rungTexts;
-  if (rungTexts.length > ladderLimits.rungsMax) return `${rungTexts.length} rungs; at most ${ladderLimits.rungsMax}`;
+  if (rungTexts.length > ladderLimits.rungsMax)
+    return `${rungTexts.length} rungs; at most ${ladderLimits.rungsMax}`;
   const rungs: unknown[][] = [];
   for (const [i, rungText] of rungTexts.entries()) {
     if (rungText === '') return `rung ${i + 1} is empty`;
@@ -109,6 +122,7 @@ function readLadderOption(text: string): Ladder | string {
 /** Reads one `--ladder` option; bad grammar gets one line naming the reason. */
 export function parseLadderOption(text: string): Ladder {
   const ladder = readLadderOption(text);
-  if (typeof ladder === 'string') throw new ReportError('E_LADDER_SYNTAX', `--ladder ${JSON.stringify(text)}: ${ladder}`);
+  if (typeof ladder === 'string')
+    throw new ReportError('E_LADDER_SYNTAX', `--ladder ${JSON.stringify(text)}: ${ladder}`);
   return ladder;
 }

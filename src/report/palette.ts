@@ -42,7 +42,8 @@ export function isMethodName(name: string): name is MethodName {
 
 /** The method's colour; callers pass names they have checked with isMethodName. */
 export function methodColour(name: string): string {
-  if (!isMethodName(name)) throw new RangeError(`no colour for "${name}": not a method (${METHOD_NAMES.join(', ')})`);
+  if (!isMethodName(name))
+    throw new RangeError(`no colour for "${name}": not a method (${METHOD_NAMES.join(', ')})`);
   return METHOD_COLOURS[name];
 }
 
@@ -79,7 +80,14 @@ export const DIRECTION_STYLES = {
  * predicted dash is not among them: on every page a line dashed like that is a prediction.
  * Beyond this many variants of one method the styles repeat; the table holds the numbers.
  */
-export const VARIANT_DASHES: readonly (readonly number[])[] = [SOLID_DASH, DOTTED_DASH, [10, 3, 2, 3], [14, 4], [10, 3, 2, 3, 2, 3], [2, 6]];
+export const VARIANT_DASHES: readonly (readonly number[])[] = [
+  SOLID_DASH,
+  DOTTED_DASH,
+  [10, 3, 2, 3],
+  [14, 4],
+  [10, 3, 2, 3, 2, 3],
+  [2, 6],
+];
 
 /** Grafana line styles for the same meanings (a panel's custom.lineStyle). */
 export const GRAFANA_LINE_STYLES = {

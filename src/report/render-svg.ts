@@ -13,7 +13,8 @@ import { compile, type TopLevelSpec } from 'vega-lite';
  */
 export function inlineSvg(svg: string, idPrefix: string): string {
   const renamed = new Map<string, string>();
-  for (const match of svg.matchAll(/\sid="([^"]+)"/g)) if (!renamed.has(match[1])) renamed.set(match[1], `${idPrefix}-${renamed.size + 1}`);
+  for (const match of svg.matchAll(/\sid="([^"]+)"/g))
+    if (!renamed.has(match[1])) renamed.set(match[1], `${idPrefix}-${renamed.size + 1}`);
   const rename = (id: string): string => renamed.get(id) ?? id;
   return svg
     .replace(/\s+xmlns(:xlink)?="[^"]*"/g, '')
@@ -24,7 +25,10 @@ export function inlineSvg(svg: string, idPrefix: string): string {
 
 /** Renders a Vega-Lite spec to SVG text; the same spec gives the same text. */
 export async function renderSvg(spec: TopLevelSpec, idPrefix: string): Promise<string> {
-  const view = new vega.View(vega.parse(compile(spec).spec), { renderer: 'none', logLevel: vega.Error });
+  const view = new vega.View(vega.parse(compile(spec).spec), {
+    renderer: 'none',
+    logLevel: vega.Error,
+  });
   try {
     return inlineSvg(await view.toSVG(), idPrefix);
   } finally {

@@ -4,12 +4,36 @@
 
 import type { RunSummary } from '../engine/run-summary.js';
 import { formatNumber } from './text-table.js';
-import { bytesChartSpec, curveChartSpec, histogramChartSpec, timelineChartSpec, type CurveAxis, type CurveSeries } from './chart-specs.js';
-import { figure, grid, heading, page, paragraph, section, table, type Html, type TableCell } from './html-page.js';
+import {
+  bytesChartSpec,
+  curveChartSpec,
+  histogramChartSpec,
+  timelineChartSpec,
+  type CurveAxis,
+  type CurveSeries,
+} from './chart-specs.js';
+import {
+  figure,
+  grid,
+  heading,
+  page,
+  paragraph,
+  section,
+  table,
+  type Html,
+  type TableCell,
+} from './html-page.js';
 import { methodColour, PREDICTED_DASH, SOLID_DASH } from './palette.js';
 import { renderSvg } from './render-svg.js';
 import type { RunResults } from './run-results.js';
-import { bytesByLayer, clientTimeline, localStepsHistogram, measuredCurve, predictedCurve, SERIES_LIMITS } from './run-series.js';
+import {
+  bytesByLayer,
+  clientTimeline,
+  localStepsHistogram,
+  measuredCurve,
+  predictedCurve,
+  SERIES_LIMITS,
+} from './run-series.js';
 
 const measuredLabel = 'measured';
 const predictedLabel = 'predicted: floor + (f0 - floor) rate^k';
@@ -31,8 +55,16 @@ function summaryRows(s: RunSummary): TableCell[][] {
     ['payload bytes to target', s.toTarget.payloadBytes, null],
     ['payload bytes up', s.bytes.payload.up, null],
     ['payload bytes down', s.bytes.payload.down, null],
-    ...(s.bytes.encoded ? ([['encoded bytes up / down', `${s.bytes.encoded.up} / ${s.bytes.encoded.down}`, null]] as TableCell[][]) : []),
-    ...(s.bytes.wire ? ([['wire bytes up / down', `${s.bytes.wire.up} / ${s.bytes.wire.down}`, null]] as TableCell[][]) : []),
+    ...(s.bytes.encoded
+      ? ([
+          ['encoded bytes up / down', `${s.bytes.encoded.up} / ${s.bytes.encoded.down}`, null],
+        ] as TableCell[][])
+      : []),
+    ...(s.bytes.wire
+      ? ([
+          ['wire bytes up / down', `${s.bytes.wire.up} / ${s.bytes.wire.down}`, null],
+        ] as TableCell[][])
+      : []),
     ['modelled seconds', s.seconds.virtual, null],
     ['wall seconds', s.seconds.wall, null],
     ['dropped updates', s.droppedUpdates, null],
@@ -43,16 +75,25 @@ function summaryRows(s: RunSummary): TableCell[][] {
   ];
 }
 
-function curveCaption(results: RunResults, curve: ReturnType<typeof measuredCurve>, predicted: boolean): string {
+function curveCaption(
+  results: RunResults,
+  curve: ReturnType<typeof measuredCurve>,
+  predicted: boolean,
+): string {
   const s = results.summary;
   const parts = [
     predicted
       ? `Dashed: the predicted curve from the summary's predicted rate ${formatNumber(s.rate.predicted)} and floor ${formatNumber(s.floor.predicted)}.`
       : `No prediction is drawn: ${s.prediction.reason ?? 'the summary holds no predicted rate and floor'}.`,
   ];
-  if (curve.points.length < curve.pointsTotal) parts.push(`${curve.points.length} of ${curve.pointsTotal} evaluated rounds drawn, evenly spread.`);
-  if (curve.nonPositive > 0) parts.push(`${curve.nonPositive} rounds with f(x) - f* <= 0 left out (log scale).`);
-  if (curve.diverged) parts.push('The run diverged; the curve stops before the first non-finite value.');
+  if (curve.points.length < curve.pointsTotal)
+    parts.push(
+      `${curve.points.length} of ${curve.pointsTotal} evaluated rounds drawn, evenly spread.`,
+    );
+  if (curve.nonPositive > 0)
+    parts.push(`${curve.nonPositive} rounds with f(x) - f* <= 0 left out (log scale).`);
+  if (curve.diverged)
+    parts.push('The run diverged; the curve stops before the first non-finite value.');
   return parts.join(' ');
 }
 
@@ -64,9 +105,15 @@ async function curveFigures(results: RunResults): Promise<Html[]> {
   // Both lines in the method's colour: the line style, not the colour, says which is the prediction.
   const colour = methodColour(s.method);
   const measuredSeries: CurveSeries = { label: measuredLabel, colour, dash: SOLID_DASH };
-  const series = prediction === null ? [measuredSeries] : [measuredSeries, { label: predictedLabel, colour, dash: PREDICTED_DASH }];
+  const series =
+    prediction === null
+      ? [measuredSeries]
+      : [measuredSeries, { label: predictedLabel, colour, dash: PREDICTED_DASH }];
   const values = curve.points.map((p) => p.suboptimality);
-  const yDomain: [number, number] | undefined = prediction !== null && values.length > 0 ? [Math.min(...values), Math.max(...values)] : undefined;
+  const yDomain: [number, number] | undefined =
+    prediction !== null && values.length > 0
+      ? [Math.min(...values), Math.max(...values)]
+      : undefined;
   const caption = curveCaption(results, curve, prediction !== null);
   const axes: [CurveAxis, string][] = [
     ['round', 'Suboptimality against rounds'],
@@ -75,7 +122,12 @@ async function curveFigures(results: RunResults): Promise<Html[]> {
   ];
   const figures: Html[] = [];
   for (const [axis, title] of axes) {
-    const spec = curveChartSpec(rows, { axis, series, yDomain, ...(axis === 'seconds' ? { axisTitle: secondsTitle(s.clock) } : {}) });
+    const spec = curveChartSpec(rows, {
+      axis,
+      series,
+      yDomain,
+      ...(axis === 'seconds' ? { axisTitle: secondsTitle(s.clock) } : {}),
+    });
     figures.push(figure(await renderSvg(spec, `curve-${axis}`), caption, title));
   }
   return figures;
@@ -84,22 +136,37 @@ async function curveFigures(results: RunResults): Promise<Html[]> {
 async function bytesFigure(results: RunResults): Promise<Html> {
   const bytes = bytesByLayer(results.rounds);
   const notes = [`Layers recorded: ${bytes.layers.join(', ')}; uplink solid, downlink dotted.`];
-  if (!bytes.layers.includes('wire')) notes.push('Encoded and wire bytes are counted where a network carries the run (the distributed runtime).');
+  if (!bytes.layers.includes('wire'))
+    notes.push(
+      'Encoded and wire bytes are counted where a network carries the run (the distributed runtime).',
+    );
   const shown = new Set(bytes.rows.map((r) => r.round)).size;
-  if (shown < bytes.roundsTotal) notes.push(`${shown} of ${bytes.roundsTotal} rounds drawn, evenly spread.`);
-  return figure(await renderSvg(bytesChartSpec(bytes.rows, bytes.layers), 'bytes'), notes.join(' '), 'Bytes per round by layer');
+  if (shown < bytes.roundsTotal)
+    notes.push(`${shown} of ${bytes.roundsTotal} rounds drawn, evenly spread.`);
+  return figure(
+    await renderSvg(bytesChartSpec(bytes.rows, bytes.layers), 'bytes'),
+    notes.join(' '),
+    'Bytes per round by layer',
+  );
 }
 
 async function timelineFigure(results: RunResults): Promise<Html> {
   const timeline = clientTimeline(results.rounds, results.clients);
-  const labels = [...new Set(timeline.segments.map((s) => s.client))].sort((a, b) => Number(a.slice(7)) - Number(b.slice(7)));
+  const labels = [...new Set(timeline.segments.map((s) => s.client))].sort(
+    (a, b) => Number(a.slice(7)) - Number(b.slice(7)),
+  );
   const notes = [
     timeline.roundsShown.length > 0
       ? `Rounds ${timeline.roundsShown[0]} to ${timeline.roundsShown[timeline.roundsShown.length - 1]} (the last ${timeline.roundsShown.length}, at most ${SERIES_LIMITS.timelineRoundsMax}); each exchange laid out as compute, transfer, then idle until the round closes.`
       : 'No rounds with client records.',
   ];
-  if (timeline.clientsShown < timeline.clientsTotal) notes.push(`The first ${timeline.clientsShown} of ${timeline.clientsTotal} clients are shown.`);
-  return figure(await renderSvg(timelineChartSpec(timeline.segments, labels), 'timeline'), notes.join(' '), 'Per-client timeline: compute, transfer, idle');
+  if (timeline.clientsShown < timeline.clientsTotal)
+    notes.push(`The first ${timeline.clientsShown} of ${timeline.clientsTotal} clients are shown.`);
+  return figure(
+    await renderSvg(timelineChartSpec(timeline.segments, labels), 'timeline'),
+    notes.join(' '),
+    'Per-client timeline: compute, transfer, idle',
+  );
 }
 
 async function histogramFigure(results: RunResults): Promise<Html> {
@@ -107,7 +174,11 @@ async function histogramFigure(results: RunResults): Promise<Html> {
   const pairs = bars.reduce((n, b) => n + b.count, 0);
   const binned = bars.some((b) => b.low !== b.high);
   const caption = `${pairs} (client, round) pairs of the local-work exchange${binned ? `, in ${bars.length} equal-width bins` : ''}.`;
-  return figure(await renderSvg(histogramChartSpec(bars), 'tau'), caption, 'Distribution of local steps tau_i');
+  return figure(
+    await renderSvg(histogramChartSpec(bars), 'tau'),
+    caption,
+    'Distribution of local steps tau_i',
+  );
 }
 
 /** The whole report page; the same results give the same text. */
@@ -116,13 +187,29 @@ export async function buildRunReport(results: RunResults): Promise<string> {
   const header: Html[] = [
     heading(`roundwire report: ${results.scenarioName}`),
     ...(results.description ? [paragraph(results.description)] : []),
-    paragraph(`${s.method}, ${s.clients} clients, ${s.rounds} rounds (${s.stopReason}), ${s.runtime} runtime, ${s.clock} clock, step size ${formatNumber(s.stepSize)}; plan ${s.planHash}.`, 'note'),
-    paragraph(s.roundsToTarget === null ? `Target ${formatNumber(s.target)}: not reached.` : `Target ${formatNumber(s.target)}: reached at round ${s.roundsToTarget}.`, 'verdict'),
+    paragraph(
+      `${s.method}, ${s.clients} clients, ${s.rounds} rounds (${s.stopReason}), ${s.runtime} runtime, ${s.clock} clock, step size ${formatNumber(s.stepSize)}; plan ${s.planHash}.`,
+      'note',
+    ),
+    paragraph(
+      s.roundsToTarget === null
+        ? `Target ${formatNumber(s.target)}: not reached.`
+        : `Target ${formatNumber(s.target)}: reached at round ${s.roundsToTarget}.`,
+      'verdict',
+    ),
   ];
   return page(`roundwire report: ${results.scenarioName}`, [
     ...header,
-    section('Summary: measured beside predicted', [table(['quantity', 'measured', 'predicted'], summaryRows(s), formatNumber)]),
+    section('Summary: measured beside predicted', [
+      table(['quantity', 'measured', 'predicted'], summaryRows(s), formatNumber),
+    ]),
     section('Convergence', [grid(await curveFigures(results))]),
-    section('Traffic and time', [grid([await bytesFigure(results), await timelineFigure(results), await histogramFigure(results)])]),
+    section('Traffic and time', [
+      grid([
+        await bytesFigure(results),
+        await timelineFigure(results),
+        await histogramFigure(results),
+      ]),
+    ]),
   ]);
 }

@@ -47,24 +47,47 @@ export function parseRunResults(text: RunResultsText): RunResults {
   } catch {
     throw new ReportError('E_RESULTS_CONTENT', 'outcome.json is not JSON');
   }
-  if (!isRecord(summary) || !isRecord(summary.rate) || !isRecord(summary.floor) || !isRecord(summary.suboptimality) || typeof summary.clock !== 'string') {
-    throw new ReportError('E_RESULTS_CONTENT', 'outcome.json lacks the fields a run writes (rate, floor, suboptimality, clock)');
+  if (
+    !isRecord(summary) ||
+    !isRecord(summary.rate) ||
+    !isRecord(summary.floor) ||
+    !isRecord(summary.suboptimality) ||
+    typeof summary.clock !== 'string'
+  ) {
+    throw new ReportError(
+      'E_RESULTS_CONTENT',
+      'outcome.json lacks the fields a run writes (rate, floor, suboptimality, clock)',
+    );
   }
   // The charts draw a run in its method's colour, so the method must be one roundwire knows.
   if (typeof summary.method !== 'string' || !isMethodName(summary.method)) {
-    throw new ReportError('E_RESULTS_CONTENT', `outcome.json: method ${JSON.stringify(summary.method)} is not one of ${METHOD_NAMES.join(', ')}`);
+    throw new ReportError(
+      'E_RESULTS_CONTENT',
+      `outcome.json: method ${JSON.stringify(summary.method)} is not one of ${METHOD_NAMES.join(', ')}`,
+    );
   }
   const scenario: unknown = parse(text.resolvedScenario);
   const rounds = jsonLines<RoundRecord>(text.rounds, 'rounds.jsonl');
-  if (rounds.length === 0) throw new ReportError('E_RESULTS_CONTENT', 'rounds.jsonl holds no rounds');
+  if (rounds.length === 0)
+    throw new ReportError('E_RESULTS_CONTENT', 'rounds.jsonl holds no rounds');
   for (const r of rounds) {
-    if (!isRecord(r) || typeof r.round !== 'number' || !isRecord(r.bytes) || !isRecord(r.localSteps)) {
-      throw new ReportError('E_RESULTS_CONTENT', 'rounds.jsonl: a line lacks round, bytes or localSteps');
+    if (
+      !isRecord(r) ||
+      typeof r.round !== 'number' ||
+      !isRecord(r.bytes) ||
+      !isRecord(r.localSteps)
+    ) {
+      throw new ReportError(
+        'E_RESULTS_CONTENT',
+        'rounds.jsonl: a line lacks round, bytes or localSteps',
+      );
     }
   }
   const clients = jsonLines<ClientRoundRecord>(text.clients, 'clients.jsonl');
   const run = summary as unknown as RunSummary;
-  const name = isRecord(scenario) && typeof scenario.name === 'string' ? scenario.name : run.scenario;
-  const description = isRecord(scenario) && typeof scenario.description === 'string' ? scenario.description : null;
+  const name =
+    isRecord(scenario) && typeof scenario.name === 'string' ? scenario.name : run.scenario;
+  const description =
+    isRecord(scenario) && typeof scenario.description === 'string' ? scenario.description : null;
   return { scenarioName: name, description, summary: run, rounds, clients };
 }

@@ -44,7 +44,12 @@ export function secondsOf(record: RoundRecord, clock: RunSummary['clock']): numb
   return clock === 'virtual' ? record.virtualSeconds : record.wallSeconds;
 }
 
-export function measuredCurve(rounds: readonly RoundRecord[], clock: RunSummary['clock'], series: string, pointsMax: number = SERIES_LIMITS.curvePointsMax): MeasuredCurve {
+export function measuredCurve(
+  rounds: readonly RoundRecord[],
+  clock: RunSummary['clock'],
+  series: string,
+  pointsMax: number = SERIES_LIMITS.curvePointsMax,
+): MeasuredCurve {
   const all: CurvePointRow[] = [];
   let cumulativeBytes = 0;
   let nonPositive = 0;
@@ -60,7 +65,13 @@ export function measuredCurve(rounds: readonly RoundRecord[], clock: RunSummary[
       nonPositive++;
       continue;
     }
-    all.push({ series, round: r.round, payloadBytes: cumulativeBytes, seconds: secondsOf(r, clock), suboptimality: r.suboptimality });
+    all.push({
+      series,
+      round: r.round,
+      payloadBytes: cumulativeBytes,
+      seconds: secondsOf(r, clock),
+      suboptimality: r.suboptimality,
+    });
   }
   return { points: thin(all, pointsMax), pointsTotal: all.length, nonPositive, diverged };
 }
@@ -69,7 +80,11 @@ export function measuredCurve(rounds: readonly RoundRecord[], clock: RunSummary[
  * The predicted curve f_k - f* = floor + (f_0 - floor) rate^k at the measured curve's rounds (so
  * that it can be drawn against bytes and seconds too), or null when the run has no prediction.
  */
-export function predictedCurve(summary: RunSummary, measured: readonly CurvePointRow[], series: string): CurvePointRow[] | null {
+export function predictedCurve(
+  summary: RunSummary,
+  measured: readonly CurvePointRow[],
+  series: string,
+): CurvePointRow[] | null {
   const rate = summary.rate.predicted;
   const floor = summary.floor.predicted;
   if (!summary.prediction.available || rate === null || floor === null) return null;
@@ -99,7 +114,10 @@ export interface BytesByLayer {
   roundsTotal: number;
 }
 
-export function bytesByLayer(rounds: readonly RoundRecord[], roundsMax: number = SERIES_LIMITS.bytesRoundsMax): BytesByLayer {
+export function bytesByLayer(
+  rounds: readonly RoundRecord[],
+  roundsMax: number = SERIES_LIMITS.bytesRoundsMax,
+): BytesByLayer {
   // Round 0 is the evaluation of the starting point: nothing has crossed a link yet.
   const traffic = rounds.filter((r) => r.round > 0);
   const layers = layerNames.filter((layer) => traffic.some((r) => r.bytes[layer] !== undefined));
@@ -124,14 +142,20 @@ export interface HistogramBar {
 }
 
 /** Histogram of tau_i over every (client, round) pair: one bar a value, or equal-width bins. */
-export function localStepsHistogram(rounds: readonly RoundRecord[], binsMax: number = SERIES_LIMITS.histogramBinsMax): HistogramBar[] {
+export function localStepsHistogram(
+  rounds: readonly RoundRecord[],
+  binsMax: number = SERIES_LIMITS.histogramBinsMax,
+): HistogramBar[] {
   const counts = new Map<number, number>();
-  for (const r of rounds) for (const steps of Object.values(r.localSteps)) counts.set(steps, (counts.get(steps) ?? 0) + 1);
+  for (const r of rounds)
+    for (const steps of Object.values(r.localSteps))
+      counts.set(steps, (counts.get(steps) ?? 0) + 1);
   if (counts.size === 0) return [];
   const values = [...counts.keys()].sort((a, b) => a - b);
   const min = values[0];
   const max = values[values.length - 1];
-  if (max - min + 1 <= binsMax) return values.map((v) => ({ label: String(v), low: v, high: v, count: counts.get(v) ?? 0 }));
+  if (max - min + 1 <= binsMax)
+    return values.map((v) => ({ label: String(v), low: v, high: v, count: counts.get(v) ?? 0 }));
   const width = Math.ceil((max - min + 1) / binsMax);
   const bars: HistogramBar[] = [];
   for (let low = min; low <= max; low += width) {
@@ -164,13 +188,19 @@ export interface Timeline {
  * transfer, then idle (waiting for the round to close). Modelled seconds: the records carry them
  * for both clocks.
  */
-export function clientTimeline(rounds: readonly RoundRecord[], clients: readonly ClientRoundRecord[], roundsMax: number = SERIES_LIMITS.timelineRoundsMax, clientsMax: number = SERIES_LIMITS.timelineClientsMax): Timeline {
+export function clientTimeline(
+  rounds: readonly RoundRecord[],
+  clients: readonly ClientRoundRecord[],
+  roundsMax: number = SERIES_LIMITS.timelineRoundsMax,
+  clientsMax: number = SERIES_LIMITS.timelineClientsMax,
+): Timeline {
   const clientIds = [...new Set(clients.map((c) => c.clientId))].sort((a, b) => a - b);
   const shownIds = new Set(clientIds.slice(0, clientsMax));
   const traffic = rounds.filter((r) => r.round > 0);
   const shownRounds = traffic.slice(-roundsMax);
   const roundStart = new Map<number, number>();
-  const origin = shownRounds.length > 0 ? shownRounds[0].virtualSeconds - shownRounds[0].roundSeconds : 0;
+  const origin =
+    shownRounds.length > 0 ? shownRounds[0].virtualSeconds - shownRounds[0].roundSeconds : 0;
   for (const r of shownRounds) roundStart.set(r.round, r.virtualSeconds - r.roundSeconds - origin);
   const cursor = new Map<string, number>();
   const segments: TimelineSegment[] = [];
@@ -180,12 +210,21 @@ export function clientTimeline(rounds: readonly RoundRecord[], clients: readonly
     const client = `client ${c.clientId}`;
     const key = `${c.round}:${c.clientId}`;
     let t = cursor.get(key) ?? start;
-    for (const [activity, seconds] of [['compute', c.computeSeconds], ['transfer', c.transferSeconds], ['idle', c.waitSeconds]] as const) {
+    for (const [activity, seconds] of [
+      ['compute', c.computeSeconds],
+      ['transfer', c.transferSeconds],
+      ['idle', c.waitSeconds],
+    ] as const) {
       if (!(seconds > 0)) continue;
       segments.push({ client, round: c.round, activity, start: t, end: t + seconds });
       t += seconds;
     }
     cursor.set(key, t);
   }
-  return { segments, clientsShown: shownIds.size, clientsTotal: clientIds.length, roundsShown: shownRounds.map((r) => r.round) };
+  return {
+    segments,
+    clientsShown: shownIds.size,
+    clientsTotal: clientIds.length,
+    roundsShown: shownRounds.map((r) => r.round),
+  };
 }

@@ -64,9 +64,15 @@ function columnar(columns: readonly Column[], rows: readonly Cell[][]): string[]
   const header = columns.map(columnTitle);
   const body = rows.map((r) => columns.map((_, col) => cellText(r[col])));
   const widths = header.map((h, col) => Math.max(h.length, ...body.map((r) => r[col].length)));
-  const numeric = columns.map((_, col) => rows.every((r) => typeof r[col] === 'number' || r[col] === null));
+  const numeric = columns.map((_, col) =>
+    rows.every((r) => typeof r[col] === 'number' || r[col] === null),
+  );
   const line = (prefix: string, cells: string[]): string =>
-    prefix + cells.map((c, col) => (numeric[col] ? c.padStart(widths[col]) : c.padEnd(widths[col]))).join(columnGap).trimEnd();
+    prefix +
+    cells
+      .map((c, col) => (numeric[col] ? c.padStart(widths[col]) : c.padEnd(widths[col])))
+      .join(columnGap)
+      .trimEnd();
   return [line(headerMark, header), ...body.map((r) => line(rowIndent, r))];
 }
 
@@ -92,11 +98,16 @@ function folded(columns: readonly Column[], rows: readonly Cell[][]): string[] {
  * nothing to fold and stays as it is). A column given as a string is a name without a unit.
  * Rows hold one cell per column.
  */
-export function formatTable(columns: readonly (Column | string)[], rows: readonly Cell[][], options: { widthMax?: number } = {}): string {
+export function formatTable(
+  columns: readonly (Column | string)[],
+  rows: readonly Cell[][],
+  options: { widthMax?: number } = {},
+): string {
   const widthMax = options.widthMax ?? TEXT_TABLE_LIMITS.widthMax;
   const spec = columns.map(asColumn);
   for (const [i, r] of rows.entries()) {
-    if (r.length !== spec.length) throw new RangeError(`text table: row ${i} has ${r.length} cells for ${spec.length} columns`);
+    if (r.length !== spec.length)
+      throw new RangeError(`text table: row ${i} has ${r.length} cells for ${spec.length} columns`);
   }
   const lines = columnar(spec, rows);
   if (spec.length < 2 || lines.every((l) => l.length <= widthMax)) return lines.join('\n');

@@ -19,7 +19,12 @@ export function unwrap(node: Node): Node {
   let current = node;
   for (;;) {
     const def = defOf(current);
-    if (def.type === 'default' || def.type === 'optional' || def.type === 'nullable' || def.type === 'prefault') {
+    if (
+      def.type === 'default' ||
+      def.type === 'optional' ||
+      def.type === 'nullable' ||
+      def.type === 'prefault'
+    ) {
       current = def.innerType as Node;
     } else if (def.type === 'pipe') {
       current = def.in as Node;
@@ -30,8 +35,12 @@ export function unwrap(node: Node): Node {
 }
 
 function describeNumber(def: Def): string {
-  const checks = ((def.checks as { _zod: { def: Record<string, unknown> } }[] | undefined) ?? []).map((c) => c._zod.def);
-  const integer = checks.some((c) => c.check === 'number_format' && String(c.format).includes('int'));
+  const checks = (
+    (def.checks as { _zod: { def: Record<string, unknown> } }[] | undefined) ?? []
+  ).map((c) => c._zod.def);
+  const integer = checks.some(
+    (c) => c.check === 'number_format' && String(c.format).includes('int'),
+  );
   let lower: string | null = null;
   let upper: string | null = null;
   let positive = false;
@@ -61,21 +70,28 @@ export function describeSchema(node: Node, depth = 0): string {
     case 'boolean':
       return 'true or false';
     case 'enum':
-      return `one of ${Object.values(def.entries as Record<string, string>).map((v) => JSON.stringify(v)).join(', ')}`;
+      return `one of ${Object.values(def.entries as Record<string, string>)
+        .map((v) => JSON.stringify(v))
+        .join(', ')}`;
     case 'literal':
       return (def.values as unknown[]).map((v) => JSON.stringify(v)).join(' or ');
     case 'array':
-      return depth > 1 ? 'a list' : `a list of ${describeSchema(def.element as Node, depth + 1).replace(/^an? /, '')}s`;
+      return depth > 1
+        ? 'a list'
+        : `a list of ${describeSchema(def.element as Node, depth + 1).replace(/^an? /, '')}s`;
     case 'tuple': {
       // The only tuples in the schema are ranges; name their ends.
       const items = def.items as Node[];
-      return items.length === 2 ? '[min, max]' : `[${items.map((item) => defOf(unwrap(item)).type).join(', ')}]`;
+      return items.length === 2
+        ? '[min, max]'
+        : `[${items.map((item) => defOf(unwrap(item)).type).join(', ')}]`;
     }
     case 'record':
       return 'a mapping';
     case 'object': {
       const keys = Object.keys(def.shape as Record<string, Node>);
-      if (depth > 0 && keys.length === 1) return `{${keys[0]}: ${describeSchema((def.shape as Record<string, Node>)[keys[0]], depth + 1)}}`;
+      if (depth > 0 && keys.length === 1)
+        return `{${keys[0]}: ${describeSchema((def.shape as Record<string, Node>)[keys[0]], depth + 1)}}`;
       return `a mapping with keys ${keys.join(', ')}`;
     }
     case 'union': {
@@ -87,7 +103,9 @@ export function describeSchema(node: Node, depth = 0): string {
         return `a mapping whose ${def.discriminator} is one of ${kinds.join(', ')}`;
       }
       const parts = (def.options as Node[]).map((o) => describeSchema(o, depth + 1));
-      return parts.length > 1 ? `${parts.slice(0, -1).join(', ')} or ${parts[parts.length - 1]}` : parts[0];
+      return parts.length > 1
+        ? `${parts.slice(0, -1).join(', ')} or ${parts[parts.length - 1]}`
+        : parts[0];
     }
     default:
       return def.type;
@@ -123,7 +141,10 @@ export function schemaAt(root: Node, path: readonly PropertyKey[], input: unknow
     } else {
       return null;
     }
-    value = value !== null && typeof value === 'object' ? (value as Record<string, unknown>)[String(key)] : undefined;
+    value =
+      value !== null && typeof value === 'object'
+        ? (value as Record<string, unknown>)[String(key)]
+        : undefined;
   }
   return node;
 }

@@ -4,7 +4,11 @@ import { z } from 'zod';
 import { scenarioSchema } from './schema.js';
 
 export function scenarioJsonSchema(): Record<string, unknown> {
-  const schema = z.toJSONSchema(scenarioSchema, { io: 'input', target: 'draft-2020-12', unrepresentable: 'any' }) as Record<string, unknown>;
+  const schema = z.toJSONSchema(scenarioSchema, {
+    io: 'input',
+    target: 'draft-2020-12',
+    unrepresentable: 'any',
+  }) as Record<string, unknown>;
   return {
     ...schema,
     title: 'roundwire scenario',

@@ -13,7 +13,11 @@ export function readScenarioDocument(file: string): unknown {
 }
 
 function isUnder(fieldPath: string, ancestor: string): boolean {
-  return fieldPath === ancestor || fieldPath.startsWith(`${ancestor}.`) || fieldPath.startsWith(`${ancestor}[`);
+  return (
+    fieldPath === ancestor ||
+    fieldPath.startsWith(`${ancestor}.`) ||
+    fieldPath.startsWith(`${ancestor}[`)
+  );
 }
 
 /**
@@ -28,14 +32,27 @@ export function scenarioFromDocument(document: unknown, tweaks: readonly Tweak[]
     return validateScenario(tweaked);
   } catch (error) {
     if (!(error instanceof ScenarioError)) throw error;
-    const culprit = tweaks.filter((t) => isUnder(error.fieldPath, t.path.join('.')) || isUnder(t.path.join('.'), error.fieldPath)).at(-1);
+    const culprit = tweaks
+      .filter(
+        (t) =>
+          isUnder(error.fieldPath, t.path.join('.')) || isUnder(t.path.join('.'), error.fieldPath),
+      )
+      .at(-1);
     if (culprit?.text === undefined) throw error;
-    throw new ScenarioError(error.code, error.fieldPath, `${error.detail} (from --tweak ${JSON.stringify(culprit.text)})`);
+    throw new ScenarioError(
+      error.code,
+      error.fieldPath,
+      `${error.detail} (from --tweak ${JSON.stringify(culprit.text)})`,
+    );
   }
 }
 
 /** `tweaks` are command-line texts (`field:value`), applied in order. */
-export function scenarioFromText(text: string, sourceName: string, tweaks: readonly string[] = []): Scenario {
+export function scenarioFromText(
+  text: string,
+  sourceName: string,
+  tweaks: readonly string[] = [],
+): Scenario {
   return scenarioFromDocument(parseScenarioText(text, sourceName), tweaks.map(parseTweak));
 }
 

@@ -1,6 +1,7 @@
 // A scenario problem, named by the field's dotted path. The CLI maps it to exit code 2.
 
-export type ScenarioErrorCode = 'E_SCENARIO_SYNTAX' | 'E_SCENARIO_FIELD' | 'E_SCENARIO_TWEAK' | 'E_SCENARIO_FILE';
+export type ScenarioErrorCode =
+  'E_SCENARIO_SYNTAX' | 'E_SCENARIO_FIELD' | 'E_SCENARIO_TWEAK' | 'E_SCENARIO_FILE';
 
 export class ScenarioError extends Error {
   readonly code: ScenarioErrorCode;

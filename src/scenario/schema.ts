@@ -128,7 +128,12 @@ export type CompressorSpec = z.infer<typeof compressorSchema>;
 export const channelSchema = z
   .object({
     /** the compressor for every field of this direction */
-    default: compressorSchema.default({ kind: 'none', errorFeedback: true, unbiased: false, values: 'f64' }),
+    default: compressorSchema.default({
+      kind: 'none',
+      errorFeedback: true,
+      unbiased: false,
+      values: 'f64',
+    }),
     /** per-field overrides, by field name (e.g. "gradient", "delta") */
     fields: z.record(z.string(), compressorSchema).default({}),
   })
@@ -136,8 +141,14 @@ export const channelSchema = z
 
 export const compressionSchema = z
   .object({
-    uplink: channelSchema.default({ default: { kind: 'none', errorFeedback: true, unbiased: false, values: 'f64' }, fields: {} }),
-    downlink: channelSchema.default({ default: { kind: 'none', errorFeedback: true, unbiased: false, values: 'f64' }, fields: {} }),
+    uplink: channelSchema.default({
+      default: { kind: 'none', errorFeedback: true, unbiased: false, values: 'f64' },
+      fields: {},
+    }),
+    downlink: channelSchema.default({
+      default: { kind: 'none', errorFeedback: true, unbiased: false, values: 'f64' },
+      fields: {},
+    }),
   })
   .strict();
 
@@ -149,12 +160,20 @@ export const slowdownSchema = z.discriminatedUnion('kind', [
     .refine((u) => u.min <= u.max, { message: 'min must not exceed max' }),
   z.object({ kind: z.literal('lognormal'), sigma: nonNegative }).strict(),
   z.object({ kind: z.literal('pareto'), shape: positive }).strict(),
-  z.object({ kind: z.literal('two-class'), fraction: probability, factor: z.number().min(1) }).strict(),
+  z
+    .object({ kind: z.literal('two-class'), fraction: probability, factor: z.number().min(1) })
+    .strict(),
 ]);
 
 export const roundPolicySchema = z.discriminatedUnion('kind', [
   z.object({ kind: z.literal('all') }).strict(),
-  z.object({ kind: z.literal('deadline'), budgetSeconds: positive, stepsMax: positiveInt.max(100_000).default(1000) }).strict(),
+  z
+    .object({
+      kind: z.literal('deadline'),
+      budgetSeconds: positive,
+      stepsMax: positiveInt.max(100_000).default(1000),
+    })
+    .strict(),
   z.object({ kind: z.literal('fastest-k'), k: positiveInt }).strict(),
 ]);
 
@@ -175,9 +194,16 @@ export const timingSchema = z
     /** relative per-round jitter of a client's step time (lognormal sigma) */
     jitter: nonNegative.default(0),
     /** transient straggler events: per client and round, with this probability, factor times slower */
-    transient: z.object({ probability: probability.default(0), factor: z.number().min(1).default(1) }).strict().default({ probability: 0, factor: 1 }),
+    transient: z
+      .object({ probability: probability.default(0), factor: z.number().min(1).default(1) })
+      .strict()
+      .default({ probability: 0, factor: 1 }),
     policy: roundPolicySchema.default({ kind: 'all' }),
-    links: linkSchema.default({ uplinkBytesPerSecond: 1e9, downlinkBytesPerSecond: 1e9, latencySeconds: 0 }),
+    links: linkSchema.default({
+      uplinkBytesPerSecond: 1e9,
+      downlinkBytesPerSecond: 1e9,
+      latencySeconds: 0,
+    }),
   })
   .strict();
 
@@ -203,8 +229,13 @@ export const ladderLimits = {
 const fieldPathPattern = /^[A-Za-z_][A-Za-z0-9_-]*(\.[A-Za-z_][A-Za-z0-9_-]*)*$/;
 const fieldPath = z
   .string()
-  .refine((text) => fieldPathPattern.test(text), { message: 'expected a dotted field path such as method.name' })
-  .meta({ description: 'a dotted field path, e.g. method.localSteps', pattern: fieldPathPattern.source });
+  .refine((text) => fieldPathPattern.test(text), {
+    message: 'expected a dotted field path such as method.name',
+  })
+  .meta({
+    description: 'a dotted field path, e.g. method.localSteps',
+    pattern: fieldPathPattern.source,
+  });
 
 /**
  * A ladder moves one field (`field`) through its rungs, or several fields together (`fields`),
@@ -220,17 +251,27 @@ export const ladderSchema = z
   .strict()
   .superRefine((ladder, ctx) => {
     if ((ladder.field === undefined) === (ladder.fields === undefined)) {
-      ctx.addIssue({ code: 'custom', path: [], message: 'expected either field (one field) or fields (several fields moved together), not both or neither' });
+      ctx.addIssue({
+        code: 'custom',
+        path: [],
+        message:
+          'expected either field (one field) or fields (several fields moved together), not both or neither',
+      });
       return;
     }
     const fields = ladder.fields;
     if (fields === undefined) return;
     const twice = fields.find((f, i) => fields.indexOf(f) !== i);
-    if (twice !== undefined) ctx.addIssue({ code: 'custom', path: ['fields'], message: `${twice} is listed twice` });
+    if (twice !== undefined)
+      ctx.addIssue({ code: 'custom', path: ['fields'], message: `${twice} is listed twice` });
     ladder.rungs.forEach((rung, i) => {
       if (!Array.isArray(rung) || rung.length !== fields.length) {
         const given = Array.isArray(rung) ? `a list of ${rung.length}` : 'a single value';
-        ctx.addIssue({ code: 'custom', path: ['rungs', i], message: `expected a list of ${fields.length} values, one for each of ${fields.join(', ')}; got ${given}` });
+        ctx.addIssue({
+          code: 'custom',
+          path: ['rungs', i],
+          message: `expected a list of ${fields.length} values, one for each of ${fields.join(', ')}; got ${given}`,
+        });
       }
     });
   });
@@ -241,14 +282,24 @@ export const scenarioSchema = z
     name: z.string().min(1).max(200),
     description: z.string().max(10_000).optional(),
     /** every random choice of a run derives from this seed */
-    seed: z.number().int().min(0).max(2 ** 53 - 1),
+    seed: z
+      .number()
+      .int()
+      .min(0)
+      .max(2 ** 53 - 1),
     problem: problemSchema,
     data: dataSchema,
     clients: clientsSchema,
     method: methodSchema,
     compression: compressionSchema.default({
-      uplink: { default: { kind: 'none', errorFeedback: true, unbiased: false, values: 'f64' }, fields: {} },
-      downlink: { default: { kind: 'none', errorFeedback: true, unbiased: false, values: 'f64' }, fields: {} },
+      uplink: {
+        default: { kind: 'none', errorFeedback: true, unbiased: false, values: 'f64' },
+        fields: {},
+      },
+      downlink: {
+        default: { kind: 'none', errorFeedback: true, unbiased: false, values: 'f64' },
+        fields: {},
+      },
     }),
     timing: timingSchema.default({
       clock: 'virtual',

@@ -20,7 +20,9 @@ export function fieldPathKeys(text: string): string[] | string {
   if (text === '') return 'no field before the colon';
   const keys = text.split('.');
   const bad = keys.find((key) => !keyPattern.test(key));
-  return bad === undefined ? keys : `${JSON.stringify(bad)} is not a valid key (letters, digits, _ and -, not starting with a digit)`;
+  return bad === undefined
+    ? keys
+    : `${JSON.stringify(bad)} is not a valid key (letters, digits, _ and -, not starting with a digit)`;
 }
 
 /** Reads a value written on the command line as YAML; returns the value or the parser's reason. */
@@ -35,14 +37,34 @@ export function readYamlValue(text: string): { value: unknown } | { reason: stri
 /** Reads `--tweak field:value`. */
 export function parseTweak(text: string): Tweak {
   const colon = text.indexOf(':');
-  if (colon < 0) throw new ScenarioError('E_SCENARIO_TWEAK', '', `--tweak ${JSON.stringify(text)}: no colon; expected field:value, e.g. method.localSteps:10`);
+  if (colon < 0)
+    throw new ScenarioError(
+      'E_SCENARIO_TWEAK',
+      '',
+      `--tweak ${JSON.stringify(text)}: no colon; expected field:value, e.g. method.localSteps:10`,
+    );
   const pathText = text.slice(0, colon).trim();
   const keys = fieldPathKeys(pathText);
-  if (typeof keys === 'string') throw new ScenarioError('E_SCENARIO_TWEAK', pathText, `--tweak ${JSON.stringify(text)}: ${keys}`);
+  if (typeof keys === 'string')
+    throw new ScenarioError(
+      'E_SCENARIO_TWEAK',
+      pathText,
+      `--tweak ${JSON.stringify(text)}: ${keys}`,
+    );
   const valueText = text.slice(colon + 1);
-  if (valueText.trim() === '') throw new ScenarioError('E_SCENARIO_TWEAK', pathText, `--tweak ${JSON.stringify(text)}: no value after the colon`);
+  if (valueText.trim() === '')
+    throw new ScenarioError(
+      'E_SCENARIO_TWEAK',
+      pathText,
+      `--tweak ${JSON.stringify(text)}: no value after the colon`,
+    );
   const read = readYamlValue(valueText);
-  if ('reason' in read) throw new ScenarioError('E_SCENARIO_TWEAK', pathText, `--tweak ${JSON.stringify(text)}: cannot read the value: ${read.reason}`);
+  if ('reason' in read)
+    throw new ScenarioError(
+      'E_SCENARIO_TWEAK',
+      pathText,
+      `--tweak ${JSON.stringify(text)}: cannot read the value: ${read.reason}`,
+    );
   return { path: keys, value: read.value, text };
 }
 
@@ -54,7 +76,11 @@ export function applyTweak(document: unknown, tweak: Tweak): Record<string, unkn
     const next = node[key];
     if (next === undefined) node[key] = {};
     else if (next === null || typeof next !== 'object' || Array.isArray(next)) {
-      throw new ScenarioError('E_SCENARIO_TWEAK', tweak.path.slice(0, i + 1).join('.'), `not a mapping, so it has no field ${JSON.stringify(tweak.path[i + 1])} to tweak`);
+      throw new ScenarioError(
+        'E_SCENARIO_TWEAK',
+        tweak.path.slice(0, i + 1).join('.'),
+        `not a mapping, so it has no field ${JSON.stringify(tweak.path[i + 1])} to tweak`,
+      );
     }
     node = node[key] as Record<string, unknown>;
   });

@@ -18,19 +18,28 @@ function valueAt(input: unknown, path: readonly PropertyKey[]): unknown {
 /** How a given value is shown in a message: short, and unambiguous about its type. */
 export function showValue(value: unknown): string {
   if (value === undefined) return 'nothing';
-  if (typeof value === 'string') return JSON.stringify(value.length > 40 ? `${value.slice(0, 40)}...` : value);
-  if (Array.isArray(value)) return value.length > 6 ? `a list of ${value.length} items` : JSON.stringify(value);
+  if (typeof value === 'string')
+    return JSON.stringify(value.length > 40 ? `${value.slice(0, 40)}...` : value);
+  if (Array.isArray(value))
+    return value.length > 6 ? `a list of ${value.length} items` : JSON.stringify(value);
   if (value !== null && typeof value === 'object') return 'a mapping';
   return String(value);
 }
 
 function closestKey(unknownKey: string, known: string[]): string | null {
   const distance = (a: string, b: string): number => {
-    const dp = Array.from({ length: a.length + 1 }, (_, i) => [i, ...Array<number>(b.length).fill(0)]);
+    const dp = Array.from({ length: a.length + 1 }, (_, i) => [
+      i,
+      ...Array<number>(b.length).fill(0),
+    ]);
     for (let j = 1; j <= b.length; j++) dp[0][j] = j;
     for (let i = 1; i <= a.length; i++)
       for (let j = 1; j <= b.length; j++)
-        dp[i][j] = Math.min(dp[i - 1][j] + 1, dp[i][j - 1] + 1, dp[i - 1][j - 1] + (a[i - 1].toLowerCase() === b[j - 1].toLowerCase() ? 0 : 1));
+        dp[i][j] = Math.min(
+          dp[i - 1][j] + 1,
+          dp[i][j - 1] + 1,
+          dp[i - 1][j - 1] + (a[i - 1].toLowerCase() === b[j - 1].toLowerCase() ? 0 : 1),
+        );
     return dp[a.length][b.length];
   };
   let best: string | null = null;
@@ -46,15 +55,27 @@ function closestKey(unknownKey: string, known: string[]): string | null {
 }
 
 function dotted(path: readonly PropertyKey[]): string {
-  return path.map((p) => (typeof p === 'number' ? `[${p}]` : String(p))).join('.').replace(/\.\[/g, '[');
+  return path
+    .map((p) => (typeof p === 'number' ? `[${p}]` : String(p)))
+    .join('.')
+    .replace(/\.\[/g, '[');
 }
 
 /** One readable line for one zod issue. */
-export function formatIssue(issue: z.core.$ZodIssue, input: unknown): { fieldPath: string; message: string } {
+export function formatIssue(
+  issue: z.core.$ZodIssue,
+  input: unknown,
+): { fieldPath: string; message: string } {
   const given = valueAt(input, issue.path);
   if (issue.code === 'unrecognized_keys') {
     const node = schemaAt(scenarioSchema, issue.path, input);
-    const def = node ? (unwrap(node) as unknown as { _zod: { def: { type: string; shape?: Record<string, unknown> } } })._zod.def : null;
+    const def = node
+      ? (
+          unwrap(node) as unknown as {
+            _zod: { def: { type: string; shape?: Record<string, unknown> } };
+          }
+        )._zod.def
+      : null;
     const known = def?.type === 'object' && def.shape ? Object.keys(def.shape) : [];
     const key = issue.keys[0];
     const hint = closestKey(key, known);
@@ -76,6 +97,12 @@ export function validateScenario(input: unknown): Scenario {
   if (result.success) return result.data;
   const lines = result.error.issues.map((issue) => formatIssue(issue, input));
   const first = lines[0];
-  const more = lines.length > 1 ? ` (and ${lines.length - 1} more problem${lines.length > 2 ? 's' : ''}: ${lines.slice(1, 4).map((l) => l.fieldPath || '(top level)').join(', ')})` : '';
+  const more =
+    lines.length > 1
+      ? ` (and ${lines.length - 1} more problem${lines.length > 2 ? 's' : ''}: ${lines
+          .slice(1, 4)
+          .map((l) => l.fieldPath || '(top level)')
+          .join(', ')})`
+      : '';
   throw new ScenarioError('E_SCENARIO_FIELD', first.fieldPath, `${first.message}${more}`);
 }

@@ -12,7 +12,6 @@ import { TheoryError, assertTheoryLength } from './theory-error.js';
 /** One round: the state after it, as a new array. Must not modify or keep its argument. */
 export type RoundMap = (state: Float64Array) => Float64Array;
 
-
 export interface LinearPartOptions {
   /**
    * The norm a direction is scaled to before it is added to the base (default
@@ -28,7 +27,10 @@ export function applyRoundMap(map: RoundMap, state: Float64Array): Float64Array 
   const image = map(state);
   assertTheoryLength('round map output', image, state.length);
   if (!allFinite(image)) {
-    throw new TheoryError('E_THEORY_NOT_FINITE', 'the round map returned a non-finite entry (did the method diverge?)');
+    throw new TheoryError(
+      'E_THEORY_NOT_FINITE',
+      'the round map returned a non-finite entry (did the method diverge?)',
+    );
   }
   return image;
 }
@@ -40,14 +42,23 @@ export function applyRoundMap(map: RoundMap, state: Float64Array): Float64Array 
  * eps * (||T(base)|| / probeNorm + ||M||), so the default probe norm, which is at least
  * ||T(base)||, keeps the error at a few ulps of ||M|| whatever the scale of the state.
  */
-export function linearPart(map: RoundMap, base: Float64Array, options: LinearPartOptions = {}): LinearOperator {
-  if (base.length < 1) throw new TheoryError('E_THEORY_DIMENSION', 'a round map needs a state of length >= 1');
-  if (!allFinite(base)) throw new TheoryError('E_THEORY_NOT_FINITE', 'the base state has a non-finite entry');
+export function linearPart(
+  map: RoundMap,
+  base: Float64Array,
+  options: LinearPartOptions = {},
+): LinearOperator {
+  if (base.length < 1)
+    throw new TheoryError('E_THEORY_DIMENSION', 'a round map needs a state of length >= 1');
+  if (!allFinite(base))
+    throw new TheoryError('E_THEORY_NOT_FINITE', 'the base state has a non-finite entry');
   const fixedBase = Float64Array.from(base);
   const baseImage = applyRoundMap(map, Float64Array.from(fixedBase));
   const probeNorm = options.probeNorm ?? 1 + norm2(fixedBase) + norm2(baseImage);
   if (!(probeNorm > 0) || !Number.isFinite(probeNorm)) {
-    throw new TheoryError('E_THEORY_ARGUMENT', `the probe norm must be positive and finite, got ${probeNorm}`);
+    throw new TheoryError(
+      'E_THEORY_ARGUMENT',
+      `the probe norm must be positive and finite, got ${probeNorm}`,
+    );
   }
   const dim = fixedBase.length;
   return (v: Float64Array): Float64Array => {
@@ -70,8 +81,13 @@ export function linearPart(map: RoundMap, base: Float64Array, options: LinearPar
  * rounding (about 1e-15) for an affine map and of order one for a map that is not (logistic
  * losses, compression, minibatches), so a caller can check that predictions apply at all.
  */
-export function affineDefect(map: RoundMap, base: Float64Array, seed: number = DEFAULT_DEFECT_SEED): number {
-  if (!allFinite(base)) throw new TheoryError('E_THEORY_NOT_FINITE', 'the base state has a non-finite entry');
+export function affineDefect(
+  map: RoundMap,
+  base: Float64Array,
+  seed: number = DEFAULT_DEFECT_SEED,
+): number {
+  if (!allFinite(base))
+    throw new TheoryError('E_THEORY_NOT_FINITE', 'the base state has a non-finite entry');
   const dim = base.length;
   const rng = Rng.fromSeed(seed);
   const direction = new Float64Array(dim);

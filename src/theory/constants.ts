@@ -46,8 +46,10 @@ function ownMinimizer(client: Objective, options: OracleOptions): Float64Array |
     return solveOptimum(client, options).x;
   } catch (error) {
     // Cholesky refuses the Hessian itself (least squares) or Newton's shifts give up (smooth losses).
-    if (error instanceof LinalgError && error.code === 'E_LINALG_NOT_POSITIVE_DEFINITE') return null;
-    if (error instanceof ProblemError && error.code === 'E_PROBLEM_NOT_POSITIVE_DEFINITE') return null;
+    if (error instanceof LinalgError && error.code === 'E_LINALG_NOT_POSITIVE_DEFINITE')
+      return null;
+    if (error instanceof ProblemError && error.code === 'E_PROBLEM_NOT_POSITIVE_DEFINITE')
+      return null;
     throw error;
   }
 }
@@ -78,7 +80,8 @@ export function computeConstants(
     heterogeneity += global.weights[i] * gradientNormAtOptimum * gradientNormAtOptimum;
     const clientStrongConvexity = client.strongConvexityBound();
     const minimizer = clientStrongConvexity > 0 ? ownMinimizer(client, options) : null;
-    const minimizerDistance = minimizer === null ? null : Math.sqrt(distanceSquared(minimizer, optimum));
+    const minimizerDistance =
+      minimizer === null ? null : Math.sqrt(distanceSquared(minimizer, optimum));
     perClient.push({
       smoothness: client.smoothnessBound(),
       strongConvexity: clientStrongConvexity,

@@ -38,9 +38,15 @@ export interface QuadraticClient {
 }
 
 /** The quadratic form (H, h) of a least-squares objective, from Hessian-vector products at 0. */
-export function leastSquaresQuadratic(objective: Objective): { hessian: Float64Array; linear: Float64Array } {
+export function leastSquaresQuadratic(objective: Objective): {
+  hessian: Float64Array;
+  linear: Float64Array;
+} {
   if (objective.kind !== 'least-squares') {
-    throw new TheoryError('E_THEORY_ARGUMENT', `the FedAvg closed form holds for quadratics only, not for ${objective.kind}`);
+    throw new TheoryError(
+      'E_THEORY_ARGUMENT',
+      `the FedAvg closed form holds for quadratics only, not for ${objective.kind}`,
+    );
   }
   const origin = new Float64Array(objective.dim);
   const hessian = assembleHessian(objective, origin);
@@ -85,7 +91,10 @@ interface AffineStep {
 
 /** `outer` after `inner`: y -> A_o (A_i y + c_i) + c_o. */
 function compose(outer: AffineStep, inner: AffineStep, n: number): AffineStep {
-  return { matrix: multiply(outer.matrix, inner.matrix, n), offset: multiplyAdd(outer.matrix, inner.offset, outer.offset, n) };
+  return {
+    matrix: multiply(outer.matrix, inner.matrix, n),
+    offset: multiplyAdd(outer.matrix, inner.offset, outer.offset, n),
+  };
 }
 
 /** (A^tau, eta S h): tau local gradient steps as one affine map, by repeated squaring. */
@@ -93,7 +102,8 @@ function localSteps(client: QuadraticClient, n: number): AffineStep {
   const matrix = new Float64Array(n * n);
   const offset = new Float64Array(n);
   for (let i = 0; i < n; i++) {
-    for (let j = 0; j < n; j++) matrix[i * n + j] = (i === j ? 1 : 0) - client.stepSize * client.hessian[i * n + j];
+    for (let j = 0; j < n; j++)
+      matrix[i * n + j] = (i === j ? 1 : 0) - client.stepSize * client.hessian[i * n + j];
     offset[i] = client.stepSize * client.linear[i];
   }
   let power: AffineStep = { matrix, offset };
@@ -110,16 +120,28 @@ function checkClient(client: QuadraticClient, index: number, n: number): void {
   assertTheoryLength(`H of client ${index}`, client.hessian, n * n);
   assertTheoryLength(`h of client ${index}`, client.linear, n);
   if (!allFinite(client.hessian) || !allFinite(client.linear)) {
-    throw new TheoryError('E_THEORY_NOT_FINITE', `client ${index} has a non-finite entry in H or h`);
+    throw new TheoryError(
+      'E_THEORY_NOT_FINITE',
+      `client ${index} has a non-finite entry in H or h`,
+    );
   }
   if (!(client.weight >= 0) || !Number.isFinite(client.weight)) {
-    throw new TheoryError('E_THEORY_ARGUMENT', `client ${index} has weight ${client.weight}; weights must be finite and >= 0`);
+    throw new TheoryError(
+      'E_THEORY_ARGUMENT',
+      `client ${index} has weight ${client.weight}; weights must be finite and >= 0`,
+    );
   }
   if (!(client.stepSize > 0) || !Number.isFinite(client.stepSize)) {
-    throw new TheoryError('E_THEORY_ARGUMENT', `client ${index} has step size ${client.stepSize}; it must be positive and finite`);
+    throw new TheoryError(
+      'E_THEORY_ARGUMENT',
+      `client ${index} has step size ${client.stepSize}; it must be positive and finite`,
+    );
   }
   if (!Number.isInteger(client.localSteps) || client.localSteps < 1) {
-    throw new TheoryError('E_THEORY_ARGUMENT', `client ${index} has ${client.localSteps} local steps; it needs an integer >= 1`);
+    throw new TheoryError(
+      'E_THEORY_ARGUMENT',
+      `client ${index} has ${client.localSteps} local steps; it needs an integer >= 1`,
+    );
   }
 }
 
@@ -128,8 +150,10 @@ function checkClient(client: QuadraticClient, index: number, n: number): void {
  * E_SINGULAR when sum_i p_i M_i is singular (no unique limit), E_ARGUMENT when every weight is 0.
  */
 export function fedavgFixedPoint(clients: readonly QuadraticClient[], dim: number): Float64Array {
-  if (!Number.isInteger(dim) || dim < 1) throw new TheoryError('E_THEORY_DIMENSION', `dimension must be a positive integer, got ${dim}`);
-  if (clients.length === 0) throw new TheoryError('E_THEORY_ARGUMENT', 'the FedAvg fixed point needs at least one client');
+  if (!Number.isInteger(dim) || dim < 1)
+    throw new TheoryError('E_THEORY_DIMENSION', `dimension must be a positive integer, got ${dim}`);
+  if (clients.length === 0)
+    throw new TheoryError('E_THEORY_ARGUMENT', 'the FedAvg fixed point needs at least one client');
   clients.forEach((client, i) => checkClient(client, i, dim));
   const weightTotal = clients.reduce((sum, client) => sum + client.weight, 0);
   if (!(weightTotal > 0)) throw new TheoryError('E_THEORY_ARGUMENT', 'the client weights sum to 0');
@@ -142,7 +166,8 @@ export function fedavgFixedPoint(clients: readonly QuadraticClient[], dim: numbe
     const p = client.weight / weightTotal;
     const steps = localSteps(client, dim);
     for (let i = 0; i < dim; i++) {
-      for (let j = 0; j < dim; j++) lhs[i * dim + j] += p * ((i === j ? 1 : 0) - steps.matrix[i * dim + j]);
+      for (let j = 0; j < dim; j++)
+        lhs[i * dim + j] += p * ((i === j ? 1 : 0) - steps.matrix[i * dim + j]);
       rhs[i] += p * steps.offset[i];
     }
   }

@@ -66,14 +66,25 @@ function fixedPointResidual(map: RoundMap, s: Float64Array, out: Float64Array): 
  * E_SINGULAR when there is none in reach (the state drifts along a conserved direction),
  * E_NOT_CONVERGED when GMRES ran out of steps first, E_SIZE_LIMIT beyond FIXED_POINT_DIMENSION_MAX.
  */
-export function affineFixedPoint(map: RoundMap, dim: number, options: FixedPointOptions = {}): AffineFixedPoint {
-  if (!Number.isInteger(dim) || dim < 1) throw new TheoryError('E_THEORY_DIMENSION', `dimension must be a positive integer, got ${dim}`);
+export function affineFixedPoint(
+  map: RoundMap,
+  dim: number,
+  options: FixedPointOptions = {},
+): AffineFixedPoint {
+  if (!Number.isInteger(dim) || dim < 1)
+    throw new TheoryError('E_THEORY_DIMENSION', `dimension must be a positive integer, got ${dim}`);
   if (dim > FIXED_POINT_DIMENSION_MAX) {
-    throw new TheoryError('E_THEORY_SIZE_LIMIT', `fixed points are solved up to dimension ${FIXED_POINT_DIMENSION_MAX}, got ${dim}`);
+    throw new TheoryError(
+      'E_THEORY_SIZE_LIMIT',
+      `fixed points are solved up to dimension ${FIXED_POINT_DIMENSION_MAX}, got ${dim}`,
+    );
   }
   const refinementsMax = options.refinementsMax ?? DEFAULT_REFINEMENTS_MAX;
   if (!Number.isInteger(refinementsMax) || refinementsMax < 0) {
-    throw new TheoryError('E_THEORY_ARGUMENT', `refinementsMax must be an integer >= 0, got ${refinementsMax}`);
+    throw new TheoryError(
+      'E_THEORY_ARGUMENT',
+      `refinementsMax must be an integer >= 0, got ${refinementsMax}`,
+    );
   }
   const iterationsMax = options.iterationsMax ?? Math.min(dim, FIXED_POINT_KRYLOV_MAX);
   const base = options.base ?? new Float64Array(dim);
@@ -102,10 +113,17 @@ export function affineFixedPoint(map: RoundMap, dim: number, options: FixedPoint
     // Below the rounding of T at this state the residual is noise, partly along the conserved
     // directions, where a solve would only pick up what the iteration never does.
     const roundingLevel = RESIDUAL_ROUNDING * (norm2(state) + imageNorm);
-    const solve = gmres(identityMinusM, residual, { iterationsMax, absoluteTolerance: roundingLevel });
+    const solve = gmres(identityMinusM, residual, {
+      iterationsMax,
+      absoluteTolerance: roundingLevel,
+    });
     exhausted = solve.exhausted;
     for (let j = 0; j < dim; j++) candidate[j] = state[j] + solve.solution[j];
-    const [candidateNorm, candidateImageNorm] = fixedPointResidual(counted, candidate, candidateResidual);
+    const [candidateNorm, candidateImageNorm] = fixedPointResidual(
+      counted,
+      candidate,
+      candidateResidual,
+    );
     if (!(candidateNorm < residualNorm)) break;
     const previousNorm = residualNorm;
     state.set(candidate);
@@ -130,5 +148,10 @@ export function affineFixedPoint(map: RoundMap, dim: number, options: FixedPoint
       `GMRES left ||T(s) - s|| at ${residualNorm.toExponential(3)} after ${iterationsMax} steps per solve`,
     );
   }
-  return { state, residualNorm, refinements: Math.max(refinements, 0), mapApplications: applications };
+  return {
+    state,
+    residualNorm,
+    refinements: Math.max(refinements, 0),
+    mapApplications: applications,
+  };
 }

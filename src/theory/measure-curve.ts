@@ -93,12 +93,19 @@ const SEARCH_POINTS_MAX = 2048;
 function checkPoints(points: readonly CurvePoint[]): void {
   for (let j = 0; j < points.length; j++) {
     const { round, suboptimality } = points[j];
-    if (!Number.isFinite(round)) throw new TheoryError('E_THEORY_POINTS', `point ${j} has round ${round}`);
+    if (!Number.isFinite(round))
+      throw new TheoryError('E_THEORY_POINTS', `point ${j} has round ${round}`);
     if (j > 0 && !(round > points[j - 1].round)) {
-      throw new TheoryError('E_THEORY_POINTS', `rounds must increase: point ${j} has round ${round} after ${points[j - 1].round}`);
+      throw new TheoryError(
+        'E_THEORY_POINTS',
+        `rounds must increase: point ${j} has round ${round} after ${points[j - 1].round}`,
+      );
     }
     if (!Number.isFinite(suboptimality)) {
-      throw new TheoryError('E_THEORY_NOT_FINITE', `point ${j} (round ${round}) has suboptimality ${suboptimality}`);
+      throw new TheoryError(
+        'E_THEORY_NOT_FINITE',
+        `point ${j} (round ${round}) has suboptimality ${suboptimality}`,
+      );
     }
   }
 }
@@ -106,7 +113,10 @@ function checkPoints(points: readonly CurvePoint[]): void {
 function noiseLevelOf(points: readonly CurvePoint[], options: CurveOptions): number {
   if (options.noiseLevel !== undefined) {
     if (!(options.noiseLevel >= 0) || !Number.isFinite(options.noiseLevel)) {
-      throw new TheoryError('E_THEORY_ARGUMENT', `noiseLevel must be finite and >= 0, got ${options.noiseLevel}`);
+      throw new TheoryError(
+        'E_THEORY_ARGUMENT',
+        `noiseLevel must be finite and >= 0, got ${options.noiseLevel}`,
+      );
     }
     return options.noiseLevel;
   }
@@ -150,7 +160,8 @@ function fitLine(x: ArrayLike<number>, y: ArrayLike<number>, from: number, to: n
     const r = y[j] - meanY - slope * (x[j] - meanX);
     residualSquares += r * r;
   }
-  const slopeStandardError = count > 2 && sxx > 0 ? Math.sqrt(residualSquares / (count - 2) / sxx) : 0;
+  const slopeStandardError =
+    count > 2 && sxx > 0 ? Math.sqrt(residualSquares / (count - 2) / sxx) : 0;
   return { slope, slopeStandardError, residualSquares, totalSquares: syy };
 }
 
@@ -187,7 +198,8 @@ function floorOf(points: readonly CurvePoint[], noise: number): Floor | null {
   // A noisy plateau (compression error, minibatch noise) has a fitted trend that is noise too:
   // a change within TREND_SIGNIFICANCE standard errors is not evidence of descent.
   const trendNoise = TREND_SIGNIFICANCE * tail.slopeStandardError * span;
-  if (tailChange > Math.max(FLAT_SHARE * (highest - lowest), FLAT_CHANGE_MIN, trendNoise)) return null;
+  if (tailChange > Math.max(FLAT_SHARE * (highest - lowest), FLAT_CHANGE_MIN, trendNoise))
+    return null;
   const values = points.slice(from).map((p) => p.suboptimality);
   const level = Math.max(0, median(values));
   return { level, deviation: median(values.map((v) => Math.abs(v - level))) };
@@ -197,7 +209,10 @@ function floorOf(points: readonly CurvePoint[], noise: number): Floor | null {
  * The level where the curve has flattened, or null while it is still descending (or has fewer
  * than 2 * FLOOR_POINTS_MIN points). See the file comment for the rule.
  */
-export function measureFloor(points: readonly CurvePoint[], options: CurveOptions = {}): number | null {
+export function measureFloor(
+  points: readonly CurvePoint[],
+  options: CurveOptions = {},
+): number | null {
   checkPoints(points);
   return floorOf(points, noiseLevelOf(points, options))?.level ?? null;
 }
@@ -218,7 +233,12 @@ function noiseSigma(x: ArrayLike<number>, y: ArrayLike<number>, count: number): 
  * ending at or after `endFrom`, the latest among equals; null if there is none. Running sums over
  * shifted values make each candidate O(1); the chosen window is refitted with the two-pass formulas.
  */
-function longestStraightWindow(x: number[], y: number[], tolerance: number, endFrom: number): [number, number] | null {
+function longestStraightWindow(
+  x: number[],
+  y: number[],
+  tolerance: number,
+  endFrom: number,
+): [number, number] | null {
   const n = x.length;
   const x0 = x[0];
   const y0 = y[0];
@@ -264,19 +284,27 @@ function longestStraightWindow(x: number[], y: number[], tolerance: number, endF
  * The asymptotic per-round rate over the last straight part of the curve, or null when no
  * FIT_POINTS_MIN consecutive usable points lie on a straight line. See the file comment for the rule.
  */
-export function fitLinearRate(points: readonly CurvePoint[], options: CurveOptions = {}): LinearRateFit | null {
+export function fitLinearRate(
+  points: readonly CurvePoint[],
+  options: CurveOptions = {},
+): LinearRateFit | null {
   checkPoints(points);
   const straightness = options.straightness ?? STRAIGHTNESS_DEFAULT;
   if (!(straightness > 0) || !Number.isFinite(straightness)) {
-    throw new TheoryError('E_THEORY_ARGUMENT', `straightness must be positive and finite, got ${straightness}`);
+    throw new TheoryError(
+      'E_THEORY_ARGUMENT',
+      `straightness must be positive and finite, got ${straightness}`,
+    );
   }
   const noise = noiseLevelOf(points, options);
   const measured = floorOf(points, noise);
   const floor = measured !== null && measured.level > noise ? measured.level : 0;
-  const resolved = measured !== null && floor > 0 ? Math.max(noise, FLOOR_RESOLUTION * measured.deviation) : noise;
+  const resolved =
+    measured !== null && floor > 0 ? Math.max(noise, FLOOR_RESOLUTION * measured.deviation) : noise;
 
   // A curve may cross its floor and approach it from below, so with a floor |f - f* - F| is fitted.
-  const isResolved = (approach: number) => (floor > 0 ? Math.abs(approach) > resolved : approach > resolved);
+  const isResolved = (approach: number) =>
+    floor > 0 ? Math.abs(approach) > resolved : approach > resolved;
   const rounds: number[] = [];
   const logs: number[] = [];
   let unresolvedRun = 0;
@@ -297,7 +325,8 @@ export function fitLinearRate(points: readonly CurvePoint[], options: CurveOptio
   const y = thin(logs, SEARCH_POINTS_MAX);
   const tolerance = Math.max(straightness, NOISE_MULTIPLE * noiseSigma(x, y, x.length));
   const endFrom = x.length - Math.max(FIT_POINTS_MIN, Math.ceil(END_ZONE_SHARE * x.length));
-  const window = longestStraightWindow(x, y, tolerance, endFrom) ?? longestStraightWindow(x, y, tolerance, 0);
+  const window =
+    longestStraightWindow(x, y, tolerance, endFrom) ?? longestStraightWindow(x, y, tolerance, 0);
   if (window === null) return null;
   const [from, to] = window;
   const fit = fitLine(x, y, from, to);

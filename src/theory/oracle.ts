@@ -47,7 +47,10 @@ const SHIFT_ATTEMPTS_MAX = 12;
 export function assembleHessian(objective: Objective, x: Float64Array): Float64Array {
   const n = objective.dim;
   if (n > DENSE_DIMENSION_MAX) {
-    throw new ProblemError('E_PROBLEM_SIZE_LIMIT', `the oracle assembles dense Hessians up to dimension ${DENSE_DIMENSION_MAX}, got ${n}`);
+    throw new ProblemError(
+      'E_PROBLEM_SIZE_LIMIT',
+      `the oracle assembles dense Hessians up to dimension ${DENSE_DIMENSION_MAX}, got ${n}`,
+    );
   }
   const h = new Float64Array(n * n);
   const unit = new Float64Array(n);
@@ -78,7 +81,8 @@ function factorWithShift(h: Float64Array, n: number): Float64Array {
   try {
     return choleskyFactor(h, n);
   } catch (error) {
-    if (!(error instanceof LinalgError) || error.code !== 'E_LINALG_NOT_POSITIVE_DEFINITE') throw error;
+    if (!(error instanceof LinalgError) || error.code !== 'E_LINALG_NOT_POSITIVE_DEFINITE')
+      throw error;
   }
   let diagonalMax = 0;
   for (let j = 0; j < n; j++) diagonalMax = Math.max(diagonalMax, Math.abs(h[j * n + j]));
@@ -89,21 +93,34 @@ function factorWithShift(h: Float64Array, n: number): Float64Array {
     try {
       return choleskyFactor(shifted, n);
     } catch (error) {
-      if (!(error instanceof LinalgError) || error.code !== 'E_LINALG_NOT_POSITIVE_DEFINITE') throw error;
+      if (!(error instanceof LinalgError) || error.code !== 'E_LINALG_NOT_POSITIVE_DEFINITE')
+        throw error;
     }
     shift *= 10;
   }
-  throw new ProblemError('E_PROBLEM_NOT_POSITIVE_DEFINITE', `the Hessian stays indefinite after a diagonal shift of ${shift / 10}`);
+  throw new ProblemError(
+    'E_PROBLEM_NOT_POSITIVE_DEFINITE',
+    `the Hessian stays indefinite after a diagonal shift of ${shift / 10}`,
+  );
 }
 
-function notCertified(reached: number, tolerance: number, iterations: number, why: string): ProblemError {
+function notCertified(
+  reached: number,
+  tolerance: number,
+  iterations: number,
+  why: string,
+): ProblemError {
   return new ProblemError(
     'E_PROBLEM_NOT_CERTIFIED',
     `oracle reached ||grad f|| = ${reached.toExponential(3)} after ${iterations} iterations, above the tolerance ${tolerance} (${why})`,
   );
 }
 
-function solveLeastSquares(objective: Objective, tolerance: number, iterationsMax: number): OptimumCertificate {
+function solveLeastSquares(
+  objective: Objective,
+  tolerance: number,
+  iterationsMax: number,
+): OptimumCertificate {
   const n = objective.dim;
   const x = new Float64Array(n);
   const gradient = new Float64Array(n);
@@ -124,12 +141,21 @@ function solveLeastSquares(objective: Objective, tolerance: number, iterationsMa
     if (gradientNorm <= tolerance || (iterations >= 2 && gradientNorm >= 0.5 * previousNorm)) break;
   }
   if (!(gradientNorm <= tolerance)) {
-    throw notCertified(gradientNorm, tolerance, iterations, 'iterative refinement stalled at rounding level');
+    throw notCertified(
+      gradientNorm,
+      tolerance,
+      iterations,
+      'iterative refinement stalled at rounding level',
+    );
   }
   return { x, loss: objective.loss(x), gradientNorm, iterations };
 }
 
-function solveByNewton(objective: Objective, tolerance: number, iterationsMax: number): OptimumCertificate {
+function solveByNewton(
+  objective: Objective,
+  tolerance: number,
+  iterationsMax: number,
+): OptimumCertificate {
   const n = objective.dim;
   const x = new Float64Array(n);
   const gradient = new Float64Array(n);
@@ -141,7 +167,8 @@ function solveByNewton(objective: Objective, tolerance: number, iterationsMax: n
   let gradientNorm = norm2(gradient);
   let iterations = 0;
   while (gradientNorm > tolerance) {
-    if (iterations >= iterationsMax) throw notCertified(gradientNorm, tolerance, iterations, 'iteration cap');
+    if (iterations >= iterationsMax)
+      throw notCertified(gradientNorm, tolerance, iterations, 'iteration cap');
     const factor = factorWithShift(assembleHessian(objective, x), n);
     choleskySolve(factor, n, gradient, direction);
     scale(-1, direction);
@@ -169,7 +196,8 @@ function solveByNewton(objective: Objective, tolerance: number, iterationsMax: n
       t *= BACKTRACK_FACTOR;
     }
     iterations++;
-    if (!accepted) throw notCertified(gradientNorm, tolerance, iterations, 'line search found no decrease');
+    if (!accepted)
+      throw notCertified(gradientNorm, tolerance, iterations, 'line search found no decrease');
   }
   return { x, loss, gradientNorm, iterations };
 }
@@ -179,11 +207,17 @@ function solveByNewton(objective: Objective, tolerance: number, iterationsMax: n
  * reached) when it cannot, e.g. a logistic problem with lambda = 0 on separable data, which has no
  * minimizer; E_SIZE_LIMIT when the dense Hessian would be too large.
  */
-export function solveOptimum(objective: Objective, options: OracleOptions = {}): OptimumCertificate {
+export function solveOptimum(
+  objective: Objective,
+  options: OracleOptions = {},
+): OptimumCertificate {
   const tolerance = options.gradientTolerance ?? DEFAULT_GRADIENT_TOLERANCE;
   const iterationsMax = options.iterationsMax ?? DEFAULT_ITERATIONS_MAX;
   if (!(tolerance > 0) || !Number.isInteger(iterationsMax) || iterationsMax < 1) {
-    throw new ProblemError('E_PROBLEM_SPEC', `oracle needs a positive tolerance and iteration cap, got ${tolerance} and ${iterationsMax}`);
+    throw new ProblemError(
+      'E_PROBLEM_SPEC',
+      `oracle needs a positive tolerance and iteration cap, got ${tolerance} and ${iterationsMax}`,
+    );
   }
   return objective.kind === 'least-squares'
     ? solveLeastSquares(objective, tolerance, iterationsMax)

@@ -21,7 +21,12 @@ export const theoryCacheEntriesMax = 8;
 const cache = new Map<string, PlanTheory>();
 
 export function problemHashOf(scenario: Scenario): string {
-  return hashOf({ seed: scenario.seed, problem: scenario.problem, data: scenario.data, clients: scenario.clients });
+  return hashOf({
+    seed: scenario.seed,
+    problem: scenario.problem,
+    data: scenario.data,
+    clients: scenario.clients,
+  });
 }
 
 export function theoryOf(scenario: Scenario): PlanTheory {

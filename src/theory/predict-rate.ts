@@ -68,16 +68,28 @@ const DEFAULT_SEED = 0x0a7e;
  * `initialState` (any state will do for an affine map; the initial one sets the rounding scale).
  * `converged: false` means the estimate did not settle within mapApplicationsMax: report it as such.
  */
-export function predictRate(map: RoundMap, initialState: Float64Array, options: PredictRateOptions = {}): RatePrediction {
+export function predictRate(
+  map: RoundMap,
+  initialState: Float64Array,
+  options: PredictRateOptions = {},
+): RatePrediction {
   const mapApplicationsMax = options.mapApplicationsMax ?? DEFAULT_MAP_APPLICATIONS_MAX;
   // The base state, the filtered start and one Arnoldi step.
   if (!Number.isInteger(mapApplicationsMax) || mapApplicationsMax < 3) {
-    throw new TheoryError('E_THEORY_ARGUMENT', `mapApplicationsMax must be an integer >= 3, got ${mapApplicationsMax}`);
+    throw new TheoryError(
+      'E_THEORY_ARGUMENT',
+      `mapApplicationsMax must be an integer >= 3, got ${mapApplicationsMax}`,
+    );
   }
   const dim = initialState.length;
-  if (dim < 1) throw new TheoryError('E_THEORY_DIMENSION', 'a round map needs a state of length >= 1');
+  if (dim < 1)
+    throw new TheoryError('E_THEORY_DIMENSION', 'a round map needs a state of length >= 1');
   let applications = 1;
-  const linear = linearPart(map, initialState, options.probeNorm === undefined ? {} : { probeNorm: options.probeNorm });
+  const linear = linearPart(
+    map,
+    initialState,
+    options.probeNorm === undefined ? {} : { probeNorm: options.probeNorm },
+  );
   const counted: LinearOperator = (v) => {
     applications++;
     return linear(v);

@@ -25,6 +25,9 @@ export class TheoryError extends CodedError<TheoryErrorCode> {}
 /** Throws E_DIMENSION unless `vector` has `length` entries. */
 export function assertTheoryLength(name: string, vector: ArrayLike<number>, length: number): void {
   if (vector.length !== length) {
-    throw new TheoryError('E_THEORY_DIMENSION', `${name} has length ${vector.length}, expected ${length}`);
+    throw new TheoryError(
+      'E_THEORY_DIMENSION',
+      `${name} has length ${vector.length}, expected ${length}`,
+    );
   }
 }

@@ -27,13 +27,19 @@ export class TimingError extends Error {
 /** Throws E_TIMING_ARGUMENT unless `value` is an integer in [min, max]. */
 export function assertIntegerInRange(name: string, value: number, min: number, max: number): void {
   if (!Number.isInteger(value) || value < min || value > max) {
-    throw new TimingError('E_TIMING_ARGUMENT', `${name} must be an integer in [${min}, ${max}], got ${value}`);
+    throw new TimingError(
+      'E_TIMING_ARGUMENT',
+      `${name} must be an integer in [${min}, ${max}], got ${value}`,
+    );
   }
 }
 
 /** Throws E_TIMING_ARGUMENT unless `value` is finite and at least `min`. */
 export function assertFiniteAtLeast(name: string, value: number, min: number): void {
   if (!Number.isFinite(value) || value < min) {
-    throw new TimingError('E_TIMING_ARGUMENT', `${name} must be finite and >= ${min}, got ${value}`);
+    throw new TimingError(
+      'E_TIMING_ARGUMENT',
+      `${name} must be finite and >= ${min}, got ${value}`,
+    );
   }
 }

@@ -29,7 +29,8 @@ export function localStepsFor(spec: CountSpec, clientCount: number, seed: number
     const [min, max] = spec.uniform;
     assertIntegerInRange('method.localSteps.uniform[0]', min, 1, 2 ** 31 - 1);
     assertIntegerInRange('method.localSteps.uniform[1]', max, min, 2 ** 31 - 1);
-    for (let i = 0; i < clientCount; i++) steps[i] = min + Rng.derive(seed, 'local-steps', i).nextInt(max - min + 1);
+    for (let i = 0; i < clientCount; i++)
+      steps[i] = min + Rng.derive(seed, 'local-steps', i).nextInt(max - min + 1);
   }
   return steps;
 }

@@ -8,13 +8,22 @@ import { TimingError, assertIntegerInRange } from './errors.js';
 export function participantCount(fraction: number, clientCount: number): number {
   assertIntegerInRange('clientCount', clientCount, 1, 2 ** 32 - 1);
   if (!(fraction > 0 && fraction <= 1)) {
-    throw new TimingError('E_TIMING_ARGUMENT', `participation must lie in (0, 1], got ${fraction}`, 'method.participation');
+    throw new TimingError(
+      'E_TIMING_ARGUMENT',
+      `participation must lie in (0, 1], got ${fraction}`,
+      'method.participation',
+    );
   }
   return Math.max(1, Math.min(clientCount, Math.round(fraction * clientCount)));
 }
 
 /** The client ids taking part in `round`, sorted ascending. */
-export function participantsFor(fraction: number, clientCount: number, seed: number, round: number): Uint32Array {
+export function participantsFor(
+  fraction: number,
+  clientCount: number,
+  seed: number,
+  round: number,
+): Uint32Array {
   const count = participantCount(fraction, clientCount);
   assertIntegerInRange('round', round, 0, Number.MAX_SAFE_INTEGER);
   if (count === clientCount) return Uint32Array.from({ length: clientCount }, (_, i) => i);

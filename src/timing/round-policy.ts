@@ -71,7 +71,11 @@ const quotientSlack = 1e-9;
  * step size eta/tau_i, is known before any byte moves; transfer time adds to the round's length.
  * Other policies keep the plan's tau_i.
  */
-export function stepsUnderPolicy(policy: RoundPolicy, stepSeconds: number, plannedSteps: number): number {
+export function stepsUnderPolicy(
+  policy: RoundPolicy,
+  stepSeconds: number,
+  plannedSteps: number,
+): number {
   if (policy.kind !== 'deadline') return plannedSteps;
   const fitting = Math.floor((policy.budgetSeconds / stepSeconds) * (1 + quotientSlack));
   return Math.min(policy.stepsMax, Math.max(1, fitting));
@@ -82,7 +86,11 @@ export function stepsUnderPolicy(policy: RoundPolicy, stepSeconds: number, plann
  * made, so that both runtimes refuse it alike before any work. `perRoundWhy` says where the
  * count comes from (participation of the clients).
  */
-export function assertPolicyFitsRound(policy: RoundPolicy, participantsPerRound: number, perRoundWhy: string): void {
+export function assertPolicyFitsRound(
+  policy: RoundPolicy,
+  participantsPerRound: number,
+  perRoundWhy: string,
+): void {
   if (policy.kind !== 'fastest-k' || policy.k <= participantsPerRound) return;
   throw new TimingError(
     'E_TIMING_POLICY_K',
@@ -101,20 +109,28 @@ export function policyForUpdates(policy: RoundPolicy, updates: number): RoundPol
 }
 
 function checkParticipants(participants: readonly RoundParticipant[]): void {
-  if (participants.length === 0) throw new TimingError('E_TIMING_ARGUMENT', 'a round needs at least one participant');
+  if (participants.length === 0)
+    throw new TimingError('E_TIMING_ARGUMENT', 'a round needs at least one participant');
   let previousId = -1;
   for (const p of participants) {
     assertIntegerInRange('clientId', p.clientId, previousId + 1, 2 ** 32 - 1);
     previousId = p.clientId;
     if (!(p.stepSeconds > 0) || !Number.isFinite(p.stepSeconds)) {
-      throw new TimingError('E_TIMING_ARGUMENT', `client ${p.clientId}: stepSeconds must be positive and finite, got ${p.stepSeconds}`);
+      throw new TimingError(
+        'E_TIMING_ARGUMENT',
+        `client ${p.clientId}: stepSeconds must be positive and finite, got ${p.stepSeconds}`,
+      );
     }
     assertIntegerInRange('plannedSteps', p.plannedSteps, 1, 2 ** 31 - 1);
   }
 }
 
 /** Decides tau_i, drops and times for one exchange of one round. Participants must be in ascending client id. */
-export function decideRound(policy: RoundPolicy, link: LinkModel, participants: readonly RoundParticipant[]): RoundTiming {
+export function decideRound(
+  policy: RoundPolicy,
+  link: LinkModel,
+  participants: readonly RoundParticipant[],
+): RoundTiming {
   checkParticipants(participants);
   const count = participants.length;
   const downSeconds = new Float64Array(count);
@@ -140,11 +156,14 @@ export function decideRound(policy: RoundPolicy, link: LinkModel, participants: 
       );
     }
     // Participants come in ascending id, so a stable sort by finish breaks ties to the lower id.
-    const order = Array.from({ length: count }, (_, j) => j).sort((a, b) => finishSeconds[a] - finishSeconds[b]);
+    const order = Array.from({ length: count }, (_, j) => j).sort(
+      (a, b) => finishSeconds[a] - finishSeconds[b],
+    );
     roundSeconds = finishSeconds[order[policy.k - 1]];
     for (let r = policy.k; r < count; r++) dropped[order[r]] = 1;
   } else {
-    for (let j = 0; j < count; j++) if (finishSeconds[j] > roundSeconds) roundSeconds = finishSeconds[j];
+    for (let j = 0; j < count; j++)
+      if (finishSeconds[j] > roundSeconds) roundSeconds = finishSeconds[j];
   }
   assertFiniteAtLeast('roundSeconds', roundSeconds, 0);
 

@@ -48,14 +48,21 @@ function drawOne(spec: SingleDrawSpec, rng: Rng): number {
 }
 
 /** s_i for every client 0..clientCount-1 of a run with this plan seed. */
-export function drawSlowdowns(timing: { slowdown: SlowdownSpec }, clientCount: number, seed: number): Float64Array {
+export function drawSlowdowns(
+  timing: { slowdown: SlowdownSpec },
+  clientCount: number,
+  seed: number,
+): Float64Array {
   assertIntegerInRange('clientCount', clientCount, 1, clientsMax);
   const spec = timing.slowdown;
   const slowdowns = new Float64Array(clientCount);
   if (spec.kind === 'two-class') {
     slowdowns.fill(1);
     const count = stragglerCount(spec.fraction, clientCount);
-    const stragglers = Rng.derive(seed, 'slowdown', 'stragglers').sampleWithoutReplacement(clientCount, count);
+    const stragglers = Rng.derive(seed, 'slowdown', 'stragglers').sampleWithoutReplacement(
+      clientCount,
+      count,
+    );
     for (let j = 0; j < stragglers.length; j++) slowdowns[stragglers[j]] = spec.factor;
     return slowdowns;
   }
@@ -63,7 +70,11 @@ export function drawSlowdowns(timing: { slowdown: SlowdownSpec }, clientCount: n
     const s = drawOne(spec, Rng.derive(seed, 'slowdown', i));
     // A pareto shape far below 1 can overflow to Infinity; no round could then end.
     if (!Number.isFinite(s)) {
-      throw new TimingError('E_TIMING_SLOWDOWN_NOT_FINITE', `client ${i} drew slowdown ${s}; choose a larger shape`, 'timing.slowdown');
+      throw new TimingError(
+        'E_TIMING_SLOWDOWN_NOT_FINITE',
+        `client ${i} drew slowdown ${s}; choose a larger shape`,
+        'timing.slowdown',
+      );
     }
     slowdowns[i] = s;
   }

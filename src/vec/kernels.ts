@@ -75,7 +75,13 @@ export function allFinite(x: Float64Array): boolean {
 /**
  * out <- A x for a row-major A of `rows` x `cols` (A.length === rows * cols).
  */
-export function matVec(a: Float64Array, rows: number, cols: number, x: Float64Array, out: Float64Array): void {
+export function matVec(
+  a: Float64Array,
+  rows: number,
+  cols: number,
+  x: Float64Array,
+  out: Float64Array,
+): void {
   for (let r = 0; r < rows; r++) {
     let sum = 0;
     const base = r * cols;
@@ -88,7 +94,13 @@ export function matVec(a: Float64Array, rows: number, cols: number, x: Float64Ar
  * out <- A^T y for a row-major A of `rows` x `cols`. Walks A row by row so that memory is read
  * in order; out must not alias y.
  */
-export function matTVec(a: Float64Array, rows: number, cols: number, y: Float64Array, out: Float64Array): void {
+export function matTVec(
+  a: Float64Array,
+  rows: number,
+  cols: number,
+  y: Float64Array,
+  out: Float64Array,
+): void {
   out.fill(0);
   for (let r = 0; r < rows; r++) {
     const yr = y[r];

@@ -5,8 +5,21 @@ import type { Upload } from '../../src/algorithm/method.js';
 import type { MinibatchSampler } from '../../src/problem/minibatch-sampler.js';
 import { MethodError } from '../../src/algorithm/method-error.js';
 import { fromColumn, standardProblem } from './fixtures/least-squares-problem.js';
-import { clientMinimizer, localStepMap, referenceLocalDescent } from './fixtures/quadratic-reference.js';
-import { bitwiseEqual, distance, modelOf, norm, runRound, runRounds, startRun, suboptimality } from './fixtures/round-loop.js';
+import {
+  clientMinimizer,
+  localStepMap,
+  referenceLocalDescent,
+} from './fixtures/quadratic-reference.js';
+import {
+  bitwiseEqual,
+  distance,
+  modelOf,
+  norm,
+  runRound,
+  runRounds,
+  startRun,
+  suboptimality,
+} from './fixtures/round-loop.js';
 
 // Agreement with an ml-matrix reference up to rounding: 1e-12 relative is far above the
 // double-precision error of a few dozen steps in 6 dimensions and far below any algorithmic
@@ -27,9 +40,12 @@ describe('fedavg', () => {
     const expected = Float64Array.from(x0);
     for (let i = 0; i < m; i++) {
       const y = referenceLocalDescent(problem.objectives[i], x0, taus[i], eta);
-      for (let j = 0; j < expected.length; j++) expected[j] += etaG * problem.weights[i] * (y[j] - x0[j]);
+      for (let j = 0; j < expected.length; j++)
+        expected[j] += etaG * problem.weights[i] * (y[j] - x0[j]);
     }
-    expect(distance(modelOf(run), expected)).toBeLessThanOrEqual(REFERENCE_TOLERANCE * norm(expected));
+    expect(distance(modelOf(run), expected)).toBeLessThanOrEqual(
+      REFERENCE_TOLERANCE * norm(expected),
+    );
   });
 
   it('renormalizes the weights over the participants (a 2-of-4 round)', () => {
@@ -40,9 +56,12 @@ describe('fedavg', () => {
     const expected = Float64Array.from(x0);
     for (const i of [1, 3]) {
       const y = referenceLocalDescent(problem.objectives[i], x0, taus[i], eta);
-      for (let j = 0; j < expected.length; j++) expected[j] += (problem.weights[i] / share) * (y[j] - x0[j]);
+      for (let j = 0; j < expected.length; j++)
+        expected[j] += (problem.weights[i] / share) * (y[j] - x0[j]);
     }
-    expect(distance(modelOf(run), expected)).toBeLessThanOrEqual(REFERENCE_TOLERANCE * norm(expected));
+    expect(distance(modelOf(run), expected)).toBeLessThanOrEqual(
+      REFERENCE_TOLERANCE * norm(expected),
+    );
   });
 
   it('stalls at its closed-form fixed point, measurably away from x* (Pathak and Wainwright, NeurIPS 2020)', () => {
@@ -84,8 +103,20 @@ describe('fedavg', () => {
       },
     };
     const down = { model: x0 };
-    const sampled = fedavg.work(fedavg.initClient(problem.dim, configOf(), 2), objective, down, { localSteps: 6, stepSize: eta, sampler }, 'local');
-    const full = fedavg.work(fedavg.initClient(problem.dim, configOf(), 2), objective, down, { localSteps: 6, stepSize: eta, sampler: null }, 'local');
+    const sampled = fedavg.work(
+      fedavg.initClient(problem.dim, configOf(), 2),
+      objective,
+      down,
+      { localSteps: 6, stepSize: eta, sampler },
+      'local',
+    );
+    const full = fedavg.work(
+      fedavg.initClient(problem.dim, configOf(), 2),
+      objective,
+      down,
+      { localSteps: 6, stepSize: eta, sampler: null },
+      'local',
+    );
     expect(calls).toBe(6);
     expect(bitwiseEqual(sampled.delta, full.delta)).toBe(true);
   });
@@ -102,14 +133,18 @@ describe('fedavg', () => {
       { clientId: 0, weight: 0.5, localSteps: 1, stepSize: eta, fields: { delta: good } },
       { clientId: 2, weight: 0.5, localSteps: 1, stepSize: eta, fields: { delta: bad } },
     ];
-    expect(() => fedavg.aggregate(run.server, uploads, 'local')).toThrow(expect.objectContaining({ code: 'E_METHOD_NOT_FINITE' }));
+    expect(() => fedavg.aggregate(run.server, uploads, 'local')).toThrow(
+      expect.objectContaining({ code: 'E_METHOD_NOT_FINITE' }),
+    );
     expect(bitwiseEqual(modelOf(run), x0)).toBe(true);
   });
 
   it('rejects an unknown exchange and a missing model field with stable codes', () => {
     const run = startRun(fedavg, problem);
     expect(() => fedavg.broadcast(run.server, 'gradient')).toThrow(MethodError);
-    expect(() => fedavg.broadcast(run.server, 'gradient')).toThrow(expect.objectContaining({ code: 'E_METHOD_EXCHANGE' }));
+    expect(() => fedavg.broadcast(run.server, 'gradient')).toThrow(
+      expect.objectContaining({ code: 'E_METHOD_EXCHANGE' }),
+    );
     const budget = { localSteps: 1, stepSize: eta, sampler: null };
     expect(() => fedavg.work(run.clients[0], problem.objectives[0], {}, budget, 'local')).toThrow(
       expect.objectContaining({ code: 'E_METHOD_MISSING_FIELD' }),
@@ -117,6 +152,12 @@ describe('fedavg', () => {
   });
 
   function configOf() {
-    return { clientCount: m, stepSize: eta, serverStepSize: 1, proxCoefficient: 0, proxTolerance: 0 };
+    return {
+      clientCount: m,
+      stepSize: eta,
+      serverStepSize: 1,
+      proxCoefficient: 0,
+      proxTolerance: 0,
+    };
   }
 });

@@ -3,7 +3,11 @@ import { describe, expect, it } from 'vitest';
 import { fedavg } from '../../src/algorithm/fedavg.js';
 import { fednova } from '../../src/algorithm/fednova.js';
 import { fromColumn, standardProblem } from './fixtures/least-squares-problem.js';
-import { clientMinimizer, localStepMap, referenceLocalDescent } from './fixtures/quadratic-reference.js';
+import {
+  clientMinimizer,
+  localStepMap,
+  referenceLocalDescent,
+} from './fixtures/quadratic-reference.js';
 import { distance, modelOf, norm, runRound, runRounds, startRun } from './fixtures/round-loop.js';
 
 describe('fednova', () => {
@@ -38,7 +42,8 @@ describe('fednova', () => {
     for (const i of participants) {
       const y = referenceLocalDescent(problem.objectives[i], x0, taus[i], eta);
       const p = problem.weights[i] / share;
-      for (let j = 0; j < expected.length; j++) expected[j] -= etaG * effectiveSteps * p * ((x0[j] - y[j]) / taus[i]);
+      for (let j = 0; j < expected.length; j++)
+        expected[j] -= etaG * effectiveSteps * p * ((x0[j] - y[j]) / taus[i]);
     }
     // 1e-12 relative: rounding only (common practice).
     expect(distance(modelOf(run), expected)).toBeLessThanOrEqual(1e-12 * norm(expected));
@@ -53,7 +58,9 @@ describe('fednova', () => {
     let lhs = Matrix.zeros(problem.dim, problem.dim);
     let rhs = Matrix.zeros(problem.dim, 1);
     for (let i = 0; i < m; i++) {
-      const map = localStepMap(problem.objectives[i], taus[i], eta).mul(problem.weights[i] / taus[i]);
+      const map = localStepMap(problem.objectives[i], taus[i], eta).mul(
+        problem.weights[i] / taus[i],
+      );
       lhs = lhs.add(map);
       rhs = rhs.add(map.mmul(clientMinimizer(problem.objectives[i])));
     }
@@ -65,7 +72,15 @@ describe('fednova', () => {
 
   it('rejects an upload whose step count is not a positive integer', () => {
     const run = startRun(fednova, problem);
-    const upload = { clientId: 0, weight: 1, localSteps: 0, stepSize: eta, fields: { delta: new Float64Array(problem.dim) } };
-    expect(() => fednova.aggregate(run.server, [upload], 'local')).toThrow(expect.objectContaining({ code: 'E_METHOD_BUDGET' }));
+    const upload = {
+      clientId: 0,
+      weight: 1,
+      localSteps: 0,
+      stepSize: eta,
+      fields: { delta: new Float64Array(problem.dim) },
+    };
+    expect(() => fednova.aggregate(run.server, [upload], 'local')).toThrow(
+      expect.objectContaining({ code: 'E_METHOD_BUDGET' }),
+    );
   });
 });

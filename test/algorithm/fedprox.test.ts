@@ -3,7 +3,14 @@ import { describe, expect, it } from 'vitest';
 import { fedavg } from '../../src/algorithm/fedavg.js';
 import { fedprox } from '../../src/algorithm/fedprox.js';
 import { fromColumn, standardProblem, toColumn } from './fixtures/least-squares-problem.js';
-import { bitwiseEqual, distance, modelOf, norm, runRound, startRun } from './fixtures/round-loop.js';
+import {
+  bitwiseEqual,
+  distance,
+  modelOf,
+  norm,
+  runRound,
+  startRun,
+} from './fixtures/round-loop.js';
 
 describe('fedprox', () => {
   const problem = standardProblem();

@@ -2,7 +2,15 @@ import { Matrix, solve } from 'ml-matrix';
 import { describe, expect, it } from 'vitest';
 import { fedsplit } from '../../src/algorithm/fedsplit.js';
 import { fromColumn, standardProblem, toColumn } from './fixtures/least-squares-problem.js';
-import { distance, modelOf, norm, runRound, runRounds, startRun, suboptimality } from './fixtures/round-loop.js';
+import {
+  distance,
+  modelOf,
+  norm,
+  runRound,
+  runRounds,
+  startRun,
+  suboptimality,
+} from './fixtures/round-loop.js';
 
 describe('fedsplit', () => {
   const problem = standardProblem();
@@ -11,7 +19,11 @@ describe('fedsplit', () => {
   // for L-smooth, mu-strongly convex f_i (value recalled from memory); L and mu of f from ml-matrix.
   const s = 1 / Math.sqrt(problem.smoothness * problem.strongConvexity);
   const x0 = Float64Array.from({ length: problem.dim }, (_, j) => 0.4 - 0.15 * j);
-  const planOf = (tau: number, participants?: number[]) => ({ localSteps: Array(m).fill(tau), stepSizes: Array(m).fill(s), participants });
+  const planOf = (tau: number, participants?: number[]) => ({
+    localSteps: Array(m).fill(tau),
+    stepSizes: Array(m).fill(s),
+    participants,
+  });
 
   it('reaches f - f* <= 1e-10 when each prox is solved to gradient norm 1e-12 (Pathak and Wainwright, NeurIPS 2020, Theorem 1)', () => {
     // Theorem 1: with exact proxes FedSplit converges linearly to x*. Inner steps solve each prox
@@ -33,7 +45,12 @@ describe('fedsplit', () => {
     for (let i = 0; i < m; i++) {
       const f = problem.objectives[i];
       const centre = Matrix.sub(x.clone().mul(2), x);
-      const u = fromColumn(solve(f.hessian().add(Matrix.eye(problem.dim).mul(1 / s)), f.linearTerm().add(centre.mul(1 / s))));
+      const u = fromColumn(
+        solve(
+          f.hessian().add(Matrix.eye(problem.dim).mul(1 / s)),
+          f.linearTerm().add(centre.mul(1 / s)),
+        ),
+      );
       const z = Float64Array.from(x0, (xj, j) => xj + 2 * (u[j] - xj));
       // 1e-11: the inner solve stops at gradient norm 1e-13; its error is at most that over the
       // prox objective's strong convexity (>= 1/s), doubled by the centering step.

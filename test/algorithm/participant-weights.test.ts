@@ -3,11 +3,17 @@ import type { Upload } from '../../src/algorithm/method.js';
 import { renormalizedWeights, weightedFieldSum } from '../../src/algorithm/participant-weights.js';
 
 function upload(clientId: number, weight: number, delta: number[]): Upload {
-  return { clientId, weight, localSteps: 1, stepSize: 0.1, fields: { delta: Float64Array.from(delta) } };
+  return {
+    clientId,
+    weight,
+    localSteps: 1,
+    stepSize: 0.1,
+    fields: { delta: Float64Array.from(delta) },
+  };
 }
 
 describe('renormalizedWeights', () => {
-  it('rescales the participants\' shares p_i / sum_S p_j to sum to one (a 2-of-4 round)', () => {
+  it("rescales the participants' shares p_i / sum_S p_j to sum to one (a 2-of-4 round)", () => {
     // p = (0.1, 0.2, 0.3, 0.4) of which clients 1 and 3 take part: 0.2/0.6 and 0.4/0.6 (arithmetic).
     const weights = renormalizedWeights([upload(1, 0.2, [0]), upload(3, 0.4, [0])]);
     expect(weights[0]).toBeCloseTo(1 / 3, 15);

@@ -3,9 +3,25 @@ import type { Method, MethodName } from '../../src/algorithm/method.js';
 import type { Fields } from '../../src/vec/fields.js';
 import { methodByName } from '../../src/algorithm/registry.js';
 import { standardProblem } from './fixtures/least-squares-problem.js';
-import { bitwiseEqual, budgetOf, modelOf, runRound, runRounds, startRun, type Run } from './fixtures/round-loop.js';
+import {
+  bitwiseEqual,
+  budgetOf,
+  modelOf,
+  runRound,
+  runRounds,
+  startRun,
+  type Run,
+} from './fixtures/round-loop.js';
 
-const NAMES: MethodName[] = ['gd', 'fedavg', 'fedprox', 'fednova', 'scaffold', 'fedlin', 'fedsplit'];
+const NAMES: MethodName[] = [
+  'gd',
+  'fedavg',
+  'fedprox',
+  'fednova',
+  'scaffold',
+  'fedlin',
+  'fedsplit',
+];
 
 describe('methodByName', () => {
   const problem = standardProblem();
@@ -23,7 +39,9 @@ describe('methodByName', () => {
   });
 
   it('rejects an unknown name with a stable code', () => {
-    expect(() => methodByName('fedsgd' as MethodName)).toThrow(expect.objectContaining({ code: 'E_METHOD_UNKNOWN' }));
+    expect(() => methodByName('fedsgd' as MethodName)).toThrow(
+      expect.objectContaining({ code: 'E_METHOD_UNKNOWN' }),
+    );
   });
 
   for (const name of NAMES) {
@@ -38,9 +56,21 @@ describe('methodByName', () => {
             // FedLin's local exchange consumes the anchor of a gradient exchange each time.
             if (exchange === 'local' && run.method.exchanges.includes('gradient')) {
               const gradientDown = run.method.broadcast(run.server, 'gradient');
-              run.method.work(run.clients[1], problem.objectives[1], gradientDown, budgetOf(plan, 1), 'gradient');
+              run.method.work(
+                run.clients[1],
+                problem.objectives[1],
+                gradientDown,
+                budgetOf(plan, 1),
+                'gradient',
+              );
             }
-            return run.method.work(run.clients[1], problem.objectives[1], down, budgetOf(plan, 1), exchange);
+            return run.method.work(
+              run.clients[1],
+              problem.objectives[1],
+              down,
+              budgetOf(plan, 1),
+              exchange,
+            );
           };
           const first = work();
           const firstCopy = copyFields(first);
@@ -54,7 +84,9 @@ describe('methodByName', () => {
       it('broadcasts vectors that aggregate does not change afterwards', () => {
         const run = startRun(methodByName(name), problem, config);
         runRound(run, plan);
-        const held = run.method.exchanges.map((exchange) => run.method.broadcast(run.server, exchange));
+        const held = run.method.exchanges.map((exchange) =>
+          run.method.broadcast(run.server, exchange),
+        );
         const copies = held.map(copyFields);
         runRounds(run, plan, 2);
         held.forEach((fields, k) => expect(sameFields(fields, copies[k])).toBe(true));
@@ -84,5 +116,8 @@ function copyFields(fields: Fields): Fields {
 
 function sameFields(a: Fields, b: Fields): boolean {
   const keys = Object.keys(a);
-  return keys.length === Object.keys(b).length && keys.every((k) => b[k] !== undefined && bitwiseEqual(a[k], b[k]));
+  return (
+    keys.length === Object.keys(b).length &&
+    keys.every((k) => b[k] !== undefined && bitwiseEqual(a[k], b[k]))
+  );
 }

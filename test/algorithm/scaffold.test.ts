@@ -3,7 +3,17 @@ import { fedavg } from '../../src/algorithm/fedavg.js';
 import type { Upload } from '../../src/algorithm/method.js';
 import { scaffold } from '../../src/algorithm/scaffold.js';
 import { standardProblem } from './fixtures/least-squares-problem.js';
-import { bitwiseEqual, budgetOf, distance, modelOf, norm, runRound, runRounds, startRun, suboptimality } from './fixtures/round-loop.js';
+import {
+  bitwiseEqual,
+  budgetOf,
+  distance,
+  modelOf,
+  norm,
+  runRound,
+  runRounds,
+  startRun,
+  suboptimality,
+} from './fixtures/round-loop.js';
 
 describe('scaffold', () => {
   const problem = standardProblem();
@@ -38,8 +48,20 @@ describe('scaffold', () => {
     const downA = scaffold.broadcast(a.server, 'local');
     const downB = fedavg.broadcast(b.server, 'local');
     for (let i = 0; i < m; i++) {
-      const up = scaffold.work(a.clients[i], problem.objectives[i], downA, budgetOf(plan, i), 'local');
-      const reference = fedavg.work(b.clients[i], problem.objectives[i], downB, budgetOf(plan, i), 'local');
+      const up = scaffold.work(
+        a.clients[i],
+        problem.objectives[i],
+        downA,
+        budgetOf(plan, i),
+        'local',
+      );
+      const reference = fedavg.work(
+        b.clients[i],
+        problem.objectives[i],
+        downB,
+        budgetOf(plan, i),
+        'local',
+      );
       expect(bitwiseEqual(up.delta, reference.delta)).toBe(true);
       const span = taus[i] * eta;
       for (let j = 0; j < problem.dim; j++) {
@@ -64,23 +86,36 @@ describe('scaffold', () => {
       weight: uniform.weights[i],
       localSteps: taus[i],
       stepSize: eta,
-      fields: scaffold.work(run.clients[i], uniform.objectives[i], down, budgetOf(plan, i), 'local'),
+      fields: scaffold.work(
+        run.clients[i],
+        uniform.objectives[i],
+        down,
+        budgetOf(plan, i),
+        'local',
+      ),
     }));
     scaffold.aggregate(run.server, uploads, 'local');
     for (let j = 0; j < uniform.dim; j++) {
       const meanDelta = (uploads[0].fields.delta[j] + uploads[1].fields.delta[j]) / 2;
-      const meanControl = (uploads[0].fields.controlDelta[j] + uploads[1].fields.controlDelta[j]) / 2;
+      const meanControl =
+        (uploads[0].fields.controlDelta[j] + uploads[1].fields.controlDelta[j]) / 2;
       // 14 decimals on entries of order one: the same sums rounded in another order (common practice).
       expect(run.server.model[j]).toBeCloseTo(xBefore[j] + etaG * meanDelta, 14);
-      expect(run.server.control[j]).toBeCloseTo(cBefore[j] + (participants.length / m) * meanControl, 14);
+      expect(run.server.control[j]).toBeCloseTo(
+        cBefore[j] + (participants.length / m) * meanControl,
+        14,
+      );
     }
   });
 
   it('keeps c = sum_i p_i c_i through rounds of partial participation', () => {
     const run = startRun(scaffold, problem);
-    for (const participants of [[0, 1, 2, 3], [1, 3], [0, 2], [2], [0, 1, 3]]) runRound(run, { ...plan, participants });
+    for (const participants of [[0, 1, 2, 3], [1, 3], [0, 2], [2], [0, 1, 3]])
+      runRound(run, { ...plan, participants });
     const weighted = new Float64Array(problem.dim);
-    for (let i = 0; i < m; i++) for (let j = 0; j < problem.dim; j++) weighted[j] += problem.weights[i] * run.clients[i].control[j];
+    for (let i = 0; i < m; i++)
+      for (let j = 0; j < problem.dim; j++)
+        weighted[j] += problem.weights[i] * run.clients[i].control[j];
     // 1e-12 relative: rounding only (common practice).
     expect(distance(run.server.control, weighted)).toBeLessThanOrEqual(1e-12 * norm(weighted));
     expect(bitwiseEqual(modelOf(run), run.server.model)).toBe(true);

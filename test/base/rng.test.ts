@@ -88,7 +88,12 @@ describe('xoshiro256**', () => {
   it('agrees with the reference algorithm over a long run from a splitmix64-seeded state', () => {
     // The authors' seeding advice (prng.di.unimi.it): the state is four splitmix64 outputs.
     const expander = new SplitMix64(20240917n);
-    const state = [expander.nextUint64(), expander.nextUint64(), expander.nextUint64(), expander.nextUint64()];
+    const state = [
+      expander.nextUint64(),
+      expander.nextUint64(),
+      expander.nextUint64(),
+      expander.nextUint64(),
+    ];
     const reference = referenceXoshiro(state);
     const rng = Rng.fromSeed(20240917n);
     let mismatches = 0;
@@ -97,7 +102,9 @@ describe('xoshiro256**', () => {
   });
 
   it('rejects the all-zero state', () => {
-    expect(() => Rng.fromState([0n, 0n, 0n, 0n])).toThrow(expect.objectContaining({ code: 'E_RNG_ARGUMENT' }));
+    expect(() => Rng.fromState([0n, 0n, 0n, 0n])).toThrow(
+      expect.objectContaining({ code: 'E_RNG_ARGUMENT' }),
+    );
   });
 });
 
@@ -161,7 +168,9 @@ describe('uniform draws', () => {
     const draws = 100_000;
     const counts = new Float64Array(10);
     for (let i = 0; i < draws; i++) counts[Math.floor((rng.nextUint32() / 2 ** 32) * 10)]++;
-    expect(chiSquare(counts, new Float64Array(10).fill(draws / 10))).toBeLessThan(CHI_SQUARE_999[9]);
+    expect(chiSquare(counts, new Float64Array(10).fill(draws / 10))).toBeLessThan(
+      CHI_SQUARE_999[9],
+    );
   });
 
   it('nextInt(7) is uniform on {0..6} (chi-square, df 6)', () => {
@@ -187,7 +196,9 @@ describe('uniform draws', () => {
       if (r < n / 2) lower++;
     }
     expect(outside).toBe(0);
-    expect(chiSquare([lower, draws - lower], [draws / 2, draws / 2])).toBeLessThan(CHI_SQUARE_999[1]);
+    expect(chiSquare([lower, draws - lower], [draws / 2, draws / 2])).toBeLessThan(
+      CHI_SQUARE_999[1],
+    );
   });
 
   it('nextInt rejects n outside [1, 2^53]', () => {
@@ -240,7 +251,9 @@ describe('gamma', () => {
       expect(invalid).toBe(0);
       const { mean, variance } = meanAndVariance(values);
       expect(Math.abs(mean - shape)).toBeLessThan(5 * Math.sqrt(shape / count));
-      expect(Math.abs(variance - shape)).toBeLessThan(5 * Math.sqrt((2 * shape * shape + 6 * shape) / count));
+      expect(Math.abs(variance - shape)).toBeLessThan(
+        5 * Math.sqrt((2 * shape * shape + 6 * shape) / count),
+      );
     });
   }
 
@@ -265,7 +278,12 @@ describe('dirichlet', () => {
     return moment;
   }
 
-  for (const alpha of [[0.1, 0.3, 0.6], [0.5, 0.5, 0.5, 0.5, 0.5], [2, 5, 3], [20, 1.5, 8]]) {
+  for (const alpha of [
+    [0.1, 0.3, 0.6],
+    [0.5, 0.5, 0.5, 0.5, 0.5],
+    [2, 5, 3],
+    [20, 1.5, 8],
+  ]) {
     it(`matches the moments of Dir(${alpha.join(', ')})`, () => {
       const rng = Rng.derive(10, 'dirichlet', alpha.join(','));
       const count = 40_000;
@@ -295,7 +313,9 @@ describe('dirichlet', () => {
         const central4 = m4 - 4 * mean * m3 + 6 * mean * mean * m2 - 3 * mean ** 4;
         const sample = meanAndVariance(columns[j]);
         expect(Math.abs(sample.mean - mean)).toBeLessThan(5 * Math.sqrt(variance / count));
-        expect(Math.abs(sample.variance - variance)).toBeLessThan(5 * Math.sqrt((central4 - variance * variance) / count));
+        expect(Math.abs(sample.variance - variance)).toBeLessThan(
+          5 * Math.sqrt((central4 - variance * variance) / count),
+        );
       }
     });
   }
@@ -306,7 +326,8 @@ describe('dirichlet', () => {
     for (let i = 0; i < 20_000; i++) {
       const x = rng.dirichlet([0.01, 0.01, 0.01, 0.01]);
       const total = x.reduce((s, v) => s + v, 0);
-      if (!x.every((v) => v >= 0 && Number.isFinite(v)) || !(Math.abs(total - 1) < 1e-12)) offSimplex++;
+      if (!x.every((v) => v >= 0 && Number.isFinite(v)) || !(Math.abs(total - 1) < 1e-12))
+        offSimplex++;
     }
     expect(offSimplex).toBe(0);
   });
@@ -323,7 +344,9 @@ describe('permutations and subsets', () => {
       counts.set(a.join(''), (counts.get(a.join('')) ?? 0) + 1);
     }
     expect(counts.size).toBe(6);
-    expect(chiSquare([...counts.values()], new Float64Array(6).fill(draws / 6))).toBeLessThan(CHI_SQUARE_999[5]);
+    expect(chiSquare([...counts.values()], new Float64Array(6).fill(draws / 6))).toBeLessThan(
+      CHI_SQUARE_999[5],
+    );
   });
 
   it('shuffleInPlace permutes a Uint32Array', () => {
@@ -365,6 +388,8 @@ describe('permutations and subsets', () => {
     const rng = Rng.fromSeed(15);
     expect(rng.sampleWithoutReplacement(5, 0).length).toBe(0);
     expect(Array.from(rng.sampleWithoutReplacement(5, 5))).toEqual([0, 1, 2, 3, 4]);
-    expect(() => rng.sampleWithoutReplacement(3, 4)).toThrow(expect.objectContaining({ code: 'E_RNG_ARGUMENT' }));
+    expect(() => rng.sampleWithoutReplacement(3, 4)).toThrow(
+      expect.objectContaining({ code: 'E_RNG_ARGUMENT' }),
+    );
   });
 });

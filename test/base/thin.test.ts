@@ -10,7 +10,12 @@ describe('thinIndices', () => {
   });
 
   it('keeps at most pointsMax indices, strictly increasing, first and last included', () => {
-    for (const [length, max] of [[10_001, 2000], [2001, 2000], [37, 5], [1_000_000, 2]]) {
+    for (const [length, max] of [
+      [10_001, 2000],
+      [2001, 2000],
+      [37, 5],
+      [1_000_000, 2],
+    ]) {
       const indices = thinIndices(length, max);
       expect(indices.length).toBe(max);
       expect(indices[0]).toBe(0);

@@ -38,7 +38,11 @@ export const FULL_SIZES: BenchSizes = {
 };
 
 /** Median seconds per call of fn over `samples` batches, each sized to last about batchSeconds. */
-function secondsPerCall(fn: () => void, sizes: Pick<BenchSizes, 'batchSeconds' | 'samples'>, samples = sizes.samples): number {
+function secondsPerCall(
+  fn: () => void,
+  sizes: Pick<BenchSizes, 'batchSeconds' | 'samples'>,
+  samples = sizes.samples,
+): number {
   const batchMs = sizes.batchSeconds * 1000;
   let reps = 1;
   for (;;) {
@@ -64,7 +68,13 @@ function randomVector(rng: Rng, d: number): Float64Array {
 }
 
 function randomShard(rng: Rng, n: number, p: number, labels: (rng: Rng) => number): Shard {
-  return { clientId: 0, sampleCount: n, featureCount: p, features: randomVector(rng, n * p), targets: Float64Array.from({ length: n }, () => labels(rng)) };
+  return {
+    clientId: 0,
+    sampleCount: n,
+    featureCount: p,
+    features: randomVector(rng, n * p),
+    targets: Float64Array.from({ length: n }, () => labels(rng)),
+  };
 }
 
 /** Keeps results alive so that the optimizer cannot drop the measured calls. */
@@ -83,43 +93,88 @@ export function runBench(sizes: BenchSizes = FULL_SIZES): BenchResult[] {
     const s = secondsPerCall(() => {
       sink += dot(x, y);
     }, sizes);
-    results.push({ suite: 'vec', case: 'dot', shape: { d }, figure: (2 * d) / s / 1e9, unit: 'GFLOP/s' });
+    results.push({
+      suite: 'vec',
+      case: 'dot',
+      shape: { d },
+      figure: (2 * d) / s / 1e9,
+      unit: 'GFLOP/s',
+    });
   }
   for (const [rows, cols] of sizes.matVecShapes) {
     const a = randomVector(rng, rows * cols);
     const x = randomVector(rng, cols);
     const out = new Float64Array(rows);
     const s = secondsPerCall(() => matVec(a, rows, cols, x, out), sizes);
-    results.push({ suite: 'vec', case: 'matVec', shape: { rows, cols }, figure: (2 * rows * cols) / s / 1e9, unit: 'GFLOP/s' });
+    results.push({
+      suite: 'vec',
+      case: 'matVec',
+      shape: { rows, cols },
+      figure: (2 * rows * cols) / s / 1e9,
+      unit: 'GFLOP/s',
+    });
   }
   const { samples: n, features: p, classes } = sizes.gradient;
   const objectives = [
-    { kind: 'least-squares' as const, shard: randomShard(rng, n, p, (r) => r.normal()), flops: 4 * n * p },
-    { kind: 'logistic' as const, shard: randomShard(rng, n, p, (r) => r.nextInt(2)), flops: 4 * n * p },
-    { kind: 'softmax' as const, shard: randomShard(rng, n, p, (r) => r.nextInt(classes)), flops: 4 * n * p * classes },
+    {
+      kind: 'least-squares' as const,
+      shard: randomShard(rng, n, p, (r) => r.normal()),
+      flops: 4 * n * p,
+    },
+    {
+      kind: 'logistic' as const,
+      shard: randomShard(rng, n, p, (r) => r.nextInt(2)),
+      flops: 4 * n * p,
+    },
+    {
+      kind: 'softmax' as const,
+      shard: randomShard(rng, n, p, (r) => r.nextInt(classes)),
+      flops: 4 * n * p * classes,
+    },
   ];
   for (const o of objectives) {
     const objective = createObjective({ kind: o.kind, regularization: 1e-3, classes }, o.shard);
     const x = randomVector(rng, objective.dim);
     const g = new Float64Array(objective.dim);
     const s = secondsPerCall(() => objective.gradient(x, g), sizes);
-    results.push({ suite: 'problem', case: `gradient ${o.kind}`, shape: { samples: n, features: p, ...(o.kind === 'softmax' ? { classes } : {}) }, figure: o.flops / s / 1e9, unit: 'GFLOP/s' });
+    results.push({
+      suite: 'problem',
+      case: `gradient ${o.kind}`,
+      shape: { samples: n, features: p, ...(o.kind === 'softmax' ? { classes } : {}) },
+      figure: o.flops / s / 1e9,
+      unit: 'GFLOP/s',
+    });
   }
   for (const [d, fraction] of sizes.topK) {
     const v = randomVector(rng, d);
     const k = Math.ceil(d * fraction);
     // Fewer batches for these: a full sort of a million entries takes a while.
-    const selectSeconds = secondsPerCall(() => {
-      sink += topKIndices(v, k).length;
-    }, sizes, Math.min(sizes.samples, 7));
-    const sortSeconds = secondsPerCall(() => {
-      const idx = Array.from({ length: d }, (_, j) => j);
-      idx.sort((a, b) => Math.abs(v[b]) - Math.abs(v[a]) || a - b);
-      sink += idx[k - 1];
-    }, sizes, Math.min(sizes.samples, 3));
+    const selectSeconds = secondsPerCall(
+      () => {
+        sink += topKIndices(v, k).length;
+      },
+      sizes,
+      Math.min(sizes.samples, 7),
+    );
+    const sortSeconds = secondsPerCall(
+      () => {
+        const idx = Array.from({ length: d }, (_, j) => j);
+        idx.sort((a, b) => Math.abs(v[b]) - Math.abs(v[a]) || a - b);
+        sink += idx[k - 1];
+      },
+      sizes,
+      Math.min(sizes.samples, 3),
+    );
     const figure = d / selectSeconds / 1e6;
     const sorted = d / sortSeconds / 1e6;
-    results.push({ suite: 'compress', case: 'top-k select', shape: { d, k }, figure, unit: 'Mentries/s', reference: { against: 'full sort', figure: sorted, ratio: figure / sorted } });
+    results.push({
+      suite: 'compress',
+      case: 'top-k select',
+      shape: { d, k },
+      figure,
+      unit: 'Mentries/s',
+      reference: { against: 'full sort', figure: sorted, ratio: figure / sorted },
+    });
   }
   return results;
 }

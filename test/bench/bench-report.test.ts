@@ -43,9 +43,17 @@ describe('bench output', () => {
 
   it('survives JSON and the schema, which refuses the list-of-figures form and unknown keys', () => {
     expect(benchReportSchema.parse(JSON.parse(JSON.stringify(report)))).toEqual(report);
-    const listForm = report.results.map((r) => ({ name: r.case, params: r.shape, value: r.figure, unit: r.unit }));
+    const listForm = report.results.map((r) => ({
+      name: r.case,
+      params: r.shape,
+      value: r.figure,
+      unit: r.unit,
+    }));
     expect(benchReportSchema.safeParse(listForm).success).toBe(false);
-    expect(benchReportSchema.safeParse({ ...report, results: [{ ...report.results[0], value: 1 }] }).success).toBe(false);
+    expect(
+      benchReportSchema.safeParse({ ...report, results: [{ ...report.results[0], value: 1 }] })
+        .success,
+    ).toBe(false);
     expect(benchReportSchema.safeParse({ ...report, roundwireBench: 2 }).success).toBe(false);
   });
 });

@@ -52,10 +52,21 @@ export type BenchReport = z.infer<typeof benchReportSchema>;
 
 export function thisMachine(): BenchReport['machine'] {
   const cores = cpus();
-  return { node: process.version, platform: platform(), arch: arch(), cpuModel: cores[0]?.model ?? 'unknown', cpuCount: Math.max(1, cores.length), memoryBytes: totalmem() };
+  return {
+    node: process.version,
+    platform: platform(),
+    arch: arch(),
+    cpuModel: cores[0]?.model ?? 'unknown',
+    cpuCount: Math.max(1, cores.length),
+    memoryBytes: totalmem(),
+  };
 }
 
 /** The report for these results, checked against the schema (throws naming the bad field). */
 export function benchReport(results: BenchResult[]): BenchReport {
-  return benchReportSchema.parse({ roundwireBench: BENCH_REPORT_VERSION, machine: thisMachine(), results });
+  return benchReportSchema.parse({
+    roundwireBench: BENCH_REPORT_VERSION,
+    machine: thisMachine(),
+    results,
+  });
 }

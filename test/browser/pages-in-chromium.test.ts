@@ -10,18 +10,52 @@ import { chromium, type BrowserContext } from 'playwright-core';
 import { runCli } from '../cli/run-cli.js';
 
 const chromiumPath = '/usr/bin/chromium';
-const chromiumArgs = ['--headless', '--no-sandbox', '--disable-gpu', '--disable-quic', '--no-first-run', '--disable-background-networking', '--disable-component-update', '--disable-sync'];
+const chromiumArgs = [
+  '--headless',
+  '--no-sandbox',
+  '--disable-gpu',
+  '--disable-quic',
+  '--no-first-run',
+  '--disable-background-networking',
+  '--disable-component-update',
+  '--disable-sync',
+];
 
 const root = mkdtempSync(join(tmpdir(), 'roundwire-browser-'));
 let context: BrowserContext | null = null;
 
 beforeAll(async () => {
-  if (!existsSync(chromiumPath)) throw new Error(`${chromiumPath} is missing: install Debian's chromium package (the CI script does); these tests do not skip`);
-  const run = await runCli(['run', 'scenarios/quickstart.yaml', '--in-process', '--tweak', 'run.rounds:60', '--out', join(root, 'run')]);
+  if (!existsSync(chromiumPath))
+    throw new Error(
+      `${chromiumPath} is missing: install Debian's chromium package (the CI script does); these tests do not skip`,
+    );
+  const run = await runCli([
+    'run',
+    'scenarios/quickstart.yaml',
+    '--in-process',
+    '--tweak',
+    'run.rounds:60',
+    '--out',
+    join(root, 'run'),
+  ]);
   expect(run.code, run.stderr).toBe(0);
-  const compare = await runCli(['compare', 'scenarios/quickstart.yaml', '--ladder', 'method.name:fedavg/fedlin', '--tweak', 'run.rounds:40', '--out', join(root, 'compare')]);
+  const compare = await runCli([
+    'compare',
+    'scenarios/quickstart.yaml',
+    '--ladder',
+    'method.name:fedavg/fedlin',
+    '--tweak',
+    'run.rounds:40',
+    '--out',
+    join(root, 'compare'),
+  ]);
   expect(compare.code, compare.stderr).toBe(0);
-  context = await chromium.launchPersistentContext(join(root, 'chromium-profile'), { executablePath: chromiumPath, args: chromiumArgs, headless: true, viewport: { width: 1400, height: 1000 } });
+  context = await chromium.launchPersistentContext(join(root, 'chromium-profile'), {
+    executablePath: chromiumPath,
+    args: chromiumArgs,
+    headless: true,
+    viewport: { width: 1400, height: 1000 },
+  });
 }, 120_000);
 
 afterAll(async () => {
@@ -48,7 +82,9 @@ async function openPage(file: string, screenshot: string): Promise<PageCheck> {
   await page.goto(pathToFileURL(file).href, { waitUntil: 'load' });
   // data marks: the shapes Vega draws inside its mark groups (lines, rects and symbols are paths)
   // (an expression string: the project compiles without the DOM library)
-  const marksPerSvg = (await page.evaluate(`[...document.querySelectorAll('figure > svg')].map((svg) => svg.querySelectorAll('g.role-mark path, g.role-mark line').length)`)) as number[];
+  const marksPerSvg = (await page.evaluate(
+    `[...document.querySelectorAll('figure > svg')].map((svg) => svg.querySelectorAll('g.role-mark path, g.role-mark line').length)`,
+  )) as number[];
   await page.screenshot({ path: screenshot, fullPage: true });
   await page.close();
   return { requests, consoleErrors, marksPerSvg };

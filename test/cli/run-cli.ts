@@ -11,15 +11,29 @@ export interface CliResult {
   stderr: string;
 }
 
-export function runCli(args: string[], timeoutMs = 60_000, env: NodeJS.ProcessEnv = {}): Promise<CliResult> {
+export function runCli(
+  args: string[],
+  timeoutMs = 60_000,
+  env: NodeJS.ProcessEnv = {},
+): Promise<CliResult> {
   return new Promise((resolve, reject) => {
-    execFile(process.execPath, [bin, ...args], { cwd: repoRoot, timeout: timeoutMs, maxBuffer: 64 * 1024 * 1024, env: { ...process.env, NO_COLOR: '1', ...env } }, (error, stdout, stderr) => {
-      if (error && (error as NodeJS.ErrnoException & { killed?: boolean }).killed) {
-        reject(new Error(`roundwire ${args.join(' ')} timed out after ${timeoutMs} ms`));
-        return;
-      }
-      const code = error ? ((error as unknown as { code: number }).code ?? 1) : 0;
-      resolve({ code: typeof code === 'number' ? code : 1, stdout, stderr });
-    });
+    execFile(
+      process.execPath,
+      [bin, ...args],
+      {
+        cwd: repoRoot,
+        timeout: timeoutMs,
+        maxBuffer: 64 * 1024 * 1024,
+        env: { ...process.env, NO_COLOR: '1', ...env },
+      },
+      (error, stdout, stderr) => {
+        if (error && (error as NodeJS.ErrnoException & { killed?: boolean }).killed) {
+          reject(new Error(`roundwire ${args.join(' ')} timed out after ${timeoutMs} ms`));
+          return;
+        }
+        const code = error ? ((error as unknown as { code: number }).code ?? 1) : 0;
+        resolve({ code: typeof code === 'number' ? code : 1, stdout, stderr });
+      },
+    );
   });
 }

@@ -11,11 +11,26 @@ describe('roundwire run --in-process', () => {
   it('writes the results folder and prints outcome.json with the documented fields', async () => {
     const dir = mkdtempSync(join(tmpdir(), 'roundwire-run-'));
     try {
-      const r = await runCli(['run', 'scenarios/quickstart.yaml', '--in-process', '--json', '--out', dir]);
+      const r = await runCli([
+        'run',
+        'scenarios/quickstart.yaml',
+        '--in-process',
+        '--json',
+        '--out',
+        dir,
+      ]);
       expect(r.code).toBe(0);
       const outcome = JSON.parse(r.stdout);
       // Every file README.md's "Results folder" lists, and no other.
-      expect(readdirSync(dir).sort()).toEqual(['clients.jsonl', 'model.f64', 'model.json', 'outcome.json', 'report.html', 'resolved-scenario.yaml', 'rounds.jsonl']);
+      expect(readdirSync(dir).sort()).toEqual([
+        'clients.jsonl',
+        'model.f64',
+        'model.json',
+        'outcome.json',
+        'report.html',
+        'resolved-scenario.yaml',
+        'rounds.jsonl',
+      ]);
       expect(outcome).toEqual(JSON.parse(readFileSync(join(dir, 'outcome.json'), 'utf8')));
       expect(outcome.method).toBe('fedlin');
       expect(outcome.stopReason).toBe('target-reached');
@@ -30,11 +45,17 @@ describe('roundwire run --in-process', () => {
       expect(outcome.seconds.virtual).toBeGreaterThan(0);
       expect(outcome.seconds.wall).toBeGreaterThan(0);
 
-      const rounds = readFileSync(join(dir, 'rounds.jsonl'), 'utf8').trim().split('\n').map((l) => JSON.parse(l));
+      const rounds = readFileSync(join(dir, 'rounds.jsonl'), 'utf8')
+        .trim()
+        .split('\n')
+        .map((l) => JSON.parse(l));
       expect(rounds).toHaveLength(outcome.rounds + 1);
-      expect(rounds.map((x) => x.round)).toEqual(Array.from({ length: outcome.rounds + 1 }, (_, i) => i));
+      expect(rounds.map((x) => x.round)).toEqual(
+        Array.from({ length: outcome.rounds + 1 }, (_, i) => i),
+      );
       for (const line of rounds.slice(1)) {
-        for (const key of ['suboptimality', 'distance', 'bytes', 'localSteps', 'virtualSeconds']) expect(line).toHaveProperty(key);
+        for (const key of ['suboptimality', 'distance', 'bytes', 'localSteps', 'virtualSeconds'])
+          expect(line).toHaveProperty(key);
         expect(Object.values(line.localSteps)).toEqual(Array(8).fill(5));
       }
       // the payload of a dense f64 round: 8 clients x (gradient + delta up, model + gradient down) x 20 x 8 bytes
@@ -52,7 +73,18 @@ describe('roundwire run --in-process', () => {
   it('names the reason when no prediction is made', async () => {
     const dir = mkdtempSync(join(tmpdir(), 'roundwire-run-'));
     try {
-      const r = await runCli(['run', 'scenarios/quickstart.yaml', '--in-process', '--json', '--out', dir, '--tweak', 'problem.kind:logistic', '--tweak', 'run.rounds:20']);
+      const r = await runCli([
+        'run',
+        'scenarios/quickstart.yaml',
+        '--in-process',
+        '--json',
+        '--out',
+        dir,
+        '--tweak',
+        'problem.kind:logistic',
+        '--tweak',
+        'run.rounds:20',
+      ]);
       expect(r.code).toBe(0);
       const outcome = JSON.parse(r.stdout);
       expect(outcome.prediction.available).toBe(false);

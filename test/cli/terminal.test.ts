@@ -9,10 +9,15 @@ import { repoRoot, runCli } from './run-cli.js';
 
 function runOnTty(command: string, timeoutMs = 60_000): Promise<string> {
   return new Promise((resolve, reject) => {
-    execFile('script', ['-qec', command, '/dev/null'], { cwd: repoRoot, timeout: timeoutMs, env: { ...process.env, TERM: 'xterm' } }, (error, stdout) => {
-      if (error) reject(error);
-      else resolve(stdout);
-    });
+    execFile(
+      'script',
+      ['-qec', command, '/dev/null'],
+      { cwd: repoRoot, timeout: timeoutMs, env: { ...process.env, TERM: 'xterm' } },
+      (error, stdout) => {
+        if (error) reject(error);
+        else resolve(stdout);
+      },
+    );
   });
 }
 
@@ -20,9 +25,13 @@ describe('progress display', () => {
   it('redraws one line in place on a terminal and ends it before the table', async () => {
     const dir = mkdtempSync(join(tmpdir(), 'roundwire-tty-'));
     try {
-      const out = await runOnTty(`${process.execPath} bin/roundwire.js run scenarios/quickstart.yaml --in-process --out ${dir}`);
+      const out = await runOnTty(
+        `${process.execPath} bin/roundwire.js run scenarios/quickstart.yaml --in-process --out ${dir}`,
+      );
       expect(out).toContain('\r\x1b[2Kround ');
-      expect(out).toMatch(/round \d+\/150 {2}f-f\* \S+ {2}payload [\d.]+ \w+ {2}virtual \S+ s {2}eta [\d.]+ s/);
+      expect(out).toMatch(
+        /round \d+\/150 {2}f-f\* \S+ {2}payload [\d.]+ \w+ {2}virtual \S+ s {2}eta [\d.]+ s/,
+      );
       expect(out).toMatch(/\r?\nquickstart: fedlin, \d+ rounds \(target-reached\)/);
     } finally {
       rmSync(dir, { recursive: true, force: true });

@@ -11,7 +11,8 @@ describe('roundwire theory', () => {
     const r = await runCli(['theory', 'scenarios/quickstart.yaml', '--json']);
     expect(r.code).toBe(0);
     const report = JSON.parse(r.stdout);
-    for (const key of ['smoothness', 'strongConvexity', 'conditionNumber', 'heterogeneity']) expect(typeof report[key]).toBe('number');
+    for (const key of ['smoothness', 'strongConvexity', 'conditionNumber', 'heterogeneity'])
+      expect(typeof report[key]).toBe('number');
     expect(report.conditionNumber).toBeCloseTo(report.smoothness / report.strongConvexity, 10);
     expect(report.optimum.gradientNorm).toBeLessThanOrEqual(1e-10);
     expect(report.clients).toHaveLength(8);
@@ -28,7 +29,17 @@ describe('roundwire theory', () => {
   // data with 20 clients (the certificate threshold 1e-10 is the design's requirement).
   for (const kind of ['logistic', 'softmax']) {
     it(`certifies the ${kind} optimum to a gradient norm of at most 1e-10 with 20 clients`, async () => {
-      const r = await runCli(['theory', 'scenarios/quickstart.yaml', '--json', '--tweak', `problem.kind:${kind}`, '--tweak', 'clients.count:20', '--tweak', 'data.minimizerSpread:0.5']);
+      const r = await runCli([
+        'theory',
+        'scenarios/quickstart.yaml',
+        '--json',
+        '--tweak',
+        `problem.kind:${kind}`,
+        '--tweak',
+        'clients.count:20',
+        '--tweak',
+        'data.minimizerSpread:0.5',
+      ]);
       expect(r.stderr).toBe('');
       const report = JSON.parse(r.stdout);
       expect(report.clientCount).toBe(20);
@@ -54,7 +65,9 @@ describe('roundwire shards', () => {
       expect(w.code).toBe(0);
       const files = readdirSync(dir).sort();
       expect(files).toHaveLength(8);
-      const t = JSON.parse((await runCli(['theory', 'scenarios/quickstart.yaml', '--json'])).stdout);
+      const t = JSON.parse(
+        (await runCli(['theory', 'scenarios/quickstart.yaml', '--json'])).stdout,
+      );
       const p = t.dimension as number;
       const lambda = 0.01;
       let total = 0;
@@ -81,10 +94,22 @@ describe('roundwire shards', () => {
 
 describe('bad input exits with code 2 and one message naming the field', () => {
   const cases: [string, RegExp][] = [
-    ['wrong-type.yaml', /^roundwire: data\.features: expected a positive integer <= 100000, got "twenty"$/],
-    ['unknown-key.yaml', /^roundwire: method\.localStep: unknown key \(did you mean "localSteps"\?\)/],
-    ['negative-count.yaml', /^roundwire: method\.localSteps: expected a positive integer, a list of positive integers or \{uniform: \[min, max\]\}, got -3$/],
-    ['missing-field.yaml', /^roundwire: clients: missing; expected a mapping with keys count, weights$/],
+    [
+      'wrong-type.yaml',
+      /^roundwire: data\.features: expected a positive integer <= 100000, got "twenty"$/,
+    ],
+    [
+      'unknown-key.yaml',
+      /^roundwire: method\.localStep: unknown key \(did you mean "localSteps"\?\)/,
+    ],
+    [
+      'negative-count.yaml',
+      /^roundwire: method\.localSteps: expected a positive integer, a list of positive integers or \{uniform: \[min, max\]\}, got -3$/,
+    ],
+    [
+      'missing-field.yaml',
+      /^roundwire: clients: missing; expected a mapping with keys count, weights$/,
+    ],
     ['broken.yaml', /^roundwire: .*broken\.yaml: not valid YAML at line \d+, column \d+/],
   ];
   for (const [file, pattern] of cases) {
@@ -113,7 +138,9 @@ describe('bad input exits with code 2 and one message naming the field', () => {
   it('a malformed --tweak', async () => {
     const r = await runCli(['theory', 'scenarios/quickstart.yaml', '--tweak', 'seed']);
     expect(r.code).toBe(2);
-    expect(r.stderr).toBe('roundwire: --tweak "seed": no colon; expected field:value, e.g. method.localSteps:10\n');
+    expect(r.stderr).toBe(
+      'roundwire: --tweak "seed": no colon; expected field:value, e.g. method.localSteps:10\n',
+    );
   });
 });
 

@@ -9,7 +9,10 @@ import { runCli } from './run-cli.js';
 const URL_NOWHERE = 'ws://127.0.0.1:9';
 const KEY = 'a-key-for-the-worker-argument-test';
 
-async function refusal(args: string[], env: NodeJS.ProcessEnv = { ROUNDWIRE_KEY_FILE: '' }): Promise<string> {
+async function refusal(
+  args: string[],
+  env: NodeJS.ProcessEnv = { ROUNDWIRE_KEY_FILE: '' },
+): Promise<string> {
   const result = await runCli(['worker', ...args], 30_000, env);
   expect(result.code, result.stderr).toBe(2);
   const lines = result.stderr.trim().split('\n');
@@ -19,29 +22,49 @@ async function refusal(args: string[], env: NodeJS.ProcessEnv = { ROUNDWIRE_KEY_
 
 describe('roundwire worker', () => {
   it('needs a key file, from --key-file or ROUNDWIRE_KEY_FILE', async () => {
-    expect(await refusal([URL_NOWHERE])).toBe('roundwire: a key file is needed: --key-file PATH, or ROUNDWIRE_KEY_FILE naming the file');
+    expect(await refusal([URL_NOWHERE])).toBe(
+      'roundwire: a key file is needed: --key-file PATH, or ROUNDWIRE_KEY_FILE naming the file',
+    );
   });
 
   it('refuses a key file open to other users, and one too short', async () => {
     const dir = freshDir('worker-args');
     const open = writeKeyFile(dir, KEY, 'open.key', 0o640);
-    expect(await refusal([URL_NOWHERE, '--key-file', open])).toBe(`roundwire: --key-file: ${open} is open to other users (mode 640); make it private with chmod 600 ${open}`);
+    expect(await refusal([URL_NOWHERE, '--key-file', open])).toBe(
+      `roundwire: --key-file: ${open} is open to other users (mode 640); make it private with chmod 600 ${open}`,
+    );
     const short = writeKeyFile(dir, 'short', 'short.key');
-    expect(await refusal([URL_NOWHERE], { ROUNDWIRE_KEY_FILE: short })).toBe(`roundwire: ROUNDWIRE_KEY_FILE: ${short} holds a 5-byte key, at least 16 bytes expected; write a longer random one`);
+    expect(await refusal([URL_NOWHERE], { ROUNDWIRE_KEY_FILE: short })).toBe(
+      `roundwire: ROUNDWIRE_KEY_FILE: ${short} holds a 5-byte key, at least 16 bytes expected; write a longer random one`,
+    );
   });
 
   it('refuses a capacity that is not a whole number from 1 to 10000', async () => {
     const key = writeKeyFile(freshDir('worker-capacity'), KEY);
     const capacities = ['four', '0', '2.5', '10001'];
-    const lines = await Promise.all(capacities.map((capacity) => refusal([URL_NOWHERE, '--key-file', key, '--capacity', capacity])));
-    expect(lines).toEqual(capacities.map((capacity) => `roundwire: --capacity: expected an integer from 1 to 10000, got "${capacity}"`));
+    const lines = await Promise.all(
+      capacities.map((capacity) =>
+        refusal([URL_NOWHERE, '--key-file', key, '--capacity', capacity]),
+      ),
+    );
+    expect(lines).toEqual(
+      capacities.map(
+        (capacity) =>
+          `roundwire: --capacity: expected an integer from 1 to 10000, got "${capacity}"`,
+      ),
+    );
   }, 90_000);
 
   it('refuses a coordinator address that is not a ws:// or wss:// URL, and a missing one', async () => {
     const key = writeKeyFile(freshDir('worker-url'), KEY);
     const urls = ['127.0.0.1:7070', 'http://127.0.0.1:7070', 'ws://', 'ws://127.0.0.1:99999'];
     const lines = await Promise.all(urls.map((url) => refusal([url, '--key-file', key])));
-    expect(lines).toEqual(urls.map((url) => `roundwire: coordinator-url: expected ws://HOST:PORT or wss://HOST:PORT, got "${url}"`));
+    expect(lines).toEqual(
+      urls.map(
+        (url) =>
+          `roundwire: coordinator-url: expected ws://HOST:PORT or wss://HOST:PORT, got "${url}"`,
+      ),
+    );
     const missing = await runCli(['worker', '--key-file', key], 30_000);
     expect(missing.code).toBe(2);
     expect(missing.stderr).toMatch(/missing required argument 'coordinator-url'/);

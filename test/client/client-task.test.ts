@@ -14,7 +14,14 @@ import { loadScenarioFile } from '../../src/scenario/load-scenario.js';
 import { repoRoot } from '../integration/cli-process.js';
 
 function bits(fields: EncodedFields): string {
-  return JSON.stringify(Object.entries(fields).map(([name, cv]) => [name, cv.dim, cv.indices ? Array.from(cv.indices) : null, Array.from(new Uint8Array(cv.values.buffer, cv.values.byteOffset, cv.values.byteLength))]));
+  return JSON.stringify(
+    Object.entries(fields).map(([name, cv]) => [
+      name,
+      cv.dim,
+      cv.indices ? Array.from(cv.indices) : null,
+      Array.from(new Uint8Array(cv.values.buffer, cv.values.byteOffset, cv.values.byteLength)),
+    ]),
+  );
 }
 
 describe('clientTask snapshots', () => {
@@ -32,12 +39,31 @@ describe('clientTask snapshots', () => {
     for (let round = 1; round <= 4; round++) {
       const encodedDown = server.encodeDown(clientId, round, 'local', server.broadcast('local'));
       const expected = direct.work(round, 'local', encodedDown, 5, plan.methodConfig.stepSize);
-      const result = clientTask(structuredClone({ plan, planKey: plan.planHash, clientId, snapshot, round, exchange: 'local', encodedDown, localSteps: 5, stepSize: plan.methodConfig.stepSize }));
+      const result = clientTask(
+        structuredClone({
+          plan,
+          planKey: plan.planHash,
+          clientId,
+          snapshot,
+          round,
+          exchange: 'local',
+          encodedDown,
+          localSteps: 5,
+          stepSize: plan.methodConfig.stepSize,
+        }),
+      );
       if ('nonFinite' in result) throw new Error(result.nonFinite);
       snapshot = structuredClone(result.snapshot);
       expect(bits(result.encodedUp)).toBe(bits(expected.encodedUp));
       expect(result.stepsTaken).toBe(expected.stepsTaken);
-      server.aggregate('local', [{ clientId, stepsTaken: expected.stepsTaken, stepSize: plan.methodConfig.stepSize, encodedUp: expected.encodedUp }]);
+      server.aggregate('local', [
+        {
+          clientId,
+          stepsTaken: expected.stepsTaken,
+          stepSize: plan.methodConfig.stepSize,
+          encodedUp: expected.encodedUp,
+        },
+      ]);
     }
   });
 });

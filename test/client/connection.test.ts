@@ -7,13 +7,25 @@ import { createServer, type Socket } from 'node:net';
 import { WebSocketServer } from 'ws';
 import { describe, expect, it } from 'vitest';
 import { CLOSE_PROTOCOL_ERROR } from '../../src/protocol/index.js';
-import { backoffSeconds, connectWithRetry, JoinError, type RetryPolicy } from '../../client/connection.js';
+import {
+  backoffSeconds,
+  connectWithRetry,
+  JoinError,
+  type RetryPolicy,
+} from '../../client/connection.js';
 
-const policy: RetryPolicy = { attemptsMax: 3, firstDelaySeconds: 0.01, delayCapSeconds: 0.03, connectTimeoutSeconds: 2 };
+const policy: RetryPolicy = {
+  attemptsMax: 3,
+  firstDelaySeconds: 0.01,
+  delayCapSeconds: 0.03,
+  connectTimeoutSeconds: 2,
+};
 
 describe('backoff', () => {
   it('waits nothing first, then doubles up to the cap', () => {
-    expect([1, 2, 3, 4, 5].map((a) => backoffSeconds(policy, a))).toEqual([0, 0.01, 0.02, 0.03, 0.03]);
+    expect([1, 2, 3, 4, 5].map((a) => backoffSeconds(policy, a))).toEqual([
+      0, 0.01, 0.02, 0.03, 0.03,
+    ]);
   });
 
   it('gives up with E_WORKER_JOIN after the last attempt', async () => {
@@ -23,7 +35,13 @@ describe('backoff', () => {
     const port = (probe.address() as { port: number }).port;
     await new Promise<void>((r) => probe.close(() => r()));
     const lines: string[] = [];
-    const error = await connectWithRetry(`ws://127.0.0.1:${port}`, policy, 1024, () => undefined, (l) => lines.push(l)).catch((e: unknown) => e);
+    const error = await connectWithRetry(
+      `ws://127.0.0.1:${port}`,
+      policy,
+      1024,
+      () => undefined,
+      (l) => lines.push(l),
+    ).catch((e: unknown) => e);
     expect(error).toBeInstanceOf(JoinError);
     expect((error as JoinError).code).toBe('E_WORKER_JOIN');
     expect(lines).toHaveLength(3);
@@ -38,16 +56,27 @@ describe('a malformed frame from the coordinator', () => {
       wss.handleUpgrade(request, socket, head, (serverSide) => {
         serverSide.on('error', () => undefined);
         // RFC 6455 section 5.1: a server must not mask its frames; this one-byte binary frame is masked.
-        setTimeout(() => (socket as Socket).write(Buffer.from([0x82, 0x81, 1, 2, 3, 4, 0xc0 ^ 1])), 50);
+        setTimeout(
+          () => (socket as Socket).write(Buffer.from([0x82, 0x81, 1, 2, 3, 4, 0xc0 ^ 1])),
+          50,
+        );
       });
     });
     await new Promise<void>((r) => http.listen(0, '127.0.0.1', () => r()));
     const port = (http.address() as { port: number }).port;
     const lines: string[] = [];
     try {
-      const ws = await connectWithRetry(`ws://127.0.0.1:${port}`, policy, 1024, () => undefined, (l) => lines.push(l));
+      const ws = await connectWithRetry(
+        `ws://127.0.0.1:${port}`,
+        policy,
+        1024,
+        () => undefined,
+        (l) => lines.push(l),
+      );
       await new Promise<void>((resolve) => ws.once('close', () => resolve()));
-      expect(lines.some((l) => l.includes(`code ${CLOSE_PROTOCOL_ERROR}`) && l.includes('E_FRAME_MASK'))).toBe(true);
+      expect(
+        lines.some((l) => l.includes(`code ${CLOSE_PROTOCOL_ERROR}`) && l.includes('E_FRAME_MASK')),
+      ).toBe(true);
     } finally {
       for (const client of wss.clients) client.terminate();
       http.closeAllConnections();

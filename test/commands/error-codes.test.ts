@@ -30,13 +30,17 @@ describe('error codes', () => {
 
   it('are each declared in one place', () => {
     expect(declared.size).toBeGreaterThan(60);
-    const twice = [...declared].filter(([, files]) => files.length > 1).map(([code, files]) => `${code}: ${files.join(', ')}`);
+    const twice = [...declared]
+      .filter(([, files]) => files.length > 1)
+      .map(([code, files]) => `${code}: ${files.join(', ')}`);
     expect(twice).toEqual([]);
   });
 
   it('map to exit codes through the one table, which names only declared codes and no protocol code', () => {
     for (const code of BAD_INPUT_CODES) expect(declared.has(code), code).toBe(true);
-    const protocolCodes = [...readFileSync('src/protocol/errors.ts', 'utf8').matchAll(/'(E_[A-Z0-9_]+)'/g)].map((m) => m[1]);
+    const protocolCodes = [
+      ...readFileSync('src/protocol/errors.ts', 'utf8').matchAll(/'(E_[A-Z0-9_]+)'/g),
+    ].map((m) => m[1]);
     expect(protocolCodes.length).toBeGreaterThan(5);
     for (const code of protocolCodes) expect(BAD_INPUT_CODES.has(code), code).toBe(false);
     expect(exitCodeOf({ code: 'E_SCENARIO_FIELD' })).toBe(exitCodes.badInput);

@@ -25,7 +25,6 @@ function testVector(rng: Rng, d: number, flavour: number): Float64Array {
   return v;
 }
 
-
 describe('keptCount', () => {
   // The rule is the scenario schema's own: k = count, or ceil(fraction d), clamped to [1, d].
   it('takes the count, or the ceiling of fraction * d, clamped to [1, d]', () => {
@@ -44,7 +43,12 @@ describe('keptCount', () => {
   });
 
   it('rejects a top-k without fraction or count (a spec built by hand, past the schema)', () => {
-    const bare = { kind: 'top-k', errorFeedback: true, unbiased: false, values: 'f64' } as CompressorSpec;
+    const bare = {
+      kind: 'top-k',
+      errorFeedback: true,
+      unbiased: false,
+      values: 'f64',
+    } as CompressorSpec;
     expect(compressErrorCode(() => keptCount(10, bare))).toBe('E_COMPRESS_SPEC');
   });
 });
@@ -115,7 +119,11 @@ describe('rand-k', () => {
   it('keeps k distinct sorted entries of the seeded subset, scaled by d/k when unbiased', () => {
     const v = Float64Array.from({ length: 40 }, (_, j) => j + 1);
     const biased = compress(v, spec({ kind: 'rand-k', count: 5 }), Rng.derive(1, 'rand-k', 0));
-    const unbiased = compress(v, spec({ kind: 'rand-k', count: 5, unbiased: true }), Rng.derive(1, 'rand-k', 0));
+    const unbiased = compress(
+      v,
+      spec({ kind: 'rand-k', count: 5, unbiased: true }),
+      Rng.derive(1, 'rand-k', 0),
+    );
     // The same stream draws the same subset: what makes runs repeat.
     expect(unbiased.indices).toEqual(biased.indices);
     const indices = biased.indices!;
@@ -151,24 +159,34 @@ describe('rand-k', () => {
       const standardError = Math.abs(v[j]) * Math.sqrt((d / k - 1) / draws);
       expect(Math.abs(sum[j] / draws - v[j])).toBeLessThanOrEqual(5 * standardError);
       // Without scaling the mean is (k/d) v: the bias the unbiased option removes.
-      expect(Math.abs(sumBiased[j] / draws - (k / d) * v[j])).toBeLessThanOrEqual((5 * k * standardError) / d);
+      expect(Math.abs(sumBiased[j] / draws - (k / d) * v[j])).toBeLessThanOrEqual(
+        (5 * k * standardError) / d,
+      );
     }
   });
 
   it('needs a seeded Rng', () => {
-    expect(compressErrorCode(() => compress(new Float64Array(4), spec({ kind: 'rand-k', count: 1 })))).toBe('E_COMPRESS_RNG_REQUIRED');
+    expect(
+      compressErrorCode(() => compress(new Float64Array(4), spec({ kind: 'rand-k', count: 1 }))),
+    ).toBe('E_COMPRESS_RNG_REQUIRED');
   });
 });
 
 describe('input checks', () => {
   it('rejects non-finite inputs, values beyond f32, and an empty vector', () => {
     const s = spec({ kind: 'top-k', count: 1 });
-    expect(compressErrorCode(() => compress(Float64Array.from([1, NaN]), s))).toBe('E_COMPRESS_NOT_FINITE');
-    expect(compressErrorCode(() => compress(Float64Array.from([Infinity]), spec({ kind: 'none' })))).toBe('E_COMPRESS_NOT_FINITE');
-    // 1e39 is finite in binary64 but beyond the largest binary32, about 3.4e38 (IEEE 754).
-    expect(compressErrorCode(() => compress(Float64Array.from([1e39, 0]), spec({ kind: 'top-k', count: 1, values: 'f32' })))).toBe(
+    expect(compressErrorCode(() => compress(Float64Array.from([1, NaN]), s))).toBe(
       'E_COMPRESS_NOT_FINITE',
     );
+    expect(
+      compressErrorCode(() => compress(Float64Array.from([Infinity]), spec({ kind: 'none' }))),
+    ).toBe('E_COMPRESS_NOT_FINITE');
+    // 1e39 is finite in binary64 but beyond the largest binary32, about 3.4e38 (IEEE 754).
+    expect(
+      compressErrorCode(() =>
+        compress(Float64Array.from([1e39, 0]), spec({ kind: 'top-k', count: 1, values: 'f32' })),
+      ),
+    ).toBe('E_COMPRESS_NOT_FINITE');
     expect(compressErrorCode(() => compress(new Float64Array(0), s))).toBe('E_COMPRESS_DIMENSION');
   });
 });

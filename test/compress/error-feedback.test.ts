@@ -78,7 +78,10 @@ describe('ErrorFeedbackEncoder', () => {
   });
 
   it('checks the dimension and leaves the memory untouched when compression fails', () => {
-    const encoder = new ErrorFeedbackEncoder(3, compressorSchema.parse({ kind: 'top-k', count: 1 }));
+    const encoder = new ErrorFeedbackEncoder(
+      3,
+      compressorSchema.parse({ kind: 'top-k', count: 1 }),
+    );
     encoder.encode(Float64Array.from([1, 2, 3]));
     const before = encoder.memory();
     expect(() => encoder.encode(Float64Array.from([1, NaN, 3]))).toThrow(CompressError);

@@ -10,7 +10,6 @@ import { codeOf } from '../support/error-code.js';
 
 const compressErrorCode = (action: () => unknown): string => codeOf(action, CompressError);
 
-
 function roundTrip(indices: Uint32Array): Uint8Array {
   const bytes = encodeIndicesDeltaVarint(indices);
   expect(bytes.length).toBe(deltaVarintByteLength(indices));
@@ -50,7 +49,9 @@ describe('delta varint index coding', () => {
     roundTrip(Uint32Array.of(0, d - 1));
     roundTrip(Uint32Array.from({ length: d }, (_, j) => j));
     roundTrip(Uint32Array.of(0, 2 ** 31, 0xfffffffe, 0xffffffff));
-    roundTrip(Uint32Array.of(127, 128, 16_383, 16_384, 2_097_151, 2_097_152, 268_435_455, 268_435_456));
+    roundTrip(
+      Uint32Array.of(127, 128, 16_383, 16_384, 2_097_151, 2_097_152, 268_435_455, 268_435_456),
+    );
   });
 
   it('round-trips random index sets of every density', () => {
@@ -63,22 +64,48 @@ describe('delta varint index coding', () => {
   });
 
   it('refuses indices that are not strictly increasing', () => {
-    expect(compressErrorCode(() => encodeIndicesDeltaVarint(Uint32Array.of(3, 1)))).toBe('E_COMPRESS_INDEX_ORDER');
-    expect(compressErrorCode(() => encodeIndicesDeltaVarint(Uint32Array.of(4, 4)))).toBe('E_COMPRESS_INDEX_ORDER');
-    expect(compressErrorCode(() => deltaVarintByteLength(Uint32Array.of(9, 2)))).toBe('E_COMPRESS_INDEX_ORDER');
+    expect(compressErrorCode(() => encodeIndicesDeltaVarint(Uint32Array.of(3, 1)))).toBe(
+      'E_COMPRESS_INDEX_ORDER',
+    );
+    expect(compressErrorCode(() => encodeIndicesDeltaVarint(Uint32Array.of(4, 4)))).toBe(
+      'E_COMPRESS_INDEX_ORDER',
+    );
+    expect(compressErrorCode(() => deltaVarintByteLength(Uint32Array.of(9, 2)))).toBe(
+      'E_COMPRESS_INDEX_ORDER',
+    );
   });
 
   it('rejects malformed bytes with a stable code', () => {
-    expect(compressErrorCode(() => decodeIndicesDeltaVarint(Uint8Array.of(0x80), 1))).toBe('E_COMPRESS_VARINT');
-    expect(compressErrorCode(() => decodeIndicesDeltaVarint(Uint8Array.of(0x01, 0x02), 1))).toBe('E_COMPRESS_VARINT');
-    expect(compressErrorCode(() => decodeIndicesDeltaVarint(Uint8Array.of(0x81, 0x00), 1))).toBe('E_COMPRESS_VARINT');
-    expect(compressErrorCode(() => decodeIndicesDeltaVarint(Uint8Array.of(0xff, 0xff, 0xff, 0xff, 0x10), 1))).toBe('E_COMPRESS_VARINT');
-    expect(compressErrorCode(() => decodeIndicesDeltaVarint(Uint8Array.of(0x80, 0x80, 0x80, 0x80, 0x80, 0x01), 1))).toBe('E_COMPRESS_VARINT');
-    expect(compressErrorCode(() => decodeIndicesDeltaVarint(Uint8Array.of(0x01), 2))).toBe('E_COMPRESS_VARINT');
-    expect(compressErrorCode(() => decodeIndicesDeltaVarint(Uint8Array.of(0x01), -1))).toBe('E_COMPRESS_VARINT');
-    // 0xffffffff then a gap of 0: the next index would be 2^32.
-    expect(compressErrorCode(() => decodeIndicesDeltaVarint(Uint8Array.of(0xff, 0xff, 0xff, 0xff, 0x0f, 0x00), 2))).toBe(
-      'E_COMPRESS_INDEX_RANGE',
+    expect(compressErrorCode(() => decodeIndicesDeltaVarint(Uint8Array.of(0x80), 1))).toBe(
+      'E_COMPRESS_VARINT',
     );
+    expect(compressErrorCode(() => decodeIndicesDeltaVarint(Uint8Array.of(0x01, 0x02), 1))).toBe(
+      'E_COMPRESS_VARINT',
+    );
+    expect(compressErrorCode(() => decodeIndicesDeltaVarint(Uint8Array.of(0x81, 0x00), 1))).toBe(
+      'E_COMPRESS_VARINT',
+    );
+    expect(
+      compressErrorCode(() =>
+        decodeIndicesDeltaVarint(Uint8Array.of(0xff, 0xff, 0xff, 0xff, 0x10), 1),
+      ),
+    ).toBe('E_COMPRESS_VARINT');
+    expect(
+      compressErrorCode(() =>
+        decodeIndicesDeltaVarint(Uint8Array.of(0x80, 0x80, 0x80, 0x80, 0x80, 0x01), 1),
+      ),
+    ).toBe('E_COMPRESS_VARINT');
+    expect(compressErrorCode(() => decodeIndicesDeltaVarint(Uint8Array.of(0x01), 2))).toBe(
+      'E_COMPRESS_VARINT',
+    );
+    expect(compressErrorCode(() => decodeIndicesDeltaVarint(Uint8Array.of(0x01), -1))).toBe(
+      'E_COMPRESS_VARINT',
+    );
+    // 0xffffffff then a gap of 0: the next index would be 2^32.
+    expect(
+      compressErrorCode(() =>
+        decodeIndicesDeltaVarint(Uint8Array.of(0xff, 0xff, 0xff, 0xff, 0x0f, 0x00), 2),
+      ),
+    ).toBe('E_COMPRESS_INDEX_RANGE');
   });
 });

@@ -1,7 +1,11 @@
 import { describe, expect, it } from 'vitest';
 import { Rng } from '../../src/base/rng.js';
 import { encodeIndicesDeltaVarint } from '../../src/compress/index-coding.js';
-import { informationBoundBits, payloadBytes, valueBytes } from '../../src/compress/payload-bytes.js';
+import {
+  informationBoundBits,
+  payloadBytes,
+  valueBytes,
+} from '../../src/compress/payload-bytes.js';
 
 /** C(d, k) exactly, by the multiplicative formula in BigInt. */
 function binomial(d: number, k: number): bigint {
@@ -17,7 +21,9 @@ describe('informationBoundBits', () => {
     for (let d = 0; d <= 60; d++) {
       for (let k = 0; k <= d; k++) {
         const exact = Math.log2(Number(binomial(d, k)));
-        expect(Math.abs(informationBoundBits(d, k) - exact)).toBeLessThanOrEqual(1e-12 * Math.max(1, exact));
+        expect(Math.abs(informationBoundBits(d, k) - exact)).toBeLessThanOrEqual(
+          1e-12 * Math.max(1, exact),
+        );
       }
     }
   });
@@ -65,7 +71,9 @@ describe('payloadBytes', () => {
       const bytes = encodeIndicesDeltaVarint(rng.sampleWithoutReplacement(d, k)).length;
       const boundBytes = informationBoundBits(d, k) / 8;
       const ratio = bytes / boundBytes;
-      rows.push(`d=${d} k=${k}: ${bytes} index bytes, bound ${boundBytes.toFixed(1)} bytes, ratio ${ratio.toFixed(3)}`);
+      rows.push(
+        `d=${d} k=${k}: ${bytes} index bytes, bound ${boundBytes.toFixed(1)} bytes, ratio ${ratio.toFixed(3)}`,
+      );
       expect(ratio).toBeGreaterThanOrEqual(1);
       expect(ratio).toBeLessThan(2);
     }

@@ -65,7 +65,9 @@ describe('downlink without a replica', () => {
     const client = new ReplicaDecoder(channel);
     const v = Float64Array.of(5, -1, 4, 0.5);
     for (let round = 0; round < 3; round++) {
-      expect(client.decode(server.encode({ model: v })).model).toEqual(decompress(compress(v, channel.default)));
+      expect(client.decode(server.encode({ model: v })).model).toEqual(
+        decompress(compress(v, channel.default)),
+      );
     }
     expect(server.replica('model')).toBeNull();
   });
@@ -79,7 +81,8 @@ describe('downlink without a replica', () => {
     const v = Float64Array.of(Math.PI, -Math.E, 1 / 3);
     let held: Float64Array = new Float64Array(3);
     for (let round = 0; round < 3; round++) held = client.decode(server.encode({ model: v })).model;
-    for (let j = 0; j < 3; j++) expect(Math.abs(held[j] - v[j])).toBeLessThanOrEqual(4 * Number.EPSILON * Math.abs(v[j]));
+    for (let j = 0; j < 3; j++)
+      expect(Math.abs(held[j] - v[j])).toBeLessThanOrEqual(4 * Number.EPSILON * Math.abs(v[j]));
   });
 
   it('rejects a message whose dimension differs from the replica', () => {

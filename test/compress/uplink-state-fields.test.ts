@@ -8,7 +8,10 @@ import { Rng } from '../../src/base/rng.js';
 import { UplinkDecoder, UplinkEncoder } from '../../src/compress/uplink.js';
 import type { ChannelSpec } from '../../src/compress/channel.js';
 
-const channel: ChannelSpec = { default: { kind: 'top-k', fraction: 0.1, errorFeedback: true, unbiased: false, values: 'f64' }, fields: {} };
+const channel: ChannelSpec = {
+  default: { kind: 'top-k', fraction: 0.1, errorFeedback: true, unbiased: false, values: 'f64' },
+  fields: {},
+};
 
 describe('uplink state fields', () => {
   const rng = Rng.derive(5, 'test', 'uplink-state');
@@ -23,11 +26,14 @@ describe('uplink state fields', () => {
       const message = encoder.encode({ gradient: v });
       expect(message.gradient.indices).toHaveLength(5);
       received = decoder.decode(message).gradient;
-      expect(Buffer.from(received.buffer).equals(Buffer.from(encoder.snapshot().gradient.buffer))).toBe(true);
+      expect(
+        Buffer.from(received.buffer).equals(Buffer.from(encoder.snapshot().gradient.buffer)),
+      ).toBe(true);
       gaps.push(Math.hypot(...v.map((x, j) => x - received[j])));
     }
     expect(gaps[gaps.length - 1]).toBe(0);
-    for (let k = 1; k < 60; k++) expect(gaps[k] ** 2).toBeLessThanOrEqual((1 - 0.1) * gaps[k - 1] ** 2 + 1e-24);
+    for (let k = 1; k < 60; k++)
+      expect(gaps[k] ** 2).toBeLessThanOrEqual((1 - 0.1) * gaps[k - 1] ** 2 + 1e-24);
   });
 
   it('as an increment field the same value arrives as a sparse message every round', () => {

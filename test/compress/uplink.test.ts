@@ -8,7 +8,10 @@ import { channelSchema } from '../../src/scenario/schema.js';
 
 const channel = channelSchema.parse({
   default: { kind: 'none' },
-  fields: { gradient: { kind: 'top-k', count: 2 }, control: { kind: 'rand-k', count: 3, errorFeedback: false } },
+  fields: {
+    gradient: { kind: 'top-k', count: 2 },
+    control: { kind: 'rand-k', count: 3, errorFeedback: false },
+  },
 });
 
 function randomVector(rng: Rng, d: number): Float64Array {
@@ -40,7 +43,8 @@ describe('UplinkEncoder', () => {
   });
 
   it('draws rand-k fields from the caller-derived Rng, so runs repeat', () => {
-    const rngFor = (round: number) => (field: string) => Rng.derive(21, 'compress', round, 0, field);
+    const rngFor = (round: number) => (field: string) =>
+      Rng.derive(21, 'compress', round, 0, field);
     const control = randomVector(Rng.derive(21, 'control'), 30);
     const a = new UplinkEncoder(channel).encode({ control }, rngFor(1));
     const b = new UplinkEncoder(channel).encode({ control }, rngFor(1));
@@ -59,8 +63,8 @@ describe('UplinkEncoder', () => {
 
 describe('decodeFields', () => {
   it('validates what it decodes', () => {
-    expect(() => decodeFields({ x: { dim: 3, indices: Uint32Array.of(5), values: Float64Array.of(1) } })).toThrow(
-      CompressError,
-    );
+    expect(() =>
+      decodeFields({ x: { dim: 3, indices: Uint32Array.of(5), values: Float64Array.of(1) } }),
+    ).toThrow(CompressError);
   });
 });

@@ -1,5 +1,10 @@
 import { describe, expect, it } from 'vitest';
-import { buildAllShards, buildShard, POOL_CACHE_ENTRIES_MAX, sampleCountsOf } from '../../src/data/build-shard.js';
+import {
+  buildAllShards,
+  buildShard,
+  POOL_CACHE_ENTRIES_MAX,
+  sampleCountsOf,
+} from '../../src/data/build-shard.js';
 import type { Shard } from '../../src/problem/shard.js';
 import type { Scenario } from '../../src/scenario/schema.js';
 import { scenarioWith } from './scenario-fixture.js';
@@ -9,34 +14,67 @@ function bytesOf(shard: Shard): string {
     clientId: shard.clientId,
     sampleCount: shard.sampleCount,
     featureCount: shard.featureCount,
-    features: Buffer.from(shard.features.buffer, shard.features.byteOffset, shard.features.byteLength).toString('base64'),
-    targets: Buffer.from(shard.targets.buffer, shard.targets.byteOffset, shard.targets.byteLength).toString('base64'),
+    features: Buffer.from(
+      shard.features.buffer,
+      shard.features.byteOffset,
+      shard.features.byteLength,
+    ).toString('base64'),
+    targets: Buffer.from(
+      shard.targets.buffer,
+      shard.targets.byteOffset,
+      shard.targets.byteLength,
+    ).toString('base64'),
   });
 }
 
 /** Fills the pool cache with other plans so the next build of `scenario` starts from nothing. */
 function evictPools(scenario: Scenario): void {
-  for (let k = 1; k <= POOL_CACHE_ENTRIES_MAX; k++) sampleCountsOf({ ...scenario, seed: scenario.seed + 1000 + k });
+  for (let k = 1; k <= POOL_CACHE_ENTRIES_MAX; k++)
+    sampleCountsOf({ ...scenario, seed: scenario.seed + 1000 + k });
 }
 
 const scenarios: Record<string, Scenario> = {
   'synthetic least squares, iid, quantity skew': scenarioWith(
     { kind: 'least-squares' },
-    { source: 'synthetic', features: 5, samplesPerClient: { uniform: [10, 40] }, minimizerSpread: 0.5, covariateShift: 0.3 },
+    {
+      source: 'synthetic',
+      features: 5,
+      samplesPerClient: { uniform: [10, 40] },
+      minimizerSpread: 0.5,
+      covariateShift: 0.3,
+    },
     4,
   ),
   'synthetic softmax, dirichlet': scenarioWith(
     { kind: 'softmax', classes: 4 },
-    { source: 'synthetic', features: 3, samplesPerClient: 50, partition: { kind: 'dirichlet', alpha: 0.5 } },
+    {
+      source: 'synthetic',
+      features: 3,
+      samplesPerClient: 50,
+      partition: { kind: 'dirichlet', alpha: 0.5 },
+    },
     5,
   ),
   'synthetic logistic, shards': scenarioWith(
     { kind: 'logistic' },
-    { source: 'synthetic', features: 3, samplesPerClient: 40, partition: { kind: 'shards', classesPerClient: 1 } },
+    {
+      source: 'synthetic',
+      features: 3,
+      samplesPerClient: 40,
+      partition: { kind: 'shards', classesPerClient: 1 },
+    },
     4,
   ),
-  'iris, iid': scenarioWith({ kind: 'softmax', classes: 3 }, { source: 'dataset', name: 'iris' }, 4),
-  'iris, dirichlet': scenarioWith({ kind: 'softmax', classes: 3 }, { source: 'dataset', name: 'iris', partition: { kind: 'dirichlet', alpha: 1 } }, 3),
+  'iris, iid': scenarioWith(
+    { kind: 'softmax', classes: 3 },
+    { source: 'dataset', name: 'iris' },
+    4,
+  ),
+  'iris, dirichlet': scenarioWith(
+    { kind: 'softmax', classes: 3 },
+    { source: 'dataset', name: 'iris', partition: { kind: 'dirichlet', alpha: 1 } },
+    3,
+  ),
 };
 
 describe('buildShard', () => {
@@ -60,7 +98,9 @@ describe('buildShard', () => {
         expect(shard.sampleCount).toBeGreaterThan(0);
         expect(shard.features.length).toBe(shard.sampleCount * shard.featureCount);
         expect(shard.targets.length).toBe(shard.sampleCount);
-        expect(shard.features.every(Number.isFinite) && shard.targets.every(Number.isFinite)).toBe(true);
+        expect(shard.features.every(Number.isFinite) && shard.targets.every(Number.isFinite)).toBe(
+          true,
+        );
       }
     });
   }
@@ -72,7 +112,9 @@ describe('buildShard', () => {
     for (const shard of shards) for (const label of shard.targets) counts[label]++;
     expect(counts).toEqual([50, 50, 50]);
     const rows = new Set<string>();
-    for (const shard of shards) for (let s = 0; s < shard.sampleCount; s++) rows.add(`${shard.features.subarray(s * 4, s * 4 + 4).join(',')}|${shard.targets[s]}`);
+    for (const shard of shards)
+      for (let s = 0; s < shard.sampleCount; s++)
+        rows.add(`${shard.features.subarray(s * 4, s * 4 + 4).join(',')}|${shard.targets[s]}`);
     // Iris holds one duplicated measurement row within a class (samples 102 and 143 of the UCI
     // file; value recalled from memory), so the distinct rows number 149.
     expect(rows.size).toBe(149);
@@ -85,32 +127,57 @@ describe('buildShard', () => {
 
   it('changes with the seed', () => {
     for (const scenario of Object.values(scenarios)) {
-      expect(bytesOf(buildShard({ ...scenario, seed: scenario.seed + 1 }, 0))).not.toBe(bytesOf(buildShard(scenario, 0)));
+      expect(bytesOf(buildShard({ ...scenario, seed: scenario.seed + 1 }, 0))).not.toBe(
+        bytesOf(buildShard(scenario, 0)),
+      );
     }
   });
 
   it('refuses a label partition of least-squares data, naming data.partition', () => {
-    const scenario = scenarioWith({ kind: 'least-squares' }, { source: 'synthetic', partition: { kind: 'dirichlet', alpha: 1 } }, 2);
-    expect(() => buildShard(scenario, 0)).toThrow(expect.objectContaining({ code: 'E_DATA_SPEC', fieldPath: 'data.partition' }));
+    const scenario = scenarioWith(
+      { kind: 'least-squares' },
+      { source: 'synthetic', partition: { kind: 'dirichlet', alpha: 1 } },
+      2,
+    );
+    expect(() => buildShard(scenario, 0)).toThrow(
+      expect.objectContaining({ code: 'E_DATA_SPEC', fieldPath: 'data.partition' }),
+    );
   });
 
   it('refuses a natural partition of iris, naming data.partition.key', () => {
-    const scenario = scenarioWith({ kind: 'softmax', classes: 3 }, { source: 'dataset', name: 'iris', partition: { kind: 'natural', key: 'site' } }, 2);
-    expect(() => buildShard(scenario, 0)).toThrow(expect.objectContaining({ code: 'E_DATA_SPEC', fieldPath: 'data.partition.key' }));
+    const scenario = scenarioWith(
+      { kind: 'softmax', classes: 3 },
+      { source: 'dataset', name: 'iris', partition: { kind: 'natural', key: 'site' } },
+      2,
+    );
+    expect(() => buildShard(scenario, 0)).toThrow(
+      expect.objectContaining({ code: 'E_DATA_SPEC', fieldPath: 'data.partition.key' }),
+    );
   });
 
   it('refuses iris for a problem that is not 3-class softmax', () => {
-    expect(() => buildShard(scenarioWith({ kind: 'logistic' }, { source: 'dataset', name: 'iris' }, 2), 0)).toThrow(
-      expect.objectContaining({ fieldPath: 'problem.kind' }),
-    );
-    expect(() => buildShard(scenarioWith({ kind: 'softmax', classes: 5 }, { source: 'dataset', name: 'iris' }, 2), 0)).toThrow(
-      expect.objectContaining({ fieldPath: 'problem.classes' }),
-    );
+    expect(() =>
+      buildShard(scenarioWith({ kind: 'logistic' }, { source: 'dataset', name: 'iris' }, 2), 0),
+    ).toThrow(expect.objectContaining({ fieldPath: 'problem.kind' }));
+    expect(() =>
+      buildShard(
+        scenarioWith({ kind: 'softmax', classes: 5 }, { source: 'dataset', name: 'iris' }, 2),
+        0,
+      ),
+    ).toThrow(expect.objectContaining({ fieldPath: 'problem.classes' }));
   });
 
   it('refuses a samplesPerClient list of the wrong length and a client id outside the clients', () => {
-    const scenario = scenarioWith({ kind: 'least-squares' }, { source: 'synthetic', samplesPerClient: [10, 20] }, 3);
-    expect(() => buildShard(scenario, 0)).toThrow(expect.objectContaining({ fieldPath: 'data.samplesPerClient' }));
-    expect(() => buildShard(scenarios['iris, iid'], 4)).toThrow(expect.objectContaining({ code: 'E_DATA_SPEC' }));
+    const scenario = scenarioWith(
+      { kind: 'least-squares' },
+      { source: 'synthetic', samplesPerClient: [10, 20] },
+      3,
+    );
+    expect(() => buildShard(scenario, 0)).toThrow(
+      expect.objectContaining({ fieldPath: 'data.samplesPerClient' }),
+    );
+    expect(() => buildShard(scenarios['iris, iid'], 4)).toThrow(
+      expect.objectContaining({ code: 'E_DATA_SPEC' }),
+    );
   });
 });

@@ -6,7 +6,11 @@ describe('featureVariances', () => {
   it('spans exactly [1/conditionNumber, 1], so cond(Sigma) is the knob', () => {
     // cond(Sigma) = lambda_max / lambda_min for a symmetric positive definite matrix
     // (definition; Golub and Van Loan, Matrix Computations, 4th ed., section 2.6).
-    for (const [p, kappa] of [[2, 10], [7, 1000], [20, 3.5]] as const) {
+    for (const [p, kappa] of [
+      [2, 10],
+      [7, 1000],
+      [20, 3.5],
+    ] as const) {
       const lambda = featureVariances(p, kappa);
       expect(Math.max(...lambda)).toBe(1);
       expect(Math.max(...lambda) / Math.min(...lambda)).toBeCloseTo(kappa, 10);

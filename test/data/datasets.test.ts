@@ -35,7 +35,9 @@ describe('iris', () => {
       expect(squares / 150).toBeCloseTo(1, 12);
     }
     // Standardizing is affine per column, so the order of the samples within a column stays.
-    expect(Math.sign(iris.features[4] - iris.features[0])).toBe(Math.sign(raw.features[4] - raw.features[0]));
+    expect(Math.sign(iris.features[4] - iris.features[0])).toBe(
+      Math.sign(raw.features[4] - raw.features[0]),
+    );
   });
 
   it('returns a fresh copy each time', () => {

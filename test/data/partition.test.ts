@@ -43,7 +43,10 @@ const specs: PartitionSpec[] = [
 ];
 
 describe('every partitioner', () => {
-  const pool: LabelledPool = { ...balancedPool(5, 120), keys: Int32Array.from({ length: 600 }, (_, i) => Math.floor(i / 13)) };
+  const pool: LabelledPool = {
+    ...balancedPool(5, 120),
+    keys: Int32Array.from({ length: 600 }, (_, i) => Math.floor(i / 13)),
+  };
 
   for (const spec of specs) {
     it(`${JSON.stringify(spec)}: covers the pool exactly and repeats from the seed`, () => {
@@ -78,7 +81,11 @@ describe('iid', () => {
 
 describe('dirichlet', () => {
   /** Mean over clients of the largest class share within the client: 1/classes when balanced. */
-  function meanLargestShare(parts: Uint32Array[], labels: ArrayLike<number>, classes: number): number {
+  function meanLargestShare(
+    parts: Uint32Array[],
+    labels: ArrayLike<number>,
+    classes: number,
+  ): number {
     let total = 0;
     for (const part of parts) {
       const counts = new Float64Array(classes);
@@ -94,9 +101,21 @@ describe('dirichlet', () => {
     // with alpha_0; Kotz, Balakrishnan and Johnson, Continuous Multivariate Distributions, 2000).
     const classes = 10;
     const pool = balancedPool(classes, 200);
-    const skewed = meanLargestShare(partitionDirichlet(pool, 10, 0.1, Rng.fromSeed(5)), pool.labels, classes);
-    const mild = meanLargestShare(partitionDirichlet(pool, 10, 1, Rng.fromSeed(5)), pool.labels, classes);
-    const flat = meanLargestShare(partitionDirichlet(pool, 10, 1000, Rng.fromSeed(5)), pool.labels, classes);
+    const skewed = meanLargestShare(
+      partitionDirichlet(pool, 10, 0.1, Rng.fromSeed(5)),
+      pool.labels,
+      classes,
+    );
+    const mild = meanLargestShare(
+      partitionDirichlet(pool, 10, 1, Rng.fromSeed(5)),
+      pool.labels,
+      classes,
+    );
+    const flat = meanLargestShare(
+      partitionDirichlet(pool, 10, 1000, Rng.fromSeed(5)),
+      pool.labels,
+      classes,
+    );
     expect(skewed).toBeGreaterThan(mild);
     expect(mild).toBeGreaterThan(flat);
     expect(skewed).toBeGreaterThan(0.5);
@@ -115,7 +134,10 @@ describe('dirichlet', () => {
     const pool = balancedPool(2_000, 100);
     const parts = partitionDirichlet(pool, m, alpha, Rng.fromSeed(6));
     const variance = ((1 / m) * (1 - 1 / m)) / (m * alpha + 1);
-    for (const part of parts) expect(Math.abs(part.length / pool.labels.length - 1 / m)).toBeLessThan(5 * Math.sqrt(variance / 2_000));
+    for (const part of parts)
+      expect(Math.abs(part.length / pool.labels.length - 1 / m)).toBeLessThan(
+        5 * Math.sqrt(variance / 2_000),
+      );
   });
 
   it('redraws splits that leave a client empty, and gives up with a named error when it must', () => {
@@ -138,7 +160,8 @@ describe('shards', () => {
     const pool = balancedPool(10, 60);
     const parts = partitionShards(pool, 20, 2, Rng.fromSeed(8));
     expectExactCover(parts, 600);
-    for (const classes of classesOf(parts, pool.labels)) expect(classes.size).toBeLessThanOrEqual(2);
+    for (const classes of classesOf(parts, pool.labels))
+      expect(classes.size).toBeLessThanOrEqual(2);
     expect(parts.every((p) => p.length === 30)).toBe(true);
   });
 
@@ -166,17 +189,19 @@ describe('natural', () => {
     const keys = [3, 1, 2, 3, 1, 5, 4];
     const reordered = [1, 3, 2, 1, 3, 5, 4];
     const groups = (k: number[]) =>
-      partitionNatural({ labels: new Int32Array(k.length), keys: k }, 3, 'k', Rng.fromSeed(10)).map((p) =>
-        [...new Set(Array.from(p, (i) => k[i]))].sort(),
+      partitionNatural({ labels: new Int32Array(k.length), keys: k }, 3, 'k', Rng.fromSeed(10)).map(
+        (p) => [...new Set(Array.from(p, (i) => k[i]))].sort(),
       );
     expect(groups(reordered)).toEqual(groups(keys));
   });
 
   it('refuses fewer groups than clients, and data without keys, naming data.partition.key', () => {
     const pool: LabelledPool = { labels: new Int32Array(4), keys: ['x', 'x', 'y', 'y'] };
-    expect(() => partitionNatural(pool, 3, 'writer', Rng.fromSeed(11))).toThrow(expect.objectContaining({ fieldPath: 'data.partition.key' }));
-    expect(() => partitionNatural({ labels: new Int32Array(4) }, 2, 'writer', Rng.fromSeed(11))).toThrow(
+    expect(() => partitionNatural(pool, 3, 'writer', Rng.fromSeed(11))).toThrow(
       expect.objectContaining({ fieldPath: 'data.partition.key' }),
     );
+    expect(() =>
+      partitionNatural({ labels: new Int32Array(4) }, 2, 'writer', Rng.fromSeed(11)),
+    ).toThrow(expect.objectContaining({ fieldPath: 'data.partition.key' }));
   });
 });

@@ -3,7 +3,12 @@ import { describe, expect, it } from 'vitest';
 import { buildAllShards, buildShard, sampleCountsOf } from '../../src/data/build-shard.js';
 import { featureVariances } from '../../src/data/covariance.js';
 import type { Shard } from '../../src/problem/shard.js';
-import { CENTRE_NORM, clientFeatureMean, clientMinimizer, syntheticCentre } from '../../src/data/synthetic-models.js';
+import {
+  CENTRE_NORM,
+  clientFeatureMean,
+  clientMinimizer,
+  syntheticCentre,
+} from '../../src/data/synthetic-models.js';
 import { dot, norm2 } from '../../src/vec/kernels.js';
 import { scenarioWith } from './scenario-fixture.js';
 
@@ -14,7 +19,9 @@ function row(shard: Shard, s: number): Float64Array {
 /** argmin_x ||A x - b||^2 from ml-matrix (a reference library), via the normal equations. */
 function leastSquaresSolution(shard: Shard): Float64Array {
   const a = new Matrix(shard.sampleCount, shard.featureCount);
-  for (let s = 0; s < shard.sampleCount; s++) for (let j = 0; j < shard.featureCount; j++) a.set(s, j, shard.features[s * shard.featureCount + j]);
+  for (let s = 0; s < shard.sampleCount; s++)
+    for (let j = 0; j < shard.featureCount; j++)
+      a.set(s, j, shard.features[s * shard.featureCount + j]);
   const b = Matrix.columnVector(Array.from(shard.targets));
   const at = a.transpose();
   return Float64Array.from(solve(at.mmul(a), at.mmul(b)).getColumn(0));
@@ -22,7 +29,9 @@ function leastSquaresSolution(shard: Shard): Float64Array {
 
 function columnMeans(shard: Shard): Float64Array {
   const means = new Float64Array(shard.featureCount);
-  for (let s = 0; s < shard.sampleCount; s++) for (let j = 0; j < shard.featureCount; j++) means[j] += shard.features[s * shard.featureCount + j];
+  for (let s = 0; s < shard.sampleCount; s++)
+    for (let j = 0; j < shard.featureCount; j++)
+      means[j] += shard.features[s * shard.featureCount + j];
   for (let j = 0; j < shard.featureCount; j++) means[j] /= shard.sampleCount;
   return means;
 }
@@ -58,7 +67,15 @@ describe('synthetic models', () => {
 describe('least squares with a common minimizer', () => {
   const scenario = scenarioWith(
     { kind: 'least-squares', regularization: 0 },
-    { source: 'synthetic', features: 6, samplesPerClient: [8, 30, 100], minimizerSpread: 0, noise: 0, conditionNumber: 20, covariateShift: 1 },
+    {
+      source: 'synthetic',
+      features: 6,
+      samplesPerClient: [8, 30, 100],
+      minimizerSpread: 0,
+      noise: 0,
+      conditionNumber: 20,
+      covariateShift: 1,
+    },
     3,
   );
   const x0 = syntheticCentre(scenario.seed, 6);
@@ -66,7 +83,8 @@ describe('least squares with a common minimizer', () => {
   it('gives every client targets exactly a . x0', () => {
     for (const shard of buildAllShards(scenario)) {
       let mismatches = 0;
-      for (let s = 0; s < shard.sampleCount; s++) if (shard.targets[s] !== dot(row(shard, s), x0)) mismatches++;
+      for (let s = 0; s < shard.sampleCount; s++)
+        if (shard.targets[s] !== dot(row(shard, s), x0)) mismatches++;
       expect(mismatches).toBe(0);
     }
   });
@@ -104,23 +122,36 @@ describe('heterogeneity knobs', () => {
     // tolerance 5 SE.
     const kappa = 50;
     const p = 5;
-    const scenario = scenarioWith({ kind: 'least-squares' }, { source: 'synthetic', features: p, samplesPerClient: 40_000, conditionNumber: kappa }, 1);
+    const scenario = scenarioWith(
+      { kind: 'least-squares' },
+      { source: 'synthetic', features: p, samplesPerClient: 40_000, conditionNumber: kappa },
+      1,
+    );
     const shard = buildShard(scenario, 0);
     const means = columnMeans(shard);
     const covariance = new Matrix(p, p);
     for (let s = 0; s < shard.sampleCount; s++) {
       for (let j = 0; j < p; j++) {
         for (let k = 0; k < p; k++) {
-          covariance.set(j, k, covariance.get(j, k) + (shard.features[s * p + j] - means[j]) * (shard.features[s * p + k] - means[k]));
+          covariance.set(
+            j,
+            k,
+            covariance.get(j, k) +
+              (shard.features[s * p + j] - means[j]) * (shard.features[s * p + k] - means[k]),
+          );
         }
       }
     }
-    const eigenvalues = new EigenvalueDecomposition(covariance.div(shard.sampleCount - 1)).realEigenvalues;
+    const eigenvalues = new EigenvalueDecomposition(covariance.div(shard.sampleCount - 1))
+      .realEigenvalues;
     const ratio = Math.max(...eigenvalues) / Math.min(...eigenvalues);
     expect(Math.abs(ratio / kappa - 1)).toBeLessThan(5 * (2 / Math.sqrt(shard.sampleCount)));
     const lambda = featureVariances(p, kappa);
     const sorted = [...eigenvalues].sort((a, b) => b - a);
-    for (let j = 0; j < p; j++) expect(Math.abs(sorted[j] / lambda[j] - 1)).toBeLessThan(5 * Math.sqrt(2 / shard.sampleCount));
+    for (let j = 0; j < p; j++)
+      expect(Math.abs(sorted[j] / lambda[j] - 1)).toBeLessThan(
+        5 * Math.sqrt(2 / shard.sampleCount),
+      );
   });
 
   it('moves each client feature mean to covariateShift x its own normal vector', () => {
@@ -128,17 +159,38 @@ describe('heterogeneity knobs', () => {
     const p = 4;
     const n = 5_000;
     const shift = 2;
-    const shifted = scenarioWith({ kind: 'least-squares' }, { source: 'synthetic', features: p, samplesPerClient: n, covariateShift: shift, conditionNumber: 4 }, 3);
+    const shifted = scenarioWith(
+      { kind: 'least-squares' },
+      {
+        source: 'synthetic',
+        features: p,
+        samplesPerClient: n,
+        covariateShift: shift,
+        conditionNumber: 4,
+      },
+      3,
+    );
     const lambda = featureVariances(p, 4);
     const means = buildAllShards(shifted).map(columnMeans);
     for (let i = 0; i < 3; i++) {
       const expected = clientFeatureMean(shifted.seed, p, shift, i);
-      for (let j = 0; j < p; j++) expect(Math.abs(means[i][j] - expected[j])).toBeLessThan(5 * Math.sqrt(lambda[j] / n));
+      for (let j = 0; j < p; j++)
+        expect(Math.abs(means[i][j] - expected[j])).toBeLessThan(5 * Math.sqrt(lambda[j] / n));
     }
     const spreadOfMeans = Math.hypot(...means[0].map((v, j) => v - means[1][j]));
     expect(spreadOfMeans).toBeGreaterThan(0.5);
 
-    const centred = scenarioWith({ kind: 'least-squares' }, { source: 'synthetic', features: p, samplesPerClient: n, covariateShift: 0, conditionNumber: 4 }, 3);
+    const centred = scenarioWith(
+      { kind: 'least-squares' },
+      {
+        source: 'synthetic',
+        features: p,
+        samplesPerClient: n,
+        covariateShift: 0,
+        conditionNumber: 4,
+      },
+      3,
+    );
     for (const m of buildAllShards(centred).map(columnMeans)) {
       for (let j = 0; j < p; j++) expect(Math.abs(m[j])).toBeLessThan(5 * Math.sqrt(lambda[j] / n));
     }
@@ -146,7 +198,11 @@ describe('heterogeneity knobs', () => {
 
   it('gives each client the listed number of samples (quantity skew)', () => {
     const sizes = [3, 17, 40, 9];
-    const scenario = scenarioWith({ kind: 'least-squares' }, { source: 'synthetic', features: 2, samplesPerClient: sizes }, 4);
+    const scenario = scenarioWith(
+      { kind: 'least-squares' },
+      { source: 'synthetic', features: 2, samplesPerClient: sizes },
+      4,
+    );
     expect(buildAllShards(scenario).map((s) => s.sampleCount)).toEqual(sizes);
     expect(sampleCountsOf(scenario)).toEqual(sizes);
   });
@@ -155,7 +211,11 @@ describe('heterogeneity knobs', () => {
     // Residuals b - a . x0 are N(0, noise^2); sample variance within 5 SE = 5 noise^2 sqrt(2/n).
     const noise = 0.5;
     const n = 20_000;
-    const scenario = scenarioWith({ kind: 'least-squares' }, { source: 'synthetic', features: 3, samplesPerClient: n, noise }, 1);
+    const scenario = scenarioWith(
+      { kind: 'least-squares' },
+      { source: 'synthetic', features: 3, samplesPerClient: n, noise },
+      1,
+    );
     const shard = buildShard(scenario, 0);
     const x0 = syntheticCentre(scenario.seed, 3);
     let squares = 0;
@@ -176,7 +236,11 @@ describe('heterogeneity knobs', () => {
 describe('labelled synthetic data', () => {
   it('draws logistic labels in {0, 1} with P(b = 1) = sigmoid(a . x_i*)', () => {
     // Sum of independent Bernoulli(q_s): mean sum q_s, variance sum q_s (1 - q_s); 5 SE.
-    const scenario = scenarioWith({ kind: 'logistic' }, { source: 'synthetic', features: 5, samplesPerClient: 20_000, minimizerSpread: 0.5 }, 2);
+    const scenario = scenarioWith(
+      { kind: 'logistic' },
+      { source: 'synthetic', features: 5, samplesPerClient: 20_000, minimizerSpread: 0.5 },
+      2,
+    );
     const x0 = syntheticCentre(scenario.seed, 5);
     for (const shard of buildAllShards(scenario)) {
       const model = clientMinimizer(scenario.seed, x0, 0.5, shard.clientId);
@@ -200,7 +264,11 @@ describe('labelled synthetic data', () => {
   it('draws softmax labels in [0, classes) with class frequencies softmax(W a)', () => {
     const classes = 4;
     const p = 3;
-    const scenario = scenarioWith({ kind: 'softmax', classes }, { source: 'synthetic', features: p, samplesPerClient: 20_000 }, 1);
+    const scenario = scenarioWith(
+      { kind: 'softmax', classes },
+      { source: 'synthetic', features: p, samplesPerClient: 20_000 },
+      1,
+    );
     const shard = buildShard(scenario, 0);
     const w = clientMinimizer(scenario.seed, syntheticCentre(scenario.seed, classes * p), 0, 0);
     const counts = new Float64Array(classes);
@@ -212,7 +280,9 @@ describe('labelled synthetic data', () => {
       if (!(Number.isInteger(label) && label >= 0 && label < classes)) outside++;
       counts[label]++;
       const a = row(shard, s);
-      const logits = Array.from({ length: classes }, (_, c) => dot(w.subarray(c * p, c * p + p), a));
+      const logits = Array.from({ length: classes }, (_, c) =>
+        dot(w.subarray(c * p, c * p + p), a),
+      );
       const top = Math.max(...logits);
       const weights = logits.map((z) => Math.exp(z - top));
       const total = weights.reduce((x, y) => x + y, 0);
@@ -223,6 +293,7 @@ describe('labelled synthetic data', () => {
       }
     }
     expect(outside).toBe(0);
-    for (let c = 0; c < classes; c++) expect(Math.abs(counts[c] - expected[c])).toBeLessThan(5 * Math.sqrt(variance[c]));
+    for (let c = 0; c < classes; c++)
+      expect(Math.abs(counts[c] - expected[c])).toBeLessThan(5 * Math.sqrt(variance[c]));
   });
 });

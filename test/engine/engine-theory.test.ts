@@ -27,7 +27,10 @@ function scenario(tweaks: string[] = [], text = base): Scenario {
 
 function summaryOf(s: Scenario) {
   const outcome = runInProcess(s);
-  return { outcome, summary: buildRunSummary(outcome, predictRun(outcome.plan, outcome.theory), 'in-process') };
+  return {
+    outcome,
+    summary: buildRunSummary(outcome, predictRun(outcome.plan, outcome.theory), 'in-process'),
+  };
 }
 
 /** Client Hessians H_i = A_i^T A_i / n_i + lambda I and h_i = A_i^T b_i / n_i, with ml-matrix. */
@@ -35,10 +38,16 @@ function quadraticPieces(s: Scenario) {
   const lambda = s.problem.regularization;
   return buildAllShards(s).map((shard) => {
     const a = new Matrix(shard.sampleCount, shard.featureCount);
-    for (let r = 0; r < shard.sampleCount; r++) for (let c = 0; c < shard.featureCount; c++) a.set(r, c, shard.features[r * shard.featureCount + c]);
+    for (let r = 0; r < shard.sampleCount; r++)
+      for (let c = 0; c < shard.featureCount; c++)
+        a.set(r, c, shard.features[r * shard.featureCount + c]);
     const b = Matrix.columnVector(Array.from(shard.targets));
     const h = a.transpose().mmul(b).div(shard.sampleCount);
-    const hess = a.transpose().mmul(a).div(shard.sampleCount).add(Matrix.eye(shard.featureCount).mul(lambda));
+    const hess = a
+      .transpose()
+      .mmul(a)
+      .div(shard.sampleCount)
+      .add(Matrix.eye(shard.featureCount).mul(lambda));
     return { hess, h, n: shard.sampleCount };
   });
 }
@@ -46,7 +55,13 @@ function quadraticPieces(s: Scenario) {
 describe('FedLin keeps x* fixed (FedLin, NeurIPS 2021: x* is a fixed point of its round)', () => {
   for (const [label, tweaks] of [
     ['tau_i from 1 to 50', ['method.localSteps:{uniform: [1, 50]}']],
-    ['with top-k 10% and error feedback on the uploaded deltas', ['method.localSteps:{uniform: [1, 50]}', 'compression.uplink.fields:{delta: {kind: top-k, fraction: 0.1, errorFeedback: true}}']],
+    [
+      'with top-k 10% and error feedback on the uploaded deltas',
+      [
+        'method.localSteps:{uniform: [1, 50]}',
+        'compression.uplink.fields:{delta: {kind: top-k, fraction: 0.1, errorFeedback: true}}',
+      ],
+    ],
   ] as const) {
     it(label, () => {
       const s = scenario(['method.name:fedlin', 'run.rounds:1', ...tweaks]);
@@ -61,7 +76,9 @@ describe('FedLin keeps x* fixed (FedLin, NeurIPS 2021: x* is a fixed point of it
 describe('heterogeneous least squares, tau_i from 1 to 20', () => {
   for (const name of ['fedlin', 'scaffold']) {
     it(`${name} reaches f - f* <= 1e-12 (exact convergence: FedLin, NeurIPS 2021; SCAFFOLD, ICML 2020)`, () => {
-      const { summary } = summaryOf(scenario([`method.name:${name}`, 'run.target:1e-12', 'run.rounds:2000']));
+      const { summary } = summaryOf(
+        scenario([`method.name:${name}`, 'run.target:1e-12', 'run.rounds:2000']),
+      );
       expect(summary.roundsToTarget).not.toBeNull();
       expect(summary.suboptimality.final).toBeLessThanOrEqual(1e-12);
     });
@@ -99,19 +116,30 @@ describe('heterogeneous least squares, tau_i from 1 to 20', () => {
       rhs = rhs.add(mI.mmul(xI).mul(weight));
     });
     const xFa = inverse(lhs).mmul(rhs).getColumn(0);
-    const err = Math.sqrt(distanceSquared(outcome.finalModel, Float64Array.from(xFa))) / norm2(Float64Array.from(xFa));
+    const err =
+      Math.sqrt(distanceSquared(outcome.finalModel, Float64Array.from(xFa))) /
+      norm2(Float64Array.from(xFa));
     expect(err).toBeLessThanOrEqual(1e-6);
-    expect(Math.sqrt(distanceSquared(Float64Array.from(xFa), outcome.theory.optimum.x))).toBeGreaterThan(1e-3);
+    expect(
+      Math.sqrt(distanceSquared(Float64Array.from(xFa), outcome.theory.optimum.x)),
+    ).toBeGreaterThan(1e-3);
   });
 });
 
 describe('gd against Nesterov (Introductory Lectures on Convex Optimization, 2004, Thm 2.1.15)', () => {
   it('predicted rate equals max_i (1 - eta lambda_i)^2 over ml-matrix eigenvalues, and the measured rate is at most 1 - mu/L', () => {
-    const s = scenario(['method.name:gd', 'method.localSteps:1', 'method.stepPolicy:fixed', 'run.rounds:300']);
+    const s = scenario([
+      'method.name:gd',
+      'method.localSteps:1',
+      'method.stepPolicy:fixed',
+      'run.rounds:300',
+    ]);
     const { outcome, summary } = summaryOf(s);
     const pieces = quadraticPieces(s);
     let hess = Matrix.zeros(8, 8);
-    pieces.forEach((piece, i) => (hess = hess.add(piece.hess.clone().mul(outcome.plan.weights[i]))));
+    pieces.forEach(
+      (piece, i) => (hess = hess.add(piece.hess.clone().mul(outcome.plan.weights[i]))),
+    );
     const eigen = new EigenvalueDecomposition(hess).realEigenvalues;
     const eta = outcome.plan.methodConfig.stepSize;
     expect(eta).toBeCloseTo(1 / Math.max(...eigen), 12);
@@ -129,7 +157,14 @@ describe('FedSplit with exact proxes (Pathak and Wainwright, NeurIPS 2020, Theor
     // L and mu are the scenario's, from the oracle.
     const probe = runInProcess(scenario(['method.name:fedsplit', 'run.rounds:1']));
     const { smoothness, strongConvexity } = probe.theory.constants;
-    const s = scenario(['method.name:fedsplit', `method.stepSize:${1 / Math.sqrt(smoothness * strongConvexity)}`, 'method.localSteps:5000', 'method.proxTolerance:1e-12', 'run.target:1e-10', 'run.rounds:500']);
+    const s = scenario([
+      'method.name:fedsplit',
+      `method.stepSize:${1 / Math.sqrt(smoothness * strongConvexity)}`,
+      'method.localSteps:5000',
+      'method.proxTolerance:1e-12',
+      'run.target:1e-10',
+      'run.rounds:500',
+    ]);
     const { summary } = summaryOf(s);
     expect(summary.suboptimality.final).toBeLessThanOrEqual(1e-10);
   });
@@ -138,7 +173,11 @@ describe('FedSplit with exact proxes (Pathak and Wainwright, NeurIPS 2020, Theor
 describe('measured rate beside predicted rate (DESIGN: the spectral radius of the round map)', () => {
   for (const name of ['gd', 'fedavg', 'fedprox', 'fednova', 'scaffold', 'fedlin', 'fedsplit']) {
     it(`${name}: |log(measured)/log(predicted) - 1| <= 0.05`, () => {
-      const s = scenario([`method.name:${name}`, 'method.localSteps:{uniform: [1, 10]}', 'run.rounds:600']);
+      const s = scenario([
+        `method.name:${name}`,
+        'method.localSteps:{uniform: [1, 10]}',
+        'run.rounds:600',
+      ]);
       const { summary } = summaryOf(s);
       expect(summary.prediction.available).toBe(true);
       const measured = summary.rate.measured as number;
@@ -150,8 +189,13 @@ describe('measured rate beside predicted rate (DESIGN: the spectral radius of th
 
 describe('local steps stay out of FedLin exponent on a common minimizer (FedLin, NeurIPS 2021, matching lower bound)', () => {
   it('|log rate(tau=20)| <= 1.1 |log rate(tau=1)| with inverse-steps', () => {
-    const text = readFileSync(new URL('../../scenarios/common-minimizer.yaml', import.meta.url), 'utf8');
-    const rate = (tau: number) => summaryOf(scenario([`method.localSteps:${tau}`, 'run.target:0', 'run.rounds:400'], text)).summary.rate.measured as number;
+    const text = readFileSync(
+      new URL('../../scenarios/common-minimizer.yaml', import.meta.url),
+      'utf8',
+    );
+    const rate = (tau: number) =>
+      summaryOf(scenario([`method.localSteps:${tau}`, 'run.target:0', 'run.rounds:400'], text))
+        .summary.rate.measured as number;
     const one = rate(1);
     const twenty = rate(20);
     expect(Math.abs(Math.log(twenty))).toBeLessThanOrEqual(1.1 * Math.abs(Math.log(one)));
@@ -160,21 +204,38 @@ describe('local steps stay out of FedLin exponent on a common minimizer (FedLin,
 
 describe('compression with error feedback', () => {
   it('fedlin with top-k at 10% and error feedback on its gradient exchange still reaches f - f* <= 1e-10', () => {
-    const s = scenario(['method.name:fedlin', 'compression.uplink.fields:{gradient: {kind: top-k, fraction: 0.1, errorFeedback: true}}', 'run.target:1e-10', 'run.rounds:3000']);
+    const s = scenario([
+      'method.name:fedlin',
+      'compression.uplink.fields:{gradient: {kind: top-k, fraction: 0.1, errorFeedback: true}}',
+      'run.target:1e-10',
+      'run.rounds:3000',
+    ]);
     const { summary } = summaryOf(s);
     expect(summary.suboptimality.final).toBeLessThanOrEqual(1e-10);
-    const dense = summaryOf(scenario(['method.name:fedlin', 'run.target:1e-10', 'run.rounds:3000'])).summary;
+    const dense = summaryOf(
+      scenario(['method.name:fedlin', 'run.target:1e-10', 'run.rounds:3000']),
+    ).summary;
     expect(summary.bytes.payload.up).toBeLessThan(dense.bytes.payload.up);
   });
 });
 
 describe('determinism', () => {
   it('the same scenario and seed give the same final model bit for bit (minibatches, rand-k, partial participation, stragglers)', () => {
-    const tweaks = ['method.name:scaffold', 'method.gradient:{minibatch: 8}', 'method.participation:0.5', 'compression.uplink.default:{kind: rand-k, fraction: 0.5}', 'timing.slowdown:{kind: two-class, fraction: 0.34, factor: 5}', 'timing.jitter:0.2', 'run.rounds:40'];
+    const tweaks = [
+      'method.name:scaffold',
+      'method.gradient:{minibatch: 8}',
+      'method.participation:0.5',
+      'compression.uplink.default:{kind: rand-k, fraction: 0.5}',
+      'timing.slowdown:{kind: two-class, fraction: 0.34, factor: 5}',
+      'timing.jitter:0.2',
+      'run.rounds:40',
+    ];
     const a = runInProcess(scenario(tweaks));
     const b = runInProcess(scenario(tweaks));
     expect(Buffer.from(a.finalModel.buffer).equals(Buffer.from(b.finalModel.buffer))).toBe(true);
-    expect(JSON.stringify(a.rounds.map((r) => ({ ...r, wallSeconds: 0 })))).toBe(JSON.stringify(b.rounds.map((r) => ({ ...r, wallSeconds: 0 }))));
+    expect(JSON.stringify(a.rounds.map((r) => ({ ...r, wallSeconds: 0 })))).toBe(
+      JSON.stringify(b.rounds.map((r) => ({ ...r, wallSeconds: 0 }))),
+    );
     const c = runInProcess(scenario([...tweaks.slice(0, -1), 'seed:20', 'run.rounds:40']));
     expect(Buffer.from(a.finalModel.buffer).equals(Buffer.from(c.finalModel.buffer))).toBe(false);
   });

@@ -16,7 +16,12 @@ import { evaluateModel, type Evaluation } from '../../src/engine/evaluate.js';
 import { ServerRuntime } from '../../src/engine/server-runtime.js';
 import { walkRun, walkSetup } from '../../src/engine/round-walk.js';
 import type { StopReason } from '../../src/engine/run-summary.js';
-import { driveSync, type ExchangeOrder, type ExchangeReply, type RoundTransport } from '../../src/engine/walk-transport.js';
+import {
+  driveSync,
+  type ExchangeOrder,
+  type ExchangeReply,
+  type RoundTransport,
+} from '../../src/engine/walk-transport.js';
 
 const text = readFileSync(new URL('../../scenarios/quickstart.yaml', import.meta.url), 'utf8');
 
@@ -44,7 +49,8 @@ class ScriptedTransport extends DirectTransport implements RoundTransport {
     this.orders.push(order);
     const reply = super.exchange(order);
     const returns = new Map(reply.returns);
-    for (const id of this.script.missing?.(order.round, order.exchange) ?? []) returns.set(id, { kind: 'missing' });
+    for (const id of this.script.missing?.(order.round, order.exchange) ?? [])
+      returns.set(id, { kind: 'missing' });
     return { returns, diverged: this.script.diverges?.(order.round, order.exchange) ?? false };
   }
 
@@ -62,10 +68,21 @@ class ScriptedTransport extends DirectTransport implements RoundTransport {
 }
 
 function walk(tweaks: string[], script: Script) {
-  const { plan, theory } = planFor(scenarioFromText(text, 'quickstart.yaml', ['run.target:0', ...tweaks]));
-  const clients = theory.instance.objectives.map((objective, id) => new ClientRuntime(plan, id, objective));
-  const transport = new ScriptedTransport(clients, (x) => evaluateModel(theory.instance.global, theory.optimum.x, theory.optimum.loss, x), script);
-  const walked = driveSync(walkRun({ ...walkSetup(plan, new ServerRuntime(plan)), wallSeconds: () => 0 }), transport);
+  const { plan, theory } = planFor(
+    scenarioFromText(text, 'quickstart.yaml', ['run.target:0', ...tweaks]),
+  );
+  const clients = theory.instance.objectives.map(
+    (objective, id) => new ClientRuntime(plan, id, objective),
+  );
+  const transport = new ScriptedTransport(
+    clients,
+    (x) => evaluateModel(theory.instance.global, theory.optimum.x, theory.optimum.loss, x),
+    script,
+  );
+  const walked = driveSync(
+    walkRun({ ...walkSetup(plan, new ServerRuntime(plan)), wallSeconds: () => 0 }),
+    transport,
+  );
   return { walked, orders: transport.orders };
 }
 
@@ -73,7 +90,9 @@ const idsOf = (order: ExchangeOrder) => order.downs.map((d) => d.assignment.clie
 
 describe('walkRun', () => {
   it('drops a client missing from the gradient exchange and leaves it out of the local one', () => {
-    const { walked, orders } = walk(['run.rounds:2'], { missing: (round, exchange) => (round === 1 && exchange === 'gradient' ? [2] : []) });
+    const { walked, orders } = walk(['run.rounds:2'], {
+      missing: (round, exchange) => (round === 1 && exchange === 'gradient' ? [2] : []),
+    });
     expect(orders.map((o) => [o.round, o.exchange, idsOf(o)])).toEqual([
       [1, 'gradient', [0, 1, 2, 3, 4, 5, 6, 7]],
       [1, 'local', [0, 1, 3, 4, 5, 6, 7]],
@@ -83,15 +102,28 @@ describe('walkRun', () => {
     const [, first, second] = walked.rounds;
     expect(first.dropped).toEqual([2]);
     expect(Object.keys(first.localSteps)).toEqual(['0', '1', '3', '4', '5', '6', '7']);
-    const missed = walked.clients.find((c) => c.round === 1 && c.exchange === 'gradient' && c.clientId === 2)!;
-    expect(missed).toMatchObject({ dropped: true, computeSeconds: 0, waitSeconds: 0, transferSeconds: 0, bytes: { payload: { up: 0 } } });
+    const missed = walked.clients.find(
+      (c) => c.round === 1 && c.exchange === 'gradient' && c.clientId === 2,
+    )!;
+    expect(missed).toMatchObject({
+      dropped: true,
+      computeSeconds: 0,
+      waitSeconds: 0,
+      transferSeconds: 0,
+      bytes: { payload: { up: 0 } },
+    });
     expect(second.dropped).toEqual([]);
     expect(walked.stopReason).toBe('rounds-complete');
   });
 
   it('counts every update that came back when fewer than fastest-k did', () => {
     // participation 0.5: 4 per round, k = 4; one lost leaves 3, and all 3 count.
-    const tweaks = ['run.rounds:1', 'method.name:fedavg', 'method.participation:0.5', 'timing.policy:{kind: fastest-k, k: 4}'];
+    const tweaks = [
+      'run.rounds:1',
+      'method.name:fedavg',
+      'method.participation:0.5',
+      'timing.policy:{kind: fastest-k, k: 4}',
+    ];
     const { walked, orders } = walk(tweaks, {});
     const members = idsOf(orders[0]);
     expect(members).toHaveLength(4);
@@ -104,20 +136,30 @@ describe('walkRun', () => {
   });
 
   it('stops as diverged after recording and evaluating the round where a client diverged', () => {
-    const { walked, orders } = walk(['run.rounds:5', 'run.evalEvery:10'], { diverges: (round, exchange) => round === 2 && exchange === 'gradient' });
+    const { walked, orders } = walk(['run.rounds:5', 'run.evalEvery:10'], {
+      diverges: (round, exchange) => round === 2 && exchange === 'gradient',
+    });
     expect(walked.stopReason).toBe('diverged');
     expect(walked.rounds.map((r) => r.round)).toEqual([0, 1, 2]);
     expect(walked.rounds[1].suboptimality).toBeNull();
     expect(walked.rounds[2].suboptimality).not.toBeNull();
     // the local exchange of round 2 never started
-    expect(orders.map((o) => `${o.round} ${o.exchange}`)).toEqual(['1 gradient', '1 local', '2 gradient']);
+    expect(orders.map((o) => `${o.round} ${o.exchange}`)).toEqual([
+      '1 gradient',
+      '1 local',
+      '2 gradient',
+    ]);
   });
 
   it('ends where its transport stops it, before or after a round', () => {
-    const before = walk(['run.rounds:5'], { openRound: (round) => (round === 3 ? 'stopped' : null) });
+    const before = walk(['run.rounds:5'], {
+      openRound: (round) => (round === 3 ? 'stopped' : null),
+    });
     expect(before.walked.stopReason).toBe('stopped');
     expect(before.walked.rounds.map((r) => r.round)).toEqual([0, 1, 2]);
-    const after = walk(['run.rounds:5', 'run.evalEvery:10'], { closeRound: (round) => (round === 2 ? 'workers-lost' : null) });
+    const after = walk(['run.rounds:5', 'run.evalEvery:10'], {
+      closeRound: (round) => (round === 2 ? 'workers-lost' : null),
+    });
     expect(after.walked.stopReason).toBe('workers-lost');
     expect(after.walked.rounds.map((r) => r.round)).toEqual([0, 1, 2]);
     expect(after.walked.rounds[2].suboptimality).not.toBeNull();

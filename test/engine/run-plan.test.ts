@@ -28,8 +28,16 @@ describe('assertPlannable: fastest-k against the participants of a round', () =>
     // quickstart has 8 clients; participation 0.3 gives round(2.4) = 2 per round.
     for (const participation of [1, 0.5, 0.3]) {
       const perRound = participantCount(participation, 8);
-      expect(refusal([`method.participation:${participation}`, `timing.policy:{kind: fastest-k, k: ${perRound}}`])).toBeNull();
-      const refused = refusal([`method.participation:${participation}`, `timing.policy:{kind: fastest-k, k: ${perRound + 1}}`]);
+      expect(
+        refusal([
+          `method.participation:${participation}`,
+          `timing.policy:{kind: fastest-k, k: ${perRound}}`,
+        ]),
+      ).toBeNull();
+      const refused = refusal([
+        `method.participation:${participation}`,
+        `timing.policy:{kind: fastest-k, k: ${perRound + 1}}`,
+      ]);
       expect(refused).toMatchObject({ code: 'E_TIMING_POLICY_K', fieldPath: 'timing.policy.k' });
       expect(refused!.message).toBe(
         `timing.policy.k: fastest-k counts the first k updates of a round, but a round has ${perRound} participants (method.participation ${participation} of clients.count 8); give k <= ${perRound}, got ${perRound + 1}`,
@@ -39,6 +47,8 @@ describe('assertPlannable: fastest-k against the participants of a round', () =>
 
   it('has nothing to refuse under the other policies', () => {
     expect(refusal(['method.participation:0.1', 'timing.policy:{kind: all}'])).toBeNull();
-    expect(refusal(['method.participation:0.1', 'timing.policy:{kind: deadline, budgetSeconds: 0.01}'])).toBeNull();
+    expect(
+      refusal(['method.participation:0.1', 'timing.policy:{kind: deadline, budgetSeconds: 0.01}']),
+    ).toBeNull();
   });
 });

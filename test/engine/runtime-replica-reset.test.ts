@@ -24,27 +24,41 @@ describe('replica reset on both ends', () => {
       for (const exchange of exchanges) {
         const down = server.encodeDown(0, round, exchange, server.broadcast(exchange));
         const up = client.work(round, exchange, down, 5, plan.methodConfig.stepSize / 5);
-        server.aggregate(exchange, [{ clientId: 0, stepsTaken: up.stepsTaken, stepSize: plan.methodConfig.stepSize / 5, encodedUp: up.encodedUp }]);
+        server.aggregate(exchange, [
+          {
+            clientId: 0,
+            stepsTaken: up.stepsTaken,
+            stepSize: plan.methodConfig.stepSize / 5,
+            encodedUp: up.encodedUp,
+          },
+        ]);
       }
     };
     for (let round = 1; round <= 3; round++) step(round);
     server.resetReplicas(0);
     client.resetReplicas();
     const snapshot = client.snapshot();
-    for (const replica of Object.values(snapshot.downlinkReplicas)) expect(replica.every((v) => v === 0)).toBe(true);
-    expect((snapshot.uplinkMemories.gradient ?? new Float64Array(0)).every((v) => v === 0)).toBe(true);
+    for (const replica of Object.values(snapshot.downlinkReplicas))
+      expect(replica.every((v) => v === 0)).toBe(true);
+    expect((snapshot.uplinkMemories.gradient ?? new Float64Array(0)).every((v) => v === 0)).toBe(
+      true,
+    );
     // the delta's error-feedback memory is the client's own and survives the reset
     expect(snapshot.uplinkMemories.delta).toBeDefined();
     // After the reset the next message rebuilds both sides' replicas from zero, identically.
     const down = server.encodeDown(0, 4, exchanges[0], server.broadcast(exchanges[0]));
     client.work(4, exchanges[0], down, 5, plan.methodConfig.stepSize / 5);
     const after = client.snapshot();
-    expect(Array.from(after.downlinkReplicas.model)).toEqual(Array.from(new Float64Array(plan.dim).map((_, j) => {
-      let v = 0;
-      const cv = down.model;
-      if (cv.indices === null) return cv.values[j];
-      for (let t = 0; t < cv.indices.length; t++) if (cv.indices[t] === j) v = cv.values[t];
-      return v;
-    })));
+    expect(Array.from(after.downlinkReplicas.model)).toEqual(
+      Array.from(
+        new Float64Array(plan.dim).map((_, j) => {
+          let v = 0;
+          const cv = down.model;
+          if (cv.indices === null) return cv.values[j];
+          for (let t = 0; t < cv.indices.length; t++) if (cv.indices[t] === j) v = cv.values[t];
+          return v;
+        }),
+      ),
+    );
   });
 });

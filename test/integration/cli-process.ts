@@ -18,7 +18,11 @@ export class CliProcess {
   private readonly watchers: (() => void)[] = [];
 
   constructor(args: string[], env: NodeJS.ProcessEnv = {}, cwd: string = repoRoot) {
-    this.child = spawn(process.execPath, [bin, ...args], { cwd, env: { ...process.env, NO_COLOR: '1', ...env }, stdio: ['ignore', 'pipe', 'pipe'] });
+    this.child = spawn(process.execPath, [bin, ...args], {
+      cwd,
+      env: { ...process.env, NO_COLOR: '1', ...env },
+      stdio: ['ignore', 'pipe', 'pipe'],
+    });
     this.child.stdout!.setEncoding('utf8').on('data', (t: string) => {
       this.stdout += t;
       this.notify();
@@ -27,7 +31,9 @@ export class CliProcess {
       this.stderr += t;
       this.notify();
     });
-    this.exited = new Promise((resolve) => this.child.once('exit', (code, signal) => resolve({ code, signal })));
+    this.exited = new Promise((resolve) =>
+      this.child.once('exit', (code, signal) => resolve({ code, signal })),
+    );
   }
 
   private notify(): void {
@@ -48,7 +54,11 @@ export class CliProcess {
       const watcher = (): void => void check();
       const timer = setTimeout(() => {
         this.watchers.splice(this.watchers.indexOf(watcher), 1);
-        reject(new Error(`no ${pattern} in stderr within ${timeoutMs} ms; stderr so far:\n${this.stderr}`));
+        reject(
+          new Error(
+            `no ${pattern} in stderr within ${timeoutMs} ms; stderr so far:\n${this.stderr}`,
+          ),
+        );
       }, timeoutMs);
       this.watchers.push(watcher);
       check();
@@ -91,7 +101,10 @@ export function isAlive(pid: number): boolean {
 }
 
 /** Waits (bounded) until none of the pids is alive; resolves to those still alive at the end. */
-export async function survivorsAfter(pids: readonly number[], timeoutMs: number): Promise<number[]> {
+export async function survivorsAfter(
+  pids: readonly number[],
+  timeoutMs: number,
+): Promise<number[]> {
   const deadline = Date.now() + timeoutMs;
   for (;;) {
     const alive = pids.filter(isAlive);
@@ -105,7 +118,10 @@ export function freshDir(prefix: string): string {
 }
 
 export function readJsonLines<T>(file: string): T[] {
-  return readFileSync(file, 'utf8').split('\n').filter((l) => l.length > 0).map((l) => JSON.parse(l) as T);
+  return readFileSync(file, 'utf8')
+    .split('\n')
+    .filter((l) => l.length > 0)
+    .map((l) => JSON.parse(l) as T);
 }
 
 /**

@@ -14,20 +14,49 @@ import { resultFiles } from '../../src/results/results-folder.js';
 import { runCli } from '../cli/run-cli.js';
 import { freshDir, overrideArgs, readJsonLines } from './cli-process.js';
 
-const OVERRIDES = { 'method.name': 'fedavg', 'method.stepSize': '100', 'run.rounds': '200', 'run.target': '0', 'run.workers': '2' };
+const OVERRIDES = {
+  'method.name': 'fedavg',
+  'method.stepSize': '100',
+  'run.rounds': '200',
+  'run.target': '0',
+  'run.workers': '2',
+};
 
 describe('a diverging run', () => {
   it('stops as diverged in both runtimes, on the same model', async () => {
     const dir = freshDir('diverged');
-    const inProcess = await runCli(['run', 'scenarios/quickstart.yaml', '--in-process', '--json', '--out', join(dir, 'in-process'), ...overrideArgs(OVERRIDES)]);
-    const distributed = await runCli(['run', 'scenarios/quickstart.yaml', '--json', '--out', join(dir, 'distributed'), ...overrideArgs(OVERRIDES)], 60_000);
+    const inProcess = await runCli([
+      'run',
+      'scenarios/quickstart.yaml',
+      '--in-process',
+      '--json',
+      '--out',
+      join(dir, 'in-process'),
+      ...overrideArgs(OVERRIDES),
+    ]);
+    const distributed = await runCli(
+      [
+        'run',
+        'scenarios/quickstart.yaml',
+        '--json',
+        '--out',
+        join(dir, 'distributed'),
+        ...overrideArgs(OVERRIDES),
+      ],
+      60_000,
+    );
     for (const r of [inProcess, distributed]) {
       expect(r.code, r.stderr).toBe(0);
       expect((JSON.parse(r.stdout) as { stopReason: string }).stopReason).toBe('diverged');
     }
-    const rounds = (name: string) => readJsonLines<RoundRecord>(join(dir, name, resultFiles.rounds)).map((r) => r.round);
+    const rounds = (name: string) =>
+      readJsonLines<RoundRecord>(join(dir, name, resultFiles.rounds)).map((r) => r.round);
     expect(rounds('distributed')).toEqual(rounds('in-process'));
     expect(rounds('in-process').length).toBeLessThan(201);
-    expect(readFileSync(join(dir, 'distributed', resultFiles.modelBinary)).equals(readFileSync(join(dir, 'in-process', resultFiles.modelBinary)))).toBe(true);
+    expect(
+      readFileSync(join(dir, 'distributed', resultFiles.modelBinary)).equals(
+        readFileSync(join(dir, 'in-process', resultFiles.modelBinary)),
+      ),
+    ).toBe(true);
   }, 90_000);
 });

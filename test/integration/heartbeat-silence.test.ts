@@ -10,7 +10,12 @@ import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import WebSocket from 'ws';
 import { afterEach, describe, expect, it } from 'vitest';
-import { decodeMessage, encodeMessage, PROTOCOL_VERSION, proveKey } from '../../src/protocol/index.js';
+import {
+  decodeMessage,
+  encodeMessage,
+  PROTOCOL_VERSION,
+  proveKey,
+} from '../../src/protocol/index.js';
 import type { RoundRecord } from '../../src/engine/round-record.js';
 import { runCli } from '../cli/run-cli.js';
 import { CliProcess, freshDir, readJsonLines, repoRoot, writeKeyFile } from './cli-process.js';
@@ -34,12 +39,26 @@ interface SilentPeer {
 function joinSilently(url: string): Promise<SilentPeer> {
   return new Promise((resolve, reject) => {
     const ws = new WebSocket(url, { perMessageDeflate: false });
-    const peer: SilentPeer = { received: [], assignments: [], welcomedMs: 0, closed: new Promise((r) => ws.once('close', () => r(performance.now()))) };
+    const peer: SilentPeer = {
+      received: [],
+      assignments: [],
+      welcomedMs: 0,
+      closed: new Promise((r) => ws.once('close', () => r(performance.now()))),
+    };
     ws.on('message', (data: Buffer) => {
       const message = decodeMessage(new Uint8Array(data), READ_LIMIT_BYTES) as Plain;
       peer.received.push(message.type as string);
       if (message.type === 'challenge') {
-        ws.send(encodeMessage({ type: 'hello', protocolVersion: PROTOCOL_VERSION, workerName: 'silent', capacity: 2, proof: proveKey(KEY, message.nonce as Uint8Array) }), { binary: true });
+        ws.send(
+          encodeMessage({
+            type: 'hello',
+            protocolVersion: PROTOCOL_VERSION,
+            workerName: 'silent',
+            capacity: 2,
+            proof: proveKey(KEY, message.nonce as Uint8Array),
+          }),
+          { binary: true },
+        );
       } else if (message.type === 'welcome') {
         peer.welcomedMs = performance.now();
         peer.assignments = message.assignments as number[];
@@ -59,10 +78,32 @@ describe('a worker that falls silent', () => {
   it('is lost after the silence limit and the run completes without it', async () => {
     const out = freshDir('silence');
     const keyFile = writeKeyFile(out, KEY);
-    const coordinator = new CliProcess(['coordinator', join(repoRoot, 'scenarios/quickstart.yaml'), '--listen', '127.0.0.1:0', '--key-file', keyFile, '--workers-min', '3', '--workers-wait-seconds', '40', '--heartbeat-silence-seconds', String(SILENCE_SECONDS), '--out', out, '--tweak', `run.rounds:${ROUNDS}`, '--tweak', 'run.target:0']);
+    const coordinator = new CliProcess([
+      'coordinator',
+      join(repoRoot, 'scenarios/quickstart.yaml'),
+      '--listen',
+      '127.0.0.1:0',
+      '--key-file',
+      keyFile,
+      '--workers-min',
+      '3',
+      '--workers-wait-seconds',
+      '40',
+      '--heartbeat-silence-seconds',
+      String(SILENCE_SECONDS),
+      '--out',
+      out,
+      '--tweak',
+      `run.rounds:${ROUNDS}`,
+      '--tweak',
+      'run.target:0',
+    ]);
     started.push(coordinator);
     const url = (await coordinator.waitForStderr(/listening on (ws:\/\/\S+)/, 30_000))[1];
-    const steady = ['steady-1', 'steady-2'].map((name) => new CliProcess(['worker', url, '--key-file', keyFile, '--capacity', '3', '--name', name]));
+    const steady = ['steady-1', 'steady-2'].map(
+      (name) =>
+        new CliProcess(['worker', url, '--key-file', keyFile, '--capacity', '3', '--name', name]),
+    );
     started.push(...steady);
     await coordinator.waitForStderr(/worker "steady-1" joined/, 30_000);
     await coordinator.waitForStderr(/worker "steady-2" joined/, 30_000);
@@ -71,7 +112,16 @@ describe('a worker that falls silent', () => {
 
     const silent = await joinSilently(url);
     expect(silent.assignments.length).toBeGreaterThan(0);
-    const closedMs = await Promise.race([silent.closed, new Promise<number>((_, reject) => setTimeout(() => reject(new Error(`the silent peer was not dropped; stderr:\n${coordinator.stderr}`)), 15_000))]);
+    const closedMs = await Promise.race([
+      silent.closed,
+      new Promise<number>((_, reject) =>
+        setTimeout(
+          () =>
+            reject(new Error(`the silent peer was not dropped; stderr:\n${coordinator.stderr}`)),
+          15_000,
+        ),
+      ),
+    ]);
     const silentForSeconds = (closedMs - silent.welcomedMs) / 1000;
     // Not before the limit; and within it plus one heartbeat interval (a sixth of it, see
     // heartbeatForSilence) plus scheduling slack on a shared machine.
@@ -90,7 +140,9 @@ describe('a worker that falls silent', () => {
     const summary = JSON.parse(readFileSync(join(out, 'outcome.json'), 'utf8')) as {
       stopReason: string;
       lostWorkers: string[];
-      distributed: { lostWorkers: { workerName: string; clientIds: number[]; round: number; reason: string }[] };
+      distributed: {
+        lostWorkers: { workerName: string; clientIds: number[]; round: number; reason: string }[];
+      };
     };
     expect(summary.stopReason).toBe('rounds-complete');
     expect(summary.lostWorkers).toEqual(['silent']);
@@ -102,9 +154,15 @@ describe('a worker that falls silent', () => {
     expect(lost.round).toBe(1);
     expect(lost.reason).toMatch(/silent for more than 1\.5 s/);
     // From the next round on, only the steady workers' clients take part, and all of them.
-    const steadyIds = Array.from({ length: 8 }, (_, i) => i).filter((id) => !silent.assignments.includes(id));
+    const steadyIds = Array.from({ length: 8 }, (_, i) => i).filter(
+      (id) => !silent.assignments.includes(id),
+    );
     for (const r of rounds.filter((x) => x.round > lost.round)) {
-      expect(Object.keys(r.localSteps).map(Number).sort((a, b) => a - b)).toEqual(steadyIds);
+      expect(
+        Object.keys(r.localSteps)
+          .map(Number)
+          .sort((a, b) => a - b),
+      ).toEqual(steadyIds);
       expect(r.dropped).toEqual([]);
     }
   }, 60_000);
@@ -112,8 +170,20 @@ describe('a worker that falls silent', () => {
 
 describe('roundwire coordinator --heartbeat-silence-seconds', () => {
   it('exits 2 with the accepted range on a value below a second', async () => {
-    const result = await runCli(['coordinator', 'scenarios/quickstart.yaml', '--listen', '127.0.0.1:0', '--heartbeat-silence-seconds', '0.2'], 30_000);
+    const result = await runCli(
+      [
+        'coordinator',
+        'scenarios/quickstart.yaml',
+        '--listen',
+        '127.0.0.1:0',
+        '--heartbeat-silence-seconds',
+        '0.2',
+      ],
+      30_000,
+    );
     expect(result.code).toBe(2);
-    expect(result.stderr).toMatch(/--heartbeat-silence-seconds: expected seconds from 1 to 3600, got "0\.2"/);
+    expect(result.stderr).toMatch(
+      /--heartbeat-silence-seconds: expected seconds from 1 to 3600, got "0\.2"/,
+    );
   });
 });

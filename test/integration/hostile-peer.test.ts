@@ -9,7 +9,16 @@ import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import WebSocket from 'ws';
 import { afterEach, describe, expect, it } from 'vitest';
-import { decodeMessage, encodeMessage, fromWire, proveKey, PROTOCOL_VERSION, toWire, type Message, type WireFields } from '../../src/protocol/index.js';
+import {
+  decodeMessage,
+  encodeMessage,
+  fromWire,
+  proveKey,
+  PROTOCOL_VERSION,
+  toWire,
+  type Message,
+  type WireFields,
+} from '../../src/protocol/index.js';
 import { ClientRuntime, type EncodedFields } from '../../src/engine/client-runtime.js';
 import type { WirePlan } from '../../src/engine/run-plan.js';
 import { runInProcess } from '../../src/engine/in-process-engine.js';
@@ -27,7 +36,9 @@ type Plain = Record<string, unknown>;
 function open(url: string, onMessage: (message: Plain, ws: WebSocket) => void): Promise<WebSocket> {
   return new Promise((resolve, reject) => {
     const ws = new WebSocket(url, { perMessageDeflate: false });
-    ws.on('message', (data: Buffer) => onMessage(decodeMessage(new Uint8Array(data), READ_LIMIT_BYTES) as Plain, ws));
+    ws.on('message', (data: Buffer) =>
+      onMessage(decodeMessage(new Uint8Array(data), READ_LIMIT_BYTES) as Plain, ws),
+    );
     ws.once('open', () => resolve(ws));
     ws.once('error', reject);
   });
@@ -50,7 +61,21 @@ describe('hostile peers', () => {
   it('a wrong key is refused before the plan; malformed frames get coded errors and change nothing', async () => {
     const out = freshDir('hostile');
     const keyFile = writeKeyFile(out, KEY);
-    const coordinator = new CliProcess(['coordinator', join(repoRoot, 'scenarios/quickstart.yaml'), '--listen', '127.0.0.1:0', '--key-file', keyFile, '--workers-min', '2', '--workers-wait-seconds', '40', '--out', out, ...TWEAKS.flatMap((o) => ['--tweak', o])]);
+    const coordinator = new CliProcess([
+      'coordinator',
+      join(repoRoot, 'scenarios/quickstart.yaml'),
+      '--listen',
+      '127.0.0.1:0',
+      '--key-file',
+      keyFile,
+      '--workers-min',
+      '2',
+      '--workers-wait-seconds',
+      '40',
+      '--out',
+      out,
+      ...TWEAKS.flatMap((o) => ['--tweak', o]),
+    ]);
     started.push(coordinator);
     const url = (await coordinator.waitForStderr(/listening on (ws:\/\/\S+)/, 30_000))[1];
 
@@ -58,14 +83,30 @@ describe('hostile peers', () => {
     const intruderSaw: Plain[] = [];
     const intruder = await open(url, (m, ws) => {
       intruderSaw.push(m);
-      if (m.type === 'challenge') send(ws, { type: 'hello', protocolVersion: PROTOCOL_VERSION, workerName: 'intruder', capacity: 8, proof: proveKey('not-the-shared-key', m.nonce as Uint8Array) });
+      if (m.type === 'challenge')
+        send(ws, {
+          type: 'hello',
+          protocolVersion: PROTOCOL_VERSION,
+          workerName: 'intruder',
+          capacity: 8,
+          proof: proveKey('not-the-shared-key', m.nonce as Uint8Array),
+        });
     });
     await new Promise<void>((resolve) => intruder.once('close', () => resolve()));
     expect(intruderSaw.map((m) => m.type)).toEqual(['challenge', 'error']);
     expect(intruderSaw[1].code).toBe('E_AUTH');
 
     // 2. A real worker, and a peer that works correctly but first sends six bad frames.
-    const worker = new CliProcess(['worker', url, '--key-file', keyFile, '--capacity', '4', '--name', 'honest']);
+    const worker = new CliProcess([
+      'worker',
+      url,
+      '--key-file',
+      keyFile,
+      '--capacity',
+      '4',
+      '--name',
+      'honest',
+    ]);
     started.push(worker);
     const errorCodes: string[] = [];
     let badFramesSent = false;
@@ -77,7 +118,13 @@ describe('hostile peers', () => {
       void open(url, (m, ws) => {
         switch (m.type) {
           case 'challenge':
-            send(ws, { type: 'hello', protocolVersion: PROTOCOL_VERSION, workerName: 'hostile', capacity: 4, proof: proveKey(KEY, m.nonce as Uint8Array) });
+            send(ws, {
+              type: 'hello',
+              protocolVersion: PROTOCOL_VERSION,
+              workerName: 'hostile',
+              capacity: 4,
+              proof: proveKey(KEY, m.nonce as Uint8Array),
+            });
             return;
           case 'welcome': {
             const wire = m.plan as unknown as WirePlan;
@@ -85,7 +132,12 @@ describe('hostile peers', () => {
             ownIds = m.assignments as number[];
             dim = plan.dim;
             maxFrameBytes = (m.limits as { maxFrameBytes: number }).maxFrameBytes;
-            runtimes = new Map(ownIds.map((id) => [id, new ClientRuntime(plan, id, clientObjective(plan.scenario, id))]));
+            runtimes = new Map(
+              ownIds.map((id) => [
+                id,
+                new ClientRuntime(plan, id, clientObjective(plan.scenario, id)),
+              ]),
+            );
             return;
           }
           case 'error':
@@ -99,22 +151,55 @@ describe('hostile peers', () => {
             const fields = m.fields as WireFields;
             const encodedDown: EncodedFields = {};
             for (const [name, wv] of Object.entries(fields)) encodedDown[name] = fromWire(wv);
-            const result = runtimes.get(m.clientId as number)!.work(m.round as number, m.exchange as string, encodedDown, m.localSteps as number, m.stepSize as number);
+            const result = runtimes
+              .get(m.clientId as number)!
+              .work(
+                m.round as number,
+                m.exchange as string,
+                encodedDown,
+                m.localSteps as number,
+                m.stepSize as number,
+              );
             const upFields: WireFields = {};
             for (const [name, cv] of Object.entries(result.encodedUp)) upFields[name] = toWire(cv);
-            const up = { type: 'up' as const, round: m.round as number, exchange: m.exchange as string, clientId: m.clientId as number, fields: upFields, localSteps: result.stepsTaken, computeSeconds: 0, waitSeconds: 0, transferSeconds: 0 };
+            const up = {
+              type: 'up' as const,
+              round: m.round as number,
+              exchange: m.exchange as string,
+              clientId: m.clientId as number,
+              fields: upFields,
+              localSteps: result.stepsTaken,
+              computeSeconds: 0,
+              waitSeconds: 0,
+              transferSeconds: 0,
+            };
             if (!badFramesSent) {
               badFramesSent = true;
               const [name, vector] = Object.entries(upFields)[0];
               const nanValues = new Uint8Array(vector.values);
               new DataView(nanValues.buffer).setFloat64(0, Number.NaN, true);
-              const otherClient = Array.from({ length: 8 }, (_, i) => i).find((i) => !ownIds.includes(i))!;
+              const otherClient = Array.from({ length: 8 }, (_, i) => i).find(
+                (i) => !ownIds.includes(i),
+              )!;
               // 0xc1 is the one byte MessagePack never uses (MessagePack spec, "formats").
               sendRaw(ws, Uint8Array.from([0xc1, 0x13, 0x37, 0x00]));
               send(ws, { ...up, round: up.round + 7 });
               send(ws, { ...up, clientId: otherClient });
-              send(ws, { ...up, fields: { ...upFields, [name]: toWire({ dim: dim - 1, indices: null, values: new Float64Array(dim - 1) }) } });
-              send(ws, { ...up, fields: { ...upFields, [name]: { ...vector, values: nanValues } } });
+              send(ws, {
+                ...up,
+                fields: {
+                  ...upFields,
+                  [name]: toWire({
+                    dim: dim - 1,
+                    indices: null,
+                    values: new Float64Array(dim - 1),
+                  }),
+                },
+              });
+              send(ws, {
+                ...up,
+                fields: { ...upFields, [name]: { ...vector, values: nanValues } },
+              });
               sendRaw(ws, new Uint8Array(maxFrameBytes + 1));
             }
             send(ws, up);
@@ -130,11 +215,30 @@ describe('hostile peers', () => {
     expect(exit.code, coordinator.stderr).toBe(0);
     expect((await worker.exit(20_000)).code).toBe(0);
 
-    expect([...errorCodes].sort()).toEqual(['E_CLIENT', 'E_DECODE', 'E_DIMENSION', 'E_NOT_FINITE', 'E_ROUND', 'E_SIZE']);
-    const summary = JSON.parse(readFileSync(join(out, 'outcome.json'), 'utf8')) as { protocolErrors: Record<string, number> };
-    expect(summary.protocolErrors).toEqual({ E_AUTH: 1, E_DECODE: 1, E_ROUND: 1, E_CLIENT: 1, E_DIMENSION: 1, E_NOT_FINITE: 1, E_SIZE: 1 });
+    expect([...errorCodes].sort()).toEqual([
+      'E_CLIENT',
+      'E_DECODE',
+      'E_DIMENSION',
+      'E_NOT_FINITE',
+      'E_ROUND',
+      'E_SIZE',
+    ]);
+    const summary = JSON.parse(readFileSync(join(out, 'outcome.json'), 'utf8')) as {
+      protocolErrors: Record<string, number>;
+    };
+    expect(summary.protocolErrors).toEqual({
+      E_AUTH: 1,
+      E_DECODE: 1,
+      E_ROUND: 1,
+      E_CLIENT: 1,
+      E_DIMENSION: 1,
+      E_NOT_FINITE: 1,
+      E_SIZE: 1,
+    });
 
-    const clean = runInProcess(loadScenarioFile(join(repoRoot, 'scenarios/quickstart.yaml'), TWEAKS));
+    const clean = runInProcess(
+      loadScenarioFile(join(repoRoot, 'scenarios/quickstart.yaml'), TWEAKS),
+    );
     const expected = Buffer.alloc(clean.finalModel.length * 8);
     clean.finalModel.forEach((v, j) => expected.writeDoubleLE(v, j * 8));
     expect(readFileSync(join(out, 'model.f64')).equals(expected)).toBe(true);

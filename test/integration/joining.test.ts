@@ -31,7 +31,11 @@ interface Outcome {
   rate: { measured: number | null; predicted: number | null };
   floor: { measured: number | null; predicted: number | null };
   roundsToTarget: number | null;
-  bytes: { payload: { up: number; down: number }; encoded: { up: number; down: number }; wire: { up: number; down: number } };
+  bytes: {
+    payload: { up: number; down: number };
+    encoded: { up: number; down: number };
+    wire: { up: number; down: number };
+  };
   seconds: { virtual: number; wall: number };
   distributed: { workers: { workerName: string }[]; lostWorkers: unknown[] };
 }
@@ -40,9 +44,26 @@ describe('joining a coordinator on loopback', () => {
   it('writes a private key file, refuses a wrong key, and runs with a worker holding the right one', async () => {
     const dir = freshDir('joining');
     const out = join(dir, 'results');
-    const coordinator = start(['coordinator', join(repoRoot, 'scenarios/quickstart.yaml'), '--listen', '127.0.0.1:0', '--workers-min', '1', '--workers-wait-seconds', '40', '--out', out, '--tweak', 'run.rounds:3', '--tweak', 'run.target:0']);
+    const coordinator = start([
+      'coordinator',
+      join(repoRoot, 'scenarios/quickstart.yaml'),
+      '--listen',
+      '127.0.0.1:0',
+      '--workers-min',
+      '1',
+      '--workers-wait-seconds',
+      '40',
+      '--out',
+      out,
+      '--tweak',
+      'run.rounds:3',
+      '--tweak',
+      'run.target:0',
+    ]);
     const keyPath = (await coordinator.waitForStderr(/key file: (\S+) \(/, 30_000))[1];
-    const url = (await coordinator.waitForStderr(/listening on (ws:\/\/127\.0\.0\.1:\d+)/, 5_000))[1];
+    const url = (
+      await coordinator.waitForStderr(/listening on (ws:\/\/127\.0\.0\.1:\d+)/, 5_000)
+    )[1];
     // One line says where; the file is this user's alone, in a private folder of the temp dir.
     expect(coordinator.stderr.match(/key file: /g)).toHaveLength(1);
     expect(coordinator.stderr).toContain(`workers on this machine join with --key-file ${keyPath}`);
@@ -50,14 +71,32 @@ describe('joining a coordinator on loopback', () => {
     expect(statSync(keyPath).mode & 0o777).toBe(0o600);
     expect(statSync(dirname(keyPath)).mode & 0o777).toBe(0o700);
 
-    const wrong = start(['worker', url, '--key-file', writeKeyFile(dir, 'a-key-the-coordinator-never-wrote'), '--capacity', '8', '--name', 'wrong-key']);
+    const wrong = start([
+      'worker',
+      url,
+      '--key-file',
+      writeKeyFile(dir, 'a-key-the-coordinator-never-wrote'),
+      '--capacity',
+      '8',
+      '--name',
+      'wrong-key',
+    ]);
     const wrongExit = await wrong.exit(30_000);
     expect(wrongExit.code, wrong.stderr).toBe(1);
     expect(wrong.stderr).toMatch(/refused by the coordinator \(E_AUTH\)/);
     expect(wrong.stderr).not.toMatch(/hosting clients/);
     await coordinator.waitForStderr(/connection \d+ refused \(E_AUTH\)/, 5_000);
 
-    const worker = start(['worker', url, '--key-file', keyPath, '--capacity', '8', '--name', 'right-key']);
+    const worker = start([
+      'worker',
+      url,
+      '--key-file',
+      keyPath,
+      '--capacity',
+      '8',
+      '--name',
+      'right-key',
+    ]);
     await coordinator.waitForStderr(/worker "right-key" joined with capacity 8 /, 30_000);
     const exit = await coordinator.exit(60_000);
     expect(exit.code, coordinator.stderr).toBe(0);
@@ -69,7 +108,15 @@ describe('joining a coordinator on loopback', () => {
     // The key file went with the coordinator; the results folder never held it.
     expect(existsSync(dirname(keyPath))).toBe(false);
     const files = readdirSync(out).sort();
-    expect(files).toEqual(['clients.jsonl', 'model.f64', 'model.json', 'outcome.json', 'report.html', 'resolved-scenario.yaml', 'rounds.jsonl']);
+    expect(files).toEqual([
+      'clients.jsonl',
+      'model.f64',
+      'model.json',
+      'outcome.json',
+      'report.html',
+      'resolved-scenario.yaml',
+      'rounds.jsonl',
+    ]);
     const outcome = JSON.parse(readFileSync(join(out, 'outcome.json'), 'utf8')) as Outcome;
     expect(outcome.method).toBe('fedlin');
     expect(outcome.stopReason).toBe('rounds-complete');
@@ -80,7 +127,8 @@ describe('joining a coordinator on loopback', () => {
       expect(outcome.floor).toHaveProperty(key);
     }
     expect(outcome).toHaveProperty('roundsToTarget');
-    for (const layer of ['payload', 'encoded', 'wire'] as const) expect(outcome.bytes[layer].up).toBeGreaterThan(0);
+    for (const layer of ['payload', 'encoded', 'wire'] as const)
+      expect(outcome.bytes[layer].up).toBeGreaterThan(0);
     expect(outcome.seconds.wall).toBeGreaterThan(0);
     expect(outcome.distributed.workers.map((w) => w.workerName)).toEqual(['right-key']);
     expect(outcome.distributed.lostWorkers).toEqual([]);

@@ -7,7 +7,16 @@ import { CliProcess, freshDir, repoRoot, survivorsAfter } from './cli-process.js
 
 describe('no worker process outlives roundwire run', () => {
   it('on success', async () => {
-    const cli = new CliProcess(['run', join(repoRoot, 'scenarios/quickstart.yaml'), '--out', freshDir('orphans-ok'), '--tweak', 'run.rounds:3', '--tweak', 'run.workers:3']);
+    const cli = new CliProcess([
+      'run',
+      join(repoRoot, 'scenarios/quickstart.yaml'),
+      '--out',
+      freshDir('orphans-ok'),
+      '--tweak',
+      'run.rounds:3',
+      '--tweak',
+      'run.workers:3',
+    ]);
     try {
       const exit = await cli.exit(50_000);
       expect(exit.code, cli.stderr).toBe(0);
@@ -19,7 +28,22 @@ describe('no worker process outlives roundwire run', () => {
   }, 60_000);
 
   it('on SIGINT', async () => {
-    const cli = new CliProcess(['run', join(repoRoot, 'scenarios/quickstart.yaml'), '--out', freshDir('orphans-int'), '--tweak', 'run.rounds:1000', '--tweak', 'run.target:0', '--tweak', 'run.workers:3', '--tweak', 'timing.clock:wall', '--tweak', 'timing.stepCostSeconds:0.01']);
+    const cli = new CliProcess([
+      'run',
+      join(repoRoot, 'scenarios/quickstart.yaml'),
+      '--out',
+      freshDir('orphans-int'),
+      '--tweak',
+      'run.rounds:1000',
+      '--tweak',
+      'run.target:0',
+      '--tweak',
+      'run.workers:3',
+      '--tweak',
+      'timing.clock:wall',
+      '--tweak',
+      'timing.stepCostSeconds:0.01',
+    ]);
     try {
       await cli.waitForStderr(/round \d+\/1000/, 30_000);
       const pids = cli.workerPids();

@@ -57,7 +57,12 @@ afterAll(() => rmSync(scratch, { recursive: true, force: true }));
 function runPrinted(command: string): { status: number; stdout: string; stderr: string } {
   const args = words(command).slice(2);
   try {
-    const stdout = execFileSync(process.execPath, [cli, ...args], { cwd: scratch, encoding: 'utf8', stdio: ['ignore', 'pipe', 'pipe'], timeout: 90_000 });
+    const stdout = execFileSync(process.execPath, [cli, ...args], {
+      cwd: scratch,
+      encoding: 'utf8',
+      stdio: ['ignore', 'pipe', 'pipe'],
+      timeout: 90_000,
+    });
     return { status: 0, stdout, stderr: '' };
   } catch (error) {
     const e = error as { status: number | null; stdout: string; stderr: string };
@@ -93,17 +98,31 @@ describe('README commands, as written', () => {
     expect(keyLine).toBeDefined();
     execFileSync('sh', ['-c', keyLine!.trim()], { cwd: scratch });
     const port = await freePort();
-    const [coordinatorLine, workerLine] = [cluster.find((c) => c.includes(' coordinator '))!, cluster.find((c) => c.includes(' worker '))!];
-    const coordinatorArgs = words(coordinatorLine.replace('0.0.0.0:7070', `127.0.0.1:${port}`)).slice(2);
+    const [coordinatorLine, workerLine] = [
+      cluster.find((c) => c.includes(' coordinator '))!,
+      cluster.find((c) => c.includes(' worker '))!,
+    ];
+    const coordinatorArgs = words(
+      coordinatorLine.replace('0.0.0.0:7070', `127.0.0.1:${port}`),
+    ).slice(2);
     const workerArgs = words(workerLine.replace('HOST:7070', `127.0.0.1:${port}`)).slice(2);
-    const coordinator = new CliProcess([...coordinatorArgs, '--out', join(scratch, 'cluster')], {}, scratch);
+    const coordinator = new CliProcess(
+      [...coordinatorArgs, '--out', join(scratch, 'cluster')],
+      {},
+      scratch,
+    );
     const workers: ReturnType<typeof spawn>[] = [];
     try {
       await coordinator.waitForStderr(/listening on/, 30_000);
-      for (let i = 0; i < 2; i++) workers.push(spawn(process.execPath, [cli, ...workerArgs], { cwd: scratch, stdio: 'ignore' }));
+      for (let i = 0; i < 2; i++)
+        workers.push(
+          spawn(process.execPath, [cli, ...workerArgs], { cwd: scratch, stdio: 'ignore' }),
+        );
       const exit = await coordinator.exit(90_000);
       expect(exit.code, coordinator.stderr).toBe(0);
-      expect(JSON.parse(readFileSync(join(scratch, 'cluster/outcome.json'), 'utf8')).stopReason).toBe('target-reached');
+      expect(
+        JSON.parse(readFileSync(join(scratch, 'cluster/outcome.json'), 'utf8')).stopReason,
+      ).toBe('target-reached');
     } finally {
       coordinator.kill();
       for (const w of workers) w.kill('SIGKILL');

@@ -8,12 +8,24 @@
 
 import { once } from 'node:events';
 import { readFileSync } from 'node:fs';
-import { createConnection, createServer, type AddressInfo, type Server, type Socket } from 'node:net';
+import {
+  createConnection,
+  createServer,
+  type AddressInfo,
+  type Server,
+  type Socket,
+} from 'node:net';
 import { join } from 'node:path';
 import { randomBytes } from 'node:crypto';
 import WebSocket from 'ws';
 import { afterEach, describe, expect, it } from 'vitest';
-import { decodeMessage, encodeMessage, PROTOCOL_VERSION, proveKey, RESUME_TOKEN_BYTES } from '../../src/protocol/index.js';
+import {
+  decodeMessage,
+  encodeMessage,
+  PROTOCOL_VERSION,
+  proveKey,
+  RESUME_TOKEN_BYTES,
+} from '../../src/protocol/index.js';
 import type { RoundRecord } from '../../src/engine/round-record.js';
 import { CliProcess, freshDir, readJsonLines, repoRoot, writeKeyFile } from './cli-process.js';
 
@@ -25,12 +37,29 @@ function helloWithResume(url: string, resume: Uint8Array): Promise<string> {
   return new Promise((resolve, reject) => {
     const ws = new WebSocket(url, { perMessageDeflate: false });
     ws.on('message', (data: Buffer) => {
-      const message = decodeMessage(new Uint8Array(data), READ_LIMIT_BYTES) as Record<string, unknown>;
+      const message = decodeMessage(new Uint8Array(data), READ_LIMIT_BYTES) as Record<
+        string,
+        unknown
+      >;
       if (message.type === 'challenge') {
-        ws.send(encodeMessage({ type: 'hello', protocolVersion: PROTOCOL_VERSION, workerName: 'stranger', capacity: 1, proof: proveKey(KEY, message.nonce as Uint8Array), resume }), { binary: true });
+        ws.send(
+          encodeMessage({
+            type: 'hello',
+            protocolVersion: PROTOCOL_VERSION,
+            workerName: 'stranger',
+            capacity: 1,
+            proof: proveKey(KEY, message.nonce as Uint8Array),
+            resume,
+          }),
+          { binary: true },
+        );
       } else {
         ws.close();
-        resolve(message.type === 'error' ? (message.code as string) : `unexpected ${String(message.type)}`);
+        resolve(
+          message.type === 'error'
+            ? (message.code as string)
+            : `unexpected ${String(message.type)}`,
+        );
       }
     });
     ws.once('error', reject);
@@ -115,23 +144,57 @@ async function startRun(prefix: string, extra: string[]): Promise<Run> {
   const keyFile = writeKeyFile(out, KEY);
   // Wall clock, 10 ms steps: quickstart's FedLin rounds last a few tenths of a second, long
   // enough to cut in, and the run a few seconds.
-  const coordinator = start(['coordinator', join(repoRoot, 'scenarios/quickstart.yaml'), '--listen', '127.0.0.1:0', '--key-file', keyFile, '--workers-min', '3', '--out', out,
-    '--tweak', 'timing.clock:wall', '--tweak', 'timing.stepCostSeconds:0.01', ...extra]);
+  const coordinator = start([
+    'coordinator',
+    join(repoRoot, 'scenarios/quickstart.yaml'),
+    '--listen',
+    '127.0.0.1:0',
+    '--key-file',
+    keyFile,
+    '--workers-min',
+    '3',
+    '--out',
+    out,
+    '--tweak',
+    'timing.clock:wall',
+    '--tweak',
+    'timing.stepCostSeconds:0.01',
+    ...extra,
+  ]);
   const url = (await coordinator.waitForStderr(/listening on (ws:\/\/\S+)/, 20_000))[1];
   const relay = new Relay(Number(new URL(url).port));
   relays.push(relay);
   const relayUrl = await relay.listen();
-  const workerArgs = (name: string, joinUrl: string) => ['worker', joinUrl, '--key-file', keyFile, '--capacity', '3', '--name', name];
+  const workerArgs = (name: string, joinUrl: string) => [
+    'worker',
+    joinUrl,
+    '--key-file',
+    keyFile,
+    '--capacity',
+    '3',
+    '--name',
+    name,
+  ];
   const direct = [start(workerArgs('direct-a', url)), start(workerArgs('direct-b', url))];
   const relayed = start(workerArgs('relayed', relayUrl));
   const hosts = await coordinator.waitForStderr(/worker "relayed" hosts clients ([\d, ]+)/, 30_000);
-  return { url, out, coordinator, direct, relayed, relay, relayedClientIds: hosts[1].split(', ').map(Number) };
+  return {
+    url,
+    out,
+    coordinator,
+    direct,
+    relayed,
+    relay,
+    relayedClientIds: hosts[1].split(', ').map(Number),
+  };
 }
 
 interface Summary {
   stopReason: string;
   protocolErrors: Record<string, number>;
-  distributed: { lostWorkers: { workerName: string; clientIds: number[]; round: number; reason: string }[] };
+  distributed: {
+    lostWorkers: { workerName: string; clientIds: number[]; round: number; reason: string }[];
+  };
 }
 
 function readSummary(out: string): Summary {
@@ -147,13 +210,24 @@ describe('a worker whose connection drops mid-run', () => {
     // Top-k on both links keeps replicas at both ends (downlink fields, FedLin's uplink gradient),
     // which a resume must start afresh on both ends; quickstart reaches its target so in under
     // 100 of its 150 rounds without a cut (measured with `roundwire run`).
-    const run = await startRun('resume', ['--resume-grace-seconds', '10',
-      '--tweak', 'compression.uplink.default:{kind: top-k, fraction: 0.5, errorFeedback: true}',
-      '--tweak', 'compression.downlink.default:{kind: top-k, fraction: 0.5, errorFeedback: true}']);
+    const run = await startRun('resume', [
+      '--resume-grace-seconds',
+      '10',
+      '--tweak',
+      'compression.uplink.default:{kind: top-k, fraction: 0.5, errorFeedback: true}',
+      '--tweak',
+      'compression.downlink.default:{kind: top-k, fraction: 0.5, errorFeedback: true}',
+    ]);
     await run.coordinator.waitForStderr(/round (?:[4-9]|[1-9]\d+)\//, 30_000);
     run.relay.cut();
-    const disconnected = Number((await run.coordinator.waitForStderr(/worker "relayed" disconnected in round (\d+)/, 10_000))[1]);
-    const resumed = Number((await run.coordinator.waitForStderr(/worker "relayed" resumed in round (\d+)/, 20_000))[1]);
+    const disconnected = Number(
+      (
+        await run.coordinator.waitForStderr(/worker "relayed" disconnected in round (\d+)/, 10_000)
+      )[1],
+    );
+    const resumed = Number(
+      (await run.coordinator.waitForStderr(/worker "relayed" resumed in round (\d+)/, 20_000))[1],
+    );
 
     const exit = await run.coordinator.exit(60_000);
     expect(exit.code, run.coordinator.stderr).toBe(0);
@@ -162,7 +236,8 @@ describe('a worker whose connection drops mid-run', () => {
     expect(run.relayed.stderr).toMatch(/reconnecting to resume/);
     expect(run.relayed.stderr).toMatch(/resumed hosting clients/);
     expect(run.relay.connections).toBe(2);
-    for (const worker of run.direct) expect((await worker.exit(15_000)).code, worker.stderr).toBe(0);
+    for (const worker of run.direct)
+      expect((await worker.exit(15_000)).code, worker.stderr).toBe(0);
 
     const summary = readSummary(run.out);
     expect(summary.distributed.lostWorkers).toEqual([]);
@@ -173,7 +248,9 @@ describe('a worker whose connection drops mid-run', () => {
     expect(rounds.map((r) => r.round)).toEqual(Array.from({ length: rounds.length }, (_, i) => i));
 
     const ids = run.relayedClientIds;
-    const droppedRounds = rounds.filter((r) => ids.some((id) => r.dropped.includes(id))).map((r) => r.round);
+    const droppedRounds = rounds
+      .filter((r) => ids.some((id) => r.dropped.includes(id)))
+      .map((r) => r.round);
     // Dropped in the round of the cut at least, and only from the disconnect to the resume.
     expect(droppedRounds.length).toBeGreaterThan(0);
     for (const round of droppedRounds) {
@@ -183,19 +260,33 @@ describe('a worker whose connection drops mid-run', () => {
     // Every round before the disconnect and after the resume has every relayed client taking part.
     const afterResume = rounds.filter((r) => r.round > resumed);
     expect(afterResume.length).toBeGreaterThan(0);
-    for (const r of rounds.filter((x) => (x.round >= 1 && x.round < disconnected) || x.round > resumed)) {
+    for (const r of rounds.filter(
+      (x) => (x.round >= 1 && x.round < disconnected) || x.round > resumed,
+    )) {
       for (const id of ids) expect(takesPart(r, id), `client ${id} in round ${r.round}`).toBe(true);
     }
   }, 90_000);
 
   it('is marked lost when it does not come back within the grace, and the run completes', async () => {
-    const run = await startRun('resume-lost', ['--resume-grace-seconds', '1', '--tweak', 'run.rounds:120', '--tweak', 'run.target:0']);
+    const run = await startRun('resume-lost', [
+      '--resume-grace-seconds',
+      '1',
+      '--tweak',
+      'run.rounds:120',
+      '--tweak',
+      'run.target:0',
+    ]);
     await run.coordinator.waitForStderr(/round (?:[4-9]|[1-9]\d+)\//, 30_000);
     run.relay.refusing = true;
     run.relay.cut();
-    const lostLine = await run.coordinator.waitForStderr(/worker "relayed" lost in round (\d+) \(connection closed, no resume within 1 s\)/, 20_000);
+    const lostLine = await run.coordinator.waitForStderr(
+      /worker "relayed" lost in round (\d+) \(connection closed, no resume within 1 s\)/,
+      20_000,
+    );
     // A token the coordinator never dealt, and one of the wrong length.
-    expect(await helloWithResume(run.url, new Uint8Array(randomBytes(RESUME_TOKEN_BYTES)))).toBe('E_AUTH');
+    expect(await helloWithResume(run.url, new Uint8Array(randomBytes(RESUME_TOKEN_BYTES)))).toBe(
+      'E_AUTH',
+    );
     expect(await helloWithResume(run.url, new Uint8Array(5))).toBe('E_TYPE');
     // Its token expired with the grace: when it gets through again, its resume is refused.
     run.relay.refusing = false;

@@ -17,36 +17,70 @@ const SLOW_TWO = 'timing.slowdown:{kind: two-class, fraction: 0.25, factor: 10}'
 // stepCostSeconds is 0.001 by default: a budget of 0.01 s holds 10 fast steps or 1 slow one.
 const DEADLINE = 'timing.policy:{kind: deadline, budgetSeconds: 0.01}';
 
-async function run(name: string, tweaks: string[]): Promise<{ rounds: RoundRecord[]; clients: ClientRoundRecord[]; summary: { stopReason: string } }> {
+async function run(
+  name: string,
+  tweaks: string[],
+): Promise<{
+  rounds: RoundRecord[];
+  clients: ClientRoundRecord[];
+  summary: { stopReason: string };
+}> {
   const out = freshDir(name);
-  const cli = new CliProcess(['run', join(repoRoot, 'scenarios/quickstart.yaml'), '--out', out, '--tweak', 'run.workers:2', ...tweaks.flatMap((o) => ['--tweak', o])]);
+  const cli = new CliProcess([
+    'run',
+    join(repoRoot, 'scenarios/quickstart.yaml'),
+    '--out',
+    out,
+    '--tweak',
+    'run.workers:2',
+    ...tweaks.flatMap((o) => ['--tweak', o]),
+  ]);
   try {
     const exit = await cli.exit(55_000);
     expect(exit.code, cli.stderr).toBe(0);
   } finally {
     cli.kill();
   }
-  return { rounds: readJsonLines<RoundRecord>(join(out, 'rounds.jsonl')), clients: readJsonLines<ClientRoundRecord>(join(out, 'clients.jsonl')), summary: JSON.parse(readFileSync(join(out, 'outcome.json'), 'utf8')) as { stopReason: string } };
+  return {
+    rounds: readJsonLines<RoundRecord>(join(out, 'rounds.jsonl')),
+    clients: readJsonLines<ClientRoundRecord>(join(out, 'clients.jsonl')),
+    summary: JSON.parse(readFileSync(join(out, 'outcome.json'), 'utf8')) as { stopReason: string },
+  };
 }
 
 function slowClients(record: RoundRecord): string[] {
   const steps = Object.values(record.localSteps);
   const most = Math.max(...steps);
-  return Object.entries(record.localSteps).filter(([, s]) => s < most).map(([id]) => id);
+  return Object.entries(record.localSteps)
+    .filter(([, s]) => s < most)
+    .map(([id]) => id);
 }
 
 describe('round policies with two clients 10x slower', () => {
   it('deadline: slow clients get a tenth of the steps; FedLin reaches the target', async () => {
-    const { rounds, summary } = await run('deadline-fedlin', [SLOW_TWO, DEADLINE, 'run.rounds:150', 'run.target:1e-8']);
+    const { rounds, summary } = await run('deadline-fedlin', [
+      SLOW_TWO,
+      DEADLINE,
+      'run.rounds:150',
+      'run.target:1e-8',
+    ]);
     const first = rounds[1];
     expect(slowClients(first)).toHaveLength(2);
-    for (const [id, steps] of Object.entries(first.localSteps)) expect(steps).toBe(slowClients(first).includes(id) ? 1 : 10);
+    for (const [id, steps] of Object.entries(first.localSteps))
+      expect(steps).toBe(slowClients(first).includes(id) ? 1 : 10);
     expect(summary.stopReason).toBe('target-reached');
     expect(rounds[rounds.length - 1].suboptimality).toBeLessThanOrEqual(1e-8);
   }, 60_000);
 
   it('deadline: FedAvg stops at a floor', async () => {
-    const { rounds } = await run('deadline-fedavg', [SLOW_TWO, DEADLINE, 'method.name:fedavg', 'method.stepPolicy:fixed', 'run.rounds:60', 'run.target:1e-8']);
+    const { rounds } = await run('deadline-fedavg', [
+      SLOW_TWO,
+      DEADLINE,
+      'method.name:fedavg',
+      'method.stepPolicy:fixed',
+      'run.rounds:60',
+      'run.target:1e-8',
+    ]);
     const last = rounds[rounds.length - 1].suboptimality!;
     const tenBefore = rounds[rounds.length - 11].suboptimality!;
     expect(rounds).toHaveLength(61);
@@ -56,7 +90,12 @@ describe('round policies with two clients 10x slower', () => {
   }, 60_000);
 
   it('fastest-k with k = 6 drops the two slow clients every round', async () => {
-    const { rounds, clients } = await run('fastest-k', [SLOW_TWO, 'timing.policy:{kind: fastest-k, k: 6}', 'run.rounds:10', 'run.target:0']);
+    const { rounds, clients } = await run('fastest-k', [
+      SLOW_TWO,
+      'timing.policy:{kind: fastest-k, k: 6}',
+      'run.rounds:10',
+      'run.target:0',
+    ]);
     // Everyone takes its planned 5 steps; the slow clients' compute is ten times the others'.
     const firstRound = clients.filter((c) => c.round === 1 && c.exchange === 'local');
     const fastest = Math.min(...firstRound.map((c) => c.computeSeconds));

@@ -18,7 +18,14 @@ import { runInProcess } from '../../src/engine/in-process-engine.js';
 import { finishRun } from '../../src/commands/run-report.js';
 import { resultFiles } from '../../src/results/results-folder.js';
 import type { ClientRoundRecord, RoundRecord } from '../../src/engine/round-record.js';
-import { CliProcess, freshDir, overrideArgs, readJsonLines, repoRoot, survivorsAfter } from './cli-process.js';
+import {
+  CliProcess,
+  freshDir,
+  overrideArgs,
+  readJsonLines,
+  repoRoot,
+  survivorsAfter,
+} from './cli-process.js';
 
 const METHODS = ['gd', 'fedavg', 'fedprox', 'fednova', 'scaffold', 'fedlin', 'fedsplit'] as const;
 const POLICIES = ['all', 'deadline', 'fastest-k'] as const;
@@ -73,14 +80,17 @@ function overridesOf(cell: Cell): Record<string, string> {
     'timing.slowdown': '{kind: lognormal, sigma: 0.5}',
     'timing.jitter': '0.3',
   };
-  if (cell.policy === 'deadline') overrides['timing.policy'] = '{kind: deadline, budgetSeconds: 0.004}';
-  if (cell.policy === 'fastest-k') overrides['timing.policy'] = `{kind: fastest-k, k: ${FASTEST_K}}`;
+  if (cell.policy === 'deadline')
+    overrides['timing.policy'] = '{kind: deadline, budgetSeconds: 0.004}';
+  if (cell.policy === 'fastest-k')
+    overrides['timing.policy'] = `{kind: fastest-k, k: ${FASTEST_K}}`;
   if (cell.compression === 'top-k with error feedback') {
     overrides['compression.uplink.default'] = '{kind: top-k, fraction: 0.25, errorFeedback: true}';
     overrides['compression.downlink.default'] = '{kind: top-k, fraction: 0.5, errorFeedback: true}';
   }
   if (cell.compression === 'rand-k') {
-    overrides['compression.uplink.default'] = '{kind: rand-k, fraction: 0.3, unbiased: true, errorFeedback: false}';
+    overrides['compression.uplink.default'] =
+      '{kind: rand-k, fraction: 0.3, unbiased: true, errorFeedback: false}';
     overrides['compression.downlink.default'] = '{kind: rand-k, fraction: 0.5}';
   }
   return overrides;
@@ -88,7 +98,9 @@ function overridesOf(cell: Cell): Record<string, string> {
 
 /** A record as JSON holds it, without the wall clock and the layers only a network counts. */
 function comparable<T extends RoundRecord | ClientRoundRecord>(record: T): unknown {
-  const copy = JSON.parse(JSON.stringify(record)) as Record<string, unknown> & { bytes: Record<string, unknown> };
+  const copy = JSON.parse(JSON.stringify(record)) as Record<string, unknown> & {
+    bytes: Record<string, unknown>;
+  };
   delete copy.wallSeconds;
   delete copy.bytes.encoded;
   delete copy.bytes.wire;
@@ -110,7 +122,8 @@ describe('the covering sample of the matrix', () => {
       expect(new Set(mine.map((c) => c.participation)).size).toBe(PARTICIPATIONS.length);
       expect(new Set(mine.map((c) => c.gradient)).size).toBe(GRADIENTS.length);
     }
-    const pairs = (a: keyof Cell, b: keyof Cell) => new Set(CELLS.map((c) => `${c[a]}|${c[b]}`)).size;
+    const pairs = (a: keyof Cell, b: keyof Cell) =>
+      new Set(CELLS.map((c) => `${c[a]}|${c[b]}`)).size;
     expect(pairs('policy', 'compression')).toBe(POLICIES.length * COMPRESSIONS.length);
     expect(pairs('compression', 'participation')).toBe(COMPRESSIONS.length * PARTICIPATIONS.length);
     expect(pairs('participation', 'gradient')).toBe(PARTICIPATIONS.length * GRADIENTS.length);
@@ -120,34 +133,64 @@ describe('the covering sample of the matrix', () => {
 
 describe(`roundwire run (${WORKERS} workers, ${CLIENTS} clients, ${ROUNDS} rounds) equals the in-process engine bit for bit`, () => {
   for (const cell of CELLS) {
-    it(cellName(cell), async () => {
-      const out = freshDir(`same-${cell.method}`);
-      const run = new CliProcess(['run', join(repoRoot, 'scenarios/quickstart.yaml'), '--out', out, ...overrideArgs(overridesOf(cell))]);
-      try {
-        const exit = await run.exit(50_000);
-        expect(exit.code, run.stderr).toBe(0);
-        expect(run.workerPids()).toHaveLength(WORKERS);
-        expect(await survivorsAfter(run.workerPids(), 5_000)).toEqual([]);
-      } finally {
-        run.kill();
-      }
+    it(
+      cellName(cell),
+      async () => {
+        const out = freshDir(`same-${cell.method}`);
+        const run = new CliProcess([
+          'run',
+          join(repoRoot, 'scenarios/quickstart.yaml'),
+          '--out',
+          out,
+          ...overrideArgs(overridesOf(cell)),
+        ]);
+        try {
+          const exit = await run.exit(50_000);
+          expect(exit.code, run.stderr).toBe(0);
+          expect(run.workerPids()).toHaveLength(WORKERS);
+          expect(await survivorsAfter(run.workerPids(), 5_000)).toEqual([]);
+        } finally {
+          run.kill();
+        }
 
-      const inProcess = freshDir(`same-${cell.method}-in-process`);
-      finishRun(runInProcess(loadScenarioFile(join(out, resultFiles.resolvedScenario))), 'in-process', inProcess);
-      expect(readFileSync(join(out, resultFiles.modelBinary)).equals(readFileSync(join(inProcess, resultFiles.modelBinary)))).toBe(true);
-      const rounds = readJsonLines<RoundRecord>(join(out, resultFiles.rounds));
-      expect(rounds.map(comparable)).toEqual(readJsonLines<RoundRecord>(join(inProcess, resultFiles.rounds)).map(comparable));
-      expect(readJsonLines<ClientRoundRecord>(join(out, resultFiles.clients)).map(comparable)).toEqual(readJsonLines<ClientRoundRecord>(join(inProcess, resultFiles.clients)).map(comparable));
+        const inProcess = freshDir(`same-${cell.method}-in-process`);
+        finishRun(
+          runInProcess(loadScenarioFile(join(out, resultFiles.resolvedScenario))),
+          'in-process',
+          inProcess,
+        );
+        expect(
+          readFileSync(join(out, resultFiles.modelBinary)).equals(
+            readFileSync(join(inProcess, resultFiles.modelBinary)),
+          ),
+        ).toBe(true);
+        const rounds = readJsonLines<RoundRecord>(join(out, resultFiles.rounds));
+        expect(rounds.map(comparable)).toEqual(
+          readJsonLines<RoundRecord>(join(inProcess, resultFiles.rounds)).map(comparable),
+        );
+        expect(
+          readJsonLines<ClientRoundRecord>(join(out, resultFiles.clients)).map(comparable),
+        ).toEqual(
+          readJsonLines<ClientRoundRecord>(join(inProcess, resultFiles.clients)).map(comparable),
+        );
 
-      // The cell exercised what it names.
-      expect(rounds.map((r) => r.round)).toEqual(Array.from({ length: ROUNDS + 1 }, (_, r) => r));
-      const participants = Math.round(cell.participation * CLIENTS);
-      for (const r of rounds.slice(1)) {
-        expect(Object.keys(r.localSteps)).toHaveLength(participants);
-        if (cell.policy === 'fastest-k') expect(r.dropped.length).toBeGreaterThanOrEqual(participants - FASTEST_K);
-        else expect(r.dropped).toEqual([]);
-      }
-      if (cell.policy === 'deadline') expect(rounds.slice(1).some((r) => Object.values(r.localSteps).some((s) => s !== PLANNED_STEPS))).toBe(true);
-    }, 60_000);
+        // The cell exercised what it names.
+        expect(rounds.map((r) => r.round)).toEqual(Array.from({ length: ROUNDS + 1 }, (_, r) => r));
+        const participants = Math.round(cell.participation * CLIENTS);
+        for (const r of rounds.slice(1)) {
+          expect(Object.keys(r.localSteps)).toHaveLength(participants);
+          if (cell.policy === 'fastest-k')
+            expect(r.dropped.length).toBeGreaterThanOrEqual(participants - FASTEST_K);
+          else expect(r.dropped).toEqual([]);
+        }
+        if (cell.policy === 'deadline')
+          expect(
+            rounds
+              .slice(1)
+              .some((r) => Object.values(r.localSteps).some((s) => s !== PLANNED_STEPS)),
+          ).toBe(true);
+      },
+      60_000,
+    );
   }
 });

@@ -30,7 +30,29 @@ function hasOpenssl(): boolean {
 function makeCertificate(dir: string): { certFile: string; keyFile: string } {
   const certFile = join(dir, 'cert.pem');
   const keyFile = join(dir, 'key.pem');
-  execFileSync('openssl', ['req', '-x509', '-newkey', 'ec', '-pkeyopt', 'ec_paramgen_curve:prime256v1', '-nodes', '-keyout', keyFile, '-out', certFile, '-days', '1', '-subj', '/CN=roundwire test coordinator', '-addext', 'subjectAltName=IP:127.0.0.1'], { stdio: 'ignore', timeout: 20_000 });
+  execFileSync(
+    'openssl',
+    [
+      'req',
+      '-x509',
+      '-newkey',
+      'ec',
+      '-pkeyopt',
+      'ec_paramgen_curve:prime256v1',
+      '-nodes',
+      '-keyout',
+      keyFile,
+      '-out',
+      certFile,
+      '-days',
+      '1',
+      '-subj',
+      '/CN=roundwire test coordinator',
+      '-addext',
+      'subjectAltName=IP:127.0.0.1',
+    ],
+    { stdio: 'ignore', timeout: 20_000 },
+  );
   return { certFile, keyFile };
 }
 
@@ -50,7 +72,26 @@ describe('a coordinator serving wss://', () => {
     certFile = files.certFile;
     keyFile = writeKeyFile(dir, KEY);
     out = join(dir, 'results');
-    coordinator = new CliProcess(['coordinator', join(repoRoot, 'scenarios/quickstart.yaml'), '--listen', '127.0.0.1:0', '--key-file', keyFile, '--tls-cert', files.certFile, '--tls-key', files.keyFile, '--workers-wait-seconds', '40', '--out', out, '--tweak', 'run.rounds:5', '--tweak', 'run.target:0']);
+    coordinator = new CliProcess([
+      'coordinator',
+      join(repoRoot, 'scenarios/quickstart.yaml'),
+      '--listen',
+      '127.0.0.1:0',
+      '--key-file',
+      keyFile,
+      '--tls-cert',
+      files.certFile,
+      '--tls-key',
+      files.keyFile,
+      '--workers-wait-seconds',
+      '40',
+      '--out',
+      out,
+      '--tweak',
+      'run.rounds:5',
+      '--tweak',
+      'run.target:0',
+    ]);
     started.push(coordinator);
     url = (await coordinator.waitForStderr(/listening on (\S+)/, 30_000))[1];
   }, 40_000);
@@ -60,7 +101,15 @@ describe('a coordinator serving wss://', () => {
   });
 
   function worker(coordinatorUrl: string, extra: string[]): CliProcess {
-    const p = new CliProcess(['worker', coordinatorUrl, '--key-file', keyFile, '--capacity', '8', ...extra]);
+    const p = new CliProcess([
+      'worker',
+      coordinatorUrl,
+      '--key-file',
+      keyFile,
+      '--capacity',
+      '8',
+      ...extra,
+    ]);
     started.push(p);
     return p;
   }
@@ -92,10 +141,15 @@ describe('a coordinator serving wss://', () => {
     const trusting = worker(url, ['--name', 'trusting', '--ca', certFile]);
     const workerExit = await trusting.exit(40_000);
     expect(workerExit.code, trusting.stderr).toBe(0);
-    expect(trusting.stderr).toMatch(/done \(rounds-complete\), hosted clients 0, 1, 2, 3, 4, 5, 6, 7/);
+    expect(trusting.stderr).toMatch(
+      /done \(rounds-complete\), hosted clients 0, 1, 2, 3, 4, 5, 6, 7/,
+    );
     const exit = await coordinator.exit(20_000);
     expect(exit.code, coordinator.stderr).toBe(0);
-    const summary = JSON.parse(readFileSync(join(out, 'outcome.json'), 'utf8')) as { stopReason: string; distributed: { workers: { workerName: string }[]; lostWorkers: unknown[] } };
+    const summary = JSON.parse(readFileSync(join(out, 'outcome.json'), 'utf8')) as {
+      stopReason: string;
+      distributed: { workers: { workerName: string }[]; lostWorkers: unknown[] };
+    };
     expect(summary.stopReason).toBe('rounds-complete');
     expect(summary.distributed.workers.map((w) => w.workerName)).toEqual(['trusting']);
     expect(summary.distributed.lostWorkers).toEqual([]);
@@ -107,7 +161,14 @@ describe('a coordinator serving wss://', () => {
 describe('roundwire worker --ca', () => {
   it('exits 2 when the file holds no certificate', async () => {
     const dir = freshDir('tls-bad-ca');
-    const p = new CliProcess(['worker', 'wss://127.0.0.1:9', '--key-file', writeKeyFile(dir, KEY), '--ca', join(dir, 'missing.pem')]);
+    const p = new CliProcess([
+      'worker',
+      'wss://127.0.0.1:9',
+      '--key-file',
+      writeKeyFile(dir, KEY),
+      '--ca',
+      join(dir, 'missing.pem'),
+    ]);
     try {
       const exit = await p.exit(15_000);
       expect(exit.code).toBe(2);
@@ -125,10 +186,23 @@ describe('a wss:// worker against a plain ws:// server', () => {
     const port = (server.address() as { port: number }).port;
     const retries: string[] = [];
     try {
-      const policy = { attemptsMax: 3, firstDelaySeconds: 0.01, delayCapSeconds: 0.02, connectTimeoutSeconds: 5 };
-      const error = await connectWithRetry(`wss://127.0.0.1:${port}`, policy, 1024, () => undefined, (line) => retries.push(line)).catch((e: unknown) => e);
+      const policy = {
+        attemptsMax: 3,
+        firstDelaySeconds: 0.01,
+        delayCapSeconds: 0.02,
+        connectTimeoutSeconds: 5,
+      };
+      const error = await connectWithRetry(
+        `wss://127.0.0.1:${port}`,
+        policy,
+        1024,
+        () => undefined,
+        (line) => retries.push(line),
+      ).catch((e: unknown) => e);
       expect(error).toBeInstanceOf(JoinError);
-      expect((error as JoinError).message).toContain(`127.0.0.1:${port} does not speak TLS: join with ws://127.0.0.1:${port} instead of wss://`);
+      expect((error as JoinError).message).toContain(
+        `127.0.0.1:${port} does not speak TLS: join with ws://127.0.0.1:${port} instead of wss://`,
+      );
       expect(retries).toEqual([]);
     } finally {
       server.closeAllConnections();

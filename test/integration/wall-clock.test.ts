@@ -10,14 +10,24 @@ import { CliProcess, freshDir, readJsonLines, repoRoot } from './cli-process.js'
 describe('wall clock', () => {
   it('runs the quickstart in seconds and records compute, wait and transfer per client', async () => {
     const out = freshDir('wall');
-    const cli = new CliProcess(['run', join(repoRoot, 'scenarios/quickstart.yaml'), '--out', out, '--tweak', 'timing.clock:wall']);
+    const cli = new CliProcess([
+      'run',
+      join(repoRoot, 'scenarios/quickstart.yaml'),
+      '--out',
+      out,
+      '--tweak',
+      'timing.clock:wall',
+    ]);
     try {
       const exit = await cli.exit(50_000);
       expect(exit.code, cli.stderr).toBe(0);
     } finally {
       cli.kill();
     }
-    const summary = JSON.parse(readFileSync(join(out, 'outcome.json'), 'utf8')) as { clock: string; seconds: { wall: number; virtual: number } };
+    const summary = JSON.parse(readFileSync(join(out, 'outcome.json'), 'utf8')) as {
+      clock: string;
+      seconds: { wall: number; virtual: number };
+    };
     expect(summary.clock).toBe('wall');
     expect(summary.seconds.wall).toBeLessThan(30);
     const records = readJsonLines<ClientRoundRecord>(join(out, 'clients.jsonl'));

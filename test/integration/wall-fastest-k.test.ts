@@ -30,7 +30,12 @@ const COMMON = [
 // one's: 450 ms for FedAvg's 5 local steps of 10 ms, and for FedLin's one-step gradient
 // exchange with steps of 50 ms; well above the scheduling delays of a few processes sharing two
 // cores.
-const FEDAVG = [...COMMON, 'timing.stepCostSeconds:0.01', 'method.name:fedavg', 'method.stepPolicy:fixed'];
+const FEDAVG = [
+  ...COMMON,
+  'timing.stepCostSeconds:0.01',
+  'method.name:fedavg',
+  'method.stepPolicy:fixed',
+];
 const FEDLIN = [...COMMON, 'timing.stepCostSeconds:0.05'];
 
 /** The clients the scenario's speed model makes slow (slowdown above 1), from the model itself. */
@@ -40,9 +45,20 @@ function slowClientIds(tweaks: string[]): number[] {
   return [...slowdowns.keys()].filter((id) => slowdowns[id] > 1);
 }
 
-async function run(name: string, tweaks: string[]): Promise<{ rounds: RoundRecord[]; clients: ClientRoundRecord[] }> {
+async function run(
+  name: string,
+  tweaks: string[],
+): Promise<{ rounds: RoundRecord[]; clients: ClientRoundRecord[] }> {
   const out = freshDir(name);
-  const cli = new CliProcess(['run', SCENARIO, '--out', out, '--tweak', 'run.workers:2', ...tweaks.flatMap((o) => ['--tweak', o])]);
+  const cli = new CliProcess([
+    'run',
+    SCENARIO,
+    '--out',
+    out,
+    '--tweak',
+    'run.workers:2',
+    ...tweaks.flatMap((o) => ['--tweak', o]),
+  ]);
   try {
     const exit = await cli.exit(50_000);
     expect(exit.code, cli.stderr).toBe(0);
@@ -51,7 +67,10 @@ async function run(name: string, tweaks: string[]): Promise<{ rounds: RoundRecor
   } finally {
     cli.kill();
   }
-  return { rounds: readJsonLines<RoundRecord>(join(out, 'rounds.jsonl')), clients: readJsonLines<ClientRoundRecord>(join(out, 'clients.jsonl')) };
+  return {
+    rounds: readJsonLines<RoundRecord>(join(out, 'rounds.jsonl')),
+    clients: readJsonLines<ClientRoundRecord>(join(out, 'clients.jsonl')),
+  };
 }
 
 describe('wall-clock fastest-k with two clients 10x slower', () => {
@@ -66,7 +85,8 @@ describe('wall-clock fastest-k with two clients 10x slower', () => {
       expect(r.dropped, `round ${r.round}`).toEqual(slow);
       expect(Object.keys(r.localSteps), `round ${r.round}`).toHaveLength(8);
     }
-    for (const c of clients.filter((x) => x.round >= 2)) expect(c.dropped, `round ${c.round}, client ${c.clientId}`).toBe(slow.includes(c.clientId));
+    for (const c of clients.filter((x) => x.round >= 2))
+      expect(c.dropped, `round ${c.round}, client ${c.clientId}`).toBe(slow.includes(c.clientId));
   }, 60_000);
 
   it('FedLin: the slow clients are dropped at the gradient exchange and never do local work on a stale gradient', async () => {
@@ -79,11 +99,16 @@ describe('wall-clock fastest-k with two clients 10x slower', () => {
     for (let round = 1; round <= ROUNDS; round++) {
       const gradient = clients.filter((c) => c.round === round && c.exchange === 'gradient');
       const local = clients.filter((c) => c.round === round && c.exchange === 'local');
-      if (round >= 2) expect(gradient.map((c) => c.clientId).sort((a, b) => a - b), `round ${round}`).toEqual([0, 1, 2, 3, 4, 5, 6, 7]);
+      if (round >= 2)
+        expect(
+          gradient.map((c) => c.clientId).sort((a, b) => a - b),
+          `round ${round}`,
+        ).toEqual([0, 1, 2, 3, 4, 5, 6, 7]);
       // FedLin's local steps correct with grad f_i(x) of this round's x (DESIGN.md, Methods): a
       // client works locally only after its gradient of this round counted.
       const counted = new Set(gradient.filter((c) => !c.dropped).map((c) => c.clientId));
-      for (const c of local) expect(counted.has(c.clientId), `round ${round}, client ${c.clientId}`).toBe(true);
+      for (const c of local)
+        expect(counted.has(c.clientId), `round ${round}, client ${c.clientId}`).toBe(true);
     }
   }, 60_000);
 });

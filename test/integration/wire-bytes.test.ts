@@ -12,20 +12,43 @@ import type { ClientRoundRecord } from '../../src/engine/round-record.js';
 import { CliProcess, freshDir, readJsonLines, repoRoot } from './cli-process.js';
 
 interface SummaryBytes {
-  bytes: { payload: { up: number; down: number }; encoded: { up: number; down: number }; wire: { up: number; down: number } };
-  distributed: { controlBytes: { wire: { up: number; down: number } }; socketBytes: { up: number; down: number } };
+  bytes: {
+    payload: { up: number; down: number };
+    encoded: { up: number; down: number };
+    wire: { up: number; down: number };
+  };
+  distributed: {
+    controlBytes: { wire: { up: number; down: number } };
+    socketBytes: { up: number; down: number };
+  };
 }
 
-async function runAndRead(name: string, tweaks: string[]): Promise<{ records: ClientRoundRecord[]; summary: SummaryBytes }> {
+async function runAndRead(
+  name: string,
+  tweaks: string[],
+): Promise<{ records: ClientRoundRecord[]; summary: SummaryBytes }> {
   const out = freshDir(name);
-  const run = new CliProcess(['run', join(repoRoot, 'scenarios/quickstart.yaml'), '--out', out, '--tweak', 'run.rounds:4', '--tweak', 'run.workers:2', ...tweaks.flatMap((o) => ['--tweak', o])]);
+  const run = new CliProcess([
+    'run',
+    join(repoRoot, 'scenarios/quickstart.yaml'),
+    '--out',
+    out,
+    '--tweak',
+    'run.rounds:4',
+    '--tweak',
+    'run.workers:2',
+    ...tweaks.flatMap((o) => ['--tweak', o]),
+  ]);
   try {
     const exit = await run.exit(50_000);
     expect(exit.code, run.stderr).toBe(0);
   } finally {
     run.kill();
   }
-  return { records: readJsonLines<ClientRoundRecord>(join(out, 'clients.jsonl')), summary: JSON.parse(readFileSync(join(out, 'outcome.json'), 'utf8')) as SummaryBytes };
+  return {
+    records: readJsonLines<ClientRoundRecord>(join(out, 'clients.jsonl')),
+    summary: JSON.parse(readFileSync(join(out, 'outcome.json'), 'utf8')) as SummaryBytes,
+  };
 }
 
 function checkFraming(records: readonly ClientRoundRecord[], summary: SummaryBytes): void {
@@ -56,7 +79,10 @@ describe('wire bytes = encoded bytes + RFC 6455 headers, from the sockets', () =
   }, 60_000);
 
   it('sparse top-k uplink messages', async () => {
-    const { records, summary } = await runAndRead('wire-sparse', ['compression.uplink.default:{kind: top-k, fraction: 0.25}', 'method.name:fedavg']);
+    const { records, summary } = await runAndRead('wire-sparse', [
+      'compression.uplink.default:{kind: top-k, fraction: 0.25}',
+      'method.name:fedavg',
+    ]);
     checkFraming(records, summary);
     // A quarter of 20 entries, at 8 bytes a value plus an index byte each, against 160 dense.
     const ups = records.map((r) => r.bytes.payload.up);

@@ -6,7 +6,11 @@ import { errorCode, relativeError } from '../problem/fixtures.js';
 
 /** B B^T / n + I for a random n x n B: symmetric positive definite by construction. */
 function randomSpd(rng: Rng, n: number): Matrix {
-  const b = Matrix.from1DArray(n, n, Array.from({ length: n * n }, () => rng.normal()));
+  const b = Matrix.from1DArray(
+    n,
+    n,
+    Array.from({ length: n * n }, () => rng.normal()),
+  );
   return b.mmul(b.transpose()).div(n).add(Matrix.eye(n));
 }
 
@@ -36,9 +40,13 @@ describe('choleskyFactor and choleskySolve', () => {
 
   it('names the failing pivot of an indefinite or singular matrix', () => {
     // [[1, 2], [2, 1]] has eigenvalues 3 and -1; [[1, 1], [1, 1]] has 2 and 0.
-    expect(errorCode(() => choleskyFactor(Float64Array.of(1, 2, 2, 1), 2))).toBe('E_LINALG_NOT_POSITIVE_DEFINITE');
+    expect(errorCode(() => choleskyFactor(Float64Array.of(1, 2, 2, 1), 2))).toBe(
+      'E_LINALG_NOT_POSITIVE_DEFINITE',
+    );
     expect(() => choleskyFactor(Float64Array.of(1, 1, 1, 1), 2)).toThrow(/pivot 1 of 2 is 0/);
-    expect(errorCode(() => choleskyFactor(Float64Array.of(Number.NaN), 1))).toBe('E_LINALG_NOT_POSITIVE_DEFINITE');
+    expect(errorCode(() => choleskyFactor(Float64Array.of(Number.NaN), 1))).toBe(
+      'E_LINALG_NOT_POSITIVE_DEFINITE',
+    );
     expect(errorCode(() => choleskyFactor(Float64Array.of(1, 0, 0), 2))).toBe('E_LINALG_DIMENSION');
   });
 });

@@ -5,8 +5,10 @@ import { gmres } from '../../src/linalg/gmres.js';
 import { LinalgError } from '../../src/linalg/linalg-error.js';
 import { randomArray, randomMatrix } from '../theory/fixtures/affine-maps.js';
 
-const operatorOf = (a: Matrix) => (v: Float64Array) => Float64Array.from(a.mmul(Matrix.columnVector(Array.from(v))).getColumn(0));
-const distance = (a: ArrayLike<number>, b: ArrayLike<number>) => Math.hypot(...Array.from(a, (value, j) => value - b[j]));
+const operatorOf = (a: Matrix) => (v: Float64Array) =>
+  Float64Array.from(a.mmul(Matrix.columnVector(Array.from(v))).getColumn(0));
+const distance = (a: ArrayLike<number>, b: ArrayLike<number>) =>
+  Math.hypot(...Array.from(a, (value, j) => value - b[j]));
 const norm = (a: ArrayLike<number>) => Math.hypot(...Array.from(a));
 
 describe('gmres', () => {
@@ -58,7 +60,11 @@ describe('gmres', () => {
     const result = gmres((v) => v, new Float64Array(3));
     expect(Array.from(result.solution)).toEqual([0, 0, 0]);
     expect(result.products).toBe(0);
-    expect(() => gmres((v) => v, Float64Array.of(1), { iterationsMax: 0 })).toThrowError(LinalgError);
-    expect(() => gmres((v) => v, Float64Array.of(1), { relativeTolerance: 0 })).toThrowError(LinalgError);
+    expect(() => gmres((v) => v, Float64Array.of(1), { iterationsMax: 0 })).toThrowError(
+      LinalgError,
+    );
+    expect(() => gmres((v) => v, Float64Array.of(1), { relativeTolerance: 0 })).toThrowError(
+      LinalgError,
+    );
   });
 });

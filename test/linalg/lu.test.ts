@@ -8,7 +8,6 @@ import { codeOf } from '../support/error-code.js';
 
 const theoryErrorCode = (action: () => unknown): string => codeOf(action, LinalgError);
 
-
 const rowMajor = (a: Matrix) => Float64Array.from(a.to1DArray());
 
 describe('luFactor and luSolve', () => {
@@ -34,8 +33,12 @@ describe('luFactor and luSolve', () => {
   });
 
   it('refuses singular matrices, non-finite entries, wrong sizes and in-place solves with stable codes', () => {
-    expect(theoryErrorCode(() => luFactor(Float64Array.of(1, 2, 2, 4), 2))).toBe('E_LINALG_SINGULAR');
-    expect(theoryErrorCode(() => luFactor(Float64Array.of(1, NaN, 0, 1), 2))).toBe('E_LINALG_NOT_FINITE');
+    expect(theoryErrorCode(() => luFactor(Float64Array.of(1, 2, 2, 4), 2))).toBe(
+      'E_LINALG_SINGULAR',
+    );
+    expect(theoryErrorCode(() => luFactor(Float64Array.of(1, NaN, 0, 1), 2))).toBe(
+      'E_LINALG_NOT_FINITE',
+    );
     expect(theoryErrorCode(() => luFactor(Float64Array.of(1, 0, 0), 2))).toBe('E_LINALG_DIMENSION');
     const factors = luFactor(Float64Array.of(2, 0, 0, 2), 2);
     const b = Float64Array.of(1, 1);

@@ -24,7 +24,11 @@ function denseOperator(m: Matrix): SymmetricOperator {
 }
 
 function randomSymmetric(rng: Rng, n: number): Matrix {
-  const b = Matrix.from1DArray(n, n, Array.from({ length: n * n }, () => rng.normal()));
+  const b = Matrix.from1DArray(
+    n,
+    n,
+    Array.from({ length: n * n }, () => rng.normal()),
+  );
   return b.add(b.transpose()).div(2);
 }
 
@@ -50,9 +54,13 @@ describe('tridiagonalEigen', () => {
     );
     const lastRow = reference.eigenvectorMatrix.getRow(n - 1);
     for (let k = 0; k < n; k++) {
-      expect(Math.abs(values[order[k]] - reference.realEigenvalues[referenceOrder[k]])).toBeLessThan(1e-12);
+      expect(
+        Math.abs(values[order[k]] - reference.realEigenvalues[referenceOrder[k]]),
+      ).toBeLessThan(1e-12);
       // Eigenvectors are defined up to sign.
-      expect(Math.abs(Math.abs(lastComponents[order[k]]) - Math.abs(lastRow[referenceOrder[k]]))).toBeLessThan(1e-10);
+      expect(
+        Math.abs(Math.abs(lastComponents[order[k]]) - Math.abs(lastRow[referenceOrder[k]])),
+      ).toBeLessThan(1e-10);
     }
   });
 
@@ -95,7 +103,9 @@ describe('extremeEigenvalues (Lanczos with full reorthogonalization)', () => {
     const shard = gaussianShard(Rng.fromSeed(3), 0, 80, 30, 'real', 2, 1);
     const objective = new LeastSquaresObjective(shard, 1e-3);
     const a = featureMatrix(shard);
-    const reference = symmetricExtremes(a.transpose().mmul(a).div(80).add(Matrix.eye(30).mul(1e-3)));
+    const reference = symmetricExtremes(
+      a.transpose().mmul(a).div(80).add(Matrix.eye(30).mul(1e-3)),
+    );
     const result = hessianExtremeEigenvalues(objective, new Float64Array(30));
     expect(relative(result.smallest, reference.smallest)).toBeLessThan(1e-9);
     expect(relative(result.largest, reference.largest)).toBeLessThan(1e-9);
@@ -112,15 +122,20 @@ describe('extremeEigenvalues (Lanczos with full reorthogonalization)', () => {
         projected[s] = z;
       }
       out.fill(0);
-      for (let s = 0; s < 5; s++) for (let j = 0; j < 12; j++) out[j] += a[s * 12 + j] * projected[s];
+      for (let s = 0; s < 5; s++)
+        for (let j = 0; j < 12; j++) out[j] += a[s * 12 + j] * projected[s];
     };
     expect(semidefiniteExtremeEigenvalues(gram, 12).smallest).toBe(0);
     const indefinite = randomSymmetric(Rng.fromSeed(5), 6);
-    expect(errorCode(() => semidefiniteExtremeEigenvalues(denseOperator(indefinite), 6))).toBe('E_LINALG_NOT_POSITIVE_DEFINITE');
+    expect(errorCode(() => semidefiniteExtremeEigenvalues(denseOperator(indefinite), 6))).toBe(
+      'E_LINALG_NOT_POSITIVE_DEFINITE',
+    );
   });
 
   it('refuses to return unconverged Ritz values', () => {
     const m = randomSymmetric(Rng.fromSeed(6), 50);
-    expect(errorCode(() => extremeEigenvalues(denseOperator(m), 50, { iterationsMax: 3 }))).toBe('E_LINALG_NOT_CONVERGED');
+    expect(errorCode(() => extremeEigenvalues(denseOperator(m), 50, { iterationsMax: 3 }))).toBe(
+      'E_LINALG_NOT_CONVERGED',
+    );
   });
 });

@@ -9,7 +9,14 @@ import { join } from 'node:path';
 import { afterAll, describe, expect, it } from 'vitest';
 import { parse as parseYaml } from 'yaml';
 import { CliProcess, freshDir, repoRoot, writeKeyFile } from '../integration/cli-process.js';
-import { fetchText, PrometheusServer, promtoolCheckConfig, promtoolCheckMetrics, waitFor, type QueryResult } from './prometheus-tools.js';
+import {
+  fetchText,
+  PrometheusServer,
+  promtoolCheckConfig,
+  promtoolCheckMetrics,
+  waitFor,
+  type QueryResult,
+} from './prometheus-tools.js';
 
 interface DashboardPanel {
   type: string;
@@ -18,8 +25,12 @@ interface DashboardPanel {
   targets?: { expr: string; datasource?: { type: string; uid: string } }[];
 }
 
-const dashboard = JSON.parse(readFileSync(join(repoRoot, 'grafana/dashboards/roundwire.json'), 'utf8')) as { uid: string; schemaVersion: number; panels: DashboardPanel[] };
-const queries = dashboard.panels.flatMap((p) => (p.targets ?? []).map((t) => ({ panel: p.title, expr: t.expr })));
+const dashboard = JSON.parse(
+  readFileSync(join(repoRoot, 'grafana/dashboards/roundwire.json'), 'utf8'),
+) as { uid: string; schemaVersion: number; panels: DashboardPanel[] };
+const queries = dashboard.panels.flatMap((p) =>
+  (p.targets ?? []).map((t) => ({ panel: p.title, expr: t.expr })),
+);
 
 /** Grafana's $__rate_interval, fixed for a query sent straight to Prometheus (1 s scrapes: many samples). */
 function forPrometheus(expr: string): string {
@@ -59,9 +70,13 @@ describe('the Grafana folder', () => {
   });
 
   it('has provisioning for the data source and the dashboard, and a scrape config promtool accepts', () => {
-    const datasources = parseYaml(readFileSync(join(repoRoot, 'grafana/provisioning/datasources/prometheus.yaml'), 'utf8')) as { datasources: { type: string }[] };
+    const datasources = parseYaml(
+      readFileSync(join(repoRoot, 'grafana/provisioning/datasources/prometheus.yaml'), 'utf8'),
+    ) as { datasources: { type: string }[] };
     expect(datasources.datasources[0].type).toBe('prometheus');
-    const providers = parseYaml(readFileSync(join(repoRoot, 'grafana/provisioning/dashboards/roundwire.yaml'), 'utf8')) as { providers: { type: string; options: { path: string } }[] };
+    const providers = parseYaml(
+      readFileSync(join(repoRoot, 'grafana/provisioning/dashboards/roundwire.yaml'), 'utf8'),
+    ) as { providers: { type: string; options: { path: string } }[] };
     expect(providers.providers[0].type).toBe('file');
     expect(providers.providers[0].options.path).toMatch(/dashboards$/);
     const check = promtoolCheckConfig(join(repoRoot, 'grafana/prometheus.yml'));
@@ -73,13 +88,54 @@ describe('Prometheus scraping a coordinator and a worker', () => {
   it('answers every dashboard query with data', async () => {
     const out = freshDir('metrics-prometheus');
     const keyFile = writeKeyFile(out, KEY);
-    const coordinator = start(['coordinator', join(repoRoot, 'scenarios/quickstart.yaml'), '--listen', '127.0.0.1:0', '--workers-min', '2', '--out', out, '--tweak', 'run.rounds:30', '--metrics', '127.0.0.1:0', '--metrics-linger', '60'], keyFile);
-    const coordinatorUrl = (await coordinator.waitForStderr(/listening on (ws:\/\/\S+)/, 30_000))[1];
-    const coordinatorMetrics = new URL((await coordinator.waitForStderr(/metrics on (http:\/\/\S+)/, 5_000))[1]);
-    const metered = start(['worker', coordinatorUrl, '--capacity', '8', '--name', 'metered', '--metrics', '127.0.0.1:0', '--metrics-linger', '60'], keyFile);
-    const workerMetrics = new URL((await metered.waitForStderr(/metrics on (http:\/\/\S+)/, 30_000))[1]);
+    const coordinator = start(
+      [
+        'coordinator',
+        join(repoRoot, 'scenarios/quickstart.yaml'),
+        '--listen',
+        '127.0.0.1:0',
+        '--workers-min',
+        '2',
+        '--out',
+        out,
+        '--tweak',
+        'run.rounds:30',
+        '--metrics',
+        '127.0.0.1:0',
+        '--metrics-linger',
+        '60',
+      ],
+      keyFile,
+    );
+    const coordinatorUrl = (
+      await coordinator.waitForStderr(/listening on (ws:\/\/\S+)/, 30_000)
+    )[1];
+    const coordinatorMetrics = new URL(
+      (await coordinator.waitForStderr(/metrics on (http:\/\/\S+)/, 5_000))[1],
+    );
+    const metered = start(
+      [
+        'worker',
+        coordinatorUrl,
+        '--capacity',
+        '8',
+        '--name',
+        'metered',
+        '--metrics',
+        '127.0.0.1:0',
+        '--metrics-linger',
+        '60',
+      ],
+      keyFile,
+    );
+    const workerMetrics = new URL(
+      (await metered.waitForStderr(/metrics on (http:\/\/\S+)/, 30_000))[1],
+    );
 
-    prometheus = await PrometheusServer.start({ 'roundwire-coordinator': [coordinatorMetrics.host], 'roundwire-workers': [workerMetrics.host] });
+    prometheus = await PrometheusServer.start({
+      'roundwire-coordinator': [coordinatorMetrics.host],
+      'roundwire-workers': [workerMetrics.host],
+    });
     // Both targets scraped before the run starts, so that rates span the run.
     await waitFor('both targets up', 30_000, async () => {
       const up = await prometheus!.query('up == 1');
@@ -88,7 +144,9 @@ describe('Prometheus scraping a coordinator and a worker', () => {
     start(['worker', coordinatorUrl, '--capacity', '8', '--name', 'plain'], keyFile);
     await coordinator.waitForStderr(/metrics: the run is over/, 50_000);
     await metered.waitForStderr(/metrics: the run is over/, 20_000);
-    const summary = JSON.parse(readFileSync(join(out, 'outcome.json'), 'utf8')) as { rounds: number };
+    const summary = JSON.parse(readFileSync(join(out, 'outcome.json'), 'utf8')) as {
+      rounds: number;
+    };
 
     await waitFor('the final round count scraped', 20_000, async () => {
       const rounds = await prometheus!.query('roundwire_rounds_completed_total');
@@ -97,13 +155,16 @@ describe('Prometheus scraping a coordinator and a worker', () => {
     // Series born during the run need a second scrape before rate() has two samples.
     const empty = await waitFor('every dashboard query answered', 20_000, async () => {
       const missing: string[] = [];
-      for (const q of queries) if (!nonEmpty(await prometheus!.query(forPrometheus(q.expr)))) missing.push(`${q.panel}: ${q.expr}`);
+      for (const q of queries)
+        if (!nonEmpty(await prometheus!.query(forPrometheus(q.expr))))
+          missing.push(`${q.panel}: ${q.expr}`);
       return missing.length === 0 ? missing : null;
     }).catch(async () => {
       const missing: string[] = [];
       for (const q of queries) {
         const result = await prometheus!.query(forPrometheus(q.expr));
-        if (!nonEmpty(result)) missing.push(`${q.panel}: ${q.expr} -> ${JSON.stringify(result).slice(0, 300)}`);
+        if (!nonEmpty(result))
+          missing.push(`${q.panel}: ${q.expr} -> ${JSON.stringify(result).slice(0, 300)}`);
       }
       return missing;
     });

@@ -12,24 +12,40 @@ export const PROMETHEUS_BIN = '/usr/bin/prometheus';
 export const PROMTOOL_BIN = '/usr/bin/promtool';
 
 export function requireBinary(path: string): void {
-  if (!existsSync(path)) throw new Error(`${path} is missing: install Debian's prometheus package (apt-get install prometheus); CI does`);
+  if (!existsSync(path))
+    throw new Error(
+      `${path} is missing: install Debian's prometheus package (apt-get install prometheus); CI does`,
+    );
 }
 
-export async function fetchText(url: string): Promise<{ status: number; contentType: string | null; text: string }> {
+export async function fetchText(
+  url: string,
+): Promise<{ status: number; contentType: string | null; text: string }> {
   const response = await fetch(url, { signal: AbortSignal.timeout(10_000) });
-  return { status: response.status, contentType: response.headers.get('content-type'), text: await response.text() };
+  return {
+    status: response.status,
+    contentType: response.headers.get('content-type'),
+    text: await response.text(),
+  };
 }
 
 /** `promtool check metrics` on exposition text: its exit code and complaints. */
 export function promtoolCheckMetrics(text: string): { status: number | null; output: string } {
   requireBinary(PROMTOOL_BIN);
-  const result = spawnSync(PROMTOOL_BIN, ['check', 'metrics'], { input: text, encoding: 'utf8', timeout: 20_000 });
+  const result = spawnSync(PROMTOOL_BIN, ['check', 'metrics'], {
+    input: text,
+    encoding: 'utf8',
+    timeout: 20_000,
+  });
   return { status: result.status, output: `${result.stdout}${result.stderr}` };
 }
 
 export function promtoolCheckConfig(file: string): { status: number | null; output: string } {
   requireBinary(PROMTOOL_BIN);
-  const result = spawnSync(PROMTOOL_BIN, ['check', 'config', file], { encoding: 'utf8', timeout: 20_000 });
+  const result = spawnSync(PROMTOOL_BIN, ['check', 'config', file], {
+    encoding: 'utf8',
+    timeout: 20_000,
+  });
   return { status: result.status, output: `${result.stdout}${result.stderr}` };
 }
 
@@ -44,7 +60,11 @@ export function freePort(): Promise<number> {
   });
 }
 
-export async function waitFor<T>(what: string, timeoutMs: number, probe: () => Promise<T | null>): Promise<T> {
+export async function waitFor<T>(
+  what: string,
+  timeoutMs: number,
+  probe: () => Promise<T | null>,
+): Promise<T> {
   const deadline = Date.now() + timeoutMs;
   let lastError = '';
   for (;;) {
@@ -54,14 +74,20 @@ export async function waitFor<T>(what: string, timeoutMs: number, probe: () => P
     } catch (error) {
       lastError = (error as Error).message;
     }
-    if (Date.now() > deadline) throw new Error(`${what}: not within ${timeoutMs} ms${lastError === '' ? '' : ` (last error: ${lastError})`}`);
+    if (Date.now() > deadline)
+      throw new Error(
+        `${what}: not within ${timeoutMs} ms${lastError === '' ? '' : ` (last error: ${lastError})`}`,
+      );
     await new Promise((r) => setTimeout(r, 250));
   }
 }
 
 export interface QueryResult {
   status: string;
-  data?: { resultType: string; result: { metric: Record<string, string>; value: [number, string] }[] };
+  data?: {
+    resultType: string;
+    result: { metric: Record<string, string>; value: [number, string] }[];
+  };
   error?: string;
 }
 
@@ -85,15 +111,30 @@ export class PrometheusServer {
     requireBinary(PROMETHEUS_BIN);
     const folder = mkdtempSync(join(tmpdir(), 'roundwire-prometheus-'));
     const scrapeConfigs = Object.entries(jobs)
-      .map(([job, targets]) => `  - job_name: ${job}\n    static_configs:\n      - targets: [${targets.map((t) => `'${t}'`).join(', ')}]\n`)
+      .map(
+        ([job, targets]) =>
+          `  - job_name: ${job}\n    static_configs:\n      - targets: [${targets.map((t) => `'${t}'`).join(', ')}]\n`,
+      )
       .join('');
     const config = join(folder, 'prometheus.yml');
-    writeFileSync(config, `global:\n  scrape_interval: 1s\n  scrape_timeout: 1s\n  evaluation_interval: 1s\nscrape_configs:\n${scrapeConfigs}`);
+    writeFileSync(
+      config,
+      `global:\n  scrape_interval: 1s\n  scrape_timeout: 1s\n  evaluation_interval: 1s\nscrape_configs:\n${scrapeConfigs}`,
+    );
     const port = await freePort();
-    const child = spawn(PROMETHEUS_BIN, [`--config.file=${config}`, `--storage.tsdb.path=${join(folder, 'data')}`, `--web.listen-address=127.0.0.1:${port}`], { stdio: ['ignore', 'ignore', 'pipe'] });
+    const child = spawn(
+      PROMETHEUS_BIN,
+      [
+        `--config.file=${config}`,
+        `--storage.tsdb.path=${join(folder, 'data')}`,
+        `--web.listen-address=127.0.0.1:${port}`,
+      ],
+      { stdio: ['ignore', 'ignore', 'pipe'] },
+    );
     const server = new PrometheusServer(`http://127.0.0.1:${port}`, child, folder);
     await waitFor(`Prometheus ready on port ${port}`, 30_000, async () => {
-      if (child.exitCode !== null) throw new Error(`prometheus exited with ${child.exitCode}:\n${server.log}`);
+      if (child.exitCode !== null)
+        throw new Error(`prometheus exited with ${child.exitCode}:\n${server.log}`);
       const response = await fetch(`${server.url}/-/ready`, { signal: AbortSignal.timeout(2000) });
       return response.status === 200 ? true : null;
     });
@@ -101,7 +142,9 @@ export class PrometheusServer {
   }
 
   async query(expr: string): Promise<QueryResult> {
-    const response = await fetch(`${this.url}/api/v1/query?query=${encodeURIComponent(expr)}`, { signal: AbortSignal.timeout(10_000) });
+    const response = await fetch(`${this.url}/api/v1/query?query=${encodeURIComponent(expr)}`, {
+      signal: AbortSignal.timeout(10_000),
+    });
     return (await response.json()) as QueryResult;
   }
 

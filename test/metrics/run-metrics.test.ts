@@ -36,8 +36,21 @@ let families: Map<string, ParsedFamily>;
 
 beforeAll(async () => {
   const out = freshDir('metrics-run');
-  run = new CliProcess(['run', join(repoRoot, 'scenarios/quickstart.yaml'), '--out', out, '--tweak', 'run.rounds:30', '--metrics', '127.0.0.1:0', '--metrics-linger', String(LINGER_SECONDS)]);
-  const url = (await run.waitForStderr(/metrics on (http:\/\/127\.0\.0\.1:\d+\/metrics)/, 30_000))[1];
+  run = new CliProcess([
+    'run',
+    join(repoRoot, 'scenarios/quickstart.yaml'),
+    '--out',
+    out,
+    '--tweak',
+    'run.rounds:30',
+    '--metrics',
+    '127.0.0.1:0',
+    '--metrics-linger',
+    String(LINGER_SECONDS),
+  ]);
+  const url = (
+    await run.waitForStderr(/metrics on (http:\/\/127\.0\.0\.1:\d+\/metrics)/, 30_000)
+  )[1];
   await run.waitForStderr(/metrics: the run is over/, 50_000);
   const scraped = await fetchText(url);
   expect(scraped.status).toBe(200);
@@ -79,7 +92,9 @@ describe('coordinator /metrics after a real run', () => {
     expect(single('roundwire_suboptimality', 'GAUGE')).toBe(summary.suboptimality.final);
     expect(single('roundwire_suboptimality_initial', 'GAUGE')).toBe(summary.suboptimality.initial);
     expect(single('roundwire_distance_to_optimum', 'GAUGE')).toBe(summary.distance.final);
-    expect(family('roundwire_run_info', 'GAUGE').metrics).toEqual([{ labels: { method: summary.method }, value: '1' }]);
+    expect(family('roundwire_run_info', 'GAUGE').metrics).toEqual([
+      { labels: { method: summary.method }, value: '1' },
+    ]);
     expect(summary.rate.predicted).not.toBeNull();
     expect(single('roundwire_rate_predicted', 'GAUGE')).toBe(summary.rate.predicted);
     expect(summary.rate.measured).not.toBeNull();
@@ -97,9 +112,14 @@ describe('coordinator /metrics after a real run', () => {
       clientsSeen.add(client);
       sums[`${layer}.${direction}`] = (sums[`${layer}.${direction}`] ?? 0) + Number(m.value);
     }
-    expect(clientsSeen).toEqual(new Set(Array.from({ length: summary.clients }, (_, i) => String(i))));
+    expect(clientsSeen).toEqual(
+      new Set(Array.from({ length: summary.clients }, (_, i) => String(i))),
+    );
     for (const layer of ['payload', 'encoded', 'wire'] as const) {
-      for (const direction of ['up', 'down'] as const) expect(sums[`${layer}.${direction}`], `${layer} ${direction}`).toBe(summary.bytes[layer][direction]);
+      for (const direction of ['up', 'down'] as const)
+        expect(sums[`${layer}.${direction}`], `${layer} ${direction}`).toBe(
+          summary.bytes[layer][direction],
+        );
     }
     const control = family('roundwire_control_bytes_total', 'COUNTER');
     expect(control.metrics).toHaveLength(4);
@@ -111,8 +131,16 @@ describe('coordinator /metrics after a real run', () => {
     // flattenMetrics keeps label-free samples only), so each clock's series is parsed on its own.
     for (const clock of ['wall', 'modelled']) {
       const label = `clock="${clock}"`;
-      const lines = text.split('\n').filter((l) => l.startsWith('# ') ? l.includes(' roundwire_round_duration_seconds ') : l.startsWith('roundwire_round_duration_seconds') && l.includes(label));
-      const unlabelled = lines.map((l) => l.replace(`,${label}`, '').replace(`{${label}}`, '')).join('\n');
+      const lines = text
+        .split('\n')
+        .filter((l) =>
+          l.startsWith('# ')
+            ? l.includes(' roundwire_round_duration_seconds ')
+            : l.startsWith('roundwire_round_duration_seconds') && l.includes(label),
+        );
+      const unlabelled = lines
+        .map((l) => l.replace(`,${label}`, '').replace(`{${label}}`, ''))
+        .join('\n');
       const [f] = parsePrometheusTextFormat(`${unlabelled}\n`);
       expect(f.metrics).toHaveLength(1);
       const m = f.metrics[0];
@@ -124,17 +152,25 @@ describe('coordinator /metrics after a real run', () => {
   });
 
   it('has per-client work, steps and drops, and workers, errors and losses', () => {
-    const clientCount = (name: string, type: ParsedFamily['type']) => new Set(family(name, type).metrics.map((m) => m.labels?.client)).size;
+    const clientCount = (name: string, type: ParsedFamily['type']) =>
+      new Set(family(name, type).metrics.map((m) => m.labels?.client)).size;
     expect(clientCount('roundwire_client_compute_seconds_total', 'COUNTER')).toBe(summary.clients);
     expect(clientCount('roundwire_client_idle_seconds_total', 'COUNTER')).toBe(summary.clients);
     expect(clientCount('roundwire_client_local_steps_total', 'COUNTER')).toBe(summary.clients);
     expect(clientCount('roundwire_client_local_steps_last', 'GAUGE')).toBe(summary.clients);
-    const dropped = family('roundwire_dropped_updates_total', 'COUNTER').metrics.reduce((s, m) => s + Number(m.value), 0);
+    const dropped = family('roundwire_dropped_updates_total', 'COUNTER').metrics.reduce(
+      (s, m) => s + Number(m.value),
+      0,
+    );
     expect(dropped).toBe(summary.droppedUpdates);
     const errors = family('roundwire_protocol_errors_total', 'COUNTER');
-    expect(errors.metrics).toHaveLength(2 * PROTOCOL_ERROR_CODES.length + FRAME_ERROR_REASONS.length);
+    expect(errors.metrics).toHaveLength(
+      2 * PROTOCOL_ERROR_CODES.length + FRAME_ERROR_REASONS.length,
+    );
     for (const m of errors.metrics) {
-      expect(m.labels?.origin === 'frame' ? FRAME_ERROR_REASONS : PROTOCOL_ERROR_CODES).toContain(m.labels?.code);
+      expect(m.labels?.origin === 'frame' ? FRAME_ERROR_REASONS : PROTOCOL_ERROR_CODES).toContain(
+        m.labels?.code,
+      );
       expect(Number(m.value)).toBe(0);
     }
     expect(single('roundwire_workers_lost_total', 'COUNTER')).toBe(summary.lostWorkers.length);

@@ -19,12 +19,16 @@ describe('createObjective', () => {
     expect(logistic).toBeInstanceOf(LogisticObjective);
     expect(softmax).toBeInstanceOf(SoftmaxObjective);
     expect([ls.dim, logistic.dim, softmax.dim]).toEqual([4, 4, 12]);
-    expect([ls.regularization, logistic.regularization, softmax.regularization]).toEqual([0.1, 0.2, 0.3]);
+    expect([ls.regularization, logistic.regularization, softmax.regularization]).toEqual([
+      0.1, 0.2, 0.3,
+    ]);
     expect(softmax.sampleCount).toBe(10);
   });
 
   it('needs a class count for softmax', () => {
     const shard = gaussianShard(Rng.fromSeed(2), 0, 10, 4, 3);
-    expect(errorCode(() => createObjective({ kind: 'softmax', regularization: 0.1 }, shard))).toBe('E_PROBLEM_SPEC');
+    expect(errorCode(() => createObjective({ kind: 'softmax', regularization: 0.1 }, shard))).toBe(
+      'E_PROBLEM_SPEC',
+    );
   });
 });

@@ -25,7 +25,8 @@ export function gaussianShard(
   const features = new Float64Array(sampleCount * featureCount);
   const shift = Float64Array.from({ length: featureCount }, () => meanShift * rng.normal());
   for (let s = 0; s < sampleCount; s++) {
-    for (let j = 0; j < featureCount; j++) features[s * featureCount + j] = featureScale * rng.normal() + shift[j];
+    for (let j = 0; j < featureCount; j++)
+      features[s * featureCount + j] = featureScale * rng.normal() + shift[j];
   }
   const classCount = typeof targets === 'number' ? targets : 1;
   const model = Float64Array.from({ length: classCount * featureCount }, () => rng.normal());
@@ -71,7 +72,11 @@ export function relativeError(a: ArrayLike<number>, b: ArrayLike<number>): numbe
 }
 
 /** The gradient by central differences (f(x + h e_j) - f(x - h e_j)) / 2h, error O(h^2). */
-export function centralDifferenceGradient(objective: Objective, x: Float64Array, h: number): Float64Array {
+export function centralDifferenceGradient(
+  objective: Objective,
+  x: Float64Array,
+  h: number,
+): Float64Array {
   const out = new Float64Array(x.length);
   const probe = Float64Array.from(x);
   for (let j = 0; j < x.length; j++) {
@@ -86,7 +91,12 @@ export function centralDifferenceGradient(objective: Objective, x: Float64Array,
 }
 
 /** H v by central differences of the gradient along v. */
-export function centralDifferenceHessianVector(objective: Objective, x: Float64Array, v: Float64Array, h: number): Float64Array {
+export function centralDifferenceHessianVector(
+  objective: Objective,
+  x: Float64Array,
+  v: Float64Array,
+  h: number,
+): Float64Array {
   const up = Float64Array.from(x);
   const down = Float64Array.from(x);
   for (let j = 0; j < x.length; j++) {
@@ -104,7 +114,9 @@ export function centralDifferenceHessianVector(objective: Objective, x: Float64A
 export function featureMatrix(shard: Shard): Matrix {
   const rows: number[][] = [];
   for (let s = 0; s < shard.sampleCount; s++) {
-    rows.push(Array.from(shard.features.subarray(s * shard.featureCount, (s + 1) * shard.featureCount)));
+    rows.push(
+      Array.from(shard.features.subarray(s * shard.featureCount, (s + 1) * shard.featureCount)),
+    );
   }
   return new Matrix(rows);
 }

@@ -26,8 +26,12 @@ describe('LeastSquaresObjective', () => {
     const { rng, shard, objective } = setup(1);
     const x = randomVector(rng, 6);
     const a = featureMatrix(shard);
-    const residual = a.mmul(Matrix.columnVector(Array.from(x))).sub(Matrix.columnVector(Array.from(shard.targets)));
-    const expected = residual.dot(residual) / (2 * shard.sampleCount) + (LAMBDA / 2) * Matrix.rowVector(Array.from(x)).dot(Matrix.rowVector(Array.from(x)));
+    const residual = a
+      .mmul(Matrix.columnVector(Array.from(x)))
+      .sub(Matrix.columnVector(Array.from(shard.targets)));
+    const expected =
+      residual.dot(residual) / (2 * shard.sampleCount) +
+      (LAMBDA / 2) * Matrix.rowVector(Array.from(x)).dot(Matrix.rowVector(Array.from(x)));
     expect(Math.abs(objective.loss(x) - expected) / expected).toBeLessThan(1e-13);
   });
 
@@ -36,7 +40,9 @@ describe('LeastSquaresObjective', () => {
     const x = randomVector(rng, 6);
     const gradient = new Float64Array(6);
     objective.gradient(x, gradient);
-    expect(relativeError(gradient, centralDifferenceGradient(objective, x, 1e-6))).toBeLessThan(1e-6);
+    expect(relativeError(gradient, centralDifferenceGradient(objective, x, 1e-6))).toBeLessThan(
+      1e-6,
+    );
   });
 
   it('has a Hessian-vector product equal to central differences of the gradient and to A^T A v / n + lambda v (ml-matrix)', () => {
@@ -45,7 +51,9 @@ describe('LeastSquaresObjective', () => {
     const v = randomVector(rng, 6);
     const hv = new Float64Array(6);
     objective.hessianVector(x, v, hv);
-    expect(relativeError(hv, centralDifferenceHessianVector(objective, x, v, 1e-6))).toBeLessThan(1e-6);
+    expect(relativeError(hv, centralDifferenceHessianVector(objective, x, v, 1e-6))).toBeLessThan(
+      1e-6,
+    );
     const a = featureMatrix(shard);
     const reference = a
       .transpose()
@@ -62,7 +70,11 @@ describe('LeastSquaresObjective', () => {
     const full = new Float64Array(6);
     const batch = new Float64Array(6);
     objective.gradient(x, full);
-    objective.minibatchGradient(x, Uint32Array.from({ length: 30 }, (_, s) => s), batch);
+    objective.minibatchGradient(
+      x,
+      Uint32Array.from({ length: 30 }, (_, s) => s),
+      batch,
+    );
     expect(Array.from(batch)).toEqual(Array.from(full));
 
     // The mean over {3, 7} is the mean of the two single-sample gradients (definition).
@@ -71,7 +83,12 @@ describe('LeastSquaresObjective', () => {
     objective.minibatchGradient(x, Uint32Array.of(3), g3);
     objective.minibatchGradient(x, Uint32Array.of(7), g7);
     objective.minibatchGradient(x, Uint32Array.of(3, 7), batch);
-    expect(relativeError(batch, g3.map((g, j) => (g + g7[j]) / 2))).toBeLessThan(1e-14);
+    expect(
+      relativeError(
+        batch,
+        g3.map((g, j) => (g + g7[j]) / 2),
+      ),
+    ).toBeLessThan(1e-14);
   });
 
   it('reports the exact extreme Hessian eigenvalues (reference: ml-matrix EigenvalueDecomposition)', () => {
@@ -90,14 +107,41 @@ describe('LeastSquaresObjective', () => {
 
   it('rejects malformed shards, vectors and batches with stable codes', () => {
     const { shard, objective } = setup(7);
-    expect(errorCode(() => new LeastSquaresObjective({ ...shard, targets: shard.targets.subarray(1) }, LAMBDA))).toBe('E_PROBLEM_SHARD_SHAPE');
-    expect(errorCode(() => new LeastSquaresObjective({ ...shard, sampleCount: 0, features: new Float64Array(0), targets: new Float64Array(0) }, LAMBDA))).toBe('E_PROBLEM_SHARD_SHAPE');
+    expect(
+      errorCode(
+        () => new LeastSquaresObjective({ ...shard, targets: shard.targets.subarray(1) }, LAMBDA),
+      ),
+    ).toBe('E_PROBLEM_SHARD_SHAPE');
+    expect(
+      errorCode(
+        () =>
+          new LeastSquaresObjective(
+            {
+              ...shard,
+              sampleCount: 0,
+              features: new Float64Array(0),
+              targets: new Float64Array(0),
+            },
+            LAMBDA,
+          ),
+      ),
+    ).toBe('E_PROBLEM_SHARD_SHAPE');
     const poisoned = Float64Array.from(shard.features);
     poisoned[5] = Number.NaN;
-    expect(errorCode(() => new LeastSquaresObjective({ ...shard, features: poisoned }, LAMBDA))).toBe('E_PROBLEM_NOT_FINITE');
+    expect(
+      errorCode(() => new LeastSquaresObjective({ ...shard, features: poisoned }, LAMBDA)),
+    ).toBe('E_PROBLEM_NOT_FINITE');
     expect(errorCode(() => new LeastSquaresObjective(shard, -1))).toBe('E_PROBLEM_SPEC');
     expect(errorCode(() => objective.loss(new Float64Array(5)))).toBe('E_PROBLEM_DIMENSION');
-    expect(errorCode(() => objective.minibatchGradient(new Float64Array(6), Uint32Array.of(30), new Float64Array(6)))).toBe('E_PROBLEM_BATCH');
-    expect(errorCode(() => objective.minibatchGradient(new Float64Array(6), new Uint32Array(0), new Float64Array(6)))).toBe('E_PROBLEM_BATCH');
+    expect(
+      errorCode(() =>
+        objective.minibatchGradient(new Float64Array(6), Uint32Array.of(30), new Float64Array(6)),
+      ),
+    ).toBe('E_PROBLEM_BATCH');
+    expect(
+      errorCode(() =>
+        objective.minibatchGradient(new Float64Array(6), new Uint32Array(0), new Float64Array(6)),
+      ),
+    ).toBe('E_PROBLEM_BATCH');
   });
 });

@@ -30,7 +30,8 @@ describe('LogisticObjective', () => {
       for (let j = 0; j < 5; j++) z += shard.features[s * 5 + j] * x[j];
       expected += Math.log(1 + Math.exp(z)) - shard.targets[s] * z;
     }
-    expected = expected / shard.sampleCount + (LAMBDA / 2) * x.reduce((sum, xj) => sum + xj * xj, 0);
+    expected =
+      expected / shard.sampleCount + (LAMBDA / 2) * x.reduce((sum, xj) => sum + xj * xj, 0);
     expect(Math.abs(objective.loss(x) - expected) / expected).toBeLessThan(1e-13);
   });
 
@@ -39,7 +40,9 @@ describe('LogisticObjective', () => {
     const x = randomVector(rng, 5);
     const gradient = new Float64Array(5);
     objective.gradient(x, gradient);
-    expect(relativeError(gradient, centralDifferenceGradient(objective, x, 1e-6))).toBeLessThan(1e-6);
+    expect(relativeError(gradient, centralDifferenceGradient(objective, x, 1e-6))).toBeLessThan(
+      1e-6,
+    );
   });
 
   it('has a Hessian-vector product equal to central differences of the gradient', () => {
@@ -48,7 +51,9 @@ describe('LogisticObjective', () => {
     const v = randomVector(rng, 5);
     const hv = new Float64Array(5);
     objective.hessianVector(x, v, hv);
-    expect(relativeError(hv, centralDifferenceHessianVector(objective, x, v, 1e-6))).toBeLessThan(1e-6);
+    expect(relativeError(hv, centralDifferenceHessianVector(objective, x, v, 1e-6))).toBeLessThan(
+      1e-6,
+    );
   });
 
   it('gives the full gradient bit for bit from a minibatch of every index', () => {
@@ -57,7 +62,11 @@ describe('LogisticObjective', () => {
     const full = new Float64Array(5);
     const batch = new Float64Array(5);
     objective.gradient(x, full);
-    objective.minibatchGradient(x, Uint32Array.from({ length: 40 }, (_, s) => s), batch);
+    objective.minibatchGradient(
+      x,
+      Uint32Array.from({ length: 40 }, (_, s) => s),
+      batch,
+    );
     expect(Array.from(batch)).toEqual(Array.from(full));
   });
 
@@ -74,7 +83,13 @@ describe('LogisticObjective', () => {
     expect(Math.log(1 + Math.exp(1e4))).toBe(Infinity);
     for (const c of cases) {
       const objective = new LogisticObjective(
-        { clientId: 0, sampleCount: 1, featureCount: 1, features: Float64Array.of(1), targets: Float64Array.of(c.label) },
+        {
+          clientId: 0,
+          sampleCount: 1,
+          featureCount: 1,
+          features: Float64Array.of(1),
+          targets: Float64Array.of(c.label),
+        },
         0,
       );
       const x = Float64Array.of(c.z);
@@ -90,7 +105,9 @@ describe('LogisticObjective', () => {
     const lower = objective.strongConvexityBound();
     const upper = objective.smoothnessBound();
     for (let trial = 0; trial < 5; trial++) {
-      const { smallest, largest } = symmetricExtremes(hessianMatrix(objective, randomVector(rng, 6, 2)));
+      const { smallest, largest } = symmetricExtremes(
+        hessianMatrix(objective, randomVector(rng, 6, 2)),
+      );
       expect(smallest).toBeGreaterThanOrEqual(lower * (1 - 1e-12));
       expect(largest).toBeLessThanOrEqual(upper * (1 + 1e-12));
     }
@@ -106,8 +123,12 @@ describe('LogisticObjective', () => {
     const { shard } = setup(7);
     const targets = Float64Array.from(shard.targets);
     targets[2] = 2;
-    expect(errorCode(() => new LogisticObjective({ ...shard, targets }, LAMBDA))).toBe('E_PROBLEM_TARGET');
+    expect(errorCode(() => new LogisticObjective({ ...shard, targets }, LAMBDA))).toBe(
+      'E_PROBLEM_TARGET',
+    );
     targets[2] = -1;
-    expect(errorCode(() => new LogisticObjective({ ...shard, targets }, LAMBDA))).toBe('E_PROBLEM_TARGET');
+    expect(errorCode(() => new LogisticObjective({ ...shard, targets }, LAMBDA))).toBe(
+      'E_PROBLEM_TARGET',
+    );
   });
 });

@@ -23,7 +23,8 @@ describe('UniformMinibatchSampler', () => {
   it('repeats its batches from the same seed', () => {
     const a = new UniformMinibatchSampler(Rng.derive(7, 'minibatch', 3), 100, 10);
     const b = new UniformMinibatchSampler(Rng.derive(7, 'minibatch', 3), 100, 10);
-    for (let draw = 0; draw < 20; draw++) expect(Array.from(a.next())).toEqual(Array.from(b.next()));
+    for (let draw = 0; draw < 20; draw++)
+      expect(Array.from(a.next())).toEqual(Array.from(b.next()));
   });
 
   it('returns the whole shard when the batch is at least as large', () => {
@@ -45,7 +46,11 @@ describe('UniformMinibatchSampler', () => {
   });
 
   it('rejects empty shards and batches', () => {
-    expect(errorCode(() => new UniformMinibatchSampler(Rng.fromSeed(4), 0, 1))).toBe('E_PROBLEM_BATCH');
-    expect(errorCode(() => new UniformMinibatchSampler(Rng.fromSeed(4), 10, 0))).toBe('E_PROBLEM_BATCH');
+    expect(errorCode(() => new UniformMinibatchSampler(Rng.fromSeed(4), 0, 1))).toBe(
+      'E_PROBLEM_BATCH',
+    );
+    expect(errorCode(() => new UniformMinibatchSampler(Rng.fromSeed(4), 10, 0))).toBe(
+      'E_PROBLEM_BATCH',
+    );
   });
 });

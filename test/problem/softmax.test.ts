@@ -26,7 +26,13 @@ function setup(seed: number, n = 40, lambda = LAMBDA) {
 /** One sample with feature a = (1), so the logits are W itself. */
 function singleSample(label: number, classes: number): SoftmaxObjective {
   return new SoftmaxObjective(
-    { clientId: 0, sampleCount: 1, featureCount: 1, features: Float64Array.of(1), targets: Float64Array.of(label) },
+    {
+      clientId: 0,
+      sampleCount: 1,
+      featureCount: 1,
+      features: Float64Array.of(1),
+      targets: Float64Array.of(label),
+    },
     0,
     classes,
   );
@@ -40,12 +46,15 @@ describe('SoftmaxObjective', () => {
     for (let s = 0; s < shard.sampleCount; s++) {
       const logits = Array.from({ length: CLASSES }, (_, c) => {
         let z = 0;
-        for (let j = 0; j < FEATURES; j++) z += w[c * FEATURES + j] * shard.features[s * FEATURES + j];
+        for (let j = 0; j < FEATURES; j++)
+          z += w[c * FEATURES + j] * shard.features[s * FEATURES + j];
         return z;
       });
-      expected += Math.log(logits.reduce((sum, z) => sum + Math.exp(z), 0)) - logits[shard.targets[s]];
+      expected +=
+        Math.log(logits.reduce((sum, z) => sum + Math.exp(z), 0)) - logits[shard.targets[s]];
     }
-    expected = expected / shard.sampleCount + (LAMBDA / 2) * w.reduce((sum, wj) => sum + wj * wj, 0);
+    expected =
+      expected / shard.sampleCount + (LAMBDA / 2) * w.reduce((sum, wj) => sum + wj * wj, 0);
     expect(Math.abs(objective.loss(w) - expected) / expected).toBeLessThan(1e-13);
   });
 
@@ -54,7 +63,9 @@ describe('SoftmaxObjective', () => {
     const w = randomVector(rng, DIM);
     const gradient = new Float64Array(DIM);
     objective.gradient(w, gradient);
-    expect(relativeError(gradient, centralDifferenceGradient(objective, w, 1e-6))).toBeLessThan(1e-6);
+    expect(relativeError(gradient, centralDifferenceGradient(objective, w, 1e-6))).toBeLessThan(
+      1e-6,
+    );
   });
 
   it('has a Hessian-vector product equal to central differences of the gradient', () => {
@@ -63,7 +74,9 @@ describe('SoftmaxObjective', () => {
     const v = randomVector(rng, DIM);
     const hv = new Float64Array(DIM);
     objective.hessianVector(w, v, hv);
-    expect(relativeError(hv, centralDifferenceHessianVector(objective, w, v, 1e-6))).toBeLessThan(1e-6);
+    expect(relativeError(hv, centralDifferenceHessianVector(objective, w, v, 1e-6))).toBeLessThan(
+      1e-6,
+    );
   });
 
   it('gives the full gradient bit for bit from a minibatch of every index', () => {
@@ -72,7 +85,11 @@ describe('SoftmaxObjective', () => {
     const full = new Float64Array(DIM);
     const batch = new Float64Array(DIM);
     objective.gradient(w, full);
-    objective.minibatchGradient(w, Uint32Array.from({ length: 40 }, (_, s) => s), batch);
+    objective.minibatchGradient(
+      w,
+      Uint32Array.from({ length: 40 }, (_, s) => s),
+      batch,
+    );
     expect(Array.from(batch)).toEqual(Array.from(full));
   });
 
@@ -109,7 +126,9 @@ describe('SoftmaxObjective', () => {
     const lower = objective.strongConvexityBound();
     const upper = objective.smoothnessBound();
     for (let trial = 0; trial < 5; trial++) {
-      const { smallest, largest } = symmetricExtremes(hessianMatrix(objective, randomVector(rng, DIM, 2)));
+      const { smallest, largest } = symmetricExtremes(
+        hessianMatrix(objective, randomVector(rng, DIM, 2)),
+      );
       expect(smallest).toBeGreaterThanOrEqual(lower * (1 - 1e-9));
       expect(largest).toBeLessThanOrEqual(upper * (1 + 1e-12));
       // The loss is invariant under adding one vector to every class row, so its Hessian is flat
@@ -122,9 +141,13 @@ describe('SoftmaxObjective', () => {
     const { shard } = setup(6);
     const targets = Float64Array.from(shard.targets);
     targets[0] = CLASSES;
-    expect(errorCode(() => new SoftmaxObjective({ ...shard, targets }, LAMBDA, CLASSES))).toBe('E_PROBLEM_TARGET');
+    expect(errorCode(() => new SoftmaxObjective({ ...shard, targets }, LAMBDA, CLASSES))).toBe(
+      'E_PROBLEM_TARGET',
+    );
     targets[0] = 0.5;
-    expect(errorCode(() => new SoftmaxObjective({ ...shard, targets }, LAMBDA, CLASSES))).toBe('E_PROBLEM_TARGET');
+    expect(errorCode(() => new SoftmaxObjective({ ...shard, targets }, LAMBDA, CLASSES))).toBe(
+      'E_PROBLEM_TARGET',
+    );
     expect(errorCode(() => new SoftmaxObjective(shard, LAMBDA, 1))).toBe('E_PROBLEM_SPEC');
   });
 });

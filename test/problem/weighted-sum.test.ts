@@ -5,14 +5,23 @@ import { LeastSquaresObjective } from '../../src/problem/least-squares.js';
 import { LogisticObjective } from '../../src/problem/logistic.js';
 import type { Objective } from '../../src/problem/objective.js';
 import { WeightedSumObjective } from '../../src/problem/weighted-sum.js';
-import { errorCode, featureMatrix, gaussianShard, randomVector, relativeError, symmetricExtremes } from './fixtures.js';
+import {
+  errorCode,
+  featureMatrix,
+  gaussianShard,
+  randomVector,
+  relativeError,
+  symmetricExtremes,
+} from './fixtures.js';
 
 const P = 5;
 const LAMBDA = 0.01;
 
 function logisticClients(seed: number, sizes: number[]): LogisticObjective[] {
   const rng = Rng.fromSeed(seed);
-  return sizes.map((n, i) => new LogisticObjective(gaussianShard(rng, i, n, P, 'binary', 1, 0.8), LAMBDA));
+  return sizes.map(
+    (n, i) => new LogisticObjective(gaussianShard(rng, i, n, P, 'binary', 1, 0.8), LAMBDA),
+  );
 }
 
 function weightedReference(clients: Objective[], weights: number[], x: Float64Array) {
@@ -56,7 +65,11 @@ describe('WeightedSumObjective', () => {
     const full = new Float64Array(P);
     const batch = new Float64Array(P);
     sum.gradient(x, full);
-    sum.minibatchGradient(x, Uint32Array.from({ length: 49 }, (_, s) => s), batch);
+    sum.minibatchGradient(
+      x,
+      Uint32Array.from({ length: 49 }, (_, s) => s),
+      batch,
+    );
     expect(relativeError(batch, full)).toBeLessThan(1e-14);
   });
 
@@ -79,13 +92,21 @@ describe('WeightedSumObjective', () => {
       }
     }
     expect(batches).toBe(35);
-    expect(relativeError(mean.map((g) => g / batches), full)).toBeLessThan(1e-13);
+    expect(
+      relativeError(
+        mean.map((g) => g / batches),
+        full,
+      ),
+    ).toBeLessThan(1e-13);
   });
 
   it('with weights n_i / n, a minibatch gradient is the plain mean of the per-sample gradients', () => {
     const sizes = [4, 6, 5];
     const clients = logisticClients(7, sizes);
-    const sum = new WeightedSumObjective(clients, sizes.map((n) => n / 15));
+    const sum = new WeightedSumObjective(
+      clients,
+      sizes.map((n) => n / 15),
+    );
     const x = randomVector(Rng.fromSeed(8), P);
     const indices = Uint32Array.of(1, 5, 9, 14);
     const batch = new Float64Array(P);
@@ -105,11 +126,19 @@ describe('WeightedSumObjective', () => {
     const rng = Rng.fromSeed(9);
     const shards = [15, 25, 9].map((n, i) => gaussianShard(rng, i, n, P, 'real', 1 + i, 0.5 * i));
     const weights = [0.25, 0.35, 0.4];
-    const sum = new WeightedSumObjective(shards.map((shard) => new LeastSquaresObjective(shard, LAMBDA)), weights);
+    const sum = new WeightedSumObjective(
+      shards.map((shard) => new LeastSquaresObjective(shard, LAMBDA)),
+      weights,
+    );
     let hessian = Matrix.eye(P).mul(LAMBDA);
     shards.forEach((shard, i) => {
       const a = featureMatrix(shard);
-      hessian = hessian.add(a.transpose().mmul(a).mul(weights[i] / shard.sampleCount));
+      hessian = hessian.add(
+        a
+          .transpose()
+          .mmul(a)
+          .mul(weights[i] / shard.sampleCount),
+      );
     });
     const { smallest, largest } = symmetricExtremes(hessian);
     expect(Math.abs(sum.smoothnessBound() - largest) / largest).toBeLessThan(1e-9);
@@ -119,19 +148,33 @@ describe('WeightedSumObjective', () => {
   it('reports weighted sums of the clients bounds for logistic', () => {
     const clients = logisticClients(10, [12, 30]);
     const sum = new WeightedSumObjective(clients, [0.3, 0.7]);
-    expect(sum.smoothnessBound()).toBeCloseTo(0.3 * clients[0].smoothnessBound() + 0.7 * clients[1].smoothnessBound(), 14);
+    expect(sum.smoothnessBound()).toBeCloseTo(
+      0.3 * clients[0].smoothnessBound() + 0.7 * clients[1].smoothnessBound(),
+      14,
+    );
     expect(sum.strongConvexityBound()).toBeCloseTo(LAMBDA, 15);
   });
 
   it('rejects mixed dimensions and bad weights', () => {
     const clients = logisticClients(11, [5, 5]);
-    const other = new LogisticObjective(gaussianShard(Rng.fromSeed(12), 2, 5, P + 1, 'binary'), LAMBDA);
-    expect(errorCode(() => new WeightedSumObjective([clients[0], other], [0.5, 0.5]))).toBe('E_PROBLEM_DIMENSION');
+    const other = new LogisticObjective(
+      gaussianShard(Rng.fromSeed(12), 2, 5, P + 1, 'binary'),
+      LAMBDA,
+    );
+    expect(errorCode(() => new WeightedSumObjective([clients[0], other], [0.5, 0.5]))).toBe(
+      'E_PROBLEM_DIMENSION',
+    );
     expect(errorCode(() => new WeightedSumObjective(clients, [0.5]))).toBe('E_PROBLEM_WEIGHTS');
     expect(errorCode(() => new WeightedSumObjective(clients, [1, -0.5]))).toBe('E_PROBLEM_WEIGHTS');
     expect(errorCode(() => new WeightedSumObjective(clients, [0, 0]))).toBe('E_PROBLEM_WEIGHTS');
-    expect(errorCode(() => new WeightedSumObjective(clients, [0.5, Number.NaN]))).toBe('E_PROBLEM_WEIGHTS');
+    expect(errorCode(() => new WeightedSumObjective(clients, [0.5, Number.NaN]))).toBe(
+      'E_PROBLEM_WEIGHTS',
+    );
     const sum = new WeightedSumObjective(clients, [0.5, 0.5]);
-    expect(errorCode(() => sum.minibatchGradient(new Float64Array(P), Uint32Array.of(10), new Float64Array(P)))).toBe('E_PROBLEM_BATCH');
+    expect(
+      errorCode(() =>
+        sum.minibatchGradient(new Float64Array(P), Uint32Array.of(10), new Float64Array(P)),
+      ),
+    ).toBe('E_PROBLEM_BATCH');
   });
 });

@@ -8,12 +8,16 @@ describe('proveKey', () => {
   it('is HMAC-SHA256 keyed by the shared key (RFC 4231 section 4.2, test case 1)', () => {
     const key = new Uint8Array(20).fill(0x0b);
     const data = new TextEncoder().encode('Hi There');
-    expect(hex(proveKey(key, data))).toBe('b0344c61d8db38535ca8afceaf0bf12b881dc200c9833da726e9376c2e32cff7');
+    expect(hex(proveKey(key, data))).toBe(
+      'b0344c61d8db38535ca8afceaf0bf12b881dc200c9833da726e9376c2e32cff7',
+    );
   });
 
   it('takes a string key as its UTF-8 bytes (RFC 4231 section 4.3, test case 2: key "Jefe")', () => {
     const data = new TextEncoder().encode('what do ya want for nothing?');
-    expect(hex(proveKey('Jefe', data))).toBe('5bdcc146bf60754e6a042426089575c75a003f089d2739839dec58b964ec3843');
+    expect(hex(proveKey('Jefe', data))).toBe(
+      '5bdcc146bf60754e6a042426089575c75a003f089d2739839dec58b964ec3843',
+    );
   });
 
   it('differs per nonce, so a recorded proof is useless on the next connection', () => {

@@ -7,13 +7,19 @@ import { HANDSHAKE_LIMITS } from '../../src/protocol/limits.js';
 import type { DownMessage, UpMessage } from '../../src/protocol/messages.js';
 import { receiveMessage } from '../../src/protocol/receive.js';
 import { fromWire, toWire } from '../../src/protocol/wire-vector.js';
-import { contextFor, DIM, plain, sampleMessages, serverContext, workerContext } from './sample-messages.js';
+import {
+  contextFor,
+  DIM,
+  plain,
+  sampleMessages,
+  serverContext,
+  workerContext,
+} from './sample-messages.js';
 import { codeOf } from '../support/error-code.js';
 
 const protocolErrorCode = (action: () => unknown): string => codeOf(action, ProtocolError);
 
 const LIMIT_BYTES = HANDSHAKE_LIMITS.maxFrameBytes;
-
 
 /** The frame's bytes placed `offset` bytes into a fresh buffer, as a socket might hand them over. */
 function atOffset(frame: Uint8Array, offset: number): Uint8Array {
@@ -36,10 +42,21 @@ describe('encodeMessage / decodeMessage', () => {
     // (0xa8); float 64 (0xcb) big-endian. 1234.5 = 0x40934a0000000000 in IEEE 754 binary64.
     const expected = [
       0x82,
-      0xa4, ...Buffer.from('type'),
-      0xa9, ...Buffer.from('heartbeat'),
-      0xa8, ...Buffer.from('sentAtMs'),
-      0xcb, 0x40, 0x93, 0x4a, 0x00, 0x00, 0x00, 0x00, 0x00,
+      0xa4,
+      ...Buffer.from('type'),
+      0xa9,
+      ...Buffer.from('heartbeat'),
+      0xa8,
+      ...Buffer.from('sentAtMs'),
+      0xcb,
+      0x40,
+      0x93,
+      0x4a,
+      0x00,
+      0x00,
+      0x00,
+      0x00,
+      0x00,
     ];
     expect(Array.from(frame)).toEqual(expected);
   });
@@ -47,8 +64,14 @@ describe('encodeMessage / decodeMessage', () => {
   it('carries a vector as one bin holding its little-endian bytes (MessagePack spec: bin 8 is 0xc4, length)', () => {
     const values = Float64Array.from([1, -2, 0.5]);
     const frame = encodeMessage({
-      type: 'up', round: 0, exchange: 'local', clientId: 2, localSteps: 1,
-      computeSeconds: 0, waitSeconds: 0, transferSeconds: 0,
+      type: 'up',
+      round: 0,
+      exchange: 'local',
+      clientId: 2,
+      localSteps: 1,
+      computeSeconds: 0,
+      waitSeconds: 0,
+      transferSeconds: 0,
       fields: { delta: toWire({ dim: 3, indices: null, values }) },
     });
     const le = Buffer.alloc(24);
@@ -82,18 +105,34 @@ describe('encodeMessage / decodeMessage', () => {
 
   it('keeps f64 values bit for bit: -0, subnormals, extremes (IEEE 754 binary64; Number.MIN_VALUE per ECMA-262 6.1.6.1)', () => {
     const values = Float64Array.from([
-      -0, 0, Number.MIN_VALUE, -Number.MIN_VALUE, 2.225073858507201e-308, Number.MAX_VALUE, -Number.MAX_VALUE, 1 / 3, Math.PI,
+      -0,
+      0,
+      Number.MIN_VALUE,
+      -Number.MIN_VALUE,
+      2.225073858507201e-308,
+      Number.MAX_VALUE,
+      -Number.MAX_VALUE,
+      1 / 3,
+      Math.PI,
     ]);
     const frame = encodeMessage({
-      type: 'up', round: 3, exchange: 'local', clientId: 2, localSteps: 1,
-      computeSeconds: 0, waitSeconds: 0, transferSeconds: 0,
+      type: 'up',
+      round: 3,
+      exchange: 'local',
+      clientId: 2,
+      localSteps: 1,
+      computeSeconds: 0,
+      waitSeconds: 0,
+      transferSeconds: 0,
       fields: { delta: toWire({ dim: values.length, indices: null, values }) },
     });
     const context = serverContext({
       fieldDims: { local: { delta: values.length } },
       limits: { ...serverContext().limits, maxVectorDim: values.length },
     });
-    const back = fromWire((receiveMessage(atOffset(frame, 3), context) as UpMessage).fields.delta).values;
+    const back = fromWire(
+      (receiveMessage(atOffset(frame, 3), context) as UpMessage).fields.delta,
+    ).values;
     expect(back).toBeInstanceOf(Float64Array);
     expect(Object.is(back[0], -0)).toBe(true);
     expect(Object.is(back[1], 0)).toBe(true);
@@ -101,12 +140,27 @@ describe('encodeMessage / decodeMessage', () => {
   });
 
   it('keeps f32 values bit for bit: -0, the smallest subnormal 2^-149, the largest finite (IEEE 754 binary32)', () => {
-    const values = Float32Array.from([-0, 2 ** -149, -(2 ** -149), 2 ** -126, 3.4028234663852886e38, Math.fround(0.1)]);
+    const values = Float32Array.from([
+      -0,
+      2 ** -149,
+      -(2 ** -149),
+      2 ** -126,
+      3.4028234663852886e38,
+      Math.fround(0.1),
+    ]);
     const frame = encodeMessage({
-      type: 'down', round: 0, exchange: 'gradient', clientId: 5, localSteps: 1, stepSize: 1, deadlineSeconds: null,
+      type: 'down',
+      round: 0,
+      exchange: 'gradient',
+      clientId: 5,
+      localSteps: 1,
+      stepSize: 1,
+      deadlineSeconds: null,
       fields: { model: toWire({ dim: 6, indices: null, values }) },
     });
-    const back = fromWire((receiveMessage(atOffset(frame, 5), workerContext()) as DownMessage).fields.model).values;
+    const back = fromWire(
+      (receiveMessage(atOffset(frame, 5), workerContext()) as DownMessage).fields.model,
+    ).values;
     expect(back).toBeInstanceOf(Float32Array);
     expect(Object.is(back[0], -0)).toBe(true);
     expect(back[1]).toBe(2 ** -149);
@@ -116,15 +170,24 @@ describe('encodeMessage / decodeMessage', () => {
   it('refuses NaN and infinities in vectors, f64 and f32, whichever end finds them', () => {
     for (const bad of [NaN, Infinity, -Infinity]) {
       for (const values of [Float64Array.from([1, bad, 2]), Float32Array.from([1, bad, 2])]) {
-        expect(protocolErrorCode(() => toWire({ dim: 3, indices: null, values }))).toBe('E_NOT_FINITE');
+        expect(protocolErrorCode(() => toWire({ dim: 3, indices: null, values }))).toBe(
+          'E_NOT_FINITE',
+        );
         // A peer that skips the check: write the bytes by hand.
         const good = toWire({ dim: 3, indices: null, values: values.map(() => 1) });
         const view = new DataView(good.values.buffer);
         if (good.width === 8) view.setFloat64(8, bad, true);
         else view.setFloat32(4, bad, true);
         const frame = encodeMessage({
-          type: 'up', round: 3, exchange: 'local', clientId: 2, localSteps: 1,
-          computeSeconds: 0, waitSeconds: 0, transferSeconds: 0, fields: { delta: good },
+          type: 'up',
+          round: 3,
+          exchange: 'local',
+          clientId: 2,
+          localSteps: 1,
+          computeSeconds: 0,
+          waitSeconds: 0,
+          transferSeconds: 0,
+          fields: { delta: good },
         });
         const context = serverContext({ fieldDims: { local: { delta: 3 } } });
         expect(protocolErrorCode(() => receiveMessage(frame, context))).toBe('E_NOT_FINITE');
@@ -140,7 +203,8 @@ describe('encodeMessage / decodeMessage', () => {
       Uint8Array.of(0xdb, 0xff, 0xff, 0xff, 0xff), // str 32 claiming 4 GiB
       new Uint8Array(0),
     ];
-    for (const frame of frames) expect(protocolErrorCode(() => decodeMessage(frame, LIMIT_BYTES))).toBe('E_DECODE');
+    for (const frame of frames)
+      expect(protocolErrorCode(() => decodeMessage(frame, LIMIT_BYTES))).toBe('E_DECODE');
   });
 
   it('refuses seeded random bytes with E_DECODE', () => {
@@ -160,13 +224,16 @@ describe('encodeMessage / decodeMessage', () => {
       withMoreTypes.pack({ type: 'error', code: 'E_TYPE', message: new Error('x') }),
       withMoreTypes.pack({ type: 'welcome', plan: new Set([1]) }),
     ];
-    for (const frame of frames) expect(protocolErrorCode(() => decodeMessage(frame, LIMIT_BYTES))).toBe('E_DECODE');
+    for (const frame of frames)
+      expect(protocolErrorCode(() => decodeMessage(frame, LIMIT_BYTES))).toBe('E_DECODE');
   });
 
   it('refuses nesting beyond the limit, and nesting deep enough to exhaust the stack, with E_DECODE', () => {
     const nested = (depth: number) => Uint8Array.from([...new Array(depth).fill(0x91), 0x01]);
     expect(decodeMessage(nested(NESTING_DEPTH_MAX), LIMIT_BYTES)).toBeDefined();
-    expect(protocolErrorCode(() => decodeMessage(nested(NESTING_DEPTH_MAX + 1), LIMIT_BYTES))).toBe('E_DECODE');
+    expect(protocolErrorCode(() => decodeMessage(nested(NESTING_DEPTH_MAX + 1), LIMIT_BYTES))).toBe(
+      'E_DECODE',
+    );
     expect(protocolErrorCode(() => decodeMessage(nested(1_000_000), LIMIT_BYTES))).toBe('E_DECODE');
   });
 
@@ -175,14 +242,18 @@ describe('encodeMessage / decodeMessage', () => {
     decodeMessage(sequential.pack({ x: 1, y: 2 }), LIMIT_BYTES);
     // The second frame of that stream refers to the structure by the byte 0x40, which on its
     // own is the positive fixint 64 followed by stray bytes.
-    expect(protocolErrorCode(() => decodeMessage(sequential.pack({ x: 3, y: 4 }), LIMIT_BYTES))).toBe('E_DECODE');
+    expect(
+      protocolErrorCode(() => decodeMessage(sequential.pack({ x: 3, y: 4 }), LIMIT_BYTES)),
+    ).toBe('E_DECODE');
     expect(decodeMessage(Uint8Array.of(0x91, 0x40), LIMIT_BYTES)).toEqual([64]);
   });
 
   it('checks the frame size before decoding (E_SIZE even for garbage)', () => {
     const garbage = new Uint8Array(1025).fill(0xc1);
     expect(protocolErrorCode(() => decodeMessage(garbage, 1024))).toBe('E_SIZE');
-    expect(protocolErrorCode(() => decodeMessage(garbage.subarray(0, 1024), 1024))).toBe('E_DECODE');
+    expect(protocolErrorCode(() => decodeMessage(garbage.subarray(0, 1024), 1024))).toBe(
+      'E_DECODE',
+    );
   });
 
   it('leaves frames it returned intact when it encodes again', () => {

@@ -71,7 +71,9 @@ describe('frameHeaderBytes against a real ws pair on 127.0.0.1', () => {
     const closed = new Promise<void>((resolve) => client.once('close', () => resolve()));
     client.close();
     await closed;
-    await new Promise<void>((resolve, reject) => server.close((error) => (error ? reject(error) : resolve())));
+    await new Promise<void>((resolve, reject) =>
+      server.close((error) => (error ? reject(error) : resolve())),
+    );
   });
 
   async function until(check: () => boolean): Promise<void> {

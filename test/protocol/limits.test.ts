@@ -33,12 +33,25 @@ describe('frameLimitBytesFor', () => {
 
   it('holds the largest legal up and down the real encoder writes, with a few KiB of headroom', () => {
     const up = encodeMessage({
-      type: 'up', round: big, exchange: longName('e'), clientId: big, fields: worstFields(dims),
-      localSteps: big, computeSeconds: Number.MAX_VALUE, waitSeconds: Number.MAX_VALUE, transferSeconds: Number.MAX_VALUE,
+      type: 'up',
+      round: big,
+      exchange: longName('e'),
+      clientId: big,
+      fields: worstFields(dims),
+      localSteps: big,
+      computeSeconds: Number.MAX_VALUE,
+      waitSeconds: Number.MAX_VALUE,
+      transferSeconds: Number.MAX_VALUE,
     });
     const down = encodeMessage({
-      type: 'down', round: big, exchange: longName('e'), clientId: big, localSteps: big, stepSize: Number.MAX_VALUE,
-      fields: worstFields(dims), deadlineSeconds: Number.MAX_VALUE,
+      type: 'down',
+      round: big,
+      exchange: longName('e'),
+      clientId: big,
+      localSteps: big,
+      stepSize: Number.MAX_VALUE,
+      fields: worstFields(dims),
+      deadlineSeconds: Number.MAX_VALUE,
     });
     for (const frame of [up, down]) {
       expect(frame.length).toBeLessThanOrEqual(limit);
@@ -72,7 +85,10 @@ describe('the index bound behind the frame limit: delta varint bytes of any subs
   it('is not exceeded by gaps at the LEB128 length steps (DWARF 4 section 7.6: 7 bits a byte)', () => {
     const d = 1_000_000;
     for (const gap of [128, 129, 16_384, 16_385]) {
-      const indices = Uint32Array.from({ length: Math.floor(d / gap) }, (_, i) => i * gap + gap - 1);
+      const indices = Uint32Array.from(
+        { length: Math.floor(d / gap) },
+        (_, i) => i * gap + gap - 1,
+      );
       expect(deltaVarintByteLength(indices)).toBeLessThanOrEqual(d);
     }
   });
@@ -88,7 +104,9 @@ describe('limitsForPlan', () => {
     expect(limits.maxFieldsPerMessage).toBe(3);
     expect(limits.maxVectorDim).toBe(70_000);
     expect(limits.maxClientsPerWorker).toBe(3);
-    expect(limits.maxFrameBytes).toBe(frameLimitBytesFor({ local: { delta: 40, control: 40, extra: 70_000 } }));
+    expect(limits.maxFrameBytes).toBe(
+      frameLimitBytesFor({ local: { delta: 40, control: 40, extra: 70_000 } }),
+    );
     expect(protocolLimitsSchema.safeParse(limits).success).toBe(true);
   });
 
@@ -97,6 +115,8 @@ describe('limitsForPlan', () => {
   });
 
   it('refuses a worker without clients', () => {
-    expect(() => limitsForPlan({ downFieldDims: {}, upFieldDims: {}, clientsPerWorker: 0 })).toThrow(RangeError);
+    expect(() =>
+      limitsForPlan({ downFieldDims: {}, upFieldDims: {}, clientsPerWorker: 0 }),
+    ).toThrow(RangeError);
   });
 });

@@ -16,7 +16,10 @@ export const SHARED_KEY = 'shared-secret-for-tests';
 export const NONCE = Uint8Array.from({ length: NONCE_BYTES }, (_, i) => (i * 37 + 11) & 0xff);
 
 /** Downs a worker reads, per exchange. */
-export const DOWN_FIELD_DIMS: FieldDims = { gradient: { model: DIM }, local: { model: DIM, average: DIM } };
+export const DOWN_FIELD_DIMS: FieldDims = {
+  gradient: { model: DIM },
+  local: { model: DIM, average: DIM },
+};
 /** Ups the server reads, per exchange. */
 export const UP_FIELD_DIMS: FieldDims = { gradient: { gradient: DIM }, local: { delta: DIM } };
 
@@ -37,7 +40,13 @@ export function samplePlan(): WirePlan {
     method: { name: 'fedlin', localSteps: [3, 4] },
     run: { rounds: 3 },
   });
-  const methodConfig = { clientCount: 6, stepSize: 0.025, serverStepSize: 1, proxCoefficient: 0.1, proxTolerance: 0 };
+  const methodConfig = {
+    clientCount: 6,
+    stepSize: 0.025,
+    serverStepSize: 1,
+    proxCoefficient: 0.1,
+    proxTolerance: 0,
+  };
   return { scenario, methodConfig, dim: DIM };
 }
 
@@ -52,7 +61,13 @@ export function sparseF32(dim: number, indices: number[], values: number[]): Wir
 export function sampleMessages(): Message[] {
   return [
     { type: 'challenge', protocolVersion: PROTOCOL_VERSION, nonce: NONCE },
-    { type: 'hello', protocolVersion: PROTOCOL_VERSION, workerName: 'laptop-1', capacity: 2, proof: proveKey(SHARED_KEY, NONCE) },
+    {
+      type: 'hello',
+      protocolVersion: PROTOCOL_VERSION,
+      workerName: 'laptop-1',
+      capacity: 2,
+      proof: proveKey(SHARED_KEY, NONCE),
+    },
     {
       type: 'welcome',
       assignments: [2, 5],
@@ -66,7 +81,10 @@ export function sampleMessages(): Message[] {
       clientId: 5,
       localSteps: 4,
       stepSize: 0.025,
-      fields: { model: denseF64([1.5, -0, 5e-324, -2.25, 1e300, 0.1]), average: sparseF32(DIM, [0, 4], [0.5, -3]) },
+      fields: {
+        model: denseF64([1.5, -0, 5e-324, -2.25, 1e300, 0.1]),
+        average: sparseF32(DIM, [0, 4], [0.5, -3]),
+      },
       deadlineSeconds: 1.5,
     },
     {

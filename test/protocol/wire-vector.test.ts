@@ -1,18 +1,26 @@
 import { describe, expect, it } from 'vitest';
 import { decompress } from '../../src/compress/compressed-vector.js';
 import { ProtocolError } from '../../src/protocol/errors.js';
-import { checkWireVector, fromWire, toWire, type WireVector } from '../../src/protocol/wire-vector.js';
+import {
+  checkWireVector,
+  fromWire,
+  toWire,
+  type WireVector,
+} from '../../src/protocol/wire-vector.js';
 import { codeOf } from '../support/error-code.js';
 
 const protocolErrorCode = (action: () => unknown): string => codeOf(action, ProtocolError);
-
 
 describe('toWire / fromWire', () => {
   it('round-trips dense and sparse vectors at both widths', () => {
     const cases = [
       { dim: 4, indices: null, values: Float64Array.from([1, -0, 3e-310, -4]) },
       { dim: 4, indices: null, values: Float32Array.from([1, -0, 2 ** -140, -4]) },
-      { dim: 1000, indices: Uint32Array.from([0, 1, 129, 999]), values: Float64Array.from([1, 2, 3, 4]) },
+      {
+        dim: 1000,
+        indices: Uint32Array.from([0, 1, 129, 999]),
+        values: Float64Array.from([1, 2, 3, 4]),
+      },
       { dim: 1000, indices: Uint32Array.from([7]), values: Float32Array.from([-0.5]) },
       { dim: 10, indices: new Uint32Array(0), values: new Float64Array(0) },
     ];
@@ -23,8 +31,12 @@ describe('toWire / fromWire', () => {
       const back = fromWire(wv);
       expect(back.dim).toBe(cv.dim);
       expect(back.values.constructor).toBe(cv.values.constructor);
-      expect(back.indices === null ? null : Array.from(back.indices)).toEqual(cv.indices === null ? null : Array.from(cv.indices));
-      expect(new Uint8Array(back.values.buffer)).toEqual(new Uint8Array(cv.values.buffer, cv.values.byteOffset, cv.values.byteLength));
+      expect(back.indices === null ? null : Array.from(back.indices)).toEqual(
+        cv.indices === null ? null : Array.from(cv.indices),
+      );
+      expect(new Uint8Array(back.values.buffer)).toEqual(
+        new Uint8Array(cv.values.buffer, cv.values.byteOffset, cv.values.byteLength),
+      );
       expect(decompress(back)).toEqual(decompress(cv));
     }
   });
@@ -36,7 +48,11 @@ describe('toWire / fromWire', () => {
 
   it('codes indices as first index then gaps minus one, each an unsigned LEB128 (DWARF 4 section 7.6; protobuf encoding guide: 300 is AC 02)', () => {
     // indices 0, 1, 302: gaps minus one are 0, 0, 300.
-    const wv = toWire({ dim: 400, indices: Uint32Array.from([0, 1, 302]), values: new Float64Array(3) });
+    const wv = toWire({
+      dim: 400,
+      indices: Uint32Array.from([0, 1, 302]),
+      values: new Float64Array(3),
+    });
     expect(Array.from(wv.indices!)).toEqual([0x00, 0x00, 0xac, 0x02]);
   });
 
@@ -58,25 +74,58 @@ describe('checks on a wire vector from a peer', () => {
     ['dimension 0', () => ({ ...dense([1]), dim: 0 }), 'E_DIMENSION'],
     ['fractional dimension', () => ({ ...dense([1]), dim: 1.5 }), 'E_DIMENSION'],
     ['dense form with count below dim', () => ({ ...dense([1, 2]), count: 1 }), 'E_DIMENSION'],
-    ['count above dim', () => ({ ...toWire({ dim: 2, indices: Uint32Array.of(1), values: Float64Array.of(1) }), count: 3 }), 'E_DIMENSION'],
-    ['value bytes not count * width', () => ({ ...dense([1, 2]), values: new Uint8Array(15) }), 'E_DIMENSION'],
+    [
+      'count above dim',
+      () => ({
+        ...toWire({ dim: 2, indices: Uint32Array.of(1), values: Float64Array.of(1) }),
+        count: 3,
+      }),
+      'E_DIMENSION',
+    ],
+    [
+      'value bytes not count * width',
+      () => ({ ...dense([1, 2]), values: new Uint8Array(15) }),
+      'E_DIMENSION',
+    ],
     ['index at the dimension', () => toWireUnchecked(5, [0, 5], 8), 'E_DIMENSION'],
-    ['fewer indices than count', () => ({ ...toWire({ dim: 9, indices: Uint32Array.of(1, 2), values: Float64Array.of(1, 2) }), count: 3, values: new Uint8Array(24) }), 'E_DIMENSION'],
+    [
+      'fewer indices than count',
+      () => ({
+        ...toWire({ dim: 9, indices: Uint32Array.of(1, 2), values: Float64Array.of(1, 2) }),
+        count: 3,
+        values: new Uint8Array(24),
+      }),
+      'E_DIMENSION',
+    ],
     ['index bytes left over', () => withIndexBytes([0x01, 0x01, 0x01], 2), 'E_DIMENSION'],
     ['truncated varint', () => withIndexBytes([0x01, 0x80], 2), 'E_DIMENSION'],
     ['overlong varint (0 coded as 80 00)', () => withIndexBytes([0x80, 0x00], 1), 'E_DIMENSION'],
-    ['varint beyond 32 bits', () => withIndexBytes([0xff, 0xff, 0xff, 0xff, 0x7f], 1), 'E_DIMENSION'],
+    [
+      'varint beyond 32 bits',
+      () => withIndexBytes([0xff, 0xff, 0xff, 0xff, 0x7f], 1),
+      'E_DIMENSION',
+    ],
     ['NaN value', () => nanAt(1), 'E_NOT_FINITE'],
   ];
 
   /** A sparse f64 vector with the given raw index bytes and `count` zero values. */
   function withIndexBytes(indexBytes: number[], count: number): WireVector {
-    return { dim: 1000, indices: Uint8Array.from(indexBytes), count, values: new Uint8Array(count * 8), width: 8 };
+    return {
+      dim: 1000,
+      indices: Uint8Array.from(indexBytes),
+      count,
+      values: new Uint8Array(count * 8),
+      width: 8,
+    };
   }
 
   /** Sparse indices coded without toWire's own checks, as a faulty peer might send them. */
   function toWireUnchecked(dim: number, indices: number[], width: 4 | 8): WireVector {
-    const good = toWire({ dim: Math.max(...indices) + 1, indices: Uint32Array.from(indices), values: new Float64Array(indices.length) });
+    const good = toWire({
+      dim: Math.max(...indices) + 1,
+      indices: Uint32Array.from(indices),
+      values: new Float64Array(indices.length),
+    });
     return { ...good, dim, width, values: new Uint8Array(indices.length * width) };
   }
 
@@ -94,17 +143,27 @@ describe('checks on a wire vector from a peer', () => {
   }
 
   it('names the field path in the message', () => {
-    expect(() => fromWire(nanAt(2), 'up.fields.delta')).toThrow('up.fields.delta.values: value 2 is NaN');
+    expect(() => fromWire(nanAt(2), 'up.fields.delta')).toThrow(
+      'up.fields.delta.values: value 2 is NaN',
+    );
   });
 });
 
 describe('checks on the sending side', () => {
   it('refuses unsorted or duplicate indices, indices out of range and count mismatches with E_DIMENSION', () => {
     const values = Float64Array.of(1, 2);
-    expect(protocolErrorCode(() => toWire({ dim: 9, indices: Uint32Array.of(3, 1), values }))).toBe('E_DIMENSION');
-    expect(protocolErrorCode(() => toWire({ dim: 9, indices: Uint32Array.of(3, 3), values }))).toBe('E_DIMENSION');
-    expect(protocolErrorCode(() => toWire({ dim: 9, indices: Uint32Array.of(3, 9), values }))).toBe('E_DIMENSION');
-    expect(protocolErrorCode(() => toWire({ dim: 9, indices: Uint32Array.of(3), values }))).toBe('E_DIMENSION');
+    expect(protocolErrorCode(() => toWire({ dim: 9, indices: Uint32Array.of(3, 1), values }))).toBe(
+      'E_DIMENSION',
+    );
+    expect(protocolErrorCode(() => toWire({ dim: 9, indices: Uint32Array.of(3, 3), values }))).toBe(
+      'E_DIMENSION',
+    );
+    expect(protocolErrorCode(() => toWire({ dim: 9, indices: Uint32Array.of(3, 9), values }))).toBe(
+      'E_DIMENSION',
+    );
+    expect(protocolErrorCode(() => toWire({ dim: 9, indices: Uint32Array.of(3), values }))).toBe(
+      'E_DIMENSION',
+    );
     expect(protocolErrorCode(() => toWire({ dim: 3, indices: null, values }))).toBe('E_DIMENSION');
   });
 });

@@ -9,11 +9,18 @@ const ladder = (text: string): Ladder => parseLadderOption(text);
 
 describe('expandVariants', () => {
   it('runs the product, first ladder slowest, with short unambiguous labels', () => {
-    const variants = expandVariants([ladder('method.name:fedavg/fedlin'), ladder('compression.uplink.default.fraction:1/0.1/0.01')]);
+    const variants = expandVariants([
+      ladder('method.name:fedavg/fedlin'),
+      ladder('compression.uplink.default.fraction:1/0.1/0.01'),
+    ]);
     expect(variants.length).toBe(2 * 3);
     expect(variants.map((v) => v.label)).toEqual([
-      'name:fedavg fraction:1', 'name:fedavg fraction:0.1', 'name:fedavg fraction:0.01',
-      'name:fedlin fraction:1', 'name:fedlin fraction:0.1', 'name:fedlin fraction:0.01',
+      'name:fedavg fraction:1',
+      'name:fedavg fraction:0.1',
+      'name:fedavg fraction:0.01',
+      'name:fedlin fraction:1',
+      'name:fedlin fraction:0.1',
+      'name:fedlin fraction:0.01',
     ]);
     expect(variants[4].rungs).toEqual([1, 1]);
     expect(variants[4].tweaks).toEqual([
@@ -25,11 +32,21 @@ describe('expandVariants', () => {
   });
 
   it('moves the fields of a zipped ladder together: one variant a rung, not their product', () => {
-    const variants = expandVariants([ladder('method.name+method.stepSize:fedavg,0.05/fedlin,0.2'), ladder('seed:1/2')]);
-    expect(variantCount([ladder('method.name+method.stepSize:fedavg,0.05/fedlin,0.2'), ladder('seed:1/2')])).toBe(2 * 2);
+    const variants = expandVariants([
+      ladder('method.name+method.stepSize:fedavg,0.05/fedlin,0.2'),
+      ladder('seed:1/2'),
+    ]);
+    expect(
+      variantCount([
+        ladder('method.name+method.stepSize:fedavg,0.05/fedlin,0.2'),
+        ladder('seed:1/2'),
+      ]),
+    ).toBe(2 * 2);
     expect(variants.map((v) => v.label)).toEqual([
-      'name:fedavg stepSize:0.05 seed:1', 'name:fedavg stepSize:0.05 seed:2',
-      'name:fedlin stepSize:0.2 seed:1', 'name:fedlin stepSize:0.2 seed:2',
+      'name:fedavg stepSize:0.05 seed:1',
+      'name:fedavg stepSize:0.05 seed:2',
+      'name:fedlin stepSize:0.2 seed:1',
+      'name:fedlin stepSize:0.2 seed:2',
     ]);
     expect(variants[2].tweaks).toEqual([
       { path: ['method', 'name'], value: 'fedlin' },
@@ -39,8 +56,13 @@ describe('expandVariants', () => {
   });
 
   it('uses whole paths where last keys collide, and keeps labels apart where values print alike', () => {
-    const [v] = expandVariants([ladder('compression.uplink.default.fraction:0.1'), ladder('compression.downlink.default.fraction:0.5')]);
-    expect(v.label).toBe('compression.uplink.default.fraction:0.1 compression.downlink.default.fraction:0.5');
+    const [v] = expandVariants([
+      ladder('compression.uplink.default.fraction:0.1'),
+      ladder('compression.downlink.default.fraction:0.5'),
+    ]);
+    expect(v.label).toBe(
+      'compression.uplink.default.fraction:0.1 compression.downlink.default.fraction:0.5',
+    );
     // the string "1" and the number 1 are different values and are shown differently
     const labels = expandVariants([ladder('description:"1"/1')]).map((x) => x.label);
     expect(labels).toEqual(['description:"1"', 'description:1']);
@@ -56,7 +78,9 @@ describe('expandVariants', () => {
   it('refuses more variants than the limit, and nothing to compare', () => {
     const rungs = Array.from({ length: 9 }, (_, i) => String(i + 1)).join('/');
     expect(9 * 9).toBeGreaterThan(COMPARE_LIMITS.variantsMax);
-    expect(() => expandVariants([ladder(`method.localSteps:${rungs}`), ladder(`seed:${rungs}`)])).toThrow(/81 variants \(9 x 9 rungs\) exceed the limit of 64/);
+    expect(() =>
+      expandVariants([ladder(`method.localSteps:${rungs}`), ladder(`seed:${rungs}`)]),
+    ).toThrow(/81 variants \(9 x 9 rungs\) exceed the limit of 64/);
     expect(() => expandVariants([])).toThrow(/nothing to compare/);
   });
 });

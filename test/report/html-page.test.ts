@@ -5,8 +5,26 @@ import { figure, heading, page, paragraph, section, table } from '../../src/repo
 
 describe('html page', () => {
   it('escapes every text it is given', () => {
-    const html = page('<x-t>', [heading('<x-h>'), paragraph('<x-p>'), section('<x-s>', [figure('<svg></svg>', '<x-c>', '<x-f>'), table(['<x-q>'], [['<x-r>'], [null]], () => '<x-n>')])]);
-    for (const raw of ['<x-t>', '<x-h>', '<x-p>', '<x-s>', '<x-c>', '<x-f>', '<x-q>', '<x-r>', '<x-n>']) expect(html).not.toContain(raw);
+    const html = page('<x-t>', [
+      heading('<x-h>'),
+      paragraph('<x-p>'),
+      section('<x-s>', [
+        figure('<svg></svg>', '<x-c>', '<x-f>'),
+        table(['<x-q>'], [['<x-r>'], [null]], () => '<x-n>'),
+      ]),
+    ]);
+    for (const raw of [
+      '<x-t>',
+      '<x-h>',
+      '<x-p>',
+      '<x-s>',
+      '<x-c>',
+      '<x-f>',
+      '<x-q>',
+      '<x-r>',
+      '<x-n>',
+    ])
+      expect(html).not.toContain(raw);
     expect(html).toContain('<svg></svg>');
   });
 

@@ -5,7 +5,9 @@ import { escapeHtml } from '../../src/report/html-text.js';
 
 describe('escapeHtml', () => {
   it('escapes markup characters and leaves other text alone', () => {
-    expect(escapeHtml(`<script>alert("x")</script> & 'y'`)).toBe('&lt;script&gt;alert(&quot;x&quot;)&lt;/script&gt; &amp; &#39;y&#39;');
+    expect(escapeHtml(`<script>alert("x")</script> & 'y'`)).toBe(
+      '&lt;script&gt;alert(&quot;x&quot;)&lt;/script&gt; &amp; &#39;y&#39;',
+    );
     expect(escapeHtml('fedlin, tau = 5; f - f* < 1e-8')).toBe('fedlin, tau = 5; f - f* &lt; 1e-8');
   });
 

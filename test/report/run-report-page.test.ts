@@ -19,14 +19,22 @@ const hostileDescription = '<img src=x onerror=alert(1)>';
 
 function runInto(dir: string, tweaks: string[]): string {
   const text = readFileSync('scenarios/quickstart.yaml', 'utf8');
-  const scenario = scenarioFromText(text, 'quickstart.yaml', [`name:${JSON.stringify(hostileName)}`, `description:${JSON.stringify(hostileDescription)}`, 'run.rounds:60', ...tweaks]);
+  const scenario = scenarioFromText(text, 'quickstart.yaml', [
+    `name:${JSON.stringify(hostileName)}`,
+    `description:${JSON.stringify(hostileDescription)}`,
+    'run.rounds:60',
+    ...tweaks,
+  ]);
   finishRun(runInProcess(scenario), 'in-process', dir);
   return dir;
 }
 
 describe('run report page', () => {
   const withPrediction = runInto(join(root, 'fedlin'), []);
-  const withoutPrediction = runInto(join(root, 'logistic'), ['problem.kind:logistic', 'run.rounds:20']);
+  const withoutPrediction = runInto(join(root, 'logistic'), [
+    'problem.kind:logistic',
+    'run.rounds:20',
+  ]);
 
   it('renders the same page twice from the same folder', async () => {
     const first = await writeRunReport(withPrediction);
@@ -39,7 +47,9 @@ describe('run report page', () => {
     const html = await buildRunReport(readRunResults(withPrediction));
     expect(html).not.toContain('<script');
     expect(html).not.toContain('<img');
-    expect(html).toContain('&lt;script&gt;alert(&quot;name&quot;)&lt;/script&gt; &amp; &#39;co&#39;');
+    expect(html).toContain(
+      '&lt;script&gt;alert(&quot;name&quot;)&lt;/script&gt; &amp; &#39;co&#39;',
+    );
     expect(html).toContain('&lt;img src=x onerror=alert(1)&gt;');
   });
 

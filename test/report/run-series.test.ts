@@ -4,9 +4,19 @@
 import { describe, expect, it } from 'vitest';
 import type { ClientRoundRecord, RoundRecord } from '../../src/engine/round-record.js';
 import type { RunSummary } from '../../src/engine/run-summary.js';
-import { bytesByLayer, clientTimeline, localStepsHistogram, measuredCurve, predictedCurve } from '../../src/report/run-series.js';
+import {
+  bytesByLayer,
+  clientTimeline,
+  localStepsHistogram,
+  measuredCurve,
+  predictedCurve,
+} from '../../src/report/run-series.js';
 
-function round(r: number, suboptimality: number | null, extra: Partial<RoundRecord> = {}): RoundRecord {
+function round(
+  r: number,
+  suboptimality: number | null,
+  extra: Partial<RoundRecord> = {},
+): RoundRecord {
   return {
     round: r,
     suboptimality,
@@ -23,9 +33,19 @@ function round(r: number, suboptimality: number | null, extra: Partial<RoundReco
 
 describe('measuredCurve', () => {
   it('accumulates payload bytes, picks the clock, skips unevaluated rounds and stops at divergence', () => {
-    const rounds = [round(0, 1), round(1, null), round(2, 0.5), round(3, 0), round(4, Number.POSITIVE_INFINITY), round(5, 0.1)];
+    const rounds = [
+      round(0, 1),
+      round(1, null),
+      round(2, 0.5),
+      round(3, 0),
+      round(4, Number.POSITIVE_INFINITY),
+      round(5, 0.1),
+    ];
     const virtual = measuredCurve(rounds, 'virtual', 'm');
-    expect(virtual.points.map((p) => [p.round, p.payloadBytes, p.seconds])).toEqual([[0, 0, 0], [2, 300, 4]]);
+    expect(virtual.points.map((p) => [p.round, p.payloadBytes, p.seconds])).toEqual([
+      [0, 0, 0],
+      [2, 300, 4],
+    ]);
     expect(virtual.nonPositive).toBe(1);
     expect(virtual.diverged).toBe(true);
     expect(measuredCurve(rounds, 'wall', 'm').points[1].seconds).toBeCloseTo(0.2, 12);
@@ -51,12 +71,20 @@ describe('predictedCurve', () => {
 
   it('follows floor + (f0 - floor) rate^k at the measured rounds', () => {
     const rows = predictedCurve(summary, measured, 'p');
-    expect(rows?.map((r) => r.suboptimality)).toEqual([0.25 + 1.75, 0.25 + 1.75 * 0.5, 0.25 + 1.75 * 0.125]);
+    expect(rows?.map((r) => r.suboptimality)).toEqual([
+      0.25 + 1.75,
+      0.25 + 1.75 * 0.5,
+      0.25 + 1.75 * 0.125,
+    ]);
     expect(rows?.map((r) => r.payloadBytes)).toEqual(measured.map((m) => m.payloadBytes));
   });
 
   it('is null when the run has no prediction', () => {
-    const none = { ...summary, prediction: { ...summary.prediction, available: false }, rate: { predicted: null, measured: null } } as unknown as RunSummary;
+    const none = {
+      ...summary,
+      prediction: { ...summary.prediction, available: false },
+      rate: { predicted: null, measured: null },
+    } as unknown as RunSummary;
     expect(predictedCurve(none, measured, 'p')).toBeNull();
   });
 });
@@ -71,7 +99,15 @@ describe('bytesByLayer', () => {
       { round: 2, layer: 'payload', direction: 'up', bytes: 100 },
       { round: 2, layer: 'payload', direction: 'down', bytes: 50 },
     ]);
-    const wire = bytesByLayer([round(1, 1, { bytes: { payload: { up: 1, down: 2 }, encoded: { up: 3, down: 4 }, wire: { up: 5, down: 6 } } })]);
+    const wire = bytesByLayer([
+      round(1, 1, {
+        bytes: {
+          payload: { up: 1, down: 2 },
+          encoded: { up: 3, down: 4 },
+          wire: { up: 5, down: 6 },
+        },
+      }),
+    ]);
     expect(wire.layers).toEqual(['payload', 'encoded', 'wire']);
     expect(wire.rows.map((r) => r.bytes)).toEqual([1, 2, 3, 4, 5, 6]);
   });
@@ -97,13 +133,34 @@ describe('localStepsHistogram', () => {
 });
 
 describe('clientTimeline', () => {
-  const client = (r: number, id: number, compute: number, transfer: number, wait: number, exchange = 'local'): ClientRoundRecord => ({
-    round: r, exchange, clientId: id, localSteps: 1, computeSeconds: compute, waitSeconds: wait, transferSeconds: transfer, bytes: { payload: { up: 0, down: 0 } }, dropped: false,
+  const client = (
+    r: number,
+    id: number,
+    compute: number,
+    transfer: number,
+    wait: number,
+    exchange = 'local',
+  ): ClientRoundRecord => ({
+    round: r,
+    exchange,
+    clientId: id,
+    localSteps: 1,
+    computeSeconds: compute,
+    waitSeconds: wait,
+    transferSeconds: transfer,
+    bytes: { payload: { up: 0, down: 0 } },
+    dropped: false,
   });
 
   it('lays each exchange out as compute, transfer, idle from the round start, for the last rounds only', () => {
     const rounds = [round(0, 1), round(1, 1), round(2, 1), round(3, 1)];
-    const clients = [client(1, 0, 1, 0, 1), client(2, 0, 1, 0.5, 0.5), client(3, 0, 0.5, 0.5, 0, 'gradient'), client(3, 0, 0.5, 0, 0.5), client(3, 1, 2, 0, 0)];
+    const clients = [
+      client(1, 0, 1, 0, 1),
+      client(2, 0, 1, 0.5, 0.5),
+      client(3, 0, 0.5, 0.5, 0, 'gradient'),
+      client(3, 0, 0.5, 0, 0.5),
+      client(3, 1, 2, 0, 0),
+    ];
     const t = clientTimeline(rounds, clients, 2, 64);
     expect(t.roundsShown).toEqual([2, 3]);
     const c0 = t.segments.filter((s) => s.client === 'client 0');

@@ -21,8 +21,13 @@ function sha256(word: string): string {
   return createHash('sha256').update(word.toLowerCase()).digest('hex');
 }
 
-function filesNaming(digests: ReadonlySet<string>, files: readonly { path: string; text: string }[]): string[] {
-  return files.filter((f) => wordsOf(f.text).some((w) => digests.has(sha256(w)))).map((f) => f.path);
+function filesNaming(
+  digests: ReadonlySet<string>,
+  files: readonly { path: string; text: string }[],
+): string[] {
+  return files
+    .filter((f) => wordsOf(f.text).some((w) => digests.has(sha256(w))))
+    .map((f) => f.path);
 }
 
 const scratch = mkdtempSync(join(tmpdir(), 'rw-citations-'));
@@ -32,7 +37,9 @@ describe('citations', () => {
   it('the scanner finds a planted word by its digest (so an empty result means something)', () => {
     const planted = join(scratch, 'planted.md');
     writeFileSync(planted, 'A line that cites Quillfeather et al. in passing.\n');
-    const found = filesNaming(new Set([sha256('quillfeather')]), [{ path: planted, text: 'A line that cites Quillfeather et al.' }]);
+    const found = filesNaming(new Set([sha256('quillfeather')]), [
+      { path: planted, text: 'A line that cites Quillfeather et al.' },
+    ]);
     expect(found).toEqual([planted]);
   });
 

@@ -29,11 +29,26 @@ async function ruleIdsOf(file: string): Promise<string[]> {
 
 describe('the layer lint', () => {
   it('fails on an import that points up the layers, from the core into server/, and on a cycle; passes a downward import', async () => {
-    writeFileSync(SCRATCH.upward, "import { runInProcess } from '../engine/in-process-engine.js';\nexport const f = runInProcess;\n");
-    writeFileSync(SCRATCH.cycleA, "import { b } from './zz-lint-scratch-cycle-b.js';\nexport const a = (): number => b() + 1;\n");
-    writeFileSync(SCRATCH.cycleB, "import { a } from './zz-lint-scratch-cycle-a.js';\nexport const b = (): number => a() - 1;\n");
-    writeFileSync(SCRATCH.serverFromCore, "import { RoundDriver } from '../../server/rounds.js';\nexport const d = RoundDriver;\n");
-    writeFileSync(SCRATCH.clean, "import { dot } from '../vec/kernels.js';\nexport const g = dot;\n");
+    writeFileSync(
+      SCRATCH.upward,
+      "import { runInProcess } from '../engine/in-process-engine.js';\nexport const f = runInProcess;\n",
+    );
+    writeFileSync(
+      SCRATCH.cycleA,
+      "import { b } from './zz-lint-scratch-cycle-b.js';\nexport const a = (): number => b() + 1;\n",
+    );
+    writeFileSync(
+      SCRATCH.cycleB,
+      "import { a } from './zz-lint-scratch-cycle-a.js';\nexport const b = (): number => a() - 1;\n",
+    );
+    writeFileSync(
+      SCRATCH.serverFromCore,
+      "import { RoundDriver } from '../../server/rounds.js';\nexport const d = RoundDriver;\n",
+    );
+    writeFileSync(
+      SCRATCH.clean,
+      "import { dot } from '../vec/kernels.js';\nexport const g = dot;\n",
+    );
     expect(await ruleIdsOf(SCRATCH.upward)).toContain('import-x/no-restricted-paths');
     expect(await ruleIdsOf(SCRATCH.cycleA)).toContain('import-x/no-cycle');
     expect(await ruleIdsOf(SCRATCH.serverFromCore)).toContain('import-x/no-restricted-paths');

@@ -6,7 +6,9 @@ import { readdirSync, readFileSync, statSync } from 'node:fs';
 import { join, relative } from 'node:path';
 import { fileURLToPath } from 'node:url';
 
-export const repoRoot = fileURLToPath(new URL('../..', import.meta.url)).replace(/\/dist\/?$/, '').replace(/\/$/, '');
+export const repoRoot = fileURLToPath(new URL('../..', import.meta.url))
+  .replace(/\/dist\/?$/, '')
+  .replace(/\/$/, '');
 
 const SKIPPED_DIRS = new Set(['node_modules', 'dist', '.git', 'results', '.vitest-cache']);
 /** Large generated or binary files say nothing a reviewer reads. */
@@ -22,7 +24,11 @@ function walk(dir: string, out: string[]): void {
 
 function trackedPaths(): string[] {
   try {
-    const listed = execFileSync('git', ['ls-files', '-z', '--cached', '--others', '--exclude-standard'], { cwd: repoRoot, encoding: 'utf8' });
+    const listed = execFileSync(
+      'git',
+      ['ls-files', '-z', '--cached', '--others', '--exclude-standard'],
+      { cwd: repoRoot, encoding: 'utf8' },
+    );
     // A path in the middle of a merge is listed once per stage: each file counts once.
     return [...new Set(listed.split('\0').filter((p) => p.length > 0))];
   } catch {

@@ -18,7 +18,16 @@ describe('parseHostPort', () => {
   });
 
   it('refuses malformed text and ports beyond 65535', () => {
-    for (const bad of ['', 'host', 'host:', ':7070', '127.0.0.1:65536', '::1:80', 'a]b:80', '[::1:80']) {
+    for (const bad of [
+      '',
+      'host',
+      'host:',
+      ':7070',
+      '127.0.0.1:65536',
+      '::1:80',
+      'a]b:80',
+      '[::1:80',
+    ]) {
       expect(parseHostPort(bad, '127.0.0.1'), bad).toBeNull();
     }
   });
@@ -26,11 +35,13 @@ describe('parseHostPort', () => {
 
 describe('isLoopbackHost', () => {
   it('knows localhost, ::1 and 127.0.0.0/8', () => {
-    for (const host of ['localhost', '::1', '127.0.0.1', '127.255.0.9']) expect(isLoopbackHost(host), host).toBe(true);
+    for (const host of ['localhost', '::1', '127.0.0.1', '127.255.0.9'])
+      expect(isLoopbackHost(host), host).toBe(true);
   });
 
   it('treats every other host as reachable from elsewhere', () => {
-    for (const host of ['0.0.0.0', '::', '10.0.0.1', '128.0.0.1', '127.example.org', 'example.org']) expect(isLoopbackHost(host), host).toBe(false);
+    for (const host of ['0.0.0.0', '::', '10.0.0.1', '128.0.0.1', '127.example.org', 'example.org'])
+      expect(isLoopbackHost(host), host).toBe(false);
   });
 });
 

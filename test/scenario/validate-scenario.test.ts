@@ -6,7 +6,10 @@ import { readFileSync } from 'node:fs';
 import { scenarioFromText } from '../../src/scenario/load-scenario.js';
 import { ScenarioError } from '../../src/scenario/scenario-error.js';
 
-const quickstart = readFileSync(new URL('../../scenarios/quickstart.yaml', import.meta.url), 'utf8');
+const quickstart = readFileSync(
+  new URL('../../scenarios/quickstart.yaml', import.meta.url),
+  'utf8',
+);
 
 function failure(text: string, tweaks: string[] = [], name = 'bad.yaml'): ScenarioError {
   try {
@@ -31,12 +34,16 @@ describe('scenario validation', () => {
     const e = failure(quickstart, ['clients.count:abc']);
     expect(e.code).toBe('E_SCENARIO_FIELD');
     expect(e.fieldPath).toBe('clients.count');
-    expect(e.message).toMatch(/^clients\.count: expected a positive integer.*got "abc" \(from --tweak "clients\.count:abc"\)$/);
+    expect(e.message).toMatch(
+      /^clients\.count: expected a positive integer.*got "abc" \(from --tweak "clients\.count:abc"\)$/,
+    );
   });
 
   it('negative count: the localSteps message lists every accepted form', () => {
     const e = failure(quickstart, ['method.localSteps:-3']);
-    expect(e.message).toBe('method.localSteps: expected a positive integer, a list of positive integers or {uniform: [min, max]}, got -3 (from --tweak "method.localSteps:-3")');
+    expect(e.message).toBe(
+      'method.localSteps: expected a positive integer, a list of positive integers or {uniform: [min, max]}, got -3 (from --tweak "method.localSteps:-3")',
+    );
   });
 
   it('unknown key: names it and suggests the closest known key', () => {
@@ -53,7 +60,9 @@ describe('scenario validation', () => {
 
   it('missing field inside a union branch', () => {
     const e = failure(quickstart, ['data.partition:{kind: dirichlet}']);
-    expect(e.message).toBe('data.partition.alpha: missing; expected a positive number (from --tweak "data.partition:{kind: dirichlet}")');
+    expect(e.message).toBe(
+      'data.partition.alpha: missing; expected a positive number (from --tweak "data.partition:{kind: dirichlet}")',
+    );
   });
 
   it('broken YAML: reports the line', () => {
@@ -73,12 +82,18 @@ describe('scenario validation', () => {
   });
 
   it('cross-field rules: an inverted range and a compressor without k', () => {
-    expect(failure(quickstart, ['data.samplesPerClient:{uniform: [5, 2]}']).message).toMatch(/^data\.samplesPerClient: uniform: min must not exceed max/);
-    expect(failure(quickstart, ['compression.uplink.default:{kind: top-k}']).message).toMatch(/top-k and rand-k need a fraction or a count/);
+    expect(failure(quickstart, ['data.samplesPerClient:{uniform: [5, 2]}']).message).toMatch(
+      /^data\.samplesPerClient: uniform: min must not exceed max/,
+    );
+    expect(failure(quickstart, ['compression.uplink.default:{kind: top-k}']).message).toMatch(
+      /top-k and rand-k need a fraction or a count/,
+    );
   });
 
   it('enum: lists the choices', () => {
-    expect(failure(quickstart, ['method.name:fedavgg']).message).toMatch(/^method\.name: expected one of "gd", "fedavg".*got "fedavgg" \(from --tweak "method\.name:fedavgg"\)$/);
+    expect(failure(quickstart, ['method.name:fedavgg']).message).toMatch(
+      /^method\.name: expected one of "gd", "fedavg".*got "fedavgg" \(from --tweak "method\.name:fedavgg"\)$/,
+    );
   });
 
   it('duplicate keys in YAML are rejected rather than silently overwritten', () => {
@@ -88,14 +103,20 @@ describe('scenario validation', () => {
 
 describe('--tweak', () => {
   it('applies typed values and creates intermediate mappings', () => {
-    const s = scenarioFromText(quickstart, 'q.yaml', ['method.localSteps:{uniform: [1, 20]}', 'timing.slowdown: {kind: two-class, fraction: 0.25, factor: 10}', 'run.target:1e-8']);
+    const s = scenarioFromText(quickstart, 'q.yaml', [
+      'method.localSteps:{uniform: [1, 20]}',
+      'timing.slowdown: {kind: two-class, fraction: 0.25, factor: 10}',
+      'run.target:1e-8',
+    ]);
     expect(s.method.localSteps).toEqual({ uniform: [1, 20] });
     expect(s.timing.slowdown).toEqual({ kind: 'two-class', fraction: 0.25, factor: 10 });
     expect(s.run.target).toBe(1e-8);
   });
 
   it('splits at the first colon only, so values may hold colons', () => {
-    expect(scenarioFromText(quickstart, 'q.yaml', ['description:ratio 1:2']).description).toBe('ratio 1:2');
+    expect(scenarioFromText(quickstart, 'q.yaml', ['description:ratio 1:2']).description).toBe(
+      'ratio 1:2',
+    );
     expect(scenarioFromText(quickstart, 'q.yaml', ['description:"a: b"']).description).toBe('a: b');
   });
 
@@ -106,11 +127,17 @@ describe('--tweak', () => {
   it('rejects a malformed tweak with a message naming it', () => {
     const noColon = failure(quickstart, ['method.localSteps']);
     expect(noColon.code).toBe('E_SCENARIO_TWEAK');
-    expect(noColon.message).toBe('--tweak "method.localSteps": no colon; expected field:value, e.g. method.localSteps:10');
-    expect(failure(quickstart, ['method.localSteps:']).message).toBe('method.localSteps: --tweak "method.localSteps:": no value after the colon');
+    expect(noColon.message).toBe(
+      '--tweak "method.localSteps": no colon; expected field:value, e.g. method.localSteps:10',
+    );
+    expect(failure(quickstart, ['method.localSteps:']).message).toBe(
+      'method.localSteps: --tweak "method.localSteps:": no value after the colon',
+    );
     expect(failure(quickstart, [':3']).message).toBe('--tweak ":3": no field before the colon');
     expect(failure(quickstart, ['method..name:x']).code).toBe('E_SCENARIO_TWEAK');
-    expect(failure(quickstart, ['seed:[1']).message).toMatch(/^seed: --tweak "seed:\[1": cannot read the value/);
+    expect(failure(quickstart, ['seed:[1']).message).toMatch(
+      /^seed: --tweak "seed:\[1": cannot read the value/,
+    );
     const notMapping = failure(quickstart, ['name.sub:1']);
     expect(notMapping.code).toBe('E_SCENARIO_TWEAK');
     expect(notMapping.message).toBe('name: not a mapping, so it has no field "sub" to tweak');
@@ -120,7 +147,9 @@ describe('--tweak', () => {
     const e = failure(quickstart, ['seed:3', 'method.localSteps:{uniform: [1, 0]}']);
     expect(e.fieldPath).toBe('method.localSteps.uniform[1]');
     expect(e.message).toMatch(/\(from --tweak "method\.localSteps:\{uniform: \[1, 0\]\}"\)$/);
-    expect(failure(quickstart.replace(/^  rounds: \d+\n/m, ''), ['seed:3']).message).not.toContain('--tweak');
+    expect(failure(quickstart.replace(/^  rounds: \d+\n/m, ''), ['seed:3']).message).not.toContain(
+      '--tweak',
+    );
   });
 });
 
@@ -128,25 +157,55 @@ describe('ladders', () => {
   const withLadders = (ladders: string) => `${quickstart}\nladders:\n${ladders}`;
 
   it('accepts single and zipped ladders; values are left for compare to check', () => {
-    const s = scenarioFromText(withLadders('  - {field: method.name, rungs: [fedavg, fedlin]}\n  - {fields: [method.localSteps, method.stepSize], rungs: [[1, 0.1], [5, auto]]}\n'), 'l.yaml');
+    const s = scenarioFromText(
+      withLadders(
+        '  - {field: method.name, rungs: [fedavg, fedlin]}\n  - {fields: [method.localSteps, method.stepSize], rungs: [[1, 0.1], [5, auto]]}\n',
+      ),
+      'l.yaml',
+    );
     expect(s.ladders).toEqual([
       { field: 'method.name', rungs: ['fedavg', 'fedlin'] },
-      { fields: ['method.localSteps', 'method.stepSize'], rungs: [[1, 0.1], [5, 'auto']] },
+      {
+        fields: ['method.localSteps', 'method.stepSize'],
+        rungs: [
+          [1, 0.1],
+          [5, 'auto'],
+        ],
+      },
     ]);
   });
 
   it('a zipped rung must hold one value per field', () => {
-    const e = failure(withLadders('  - {fields: [method.name, method.stepSize], rungs: [[fedavg, 0.05], [fedlin]]}\n'));
+    const e = failure(
+      withLadders(
+        '  - {fields: [method.name, method.stepSize], rungs: [[fedavg, 0.05], [fedlin]]}\n',
+      ),
+    );
     expect(e.fieldPath).toBe('ladders[0].rungs[1]');
-    expect(e.message).toBe('ladders[0].rungs[1]: expected a list of 2 values, one for each of method.name, method.stepSize; got a list of 1');
-    expect(failure(withLadders('  - {fields: [method.name, method.stepSize], rungs: [fedavg]}\n')).message).toMatch(/got a single value$/);
+    expect(e.message).toBe(
+      'ladders[0].rungs[1]: expected a list of 2 values, one for each of method.name, method.stepSize; got a list of 1',
+    );
+    expect(
+      failure(withLadders('  - {fields: [method.name, method.stepSize], rungs: [fedavg]}\n'))
+        .message,
+    ).toMatch(/got a single value$/);
   });
 
   it('field or fields, not both; a field path; no field twice in one ladder; at least one rung', () => {
-    expect(failure(withLadders('  - {field: seed, fields: [seed, name], rungs: [[1, a]]}\n')).message).toMatch(/^ladders\[0\]: expected either field .* or fields/);
-    expect(failure(withLadders('  - {rungs: [1]}\n')).message).toMatch(/^ladders\[0\]: expected either field/);
-    expect(failure(withLadders('  - {field: "method name", rungs: [1]}\n')).message).toBe('ladders[0].field: expected a dotted field path such as method.name');
-    expect(failure(withLadders('  - {fields: [seed, seed], rungs: [[1, 2]]}\n')).message).toBe('ladders[0].fields: seed is listed twice');
-    expect(failure(withLadders('  - {field: seed, rungs: []}\n')).fieldPath).toBe('ladders[0].rungs');
+    expect(
+      failure(withLadders('  - {field: seed, fields: [seed, name], rungs: [[1, a]]}\n')).message,
+    ).toMatch(/^ladders\[0\]: expected either field .* or fields/);
+    expect(failure(withLadders('  - {rungs: [1]}\n')).message).toMatch(
+      /^ladders\[0\]: expected either field/,
+    );
+    expect(failure(withLadders('  - {field: "method name", rungs: [1]}\n')).message).toBe(
+      'ladders[0].field: expected a dotted field path such as method.name',
+    );
+    expect(failure(withLadders('  - {fields: [seed, seed], rungs: [[1, 2]]}\n')).message).toBe(
+      'ladders[0].fields: seed is listed twice',
+    );
+    expect(failure(withLadders('  - {field: seed, rungs: []}\n')).fieldPath).toBe(
+      'ladders[0].rungs',
+    );
   });
 });

@@ -14,7 +14,8 @@ import { fieldShapesFor } from '../../server/field-shapes.js';
 const text = readFileSync(new URL('../../scenarios/quickstart.yaml', import.meta.url), 'utf8');
 const METHODS = ['gd', 'fedavg', 'fedprox', 'fednova', 'scaffold', 'fedlin', 'fedsplit'];
 
-const dims = (fields: EncodedFields) => Object.fromEntries(Object.entries(fields).map(([name, cv]) => [name, cv.dim]));
+const dims = (fields: EncodedFields) =>
+  Object.fromEntries(Object.entries(fields).map(([name, cv]) => [name, cv.dim]));
 
 describe('fieldShapesFor', () => {
   for (const method of METHODS) {
@@ -27,13 +28,23 @@ describe('fieldShapesFor', () => {
       const { plan, theory } = planFor(scenario);
       const server = new ServerRuntime(plan);
       const client = new ClientRuntime(plan, 3, theory.instance.objectives[3]);
-      const seen = { down: {} as Record<string, Record<string, number>>, up: {} as Record<string, Record<string, number>> };
+      const seen = {
+        down: {} as Record<string, Record<string, number>>,
+        up: {} as Record<string, Record<string, number>>,
+      };
       for (const exchange of server.method.exchanges) {
         const down = server.encodeDown(3, 1, exchange, server.broadcast(exchange));
         const result = client.work(1, exchange, down, 2, plan.methodConfig.stepSize);
         seen.down[exchange] = dims(down);
         seen.up[exchange] = dims(result.encodedUp);
-        server.aggregate(exchange, [{ clientId: 3, stepsTaken: result.stepsTaken, stepSize: plan.methodConfig.stepSize, encodedUp: result.encodedUp }]);
+        server.aggregate(exchange, [
+          {
+            clientId: 3,
+            stepsTaken: result.stepsTaken,
+            stepSize: plan.methodConfig.stepSize,
+            encodedUp: result.encodedUp,
+          },
+        ]);
       }
       expect(fieldShapesFor(plan, theory.instance.objectives[0])).toEqual(seen);
     });

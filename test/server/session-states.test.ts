@@ -25,7 +25,12 @@ function pathTo(target: SessionState): SessionState[] {
   }
   if (!previous.has(target)) throw new Error(`'${target}' is not reachable from 'handshake'`);
   const path: SessionState[] = [];
-  for (let at: SessionState | null = target; at !== 'handshake' && at !== null; at = previous.get(at)!) path.unshift(at);
+  for (
+    let at: SessionState | null = target;
+    at !== 'handshake' && at !== null;
+    at = previous.get(at)!
+  )
+    path.unshift(at);
   return path;
 }
 
@@ -57,7 +62,8 @@ describe('session state table', () => {
     expect(isTransitionAllowed('disconnected', 'resumed')).toBe(true);
     expect(isTransitionAllowed('disconnected', 'lost')).toBe(true);
     expect(isTransitionAllowed('active', 'finished')).toBe(true);
-    for (const final of ['resumed', 'lost', 'refused', 'finished'] as const) expect(SESSION_TRANSITIONS[final]).toEqual([]);
+    for (const final of ['resumed', 'lost', 'refused', 'finished'] as const)
+      expect(SESSION_TRANSITIONS[final]).toEqual([]);
   });
 
   it('accepts every allowed transition', () => {

@@ -34,14 +34,22 @@ describe('WireMeter', () => {
   it('attributes each message its frame bytes across arbitrary chunks', () => {
     const socket = fakeSocket();
     const meter = new WireMeter(socket);
-    const stream = Buffer.concat([frame(2, 10), frame(9, 4), frame(2, 300), frame(2, 70_000), frame(2, 5, false), frame(0, 6)]);
-    for (let i = 0; i < stream.length; i += 997) socket.emit('data', stream.subarray(i, Math.min(stream.length, i + 997)));
-    expect([meter.takeMessageBytes(), meter.takeMessageBytes(), meter.takeMessageBytes(), meter.takeMessageBytes()]).toEqual([
-      2 + 4 + 10,
-      2 + 2 + 4 + 300,
-      2 + 8 + 4 + 70_000,
-      2 + 4 + 5 + (2 + 4 + 6),
+    const stream = Buffer.concat([
+      frame(2, 10),
+      frame(9, 4),
+      frame(2, 300),
+      frame(2, 70_000),
+      frame(2, 5, false),
+      frame(0, 6),
     ]);
+    for (let i = 0; i < stream.length; i += 997)
+      socket.emit('data', stream.subarray(i, Math.min(stream.length, i + 997)));
+    expect([
+      meter.takeMessageBytes(),
+      meter.takeMessageBytes(),
+      meter.takeMessageBytes(),
+      meter.takeMessageBytes(),
+    ]).toEqual([2 + 4 + 10, 2 + 2 + 4 + 300, 2 + 8 + 4 + 70_000, 2 + 4 + 5 + (2 + 4 + 6)]);
     expect(meter.controlReadBytes).toBe(2 + 4 + 4);
   });
 });

@@ -18,7 +18,6 @@ function relativeDistance(a: ArrayLike<number>, b: ArrayLike<number>): number {
   return Math.sqrt(difference / size);
 }
 
-
 describe('linearPart', () => {
   const rng = Rng.fromSeed(11);
   const n = 9;
@@ -53,10 +52,18 @@ describe('linearPart', () => {
     const copy = Float64Array.from(base);
     linearPart(map, base)(Float64Array.from(randomArray(rng, n)));
     expect(Array.from(base)).toEqual(Array.from(copy));
-    expect(theoryErrorCode(() => linearPart((s) => s.subarray(1), base))).toBe('E_THEORY_DIMENSION');
-    expect(theoryErrorCode(() => applyRoundMap((s) => s.map(() => NaN), base))).toBe('E_THEORY_NOT_FINITE');
-    expect(theoryErrorCode(() => linearPart(map, base)(new Float64Array(n + 1)))).toBe('E_THEORY_DIMENSION');
-    expect(theoryErrorCode(() => linearPart(map, base, { probeNorm: 0 }))).toBe('E_THEORY_ARGUMENT');
+    expect(theoryErrorCode(() => linearPart((s) => s.subarray(1), base))).toBe(
+      'E_THEORY_DIMENSION',
+    );
+    expect(theoryErrorCode(() => applyRoundMap((s) => s.map(() => NaN), base))).toBe(
+      'E_THEORY_NOT_FINITE',
+    );
+    expect(theoryErrorCode(() => linearPart(map, base)(new Float64Array(n + 1)))).toBe(
+      'E_THEORY_DIMENSION',
+    );
+    expect(theoryErrorCode(() => linearPart(map, base, { probeNorm: 0 }))).toBe(
+      'E_THEORY_ARGUMENT',
+    );
   });
 });
 
@@ -68,7 +75,9 @@ describe('affineDefect', () => {
   it('is at rounding level for an affine map and of order one for a curved one', () => {
     // Affine: the second difference T(b+v) + T(b-v) - 2T(b) cancels exactly but for rounding
     // (ulps of ||T|| at the probe scale, common practice for "zero" in double precision).
-    expect(affineDefect(matrixMap(randomMatrix(rng, n), randomArray(rng, n)), base)).toBeLessThan(1e-13);
+    expect(affineDefect(matrixMap(randomMatrix(rng, n), randomArray(rng, n)), base)).toBeLessThan(
+      1e-13,
+    );
     // Elementwise tanh at unit scale bends visibly: its second difference is a sizeable share of the first.
     expect(affineDefect((s) => s.map(Math.tanh), base)).toBeGreaterThan(1e-3);
     // A map that forgets its input is affine (M = 0).

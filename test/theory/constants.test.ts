@@ -12,14 +12,23 @@ import { featureMatrix, gaussianShard, symmetricExtremes } from '../problem/fixt
 const P = 6;
 
 /** The normal equations of sum_i p_i f_i for least squares, assembled with ml-matrix. */
-function normalEquations(shards: Shard[], weights: number[], lambda: number): { hessian: Matrix; rhs: Matrix } {
+function normalEquations(
+  shards: Shard[],
+  weights: number[],
+  lambda: number,
+): { hessian: Matrix; rhs: Matrix } {
   let hessian = Matrix.eye(P).mul(lambda);
   let rhs = Matrix.zeros(P, 1);
   shards.forEach((shard, i) => {
     const a = featureMatrix(shard);
     const share = weights[i] / shard.sampleCount;
     hessian = hessian.add(a.transpose().mmul(a).mul(share));
-    rhs = rhs.add(a.transpose().mmul(Matrix.columnVector(Array.from(shard.targets))).mul(share));
+    rhs = rhs.add(
+      a
+        .transpose()
+        .mmul(Matrix.columnVector(Array.from(shard.targets)))
+        .mul(share),
+    );
   });
   return { hessian, rhs };
 }
@@ -40,7 +49,9 @@ describe('computeConstants', () => {
     const extremes = symmetricExtremes(global.hessian);
     expect(relative(constants.smoothness, extremes.largest)).toBeLessThan(1e-9);
     expect(relative(constants.strongConvexity, extremes.smallest)).toBeLessThan(1e-9);
-    expect(relative(constants.conditionNumber, extremes.largest / extremes.smallest)).toBeLessThan(1e-9);
+    expect(relative(constants.conditionNumber, extremes.largest / extremes.smallest)).toBeLessThan(
+      1e-9,
+    );
     expect(relative(constants.hessianAtOptimum.largest, extremes.largest)).toBeLessThan(1e-9);
     expect(relative(constants.hessianAtOptimum.smallest, extremes.smallest)).toBeLessThan(1e-9);
 
@@ -53,8 +64,12 @@ describe('computeConstants', () => {
       heterogeneity += weights[i] * gradient.dot(gradient);
       const ownMinimizer = new CholeskyDecomposition(own.hessian).solve(own.rhs);
       const client = constants.clients[i];
-      expect(relative(client.gradientNormAtOptimum, Math.sqrt(gradient.dot(gradient)))).toBeLessThan(1e-9);
-      expect(relative(client.minimizerDistance ?? Number.NaN, ownMinimizer.sub(xStar).norm())).toBeLessThan(1e-9);
+      expect(
+        relative(client.gradientNormAtOptimum, Math.sqrt(gradient.dot(gradient))),
+      ).toBeLessThan(1e-9);
+      expect(
+        relative(client.minimizerDistance ?? Number.NaN, ownMinimizer.sub(xStar).norm()),
+      ).toBeLessThan(1e-9);
       const ownExtremes = symmetricExtremes(own.hessian);
       expect(relative(client.smoothness, ownExtremes.largest)).toBeLessThan(1e-9);
       expect(relative(client.strongConvexity, ownExtremes.smallest)).toBeLessThan(1e-9);
@@ -88,7 +103,10 @@ describe('computeConstants', () => {
   it('brackets the logistic Hessian at x* between the curvature bounds', () => {
     const rng = Rng.fromSeed(4);
     const lambda = 1e-3;
-    const clients = Array.from({ length: 5 }, (_, i) => new LogisticObjective(gaussianShard(rng, i, 30, P, 'binary', 1, 1), lambda));
+    const clients = Array.from(
+      { length: 5 },
+      (_, i) => new LogisticObjective(gaussianShard(rng, i, 30, P, 'binary', 1, 1), lambda),
+    );
     const weights = [0.1, 0.2, 0.3, 0.2, 0.2];
     const optimum = solveOptimum(new WeightedSumObjective(clients, weights));
     const constants = computeConstants(clients, weights, optimum.x);

@@ -4,9 +4,17 @@ import { fedavg } from '../../src/algorithm/fedavg.js';
 import { Rng } from '../../src/base/rng.js';
 import { LeastSquaresObjective } from '../../src/problem/least-squares.js';
 import { LogisticObjective } from '../../src/problem/logistic.js';
-import { fedavgFixedPoint, leastSquaresQuadratic, type QuadraticClient } from '../../src/theory/fedavg-fixed-point.js';
+import {
+  fedavgFixedPoint,
+  leastSquaresQuadratic,
+  type QuadraticClient,
+} from '../../src/theory/fedavg-fixed-point.js';
 import { TheoryError } from '../../src/theory/theory-error.js';
-import { heterogeneousProblem, standardProblem, type TestProblem } from '../algorithm/fixtures/least-squares-problem.js';
+import {
+  heterogeneousProblem,
+  standardProblem,
+  type TestProblem,
+} from '../algorithm/fixtures/least-squares-problem.js';
 import { modelOf, runRound, startRun, type RoundPlan } from '../algorithm/fixtures/round-loop.js';
 import { featureMatrix, gaussianShard } from '../problem/fixtures.js';
 
@@ -14,10 +22,15 @@ import { featureMatrix, gaussianShard } from '../problem/fixtures.js';
 // level; rounding alone would allow ~1e-12 at this size).
 const REFERENCE_TOLERANCE = 1e-9;
 
-const distance = (a: ArrayLike<number>, b: ArrayLike<number>) => Math.hypot(...Array.from(a, (value, j) => value - b[j]));
+const distance = (a: ArrayLike<number>, b: ArrayLike<number>) =>
+  Math.hypot(...Array.from(a, (value, j) => value - b[j]));
 const norm = (a: ArrayLike<number>) => Math.hypot(...Array.from(a));
 
-function quadraticClients(problem: TestProblem, taus: number[], stepSizes: number[]): QuadraticClient[] {
+function quadraticClients(
+  problem: TestProblem,
+  taus: number[],
+  stepSizes: number[],
+): QuadraticClient[] {
   return problem.objectives.map((objective, i) => ({
     hessian: Float64Array.from(objective.hessian().to1DArray()),
     linear: Float64Array.from(objective.linearTerm().to1DArray()),
@@ -84,18 +97,29 @@ describe('fedavgFixedPoint', () => {
   }
 
   it('is x* when every client takes one step (FedAvg with tau = 1 is gradient descent)', () => {
-    const model = fedavgFixedPoint(quadraticClients(problem, Array(m).fill(1), Array(m).fill(eta)), problem.dim);
+    const model = fedavgFixedPoint(
+      quadraticClients(problem, Array(m).fill(1), Array(m).fill(eta)),
+      problem.dim,
+    );
     expect(distance(model, problem.xStar)).toBeLessThan(REFERENCE_TOLERANCE * norm(problem.xStar));
   });
 
   it('needs no H_i^{-1}: a client with fewer samples than features and no ridge is handled', () => {
-    const singular = heterogeneousProblem({ seed: 7, dim: 6, samplesPerClient: [3, 20, 31, 45], regularization: 0 });
+    const singular = heterogeneousProblem({
+      seed: 7,
+      dim: 6,
+      samplesPerClient: [3, 20, 31, 45],
+      regularization: 0,
+    });
     // Three samples in six dimensions: H_0 has rank 3 (its smallest eigenvalue is 0 to rounding).
     expect(singular.objectives[0].strongConvexityBound()).toBeLessThan(1e-12);
     const singularEta = 1 / singular.smoothness;
     const singularTaus = [4, 2, 7, 3];
     const stepSizes = Array(4).fill(singularEta);
-    const model = fedavgFixedPoint(quadraticClients(singular, singularTaus, stepSizes), singular.dim);
+    const model = fedavgFixedPoint(
+      quadraticClients(singular, singularTaus, stepSizes),
+      singular.dim,
+    );
     const reference = referenceFixedPoint(singular, singularTaus, stepSizes);
     expect(distance(model, reference)).toBeLessThan(REFERENCE_TOLERANCE * norm(reference));
     const limit = runToStationary(singular, { localSteps: singularTaus, stepSizes });
@@ -128,8 +152,17 @@ describe('leastSquaresQuadratic', () => {
     const lambda = 0.05;
     const { hessian, linear } = leastSquaresQuadratic(new LeastSquaresObjective(shard, lambda));
     const a = featureMatrix(shard);
-    const expectedHessian = a.transpose().mmul(a).div(30).add(Matrix.eye(5).mul(lambda)).to1DArray();
-    const expectedLinear = a.transpose().mmul(Matrix.columnVector(Array.from(shard.targets))).div(30).getColumn(0);
+    const expectedHessian = a
+      .transpose()
+      .mmul(a)
+      .div(30)
+      .add(Matrix.eye(5).mul(lambda))
+      .to1DArray();
+    const expectedLinear = a
+      .transpose()
+      .mmul(Matrix.columnVector(Array.from(shard.targets)))
+      .div(30)
+      .getColumn(0);
     // Sums of 30 products: rounding far below 1e-12 relative (common practice).
     expect(distance(hessian, expectedHessian)).toBeLessThan(1e-12 * norm(expectedHessian));
     expect(distance(linear, expectedLinear)).toBeLessThan(1e-12 * norm(expectedLinear));
@@ -137,6 +170,8 @@ describe('leastSquaresQuadratic', () => {
 
   it('refuses an objective that is not quadratic', () => {
     const shard = gaussianShard(Rng.fromSeed(52), 0, 10, 3, 'binary');
-    expect(() => leastSquaresQuadratic(new LogisticObjective(shard, 0.1))).toThrowError(TheoryError);
+    expect(() => leastSquaresQuadratic(new LogisticObjective(shard, 0.1))).toThrowError(
+      TheoryError,
+    );
   });
 });

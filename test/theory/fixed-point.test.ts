@@ -7,13 +7,19 @@ import { affineFixedPoint, FIXED_POINT_DIMENSION_MAX } from '../../src/theory/fi
 import { TheoryError } from '../../src/theory/theory-error.js';
 import { fromColumn, standardProblem } from '../algorithm/fixtures/least-squares-problem.js';
 import { clientMinimizer, localStepMap } from '../algorithm/fixtures/quadratic-reference.js';
-import { matrixMap, modelRoundMap, randomArray, randomMatrix, scaffoldStateMap } from './fixtures/affine-maps.js';
+import {
+  matrixMap,
+  modelRoundMap,
+  randomArray,
+  randomMatrix,
+  scaffoldStateMap,
+} from './fixtures/affine-maps.js';
 import { codeOf } from '../support/error-code.js';
 
 const theoryErrorCode = (action: () => unknown): string => codeOf(action, TheoryError);
 
-
-const distance = (a: ArrayLike<number>, b: ArrayLike<number>) => Math.hypot(...Array.from(a, (value, j) => value - b[j]));
+const distance = (a: ArrayLike<number>, b: ArrayLike<number>) =>
+  Math.hypot(...Array.from(a, (value, j) => value - b[j]));
 const norm = (a: ArrayLike<number>) => Math.hypot(...Array.from(a));
 
 describe('affineFixedPoint', () => {
@@ -65,7 +71,8 @@ describe('affineFixedPoint', () => {
   it('returns the limit from the start when the round conserves a quantity (M has the eigenvalue 1)', () => {
     // s -> ((s_0 + s_1) / 2) (1, 1) conserves the mean: every (a, a) is a fixed point, and from
     // (1, 3) one round reaches (2, 2).
-    const averaging = (s: Float64Array) => Float64Array.of(0.5 * (s[0] + s[1]), 0.5 * (s[0] + s[1]));
+    const averaging = (s: Float64Array) =>
+      Float64Array.of(0.5 * (s[0] + s[1]), 0.5 * (s[0] + s[1]));
     const limit = affineFixedPoint(averaging, 2, { base: Float64Array.of(1, 3) }).state;
     // A few ulps of 2 (rounding of the products).
     expect(distance(limit, [2, 2])).toBeLessThan(8 * Number.EPSILON);
@@ -77,7 +84,10 @@ describe('affineFixedPoint', () => {
     const d = problem.dim;
     const eta = 1 / problem.smoothness;
     const taus = [1, 5, 12, 20];
-    const model = modelRoundMap(fedavg, problem, { localSteps: taus, stepSizes: Array(m).fill(eta) });
+    const model = modelRoundMap(fedavg, problem, {
+      localSteps: taus,
+      stepSizes: Array(m).fill(eta),
+    });
     // State [x, x_0]: the round moves x and carries x_0 along unchanged.
     const withLeaf = (s: Float64Array) => {
       const out = new Float64Array(2 * d);
@@ -88,7 +98,9 @@ describe('affineFixedPoint', () => {
     const base = Float64Array.from({ length: 2 * d }, (_, j) => (j < d ? 0 : 0.1 * j));
     const limit = affineFixedPoint(withLeaf, 2 * d, { base });
     const alone = affineFixedPoint(model, d);
-    expect(distance(limit.state.subarray(0, d), alone.state)).toBeLessThan(1e-12 * norm(alone.state));
+    expect(distance(limit.state.subarray(0, d), alone.state)).toBeLessThan(
+      1e-12 * norm(alone.state),
+    );
     expect(Array.from(limit.state.subarray(d))).toEqual(Array.from(base.subarray(d)));
   });
 
@@ -107,7 +119,9 @@ describe('affineFixedPoint', () => {
     // From zero controls, c = sum_i p_i c_i holds throughout; the limit is x* (the fixed point of
     // the corrected method), the x* from the normal equations solved by ml-matrix.
     const fromZero = affineFixedPoint(map, (m + 2) * d);
-    expect(distance(fromZero.state.subarray(0, d), problem.xStar)).toBeLessThan(1e-10 * norm(problem.xStar));
+    expect(distance(fromZero.state.subarray(0, d), problem.xStar)).toBeLessThan(
+      1e-10 * norm(problem.xStar),
+    );
     const control = fromZero.state.subarray(d, 2 * d);
     const weightedControls = new Float64Array(d);
     problem.weights.forEach((p, i) => {
@@ -131,14 +145,25 @@ describe('affineFixedPoint', () => {
       applications++;
       return s;
     };
-    expect(theoryErrorCode(() => affineFixedPoint(map, FIXED_POINT_DIMENSION_MAX + 1))).toBe('E_THEORY_SIZE_LIMIT');
+    expect(theoryErrorCode(() => affineFixedPoint(map, FIXED_POINT_DIMENSION_MAX + 1))).toBe(
+      'E_THEORY_SIZE_LIMIT',
+    );
     expect(applications).toBe(0);
-    expect(theoryErrorCode(() => affineFixedPoint(map, 3, { base: new Float64Array(2) }))).toBe('E_THEORY_DIMENSION');
-    expect(theoryErrorCode(() => affineFixedPoint(map, 3, { refinementsMax: -1 }))).toBe('E_THEORY_ARGUMENT');
+    expect(theoryErrorCode(() => affineFixedPoint(map, 3, { base: new Float64Array(2) }))).toBe(
+      'E_THEORY_DIMENSION',
+    );
+    expect(theoryErrorCode(() => affineFixedPoint(map, 3, { refinementsMax: -1 }))).toBe(
+      'E_THEORY_ARGUMENT',
+    );
     // A GMRES budget too small for the system: the residual cannot reach rounding level.
     const rng = Rng.fromSeed(44);
-    expect(theoryErrorCode(() => affineFixedPoint(matrixMap(randomMatrix(rng, 20, 0.9), randomArray(rng, 20)), 20, { iterationsMax: 2, refinementsMax: 0 }))).toBe(
-      'E_THEORY_NOT_CONVERGED',
-    );
+    expect(
+      theoryErrorCode(() =>
+        affineFixedPoint(matrixMap(randomMatrix(rng, 20, 0.9), randomArray(rng, 20)), 20, {
+          iterationsMax: 2,
+          refinementsMax: 0,
+        }),
+      ),
+    ).toBe('E_THEORY_NOT_CONVERGED');
   });
 });

@@ -3,11 +3,21 @@ import { fedavg } from '../../src/algorithm/fedavg.js';
 import { gd } from '../../src/algorithm/gd.js';
 import { Rng } from '../../src/base/rng.js';
 import { fedavgFixedPoint } from '../../src/theory/fedavg-fixed-point.js';
-import { fitLinearRate, measureFloor, roundsToTarget, type CurvePoint } from '../../src/theory/measure-curve.js';
+import {
+  fitLinearRate,
+  measureFloor,
+  roundsToTarget,
+  type CurvePoint,
+} from '../../src/theory/measure-curve.js';
 import { predictRate } from '../../src/theory/predict-rate.js';
 import { TheoryError } from '../../src/theory/theory-error.js';
 import { standardProblem, type TestProblem } from '../algorithm/fixtures/least-squares-problem.js';
-import { runRound, startRun, suboptimality, type RoundPlan } from '../algorithm/fixtures/round-loop.js';
+import {
+  runRound,
+  startRun,
+  suboptimality,
+  type RoundPlan,
+} from '../algorithm/fixtures/round-loop.js';
 import { modelRoundMap } from './fixtures/affine-maps.js';
 import { codeOf } from '../support/error-code.js';
 
@@ -18,9 +28,17 @@ function geometric(rounds: number[], start: number, rate: number, floor = 0): Cu
   return rounds.map((round) => ({ round, suboptimality: start * rate ** round + floor }));
 }
 
-const range = (from: number, to: number, step = 1) => Array.from({ length: Math.floor((to - from) / step) + 1 }, (_, k) => from + k * step);
+const range = (from: number, to: number, step = 1) =>
+  Array.from({ length: Math.floor((to - from) / step) + 1 }, (_, k) => from + k * step);
 
-function curveOf(problem: TestProblem, method: typeof gd, plan: RoundPlan, rounds: number, cfg = {}, initialModel?: Float64Array): CurvePoint[] {
+function curveOf(
+  problem: TestProblem,
+  method: typeof gd,
+  plan: RoundPlan,
+  rounds: number,
+  cfg = {},
+  initialModel?: Float64Array,
+): CurvePoint[] {
   const run = startRun(method, problem, cfg, initialModel);
   const points: CurvePoint[] = [];
   for (let round = 0; round <= rounds; round++) {
@@ -29,7 +47,6 @@ function curveOf(problem: TestProblem, method: typeof gd, plan: RoundPlan, round
   }
   return points;
 }
-
 
 describe('fitLinearRate on synthetic curves', () => {
   // Synthetic curves have a known rate; the brief asks for it back to 1e-6 relative.
@@ -62,7 +79,10 @@ describe('fitLinearRate on synthetic curves', () => {
 
   it('fits the approach from below after the curve has crossed its floor', () => {
     // F + 10 * 0.5^k - 0.01 * 0.9^k: above F at first, below it from k = 12 on.
-    const points = range(0, 600).map((round) => ({ round, suboptimality: 2e-4 + 10 * 0.5 ** round - 0.01 * 0.9 ** round }));
+    const points = range(0, 600).map((round) => ({
+      round,
+      suboptimality: 2e-4 + 10 * 0.5 ** round - 0.01 * 0.9 ** round,
+    }));
     const fit = fitLinearRate(points)!;
     expect(fit.window[0]).toBeGreaterThan(12);
     // After the crossing |f - F| = 0.01 * 0.9^k (1 - 1000 (5/9)^k): its local ratios fall towards
@@ -75,7 +95,10 @@ describe('fitLinearRate on synthetic curves', () => {
 
   it('measures the last straight part, not the longest: the asymptotic regime', () => {
     // 0.99 per round for 300 rounds, then 0.9 per round for 40.
-    const points = range(0, 340).map((round) => ({ round, suboptimality: 0.99 ** Math.min(round, 300) * 0.9 ** Math.max(0, round - 300) }));
+    const points = range(0, 340).map((round) => ({
+      round,
+      suboptimality: 0.99 ** Math.min(round, 300) * 0.9 ** Math.max(0, round - 300),
+    }));
     const fit = fitLinearRate(points)!;
     expect(fit.window).toEqual([300, 340]);
     expect(Math.abs(fit.rate / 0.9 - 1)).toBeLessThan(RATE_TOLERANCE);
@@ -84,7 +107,11 @@ describe('fitLinearRate on synthetic curves', () => {
   it('stops at rounding noise: a tail of +-1e-16 values (some negative) is left out', () => {
     const rng = Rng.fromSeed(61);
     const clean = geometric(range(0, 300), 2, 0.85);
-    const points = clean.map((point) => (point.suboptimality < 1e-15 ? { round: point.round, suboptimality: 1e-16 * rng.normal() } : point));
+    const points = clean.map((point) =>
+      point.suboptimality < 1e-15
+        ? { round: point.round, suboptimality: 1e-16 * rng.normal() }
+        : point,
+    );
     const lastClean = clean.filter((point) => point.suboptimality >= 1e-15).at(-1)!.round;
     const atRounding = fitLinearRate(points, { noiseLevel: 1e-15 })!;
     expect(Math.abs(atRounding.rate / 0.85 - 1)).toBeLessThan(RATE_TOLERANCE);
@@ -92,7 +119,9 @@ describe('fitLinearRate on synthetic curves', () => {
     // The default noise level, 1e-13 times the first value, cuts earlier: at the last k with 2 * 0.85^k > 2e-13.
     const byDefault = fitLinearRate(points)!;
     expect(Math.abs(byDefault.rate / 0.85 - 1)).toBeLessThan(RATE_TOLERANCE);
-    expect(byDefault.window[1]).toBe(clean.filter((point) => point.suboptimality > 2e-13).at(-1)!.round);
+    expect(byDefault.window[1]).toBe(
+      clean.filter((point) => point.suboptimality > 2e-13).at(-1)!.round,
+    );
     // The noise reads as a floor at rounding level, which is not subtracted.
     expect(measureFloor(points)!).toBeLessThan(1e-15);
     expect(byDefault.floor).toBe(0);
@@ -102,7 +131,10 @@ describe('fitLinearRate on synthetic curves', () => {
     const rng = Rng.fromSeed(62);
     const sigma = 0.01;
     const rounds = range(0, 199);
-    const points = rounds.map((round) => ({ round, suboptimality: 10 * 0.93 ** round * Math.exp(sigma * rng.normal()) }));
+    const points = rounds.map((round) => ({
+      round,
+      suboptimality: 10 * 0.93 ** round * Math.exp(sigma * rng.normal()),
+    }));
     const fit = fitLinearRate(points);
     expect(fit).not.toBeNull();
     expect(fit!.window).toEqual([0, 199]);
@@ -115,7 +147,10 @@ describe('fitLinearRate on synthetic curves', () => {
 
   it('drops an initial transient: the window starts after it and the rate lies between the local ratios', () => {
     // A fast mode on top of the slow one: s_k = 0.01 * 0.9^k + 10 * 0.5^k.
-    const points = range(0, 200).map((round) => ({ round, suboptimality: 0.01 * 0.9 ** round + 10 * 0.5 ** round }));
+    const points = range(0, 200).map((round) => ({
+      round,
+      suboptimality: 0.01 * 0.9 ** round + 10 * 0.5 ** round,
+    }));
     const fit = fitLinearRate(points)!;
     expect(fit.window[0]).toBeGreaterThan(10);
     // A positive sum of exponentials is log-convex, and the OLS slope is a positive-weight average
@@ -129,7 +164,10 @@ describe('fitLinearRate on synthetic curves', () => {
   it('returns null without a straight part: too few points, or a curve that starts on its floor', () => {
     expect(fitLinearRate(geometric([0, 1, 2], 1, 0.5))).toBeNull();
     const rng = Rng.fromSeed(63);
-    const flat = range(0, 99).map((round) => ({ round, suboptimality: 0.3 * (1 + 0.01 * rng.normal()) }));
+    const flat = range(0, 99).map((round) => ({
+      round,
+      suboptimality: 0.3 * (1 + 0.01 * rng.normal()),
+    }));
     expect(fitLinearRate(flat)).toBeNull();
   });
 });
@@ -149,7 +187,10 @@ describe('measureFloor', () => {
       round,
       suboptimality: 5 * 0.7 ** round + 0.02 * (1 + 0.05 * rng.normal()),
     }));
-    const tail = points.slice(150).map((p) => p.suboptimality).sort((a, b) => a - b);
+    const tail = points
+      .slice(150)
+      .map((p) => p.suboptimality)
+      .sort((a, b) => a - b);
     expect(measureFloor(points)).toBe(0.5 * (tail[24] + tail[25]));
   });
 });
@@ -167,11 +208,26 @@ describe('roundsToTarget', () => {
 
 describe('curve validation', () => {
   it('rejects unordered rounds and non-finite values with stable codes', () => {
-    expect(theoryErrorCode(() => fitLinearRate([{ round: 1, suboptimality: 1 }, { round: 1, suboptimality: 0.5 }]))).toBe('E_THEORY_POINTS');
-    expect(theoryErrorCode(() => measureFloor([{ round: NaN, suboptimality: 1 }]))).toBe('E_THEORY_POINTS');
-    expect(theoryErrorCode(() => roundsToTarget([{ round: 0, suboptimality: Infinity }], 1))).toBe('E_THEORY_NOT_FINITE');
-    expect(theoryErrorCode(() => fitLinearRate(geometric(range(0, 10), 1, 0.5), { straightness: 0 }))).toBe('E_THEORY_ARGUMENT');
-    expect(theoryErrorCode(() => fitLinearRate(geometric(range(0, 10), 1, 0.5), { noiseLevel: -1 }))).toBe('E_THEORY_ARGUMENT');
+    expect(
+      theoryErrorCode(() =>
+        fitLinearRate([
+          { round: 1, suboptimality: 1 },
+          { round: 1, suboptimality: 0.5 },
+        ]),
+      ),
+    ).toBe('E_THEORY_POINTS');
+    expect(theoryErrorCode(() => measureFloor([{ round: NaN, suboptimality: 1 }]))).toBe(
+      'E_THEORY_POINTS',
+    );
+    expect(theoryErrorCode(() => roundsToTarget([{ round: 0, suboptimality: Infinity }], 1))).toBe(
+      'E_THEORY_NOT_FINITE',
+    );
+    expect(
+      theoryErrorCode(() => fitLinearRate(geometric(range(0, 10), 1, 0.5), { straightness: 0 })),
+    ).toBe('E_THEORY_ARGUMENT');
+    expect(
+      theoryErrorCode(() => fitLinearRate(geometric(range(0, 10), 1, 0.5), { noiseLevel: -1 })),
+    ).toBe('E_THEORY_ARGUMENT');
   });
 });
 
@@ -205,7 +261,7 @@ describe('measured beside predicted on real runs', () => {
     expect(fit.rate).toBeGreaterThanOrEqual(first * (1 - 1e-6));
   });
 
-  it("FedAvg: the measured floor is f(x_fa) - f* from the closed form, the measured rate the predicted rho", () => {
+  it('FedAvg: the measured floor is f(x_fa) - f* from the closed form, the measured rate the predicted rho', () => {
     const eta = 0.02 / problem.smoothness;
     const taus = [2, 3, 4, 5];
     const plan = { localSteps: taus, stepSizes: Array(m).fill(eta) };
@@ -225,10 +281,15 @@ describe('measured beside predicted on real runs', () => {
     // at rho^2 (the quadratic term dominates f - f* far above the floor) and only near the floor
     // at rho: either way the asymptotic rate of f - F is rho, since grad f(x_fa) != 0 makes f - F
     // first order in x - x_fa.
-    for (const start of [new Float64Array(problem.dim), Float64Array.from({ length: problem.dim }, (_, j) => 1e3 * (j - 2))]) {
+    for (const start of [
+      new Float64Array(problem.dim),
+      Float64Array.from({ length: problem.dim }, (_, j) => 1e3 * (j - 2)),
+    ]) {
       const points = curveOf(problem, fedavg, plan, 1500, { stepSize: eta }, start);
       // f evaluated at the measured plateau and at x_fa agree to rounding of f (~1e-15 |f*|).
-      expect(Math.abs(measureFloor(points, { noiseLevel })! - predictedFloor)).toBeLessThan(1e-12 * problem.fStar);
+      expect(Math.abs(measureFloor(points, { noiseLevel })! - predictedFloor)).toBeLessThan(
+        1e-12 * problem.fStar,
+      );
       const predicted = predictRate(map, start);
       const fit = fitLinearRate(points, { noiseLevel })!;
       expect(fit.floor).toBeGreaterThan(0);
@@ -247,12 +308,16 @@ describe('measureFloor on a noisy plateau', () => {
     const rng = Rng.derive(8, 'test', 'noisy-floor');
     const plateau = Array.from({ length: 160 }, (_, k) => ({
       round: k,
-      suboptimality: (k < 30 ? Math.exp(-0.15 * k) : Math.exp(-0.15 * 30)) * Math.exp(0.5 * rng.normal()),
+      suboptimality:
+        (k < 30 ? Math.exp(-0.15 * k) : Math.exp(-0.15 * 30)) * Math.exp(0.5 * rng.normal()),
     }));
     const floor = measureFloor(plateau);
     expect(floor).not.toBeNull();
     expect(Math.abs(Math.log((floor as number) / Math.exp(-0.15 * 30)))).toBeLessThan(0.3);
-    const descending = Array.from({ length: 160 }, (_, k) => ({ round: k, suboptimality: Math.exp(-0.15 * k) * Math.exp(0.5 * rng.normal()) }));
+    const descending = Array.from({ length: 160 }, (_, k) => ({
+      round: k,
+      suboptimality: Math.exp(-0.15 * k) * Math.exp(0.5 * rng.normal()),
+    }));
     expect(measureFloor(descending)).toBeNull();
   });
 });

@@ -5,13 +5,22 @@ import { scaffold } from '../../src/algorithm/scaffold.js';
 import { Rng } from '../../src/base/rng.js';
 import { predictRate } from '../../src/theory/predict-rate.js';
 import { standardProblem } from '../algorithm/fixtures/least-squares-problem.js';
-import { matrixMap, modelRoundMap, randomArray, randomMatrix, referenceSpectrum, scaffoldStateMap, similarTo } from './fixtures/affine-maps.js';
+import {
+  matrixMap,
+  modelRoundMap,
+  randomArray,
+  randomMatrix,
+  referenceSpectrum,
+  scaffoldStateMap,
+  similarTo,
+} from './fixtures/affine-maps.js';
 
 // Spectral radii are compared with ml-matrix's EigenvalueDecomposition to 1e-6 relative, the
 // accuracy the predictions are reported with; the estimator runs at its default tolerance 1e-8.
 const RADIUS_TOLERANCE = 1e-6;
 
-const relativeError = (value: number, reference: number) => Math.abs(value - reference) / Math.abs(reference);
+const relativeError = (value: number, reference: number) =>
+  Math.abs(value - reference) / Math.abs(reference);
 
 describe('predictRate', () => {
   it('matches max |lambda| of random non-symmetric matrices (ml-matrix EVD), real or complex dominant', () => {
@@ -21,9 +30,14 @@ describe('predictRate', () => {
       const n = 3 + (seed % 10);
       const a = randomMatrix(rng, n);
       const reference = referenceSpectrum(a);
-      const prediction = predictRate(matrixMap(a, randomArray(rng, n)), Float64Array.from(randomArray(rng, n)));
+      const prediction = predictRate(
+        matrixMap(a, randomArray(rng, n)),
+        Float64Array.from(randomArray(rng, n)),
+      );
       expect(prediction.converged).toBe(true);
-      expect(relativeError(prediction.spectralRadius, reference.spectralRadius)).toBeLessThan(RADIUS_TOLERANCE);
+      expect(relativeError(prediction.spectralRadius, reference.spectralRadius)).toBeLessThan(
+        RADIUS_TOLERANCE,
+      );
       expect(prediction.perRoundRate).toBe(prediction.spectralRadius ** 2);
       kinds.add(reference.dominantImaginary === 0 ? 'real' : 'complex');
     }
@@ -34,13 +48,22 @@ describe('predictRate', () => {
   it('reads a complex dominant pair, where ||M^k v|| oscillates, as a complex Ritz pair', () => {
     const rng = Rng.fromSeed(21);
     // Eigenvalues 0.9 +- 0.3i (modulus sqrt(0.9) = 0.9487), then 0.8 and -0.5 +- 0.5i, 0.3.
-    const a = similarTo(rng, [[0.9, 0.3], [-0.5, 0.5]], [0.8, 0.3]);
+    const a = similarTo(
+      rng,
+      [
+        [0.9, 0.3],
+        [-0.5, 0.5],
+      ],
+      [0.8, 0.3],
+    );
     const reference = referenceSpectrum(a);
     expect(reference.dominantImaginary).not.toBe(0);
     const prediction = predictRate(matrixMap(a, randomArray(rng, 6)), new Float64Array(6));
     expect(prediction.dominant).toBe('pair');
     expect(prediction.converged).toBe(true);
-    expect(relativeError(prediction.spectralRadius, reference.spectralRadius)).toBeLessThan(RADIUS_TOLERANCE);
+    expect(relativeError(prediction.spectralRadius, reference.spectralRadius)).toBeLessThan(
+      RADIUS_TOLERANCE,
+    );
   });
 
   it('reads a real +-r pair (no single dominant eigenvalue): either one gives rho', () => {
@@ -48,7 +71,9 @@ describe('predictRate', () => {
     const a = similarTo(rng, [], [0.9, -0.9, 0.5, -0.2]);
     const prediction = predictRate(matrixMap(a, randomArray(rng, 4)), new Float64Array(4));
     expect(prediction.converged).toBe(true);
-    expect(relativeError(prediction.spectralRadius, referenceSpectrum(a).spectralRadius)).toBeLessThan(RADIUS_TOLERANCE);
+    expect(
+      relativeError(prediction.spectralRadius, referenceSpectrum(a).spectralRadius),
+    ).toBeLessThan(RADIUS_TOLERANCE);
   });
 
   it('reads a dominant real eigenvalue beside a complex pair of nearly equal modulus', () => {
@@ -58,19 +83,28 @@ describe('predictRate', () => {
     const a = similarTo(rng, [[0.6, 0.6]], [0.95, -second, 0.1]);
     const prediction = predictRate(matrixMap(a, randomArray(rng, 5)), new Float64Array(5));
     expect(prediction.dominant).toBe('real');
-    expect(relativeError(prediction.spectralRadius, referenceSpectrum(a).spectralRadius)).toBeLessThan(RADIUS_TOLERANCE);
+    expect(
+      relativeError(prediction.spectralRadius, referenceSpectrum(a).spectralRadius),
+    ).toBeLessThan(RADIUS_TOLERANCE);
   });
 
   it('predicts the gd rate on least squares: max_i (1 - eta lambda_i)^2 over the Hessian eigenvalues (ml-matrix EVD)', () => {
     const problem = standardProblem();
     const m = problem.objectives.length;
     let hessian = Matrix.zeros(problem.dim, problem.dim);
-    problem.objectives.forEach((objective, i) => (hessian = hessian.add(objective.hessian().mul(problem.weights[i]))));
+    problem.objectives.forEach(
+      (objective, i) => (hessian = hessian.add(objective.hessian().mul(problem.weights[i]))),
+    );
     const eigenvalues = new EigenvalueDecomposition(hessian).realEigenvalues;
     // eta = 1/L: the slowest mode is mu's; eta = 1.9/L: L's mode (|1 - 1.9| = 0.9) can win instead.
     for (const factor of [1, 1.9]) {
       const eta = factor / problem.smoothness;
-      const map = modelRoundMap(gd, problem, { localSteps: Array(m).fill(1), stepSizes: Array(m).fill(eta) }, { stepSize: eta });
+      const map = modelRoundMap(
+        gd,
+        problem,
+        { localSteps: Array(m).fill(1), stepSizes: Array(m).fill(eta) },
+        { stepSize: eta },
+      );
       const expected = Math.max(...eigenvalues.map((lambda) => (1 - eta * lambda) ** 2));
       const prediction = predictRate(map, new Float64Array(problem.dim));
       expect(prediction.converged).toBe(true);
@@ -105,10 +139,14 @@ describe('predictRate', () => {
     const a = similarTo(rng, [], [0.99, 0.985, 0.98, 0.2]);
     let applications = 0;
     const map = matrixMap(a, randomArray(rng, 4));
-    const prediction = predictRate((s) => {
-      applications++;
-      return map(s);
-    }, new Float64Array(4), { mapApplicationsMax: 5 });
+    const prediction = predictRate(
+      (s) => {
+        applications++;
+        return map(s);
+      },
+      new Float64Array(4),
+      { mapApplicationsMax: 5 },
+    );
     expect(prediction.converged).toBe(false);
     expect(prediction.dominant).toBe('unsettled');
     expect(prediction.mapApplications).toBe(5);
@@ -118,9 +156,17 @@ describe('predictRate', () => {
 
   it('rejects bad options with E_ARGUMENT', () => {
     const map = (s: Float64Array) => Float64Array.from(s);
-    for (const options of [{ tolerance: 0 }, { tolerance: 1 }, { mapApplicationsMax: 2 }, { mapApplicationsMax: 10.5 }, { krylovDimension: 0 }]) {
+    for (const options of [
+      { tolerance: 0 },
+      { tolerance: 1 },
+      { mapApplicationsMax: 2 },
+      { mapApplicationsMax: 10.5 },
+      { krylovDimension: 0 },
+    ]) {
       // predictRate checks its own options; Arnoldi (src/linalg) checks the Krylov ones.
-      expect(() => predictRate(map, new Float64Array(2), options)).toThrow(expect.objectContaining({ code: expect.stringMatching(/^E_(LINALG|THEORY)_ARGUMENT$/) }));
+      expect(() => predictRate(map, new Float64Array(2), options)).toThrow(
+        expect.objectContaining({ code: expect.stringMatching(/^E_(LINALG|THEORY)_ARGUMENT$/) }),
+      );
     }
   });
 });
@@ -133,10 +179,17 @@ describe('predictRate with conserved quantities (M has the eigenvalue 1)', () =>
     const evd = new EigenvalueDecomposition(a);
     const moving = evd.realEigenvalues
       .map((re, k) => Math.hypot(re, evd.imaginaryEigenvalues[k]))
-      .filter((_, k) => Math.abs(evd.realEigenvalues[k] - 1) > 1e-9 || evd.imaginaryEigenvalues[k] !== 0);
-    const prediction = predictRate(matrixMap(a, randomArray(rng, 6)), Float64Array.from(randomArray(rng, 6)));
+      .filter(
+        (_, k) => Math.abs(evd.realEigenvalues[k] - 1) > 1e-9 || evd.imaginaryEigenvalues[k] !== 0,
+      );
+    const prediction = predictRate(
+      matrixMap(a, randomArray(rng, 6)),
+      Float64Array.from(randomArray(rng, 6)),
+    );
     expect(prediction.converged).toBe(true);
-    expect(relativeError(prediction.spectralRadius, Math.max(...moving))).toBeLessThan(RADIUS_TOLERANCE);
+    expect(relativeError(prediction.spectralRadius, Math.max(...moving))).toBeLessThan(
+      RADIUS_TOLERANCE,
+    );
   });
 
   it("reads SCAFFOLD's rate on its whole flattened state as on a state without the conserved part", () => {
@@ -151,7 +204,8 @@ describe('predictRate with conserved quantities (M has the eigenvalue 1)', () =>
       const expanded = new Float64Array((m + 2) * d);
       expanded.set(state.subarray(0, d), 0);
       expanded.set(state.subarray(d), 2 * d);
-      for (let i = 0; i < m; i++) for (let j = 0; j < d; j++) expanded[d + j] += problem.weights[i] * state[(1 + i) * d + j];
+      for (let i = 0; i < m; i++)
+        for (let j = 0; j < d; j++) expanded[d + j] += problem.weights[i] * state[(1 + i) * d + j];
       const image = full(expanded);
       const out = new Float64Array((m + 1) * d);
       out.set(image.subarray(0, d), 0);
@@ -168,12 +222,15 @@ describe('predictRate with conserved quantities (M has the eigenvalue 1)', () =>
     const reference = referenceSpectrum(new Matrix(columns).transpose());
     const prediction = predictRate(full, new Float64Array((m + 2) * d));
     expect(prediction.converged).toBe(true);
-    expect(relativeError(prediction.spectralRadius, reference.spectralRadius)).toBeLessThan(RADIUS_TOLERANCE);
+    expect(relativeError(prediction.spectralRadius, reference.spectralRadius)).toBeLessThan(
+      RADIUS_TOLERANCE,
+    );
   });
 
   it('gives 0 when every direction that moves is wiped out in one round', () => {
     // s -> ((s_0 + s_1) / 2) (1, 1): eigenvalue 1 along (1, 1) (the mean), 0 along (1, -1).
-    const averaging = (s: Float64Array) => Float64Array.of(0.5 * (s[0] + s[1]), 0.5 * (s[0] + s[1]));
+    const averaging = (s: Float64Array) =>
+      Float64Array.of(0.5 * (s[0] + s[1]), 0.5 * (s[0] + s[1]));
     expect(predictRate(averaging, Float64Array.of(1, 3)).spectralRadius).toBeLessThan(1e-12);
   });
 });

@@ -4,7 +4,11 @@ import { downlinkSecondsFor, uplinkSecondsFor, type LinkModel } from '../../src/
 // The latency-bandwidth model of a message's time, latency + bytes / bandwidth (common practice;
 // Hockney's alpha-beta model). The numbers are powers of two and small integers so that the
 // expected times are exact in binary floating point.
-const link: LinkModel = { uplinkBytesPerSecond: 1_048_576, downlinkBytesPerSecond: 4_194_304, latencySeconds: 0.25 };
+const link: LinkModel = {
+  uplinkBytesPerSecond: 1_048_576,
+  downlinkBytesPerSecond: 4_194_304,
+  latencySeconds: 0.25,
+};
 
 describe('links', () => {
   it('take latency + bytes / bandwidth, each direction with its own bandwidth', () => {
@@ -23,7 +27,11 @@ describe('links', () => {
   });
 
   it('refuse a negative or non-finite size', () => {
-    expect(() => uplinkSecondsFor(link, -1)).toThrowError(expect.objectContaining({ code: 'E_TIMING_ARGUMENT' }));
-    expect(() => downlinkSecondsFor(link, Number.NaN)).toThrowError(expect.objectContaining({ code: 'E_TIMING_ARGUMENT' }));
+    expect(() => uplinkSecondsFor(link, -1)).toThrowError(
+      expect.objectContaining({ code: 'E_TIMING_ARGUMENT' }),
+    );
+    expect(() => downlinkSecondsFor(link, Number.NaN)).toThrowError(
+      expect.objectContaining({ code: 'E_TIMING_ARGUMENT' }),
+    );
   });
 });

@@ -19,7 +19,10 @@ describe('localStepsFor', () => {
       caught = error;
     }
     expect(caught).toBeInstanceOf(TimingError);
-    expect(caught).toMatchObject({ code: 'E_TIMING_LOCAL_STEPS_LENGTH', fieldPath: 'method.localSteps' });
+    expect(caught).toMatchObject({
+      code: 'E_TIMING_LOCAL_STEPS_LENGTH',
+      fieldPath: 'method.localSteps',
+    });
     expect((caught as Error).message).toContain('method.localSteps');
   });
 

@@ -11,8 +11,12 @@ describe('participantCount', () => {
   });
 
   it('refuses a fraction outside (0, 1]', () => {
-    expect(() => participantCount(0, 10)).toThrowError(expect.objectContaining({ code: 'E_TIMING_ARGUMENT', fieldPath: 'method.participation' }));
-    expect(() => participantCount(1.5, 10)).toThrowError(expect.objectContaining({ code: 'E_TIMING_ARGUMENT' }));
+    expect(() => participantCount(0, 10)).toThrowError(
+      expect.objectContaining({ code: 'E_TIMING_ARGUMENT', fieldPath: 'method.participation' }),
+    );
+    expect(() => participantCount(1.5, 10)).toThrowError(
+      expect.objectContaining({ code: 'E_TIMING_ARGUMENT' }),
+    );
   });
 });
 
@@ -44,7 +48,8 @@ describe('participantsFor', () => {
     const rounds = 2000;
     const k = participantCount(0.25, m);
     const counts = new Array(m).fill(0);
-    for (let round = 0; round < rounds; round++) for (const id of participantsFor(0.25, m, 8, round)) counts[id]++;
+    for (let round = 0; round < rounds; round++)
+      for (const id of participantsFor(0.25, m, 8, round)) counts[id]++;
     const p = k / m;
     const standardError = Math.sqrt(rounds * p * (1 - p));
     for (const c of counts) expect(Math.abs(c - rounds * p)).toBeLessThan(5 * standardError);

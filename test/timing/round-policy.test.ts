@@ -3,24 +3,46 @@ import { timingSchema } from '../../src/scenario/schema.js';
 import { TimingError } from '../../src/timing/errors.js';
 import type { LinkModel } from '../../src/timing/links.js';
 import { participantsFor } from '../../src/timing/participation.js';
-import { decideRound, type RoundParticipant, type RoundPolicy } from '../../src/timing/round-policy.js';
+import {
+  decideRound,
+  type RoundParticipant,
+  type RoundPolicy,
+} from '../../src/timing/round-policy.js';
 import { speedModelFor, stepSecondsFor } from '../../src/timing/round-speed.js';
 
 // Expected values follow from the policies' definitions (src/timing/round-policy.ts, the timing
 // section of DESIGN.md); the hand-worked cases use powers of two so that they are exact.
 
 /** 1024 bytes/s each way and 0.25 s latency: 1024 bytes take 1.25 s, 512 bytes 0.75 s. */
-const slowLink: LinkModel = { uplinkBytesPerSecond: 1024, downlinkBytesPerSecond: 1024, latencySeconds: 0.25 };
+const slowLink: LinkModel = {
+  uplinkBytesPerSecond: 1024,
+  downlinkBytesPerSecond: 1024,
+  latencySeconds: 0.25,
+};
 /** No transfer time at all when messages are empty. */
-const freeLink: LinkModel = { uplinkBytesPerSecond: 1e9, downlinkBytesPerSecond: 1e9, latencySeconds: 0 };
+const freeLink: LinkModel = {
+  uplinkBytesPerSecond: 1e9,
+  downlinkBytesPerSecond: 1e9,
+  latencySeconds: 0,
+};
 
-function participant(clientId: number, stepSeconds: number, plannedSteps: number, downBytes = 0, upBytes = 0): RoundParticipant {
+function participant(
+  clientId: number,
+  stepSeconds: number,
+  plannedSteps: number,
+  downBytes = 0,
+  upBytes = 0,
+): RoundParticipant {
   return { clientId, stepSeconds, plannedSteps, downBytes, upBytes };
 }
 
 describe('decideRound: all', () => {
   it('runs planned steps and ends with the last arrival; the others wait for it', () => {
-    const participants = [participant(0, 0.25, 4, 1024, 512), participant(2, 0.5, 2, 1024, 512), participant(5, 1, 3, 1024, 512)];
+    const participants = [
+      participant(0, 0.25, 4, 1024, 512),
+      participant(2, 0.5, 2, 1024, 512),
+      participant(5, 1, 3, 1024, 512),
+    ];
     const timing = decideRound({ kind: 'all' }, slowLink, participants);
     // finish = 1.25 down + tau step + 0.75 up = [3, 3, 5]
     expect(timing.roundSeconds).toBe(5);
@@ -56,7 +78,9 @@ describe('decideRound: deadline', () => {
   it('stays within [1, stepsMax] for step times across six orders of magnitude', () => {
     const stepsMax = 50;
     const policy: RoundPolicy = { kind: 'deadline', budgetSeconds: 1, stepsMax };
-    const participants = Array.from({ length: 60 }, (_, i) => participant(i, 10 ** (-4 + i / 10), 1, 1024, 512));
+    const participants = Array.from({ length: 60 }, (_, i) =>
+      participant(i, 10 ** (-4 + i / 10), 1, 1024, 512),
+    );
     for (const p of decideRound(policy, slowLink, participants).participants) {
       expect(p.localSteps).toBeGreaterThanOrEqual(1);
       expect(p.localSteps).toBeLessThanOrEqual(stepsMax);
@@ -65,11 +89,13 @@ describe('decideRound: deadline', () => {
 
   it('counts a budget that holds a whole number of decimal steps as that number', () => {
     // 0.3 / 0.1 is 2.9999999999999996 in binary floating point; three 0.1 s steps fit 0.3 s.
-    const timing = decideRound({ kind: 'deadline', budgetSeconds: 0.3, stepsMax: 100 }, freeLink, [participant(0, 0.1, 1)]);
+    const timing = decideRound({ kind: 'deadline', budgetSeconds: 0.3, stepsMax: 100 }, freeLink, [
+      participant(0, 0.1, 1),
+    ]);
     expect(timing.participants[0].localSteps).toBe(3);
   });
 
-  it('gives two-class stragglers about 1/F of the others\' steps', () => {
+  it("gives two-class stragglers about 1/F of the others' steps", () => {
     const m = 40;
     const factor = 4;
     const timing = timingSchema.parse({
@@ -109,7 +135,9 @@ describe('decideRound: fastest-k', () => {
     });
     const speed = speedModelFor(timing, m, 23);
     for (let round = 0; round < 10; round++) {
-      const participants = Array.from({ length: m }, (_, id) => participant(id, stepSecondsFor(speed, id, round), 1 + (id % 4), 4096, 4096));
+      const participants = Array.from({ length: m }, (_, id) =>
+        participant(id, stepSecondsFor(speed, id, round), 1 + (id % 4), 4096, 4096),
+      );
       const decided = decideRound(timing.policy, timing.links, participants);
       const dropped = decided.participants.filter((p) => p.dropped);
       const counted = decided.participants.filter((p) => !p.dropped);
@@ -128,14 +156,24 @@ describe('decideRound: fastest-k', () => {
 
   it('breaks equal finish times toward the lower client id', () => {
     // finishes: id 3 -> 2 s, id 5 -> 1 s, id 8 -> 2 s, id 9 -> 2 s; k = 2 keeps 5 and then 3.
-    const participants = [participant(3, 1, 2), participant(5, 1, 1), participant(8, 0.5, 4), participant(9, 2, 1)];
+    const participants = [
+      participant(3, 1, 2),
+      participant(5, 1, 1),
+      participant(8, 0.5, 4),
+      participant(9, 2, 1),
+    ];
     const decided = decideRound({ kind: 'fastest-k', k: 2 }, freeLink, participants);
     expect(decided.participants.map((p) => p.dropped)).toEqual([false, false, true, true]);
     expect(decided.roundSeconds).toBe(2);
   });
 
   it('refuses k above the number of participants, naming timing.policy.k', () => {
-    expect(() => decideRound({ kind: 'fastest-k', k: 3 }, freeLink, [participant(0, 1, 1), participant(1, 1, 1)])).toThrowError(
+    expect(() =>
+      decideRound({ kind: 'fastest-k', k: 3 }, freeLink, [
+        participant(0, 1, 1),
+        participant(1, 1, 1),
+      ]),
+    ).toThrowError(
       expect.objectContaining({ code: 'E_TIMING_POLICY_K', fieldPath: 'timing.policy.k' }),
     );
   });

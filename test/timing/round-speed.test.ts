@@ -1,6 +1,11 @@
 import { describe, expect, it } from 'vitest';
 import { timingSchema } from '../../src/scenario/schema.js';
-import { speedModelFor, stepFactorFor, stepSecondsFor, type SpeedModel } from '../../src/timing/round-speed.js';
+import {
+  speedModelFor,
+  stepFactorFor,
+  stepSecondsFor,
+  type SpeedModel,
+} from '../../src/timing/round-speed.js';
 
 // The step-time model is ours (step = cost * s_i * exp(jitter Z) * transient); these tests hold
 // the code to that definition, and check the random parts' frequencies and moments within 5
@@ -16,7 +21,8 @@ describe('stepSecondsFor', () => {
   it('without jitter or transients is the base cost times the persistent slowdown', () => {
     const m = model({ stepCostSeconds: 0.002, slowdown: { kind: 'uniform', min: 1, max: 5 } }, 20);
     for (let i = 0; i < 20; i++) {
-      for (let round = 0; round < 5; round++) expect(stepSecondsFor(m, i, round)).toBe(0.002 * m.slowdowns[i]);
+      for (let round = 0; round < 5; round++)
+        expect(stepSecondsFor(m, i, round)).toBe(0.002 * m.slowdowns[i]);
     }
   });
 
@@ -32,9 +38,13 @@ describe('stepSecondsFor', () => {
     const rounds = 100;
     const m = model({ transient: { probability, factor } }, clients);
     let events = 0;
-    for (let i = 0; i < clients; i++) for (let round = 0; round < rounds; round++) if (stepFactorFor(m, i, round) === factor) events++;
+    for (let i = 0; i < clients; i++)
+      for (let round = 0; round < rounds; round++)
+        if (stepFactorFor(m, i, round) === factor) events++;
     const n = clients * rounds;
-    expect(Math.abs(events / n - probability)).toBeLessThan(5 * Math.sqrt((probability * (1 - probability)) / n));
+    expect(Math.abs(events / n - probability)).toBeLessThan(
+      5 * Math.sqrt((probability * (1 - probability)) / n),
+    );
   });
 
   it('turning jitter up rescales log step time by the same draw and leaves transient events alone', () => {
@@ -64,7 +74,8 @@ describe('stepSecondsFor', () => {
     const m = model({ jitter, slowdown: { kind: 'pareto', shape: 3 } }, clients);
     const logs: number[] = [];
     for (let i = 0; i < clients; i++) {
-      for (let round = 0; round < rounds; round++) logs.push(Math.log(stepFactorFor(m, i, round) / m.slowdowns[i]));
+      for (let round = 0; round < rounds; round++)
+        logs.push(Math.log(stepFactorFor(m, i, round) / m.slowdowns[i]));
     }
     const n = logs.length;
     const mean = logs.reduce((a, b) => a + b, 0) / n;
@@ -74,27 +85,39 @@ describe('stepSecondsFor', () => {
   });
 
   it('gives the same value whatever the call order, and different rounds differ', () => {
-    const timing = { jitter: 0.3, transient: { probability: 0.1, factor: 4 }, slowdown: { kind: 'lognormal', sigma: 0.5 } };
+    const timing = {
+      jitter: 0.3,
+      transient: { probability: 0.1, factor: 4 },
+      slowdown: { kind: 'lognormal', sigma: 0.5 },
+    };
     const clients = 8;
     const rounds = 6;
     const forward = model(timing, clients);
     const ascending: number[] = [];
-    for (let i = 0; i < clients; i++) for (let round = 0; round < rounds; round++) ascending.push(stepSecondsFor(forward, i, round));
+    for (let i = 0; i < clients; i++)
+      for (let round = 0; round < rounds; round++)
+        ascending.push(stepSecondsFor(forward, i, round));
     // A fresh model, asked round-major and backwards, must rebuild every value bit for bit.
     const backward = model(timing, clients);
     const descending = new Array<number>(clients * rounds);
     for (let round = rounds - 1; round >= 0; round--) {
-      for (let i = clients - 1; i >= 0; i--) descending[i * rounds + round] = stepSecondsFor(backward, i, round);
+      for (let i = clients - 1; i >= 0; i--)
+        descending[i * rounds + round] = stepSecondsFor(backward, i, round);
     }
     expect(descending).toEqual(ascending);
     for (let i = 0; i < clients; i++) {
-      for (let round = 1; round < rounds; round++) expect(ascending[i * rounds + round]).not.toBe(ascending[i * rounds + round - 1]);
+      for (let round = 1; round < rounds; round++)
+        expect(ascending[i * rounds + round]).not.toBe(ascending[i * rounds + round - 1]);
     }
   });
 
   it('refuses an unknown client or a negative round', () => {
     const m = model({}, 3);
-    expect(() => stepSecondsFor(m, 3, 0)).toThrowError(expect.objectContaining({ code: 'E_TIMING_ARGUMENT' }));
-    expect(() => stepSecondsFor(m, 0, -1)).toThrowError(expect.objectContaining({ code: 'E_TIMING_ARGUMENT' }));
+    expect(() => stepSecondsFor(m, 3, 0)).toThrowError(
+      expect.objectContaining({ code: 'E_TIMING_ARGUMENT' }),
+    );
+    expect(() => stepSecondsFor(m, 0, -1)).toThrowError(
+      expect.objectContaining({ code: 'E_TIMING_ARGUMENT' }),
+    );
   });
 });

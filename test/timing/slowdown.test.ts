@@ -35,7 +35,8 @@ function erf(x: number): number {
   const sign = Math.sign(x);
   const a = Math.abs(x);
   const t = 1 / (1 + 0.3275911 * a);
-  const poly = ((((1.061405429 * t - 1.453152027) * t + 1.421413741) * t - 0.284496736) * t + 0.254829592) * t;
+  const poly =
+    ((((1.061405429 * t - 1.453152027) * t + 1.421413741) * t - 0.284496736) * t + 0.254829592) * t;
   return sign * (1 - poly * Math.exp(-a * a));
 }
 
@@ -75,7 +76,9 @@ describe('drawSlowdowns', () => {
     // P(s <= exp(sigma)) = P(|Z| <= 1) = erf(1 / sqrt 2), about 0.6827 (the 68-95-99.7 rule);
     // binomial standard error sqrt(p (1 - p) / n).
     const p = erf(1 / Math.SQRT2);
-    expect(Math.abs(fractionAtMost(s, Math.exp(sigma)) - p)).toBeLessThan(5 * Math.sqrt((p * (1 - p)) / clientCount));
+    expect(Math.abs(fractionAtMost(s, Math.exp(sigma)) - p)).toBeLessThan(
+      5 * Math.sqrt((p * (1 - p)) / clientCount),
+    );
   });
 
   it('lognormal with sigma 0 gives every client 1', () => {
@@ -92,14 +95,19 @@ describe('drawSlowdowns', () => {
     expect(minimum(s)).toBeGreaterThanOrEqual(1);
     const tail = 2 ** -a;
     const observedTail = 1 - fractionAtMost(s, 2);
-    expect(Math.abs(observedTail - tail)).toBeLessThan(5 * Math.sqrt((tail * (1 - tail)) / clientCount));
+    expect(Math.abs(observedTail - tail)).toBeLessThan(
+      5 * Math.sqrt((tail * (1 - tail)) / clientCount),
+    );
   });
 
   it('pareto with a shape so small that a draw overflows is refused with a code', () => {
     // shape 0.001: s = (1 - U)^(-1000) exceeds the largest double once 1 - U < 2^(-1.024), about
     // half the clients.
     expect(() => draw({ kind: 'pareto', shape: 0.001 }, 100)).toThrowError(
-      expect.objectContaining({ code: 'E_TIMING_SLOWDOWN_NOT_FINITE', fieldPath: 'timing.slowdown' }),
+      expect.objectContaining({
+        code: 'E_TIMING_SLOWDOWN_NOT_FINITE',
+        fieldPath: 'timing.slowdown',
+      }),
     );
     expect(() => draw({ kind: 'pareto', shape: 0.001 }, 100)).toThrow(TimingError);
   });
@@ -138,7 +146,11 @@ describe('drawSlowdowns', () => {
   });
 
   it('refuses a client count that is not a positive integer', () => {
-    expect(() => draw({ kind: 'constant', value: 1 }, 0)).toThrowError(expect.objectContaining({ code: 'E_TIMING_ARGUMENT' }));
-    expect(() => draw({ kind: 'constant', value: 1 }, 2.5)).toThrowError(expect.objectContaining({ code: 'E_TIMING_ARGUMENT' }));
+    expect(() => draw({ kind: 'constant', value: 1 }, 0)).toThrowError(
+      expect.objectContaining({ code: 'E_TIMING_ARGUMENT' }),
+    );
+    expect(() => draw({ kind: 'constant', value: 1 }, 2.5)).toThrowError(
+      expect.objectContaining({ code: 'E_TIMING_ARGUMENT' }),
+    );
   });
 });

@@ -26,8 +26,12 @@ describe('VirtualClock', () => {
 
   it('refuses a negative or non-finite duration', () => {
     const clock = new VirtualClock();
-    expect(() => clock.advance(-1)).toThrowError(expect.objectContaining({ code: 'E_TIMING_ARGUMENT' }));
-    expect(() => clock.advance(Number.POSITIVE_INFINITY)).toThrowError(expect.objectContaining({ code: 'E_TIMING_ARGUMENT' }));
+    expect(() => clock.advance(-1)).toThrowError(
+      expect.objectContaining({ code: 'E_TIMING_ARGUMENT' }),
+    );
+    expect(() => clock.advance(Number.POSITIVE_INFINITY)).toThrowError(
+      expect.objectContaining({ code: 'E_TIMING_ARGUMENT' }),
+    );
     expect(clock.now()).toBe(0);
   });
 });

@@ -2,7 +2,20 @@
 import { describe, expect, it } from 'vitest';
 import { Matrix } from 'ml-matrix';
 import { Rng } from '../../src/base/rng.js';
-import { add, allFinite, axpy, distanceSquared, dot, matTVec, matVec, norm2, normInf, normSquared, scale, subtract } from '../../src/vec/kernels.js';
+import {
+  add,
+  allFinite,
+  axpy,
+  distanceSquared,
+  dot,
+  matTVec,
+  matVec,
+  norm2,
+  normInf,
+  normSquared,
+  scale,
+  subtract,
+} from '../../src/vec/kernels.js';
 
 const rng = Rng.derive(11, 'test', 'kernels');
 const vec = (d: number): Float64Array => Float64Array.from({ length: d }, () => rng.normal());
@@ -26,13 +39,23 @@ describe('vector kernels', () => {
       const a = vec(rows * cols);
       const x = vec(cols);
       const y = vec(rows);
-      const m = new Matrix(Array.from({ length: rows }, (_, r) => Array.from(a.subarray(r * cols, (r + 1) * cols))));
+      const m = new Matrix(
+        Array.from({ length: rows }, (_, r) => Array.from(a.subarray(r * cols, (r + 1) * cols))),
+      );
       const out = new Float64Array(rows);
       matVec(a, rows, cols, x, out);
       expect(rel(out, m.mmul(Matrix.columnVector(Array.from(x))).getColumn(0))).toBeLessThan(1e-14);
       const outT = new Float64Array(cols);
       matTVec(a, rows, cols, y, outT);
-      expect(rel(outT, m.transpose().mmul(Matrix.columnVector(Array.from(y))).getColumn(0))).toBeLessThan(1e-14);
+      expect(
+        rel(
+          outT,
+          m
+            .transpose()
+            .mmul(Matrix.columnVector(Array.from(y)))
+            .getColumn(0),
+        ),
+      ).toBeLessThan(1e-14);
     }
   });
 

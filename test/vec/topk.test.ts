@@ -17,7 +17,10 @@ describe('topKIndices', () => {
       const d = 1 + rng.nextInt(300);
       const k = rng.nextInt(d + 1);
       // few distinct magnitudes so that ties are common
-      const v = Float64Array.from({ length: d }, () => (rng.nextInt(7) - 3) * (trial % 2 ? 1 : rng.nextFloat()));
+      const v = Float64Array.from(
+        { length: d },
+        () => (rng.nextInt(7) - 3) * (trial % 2 ? 1 : rng.nextFloat()),
+      );
       expect(Array.from(topKIndices(v, k))).toEqual(bySort(v, k));
     }
   });
