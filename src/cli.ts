@@ -14,6 +14,7 @@ import { ProgressLine } from './commands/progress.js';
 import { defaultResultsDir, prepareResultsFolder } from './results/results-folder.js';
 import {
   formatDistributedSummary,
+  type DistributedRunResult,
   runDistributed,
   RunInterrupted,
 } from './commands/run-distributed.js';
@@ -105,6 +106,23 @@ interface Io {
   err: (text: string) => void;
 }
 
+/** The end of a distributed run, as `run` and `coordinator` both show it: the report, then the table or outcome.json. */
+async function finishDistributed(
+  io: Io,
+  progress: ProgressLine,
+  result: DistributedRunResult,
+  outDir: string,
+  json: boolean,
+): Promise<void> {
+  progress.finish();
+  await writeRunReport(outDir);
+  io.out(
+    json
+      ? `${JSON.stringify(result.summary, null, 2)}\n`
+      : formatDistributedSummary(result, outDir),
+  );
+}
+
 function buildProgram(io: Io): Command {
   const program = new Command('roundwire')
     .description(
@@ -191,13 +209,7 @@ function buildProgram(io: Io): Command {
             { out: io.out, err: io.err, onRound: (r) => progress.update(r) },
             metricsServing(opts),
           );
-          progress.finish();
-          await writeRunReport(outDir);
-          io.out(
-            opts.json
-              ? `${JSON.stringify(result.summary, null, 2)}\n`
-              : formatDistributedSummary(result, outDir),
-          );
+          await finishDistributed(io, progress, result, outDir, opts.json === true);
           return;
         }
         const outcome = runInProcess(scenario, { onRound: (r) => progress.update(r) });
@@ -318,13 +330,7 @@ function buildProgram(io: Io): Command {
           { err: io.err, onRound: (r) => progress.update(r) },
           metricsServing(opts),
         );
-        progress.finish();
-        await writeRunReport(outDir);
-        io.out(
-          opts.json
-            ? `${JSON.stringify(result.summary, null, 2)}\n`
-            : formatDistributedSummary(result, outDir),
-        );
+        await finishDistributed(io, progress, result, outDir, opts.json === true);
       },
     );
 

@@ -3,7 +3,7 @@
 // added by src/commands/report-command.ts. This is the one module under src/ that writes run
 // results; the core computes, this records.
 
-import { accessSync, constants, mkdirSync, writeFileSync } from 'node:fs';
+import { accessSync, constants, mkdirSync, rmSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { stringify } from 'yaml';
 import type { Scenario } from '../scenario/schema.js';
@@ -42,13 +42,17 @@ export function defaultResultsDir(scenario: Scenario, now: Date): string {
 }
 
 /**
- * Creates the results folder and checks that it can be written, so that a bad --out ends the
- * command before the run rather than after it. Throws ResultsFolderError naming --out.
+ * Checks that the results folder can be created and written (creating it, then removing what it
+ * created), so that a bad --out ends the command before the run rather than after it. Throws
+ * ResultsFolderError naming --out.
  */
 export function prepareResultsFolder(dir: string): void {
   try {
-    mkdirSync(dir, { recursive: true });
+    const created = mkdirSync(dir, { recursive: true });
     accessSync(dir, constants.W_OK);
+    // Only a check: a run refused later (a bad plan, say) leaves no empty folder behind. The
+    // writers create the folder again when there is something to write.
+    if (created !== undefined) rmSync(created, { recursive: true });
   } catch (error) {
     const code = (error as NodeJS.ErrnoException).code ?? (error as Error).message;
     throw new ResultsFolderError('E_RESULTS_FOLDER', `--out ${dir}: cannot create or write the results folder (${code})`);
