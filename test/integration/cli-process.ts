@@ -140,3 +140,31 @@ export function writeKeyFile(dir: string, key: string, name = 'shared.key', mode
 export function overrideArgs(overrides: Readonly<Record<string, string>>): string[] {
   return Object.entries(overrides).flatMap(([path, value]) => ['--tweak', `${path}:${value}`]);
 }
+
+/**
+ * Arguments of a `roundwire coordinator` on the quickstart scenario, listening on 127.0.0.1 with
+ * a free port and `keyFile`, waiting up to 40 s for `workersMin` workers, writing to `out`;
+ * `extra` follows (tweaks, limits).
+ */
+export function quickstartCoordinatorArgs(
+  out: string,
+  keyFile: string,
+  workersMin: number,
+  extra: readonly string[] = [],
+): string[] {
+  return [
+    'coordinator',
+    join(repoRoot, 'scenarios/quickstart.yaml'),
+    '--listen',
+    '127.0.0.1:0',
+    '--key-file',
+    keyFile,
+    '--workers-min',
+    String(workersMin),
+    '--workers-wait-seconds',
+    '40',
+    '--out',
+    out,
+    ...extra,
+  ];
+}

@@ -18,7 +18,13 @@ import {
 } from '../../src/protocol/index.js';
 import type { RoundRecord } from '../../src/engine/round-record.js';
 import { runCli } from '../cli/run-cli.js';
-import { CliProcess, freshDir, readJsonLines, repoRoot, writeKeyFile } from './cli-process.js';
+import {
+  CliProcess,
+  freshDir,
+  readJsonLines,
+  writeKeyFile,
+  quickstartCoordinatorArgs,
+} from './cli-process.js';
 
 const KEY = 'a-key-for-the-heartbeat-test';
 const SILENCE_SECONDS = 1.5;
@@ -78,26 +84,16 @@ describe('a worker that falls silent', () => {
   it('is lost after the silence limit and the run completes without it', async () => {
     const out = freshDir('silence');
     const keyFile = writeKeyFile(out, KEY);
-    const coordinator = new CliProcess([
-      'coordinator',
-      join(repoRoot, 'scenarios/quickstart.yaml'),
-      '--listen',
-      '127.0.0.1:0',
-      '--key-file',
-      keyFile,
-      '--workers-min',
-      '3',
-      '--workers-wait-seconds',
-      '40',
-      '--heartbeat-silence-seconds',
-      String(SILENCE_SECONDS),
-      '--out',
-      out,
-      '--tweak',
-      `run.rounds:${ROUNDS}`,
-      '--tweak',
-      'run.target:0',
-    ]);
+    const coordinator = new CliProcess(
+      quickstartCoordinatorArgs(out, keyFile, 3, [
+        '--heartbeat-silence-seconds',
+        String(SILENCE_SECONDS),
+        '--tweak',
+        `run.rounds:${ROUNDS}`,
+        '--tweak',
+        'run.target:0',
+      ]),
+    );
     started.push(coordinator);
     const url = (await coordinator.waitForStderr(/listening on (ws:\/\/\S+)/, 30_000))[1];
     const steady = ['steady-1', 'steady-2'].map(

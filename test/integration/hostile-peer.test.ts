@@ -25,7 +25,13 @@ import { runInProcess } from '../../src/engine/in-process-engine.js';
 import { clientObjective } from '../../src/data/problem-instance.js';
 import { loadScenarioFile } from '../../src/scenario/load-scenario.js';
 import { validateScenario } from '../../src/scenario/validate-scenario.js';
-import { CliProcess, freshDir, repoRoot, writeKeyFile } from './cli-process.js';
+import {
+  CliProcess,
+  freshDir,
+  repoRoot,
+  writeKeyFile,
+  quickstartCoordinatorArgs,
+} from './cli-process.js';
 
 const KEY = 'a-key-for-the-hostile-peer-test';
 const TWEAKS = ['run.rounds:3', 'run.target:0'];
@@ -61,21 +67,14 @@ describe('hostile peers', () => {
   it('a wrong key is refused before the plan; malformed frames get coded errors and change nothing', async () => {
     const out = freshDir('hostile');
     const keyFile = writeKeyFile(out, KEY);
-    const coordinator = new CliProcess([
-      'coordinator',
-      join(repoRoot, 'scenarios/quickstart.yaml'),
-      '--listen',
-      '127.0.0.1:0',
-      '--key-file',
-      keyFile,
-      '--workers-min',
-      '2',
-      '--workers-wait-seconds',
-      '40',
-      '--out',
-      out,
-      ...TWEAKS.flatMap((o) => ['--tweak', o]),
-    ]);
+    const coordinator = new CliProcess(
+      quickstartCoordinatorArgs(
+        out,
+        keyFile,
+        2,
+        TWEAKS.flatMap((o) => ['--tweak', o]),
+      ),
+    );
     started.push(coordinator);
     const url = (await coordinator.waitForStderr(/listening on (ws:\/\/\S+)/, 30_000))[1];
 

@@ -22,7 +22,13 @@ import {
 } from '../../src/protocol/index.js';
 import { runInProcess } from '../../src/engine/in-process-engine.js';
 import { loadScenarioFile } from '../../src/scenario/load-scenario.js';
-import { CliProcess, freshDir, repoRoot, writeKeyFile } from './cli-process.js';
+import {
+  CliProcess,
+  freshDir,
+  repoRoot,
+  writeKeyFile,
+  quickstartCoordinatorArgs,
+} from './cli-process.js';
 
 const KEY = 'a-key-for-the-malformed-frames-test';
 // Enough rounds that the mid-run probes land while the run goes on.
@@ -263,21 +269,14 @@ describe('malformed WebSocket frames', () => {
   it('close only the connection that sent them, with the RFC 6455 close code; the run finishes unchanged', async () => {
     const out = freshDir('frames');
     const keyFile = writeKeyFile(out, KEY);
-    const coordinator = new CliProcess([
-      'coordinator',
-      join(repoRoot, 'scenarios/quickstart.yaml'),
-      '--listen',
-      '127.0.0.1:0',
-      '--key-file',
-      keyFile,
-      '--workers-min',
-      '2',
-      '--workers-wait-seconds',
-      '40',
-      '--out',
-      out,
-      ...TWEAKS.flatMap((o) => ['--tweak', o]),
-    ]);
+    const coordinator = new CliProcess(
+      quickstartCoordinatorArgs(
+        out,
+        keyFile,
+        2,
+        TWEAKS.flatMap((o) => ['--tweak', o]),
+      ),
+    );
     started.push(coordinator);
     const url = (await coordinator.waitForStderr(/listening on (ws:\/\/\S+)/, 30_000))[1];
     const port = Number(new URL(url).port);
