@@ -11,7 +11,7 @@ import { planFor } from '../src/engine/in-process-engine.js';
 import { predictRun } from '../src/engine/predict-run.js';
 import type { RunPlan, WirePlan } from '../src/engine/run-plan.js';
 import type { PlanTheory } from '../src/theory/plan-theory.js';
-import type { RoundRecord } from '../src/engine/round-record.js';
+import type { RecordSink, RoundRecord } from '../src/engine/round-record.js';
 import {
   CLOSE_NORMAL,
   CLOSE_POLICY_VIOLATION,
@@ -446,16 +446,24 @@ export class Coordinator {
     }
   }
 
-  /** Waits for workers, runs every round, says done; resolves to what the run produced. */
-  async run(): Promise<CoordinatorOutcome> {
+  /**
+   * Waits for workers, runs every round, says done; resolves to what the run produced. The
+   * records go to the sink `openRecords` opens once the workers are in (a run that never starts
+   * opens none).
+   */
+  async run(openRecords?: () => RecordSink): Promise<CoordinatorOutcome> {
     await this.waitForWorkers();
+    const records = openRecords?.() ?? null;
     // Wall seconds (per round, the ETA, the total) count from the first round: waiting for
     // workers to join is the cluster's start-up, not the method's cost, and is reported apart.
     const roundsStartedMs = performance.now();
     const joinSeconds = (roundsStartedMs - this.startedMs) / 1000;
     this.welcomeAll();
     this.liveness.start();
-    const result = await this.driver.run(() => (performance.now() - roundsStartedMs) / 1000);
+    const result = await this.driver.run(
+      () => (performance.now() - roundsStartedMs) / 1000,
+      records,
+    );
     this.liveness.stop();
     this.runEnded = true;
     // A worker still away when the run ends never came back: its clients left the run.
@@ -478,8 +486,6 @@ export class Coordinator {
     return {
       plan: this.plan,
       theory: this.theory,
-      rounds: result.rounds,
-      clients: result.clients,
       finalModel: result.finalModel,
       stopReason: result.stopReason,
       wallSeconds: (performance.now() - roundsStartedMs) / 1000,

@@ -9,6 +9,7 @@ import { join } from 'node:path';
 import type { Scenario } from '../scenario/schema.js';
 import type { RoundRecord } from '../engine/round-record.js';
 import { resultFiles } from '../results/results-folder.js';
+import { DeferredRecordStream } from '../results/record-stream.js';
 import { Coordinator, type CoordinatorOptions } from '../../server/coordinator.js';
 import { LocalWorker } from '../../server/local-workers.js';
 import { distributedDetails, engineOutcomeOf } from '../../server/results.js';
@@ -128,6 +129,7 @@ export async function runDistributed(
     keyFile.remove();
     throw error;
   }
+  const records = new DeferredRecordStream(outDir);
   const workers: LocalWorker[] = [];
   let interrupted: NodeJS.Signals | null = null;
   let runEnded = false;
@@ -181,7 +183,8 @@ export async function runDistributed(
           );
       });
     }
-    const outcome = await coordinator.run();
+    const outcome = await coordinator.run(() => records.open());
+    records.close();
     runEnded = true;
     await Promise.all(workers.map((w) => w.exitsWithin(EMBEDDED_LIMITS.workerExitSeconds)));
     if (interrupted !== null) {
@@ -202,6 +205,7 @@ export async function runDistributed(
     throw error;
   } finally {
     runEnded = true;
+    records.close();
     await metricsServer?.close();
     await coordinator.close();
     await Promise.all(workers.map((w) => w.stop()));

@@ -9,7 +9,7 @@ import { ClientRuntime } from './client-runtime.js';
 import { DirectTransport } from './direct-transport.js';
 import { evaluateModel, type Evaluation } from './evaluate.js';
 import { walkRun, walkSetup } from './round-walk.js';
-import type { RoundRecord } from './round-record.js';
+import type { RecordSink, RoundRecord } from './round-record.js';
 import { assertPlannable, resolveRunPlan, type RunPlan } from './run-plan.js';
 import type { RunOutcome } from './run-summary.js';
 import { ServerRuntime } from './server-runtime.js';
@@ -18,11 +18,16 @@ import { driveSync, type RoundTransport } from './walk-transport.js';
 export interface EngineOptions {
   /** called after every round, e.g. for a live progress line */
   onRound?: (record: RoundRecord) => void;
+  /**
+   * Opens where the records go as they happen, once the plan is made (a scenario the plan
+   * refuses opens nothing); without it the records are not kept.
+   */
+  openRecords?: () => RecordSink;
   /** the server's starting model x_0 (default zero) */
   initialModel?: Float64Array;
 }
 
-/** Round 0 of `rounds` is the initial model; then one record per round run. */
+/** The run's end; its records went to the sink openRecords opened. */
 export type EngineResult = RunOutcome;
 
 /** The plan and the oracle's theory of a scenario; refuses a scenario no runtime can run before the oracle works. */
@@ -71,20 +76,22 @@ export function runInProcess(scenario: Scenario, options: EngineOptions = {}): E
   const transport = new InProcessTransport(clients, (x) =>
     evaluateModel(theory.instance.global, theory.optimum.x, theory.optimum.loss, x),
   );
-  const onRound = options.onRound;
+  const { onRound } = options;
+  const records = options.openRecords?.();
   const walked = driveSync(
     walkRun({
       ...walkSetup(plan, server),
       wallSeconds,
-      onRound: onRound && ((record) => onRound(record)),
+      onRound: (record, clientRecords) => {
+        records?.append(record, clientRecords);
+        onRound?.(record);
+      },
     }),
     transport,
   );
   return {
     plan,
     theory,
-    rounds: walked.rounds,
-    clients: walked.clients,
     finalModel: walked.finalModel,
     stopReason: walked.stopReason,
     wallSeconds: wallSeconds(),

@@ -35,3 +35,11 @@ export interface ClientRoundRecord {
   bytes: { payload: ByteCounts; encoded?: ByteCounts; wire?: ByteCounts };
   dropped: boolean;
 }
+
+/**
+ * Where a run's records go as they happen, round by round (round 0, the initial evaluation with
+ * no clients, first): a results folder's files (src/results/record-stream.ts) or a caller's own.
+ */
+export interface RecordSink {
+  append(record: RoundRecord, clients: readonly ClientRoundRecord[]): void;
+}

@@ -165,8 +165,12 @@ export interface RunWalkSetup extends WalkSetup {
   onRound?: (record: RoundRecord, clients: readonly ClientRoundRecord[]) => void;
 }
 
-/** A run's outcome as the walk knows it: round 0 (the initial model), then one record per round walked. */
-export type WalkedRun = Pick<RunOutcome, 'rounds' | 'clients' | 'finalModel' | 'stopReason'> & {
+/**
+ * A run's end as the walk knows it. Its records went to onRound as they happened (round 0, the
+ * initial model, then one per round walked); the walk keeps none, so its memory does not grow
+ * with the rounds.
+ */
+export type WalkedRun = Pick<RunOutcome, 'finalModel' | 'stopReason'> & {
   virtualSeconds: number;
 };
 
@@ -202,8 +206,6 @@ export function* walkRun(setup: RunWalkSetup): Generator<WalkRequest, WalkedRun,
     virtualSeconds: 0,
     wallSeconds: setup.wallSeconds(),
   };
-  const rounds: RoundRecord[] = [first];
-  const clients: ClientRoundRecord[] = [];
   setup.onRound?.(first, []);
   let stopReason: StopReason = 'rounds-complete';
 
@@ -214,7 +216,6 @@ export function* walkRun(setup: RunWalkSetup): Generator<WalkRequest, WalkedRun,
       break;
     }
     const walked = yield* walkRound(setup, round);
-    clients.push(...walked.records);
     const virtualSeconds = clock.advance(walked.roundSeconds);
     const ending = walked.diverged ? 'diverged' : yield* ask({ kind: 'close-round', round });
     const last = round === roundsMax || ending !== null;
@@ -233,7 +234,6 @@ export function* walkRun(setup: RunWalkSetup): Generator<WalkRequest, WalkedRun,
       virtualSeconds,
       wallSeconds: setup.wallSeconds(),
     };
-    rounds.push(record);
     setup.onRound?.(record, walked.records);
     if (ending !== null) {
       stopReason = ending;
@@ -244,5 +244,5 @@ export function* walkRun(setup: RunWalkSetup): Generator<WalkRequest, WalkedRun,
       break;
     }
   }
-  return { rounds, clients, finalModel: server.model(), stopReason, virtualSeconds: clock.now() };
+  return { finalModel: server.model(), stopReason, virtualSeconds: clock.now() };
 }

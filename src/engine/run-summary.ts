@@ -2,26 +2,23 @@
 // the in-process engine and the coordinator, so both write the same fields.
 
 import type { PlanTheory } from '../theory/plan-theory.js';
-import {
-  fitLinearRate,
-  measureFloor,
-  roundsToTarget,
-  type CurvePoint,
-} from '../theory/measure-curve.js';
+import { fitLinearRate, measureFloor, type CurvePoint } from '../theory/measure-curve.js';
 import type { RunPlan } from './run-plan.js';
-import type { ByteCounts, ClientRoundRecord, RoundRecord } from './round-record.js';
+import type { ByteCounts, RoundRecord } from './round-record.js';
 import type { RunPrediction } from './predict-run.js';
 
 /** Why a run ended: its target, its round limit, a non-finite update, every worker lost, or Ctrl-C. */
 export type StopReason =
   'target-reached' | 'rounds-complete' | 'diverged' | 'workers-lost' | 'stopped';
 
-/** What every run hands over at its end, whichever runtime ran it (the coordinator's adds to it). */
+/**
+ * What every run hands over at its end, whichever runtime ran it (the coordinator's adds to it).
+ * Its records are not in it: they went to a RecordSink as they happened (rounds.jsonl and
+ * clients.jsonl), and the summary reads the rounds back from there.
+ */
 export interface RunOutcomeBase {
   plan: RunPlan;
   theory: PlanTheory;
-  rounds: RoundRecord[];
-  clients: ClientRoundRecord[];
   finalModel: Float64Array;
   stopReason: StopReason;
   wallSeconds: number;
@@ -88,7 +85,7 @@ export interface RunSummary {
 }
 
 /** The evaluated points of a run, cut before the first non-finite one (a diverged run). */
-export function curveOf(rounds: readonly RoundRecord[]): CurvePoint[] {
+export function curveOf(rounds: Iterable<RoundRecord>): CurvePoint[] {
   const points: CurvePoint[] = [];
   for (const r of rounds) {
     if (r.suboptimality === null) continue;
@@ -98,34 +95,77 @@ export function curveOf(rounds: readonly RoundRecord[]): CurvePoint[] {
   return points;
 }
 
+/** What the summary takes from a run's rounds, gathered in one pass in round order. */
+interface RoundsDigest {
+  /**
+   * Every evaluated point up to the first non-finite one. Kept whole, not thinned: the rate and
+   * floor fits look at every point (the floor at the last quarter, the fit's noise estimate at
+   * each point's neighbours), and the summary must give the very values it gave when the rounds
+   * were held in memory. It is built once, at the end, from rounds.jsonl: its size is bounded by
+   * the file, and nothing of it is held while the run goes on.
+   */
+  curve: CurvePoint[];
+  first: RoundRecord;
+  last: RoundRecord;
+  /** the last distance evaluated (NaN if none) */
+  finalDistance: number;
+  /** the first round whose evaluation is at or below the target (> 0), with what it had cost */
+  reached: { record: RoundRecord; payloadBytes: number } | null;
+  payload: ByteCounts;
+  dropped: number;
+}
+
+function digestRounds(rounds: Iterable<RoundRecord>, target: number): RoundsDigest {
+  const curve: CurvePoint[] = [];
+  let curveCut = false;
+  let first: RoundRecord | null = null;
+  let last: RoundRecord | null = null;
+  let finalDistance = Number.NaN;
+  let reached: RoundsDigest['reached'] = null;
+  const payload = { up: 0, down: 0 };
+  let payloadTotal = 0;
+  let dropped = 0;
+  for (const r of rounds) {
+    first ??= r;
+    last = r;
+    payload.up += r.bytes.payload.up;
+    payload.down += r.bytes.payload.down;
+    payloadTotal += r.bytes.payload.up + r.bytes.payload.down;
+    dropped += r.dropped.length;
+    if (r.distance !== null) finalDistance = r.distance;
+    if (r.suboptimality === null || curveCut) continue;
+    if (!Number.isFinite(r.suboptimality)) {
+      curveCut = true;
+      continue;
+    }
+    curve.push({ round: r.round, suboptimality: r.suboptimality });
+    if (reached === null && target > 0 && r.suboptimality <= target)
+      reached = { record: r, payloadBytes: payloadTotal };
+  }
+  if (first === null || last === null)
+    throw new RangeError('buildRunSummary: a run has at least its round 0');
+  return { curve, first, last, finalDistance, reached, payload, dropped };
+}
+
+/** outcome.json's fields from the run's end and its rounds (round 0 first, in round order, read once). */
 export function buildRunSummary(
   outcome: RunOutcome,
+  rounds: Iterable<RoundRecord>,
   prediction: RunPrediction,
   runtime: RunSummary['runtime'],
 ): RunSummary {
-  const { plan, theory, rounds } = outcome;
-  const curve = curveOf(rounds);
+  const { plan, theory } = outcome;
+  const target = plan.scenario.run.target;
+  const digest = digestRounds(rounds, target);
+  const { curve } = digest;
   const first = curve[0];
   const last = curve[curve.length - 1];
   // f is evaluated to a few ulps of its scale; below that the curve is noise (common practice).
   const noiseLevel =
     1e3 * Number.EPSILON * Math.max(Math.abs(theory.optimum.loss), first.suboptimality);
   const fit = curve.length > 1 ? fitLinearRate(curve, { noiseLevel }) : null;
-  const target = plan.scenario.run.target;
-  const reached = target > 0 ? roundsToTarget(curve, target) : null;
-  const reachedRecord = reached === null ? null : (rounds.find((r) => r.round === reached) ?? null);
-  let payloadUp = 0;
-  let payloadDown = 0;
-  let payloadToTarget = 0;
-  let dropped = 0;
-  for (const r of rounds) {
-    payloadUp += r.bytes.payload.up;
-    payloadDown += r.bytes.payload.down;
-    if (reached !== null && r.round <= reached)
-      payloadToTarget += r.bytes.payload.up + r.bytes.payload.down;
-    dropped += r.dropped.length;
-  }
-  const lastRound = rounds[rounds.length - 1];
+  const reached = digest.reached;
+  const lastRound = digest.last;
   const c = theory.constants;
   return {
     scenario: plan.scenario.name,
@@ -143,8 +183,8 @@ export function buildRunSummary(
       final: lastRound.suboptimality ?? last.suboptimality,
     },
     distance: {
-      initial: rounds[0].distance ?? Number.NaN,
-      final: [...rounds].reverse().find((r) => r.distance !== null)?.distance ?? Number.NaN,
+      initial: digest.first.distance ?? Number.NaN,
+      final: digest.finalDistance,
     },
     rate: {
       measured: fit ? fit.rate : null,
@@ -163,15 +203,15 @@ export function buildRunSummary(
       limitDistance: prediction.limitDistance,
     },
     target,
-    roundsToTarget: reached,
+    roundsToTarget: reached === null ? null : reached.record.round,
     toTarget: {
-      payloadBytes: reached === null ? null : payloadToTarget,
-      virtualSeconds: reachedRecord ? reachedRecord.virtualSeconds : null,
-      wallSeconds: reachedRecord ? reachedRecord.wallSeconds : null,
+      payloadBytes: reached === null ? null : reached.payloadBytes,
+      virtualSeconds: reached === null ? null : reached.record.virtualSeconds,
+      wallSeconds: reached === null ? null : reached.record.wallSeconds,
     },
-    bytes: { payload: { up: payloadUp, down: payloadDown }, ...(outcome.bytesLayers ?? {}) },
+    bytes: { payload: digest.payload, ...(outcome.bytesLayers ?? {}) },
     seconds: { virtual: lastRound.virtualSeconds, wall: outcome.wallSeconds },
-    droppedUpdates: dropped,
+    droppedUpdates: digest.dropped,
     lostWorkers: outcome.lostWorkers ?? [],
     protocolErrors: outcome.protocolErrors ?? {},
     theory: {

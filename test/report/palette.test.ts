@@ -8,8 +8,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import type { MethodName } from '../../src/algorithm/method.js';
 import { scenarioFromText } from '../../src/scenario/load-scenario.js';
-import { runInProcess } from '../../src/engine/in-process-engine.js';
-import { finishRun } from '../../src/commands/run-report.js';
+import { runInProcessInto } from '../../src/commands/run-report.js';
 import { readRunResults } from '../../src/commands/report-command.js';
 import { buildRunReport } from '../../src/report/run-report-page.js';
 import { buildComparePage } from '../../src/report/compare-page.js';
@@ -65,7 +64,7 @@ function runOf(method: MethodName): VariantOutcome {
     'quickstart.yaml',
     [`method.name:${method}`, 'run.rounds:4'],
   );
-  finishRun(runInProcess(scenario), 'in-process', dir);
+  runInProcessInto(scenario, dir);
   const results = readRunResults(dir);
   return {
     variant: {
