@@ -4,7 +4,7 @@
 // outlives the run, nor does the key file: children are stopped and the file removed on
 // success, on failure and on SIGINT or SIGTERM.
 
-import { readFileSync, writeFileSync } from 'node:fs';
+import { writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import type { Scenario } from '../scenario/schema.js';
 import type { RoundRecord } from '../engine/round-record.js';
@@ -78,16 +78,14 @@ export interface DistributedRunResult {
  * added (the true stop reason, control traffic, socket counters, workers).
  */
 export function writeDistributedResults(outcome: CoordinatorOutcome, outDir: string): RunSummary {
-  finishRun(engineOutcomeOf(outcome), 'distributed', outDir);
-  const file = join(outDir, resultFiles.outcome);
-  const summary = JSON.parse(readFileSync(file, 'utf8')) as RunSummary;
+  const summary = finishRun(engineOutcomeOf(outcome), 'distributed', outDir);
   const merged = {
     ...summary,
     seconds: { ...summary.seconds, join: outcome.joinSeconds },
     ...distributedDetails(outcome),
   };
-  writeFileSync(file, `${JSON.stringify(merged, null, 2)}\n`);
-  return merged as unknown as RunSummary;
+  writeFileSync(join(outDir, resultFiles.outcome), `${JSON.stringify(merged, null, 2)}\n`);
+  return merged;
 }
 
 export function coordinatorOptionsForEmbedded(

@@ -1,15 +1,23 @@
 // outcome.json: what a run measured, beside what the theory predicted. The same function serves
 // the in-process engine and the coordinator, so both write the same fields.
 
+import { z } from 'zod';
 import type { PlanTheory } from '../theory/plan-theory.js';
+import { methodSchema, timingSchema } from '../scenario/schema.js';
 import { fitLinearRate, measureFloor, type CurvePoint } from '../theory/measure-curve.js';
 import type { RunPlan } from './run-plan.js';
-import type { ByteCounts, RoundRecord } from './round-record.js';
+import { bytesByLayerSchema, type ByteCounts, type RoundRecord } from './round-record.js';
 import type { RunPrediction } from './predict-run.js';
 
 /** Why a run ended: its target, its round limit, a non-finite update, every worker lost, or Ctrl-C. */
-export type StopReason =
-  'target-reached' | 'rounds-complete' | 'diverged' | 'workers-lost' | 'stopped';
+export const stopReasonSchema = z.enum([
+  'target-reached',
+  'rounds-complete',
+  'diverged',
+  'workers-lost',
+  'stopped',
+]);
+export type StopReason = z.infer<typeof stopReasonSchema>;
 
 /**
  * What every run hands over at its end, whichever runtime ran it (the coordinator's adds to it).
@@ -34,55 +42,70 @@ export interface RunOutcome extends RunOutcomeBase {
   protocolErrors?: Record<string, number>;
 }
 
-export interface RunSummary {
-  scenario: string;
-  method: string;
-  planHash: string;
-  problemHash: string;
-  runtime: 'in-process' | 'distributed';
-  clock: 'virtual' | 'wall';
-  stopReason: StopReason;
-  rounds: number;
-  clients: number;
-  stepSize: number;
-  suboptimality: { initial: number; final: number };
-  distance: { initial: number; final: number };
-  rate: {
-    measured: number | null;
-    predicted: number | null;
+/**
+ * A number that may be NaN or infinite in memory (a diverged run, mu = 0): JSON.stringify writes
+ * those as null, and they read back as NaN, which every table shows as missing.
+ */
+const maybeNonFinite = z
+  .number()
+  .nullable()
+  .transform((value) => value ?? Number.NaN);
+
+/**
+ * outcome.json. The schema is the one definition: RunSummary is its output type, and `report`
+ * parses the file with it. Other members (a distributed run's details) pass unread.
+ */
+export const runSummarySchema = z.object({
+  scenario: z.string(),
+  method: methodSchema.shape.name,
+  planHash: z.string(),
+  problemHash: z.string(),
+  runtime: z.enum(['in-process', 'distributed']),
+  clock: timingSchema.shape.clock.unwrap(),
+  stopReason: stopReasonSchema,
+  rounds: z.number().int().nonnegative(),
+  clients: z.number().int().positive(),
+  stepSize: z.number(),
+  suboptimality: z.object({ initial: z.number(), final: maybeNonFinite }),
+  distance: z.object({ initial: maybeNonFinite, final: maybeNonFinite }),
+  rate: z.object({
+    measured: z.number().nullable(),
+    predicted: z.number().nullable(),
     /** the gd bound 1 - mu/L for eta = 1/L (Nesterov 2004, Thm 2.1.15), for scale */
-    gdBound: number;
-    measuredWindow: [number, number] | null;
-  };
-  floor: { measured: number | null; predicted: number | null };
-  prediction: {
-    available: boolean;
-    reason: string | null;
-    spectralRadius: number | null;
-    limitDistance: number | null;
-  };
-  target: number;
-  roundsToTarget: number | null;
-  toTarget: {
-    payloadBytes: number | null;
-    virtualSeconds: number | null;
-    wallSeconds: number | null;
-  };
-  bytes: { payload: ByteCounts; encoded?: ByteCounts; wire?: ByteCounts };
+    gdBound: z.number(),
+    measuredWindow: z.tuple([z.number(), z.number()]).nullable(),
+  }),
+  floor: z.object({ measured: z.number().nullable(), predicted: z.number().nullable() }),
+  prediction: z.object({
+    available: z.boolean(),
+    reason: z.string().nullable(),
+    spectralRadius: z.number().nullable(),
+    limitDistance: z.number().nullable(),
+  }),
+  target: z.number(),
+  roundsToTarget: z.number().int().nonnegative().nullable(),
+  toTarget: z.object({
+    payloadBytes: z.number().nullable(),
+    virtualSeconds: z.number().nullable(),
+    wallSeconds: z.number().nullable(),
+  }),
+  bytes: bytesByLayerSchema,
   /** wall: from the first round; join (distributed runs): waiting for workers before it */
-  seconds: { virtual: number; wall: number; join?: number };
-  droppedUpdates: number;
-  lostWorkers: string[];
-  protocolErrors: Record<string, number>;
-  theory: {
-    smoothness: number;
-    strongConvexity: number;
-    conditionNumber: number;
-    heterogeneity: number;
-    optimumLoss: number;
-    certificate: number;
-  };
-}
+  seconds: z.object({ virtual: z.number(), wall: z.number(), join: z.number().optional() }),
+  droppedUpdates: z.number().int().nonnegative(),
+  lostWorkers: z.array(z.string()),
+  protocolErrors: z.record(z.string(), z.number().int().nonnegative()),
+  theory: z.object({
+    smoothness: z.number(),
+    strongConvexity: z.number(),
+    /** smoothness / strongConvexity: infinite when mu = 0 */
+    conditionNumber: maybeNonFinite,
+    heterogeneity: z.number(),
+    optimumLoss: z.number(),
+    certificate: z.number(),
+  }),
+});
+export type RunSummary = z.output<typeof runSummarySchema>;
 
 /** The evaluated points of a run, cut before the first non-finite one (a diverged run). */
 export function curveOf(rounds: Iterable<RoundRecord>): CurvePoint[] {
