@@ -10,7 +10,8 @@
 //                                 or error E_AUTH
 //   then per round, per exchange, per participating client:
 //   server -> worker  down        that client's vectors, tau_i, eta_i, deadline
-//   worker -> server  up          that client's vectors and timings
+//   worker -> server  up          that client's vectors and timings, or word that its update
+//                                 was not finite (it diverged) in place of the vectors
 //   either way        heartbeat, error
 //   server -> worker  done
 //
@@ -29,7 +30,7 @@ import type { WirePlan } from './wire-plan.js';
 import type { WireVector } from './wire-vector.js';
 
 /** Bumped on any change to a message's shape or meaning; peers must match exactly. */
-export const PROTOCOL_VERSION = 2;
+export const PROTOCOL_VERSION = 3;
 
 /** Bytes of the server's challenge nonce (256 bits: never repeats in practice). */
 export const NONCE_BYTES = 32;
@@ -130,7 +131,14 @@ export interface UpMessage {
   round: number;
   exchange: string;
   clientId: number;
+  /** empty when updateNotFinite is set */
   fields: WireFields;
+  /**
+   * The client's update was not finite, so it has no vectors to send (vectors on the wire are
+   * finite, always). The coordinator's round walk judges this as the in-process engine judges
+   * its own client's non-finite update: the run diverged. Absent otherwise.
+   */
+  updateNotFinite?: true;
   /** local steps actually taken (0 for an exchange without local work) */
   localSteps: number;
   /** time spent computing, as the speed model accounts it */
