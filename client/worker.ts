@@ -360,14 +360,21 @@ export class Worker {
   ): Promise<void> {
     const { clientId, round, exchange } = message;
     const downSeconds = await hosting.link.received(fieldsPayloadBytes(encodedDown));
-    const result = await hosting.host.work({
-      clientId,
-      round,
-      exchange,
-      encodedDown,
-      localSteps: message.localSteps,
-      stepSize: message.stepSize,
-    });
+    let result;
+    try {
+      result = await hosting.host.work({
+        clientId,
+        round,
+        exchange,
+        encodedDown,
+        localSteps: message.localSteps,
+        stepSize: message.stepSize,
+      });
+    } catch (error) {
+      if (!isNonFiniteError(error)) throw error;
+      this.sendNotFinite(message, downSeconds);
+      return;
+    }
     const computeSeconds = await hosting.pacer.pace(
       clientId,
       round,
@@ -397,16 +404,34 @@ export class Worker {
   }
 
   /**
-   * A client that cannot answer tells the coordinator why; a diverged update (E_NOT_FINITE)
-   * stops the run there as it does in the engine.
+   * A client whose update is not finite answers with an up that says so in place of its vectors
+   * (which must be finite on the wire): the coordinator's round walk judges it as the
+   * in-process engine judges its own client's, and the run stops as diverged in both.
+   */
+  private sendNotFinite(message: DownMessage, downSeconds: number): void {
+    const { clientId, round, exchange } = message;
+    this.options.log(`client ${clientId}, round ${round} (${exchange}): its update is not finite`);
+    if (this.newestDownOf.get(clientId) !== message) return;
+    this.send({
+      type: 'up',
+      round,
+      exchange,
+      clientId,
+      fields: {},
+      updateNotFinite: true,
+      localSteps: message.localSteps,
+      computeSeconds: 0,
+      waitSeconds: 0,
+      transferSeconds: downSeconds,
+    });
+  }
+
+  /**
+   * A client that cannot answer for another reason tells the coordinator why; the coordinator
+   * then counts this worker's clients lost.
    */
   private reportFailure(message: DownMessage, error: Error): void {
-    const code =
-      error instanceof ProtocolError
-        ? error.code
-        : isNonFiniteError(error)
-          ? 'E_NOT_FINITE'
-          : 'E_TYPE';
+    const code = error instanceof ProtocolError ? error.code : 'E_TYPE';
     const limit =
       this.hosting?.limits.maxErrorMessageLength ?? HANDSHAKE_LIMITS.maxErrorMessageLength;
     this.options.log(

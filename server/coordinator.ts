@@ -277,7 +277,10 @@ export class Coordinator {
       if (message.type === 'error') {
         this.errors.countReported(message.code);
         this.options.log(`${session.label()} reported ${message.code}: ${message.message}`);
-        if (message.code === 'E_NOT_FINITE') this.driver.divergenceReported();
+        // A worker's error is a claim about itself, never about the run: a worker that cannot
+        // answer for its clients loses them, as a worker that went away would. A diverged
+        // update is not an error; it comes as an up (updateNotFinite) for the walk to judge.
+        if (session.state === 'active') this.loseWorker(session, `reported ${message.code}`);
       }
     } catch (error) {
       if (!(error instanceof ProtocolError)) throw error;

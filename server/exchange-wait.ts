@@ -23,7 +23,7 @@ export type CloseRule =
   /** wall-clock deadline: arrivals after this time are late */
   | { kind: 'until'; closeAtMs: number };
 
-export type CloseCause = 'complete' | 'first-k' | 'deadline' | 'timeout' | 'diverged';
+export type CloseCause = 'complete' | 'first-k' | 'deadline' | 'timeout';
 
 export class ExchangeWait {
   readonly round: number;
@@ -85,10 +85,6 @@ export class ExchangeWait {
     if (this.closed || !this.expected.has(clientId)) return;
     this.lostClientIds.add(clientId);
     this.check();
-  }
-
-  diverge(): void {
-    this.close('diverged');
   }
 
   /** Ends the wait now (the run is stopping). */

@@ -200,11 +200,6 @@ export class RoundDriver implements RoundTransport<'async'> {
     for (const id of clientIds) this.server.resetReplicas(id);
   }
 
-  /** A worker reported a non-finite update: the run diverged, as the engine's walk would find. */
-  divergenceReported(): void {
-    this.current?.diverge();
-  }
-
   /** Ends the run after the exchange in progress, which stops waiting now. */
   requestStop(): void {
     this.stopRequested = true;
@@ -366,6 +361,11 @@ export class RoundDriver implements RoundTransport<'async'> {
         continue;
       }
       const m = arrival.message;
+      if (m.updateNotFinite === true) {
+        // Data for the walk to judge, as the engine's own client's non-finite update is.
+        returns.set(a.clientId, { kind: 'not-finite', layers });
+        continue;
+      }
       // Wall clock: the seconds are the worker's, plus the idle time until the wait closed.
       const measured = this.wall
         ? {
@@ -384,7 +384,6 @@ export class RoundDriver implements RoundTransport<'async'> {
     }
     return {
       returns,
-      diverged: wait.cause === 'diverged',
       recorded: (records) => this.keepForLateUps(wait, records),
     };
   }

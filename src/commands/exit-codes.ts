@@ -57,7 +57,7 @@ export function exitCodeOf(error: unknown): number {
 
 export const exitCodesHelp = `
 Exit codes:
-  0    success
+  0    success: the results are written, whatever the run found (diverged included)
   1    the run failed (runtime error)
   2    bad input: scenario file, --tweak, --ladder or other argument
   130  interrupted (Ctrl-C)`;

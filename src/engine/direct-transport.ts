@@ -40,11 +40,12 @@ export class DirectTransport implements ExchangeTransport {
           stepsTaken: result.stepsTaken,
         });
       } catch (error) {
-        // A client whose update is no longer finite cannot encode it: the run diverged.
-        if (isNonFiniteError(error)) return { returns, diverged: true };
-        throw error;
+        // A client whose update is no longer finite cannot encode it; the walk decides what
+        // that means. The other clients still answer, as a worker's would.
+        if (!isNonFiniteError(error)) throw error;
+        returns.set(a.clientId, { kind: 'not-finite' });
       }
     }
-    return { returns, diverged: false };
+    return { returns };
   }
 }

@@ -53,7 +53,16 @@ export function predictRun(
   if (blocker) return none(blocker);
   const objectives: readonly Objective[] = theory.instance.objectives;
   const roundMap = buildRoundMap(plan, objectives, initialModel);
-  const rate = predictRate(roundMap.map, roundMap.start);
+  let rate;
+  try {
+    rate = predictRate(roundMap.map, roundMap.start);
+  } catch (error) {
+    // A step size past any stability bound overflows the round map itself; the run that
+    // follows stops as diverged, and its results still need their (absent) prediction.
+    if (error instanceof TheoryError && error.code === 'E_THEORY_NOT_FINITE')
+      return none(`the round map is not finite (the method diverges): ${error.message}`);
+    throw error;
+  }
   if (!rate.converged)
     return none(
       `the spectral radius did not settle within ${rate.mapApplications} round-map applications`,

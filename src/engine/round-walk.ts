@@ -3,7 +3,9 @@
 // the round and step policies, one down per client encoded against its own replicas, the ups
 // (from the transport), timing and drops (settle-exchange.ts), aggregation in ascending client
 // id; then the round's record and evaluation. A non-finite value anywhere (the model, a
-// client's update, the aggregate) stops the run with reason "diverged".
+// client's update, the aggregate), or a finite one past the run's explosion bound (a model or an
+// upload, every round; f - f* where evaluated; explosion-bound.ts), stops the run with reason
+// "diverged" at the end of the round where it appeared.
 //
 // The walk is a generator over requests (walk-transport.ts): the in-process engine and the
 // round map answer them with direct calls, the coordinator with its WebSocket sessions. Given
@@ -15,6 +17,12 @@ import { isNonFiniteError } from '../base/coded-error.js';
 import { speedModelFor, type SpeedModel } from '../timing/round-speed.js';
 import { VirtualClock } from '../timing/virtual-clock.js';
 import { allFinite } from '../vec/kernels.js';
+import {
+  explosionBound,
+  normWithin,
+  suboptimalityWithin,
+  type ExplosionBound,
+} from './explosion-bound.js';
 import type { ClientRoundRecord, RoundRecord } from './round-record.js';
 import {
   assignmentsFor,
@@ -30,6 +38,7 @@ import {
   ask,
   type ByteLayer,
   type ExchangeDown,
+  type ExchangeReply,
   type ExchangeRequest,
   type WalkRequest,
 } from './walk-transport.js';
@@ -87,11 +96,28 @@ function encodeDowns(
   }
 }
 
-/** Folds the uploads in; false when that meets or makes a non-finite value. */
-function aggregateFinite(
+/**
+ * False when a client's update came back not finite, or (given a bound) an up that came back
+ * holds a vector past it, counted or not: either way that client diverged. A transport decides
+ * nothing here (a worker's word is data, judged as the engine's own clients are), which keeps
+ * every runtime's walk the same.
+ */
+function updatesWithin(reply: ExchangeReply, bound: ExplosionBound | null): boolean {
+  for (const returned of reply.returns.values()) {
+    if (returned.kind === 'not-finite') return false;
+    if (returned.kind !== 'up' || bound === null) continue;
+    for (const vector of Object.values(returned.encodedUp))
+      if (!normWithin(vector.values, bound)) return false;
+  }
+  return true;
+}
+
+/** Folds the uploads in; false when that meets or makes a non-finite value, or a model past the bound. */
+function aggregateWithin(
   server: ServerRuntime,
   exchange: string,
   uploads: readonly EncodedUpload[],
+  bound: ExplosionBound | null,
 ): boolean {
   try {
     server.aggregate(exchange, uploads);
@@ -99,13 +125,18 @@ function aggregateFinite(
     if (isNonFiniteError(error)) return false;
     throw error;
   }
-  return allFinite(server.model());
+  const model = server.model();
+  return bound === null ? allFinite(model) : normWithin(model, bound);
 }
 
-/** Walks one round's exchanges. */
+/**
+ * Walks one round's exchanges. Without a bound (the round map, the field-shape probe) only a
+ * non-finite value counts as diverged.
+ */
 export function* walkRound(
   setup: WalkSetup,
   round: number,
+  bound: ExplosionBound | null = null,
 ): Generator<ExchangeRequest, WalkedRound, unknown> {
   const { plan, server, speed } = setup;
   const exchanges = server.method.exchanges;
@@ -148,7 +179,11 @@ export function* walkRound(
     for (const id of settled.missing) sittingOut.add(id);
     out.records.push(...settled.records);
     out.roundSeconds += settled.roundSeconds;
-    if (reply.diverged || !aggregateFinite(server, exchange, settled.uploads)) {
+    // A diverged update is never folded in: the model stays the last one within bounds.
+    if (
+      !updatesWithin(reply, bound) ||
+      !aggregateWithin(server, exchange, settled.uploads, bound)
+    ) {
       out.diverged = true;
       break;
     }
@@ -194,7 +229,9 @@ export function* walkRun(setup: RunWalkSetup): Generator<WalkRequest, WalkedRun,
   const { server, byteLayers } = setup;
   const { rounds: roundsMax, evalEvery, target } = setup.plan.scenario.run;
   const clock = new VirtualClock();
-  const initial = yield* ask({ kind: 'evaluate', model: server.model() });
+  const initialModel = server.model();
+  const initial = yield* ask({ kind: 'evaluate', model: initialModel });
+  const bound = explosionBound(initialModel, initial);
   const first: RoundRecord = {
     round: 0,
     suboptimality: initial.suboptimality,
@@ -215,14 +252,17 @@ export function* walkRun(setup: RunWalkSetup): Generator<WalkRequest, WalkedRun,
       stopReason = refused;
       break;
     }
-    const walked = yield* walkRound(setup, round);
+    const walked = yield* walkRound(setup, round, bound);
     const virtualSeconds = clock.advance(walked.roundSeconds);
-    const ending = walked.diverged ? 'diverged' : yield* ask({ kind: 'close-round', round });
+    let ending: StopReason | null = walked.diverged
+      ? 'diverged'
+      : yield* ask({ kind: 'close-round', round });
     const last = round === roundsMax || ending !== null;
     const evaluated =
       round % evalEvery === 0 || last
         ? yield* ask({ kind: 'evaluate', model: server.model() })
         : null;
+    if (evaluated && !suboptimalityWithin(evaluated.suboptimality, bound)) ending = 'diverged';
     const record: RoundRecord = {
       round,
       suboptimality: evaluated ? evaluated.suboptimality : null,

@@ -39,7 +39,11 @@ export interface MeasuredSeconds {
 /** Bytes of one client's down and up at the transport's own layers. */
 export type LayerBytes = Partial<Record<ByteLayer, ByteCounts>>;
 
-/** What came back from one client: its up, or nothing (lost, late, silent). */
+/**
+ * What came back from one client: its up; word that its update was not finite (its work met a
+ * NaN or an infinity, so there is nothing to encode: the walk stops the run as diverged); or
+ * nothing (lost, late, silent).
+ */
 export type ClientReturn =
   | {
       kind: 'up';
@@ -48,13 +52,12 @@ export type ClientReturn =
       layers?: LayerBytes;
       measured?: MeasuredSeconds;
     }
+  | { kind: 'not-finite'; layers?: LayerBytes }
   | { kind: 'missing'; layers?: LayerBytes };
 
 export interface ExchangeReply {
   /** by client id; a down with no entry counts as missing */
   returns: ReadonlyMap<number, ClientReturn>;
-  /** a client met a non-finite value in its work: the run diverged */
-  diverged: boolean;
   /** called with the exchange's records once settled (a late up may still fill in its bytes) */
   recorded?: (records: readonly ClientRoundRecord[]) => void;
 }

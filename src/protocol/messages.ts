@@ -10,7 +10,8 @@
 //                                 or error E_AUTH
 //   then per round, per exchange, per participating client:
 //   server -> worker  down        that client's vectors, tau_i, eta_i, deadline
-//   worker -> server  up          that client's vectors and timings
+//   worker -> server  up          that client's vectors and timings, or word that its update
+//                                 was not finite (it diverged) in place of the vectors
 //   either way        heartbeat, error
 //   server -> worker  done
 //
@@ -30,7 +31,7 @@ import { wirePlanSchema } from './wire-plan.js';
 import { bytesShape, wireVectorShape } from './wire-vector.js';
 
 /** Bumped on any change to a message's shape or meaning; peers must match exactly. */
-export const PROTOCOL_VERSION = 2;
+export const PROTOCOL_VERSION = 3;
 
 /** Bytes of the server's challenge nonce (256 bits: never repeats in practice). */
 export const NONCE_BYTES = 32;
@@ -137,7 +138,14 @@ export const messageShapes = {
     round: count,
     exchange: z.string(),
     clientId: count,
+    /** empty when updateNotFinite is set */
     fields: fieldsShape,
+    /**
+     * The client's update was not finite, so it has no vectors to send (vectors on the wire are
+     * finite, always). The coordinator's round walk judges this as the in-process engine judges
+     * its own client's non-finite update: the run diverged. Absent otherwise.
+     */
+    updateNotFinite: z.literal(true).optional(),
     /** local steps actually taken (0 for an exchange without local work) */
     localSteps: count,
     /** time spent computing, as the speed model accounts it */

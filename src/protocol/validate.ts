@@ -181,6 +181,14 @@ function checkRoundTraffic(message: DownMessage | UpMessage, context: Validation
       `${type}.clientId: client ${clientId} is not hosted by this worker`,
     );
   }
+  if (message.type === 'up' && message.updateNotFinite === true) {
+    if (Object.keys(message.fields).length > 0)
+      throw new ProtocolError(
+        'E_TYPE',
+        'up.fields: must be empty when up.updateNotFinite is set (a non-finite update has no vectors)',
+      );
+    return;
+  }
   const expected = context.fieldDims === null ? null : context.fieldDims[exchange];
   checkFields(message.fields, expected, type, context.limits);
 }

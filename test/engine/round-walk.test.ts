@@ -3,14 +3,16 @@
 // plan (8 clients, FedLin's two exchanges: gradient, then local work):
 // - a client missing from one exchange is dropped there and sits out the rest of the round;
 // - fastest-k counts every update that came back when fewer than k did;
-// - a reported divergence stops the run after recording and evaluating that round;
+// - a client's non-finite update stops the run after recording and evaluating that round;
+// - so does a finite upload past the explosion bound (one 1e300 upload), unaggregated, and a
+//   model or f - f* past it;
 // - a transport's stop before or after a round ends the run with its reason.
 
 import { readFileSync } from 'node:fs';
 import { describe, expect, it } from 'vitest';
 import { scenarioFromText } from '../../src/scenario/load-scenario.js';
 import { planFor } from '../../src/engine/in-process-engine.js';
-import { ClientRuntime } from '../../src/engine/client-runtime.js';
+import { ClientRuntime, type EncodedFields } from '../../src/engine/client-runtime.js';
 import { DirectTransport } from '../../src/engine/direct-transport.js';
 import { evaluateModel, type Evaluation } from '../../src/engine/evaluate.js';
 import { ServerRuntime } from '../../src/engine/server-runtime.js';
@@ -19,6 +21,7 @@ import { RecordList } from '../support/record-list.js';
 import type { StopReason } from '../../src/engine/run-summary.js';
 import {
   driveSync,
+  type ClientReturn,
   type ExchangeOrder,
   type ExchangeReply,
   type RoundTransport,
@@ -29,7 +32,10 @@ const text = readFileSync(new URL('../../scenarios/quickstart.yaml', import.meta
 interface Script {
   /** per (round, exchange), clients whose up does not come back */
   missing?: (round: number, exchange: string) => readonly number[];
-  diverges?: (round: number, exchange: string) => boolean;
+  /** per (round, exchange), clients whose update comes back not finite */
+  notFinite?: (round: number, exchange: string) => readonly number[];
+  /** replaces what came back from a client */
+  upload?: (round: number, exchange: string, returned: ClientReturn) => ClientReturn;
   openRound?: (round: number) => StopReason | null;
   closeRound?: (round: number) => StopReason | null;
 }
@@ -50,9 +56,13 @@ class ScriptedTransport extends DirectTransport implements RoundTransport {
     this.orders.push(order);
     const reply = super.exchange(order);
     const returns = new Map(reply.returns);
+    for (const [id, returned] of returns)
+      returns.set(id, this.script.upload?.(order.round, order.exchange, returned) ?? returned);
     for (const id of this.script.missing?.(order.round, order.exchange) ?? [])
       returns.set(id, { kind: 'missing' });
-    return { returns, diverged: this.script.diverges?.(order.round, order.exchange) ?? false };
+    for (const id of this.script.notFinite?.(order.round, order.exchange) ?? [])
+      returns.set(id, { kind: 'not-finite' });
+    return { returns };
   }
 
   openRound(round: number): StopReason | null {
@@ -146,7 +156,7 @@ describe('walkRun', () => {
 
   it('stops as diverged after recording and evaluating the round where a client diverged', () => {
     const { walked, orders } = walk(['run.rounds:5', 'run.evalEvery:10'], {
-      diverges: (round, exchange) => round === 2 && exchange === 'gradient',
+      notFinite: (round, exchange) => (round === 2 && exchange === 'gradient' ? [3] : []),
     });
     expect(walked.stopReason).toBe('diverged');
     expect(walked.rounds.map((r) => r.round)).toEqual([0, 1, 2]);
@@ -158,6 +168,33 @@ describe('walkRun', () => {
       '1 local',
       '2 gradient',
     ]);
+    // every client of the exchange is recorded; the one whose update was not finite did not count
+    const exchange = walked.clients.filter((c) => c.round === 2);
+    expect(exchange.map((c) => c.clientId)).toEqual([0, 1, 2, 3, 4, 5, 6, 7]);
+    expect(exchange.filter((c) => c.dropped).map((c) => c.clientId)).toEqual([3]);
+  });
+
+  it('stops as diverged in the round of one finite 1e300 upload, which is never aggregated', () => {
+    // 1e300: finite, below float64's largest (about 1.8e308), its square overflows (IEEE 754).
+    const tweaks = ['method.name:fedavg', 'run.evalEvery:10'];
+    const huge = (returned: ClientReturn): ClientReturn => {
+      if (returned.kind !== 'up') return returned;
+      const encodedUp: EncodedFields = {};
+      for (const [name, cv] of Object.entries(returned.encodedUp))
+        encodedUp[name] = { ...cv, values: new Float64Array(cv.values.length).fill(1e300) };
+      return { ...returned, encodedUp };
+    };
+    const { walked } = walk(['run.rounds:5', ...tweaks], {
+      upload: (round, _exchange, returned) => (round === 2 ? huge(returned) : returned),
+    });
+    expect(walked.stopReason).toBe('diverged');
+    expect(walked.rounds.map((r) => r.round)).toEqual([0, 1, 2]);
+    // the model stays round 1's, bit for bit, and its f - f* (evaluated: the last round) finite
+    const clean = walk(['run.rounds:1', ...tweaks], {});
+    expect(Buffer.from(walked.finalModel.buffer)).toEqual(
+      Buffer.from(clean.walked.finalModel.buffer),
+    );
+    expect(walked.rounds[2].suboptimality).toBe(clean.walked.rounds[1].suboptimality);
   });
 
   it('ends where its transport stops it, before or after a round', () => {

@@ -4,7 +4,8 @@
 // not written by hand; a change to the types must leave every byte as it was. A change that
 // alters these bytes changes the protocol and bumps PROTOCOL_VERSION. The welcome carries the
 // resolved sample scenario, so a new scenario default changes its bytes too (regenerate it then,
-// with the protocol version in mind).
+// with the protocol version in mind). Version 3 (the up's updateNotFinite marker) changed only the
+// version byte of the challenge and the hello.
 
 import { describe, expect, it } from 'vitest';
 import { encodeMessage } from '../../src/protocol/codec.js';
@@ -13,11 +14,11 @@ import { sampleMessages } from './sample-messages.js';
 
 const EXPECTED_HEX: Record<MessageType, string> = {
   challenge: [
-    '83a474797065a96368616c6c656e6765af70726f746f636f6c56657273696f6e02a56e6f6e6365c4',
+    '83a474797065a96368616c6c656e6765af70726f746f636f6c56657273696f6e03a56e6f6e6365c4',
     '200b30557a9fc4e90e33587da2c7ec11365b80a5caef14395e83a8cdf2173c6186',
   ].join(''),
   hello: [
-    '85a474797065a568656c6c6faf70726f746f636f6c56657273696f6e02aa776f726b65724e616d65',
+    '85a474797065a568656c6c6faf70726f746f636f6c56657273696f6e03aa776f726b65724e616d65',
     'a86c6170746f702d31a8636170616369747902a570726f6f66c420721bda15cb1a1a9167c29f6df8',
     '4ee00fddae691f7e7b86353d5124526a396600',
   ].join(''),

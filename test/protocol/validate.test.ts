@@ -64,6 +64,11 @@ describe('validateMessage accepts', () => {
     ).toBe('down');
     expect(receive(up({}), serverContext()).type).toBe('up');
   });
+
+  it("an up saying its client's update was not finite, with no fields", () => {
+    const message = receive(up({ fields: {}, updateNotFinite: true }), serverContext());
+    expect(message).toMatchObject({ type: 'up', fields: {}, updateNotFinite: true });
+  });
 });
 
 describe('E_TYPE', () => {
@@ -111,6 +116,19 @@ describe('E_TYPE', () => {
       'E_TYPE',
       () => receive(up({ fields: { delta: vector } }), serverContext()),
       'up.fields.delta.values',
+    );
+  });
+
+  it('a not-finite mark that is not true, or that comes with fields', () => {
+    expectCode(
+      'E_TYPE',
+      () => receive(up({ fields: {}, updateNotFinite: false }), serverContext()),
+      'up.updateNotFinite',
+    );
+    expectCode(
+      'E_TYPE',
+      () => receive(up({ updateNotFinite: true }), serverContext()),
+      'up.fields: must be empty',
     );
   });
 
