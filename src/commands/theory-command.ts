@@ -37,12 +37,11 @@ export interface TheoryReport {
 }
 
 /**
- * Client work worth a thread pool: below this many sample-feature products in all, starting the
- * threads (each loads the code and rebuilds its clients' shards) costs more than it saves.
- * Measured once on the 2-core machine: 1,000 least-squares clients of 20 samples at d = 1,000
- * (2e7 products, solved in the 20-dimensional dual) took 1.3 s in the pool against 0.9 s here;
- * 8 logistic clients of 4,000 samples at d = 500 (1.6e7 products, each a Newton-CG solve) took
- * 4.6 s in the pool against 7.9 s here.
+ * Client work worth a thread pool, in sample-feature values over all clients. A cost estimate,
+ * not a measurement (the shared machine was too loaded to time the pool against one thread):
+ * each pool thread loads the code and rebuilds its clients' shards, about as long as one pass over
+ * the data, so the pool pays only when each client needs many passes (a Newton-CG or CG solve on
+ * its full shard) over data large enough that a second of thread start-up is small beside it.
  */
 const POOLED_CLIENT_WORK_MIN = 1e7;
 
