@@ -35,6 +35,8 @@ import {
 } from './commands/coordinator-command.js';
 import { integerInRange, secondsInRange } from './commands/number-options.js';
 import { writeRunReport } from './commands/report-command.js';
+import { useTheoryStore } from './theory/plan-theory.js';
+import { diskTheoryStore, theoryCacheDir } from '../runtime/theory-cache.js';
 import {
   defaultCompareDir,
   planComparison,
@@ -142,8 +144,8 @@ function buildProgram(io: Io): Command {
     .addOption(tweakOption)
     .option('--json', 'print JSON instead of a table')
     .addHelpText('after', exitCodesHelp)
-    .action((file: string, opts: { tweak: string[]; json?: boolean }) => {
-      const report = theoryReport(loadScenarioFile(file, opts.tweak));
+    .action(async (file: string, opts: { tweak: string[]; json?: boolean }) => {
+      const report = await theoryReport(loadScenarioFile(file, opts.tweak));
       io.out(opts.json ? `${JSON.stringify(report, null, 2)}\n` : formatTheoryReport(report));
     });
 
@@ -404,6 +406,9 @@ export async function main(
   io: Io = { out: (t) => process.stdout.write(t), err: (t) => process.stderr.write(t) },
 ): Promise<number> {
   const program = buildProgram(io);
+  useTheoryStore(
+    diskTheoryStore(theoryCacheDir(), (message) => io.err(`roundwire: warning: ${message}\n`)),
+  );
   try {
     await program.parseAsync(argv);
     return exitCodes.ok;

@@ -1,8 +1,15 @@
 // `roundwire theory <scenario>`: the oracle's constants for a scenario, as a table or JSON.
 
 import type { Scenario } from '../scenario/schema.js';
-import { theoryOf } from '../theory/plan-theory.js';
+import {
+  knownTheoryDetails,
+  theoryDetailsOf,
+  theoryOf,
+  type PlanTheory,
+} from '../theory/plan-theory.js';
+import type { ClientConstants } from '../theory/constants.js';
 import { formatTable } from '../report/text-table.js';
+import { clientConstantsInParallel } from '../../server/oracle-pool.js';
 
 export interface TheoryReport {
   scenario: string;
@@ -29,9 +36,37 @@ export interface TheoryReport {
   }[];
 }
 
-export function theoryReport(scenario: Scenario): TheoryReport {
+/**
+ * Client work worth a thread pool, in sample-feature values over all clients. A cost estimate,
+ * not a measurement (the shared machine was too loaded to time the pool against one thread):
+ * each pool thread loads the code and rebuilds its clients' shards, about as long as one pass over
+ * the data, so the pool pays only when each client needs many passes (a Newton-CG or CG solve on
+ * its full shard) over data large enough that a second of thread start-up is small beside it.
+ */
+const POOLED_CLIENT_WORK_MIN = 1e7;
+
+/**
+ * The clients' constants, from a thread pool where their own minimizers need a solve on the full
+ * shard (logistic and softmax, or least squares with at least as many samples as features) and
+ * the data is large enough; here otherwise.
+ */
+async function clientConstantsOf(
+  scenario: Scenario,
+  theory: PlanTheory,
+): Promise<ClientConstants[] | null> {
+  const { instance } = theory;
+  const dualOnly =
+    scenario.problem.kind === 'least-squares' &&
+    instance.sampleCounts.every((n) => n < instance.dim);
+  const work = instance.sampleCounts.reduce((sum, n) => sum + n * instance.dim, 0);
+  if (dualOnly || work < POOLED_CLIENT_WORK_MIN || instance.sampleCounts.length < 2) return null;
+  return clientConstantsInParallel(scenario, theory.optimum.x, instance.sampleCounts);
+}
+
+export async function theoryReport(scenario: Scenario): Promise<TheoryReport> {
   const t = theoryOf(scenario);
   const c = t.constants;
+  const details = knownTheoryDetails(t) ?? theoryDetailsOf(t, await clientConstantsOf(scenario, t));
   return {
     scenario: scenario.name,
     problemHash: t.problemHash,
@@ -42,7 +77,7 @@ export function theoryReport(scenario: Scenario): TheoryReport {
     smoothness: c.smoothness,
     strongConvexity: c.strongConvexity,
     conditionNumber: c.conditionNumber,
-    hessianAtOptimum: c.hessianAtOptimum,
+    hessianAtOptimum: details.hessianAtOptimum,
     heterogeneity: c.heterogeneity,
     optimum: {
       loss: t.optimum.loss,
@@ -50,7 +85,7 @@ export function theoryReport(scenario: Scenario): TheoryReport {
       iterations: t.optimum.iterations,
       x: Array.from(t.optimum.x),
     },
-    clients: c.clients.map((k, i) => ({
+    clients: details.clients.map((k, i) => ({
       id: i,
       samples: t.instance.sampleCounts[i],
       weight: t.instance.weights[i],

@@ -134,7 +134,10 @@ interface RitzExtremes {
   largest: number;
   smallestError: number;
   largestError: number;
+  /** both residuals are small enough for the quadratic estimate (see RESIDUAL_TRUST) */
   trusted: boolean;
+  /** the largest's residual alone is */
+  largestTrusted: boolean;
 }
 
 function ritzExtremes(alphas: number[], betas: number[], residualBeta: number): RitzExtremes {
@@ -165,15 +168,20 @@ function ritzExtremes(alphas: number[], betas: number[], residualBeta: number): 
     smallestError: Math.min(residualLo, (residualLo * residualLo) / gapLo),
     largestError: Math.min(residualHi, (residualHi * residualHi) / gapHi),
     trusted: Math.max(residualLo, residualHi) <= RESIDUAL_TRUST * normEstimate,
+    largestTrusted: residualHi <= RESIDUAL_TRUST * normEstimate,
   };
 }
 
-function isConverged(ritz: RitzExtremes, relativeTolerance: number): boolean {
+/** Which extremes must meet the tolerance before Lanczos stops. */
+type Wanted = 'both' | 'largest';
+
+function isConverged(ritz: RitzExtremes, relativeTolerance: number, wanted: Wanted): boolean {
   const normEstimate = Math.max(Math.abs(ritz.smallest), Math.abs(ritz.largest));
   // Below a few ulps of the norm no iteration can do better: that is rounding, not truncation.
   const floor = 4 * EPSILON * normEstimate;
   const accurate = (value: number, error: number) =>
     error <= Math.max(relativeTolerance * Math.abs(value), floor);
+  if (wanted === 'largest') return ritz.largestTrusted && accurate(ritz.largest, ritz.largestError);
   return (
     ritz.trusted &&
     accurate(ritz.smallest, ritz.smallestError) &&
@@ -194,6 +202,28 @@ export function extremeEigenvalues(
   apply: SymmetricOperator,
   dim: number,
   options: LanczosOptions = {},
+): ExtremeEigenvalues {
+  return lanczosExtremes(apply, dim, options, 'both');
+}
+
+/**
+ * The largest eigenvalue alone, to the same tolerance: the top of a spectrum usually converges in
+ * far fewer steps than its bottom, and a curvature bound needs nothing else.
+ */
+export function largestEigenvalue(
+  apply: SymmetricOperator,
+  dim: number,
+  options: LanczosOptions = {},
+): { largest: number; iterations: number } {
+  const { largest, iterations } = lanczosExtremes(apply, dim, options, 'largest');
+  return { largest, iterations };
+}
+
+function lanczosExtremes(
+  apply: SymmetricOperator,
+  dim: number,
+  options: LanczosOptions,
+  wanted: Wanted,
 ): ExtremeEigenvalues {
   if (!Number.isInteger(dim) || dim < 1) {
     throw new LinalgError(
@@ -236,7 +266,7 @@ export function extremeEigenvalues(
     const normEstimate = Math.max(Math.abs(ritz.smallest), Math.abs(ritz.largest));
     // An invariant subspace (beta at rounding level) or a full basis makes the Ritz values exact.
     const exhausted = step + 1 === dim || beta <= dim * EPSILON * normEstimate;
-    if (exhausted || isConverged(ritz, relativeTolerance)) {
+    if (exhausted || isConverged(ritz, relativeTolerance, wanted)) {
       return { smallest: ritz.smallest, largest: ritz.largest, iterations: step + 1 };
     }
     scale(1 / beta, w);

@@ -8,6 +8,7 @@ import type { Shard } from './shard.js';
 import { axpy, normSquared, scale } from '../vec/kernels.js';
 import { gramExtremeEigenvalues, type GramExtremes } from './gram-spectrum.js';
 import type { Objective } from './objective.js';
+import type { SymmetricOperator } from '../linalg/spectrum.js';
 import { assertLength } from './problem-error.js';
 import { checkBatch, checkRegularization, checkShard } from './shard-checks.js';
 
@@ -16,7 +17,8 @@ export class LeastSquaresObjective implements Objective {
   readonly dim: number;
   readonly sampleCount: number;
   readonly regularization: number;
-  private readonly shard: Shard;
+  /** the data, for solves that use its shape (the oracle's dual solve when n < p) */
+  readonly shard: Shard;
   private gram: GramExtremes | null = null;
 
   constructor(shard: Shard, regularization: number) {
@@ -93,6 +95,12 @@ export class LeastSquaresObjective implements Objective {
     }
     scale(1 / this.sampleCount, out);
     axpy(this.regularization, v, out);
+  }
+
+  /** The Hessian is constant: the operator is hessianVector itself. */
+  hessianOperator(): SymmetricOperator {
+    const origin = new Float64Array(this.dim);
+    return (v, out) => this.hessianVector(origin, v, out);
   }
 
   /** Exact: lambda_max(A^T A / n) + lambda. */

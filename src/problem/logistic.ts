@@ -7,8 +7,9 @@
 
 import type { Shard } from './shard.js';
 import { axpy, normSquared, scale } from '../vec/kernels.js';
-import { gramExtremeEigenvalues } from './gram-spectrum.js';
+import { gramLargestEigenvalue } from './gram-spectrum.js';
 import type { Objective } from './objective.js';
+import type { SymmetricOperator } from '../linalg/spectrum.js';
 import { ProblemError, assertLength } from './problem-error.js';
 import { checkBatch, checkRegularization, checkShard } from './shard-checks.js';
 
@@ -121,9 +122,39 @@ export class LogisticObjective implements Objective {
     axpy(this.regularization, v, out);
   }
 
+  /** Each sample's curvature sigma(z)(1 - sigma(z)) at x, computed once. */
+  hessianOperator(x: Float64Array): SymmetricOperator {
+    assertLength('x', x, this.dim);
+    const { features } = this.shard;
+    const p = this.dim;
+    const n = this.sampleCount;
+    const curvature = new Float64Array(n);
+    for (let s = 0; s < n; s++) {
+      const base = s * p;
+      let z = 0;
+      for (let j = 0; j < p; j++) z += features[base + j] * x[j];
+      const sig = sigmoid(z);
+      curvature[s] = sig * (1 - sig);
+    }
+    return (v, out) => {
+      assertLength('v', v, p);
+      assertLength('out', out, p);
+      out.fill(0);
+      for (let s = 0; s < n; s++) {
+        const base = s * p;
+        let projection = 0;
+        for (let j = 0; j < p; j++) projection += features[base + j] * v[j];
+        const weight = curvature[s] * projection;
+        for (let j = 0; j < p; j++) out[j] += weight * features[base + j];
+      }
+      scale(1 / n, out);
+      axpy(this.regularization, v, out);
+    };
+  }
+
   /** lambda_max(A^T A / n)/4 + lambda, attained by the Hessian at x = 0. */
   smoothnessBound(): number {
-    this.gramLargest ??= gramExtremeEigenvalues(this.shard).largest;
+    this.gramLargest ??= gramLargestEigenvalue(this.shard);
     return this.gramLargest / 4 + this.regularization;
   }
 

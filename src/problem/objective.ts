@@ -2,6 +2,8 @@
 //   f_i(x) = (1/n_i) sum_{s in shard i} loss(x; a_s, b_s) + (lambda/2) ||x||^2,
 // so that with weights p_i = n_i/n the global f = sum_i p_i f_i is the pooled empirical risk.
 
+import type { SymmetricOperator } from '../linalg/spectrum.js';
+
 export type ProblemKind = 'least-squares' | 'logistic' | 'softmax';
 
 export interface Objective {
@@ -18,6 +20,12 @@ export interface Objective {
   minibatchGradient(x: Float64Array, sampleIndices: Uint32Array, out: Float64Array): void;
   /** out <- H(x) v */
   hessianVector(x: Float64Array, v: Float64Array, out: Float64Array): void;
+  /**
+   * v -> H(x) v with what depends on x alone (each sample's curvature weight) computed once: a
+   * Newton-CG step applies one Hessian many times. Products equal hessianVector's bit for bit.
+   * Optional: without it, callers use hessianVector.
+   */
+  hessianOperator?(x: Float64Array): SymmetricOperator;
   /** An upper bound on the largest Hessian eigenvalue over all x (exact for least squares). */
   smoothnessBound(): number;
   /** A lower bound on the smallest Hessian eigenvalue over all x (exact for least squares). */
@@ -29,4 +37,11 @@ export interface ObjectiveSpec {
   regularization: number;
   /** Softmax only: number of classes; labels are integers in [0, classes). */
   classes?: number;
+}
+
+/** v -> H(x) v through the objective's own operator where it has one. */
+export function hessianOperatorOf(objective: Objective, x: Float64Array): SymmetricOperator {
+  if (objective.hessianOperator) return objective.hessianOperator(x);
+  const at = Float64Array.from(x);
+  return (v, out) => objective.hessianVector(at, v, out);
 }

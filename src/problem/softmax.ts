@@ -9,8 +9,9 @@
 
 import type { Shard } from './shard.js';
 import { axpy, normSquared, scale } from '../vec/kernels.js';
-import { gramExtremeEigenvalues } from './gram-spectrum.js';
+import { gramLargestEigenvalue } from './gram-spectrum.js';
 import type { Objective } from './objective.js';
+import type { SymmetricOperator } from '../linalg/spectrum.js';
 import { ProblemError, assertLength } from './problem-error.js';
 import { checkBatch, checkRegularization, checkShard } from './shard-checks.js';
 
@@ -171,9 +172,48 @@ export class SoftmaxObjective implements Objective {
     axpy(this.regularization, v, out);
   }
 
+  /** Each sample's class probabilities at W, computed once (n x C values). */
+  hessianOperator(w: Float64Array): SymmetricOperator {
+    assertLength('W', w, this.dim);
+    const { features } = this.shard;
+    const p = this.featureCount;
+    const classes = this.classCount;
+    const n = this.sampleCount;
+    const probabilities = new Float64Array(n * classes);
+    for (let s = 0; s < n; s++) {
+      this.toProbabilities(this.computeLogits(w, s));
+      probabilities.set(this.logits, s * classes);
+    }
+    const u = new Float64Array(classes);
+    return (v, out) => {
+      assertLength('v', v, this.dim);
+      assertLength('out', out, this.dim);
+      out.fill(0);
+      for (let s = 0; s < n; s++) {
+        const base = s * p;
+        const at = s * classes;
+        let mean = 0;
+        for (let c = 0; c < classes; c++) {
+          const row = c * p;
+          let projection = 0;
+          for (let j = 0; j < p; j++) projection += v[row + j] * features[base + j];
+          u[c] = projection;
+          mean += probabilities[at + c] * projection;
+        }
+        for (let c = 0; c < classes; c++) {
+          const weight = probabilities[at + c] * (u[c] - mean);
+          const row = c * p;
+          for (let j = 0; j < p; j++) out[row + j] += weight * features[base + j];
+        }
+      }
+      scale(1 / n, out);
+      axpy(this.regularization, v, out);
+    };
+  }
+
   /** Böhning's bound: lambda_max(A^T A / n)/2 + lambda. */
   smoothnessBound(): number {
-    this.gramLargest ??= gramExtremeEigenvalues(this.shard).largest;
+    this.gramLargest ??= gramLargestEigenvalue(this.shard);
     return this.gramLargest / 2 + this.regularization;
   }
 

@@ -4,9 +4,13 @@
 // bounds are weighted sums of the clients' bounds, except for least squares, where the interface
 // promises exact values: there the Hessian is constant and its extremes are computed directly.
 
-import { semidefiniteExtremeEigenvalues } from '../linalg/spectrum.js';
+import {
+  largestEigenvalue,
+  semidefiniteExtremeEigenvalues,
+  type SymmetricOperator,
+} from '../linalg/spectrum.js';
 import { axpy, zero } from '../vec/kernels.js';
-import type { Objective, ProblemKind } from './objective.js';
+import { hessianOperatorOf, type Objective, type ProblemKind } from './objective.js';
 import { ProblemError, assertLength } from './problem-error.js';
 
 export class WeightedSumObjective implements Objective {
@@ -155,6 +159,24 @@ export class WeightedSumObjective implements Objective {
     }
   }
 
+  /** The weighted sum of the components' operators at x (each computes its curvature once). */
+  hessianOperator(x: Float64Array): SymmetricOperator {
+    const parts: { weight: number; apply: SymmetricOperator }[] = [];
+    for (let i = 0; i < this.components.length; i++) {
+      if (this.weights[i] !== 0)
+        parts.push({ weight: this.weights[i], apply: hessianOperatorOf(this.components[i], x) });
+    }
+    const scratch = new Float64Array(this.dim);
+    return (v, out) => {
+      assertLength('out', out, this.dim);
+      zero(out);
+      for (const part of parts) {
+        part.apply(v, scratch);
+        axpy(part.weight, scratch, out);
+      }
+    };
+  }
+
   smoothnessBound(): number {
     if (this.kind === 'least-squares') return this.leastSquaresExtremes().largest;
     let sum = 0;
@@ -173,16 +195,22 @@ export class WeightedSumObjective implements Objective {
 
   /**
    * Extremes of the constant Hessian sum_i p_i (A_i^T A_i / n_i) + lambda I: those of the data
-   * part (semidefinite, so a rank-deficient one reports exactly 0), shifted by lambda.
+   * part (semidefinite, so a rank-deficient one reports exactly 0), shifted by lambda. The data
+   * part has rank at most the total sample count; below the dimension its smallest eigenvalue is
+   * exactly 0 and Lanczos only has to find the largest.
    */
   private leastSquaresExtremes(): { smallest: number; largest: number } {
     if (this.exactExtremes === null) {
       const origin = new Float64Array(this.dim);
       const lambda = this.regularization;
-      const data = semidefiniteExtremeEigenvalues((v, out) => {
+      const dataPart: SymmetricOperator = (v, out) => {
         this.hessianVector(origin, v, out);
         axpy(-lambda, v, out);
-      }, this.dim);
+      };
+      const data =
+        this.sampleCount < this.dim
+          ? { smallest: 0, largest: largestEigenvalue(dataPart, this.dim).largest }
+          : semidefiniteExtremeEigenvalues(dataPart, this.dim);
       this.exactExtremes = { smallest: data.smallest + lambda, largest: data.largest + lambda };
     }
     return this.exactExtremes;

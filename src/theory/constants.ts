@@ -2,14 +2,18 @@
 // smoothness L and strong convexity mu of f and of every f_i, the condition number, the
 // heterogeneity sum_i p_i ||grad f_i(x*)||^2 (zero exactly when x* minimizes every f_i), and how
 // far each client's own minimizer lies from x*.
+//
+// They come in two parts. The global ones (L, mu, condition number, heterogeneity) cost a few
+// Lanczos steps and one gradient per client, and every run reports them. The Hessian at x* and the
+// per-client ones (L_i, mu_i, x_i*) cost a solve per client; only the theory report asks for them.
 
 import type { Objective } from '../problem/objective.js';
-import { ProblemError, assertLength } from '../problem/problem-error.js';
+import { hessianExtremeEigenvalues } from '../problem/hessian-spectrum.js';
+import { assertLength } from '../problem/problem-error.js';
 import { WeightedSumObjective } from '../problem/weighted-sum.js';
 import { distanceSquared, norm2 } from '../vec/kernels.js';
-import { solveOptimum, type OracleOptions } from './oracle.js';
-import { LinalgError } from '../linalg/linalg-error.js';
-import { hessianExtremeEigenvalues } from '../problem/hessian-spectrum.js';
+import type { OracleOptions } from './oracle-certificate.js';
+import { ownMinimizer } from './own-minimizer.js';
 
 export interface ClientConstants {
   /** L_i: the client's smoothness bound (exact for least squares) */
@@ -22,41 +26,84 @@ export interface ClientConstants {
   minimizerDistance: number | null;
 }
 
-export interface ProblemConstants {
+export interface GlobalConstants {
   /** L of f: exact for least squares, a bound for logistic and softmax */
   smoothness: number;
   /** mu of f: exact for least squares, a bound for logistic and softmax */
   strongConvexity: number;
   /** smoothness / strongConvexity (Infinity when mu = 0) */
   conditionNumber: number;
-  /** extreme eigenvalues of the Hessian of f at x* (for least squares, equal to mu and L) */
-  hessianAtOptimum: { smallest: number; largest: number };
   /** sum_i p_i ||grad f_i(x*)||^2 */
   heterogeneity: number;
+}
+
+export interface CurvatureAtOptimum {
+  smallest: number;
+  largest: number;
+}
+
+export interface ProblemConstants extends GlobalConstants {
+  /** extreme eigenvalues of the Hessian of f at x* (for least squares, equal to mu and L) */
+  hessianAtOptimum: CurvatureAtOptimum;
   /** in the order of the objectives given */
   clients: ClientConstants[];
 }
 
-/**
- * The client's own minimizer, or null when its Hessian is singular to working precision (a mu_i
- * that is positive only by rounding): x_i* is then not determined.
- */
-function ownMinimizer(client: Objective, options: OracleOptions): Float64Array | null {
-  try {
-    return solveOptimum(client, options).x;
-  } catch (error) {
-    // Cholesky refuses the Hessian itself (least squares) or Newton's shifts give up (smooth losses).
-    if (error instanceof LinalgError && error.code === 'E_LINALG_NOT_POSITIVE_DEFINITE')
-      return null;
-    if (error instanceof ProblemError && error.code === 'E_PROBLEM_NOT_POSITIVE_DEFINITE')
-      return null;
-    throw error;
+/** L, mu, the condition number and the heterogeneity of `global` at its minimizer. */
+export function globalConstants(
+  global: WeightedSumObjective,
+  optimum: Float64Array,
+): GlobalConstants {
+  assertLength('optimum', optimum, global.dim);
+  const smoothness = global.smoothnessBound();
+  const strongConvexity = global.strongConvexityBound();
+  const gradient = new Float64Array(global.dim);
+  let heterogeneity = 0;
+  for (let i = 0; i < global.components.length; i++) {
+    global.components[i].gradient(optimum, gradient);
+    const norm = norm2(gradient);
+    heterogeneity += global.weights[i] * norm * norm;
   }
+  return {
+    smoothness,
+    strongConvexity,
+    conditionNumber: strongConvexity > 0 ? smoothness / strongConvexity : Infinity,
+    heterogeneity,
+  };
 }
 
 /**
- * Constants of f = sum_i p_i f_i given its minimizer (from solveOptimum). Each client's own
- * minimizer is solved here as well, with the same oracle options.
+ * Extreme Hessian eigenvalues at x*: for least squares the Hessian is constant and they are the
+ * exact L and mu already known; otherwise Lanczos on the Hessian operator at x*.
+ */
+export function curvatureAtOptimum(global: Objective, optimum: Float64Array): CurvatureAtOptimum {
+  if (global.kind === 'least-squares')
+    return { smallest: global.strongConvexityBound(), largest: global.smoothnessBound() };
+  const { smallest, largest } = hessianExtremeEigenvalues(global, optimum);
+  return { smallest, largest };
+}
+
+/** One client's constants against the global minimizer. */
+export function clientConstants(
+  client: Objective,
+  optimum: Float64Array,
+  options: OracleOptions = {},
+): ClientConstants {
+  assertLength('optimum', optimum, client.dim);
+  const gradient = new Float64Array(client.dim);
+  client.gradient(optimum, gradient);
+  const minimizer = ownMinimizer(client, options);
+  return {
+    smoothness: client.smoothnessBound(),
+    strongConvexity: client.strongConvexityBound(),
+    gradientNormAtOptimum: norm2(gradient),
+    minimizerDistance: minimizer === null ? null : Math.sqrt(distanceSquared(minimizer, optimum)),
+  };
+}
+
+/**
+ * Every constant of f = sum_i p_i f_i given its minimizer (from solveOptimum), each client's own
+ * minimizer solved with the same oracle options.
  */
 export function computeConstants(
   clients: readonly Objective[],
@@ -65,36 +112,9 @@ export function computeConstants(
   options: OracleOptions = {},
 ): ProblemConstants {
   const global = new WeightedSumObjective(clients, weights);
-  assertLength('optimum', optimum, global.dim);
-  const smoothness = global.smoothnessBound();
-  const strongConvexity = global.strongConvexityBound();
-  const curvature = hessianExtremeEigenvalues(global, optimum);
-
-  const gradient = new Float64Array(global.dim);
-  let heterogeneity = 0;
-  const perClient: ClientConstants[] = [];
-  for (let i = 0; i < clients.length; i++) {
-    const client = clients[i];
-    client.gradient(optimum, gradient);
-    const gradientNormAtOptimum = norm2(gradient);
-    heterogeneity += global.weights[i] * gradientNormAtOptimum * gradientNormAtOptimum;
-    const clientStrongConvexity = client.strongConvexityBound();
-    const minimizer = clientStrongConvexity > 0 ? ownMinimizer(client, options) : null;
-    const minimizerDistance =
-      minimizer === null ? null : Math.sqrt(distanceSquared(minimizer, optimum));
-    perClient.push({
-      smoothness: client.smoothnessBound(),
-      strongConvexity: clientStrongConvexity,
-      gradientNormAtOptimum,
-      minimizerDistance,
-    });
-  }
   return {
-    smoothness,
-    strongConvexity,
-    conditionNumber: strongConvexity > 0 ? smoothness / strongConvexity : Infinity,
-    hessianAtOptimum: { smallest: curvature.smallest, largest: curvature.largest },
-    heterogeneity,
-    clients: perClient,
+    ...globalConstants(global, optimum),
+    hessianAtOptimum: curvatureAtOptimum(global, optimum),
+    clients: clients.map((client) => clientConstants(client, optimum, options)),
   };
 }

@@ -20,7 +20,7 @@
 
 import type { Objective } from '../problem/objective.js';
 import { allFinite } from '../vec/kernels.js';
-import { assembleHessian } from './oracle.js';
+import { assembleHessian } from './dense-oracle.js';
 import { luFactor, luSolve } from '../linalg/lu.js';
 import { TheoryError, assertTheoryLength } from './theory-error.js';
 

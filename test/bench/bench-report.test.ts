@@ -4,6 +4,7 @@
 import { describe, expect, it } from 'vitest';
 import { BENCH_REPORT_VERSION, benchReport, benchReportSchema } from './bench-report.js';
 import { runBench, type BenchSizes } from './bench-cases.js';
+import { runOracleBench } from './oracle-bench-cases.js';
 
 const TINY_SIZES: BenchSizes = {
   dotLengths: [64],
@@ -55,5 +56,26 @@ describe('bench output', () => {
         .success,
     ).toBe(false);
     expect(benchReportSchema.safeParse({ ...report, roundwireBench: 2 }).success).toBe(false);
+  });
+});
+
+describe('oracle bench output', () => {
+  it('reports cold setup seconds, lower is better, for theory and for an in-process run', async () => {
+    const results = await runOracleBench({
+      theory: { clients: 3, features: 40, samples: 10 },
+      logistic: { clients: 2, features: 40, samples: 50, rounds: 2 },
+    });
+    const report = benchReport(results);
+    expect(report.results.map((r) => `${r.suite}/${r.case}`)).toEqual([
+      'oracle/theory setup least-squares',
+      'oracle/run setup logistic',
+      'oracle/run in process total logistic',
+    ]);
+    for (const r of report.results) {
+      expect(r.unit).toBe('s');
+      expect(r.better).toBe('lower');
+    }
+    expect(report.results[0].shape).toEqual({ clients: 3, d: 40, samplesPerClient: 10 });
+    expect(report.results[2].figure).toBeGreaterThanOrEqual(report.results[1].figure);
   });
 });

@@ -23,9 +23,11 @@ export const benchResultSchema = z.strictObject({
   case: z.string().min(1),
   /** the problem's sizes, e.g. {d: 1000} */
   shape: z.record(z.string(), shapeValue),
-  /** the measured throughput, a median of repeated batches (higher is better) */
+  /** the measured throughput, a median of repeated batches (higher is better, unless `better` says lower) */
   figure: z.number().positive(),
   unit: z.string().min(1),
+  /** "lower" for a figure where less is better (seconds of a setup); absent means higher */
+  better: z.literal('lower').optional(),
   reference: benchReferenceSchema.optional(),
 });
 
