@@ -4,6 +4,11 @@
 // gets an error reply with its code and is otherwise ignored. A connection that drops mid-run
 // (no done, no final error) is reconnected with the same backoff as the join, and the new
 // challenge answered with the welcome's resume token, which gives the worker its clients back.
+//
+// Order on a connection: the hello is the first message sent on it (the coordinator refuses
+// anything else with E_ORDER), and nothing answers a down that came on an earlier connection,
+// even when its client's work ends after the reconnection: the coordinator counted that client
+// as dropped from its exchange, and the up would reach the new connection ahead of the hello.
 
 import { performance } from 'node:perf_hooks';
 import type WebSocket from 'ws';
@@ -92,6 +97,8 @@ export class Worker {
   private hosting: Hosting | null = null;
   private heartbeatTimer: NodeJS.Timeout | null = null;
   private lastHeardMs = performance.now();
+  /** counts connections; a down remembers the one it came on */
+  private connectionNumber = 0;
   /** each hosted client's newest down: an up for an older one is superseded and withheld */
   private readonly newestDownOf = new Map<number, DownMessage>();
   private finish: (exit: WorkerExit) => void = () => undefined;
@@ -141,6 +148,7 @@ export class Worker {
   }
 
   private connect(): Promise<WebSocket> {
+    this.connectionNumber += 1;
     return connectWithRetry(
       this.options.url,
       this.options.retry ?? DEFAULT_RETRY_POLICY,
@@ -357,15 +365,22 @@ export class Worker {
       encodedDown[name] = fromWire(wv, `down.fields.${name}`);
     }
     this.newestDownOf.set(message.clientId, message);
-    void this.answer(hosting, message, encodedDown).catch((error: Error) =>
-      this.reportFailure(message, error),
+    const connection = this.connectionNumber;
+    void this.answer(hosting, message, encodedDown, connection).catch((error: Error) =>
+      this.reportFailure(message, error, connection),
     );
+  }
+
+  /** True while the worker is welcomed on the connection `connection` names (see the order rule above). */
+  private mayAnswerOn(connection: number): boolean {
+    return connection === this.connectionNumber && this.phase === 'active';
   }
 
   private async answer(
     hosting: Hosting,
     message: DownMessage,
     encodedDown: EncodedFields,
+    connection: number,
   ): Promise<void> {
     const { clientId, round, exchange } = message;
     const downSeconds = await hosting.link.received(fieldsPayloadBytes(encodedDown));
@@ -391,7 +406,7 @@ export class Worker {
     this.options.metrics?.linkDelay('down', downSeconds);
     this.options.metrics?.linkDelay('up', upSeconds);
     // A newer down for this client means the coordinator closed this exchange without it.
-    if (this.newestDownOf.get(clientId) !== message) return;
+    if (this.newestDownOf.get(clientId) !== message || !this.mayAnswerOn(connection)) return;
     this.send({
       type: 'up',
       round,
@@ -409,7 +424,7 @@ export class Worker {
    * A client that cannot answer tells the coordinator why; a diverged update (E_NOT_FINITE)
    * stops the run there as it does in the engine.
    */
-  private reportFailure(message: DownMessage, error: Error): void {
+  private reportFailure(message: DownMessage, error: Error, connection: number): void {
     const code =
       error instanceof ProtocolError
         ? error.code
@@ -421,6 +436,7 @@ export class Worker {
     this.options.log(
       `client ${message.clientId}, round ${message.round} (${message.exchange}) failed: ${error.message}`,
     );
+    if (!this.mayAnswerOn(connection)) return;
     this.send({
       type: 'error',
       code,

@@ -32,7 +32,6 @@ export class RunInterrupted extends Error {
 /** Limits of an embedded run: local workers start in well under a second each. */
 export const EMBEDDED_LIMITS = {
   joinTimeoutSeconds: 60,
-  handshakeTimeoutSeconds: 10,
   exchangeTimeoutSeconds: 300,
   wallGraceSeconds: 0.5,
   /** after done, workers close their pools and exit; past this they are stopped */

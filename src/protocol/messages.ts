@@ -29,7 +29,7 @@ import type { WirePlan } from './wire-plan.js';
 import type { WireVector } from './wire-vector.js';
 
 /** Bumped on any change to a message's shape or meaning; peers must match exactly. */
-export const PROTOCOL_VERSION = 2;
+export const PROTOCOL_VERSION = 3;
 
 /** Bytes of the server's challenge nonce (256 bits: never repeats in practice). */
 export const NONCE_BYTES = 32;

@@ -8,7 +8,7 @@ import type { Socket } from 'node:net';
 import type { WebSocket } from 'ws';
 import { describe, expect, it } from 'vitest';
 import { encodeMessage, type FrameFailure, type Message } from '../../src/protocol/index.js';
-import { WorkerSession } from '../../server/worker-session.js';
+import { WorkerSession, type SessionHooks } from '../../server/worker-session.js';
 
 /** A socket that counts reads of bytesWritten, and a ws that records what it was asked to send. */
 function fakeConnection(): {
@@ -37,10 +37,12 @@ function fakeConnection(): {
   return { socket, ws, sent, bytesWrittenReads: () => reads };
 }
 
+const NO_HOOKS: SessionHooks = { onFrameError: () => undefined, onLimit: () => undefined };
+
 describe('WorkerSession', () => {
   it('meters each send by its frame size, never reading socket.bytesWritten', () => {
     const { socket, ws, sent, bytesWrittenReads } = fakeConnection();
-    const session = new WorkerSession(1, ws, socket, 0, () => undefined);
+    const session = new WorkerSession(1, ws, socket, () => 0, 1024, NO_HOOKS);
     const readsAtStart = bytesWrittenReads();
     // Error messages with texts of 0, 200 and 70 000 characters: each header form once.
     const messages: Message[] = [0, 200, 70_000].map((n) => ({
@@ -62,7 +64,10 @@ describe('WorkerSession', () => {
   it("hands a connection's error to the handler, classified", () => {
     const { socket, ws } = fakeConnection();
     const failures: FrameFailure[] = [];
-    new WorkerSession(1, ws, socket, 0, (_, failure) => failures.push(failure));
+    new WorkerSession(1, ws, socket, () => 0, 1024, {
+      ...NO_HOOKS,
+      onFrameError: (_, failure) => failures.push(failure),
+    });
     ws.emit(
       'error',
       Object.assign(new RangeError('Invalid WebSocket frame: invalid UTF-8 sequence'), {
