@@ -228,7 +228,16 @@ export class WorkerSession {
       closeCode: CLOSE_MESSAGE_TOO_BIG,
       detail: `a message of ${payloadBytes} bytes, at most ${limitBytes} allowed ${this.limits === null ? 'before the hello is accepted' : 'on this connection'}`,
     });
-    this.close(CLOSE_MESSAGE_TOO_BIG, 'message too big');
+    this.closeAndEnd(CLOSE_MESSAGE_TOO_BIG, 'message too big');
+  }
+
+  /**
+   * A close frame, then the end of the connection as soon as it is written: nothing more is read
+   * from a peer that broke a rule, so there is no answer to wait for.
+   */
+  private closeAndEnd(code: number, reason: string): void {
+    this.close(code, reason);
+    this.socket.end(() => this.socket.destroy());
   }
 
   /** A limit passed: a peer that does not read is dropped at once, any other gets a close frame first. */
@@ -237,6 +246,6 @@ export class WorkerSession {
     this.failed = true;
     this.hooks.onLimit(this, reason, detail);
     if (reason === 'E_LIMIT_PENDING_BYTES') this.terminate();
-    else this.close(CLOSE_POLICY_VIOLATION, reason);
+    else this.closeAndEnd(CLOSE_POLICY_VIOLATION, reason);
   }
 }

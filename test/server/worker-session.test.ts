@@ -39,6 +39,11 @@ function fakeConnection(): {
     },
   });
   Object.assign(socket, {
+    ended: false,
+    end() {
+      (socket as unknown as { ended: boolean }).ended = true;
+      return socket;
+    },
     paused: false,
     pause() {
       (socket as unknown as { paused: boolean }).paused = true;
