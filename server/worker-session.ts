@@ -69,7 +69,8 @@ export class WorkerSession {
   private handler: FrameHandler = () => undefined;
   /** set once the session is authenticated */
   private limits: SessionLimits | null = null;
-  private budget: PeerBudget | null = null;
+  /** messages (and pings) this connection may send; the hello alone before authentication */
+  private readonly budget: PeerBudget;
   /** the connection broke a rule and is being closed: nothing more it sends is read */
   private failed = false;
 
@@ -90,6 +91,7 @@ export class WorkerSession {
       this.oversize(payloadBytes, limitBytes),
     );
     this.lastHeardMs = nowMs();
+    this.budget = new PeerBudget(nowMs());
     ws.binaryType = 'nodebuffer';
     // ws emits 'error' for a frame that breaks RFC 6455 (and closes the connection itself); an
     // 'error' with no listener would end the process, so every session listens from the start.
@@ -100,6 +102,12 @@ export class WorkerSession {
     });
     // A text frame is not part of this protocol; it reaches the validator as bytes and fails there.
     ws.on('message', (data: Buffer) => this.received(data));
+    // ws answers each ping with a pong by itself; a ping draws on the message budget like any
+    // message, so that a peer cannot keep the coordinator writing pongs.
+    ws.on('ping', () => {
+      if (this.budget.admitMessage(this.nowMs(), 0, 0) === 'over-rate')
+        this.passLimit('E_LIMIT_MESSAGE_RATE', 'more pings than the unsolicited rate allows');
+    });
   }
 
   get state(): SessionState {
@@ -136,7 +144,6 @@ export class WorkerSession {
   /** The hello was accepted: from now on the connection is held to `limits` instead of the hello's size. */
   authenticate(limits: SessionLimits): void {
     this.limits = limits;
-    this.budget ??= new PeerBudget(this.nowMs());
     this.meter.setPayloadLimitBytes(limits.payloadLimitBytes);
   }
 
@@ -144,7 +151,7 @@ export class WorkerSession {
     const wireBytes = this.meter.takeMessageBytes();
     if (this.failed) return;
     const frame = new Uint8Array(data.buffer, data.byteOffset, data.byteLength);
-    if (this.limits === null || this.budget === null) {
+    if (this.limits === null) {
       this.handler(frame, wireBytes, frame.byteLength);
       return;
     }
@@ -172,7 +179,7 @@ export class WorkerSession {
 
   /** A message failed validation: whether to answer it with an error; past the bound, the peer is dropped here. */
   shouldAnswerBadMessage(): boolean {
-    if (this.budget === null) return true;
+    if (this.limits === null) return true;
     const verdict = this.budget.badMessage(this.nowMs());
     if (verdict === 'drop') {
       this.passLimit('E_LIMIT_BAD_MESSAGES', 'more bad messages than the limit allows');
@@ -186,7 +193,7 @@ export class WorkerSession {
     if (!this.isOpen() || this.failed) return { encodedBytes: 0, wireBytes: 0 };
     const bytes = encodeMessage(message);
     this.ws.send(bytes, { binary: true });
-    if (message.type === 'down') this.budget?.grant();
+    if (message.type === 'down') this.budget.grant();
     // ws's bufferedAmount reads two counters: O(1), whatever is queued.
     if (this.limits !== null && this.ws.bufferedAmount > this.limits.pendingBytesMax) {
       this.passLimit(
@@ -222,7 +229,6 @@ export class WorkerSession {
   private oversize(payloadBytes: number, limitBytes: number): void {
     if (this.failed) return;
     this.failed = true;
-    this.socket.pause();
     this.hooks.onFrameError(this, {
       reason: 'E_FRAME_TOO_BIG',
       closeCode: CLOSE_MESSAGE_TOO_BIG,
@@ -236,6 +242,9 @@ export class WorkerSession {
    * from a peer that broke a rule, so there is no answer to wait for.
    */
   private closeAndEnd(code: number, reason: string): void {
+    // Paused, the socket costs nothing more however much the peer sends; ws destroys it within
+    // closingDeadlineSeconds if the close frame cannot be written (a peer that does not read).
+    this.socket.pause();
     this.close(code, reason);
     this.socket.end(() => this.socket.destroy());
   }
