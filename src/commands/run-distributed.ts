@@ -220,7 +220,11 @@ export function formatDistributedSummary(result: DistributedRunResult, outDir: s
           .map((w) => `${w.workerName} (round ${w.round}, clients ${w.clientIds.join(' ')})`)
           .join(', ');
   const errors =
-    Object.entries({ ...outcome.protocolErrors.received, ...outcome.protocolErrors.frame })
+    Object.entries({
+      ...outcome.protocolErrors.received,
+      ...outcome.protocolErrors.frame,
+      ...outcome.protocolErrors.limit,
+    })
       .map(([code, n]) => `${code} ${n}`)
       .join(', ') || 'none';
   const layers = outcome.bytesLayers;
