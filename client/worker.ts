@@ -4,6 +4,11 @@
 // gets an error reply with its code and is otherwise ignored. A connection that drops mid-run
 // (no done, no final error) is reconnected with the same backoff as the join, and the new
 // challenge answered with the welcome's resume token, which gives the worker its clients back.
+//
+// Order on a connection: the hello is the first message sent on it (the coordinator refuses
+// anything else with E_ORDER), and nothing answers a down that came on an earlier connection,
+// even when its client's work ends after the reconnection: the coordinator counted that client
+// as dropped from its exchange, and the up would reach the new connection ahead of the hello.
 
 import { performance } from 'node:perf_hooks';
 import type WebSocket from 'ws';
@@ -94,6 +99,8 @@ export class Worker {
   private hosting: Hosting | null = null;
   private heartbeatTimer: NodeJS.Timeout | null = null;
   private lastHeardMs = performance.now();
+  /** counts connections; a down remembers the one it came on */
+  private connectionNumber = 0;
   /** each hosted client's newest down: an up for an older one is superseded and withheld */
   private readonly newestDownOf = new Map<number, DownMessage>();
   private finish: (exit: WorkerExit) => void = () => undefined;
@@ -143,6 +150,7 @@ export class Worker {
   }
 
   private connect(): Promise<WebSocket> {
+    this.connectionNumber += 1;
     return connectWithRetry(
       this.options.url,
       this.options.retry ?? DEFAULT_RETRY_POLICY,
@@ -348,15 +356,22 @@ export class Worker {
     for (const [name, wv] of Object.entries(message.fields))
       encodedDown[name] = fromWire(wv, `down.fields.${name}`);
     this.newestDownOf.set(message.clientId, message);
-    void this.answer(hosting, message, encodedDown).catch((error: Error) =>
-      this.reportFailure(message, error),
+    const connection = this.connectionNumber;
+    void this.answer(hosting, message, encodedDown, connection).catch((error: Error) =>
+      this.reportFailure(message, error, connection),
     );
+  }
+
+  /** True while the worker is welcomed on the connection `connection` names (see the order rule above). */
+  private mayAnswerOn(connection: number): boolean {
+    return connection === this.connectionNumber && this.phase === 'active';
   }
 
   private async answer(
     hosting: Hosting,
     message: DownMessage,
     encodedDown: EncodedFields,
+    connection: number,
   ): Promise<void> {
     const { clientId, round, exchange } = message;
     const downSeconds = await hosting.link.received(fieldsPayloadBytes(encodedDown));
@@ -372,7 +387,7 @@ export class Worker {
       });
     } catch (error) {
       if (!isNonFiniteError(error)) throw error;
-      this.sendNotFinite(message, downSeconds);
+      this.sendNotFinite(message, downSeconds, connection);
       return;
     }
     const computeSeconds = await hosting.pacer.pace(
@@ -389,7 +404,7 @@ export class Worker {
     this.options.metrics?.linkDelay('down', downSeconds);
     this.options.metrics?.linkDelay('up', upSeconds);
     // A newer down for this client means the coordinator closed this exchange without it.
-    if (this.newestDownOf.get(clientId) !== message) return;
+    if (this.newestDownOf.get(clientId) !== message || !this.mayAnswerOn(connection)) return;
     this.send({
       type: 'up',
       round,
@@ -408,10 +423,10 @@ export class Worker {
    * (which must be finite on the wire): the coordinator's round walk judges it as the
    * in-process engine judges its own client's, and the run stops as diverged in both.
    */
-  private sendNotFinite(message: DownMessage, downSeconds: number): void {
+  private sendNotFinite(message: DownMessage, downSeconds: number, connection: number): void {
     const { clientId, round, exchange } = message;
     this.options.log(`client ${clientId}, round ${round} (${exchange}): its update is not finite`);
-    if (this.newestDownOf.get(clientId) !== message) return;
+    if (this.newestDownOf.get(clientId) !== message || !this.mayAnswerOn(connection)) return;
     this.send({
       type: 'up',
       round,
@@ -430,13 +445,14 @@ export class Worker {
    * A client that cannot answer for another reason tells the coordinator why; the coordinator
    * then counts this worker's clients lost.
    */
-  private reportFailure(message: DownMessage, error: Error): void {
+  private reportFailure(message: DownMessage, error: Error, connection: number): void {
     const code = error instanceof ProtocolError ? error.code : 'E_TYPE';
     const limit =
       this.hosting?.limits.maxErrorMessageLength ?? HANDSHAKE_LIMITS.maxErrorMessageLength;
     this.options.log(
       `client ${message.clientId}, round ${message.round} (${message.exchange}) failed: ${error.message}`,
     );
+    if (!this.mayAnswerOn(connection)) return;
     this.send({
       type: 'error',
       code,

@@ -15,9 +15,13 @@ import type { RecordSink, RoundRecord } from '../src/engine/round-record.js';
 import {
   CLOSE_NORMAL,
   CLOSE_POLICY_VIOLATION,
+  CONNECTION_LIMITS,
+  controlFrameBytesMax,
   HANDSHAKE_LIMITS,
+  helloFrameBytesMax,
   ProtocolError,
   limitsForPlan,
+  pendingBytesMaxFor,
   receiveMessage,
   RESUME_TOKEN_BYTES,
   type DoneReason,
@@ -25,10 +29,13 @@ import {
   type ProtocolLimits,
 } from '../src/protocol/index.js';
 import { ByteLedger } from './byte-ledger.js';
+import { ConnectionGate } from './connection-gate.js';
 import { fieldShapesFor, type FieldShapes } from './field-shapes.js';
 import { awaitHello } from './handshake.js';
 import { startListener, type Listener, type TlsFiles } from './listener.js';
+import type { LimitReason } from './limit-reasons.js';
 import { Liveness } from './liveness.js';
+import { LogLimiter } from './log-limiter.js';
 import { CoordinatorMetrics } from './metrics.js';
 import { OraclePool } from './oracle-pool.js';
 import { ProtocolErrorCounter } from './protocol-error-counter.js';
@@ -36,7 +43,7 @@ import { RoundDriver, type StopReason } from './rounds.js';
 import type { CoordinatorOutcome } from './run-outcome.js';
 import { RuntimeError } from './runtime-error.js';
 import { WorkerRegistry } from './worker-registry.js';
-import { WorkerSession } from './worker-session.js';
+import { WorkerSession, type SessionLimits } from './worker-session.js';
 
 export interface CoordinatorOptions {
   host: string;
@@ -50,7 +57,13 @@ export interface CoordinatorOptions {
   workersMax: number;
   maxClientsPerWorker: number;
   joinTimeoutSeconds: number;
-  handshakeTimeoutSeconds: number;
+  /**
+   * from a connection's TCP accept to its accepted hello (TLS, HTTP upgrade and hello alike);
+   * CONNECTION_LIMITS.handshakeDeadlineSeconds when absent
+   */
+  handshakeDeadlineSeconds?: number;
+  /** connections at once that have not passed their hello; CONNECTION_LIMITS' when absent */
+  unauthenticatedConnectionsMax?: number;
   exchangeTimeoutSeconds: number;
   wallGraceSeconds: number;
   /** heartbeat timing; the protocol's defaults when absent */
@@ -63,6 +76,12 @@ export interface CoordinatorOptions {
   onRound?: (record: RoundRecord) => void;
   log: (line: string) => void;
 }
+
+/**
+ * Headroom over the plan's frame limit for an authenticated worker: frames up to twice the limit
+ * reach the codec's size check and get an E_SIZE reply; larger ones close the connection (1009).
+ */
+const PAYLOAD_HEADROOM_FACTOR = 2;
 
 /**
  * Long enough for a worker's first few reconnection attempts (client/connection.ts backs off
@@ -91,8 +110,16 @@ export class Coordinator {
   /** served at /metrics when the command asks for it */
   readonly metrics: CoordinatorMetrics;
   private readonly liveness: Liveness;
-  private readonly sessions: WorkerSession[] = [];
+  /** sessions whose connection is open; a closed one leaves, its socket counters kept below */
+  private readonly sessions = new Set<WorkerSession>();
+  /** socket counters of the sessions closed so far */
+  private readonly closedSocketBytes = { up: 0, down: 0 };
   private readonly limitsOf = new Map<WorkerSession, ProtocolLimits>();
+  /** the plan's limits before a worker's clients are dealt (joined, not yet welcomed) */
+  private readonly joinLimits: ProtocolLimits;
+  private readonly gate: ConnectionGate;
+  /** lines about misbehaving peers: one per kind per interval */
+  private readonly peerLog: LogLimiter;
   private readonly resumeGraceSeconds: number;
   /** per disconnected session, the timer that marks it lost when its grace passes */
   private readonly graceTimers = new Map<WorkerSession, NodeJS.Timeout>();
@@ -125,12 +152,28 @@ export class Coordinator {
     });
     this.oracle = new OraclePool(scenario);
     const nowMs = () => performance.now();
+    this.joinLimits = this.limitsFor(1);
+    this.peerLog = new LogLimiter(options.log, CONNECTION_LIMITS.logIntervalSeconds, nowMs);
+    this.gate = new ConnectionGate({
+      deadlineSeconds:
+        options.handshakeDeadlineSeconds ?? CONNECTION_LIMITS.handshakeDeadlineSeconds,
+      unauthenticatedMax:
+        options.unauthenticatedConnectionsMax ?? CONNECTION_LIMITS.unauthenticatedConnectionsMax,
+      onDropped: (reason, peer) => {
+        this.errors.countLimit(reason);
+        this.peerLog.line(
+          reason,
+          `a connection from ${peer} was dropped (${reason}): ${reason === 'E_LIMIT_HANDSHAKE_DEADLINE' ? `no hello within ${options.handshakeDeadlineSeconds ?? CONNECTION_LIMITS.handshakeDeadlineSeconds} s` : 'the oldest of too many without a hello'}`,
+        );
+      },
+    });
     this.metrics = new CoordinatorMetrics({
       ledger: this.ledger,
       currentRound: () => this.driver.round,
       connectedWorkers: () =>
-        this.sessions.filter((s) => (s.state === 'joined' || s.state === 'active') && s.isOpen())
-          .length,
+        [...this.sessions].filter(
+          (s) => (s.state === 'joined' || s.state === 'active') && s.isOpen(),
+        ).length,
       lostWorkers: () => this.registry.lost.length,
       protocolErrors: () => this.errors.snapshot(),
       clientCount: plan.clientCount,
@@ -167,14 +210,13 @@ export class Coordinator {
 
   /** Starts listening; resolves to the URL workers join with. */
   async listen(): Promise<string> {
-    const planLimits = this.limitsFor(1);
     this.listener = await startListener(
       {
         host: this.options.host,
         port: this.options.port,
         tls: this.options.tls,
-        maxFrameBytes: Math.max(planLimits.maxFrameBytes, HANDSHAKE_LIMITS.maxFrameBytes),
-        connectionsMax: this.options.workersMax * 2,
+        maxPayloadBytes: this.joinLimits.maxFrameBytes * PAYLOAD_HEADROOM_FACTOR,
+        gate: this.gate,
         log: this.options.log,
       },
       (ws, socket) => void this.accept(ws, socket),
@@ -204,24 +246,44 @@ export class Coordinator {
     this.ledger.recordControlMessage('down', sent.encodedBytes, sent.wireBytes);
   }
 
+  /** What an authenticated session is held to, for a worker hosting up to `clientsMax` clients. */
+  private sessionLimits(limits: ProtocolLimits, clientsMax: number): SessionLimits {
+    return {
+      payloadLimitBytes: limits.maxFrameBytes * PAYLOAD_HEADROOM_FACTOR,
+      frameLimitBytes: limits.maxFrameBytes,
+      controlFrameBytesMax: controlFrameBytesMax(limits),
+      pendingBytesMax: pendingBytesMaxFor(limits, clientsMax),
+    };
+  }
+
   private async accept(ws: WebSocket, socket: Socket): Promise<void> {
     const session = new WorkerSession(
       this.nextSessionId++,
       ws,
       socket,
-      performance.now(),
-      (bad, failure) => this.frameFailed(bad, failure),
+      () => performance.now(),
+      helloFrameBytesMax(),
+      {
+        onFrameError: (bad, failure) => this.frameFailed(bad, failure),
+        onLimit: (bad, reason, detail) => this.limitPassed(bad, reason, detail),
+      },
     );
-    this.sessions.push(session);
+    this.sessions.add(session);
     session.onClose(() => this.closed(session));
     const hello = await awaitHello(session, {
       key: this.options.key,
-      timeoutSeconds: this.options.handshakeTimeoutSeconds,
       ledger: this.ledger,
       errors: this.errors,
-      log: this.options.log,
+      log: (kind, line) => this.peerLog.line(kind, line),
     });
-    if (hello === null) return;
+    // The gate may have dropped the connection at its deadline while the hello was checked.
+    if (hello === null || !this.gate.authenticated(session.transport())) return;
+    session.authenticate(
+      this.sessionLimits(
+        this.joinLimits,
+        Math.min(hello.capacity, this.options.maxClientsPerWorker),
+      ),
+    );
     if (hello.resume !== undefined) {
       this.resume(session, hello.resume);
       return;
@@ -238,7 +300,9 @@ export class Coordinator {
       session.close(CLOSE_POLICY_VIOLATION, 'no clients left');
       return;
     }
-    session.onFrame((frame, wireBytes) => this.receive(session, frame, wireBytes));
+    session.onFrame((frame, wireBytes, frameLimitBytes) =>
+      this.receive(session, frame, wireBytes, frameLimitBytes),
+    );
     this.options.log(
       `${session.label()} joined with capacity ${hello.capacity} (${this.registry.workersJoined()} workers, capacity ${this.registry.capacityJoined()} for ${this.plan.clientCount} clients)`,
     );
@@ -248,15 +312,30 @@ export class Coordinator {
   /** A malformed frame cost `session` its connection; its close handler does the rest. */
   private frameFailed(session: WorkerSession, failure: FrameFailure): void {
     this.errors.countFrame(failure.reason);
-    this.options.log(
+    this.peerLog.line(
+      'frame errors',
       `${session.label()} closed with code ${failure.closeCode} (${failure.reason}): ${failure.detail}`,
     );
   }
 
-  private receive(session: WorkerSession, frame: Uint8Array, wireBytes: number): void {
+  /** A connection limit cost `session` its connection; its close handler does the rest. */
+  private limitPassed(session: WorkerSession, reason: LimitReason, detail: string): void {
+    this.errors.countLimit(reason);
+    this.peerLog.line(reason, `${session.label()} dropped (${reason}): ${detail}`);
+  }
+
+  private receive(
+    session: WorkerSession,
+    frame: Uint8Array,
+    wireBytes: number,
+    frameLimitBytes: number,
+  ): void {
     session.lastHeardMs = performance.now();
     const active = session.state === 'active';
-    const limits = this.limitsOf.get(session) ?? HANDSHAKE_LIMITS;
+    const limits = {
+      ...(this.limitsOf.get(session) ?? this.joinLimits),
+      maxFrameBytes: frameLimitBytes,
+    };
     try {
       const expectation =
         this.plan.scenario.timing.clock === 'virtual' ? this.driver.expectation() : null;
@@ -286,6 +365,7 @@ export class Coordinator {
       if (!(error instanceof ProtocolError)) throw error;
       this.ledger.recordControlMessage('up', frame.byteLength, wireBytes);
       this.errors.countReceived(error.code);
+      if (!session.shouldAnswerBadMessage()) return;
       this.sendControl(session, {
         type: 'error',
         code: error.code,
@@ -295,6 +375,12 @@ export class Coordinator {
   }
 
   private closed(session: WorkerSession): void {
+    this.sessions.delete(session);
+    const totals = session.wireTotals();
+    this.closedSocketBytes.up += totals.readBytes;
+    this.closedSocketBytes.down += totals.writtenBytes;
+    // A disconnected session keeps its limits for its resume; every other closed one is over.
+    if (session.state !== 'active') this.limitsOf.delete(session);
     if (session.state === 'joined') {
       this.registry.leave(session);
       this.options.log(`${session.label()} left before the run started`);
@@ -350,7 +436,9 @@ export class Coordinator {
     clearTimeout(this.graceTimers.get(previous));
     this.graceTimers.delete(previous);
     const limits = this.limitsOf.get(previous)!;
+    this.limitsOf.delete(previous);
     this.limitsOf.set(session, limits);
+    session.authenticate(this.sessionLimits(limits, session.clientIds.size));
     const clientIds = [...session.clientIds].sort((a, b) => a - b);
     if (previousState === 'active') {
       // The worker noticed the drop first: the old socket's ups will not come.
@@ -358,7 +446,9 @@ export class Coordinator {
       this.driver.clientsLost(clientIds);
     }
     this.driver.clientsResumed(clientIds);
-    session.onFrame((frame, wireBytes) => this.receive(session, frame, wireBytes));
+    session.onFrame((frame, wireBytes, frameLimitBytes) =>
+      this.receive(session, frame, wireBytes, frameLimitBytes),
+    );
     this.sendControl(session, {
       type: 'welcome',
       assignments: clientIds,
@@ -377,6 +467,7 @@ export class Coordinator {
     this.graceTimers.delete(session);
     const clientIds = this.registry.markLost(session, this.driver.round, reason);
     if (clientIds.length === 0) return;
+    this.limitsOf.delete(session);
     this.options.log(
       `${session.label()} lost in round ${this.driver.round} (${reason}); clients ${clientIds.join(', ')} leave the run`,
     );
@@ -475,7 +566,8 @@ export class Coordinator {
     const reason = DONE_REASON_OF[result.stopReason];
     for (const session of this.registry.activeSessions())
       this.sendControl(session, { type: 'done', reason });
-    const socketBytes = { up: 0, down: 0 };
+    this.peerLog.flush();
+    const socketBytes = { ...this.closedSocketBytes };
     for (const session of this.sessions) {
       const totals = session.wireTotals();
       socketBytes.up += totals.readBytes;

@@ -1,14 +1,19 @@
 // The handshake on a fresh connection: challenge(nonce) -> hello(HMAC(key, nonce), version,
-// name, capacity). A wrong proof or version gets an error with its code and the connection is
-// closed before anything of the plan is sent; so does silence past the handshake limit.
+// name, capacity). The first message must be the hello: anything else (an up a worker held from
+// its previous connection, say) is refused with E_ORDER, and a wrong proof or version with its
+// own code; either way the connection is closed before anything of the plan is sent. The time a
+// connection may take to get here is the connection gate's (server/connection-gate.ts), and
+// the hello's size was bounded by its frame header before it got here (worker-session.ts).
 
 import {
   CLOSE_POLICY_VIOLATION,
+  decodeMessage,
   HANDSHAKE_LIMITS,
+  MESSAGE_TYPES,
   PROTOCOL_VERSION,
   ProtocolError,
   createChallengeNonce,
-  receiveMessage,
+  validateMessage,
   type HelloMessage,
 } from '../src/protocol/index.js';
 import type { ByteLedger } from './byte-ledger.js';
@@ -18,13 +23,25 @@ import type { WorkerSession } from './worker-session.js';
 export interface HandshakeDeps {
   /** the shared key */
   key: Uint8Array;
-  timeoutSeconds: number;
   ledger: ByteLedger;
   errors: ProtocolErrorCounter;
-  log: (line: string) => void;
+  /** rate-limited: one line per kind per interval */
+  log: (kind: string, line: string) => void;
 }
 
-/** Resolves to the worker's hello, or null when it was refused, fell silent or went away. */
+/** Throws E_ORDER when `raw` is a message of this protocol, but not a hello. */
+function assertHelloFirst(raw: unknown): void {
+  if (raw === null || typeof raw !== 'object' || Array.isArray(raw)) return;
+  const type = (raw as Record<string, unknown>).type;
+  if (type !== 'hello' && (MESSAGE_TYPES as readonly unknown[]).includes(type)) {
+    throw new ProtocolError(
+      'E_ORDER',
+      `type: the first message must be hello, got "${String(type)}" (a worker sends nothing else before its welcome)`,
+    );
+  }
+}
+
+/** Resolves to the worker's hello, or null when it was refused or went away. */
 export function awaitHello(
   session: WorkerSession,
   deps: HandshakeDeps,
@@ -35,13 +52,12 @@ export function awaitHello(
     const settle = (hello: HelloMessage | null): void => {
       if (settled) return;
       settled = true;
-      clearTimeout(timer);
       session.onFrame(() => undefined);
       resolve(hello);
     };
     const refuse = (error: ProtocolError): void => {
       deps.errors.countReceived(error.code);
-      deps.log(`${session.label()} refused (${error.code}): ${error.message}`);
+      deps.log('refused hellos', `${session.label()} refused (${error.code}): ${error.message}`);
       const sent = session.send({
         type: 'error',
         code: error.code,
@@ -52,20 +68,17 @@ export function awaitHello(
       session.close(CLOSE_POLICY_VIOLATION, error.code);
       settle(null);
     };
-    const timer = setTimeout(() => {
-      deps.log(`${session.label()} sent no hello within ${deps.timeoutSeconds} s`);
-      session.moveTo('refused');
-      session.terminate();
-      settle(null);
-    }, deps.timeoutSeconds * 1000);
     session.onClose(() => {
-      if (!settled) deps.log(`${session.label()} closed during the handshake`);
+      if (!settled)
+        deps.log('handshakes cut short', `${session.label()} closed during the handshake`);
       settle(null);
     });
-    session.onFrame((frame, wireBytes) => {
+    session.onFrame((frame, wireBytes, frameLimitBytes) => {
       deps.ledger.recordControlMessage('up', frame.byteLength, wireBytes);
       try {
-        const message = receiveMessage(frame, {
+        const raw = decodeMessage(frame, frameLimitBytes);
+        assertHelloFirst(raw);
+        const message = validateMessage(raw, {
           limits: HANDSHAKE_LIMITS,
           expectedTypes: ['hello'],
           expectedRound: null,

@@ -1,13 +1,17 @@
 // The coordinator's WebSocket server. permessage-deflate is off: every frame is its header plus
-// the codec's bytes, which the byte ledger relies on. ws's own payload cap sits well above the
-// largest legal message, so that an oversized frame reaches our size check and earns an E_SIZE
-// error reply instead of ws closing the connection.
+// the codec's bytes, which the byte ledger relies on. ws's own payload cap is the largest an
+// authenticated worker may send (the session holds an unauthenticated one to the hello's size by
+// the frame header, worker-session.ts). Every TCP connection passes the connection gate from its
+// accept (a deadline to its hello, a cap on those without one), and a closing handshake the peer
+// does not answer ends after closingDeadlineSeconds instead of ws's default 30 s.
 
 import { createServer as createHttpServer, type Server as HttpServer } from 'node:http';
 import { createServer as createHttpsServer } from 'node:https';
 import { readFileSync } from 'node:fs';
 import type { Socket } from 'node:net';
-import { WebSocketServer, type WebSocket } from 'ws';
+import { WebSocketServer, type ServerOptions, type WebSocket } from 'ws';
+import { CONNECTION_LIMITS } from '../src/protocol/index.js';
+import type { ConnectionGate } from './connection-gate.js';
 
 export interface TlsFiles {
   certFile: string;
@@ -18,16 +22,13 @@ export interface ListenerOptions {
   host: string;
   /** 0: the OS picks a free port */
   port: number;
-  /** the largest frame a worker may legally send, before our own check */
-  maxFrameBytes: number;
+  /** the largest data message ws accepts from an authenticated worker */
+  maxPayloadBytes: number;
   tls: TlsFiles | null;
-  /** most simultaneous connections, handshaking ones included */
-  connectionsMax: number;
+  /** deadlines and the cap for connections that have not passed their hello */
+  gate: ConnectionGate;
   log: (line: string) => void;
 }
-
-/** Headroom over the legal maximum: frames up to twice the limit reach our check and get E_SIZE. */
-const WS_PAYLOAD_HEADROOM_FACTOR = 2;
 
 export interface Listener {
   /** ws:// or wss:// URL workers join with */
@@ -46,7 +47,8 @@ export async function startListener(
         key: readFileSync(options.tls.keyFile),
       })
     : createHttpServer();
-  http.maxConnections = options.connectionsMax;
+  // Under TLS too, 'connection' is the TCP accept: the gate's deadline covers the TLS handshake.
+  http.on('connection', (socket: Socket) => options.gate.admit(socket));
   // Listen before ws attaches: ws re-emits the server's errors on itself, so a busy port would
   // surface as an unhandled 'error' event instead of this rejection.
   await new Promise<void>((resolve, reject) => {
@@ -56,12 +58,17 @@ export async function startListener(
       resolve();
     });
   });
-  const wss = new WebSocketServer({
+  // closeTimeout and maxPendingAutoPongs are options of ws 8.23 (lib/websocket-server.js) that
+  // @types/ws 8.18 does not list yet.
+  const wsOptions: ServerOptions & { closeTimeout: number; maxPendingAutoPongs: number } = {
     server: http,
     perMessageDeflate: false,
-    maxPayload: options.maxFrameBytes * WS_PAYLOAD_HEADROOM_FACTOR,
+    maxPayload: options.maxPayloadBytes,
+    closeTimeout: CONNECTION_LIMITS.closingDeadlineSeconds * 1000,
+    maxPendingAutoPongs: CONNECTION_LIMITS.pendingPongsMax,
     clientTracking: true,
-  });
+  };
+  const wss = new WebSocketServer(wsOptions);
   wss.on('connection', (ws, request) => onConnection(ws, request.socket as Socket));
   // ws re-emits the HTTP server's errors, and an 'error' with no listener ends the process. Once
   // listening, a server error (say, no file descriptor left to accept a connection with, which
@@ -78,6 +85,7 @@ export async function startListener(
     port: address.port,
     close: () =>
       new Promise<void>((resolve) => {
+        options.gate.close();
         for (const client of wss.clients) client.terminate();
         wss.close(() => http.close(() => resolve()));
         http.closeAllConnections();

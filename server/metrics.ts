@@ -10,6 +10,7 @@ import type { MethodName } from '../src/algorithm/method.js';
 import type { ClientRoundRecord, RoundRecord } from '../src/engine/round-record.js';
 import { fitLinearRate } from '../src/theory/measure-curve.js';
 import type { ByteLedger } from './byte-ledger.js';
+import { LIMIT_REASONS } from './limit-reasons.js';
 import type { ProtocolErrorCounts } from './protocol-error-counter.js';
 import { CLIENT_LABELS_MAX, clientLabel } from './metrics-labels.js';
 import { LiveCurve } from './live-curve.js';
@@ -197,7 +198,7 @@ export class CoordinatorMetrics {
       this.dropped.inc({ client: clientLabel(id) }, 0);
     new Counter({
       name: 'roundwire_protocol_errors_total',
-      help: 'Protocol errors by code: bad messages received from workers, errors workers reported, and connections closed for a malformed WebSocket frame (origin "frame").',
+      help: 'Protocol errors by code: bad messages received from workers, errors workers reported, connections closed for a malformed WebSocket frame (origin "frame") and for passing a connection limit (origin "limit").',
       labelNames: ['code', 'origin'],
       registers,
       collect() {
@@ -208,6 +209,8 @@ export class CoordinatorMetrics {
             this.inc({ code, origin }, counts[origin][code] ?? 0);
         for (const reason of FRAME_ERROR_REASONS)
           this.inc({ code: reason, origin: 'frame' }, counts.frame[reason] ?? 0);
+        for (const reason of LIMIT_REASONS)
+          this.inc({ code: reason, origin: 'limit' }, counts.limit[reason] ?? 0);
       },
     });
     new Counter({

@@ -1,14 +1,17 @@
 // Protocol errors by reason: bad messages a worker sent us, errors workers reported, and
-// malformed WebSocket frames that cost a peer its connection. The metrics endpoint reads these
+// malformed WebSocket frames and connection limits that cost a peer its connection. The metrics endpoint reads these
 // counters later; the results record them.
 
 import type { FrameErrorReason, ProtocolErrorCode } from '../src/protocol/index.js';
+import type { LimitReason } from './limit-reasons.js';
 
 export interface ProtocolErrorCounts {
   received: Record<string, number>;
   reported: Record<string, number>;
   /** connections closed for a malformed frame, by reason */
   frame: Record<string, number>;
+  /** connections closed for passing a connection limit, by reason */
+  limit: Record<string, number>;
 }
 
 export class ProtocolErrorCounter {
@@ -18,6 +21,8 @@ export class ProtocolErrorCounter {
   private readonly reported = new Map<ProtocolErrorCode, number>();
   /** connections closed for a malformed frame, by reason */
   private readonly frame = new Map<FrameErrorReason, number>();
+  /** connections closed for passing a connection limit, by reason */
+  private readonly limit = new Map<LimitReason, number>();
 
   countReceived(code: ProtocolErrorCode): void {
     this.received.set(code, (this.received.get(code) ?? 0) + 1);
@@ -31,11 +36,16 @@ export class ProtocolErrorCounter {
     this.frame.set(reason, (this.frame.get(reason) ?? 0) + 1);
   }
 
+  countLimit(reason: LimitReason): void {
+    this.limit.set(reason, (this.limit.get(reason) ?? 0) + 1);
+  }
+
   snapshot(): ProtocolErrorCounts {
     return {
       received: Object.fromEntries(this.received),
       reported: Object.fromEntries(this.reported),
       frame: Object.fromEntries(this.frame),
+      limit: Object.fromEntries(this.limit),
     };
   }
 

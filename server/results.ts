@@ -29,6 +29,8 @@ export interface DistributedDetails {
     protocolErrorsReported: Record<string, number>;
     /** connections closed for a malformed WebSocket frame, by reason */
     frameErrors: Record<string, number>;
+    /** connections closed for passing a connection limit, by reason */
+    limitClosings: Record<string, number>;
   };
 }
 
@@ -43,6 +45,7 @@ export function distributedDetails(outcome: CoordinatorOutcome): DistributedDeta
       lostWorkers: outcome.lostWorkers,
       protocolErrorsReported: outcome.protocolErrors.reported,
       frameErrors: outcome.protocolErrors.frame,
+      limitClosings: outcome.protocolErrors.limit,
     },
   };
 }

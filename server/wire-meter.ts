@@ -3,6 +3,13 @@
 // (RFC 6455 section 5.2 header: 2 bytes, a 16- or 64-bit extended length, a 4-byte mask key
 // when masked), so that each data message ws emits can be matched with the bytes it occupied on
 // the socket, control frames (close, ping, pong) apart. Counting starts after the HTTP upgrade.
+//
+// The same walk enforces the payload limit of a data message by its header alone. ws's own
+// limit (maxPayload) is fixed for all connections when the server is made and has no supported
+// way to change per connection, while a connection must be held to the tiny hello until it is
+// authenticated and to the plan's frame limit after: so ws gets the larger limit, and this walk,
+// which sees every header before ws does, reports a message past the current limit the moment its
+// header is read, before its payload is buffered or decoded.
 
 import type { Socket } from 'node:net';
 
@@ -26,13 +33,29 @@ export class WireMeter {
   private readonly completedMessageBytes: number[] = [];
   /** wire bytes of control frames received */
   controlReadBytes = 0;
+  /** payload bytes of the data message being assembled */
+  private messagePayloadBytes = 0;
+  private payloadLimitBytes: number;
+  private readonly onOversize: (payloadBytes: number, limitBytes: number) => void;
+  private oversizeReported = false;
 
-  constructor(socket: Socket) {
+  constructor(
+    socket: Socket,
+    payloadLimitBytes: number,
+    onOversize: (payloadBytes: number, limitBytes: number) => void,
+  ) {
     this.socket = socket;
+    this.payloadLimitBytes = payloadLimitBytes;
+    this.onOversize = onOversize;
     this.readBaselineBytes = socket.bytesRead;
     this.writeBaselineBytes = socket.bytesWritten;
     // Before ws's own listener, so that a message's bytes are counted when ws emits it.
     socket.prependListener('data', (chunk: Buffer) => this.scan(chunk));
+  }
+
+  /** The largest data message (its payload, summed over its fragments) allowed from now on. */
+  setPayloadLimitBytes(bytes: number): void {
+    this.payloadLimitBytes = bytes;
   }
 
   /** Wire bytes of the next data message ws emits (call once per 'message' event). */
@@ -70,6 +93,13 @@ export class WireMeter {
     this.currentFrameBytes = h.length + payloadBytes;
     this.payloadRemainingBytes = payloadBytes;
     this.header = [];
+    if (!this.currentFrameIsControl) {
+      this.messagePayloadBytes += payloadBytes;
+      if (this.messagePayloadBytes > this.payloadLimitBytes && !this.oversizeReported) {
+        this.oversizeReported = true;
+        this.onOversize(this.messagePayloadBytes, this.payloadLimitBytes);
+      }
+    }
     if (payloadBytes === 0) this.finishFrame();
   }
 
@@ -82,6 +112,7 @@ export class WireMeter {
     if (this.currentFrameFin) {
       this.completedMessageBytes.push(this.messageBytes);
       this.messageBytes = 0;
+      this.messagePayloadBytes = 0;
     }
   }
 

@@ -149,7 +149,6 @@ async function coordinate(
     workersMax: scenario.clients.count,
     maxClientsPerWorker: scenario.clients.count,
     joinTimeoutSeconds: opts.workersWaitSeconds,
-    handshakeTimeoutSeconds: 10,
     exchangeTimeoutSeconds: 300,
     wallGraceSeconds: 0.5,
     ...(opts.heartbeatSilenceSeconds === undefined

@@ -33,7 +33,6 @@ export class RunInterrupted extends Error {
 /** Limits of an embedded run: local workers start in well under a second each. */
 export const EMBEDDED_LIMITS = {
   joinTimeoutSeconds: 60,
-  handshakeTimeoutSeconds: 10,
   exchangeTimeoutSeconds: 300,
   wallGraceSeconds: 0.5,
   /** after done, workers close their pools and exit; past this they are stopped */
@@ -223,7 +222,11 @@ export function formatDistributedSummary(result: DistributedRunResult, outDir: s
           .map((w) => `${w.workerName} (round ${w.round}, clients ${w.clientIds.join(' ')})`)
           .join(', ');
   const errors =
-    Object.entries({ ...outcome.protocolErrors.received, ...outcome.protocolErrors.frame })
+    Object.entries({
+      ...outcome.protocolErrors.received,
+      ...outcome.protocolErrors.frame,
+      ...outcome.protocolErrors.limit,
+    })
       .map(([code, n]) => `${code} ${n}`)
       .join(', ') || 'none';
   const layers = outcome.bytesLayers;

@@ -23,6 +23,8 @@ export const PROTOCOL_ERROR_CODES = [
   'E_SIZE',
   /** The proof of the shared key does not answer the challenge. */
   'E_AUTH',
+  /** A message out of the conversation's order: a connection's first message must be a hello. */
+  'E_ORDER',
 ] as const;
 
 export type ProtocolErrorCode = (typeof PROTOCOL_ERROR_CODES)[number];

@@ -27,9 +27,13 @@ export {
 } from './frame-errors.js';
 export { frameBytes, frameHeaderBytes } from './framing.js';
 export {
+  CONNECTION_LIMITS,
+  controlFrameBytesMax,
   frameLimitBytesFor,
   HANDSHAKE_LIMITS,
+  helloFrameBytesMax,
   limitsForPlan,
+  pendingBytesMaxFor,
   protocolLimitsSchema,
   type PlanShape,
   type ProtocolLimits,

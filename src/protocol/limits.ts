@@ -5,6 +5,8 @@
 
 import { z } from 'zod';
 import type { FieldDims } from './field-dims.js';
+import { PROTOCOL_ERROR_CODES } from './errors.js';
+import { PROOF_BYTES, RESUME_TOKEN_BYTES } from './secret-lengths.js';
 
 export const protocolLimitsSchema = z
   .object({
@@ -122,4 +124,112 @@ export function limitsForPlan(shape: PlanShape): ProtocolLimits {
     maxClientsPerWorker: clientsPerWorker,
     maxVectorDim,
   };
+}
+
+// The hello, bounded from its fields. A connection carries nothing else before its hello is
+// accepted, so a frame larger than this is refused by its header alone (server/wire-meter.ts),
+// before its payload is buffered or a byte of it is decoded. Sizes from the MessagePack spec,
+// "formats": a map of at most 15 entries has a 1-byte header (fixmap); a key of at most 31
+// bytes is a fixstr (1 byte + its bytes); a number takes at most 9 bytes (marker + 8, as int64,
+// uint64 or float64); a string of up to 65,535 bytes a 3-byte header (str16); a binary of up to
+// 255 bytes a 2-byte header (bin8). UTF-8 spends at most 3 bytes on a UTF-16 code unit (a
+// surrogate pair, two units, takes 4).
+
+/** The keys a hello may carry (messages.ts, HelloMessage). */
+const HELLO_KEYS = ['type', 'protocolVersion', 'workerName', 'capacity', 'proof', 'resume'];
+const FIXMAP_HEADER_BYTES = 1;
+const NUMBER_BYTES_MAX = 9;
+const STR16_HEADER_BYTES = 3;
+const BIN8_HEADER_BYTES = 2;
+const UTF8_BYTES_PER_UTF16_UNIT_MAX = 3;
+
+/** Largest encoding of a legal hello under `limits` (bytes of the MessagePack frame). */
+export function helloFrameBytesMax(limits: ProtocolLimits = HANDSHAKE_LIMITS): number {
+  let bytes = FIXMAP_HEADER_BYTES;
+  for (const key of HELLO_KEYS) bytes += 1 + key.length;
+  bytes += 1 + 'hello'.length;
+  bytes += NUMBER_BYTES_MAX; // protocolVersion
+  bytes += STR16_HEADER_BYTES + UTF8_BYTES_PER_UTF16_UNIT_MAX * limits.maxWorkerNameLength;
+  bytes += NUMBER_BYTES_MAX; // capacity
+  bytes += BIN8_HEADER_BYTES + PROOF_BYTES;
+  bytes += BIN8_HEADER_BYTES + RESUME_TOKEN_BYTES;
+  return bytes;
+}
+
+/**
+ * Largest encoding of a legal heartbeat or error under `limits`: the messages a worker sends
+ * unasked (an up answers a down). Bounded as the hello is, above.
+ */
+export function controlFrameBytesMax(limits: ProtocolLimits): number {
+  const heartbeatBytes =
+    FIXMAP_HEADER_BYTES +
+    (1 + 'type'.length) +
+    (1 + 'heartbeat'.length) +
+    (1 + 'sentAtMs'.length) +
+    NUMBER_BYTES_MAX;
+  const longestCode = Math.max(...PROTOCOL_ERROR_CODES.map((code) => code.length));
+  const errorBytes =
+    FIXMAP_HEADER_BYTES +
+    (1 + 'type'.length) +
+    (1 + 'error'.length) +
+    (1 + 'code'.length) +
+    (1 + longestCode) +
+    (1 + 'message'.length) +
+    STR16_HEADER_BYTES +
+    UTF8_BYTES_PER_UTF16_UNIT_MAX * limits.maxErrorMessageLength;
+  return Math.max(heartbeatBytes, errorBytes);
+}
+
+/**
+ * Limits on connections rather than on messages: what a peer may hold, send and make the
+ * coordinator buffer. The coordinator applies them (server/); a worker that follows the
+ * protocol never comes near any of them.
+ */
+export const CONNECTION_LIMITS = {
+  /**
+   * From the TCP connection's accept to an accepted hello: the TLS handshake, the HTTP upgrade
+   * and the hello together. An honest worker needs a few round trips; a connection still short
+   * of its hello after this is dropped.
+   */
+  handshakeDeadlineSeconds: 5,
+  /** After a close frame, how long the peer has to answer it before the socket is destroyed. */
+  closingDeadlineSeconds: 2,
+  /**
+   * Connections that have not passed their hello, at once. A connection past this evicts the
+   * oldest unauthenticated one, so that idle connections can never keep a worker (or a resuming
+   * one) out; authenticated workers are never counted.
+   */
+  unauthenticatedConnectionsMax: 64,
+  /**
+   * Messages a worker may send beyond one per down it was sent (heartbeats, error reports):
+   * a sustained rate and a burst. A worker sends a heartbeat every heartbeatIntervalSeconds.
+   */
+  unsolicitedMessagesPerSecond: 20,
+  unsolicitedMessagesBurst: 100,
+  /** Error replies to one connection: past the burst, at most this many a second; the rest are counted only. */
+  errorRepliesPerSecond: 5,
+  errorRepliesBurst: 20,
+  /** Bad messages one connection may send (a burst, then a rate) before it is dropped. */
+  badMessagesPerSecond: 5,
+  badMessagesBurst: 100,
+  /** The coordinator logs one line per kind of peer trouble per interval, with a count of the rest. */
+  logIntervalSeconds: 10,
+  /** ws's own bound on pings answered but not yet written (a peer that pings and never reads). */
+  pendingPongsMax: 16,
+} as const;
+
+/**
+ * Bytes the coordinator may have queued for one connection, unsent because the peer does not
+ * read, before it drops the peer: every frame of two exchanges to each client the worker hosts
+ * (one that the peer is still reading, one just sent) at the frame limit, or before the
+ * welcome, the welcome itself (HANDSHAKE_LIMITS.maxFrameBytes); and room for control messages.
+ */
+export function pendingBytesMaxFor(limits: ProtocolLimits, clientsPerWorker: number): number {
+  if (!Number.isSafeInteger(clientsPerWorker) || clientsPerWorker < 0) {
+    throw new RangeError(
+      `clientsPerWorker must be a non-negative integer, got ${clientsPerWorker}`,
+    );
+  }
+  const exchangesBytes = 2 * clientsPerWorker * limits.maxFrameBytes;
+  return Math.max(exchangesBytes, HANDSHAKE_LIMITS.maxFrameBytes) + CONTROL_FRAME_BYTES;
 }

@@ -33,14 +33,7 @@ import { bytesShape, wireVectorShape } from './wire-vector.js';
 /** Bumped on any change to a message's shape or meaning; peers must match exactly. */
 export const PROTOCOL_VERSION = 3;
 
-/** Bytes of the server's challenge nonce (256 bits: never repeats in practice). */
-export const NONCE_BYTES = 32;
-
-/** Bytes of an HMAC-SHA256 proof. */
-export const PROOF_BYTES = 32;
-
-/** Bytes of a resume token (256 bits: cannot be guessed within a grace period). */
-export const RESUME_TOKEN_BYTES = 32;
+export { NONCE_BYTES, PROOF_BYTES, RESUME_TOKEN_BYTES } from './secret-lengths.js';
 
 /**
  * Exchange and field names: ASCII identifiers, so that they are safe as metric labels and a

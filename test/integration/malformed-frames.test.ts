@@ -87,7 +87,8 @@ const KINDS: Kind[] = [
     reason: 'E_FRAME_MASK',
     closeCode: CLOSE_PROTOCOL_ERROR,
   },
-  // 16 MiB, past ws's maxPayload (twice the 4 MiB handshake frame limit, server/listener.ts).
+  // 16 MiB, past every payload limit of the coordinator (the hello's size before the hello, twice
+  // the plan's frame limit after; server/worker-session.ts).
   {
     name: 'length 16 MiB',
     bytes: () => lengthClaim(16n * 1024n * 1024n),

@@ -85,6 +85,7 @@ describe('coordinator metrics labels', () => {
       received: { E_DIMENSION: 2 },
       reported: {},
       frame: { E_FRAME_MASK: 3 },
+      limit: { E_LIMIT_MESSAGE_RATE: 4 },
     }),
     clientCount,
     optimumLoss: 0,

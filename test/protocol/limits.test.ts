@@ -3,12 +3,22 @@ import { deltaVarintByteLength } from '../../src/compress/index-coding.js';
 import { Rng } from '../../src/base/rng.js';
 import { encodeMessage } from '../../src/protocol/codec.js';
 import {
+  controlFrameBytesMax,
   frameLimitBytesFor,
   HANDSHAKE_LIMITS,
+  helloFrameBytesMax,
   limitsForPlan,
+  pendingBytesMaxFor,
   protocolLimitsSchema,
 } from '../../src/protocol/limits.js';
-import { NAME_LENGTH_MAX, type WireFields } from '../../src/protocol/messages.js';
+import { PROTOCOL_ERROR_CODES } from '../../src/protocol/errors.js';
+import {
+  NAME_LENGTH_MAX,
+  PROOF_BYTES,
+  PROTOCOL_VERSION,
+  RESUME_TOKEN_BYTES,
+  type WireFields,
+} from '../../src/protocol/messages.js';
 import type { FieldDims } from '../../src/protocol/field-dims.js';
 import { toWire } from '../../src/protocol/wire-vector.js';
 
@@ -118,5 +128,77 @@ describe('limitsForPlan', () => {
     expect(() =>
       limitsForPlan({ downFieldDims: {}, upFieldDims: {}, clientsPerWorker: 0 }),
     ).toThrow(RangeError);
+  });
+});
+
+describe('helloFrameBytesMax', () => {
+  // Three UTF-8 bytes for U+20AC (RFC 3629 section 3): a name at the length limit in such
+  // characters is the longest a hello can carry.
+  const longestName = '\u20ac'.repeat(HANDSHAKE_LIMITS.maxWorkerNameLength);
+  const largestHello = {
+    type: 'hello' as const,
+    protocolVersion: PROTOCOL_VERSION,
+    workerName: longestName,
+    capacity: HANDSHAKE_LIMITS.maxClientsPerWorker,
+    proof: new Uint8Array(PROOF_BYTES),
+    resume: new Uint8Array(RESUME_TOKEN_BYTES),
+  };
+
+  it('holds the largest legal hello the real encoder writes', () => {
+    expect(encodeMessage(largestHello).byteLength).toBeLessThanOrEqual(helloFrameBytesMax());
+  });
+
+  it('exceeds it only by the numbers the encoder writes shorter than 9 bytes', () => {
+    // MessagePack spec, "formats": the version (under 128) is a 1-byte positive fixint and a
+    // capacity of 10,000 a 3-byte uint16; the bound allows 9 bytes for each.
+    const slackBytes = 9 - 1 + (9 - 3);
+    expect(helloFrameBytesMax() - encodeMessage(largestHello).byteLength).toBe(slackBytes);
+  });
+});
+
+describe('controlFrameBytesMax', () => {
+  const limits = limitsForPlan({
+    downFieldDims: { local: { x: 20 } },
+    upFieldDims: { local: { delta: 20 } },
+    clientsPerWorker: 4,
+  });
+
+  it('is met exactly by the largest error (the longest code, the longest text in 3-byte characters)', () => {
+    const longestCode = [...PROTOCOL_ERROR_CODES].sort((a, b) => b.length - a.length)[0];
+    const error = encodeMessage({
+      type: 'error',
+      code: longestCode,
+      message: '\u20ac'.repeat(limits.maxErrorMessageLength),
+    });
+    expect(error.byteLength).toBe(controlFrameBytesMax(limits));
+  });
+
+  it('holds a heartbeat with the largest clock reading', () => {
+    const heartbeat = encodeMessage({ type: 'heartbeat', sentAtMs: Number.MAX_VALUE });
+    expect(heartbeat.byteLength).toBeLessThanOrEqual(controlFrameBytesMax(limits));
+  });
+});
+
+describe('pendingBytesMaxFor', () => {
+  const limits = limitsForPlan({
+    downFieldDims: { local: { x: 200_000 } },
+    upFieldDims: { local: { delta: 200_000 } },
+    clientsPerWorker: 3,
+  });
+  const controlBytes = 64 * 1024;
+
+  it('holds two exchanges of the largest downs to every client, and room for control messages', () => {
+    expect(pendingBytesMaxFor(limits, 3)).toBe(2 * 3 * limits.maxFrameBytes + controlBytes);
+  });
+
+  it('holds the welcome before any client is dealt', () => {
+    expect(pendingBytesMaxFor(HANDSHAKE_LIMITS, 0)).toBe(
+      HANDSHAKE_LIMITS.maxFrameBytes + controlBytes,
+    );
+  });
+
+  it('refuses a negative or fractional client count', () => {
+    expect(() => pendingBytesMaxFor(limits, -1)).toThrow(RangeError);
+    expect(() => pendingBytesMaxFor(limits, 1.5)).toThrow(RangeError);
   });
 });

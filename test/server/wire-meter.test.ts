@@ -33,7 +33,7 @@ function fakeSocket(): Socket & EventEmitter {
 describe('WireMeter', () => {
   it('attributes each message its frame bytes across arbitrary chunks', () => {
     const socket = fakeSocket();
-    const meter = new WireMeter(socket);
+    const meter = new WireMeter(socket, Number.MAX_SAFE_INTEGER, () => undefined);
     const stream = Buffer.concat([
       frame(2, 10),
       frame(9, 4),
