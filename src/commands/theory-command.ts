@@ -2,6 +2,7 @@
 
 import type { Scenario } from '../scenario/schema.js';
 import { theoryOf } from '../theory/plan-theory.js';
+import { assertMemoryFits } from '../engine/memory-estimate.js';
 import { formatTable } from '../report/text-table.js';
 
 export interface TheoryReport {
@@ -30,6 +31,8 @@ export interface TheoryReport {
 }
 
 export function theoryReport(scenario: Scenario): TheoryReport {
+  // The oracle builds every shard and dense Hessians: a scenario too large is refused first.
+  assertMemoryFits(scenario);
   const t = theoryOf(scenario);
   const c = t.constants;
   return {
