@@ -17,13 +17,13 @@ export const benchReferenceSchema = z.strictObject({
 });
 
 export const benchResultSchema = z.strictObject({
-  /** the part of the code measured: vec, problem, compress */
+  /** the part of the code measured: vec, problem, compress, memory */
   suite: z.string().min(1),
   /** what was measured, e.g. "dot" or "gradient least-squares" */
   case: z.string().min(1),
   /** the problem's sizes, e.g. {d: 1000} */
   shape: z.record(z.string(), shapeValue),
-  /** the measured throughput, a median of repeated batches (higher is better) */
+  /** a throughput, the median of repeated batches (higher is better); for memory, MiB (lower is better) */
   figure: z.number().positive(),
   unit: z.string().min(1),
   reference: benchReferenceSchema.optional(),

@@ -3,7 +3,9 @@
 
 import { benchReport } from './bench-report.js';
 import { benchSink, runBench } from './bench-cases.js';
+import { runMemoryBench } from './memory-cases.js';
 
-process.stdout.write(`${JSON.stringify(benchReport(runBench()), null, 2)}\n`);
+const results = [...runBench(), ...(await runMemoryBench())];
+process.stdout.write(`${JSON.stringify(benchReport(results), null, 2)}\n`);
 // Read the sink once, so that no engine can prove the measured results unused.
 if (benchSink() === Number.MIN_VALUE) process.stderr.write('');
