@@ -21,6 +21,7 @@ export const BAD_INPUT_CODES: ReadonlySet<string> = new Set([
   'E_SCENARIO_FIELD',
   'E_SCENARIO_TWEAK',
   'E_SCENARIO_FILE',
+  'E_SCENARIO_MEMORY',
   // src/data
   'E_DATA_SPEC',
   'E_DATASET',

@@ -7,6 +7,7 @@ import {
   theoryOf,
   type PlanTheory,
 } from '../theory/plan-theory.js';
+import { assertMemoryFits } from '../engine/memory-estimate.js';
 import type { ClientConstants } from '../theory/constants.js';
 import { formatTable } from '../report/text-table.js';
 import { clientConstantsInParallel } from '../../server/oracle-pool.js';
@@ -64,6 +65,8 @@ async function clientConstantsOf(
 }
 
 export async function theoryReport(scenario: Scenario): Promise<TheoryReport> {
+  // The oracle builds every shard and dense Hessians: a scenario too large is refused first.
+  assertMemoryFits(scenario);
   const t = theoryOf(scenario);
   const c = t.constants;
   const details = knownTheoryDetails(t) ?? theoryDetailsOf(t, await clientConstantsOf(scenario, t));

@@ -9,6 +9,7 @@ import { hashOf } from '../scenario/plan-hash.js';
 import { localStepsFor } from '../timing/local-steps.js';
 import { participantCount } from '../timing/participation.js';
 import { assertPolicyFitsRound } from '../timing/round-policy.js';
+import { assertMemoryFits } from './memory-estimate.js';
 
 export type { WirePlan };
 
@@ -45,7 +46,8 @@ export function methodConfigFor(scenario: Scenario, smoothness: number): MethodC
 
 /**
  * Refuses what the schema cannot see field by field, with exit code 2, before any work: both
- * runtimes plan through here, so they accept and refuse the same scenarios.
+ * runtimes plan through here, so they accept and refuse the same scenarios. That includes a
+ * scenario too large for memory (memory-estimate.ts), refused before any shard is built.
  */
 export function assertPlannable(scenario: Scenario): void {
   const { participation } = scenario.method;
@@ -55,6 +57,7 @@ export function assertPlannable(scenario: Scenario): void {
     perRound,
     `method.participation ${participation} of clients.count ${scenario.clients.count}`,
   );
+  assertMemoryFits(scenario);
 }
 
 export function resolveRunPlan(scenario: Scenario, facts: PlanProblemFacts): RunPlan {

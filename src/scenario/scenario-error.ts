@@ -1,7 +1,12 @@
 // A scenario problem, named by the field's dotted path. The CLI maps it to exit code 2.
 
 export type ScenarioErrorCode =
-  'E_SCENARIO_SYNTAX' | 'E_SCENARIO_FIELD' | 'E_SCENARIO_TWEAK' | 'E_SCENARIO_FILE';
+  | 'E_SCENARIO_SYNTAX'
+  | 'E_SCENARIO_FIELD'
+  | 'E_SCENARIO_TWEAK'
+  | 'E_SCENARIO_FILE'
+  /** the run the scenario describes would need more memory than RUN_MEMORY_MIB_MAX */
+  | 'E_SCENARIO_MEMORY';
 
 export class ScenarioError extends Error {
   readonly code: ScenarioErrorCode;

@@ -17,13 +17,13 @@ export const benchReferenceSchema = z.strictObject({
 });
 
 export const benchResultSchema = z.strictObject({
-  /** the part of the code measured: vec, problem, compress */
+  /** the part of the code measured: vec, problem, compress, memory */
   suite: z.string().min(1),
   /** what was measured, e.g. "dot" or "gradient least-squares" */
   case: z.string().min(1),
   /** the problem's sizes, e.g. {d: 1000} */
   shape: z.record(z.string(), shapeValue),
-  /** the measured throughput, a median of repeated batches (higher is better, unless `better` says lower) */
+  /** a throughput, the median of repeated batches (higher is better), or, where `better` is "lower", a duration or a size */
   figure: z.number().positive(),
   unit: z.string().min(1),
   /** "lower" for a figure where less is better (seconds of a setup); absent means higher */

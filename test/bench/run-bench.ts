@@ -3,9 +3,10 @@
 
 import { benchReport } from './bench-report.js';
 import { benchSink, runBench } from './bench-cases.js';
+import { runMemoryBench } from './memory-cases.js';
 import { runOracleBench } from './oracle-bench-cases.js';
 
-const results = [...runBench(), ...(await runOracleBench())];
+const results = [...runBench(), ...(await runOracleBench()), ...(await runMemoryBench())];
 process.stdout.write(`${JSON.stringify(benchReport(results), null, 2)}\n`);
 // Read the sink once, so that no engine can prove the measured results unused.
 if (benchSink() === Number.MIN_VALUE) process.stderr.write('');
