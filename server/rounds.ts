@@ -19,6 +19,7 @@ import {
   type ExchangeOrder,
   type ExchangeReply,
   type RoundTransport,
+  type WalkPoint,
 } from '../src/engine/walk-transport.js';
 import { payloadBytes } from '../src/compress/payload-bytes.js';
 import { policyForUpdates } from '../src/timing/round-policy.js';
@@ -55,6 +56,8 @@ export interface RoundDriverOptions {
   onRound?: (record: RoundRecord) => void;
   /** every round with its clients' records, round 0 (the initial evaluation, no clients) first */
   onRoundRecords?: (record: RoundRecord, clients: readonly ClientRoundRecord[]) => void;
+  /** keeps what the run needs to go on after `point` (the server's state is `server`'s) */
+  checkpoint?: (point: WalkPoint, server: ServerRuntime) => Promise<void>;
 }
 
 export type RoundsResult = WalkedRun;
@@ -272,6 +275,10 @@ export class RoundDriver implements RoundTransport<'async'> {
 
   evaluate(model: Float64Array): Promise<Evaluation> {
     return this.options.evaluate(model);
+  }
+
+  async checkpoint(point: WalkPoint): Promise<void> {
+    await this.options.checkpoint?.(point, this.server);
   }
 
   private closeRuleFor(assignments: readonly ClientAssignment[], sentMs: number): CloseRule {

@@ -31,6 +31,10 @@ export const BAD_INPUT_CODES: ReadonlySet<string> = new Set([
   'E_TIMING_SLOWDOWN_NOT_FINITE',
   // src/results
   'E_RESULTS_FOLDER',
+  'E_CHECKPOINT_MISSING',
+  'E_CHECKPOINT_DAMAGED',
+  'E_CHECKPOINT_VERSION',
+  'E_CHECKPOINT_PLAN',
   // src/report
   'E_COMPARE_VARIANTS',
   'E_LADDER_FIELDS',

@@ -13,6 +13,7 @@ import { ReplicaDecoder } from '../compress/replica.js';
 import type { CompressedVector } from '../compress/compressed-vector.js';
 import type { WirePlan } from './run-plan.js';
 import { minibatchRng, uplinkRngFor } from './seeded-streams.js';
+import { assertSameShape, assertVectorsByName } from './state-tree.js';
 
 export type EncodedFields = Record<string, CompressedVector>;
 
@@ -123,6 +124,18 @@ export class ClientRuntime {
     this.state = structuredClone(snapshot.methodState);
     this.uplink.restore(snapshot.uplinkMemories);
     this.downlink.restore(snapshot.downlinkReplicas);
+  }
+
+  /**
+   * restore() for a snapshot from outside this process (a checkpoint file, a coordinator's
+   * message): throws StateTreeError unless its shape is the one this client's method builds.
+   */
+  restoreChecked(snapshot: ClientRuntimeSnapshot): void {
+    const path = `clients[${this.clientId}]`;
+    assertSameShape(this.state, snapshot.methodState, `${path}.methodState`);
+    assertVectorsByName(snapshot.uplinkMemories, this.plan.dim, `${path}.uplinkMemories`);
+    assertVectorsByName(snapshot.downlinkReplicas, this.plan.dim, `${path}.downlinkReplicas`);
+    this.restore(snapshot);
   }
 
   /**

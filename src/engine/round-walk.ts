@@ -31,6 +31,7 @@ import {
   type ByteLayer,
   type ExchangeDown,
   type ExchangeRequest,
+  type WalkPoint,
   type WalkRequest,
 } from './walk-transport.js';
 
@@ -163,6 +164,16 @@ export interface RunWalkSetup extends WalkSetup {
   wallSeconds: () => number;
   /** every round with its clients' records, round 0 (the initial evaluation, no clients) first */
   onRound?: (record: RoundRecord, clients: readonly ClientRoundRecord[]) => void;
+  /**
+   * Go on after this point (a checkpoint's), the runtimes already restored to it: round 0's
+   * evaluation and record are not repeated, and the virtual clock counts on from the point's.
+   */
+  resumeAfter?: WalkPoint;
+  /**
+   * Ask the transport for a checkpoint after every this many rounds (0 or absent: never), and
+   * always after the round a stop ('stopped') ended, so that an interrupted run can go on.
+   */
+  checkpointEveryRounds?: number;
 }
 
 /** A run's outcome as the walk knows it: round 0 (the initial model), then one record per round walked. */
@@ -189,35 +200,47 @@ function bytesOf(
 export function* walkRun(setup: RunWalkSetup): Generator<WalkRequest, WalkedRun, unknown> {
   const { server, byteLayers } = setup;
   const { rounds: roundsMax, evalEvery, target } = setup.plan.scenario.run;
-  const clock = new VirtualClock();
-  const initial = yield* ask({ kind: 'evaluate', model: server.model() });
-  const first: RoundRecord = {
-    round: 0,
-    suboptimality: initial.suboptimality,
-    distance: initial.distance,
-    bytes: bytesOf([], byteLayers),
-    localSteps: {},
-    dropped: [],
-    roundSeconds: 0,
-    virtualSeconds: 0,
-    wallSeconds: setup.wallSeconds(),
-  };
-  const rounds: RoundRecord[] = [first];
+  const start = setup.resumeAfter;
+  const clock = start === undefined ? new VirtualClock() : VirtualClock.fromState(start.clock);
+  const rounds: RoundRecord[] = [];
   const clients: ClientRoundRecord[] = [];
-  setup.onRound?.(first, []);
+  if (start === undefined) {
+    const initial = yield* ask({ kind: 'evaluate', model: server.model() });
+    const first: RoundRecord = {
+      round: 0,
+      suboptimality: initial.suboptimality,
+      distance: initial.distance,
+      bytes: bytesOf([], byteLayers),
+      localSteps: {},
+      dropped: [],
+      roundSeconds: 0,
+      virtualSeconds: 0,
+      wallSeconds: setup.wallSeconds(),
+    };
+    rounds.push(first);
+    setup.onRound?.(first, []);
+  }
+  let point: WalkPoint = start ?? {
+    round: 0,
+    clock: clock.state(),
+    wallSeconds: rounds[0].wallSeconds,
+  };
+  const checkpointEvery = setup.checkpointEveryRounds ?? 0;
   let stopReason: StopReason = 'rounds-complete';
 
-  for (let round = 1; round <= roundsMax; round++) {
+  for (let round = (start?.round ?? 0) + 1; round <= roundsMax; round++) {
     const refused = yield* ask({ kind: 'open-round', round });
     if (refused !== null) {
       stopReason = refused;
+      if (refused === 'stopped') yield* ask({ kind: 'checkpoint', point });
       break;
     }
     const walked = yield* walkRound(setup, round);
     clients.push(...walked.records);
     const virtualSeconds = clock.advance(walked.roundSeconds);
     const ending = walked.diverged ? 'diverged' : yield* ask({ kind: 'close-round', round });
-    const last = round === roundsMax || ending !== null;
+    // A stopped run may be resumed: its record must be the one an unstopped run writes.
+    const last = round === roundsMax || (ending !== null && ending !== 'stopped');
     const evaluated =
       round % evalEvery === 0 || last
         ? yield* ask({ kind: 'evaluate', model: server.model() })
@@ -235,14 +258,18 @@ export function* walkRun(setup: RunWalkSetup): Generator<WalkRequest, WalkedRun,
     };
     rounds.push(record);
     setup.onRound?.(record, walked.records);
+    point = { round, clock: clock.state(), wallSeconds: record.wallSeconds };
     if (ending !== null) {
       stopReason = ending;
+      if (ending === 'stopped') yield* ask({ kind: 'checkpoint', point });
       break;
     }
     if (evaluated && target > 0 && evaluated.suboptimality <= target) {
       stopReason = 'target-reached';
       break;
     }
+    if (checkpointEvery > 0 && round % checkpointEvery === 0 && round < roundsMax)
+      yield* ask({ kind: 'checkpoint', point });
   }
   return { rounds, clients, finalModel: server.model(), stopReason, virtualSeconds: clock.now() };
 }
