@@ -13,7 +13,7 @@ import { ReplicaDecoder } from '../compress/replica.js';
 import type { CompressedVector } from '../compress/compressed-vector.js';
 import type { WirePlan } from './run-plan.js';
 import { minibatchRng, uplinkRngFor } from './seeded-streams.js';
-import { assertSameShape, assertVectorsByName } from './state-tree.js';
+import { assertSameShape, assertVectorsByName } from '../base/state-tree.js';
 
 export type EncodedFields = Record<string, CompressedVector>;
 

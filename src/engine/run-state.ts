@@ -9,7 +9,7 @@
 import type { ClientRuntime, ClientRuntimeSnapshot } from './client-runtime.js';
 import type { ServerRuntime, ServerRuntimeSnapshot } from './server-runtime.js';
 import type { RunPlan } from './run-plan.js';
-import { StateTreeError } from './state-tree.js';
+import { StateTreeError } from '../base/state-tree.js';
 import type { WalkPoint } from './walk-transport.js';
 
 export interface RunState extends WalkPoint {

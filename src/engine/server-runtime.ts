@@ -10,7 +10,7 @@ import { UplinkDecoder } from '../compress/uplink.js';
 import type { EncodedFields } from './client-runtime.js';
 import type { RunPlan } from './run-plan.js';
 import { downlinkRngFor } from './seeded-streams.js';
-import { assertSameShape, assertVectorsByName, StateTreeError } from './state-tree.js';
+import { assertSameShape, assertVectorsByName, StateTreeError } from '../base/state-tree.js';
 
 export interface EncodedUpload {
   clientId: number;

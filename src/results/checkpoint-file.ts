@@ -31,7 +31,14 @@ import { basename, dirname, join } from 'node:path';
 import { z } from 'zod';
 import { CodedError } from '../base/coded-error.js';
 import type { RunState } from '../engine/run-state.js';
-import { flattenState, rebuildState, StateTreeError, type StateJson } from '../engine/state-tree.js';
+import {
+  flattenState,
+  packVectors,
+  rebuildState,
+  StateTreeError,
+  unpackVectors,
+  type StateJson,
+} from '../base/state-tree.js';
 
 export type CheckpointErrorCode =
   /** no checkpoint file, or it cannot be read */
@@ -106,12 +113,7 @@ function alignedTo8(bytes: number): number {
 export function encodeCheckpoint(checkpoint: Checkpoint): Uint8Array {
   const { planHash, ...walked } = checkpoint.state;
   const flat = flattenState(walked);
-  const valueCount = flat.vectors.reduce((n, v) => n + v.length, 0);
-  const vectorBytes = Buffer.alloc(valueCount * 8);
-  let offset = 0;
-  for (const vector of flat.vectors) {
-    for (const value of vector) offset = vectorBytes.writeDoubleLE(value, offset);
-  }
+  const vectorBytes = packVectors(flat.vectors);
   const lengths = flat.vectors.map((v) => v.length);
   const header = Buffer.from(
     JSON.stringify({
@@ -129,7 +131,7 @@ export function encodeCheckpoint(checkpoint: Checkpoint): Uint8Array {
   out.writeUInt32LE(CHECKPOINT_FORMAT_VERSION, 8);
   out.writeUInt32LE(header.byteLength, 12);
   header.copy(out, PREFIX_BYTES);
-  vectorBytes.copy(out, dataStart);
+  out.set(vectorBytes, dataStart);
   return out;
 }
 
@@ -186,13 +188,7 @@ export function decodeCheckpoint(bytes: Uint8Array, planHash: string, file: stri
   const data = buffer.subarray(dataStart);
   if (createHash('sha256').update(data).digest('hex') !== header.vectorsSha256)
     throw damaged(file, 'its vectors do not match their SHA-256');
-  const vectors: Float64Array[] = [];
-  let offset = 0;
-  for (const length of tree.data.lengths) {
-    const vector = new Float64Array(length);
-    for (let j = 0; j < length; j++, offset += 8) vector[j] = data.readDoubleLE(offset);
-    vectors.push(vector);
-  }
+  const vectors = unpackVectors(data, tree.data.lengths);
   let state: z.infer<typeof stateSchema>;
   try {
     state = stateSchema.parse(rebuildState({ tree: tree.data.tree as StateJson, vectors }));

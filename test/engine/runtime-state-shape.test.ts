@@ -7,7 +7,7 @@ import { scenarioFromText } from '../../src/scenario/load-scenario.js';
 import { planFor } from '../../src/engine/in-process-engine.js';
 import { ServerRuntime } from '../../src/engine/server-runtime.js';
 import { ClientRuntime } from '../../src/engine/client-runtime.js';
-import { flattenState, rebuildState, StateTreeError } from '../../src/engine/state-tree.js';
+import { flattenState, rebuildState, StateTreeError } from '../../src/base/state-tree.js';
 import { codeOf } from '../support/error-code.js';
 
 const text = readFileSync(new URL('../../scenarios/quickstart.yaml', import.meta.url), 'utf8');

@@ -196,3 +196,31 @@ export function assertVectorsByName(value: unknown, dim: number, path: string): 
     if (v.length !== dim) fail(`${path}.${name}`, `expected dimension ${dim}, got ${v.length}`);
   }
 }
+
+/** The vectors one after another as little-endian float64 values, whatever the machine's order. */
+export function packVectors(vectors: readonly Float64Array[]): Uint8Array {
+  const total = vectors.reduce((n, v) => n + v.length, 0);
+  const bytes = new Uint8Array(total * 8);
+  const view = new DataView(bytes.buffer);
+  let offset = 0;
+  for (const vector of vectors) {
+    for (let j = 0; j < vector.length; j++, offset += 8) view.setFloat64(offset, vector[j], true);
+  }
+  return bytes;
+}
+
+/** packVectors undone, for vectors of the given lengths; throws StateTreeError when the bytes do not match them. */
+export function unpackVectors(bytes: Uint8Array, lengths: readonly number[]): Float64Array[] {
+  const total = lengths.reduce((n, l) => n + l, 0);
+  if (total * 8 !== bytes.byteLength)
+    fail('vectors', `${bytes.byteLength} bytes for ${total} float64 values`);
+  const view = new DataView(bytes.buffer, bytes.byteOffset, bytes.byteLength);
+  const out: Float64Array[] = [];
+  let offset = 0;
+  for (const length of lengths) {
+    const vector = new Float64Array(length);
+    for (let j = 0; j < length; j++, offset += 8) vector[j] = view.getFloat64(offset, true);
+    out.push(vector);
+  }
+  return out;
+}
