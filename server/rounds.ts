@@ -8,6 +8,7 @@
 
 import type { RunPlan } from '../src/engine/run-plan.js';
 import { ServerRuntime } from '../src/engine/server-runtime.js';
+import type { RunState } from '../src/engine/run-state.js';
 import type { EncodedFields } from '../src/engine/client-runtime.js';
 import type { ClientAssignment } from '../src/engine/round-schedule.js';
 import type { ClientRoundRecord, RoundRecord } from '../src/engine/round-record.js';
@@ -58,6 +59,10 @@ export interface RoundDriverOptions {
   onRoundRecords?: (record: RoundRecord, clients: readonly ClientRoundRecord[]) => void;
   /** keeps what the run needs to go on after `point` (the server's state is `server`'s) */
   checkpoint?: (point: WalkPoint, server: ServerRuntime) => Promise<void>;
+  /** go on from this state (a checkpoint's): the server's part is restored here */
+  resume?: RunState;
+  /** ask for a checkpoint after every this many rounds (0 or absent: only when stopped) */
+  checkpointEveryRounds?: number;
 }
 
 export type RoundsResult = WalkedRun;
@@ -92,6 +97,10 @@ export class RoundDriver implements RoundTransport<'async'> {
     this.options = options;
     this.plan = options.plan;
     this.server = new ServerRuntime(options.plan);
+    if (options.resume !== undefined) {
+      this.server.restore(options.resume.server);
+      this.round = options.resume.round;
+    }
     this.wall = options.plan.scenario.timing.clock === 'wall';
   }
 
@@ -207,10 +216,12 @@ export class RoundDriver implements RoundTransport<'async'> {
     this.current?.diverge();
   }
 
-  /** Ends the run after the exchange in progress, which stops waiting now. */
+  /**
+   * Ends the run after the round in progress, which finishes as it would have: the checkpoint
+   * taken then lets the run go on exactly as if it had never stopped.
+   */
   requestStop(): void {
     this.stopRequested = true;
-    this.current?.abort();
   }
 
   /** Runs every round; resolves when the run stops. */
@@ -224,6 +235,8 @@ export class RoundDriver implements RoundTransport<'async'> {
         ...walkSetup(this.plan, this.server, ['encoded', 'wire']),
         wallSeconds: wallSecondsNow,
         onRound,
+        ...(this.options.resume === undefined ? {} : { resumeAfter: this.options.resume }),
+        checkpointEveryRounds: this.options.checkpointEveryRounds ?? 0,
       }),
       this,
     );

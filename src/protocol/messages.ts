@@ -14,6 +14,15 @@
 //   either way        heartbeat, error
 //   server -> worker  done
 //
+// Checkpoints: after a round the coordinator keeps (checkpoint), it asks every worker for its
+// clients' states, and each worker answers with one state message per client, taken after the
+// client's work of that round. A coordinator resumed from a checkpoint welcomes its workers
+// afresh and then sends each its clients' states (state, server -> worker), which the worker
+// restores before any down.
+//   server -> worker  checkpoint  the round whose end the states must show
+//   worker -> server  state       one client's state as of that round
+//   server -> worker  state       (resumed run) the state a client starts from
+//
 // A worker whose connection drops mid-run reconnects and answers the new challenge with a hello
 // that also carries its welcome's resume token; the coordinator, if it still holds that worker's
 // session (within its grace period), welcomes it again with the same clients.
@@ -29,7 +38,7 @@ import type { WirePlan } from './wire-plan.js';
 import type { WireVector } from './wire-vector.js';
 
 /** Bumped on any change to a message's shape or meaning; peers must match exactly. */
-export const PROTOCOL_VERSION = 2;
+export const PROTOCOL_VERSION = 3;
 
 /** Bytes of the server's challenge nonce (256 bits: never repeats in practice). */
 export const NONCE_BYTES = 32;
@@ -56,6 +65,8 @@ export const MESSAGE_TYPES = [
   'heartbeat',
   'error',
   'done',
+  'checkpoint',
+  'state',
 ] as const;
 export type MessageType = (typeof MESSAGE_TYPES)[number];
 
@@ -159,6 +170,26 @@ export interface DoneMessage {
   reason: DoneReason;
 }
 
+export interface CheckpointMessage {
+  type: 'checkpoint';
+  /** the round just finished: each hosted client's state must show its work up to this round */
+  round: number;
+}
+
+export interface StateMessage {
+  type: 'state';
+  /** the round the state is the end of */
+  round: number;
+  clientId: number;
+  /**
+   * the client's state as a JSON text: {"tree": the state tree (src/base/state-tree.ts),
+   * "lengths": the length of each vector}
+   */
+  tree: string;
+  /** the tree's vectors one after another, little-endian float64 */
+  vectors: Uint8Array;
+}
+
 export type Message =
   | ChallengeMessage
   | HelloMessage
@@ -167,4 +198,6 @@ export type Message =
   | UpMessage
   | HeartbeatMessage
   | ErrorMessage
-  | DoneMessage;
+  | DoneMessage
+  | CheckpointMessage
+  | StateMessage;

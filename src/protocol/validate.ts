@@ -104,6 +104,14 @@ const shapes = {
     message: z.string(),
   }),
   done: z.strictObject({ type: z.literal('done'), reason: z.enum(DONE_REASONS) }),
+  checkpoint: z.strictObject({ type: z.literal('checkpoint'), round: count }),
+  state: z.strictObject({
+    type: z.literal('state'),
+    round: count,
+    clientId: count,
+    tree: z.string(),
+    vectors: bytes,
+  }),
 } satisfies Record<MessageType, z.ZodType>;
 
 function formatPath(type: string, path: readonly PropertyKey[]): string {
@@ -400,6 +408,30 @@ export function validateMessage(raw: unknown, context: ValidationContext): Messa
     }
     case 'heartbeat':
       return parseShape(shapes.heartbeat, record, type);
+    case 'checkpoint':
+      return parseShape(shapes.checkpoint, record, type);
+    case 'state': {
+      const message = parseShape(shapes.state, record, type);
+      if (context.expectedRound !== null && message.round !== context.expectedRound) {
+        throw new ProtocolError(
+          'E_ROUND',
+          `state.round: expected round ${context.expectedRound}, got ${message.round}`,
+        );
+      }
+      if (context.ownedClientIds !== null && !context.ownedClientIds.has(message.clientId)) {
+        throw new ProtocolError(
+          'E_CLIENT',
+          `state.clientId: client ${message.clientId} is not hosted by this worker`,
+        );
+      }
+      if (message.vectors.byteLength % 8 !== 0) {
+        throw new ProtocolError(
+          'E_DIMENSION',
+          `state.vectors: ${message.vectors.byteLength} bytes, not a whole number of float64 values`,
+        );
+      }
+      return message;
+    }
     case 'done':
       return parseShape(shapes.done, record, type);
   }
