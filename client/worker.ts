@@ -24,6 +24,7 @@ import {
   fromWireState,
   toWireState,
   type DownMessage,
+  type FieldDims,
   type Message,
   type MessageType,
   type ProtocolLimits,
@@ -32,9 +33,9 @@ import {
 } from '../src/protocol/index.js';
 import type { ClientRuntimeSnapshot, EncodedFields } from '../src/engine/client-runtime.js';
 import type { WirePlan } from '../src/engine/run-plan.js';
+import { downFieldDimsFor } from '../src/engine/down-field-dims.js';
 import { fieldsPayloadBytes } from '../src/compress/payload-bytes.js';
 import { isNonFiniteError } from '../src/base/coded-error.js';
-import { methodByName } from '../src/algorithm/registry.js';
 import { speedModelFor } from '../src/timing/round-speed.js';
 import { ClientHost } from './client-host.js';
 import {
@@ -85,7 +86,8 @@ const WORKER_FRAME_BYTES_MAX = 512 * 1024 * 1024;
 interface Hosting {
   plan: WirePlan;
   clientIds: Set<number>;
-  exchanges: readonly string[];
+  /** the fields of each exchange's downs, with dimensions: receiveMessage checks every down */
+  downFieldDims: FieldDims;
   host: ClientHost;
   link: LinkShaper;
   pacer: ComputePacer;
@@ -237,7 +239,7 @@ export class Worker {
         expectedRound: null,
         expectedExchange: null,
         ownedClientIds: this.hosting?.clientIds ?? null,
-        fieldDims: null,
+        fieldDims: this.hosting?.downFieldDims ?? null,
         auth: null,
       });
       this.options.metrics?.frameReceived(message.type, frame.byteLength);
@@ -326,7 +328,7 @@ export class Worker {
     this.hosting = {
       plan,
       clientIds: new Set(message.assignments),
-      exchanges: methodByName(plan.scenario.method.name).exchanges,
+      downFieldDims: downFieldDimsFor(plan),
       host: new ClientHost(plan, message.assignments, { threadsMax: this.options.capacity }),
       link: new LinkShaper(plan.scenario.timing.links, wall),
       pacer: new ComputePacer(
@@ -426,23 +428,12 @@ export class Worker {
     this.heartbeatTimer.unref();
   }
 
+  /** A down that receiveMessage passed: its exchange, fields and dimensions are the plan's. */
   private down(message: DownMessage): void {
     const hosting = this.hosting!;
-    if (!hosting.exchanges.includes(message.exchange)) {
-      throw new ProtocolError(
-        'E_ROUND',
-        `down.exchange: "${message.exchange}" is not an exchange of ${hosting.plan.scenario.method.name}`,
-      );
-    }
     const encodedDown: EncodedFields = {};
-    for (const [name, wv] of Object.entries(message.fields)) {
-      if (wv.dim !== hosting.plan.dim)
-        throw new ProtocolError(
-          'E_DIMENSION',
-          `down.fields.${name}.dim: the plan says ${hosting.plan.dim}, got ${wv.dim}`,
-        );
+    for (const [name, wv] of Object.entries(message.fields))
       encodedDown[name] = fromWire(wv, `down.fields.${name}`);
-    }
     this.newestDownOf.set(message.clientId, message);
     void this.answer(hosting, message, encodedDown).catch((error: Error) =>
       this.reportFailure(message, error),

@@ -11,7 +11,7 @@ import { planFor } from '../src/engine/in-process-engine.js';
 import { predictRun } from '../src/engine/predict-run.js';
 import type { RunPlan, WirePlan } from '../src/engine/run-plan.js';
 import type { PlanTheory } from '../src/theory/plan-theory.js';
-import type { RoundRecord } from '../src/engine/round-record.js';
+import type { RecordSink, RoundRecord } from '../src/engine/round-record.js';
 import type { RunState } from '../src/engine/run-state.js';
 import type { ServerRuntime } from '../src/engine/server-runtime.js';
 import type { WalkPoint } from '../src/engine/walk-transport.js';
@@ -567,9 +567,14 @@ export class Coordinator {
     }
   }
 
-  /** Waits for workers, runs every round, says done; resolves to what the run produced. */
-  async run(): Promise<CoordinatorOutcome> {
+  /**
+   * Waits for workers, runs every round, says done; resolves to what the run produced. The
+   * records go to the sink `openRecords` opens once the workers are in (a run that never starts
+   * opens none).
+   */
+  async run(openRecords?: () => RecordSink): Promise<CoordinatorOutcome> {
     await this.waitForWorkers();
+    const records = openRecords?.() ?? null;
     // Wall seconds (per round, the ETA, the total) count from the first round: waiting for
     // workers to join is the cluster's start-up, not the method's cost, and is reported apart.
     const roundsStartedMs = performance.now();
@@ -579,6 +584,7 @@ export class Coordinator {
     const wallBeforeSeconds = this.options.resume?.wallSeconds ?? 0;
     const result = await this.driver.run(
       () => wallBeforeSeconds + (performance.now() - roundsStartedMs) / 1000,
+      records,
     );
     this.liveness.stop();
     this.runEnded = true;
@@ -602,8 +608,6 @@ export class Coordinator {
     return {
       plan: this.plan,
       theory: this.theory,
-      rounds: result.rounds,
-      clients: result.clients,
       finalModel: result.finalModel,
       stopReason: result.stopReason,
       wallSeconds: (performance.now() - roundsStartedMs) / 1000,

@@ -8,11 +8,11 @@ import { Counter, Gauge, Histogram, Registry } from 'prom-client';
 import { FRAME_ERROR_REASONS, PROTOCOL_ERROR_CODES } from '../src/protocol/index.js';
 import type { MethodName } from '../src/algorithm/method.js';
 import type { ClientRoundRecord, RoundRecord } from '../src/engine/round-record.js';
-import { curveOf } from '../src/engine/run-summary.js';
 import { fitLinearRate } from '../src/theory/measure-curve.js';
 import type { ByteLedger } from './byte-ledger.js';
 import type { ProtocolErrorCounts } from './protocol-error-counter.js';
 import { CLIENT_LABELS_MAX, clientLabel } from './metrics-labels.js';
+import { LiveCurve } from './live-curve.js';
 
 /** What the metrics read from the coordinator at scrape time. */
 export interface CoordinatorMetricsSources {
@@ -45,7 +45,8 @@ const ERROR_ORIGINS = ['received', 'reported'] as const;
 export class CoordinatorMetrics {
   readonly registry = new Registry();
   private readonly sources: CoordinatorMetricsSources;
-  private readonly rounds: RoundRecord[] = [];
+  /** the evaluated points for the measured rate, in bounded memory (live-curve.ts) */
+  private readonly curve = new LiveCurve();
   private lastWallSeconds = 0;
   private predicted: number | null | undefined = undefined;
   private measuredFor = -1;
@@ -222,8 +223,10 @@ export class CoordinatorMetrics {
 
   /** A finished round with its clients' records; round 0 is the initial evaluation. */
   roundRecorded(record: RoundRecord, clients: readonly ClientRoundRecord[]): void {
-    this.rounds.push(record);
-    if (record.suboptimality !== null) this.suboptimality.set(record.suboptimality);
+    if (record.suboptimality !== null) {
+      this.curve.add(record.round, record.suboptimality);
+      this.suboptimality.set(record.suboptimality);
+    }
     if (record.distance !== null) this.distance.set(record.distance);
     if (record.round === 0) {
       if (record.suboptimality !== null) this.suboptimalityInitial.set(record.suboptimality);
@@ -255,11 +258,11 @@ export class CoordinatorMetrics {
     return this.predicted ?? Number.NaN;
   }
 
-  /** The summary's fit (src/engine/run-summary.ts) on the rounds so far. */
+  /** The summary's fit (src/engine/run-summary.ts) on the curve so far. */
   private measuredRate(): number {
-    const curve = curveOf(this.rounds);
-    if (curve.length === this.measuredFor) return this.measured;
-    this.measuredFor = curve.length;
+    if (this.curve.count() === this.measuredFor) return this.measured;
+    this.measuredFor = this.curve.count();
+    const curve = this.curve.points();
     if (curve.length < 2) return (this.measured = Number.NaN);
     // As the summary: f is evaluated to a few ulps of its scale; below that the curve is noise.
     const noiseLevel =

@@ -9,8 +9,6 @@ export function engineOutcomeOf(outcome: CoordinatorOutcome): RunOutcome {
   return {
     plan: outcome.plan,
     theory: outcome.theory,
-    rounds: outcome.rounds,
-    clients: outcome.clients,
     finalModel: outcome.finalModel,
     stopReason: outcome.stopReason,
     wallSeconds: outcome.wallSeconds,

@@ -11,7 +11,7 @@ import { ServerRuntime } from '../src/engine/server-runtime.js';
 import type { RunState } from '../src/engine/run-state.js';
 import type { EncodedFields } from '../src/engine/client-runtime.js';
 import type { ClientAssignment } from '../src/engine/round-schedule.js';
-import type { ClientRoundRecord, RoundRecord } from '../src/engine/round-record.js';
+import type { ClientRoundRecord, RecordSink, RoundRecord } from '../src/engine/round-record.js';
 import type { Evaluation } from '../src/engine/evaluate.js';
 import { walkRun, walkSetup, type WalkedRun } from '../src/engine/round-walk.js';
 import {
@@ -34,6 +34,7 @@ import {
 } from '../src/protocol/index.js';
 import type { ByteLedger } from './byte-ledger.js';
 import { ExchangeWait, type CloseRule } from './exchange-wait.js';
+import { LateUpHold } from './late-up-hold.js';
 import type { WorkerRegistry } from './worker-registry.js';
 
 export type { StopReason } from '../src/engine/run-summary.js';
@@ -224,13 +225,15 @@ export class RoundDriver implements RoundTransport<'async'> {
     this.stopRequested = true;
   }
 
-  /** Runs every round; resolves when the run stops. */
-  run(wallSecondsNow: () => number): Promise<RoundsResult> {
+  /** Runs every round, its records into `records` as they happen; resolves when the run stops. */
+  async run(wallSecondsNow: () => number, records: RecordSink | null): Promise<RoundsResult> {
+    const hold = records && new LateUpHold(records, () => this.awaitingLateUps());
     const onRound = (record: RoundRecord, clients: readonly ClientRoundRecord[]): void => {
+      hold?.add(record, clients);
       this.options.onRoundRecords?.(record, clients);
       this.options.onRound?.(record);
     };
-    return driveAsync(
+    const result = await driveAsync(
       walkRun({
         ...walkSetup(this.plan, this.server, ['encoded', 'wire']),
         wallSeconds: wallSecondsNow,
@@ -240,6 +243,16 @@ export class RoundDriver implements RoundTransport<'async'> {
       }),
       this,
     );
+    hold?.flush();
+    return result;
+  }
+
+  /** The client records a late up may still fill in (keepForLateUps), until it comes or its client is lost. */
+  private awaitingLateUps(): Set<ClientRoundRecord> {
+    const awaited = new Set<ClientRoundRecord>();
+    for (const owed of [...this.owed.values(), ...this.superseded.values()])
+      if (owed.record !== null) awaited.add(owed.record);
+    return awaited;
   }
 
   async openRound(round: number): Promise<StopReason | null> {

@@ -8,8 +8,7 @@ import { scenarioJsonSchema } from './scenario/json-schema.js';
 import { exitCodeOf, exitCodes, exitCodesHelp } from './commands/exit-codes.js';
 import { formatTheoryReport, theoryReport } from './commands/theory-command.js';
 import { writeShards } from './commands/shards-command.js';
-import { runInProcess } from './engine/in-process-engine.js';
-import { finishRun, formatRunSummary } from './commands/run-report.js';
+import { formatRunSummary, runInProcessInto } from './commands/run-report.js';
 import { ProgressLine } from './commands/progress.js';
 import { defaultResultsDir, prepareResultsFolder } from './results/results-folder.js';
 import {
@@ -212,9 +211,8 @@ function buildProgram(io: Io): Command {
           await finishDistributed(io, progress, result, outDir, opts.json === true);
           return;
         }
-        const outcome = runInProcess(scenario, { onRound: (r) => progress.update(r) });
+        const { summary } = runInProcessInto(scenario, outDir, (r) => progress.update(r));
         progress.finish();
-        const summary = finishRun(outcome, 'in-process', outDir);
         await writeRunReport(outDir);
         io.out(
           opts.json ? `${JSON.stringify(summary, null, 2)}\n` : formatRunSummary(summary, outDir),

@@ -8,9 +8,8 @@ import { readScenarioDocument, scenarioFromDocument } from '../scenario/load-sce
 import type { Scenario } from '../scenario/schema.js';
 import { parseTweak, type Tweak } from '../scenario/tweaks.js';
 import { ScenarioError } from '../scenario/scenario-error.js';
-import { runInProcess } from '../engine/in-process-engine.js';
 import { assertPlannable } from '../engine/run-plan.js';
-import { finishRun } from './run-report.js';
+import { runInProcessInto } from './run-report.js';
 import { runDistributed } from './run-distributed.js';
 import { readRunResults, reportFileName } from './report-command.js';
 import { buildRunReport } from '../report/run-report-page.js';
@@ -136,7 +135,7 @@ async function runVariant(
     await runDistributed(planned.scenario, dir, { out: io.err, err: io.err });
     return;
   }
-  finishRun(runInProcess(planned.scenario), 'in-process', dir);
+  runInProcessInto(planned.scenario, dir);
 }
 
 /** Runs every variant in turn, writes the folders and the comparison files; returns the comparison. */

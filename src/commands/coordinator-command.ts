@@ -7,6 +7,7 @@
 import { HANDSHAKE_LIMITS } from '../protocol/index.js';
 import type { Scenario } from '../scenario/schema.js';
 import type { RoundRecord } from '../engine/round-record.js';
+import { DeferredRecordStream } from '../results/record-stream.js';
 import { Coordinator } from '../../server/coordinator.js';
 import type { TlsFiles } from '../../server/listener.js';
 import {
@@ -160,6 +161,7 @@ async function coordinate(
     onRound: io.onRound,
     log: (line) => io.err(`coordinator: ${line}\n`),
   });
+  const records = new DeferredRecordStream(outDir);
   let interrupted: NodeJS.Signals | null = null;
   let metricsServer: MetricsServer | null = null;
   let cutLinger: () => void = () => undefined;
@@ -184,7 +186,8 @@ async function coordinate(
         `key file: ${auth.fresh.path} (fresh, private to you, removed when the coordinator ends; workers on this machine join with --key-file ${auth.fresh.path})\n`,
       );
     io.err(`listening on ${url}\n`);
-    const outcome = await coordinator.run();
+    const outcome = await coordinator.run(() => records.open());
+    records.close();
     const summary = writeDistributedResults(outcome, outDir);
     if (interrupted !== null)
       throw new RunInterrupted(`interrupted by ${interrupted}; partial results in ${outDir}`);
@@ -196,6 +199,7 @@ async function coordinate(
     );
     return { outcome, summary };
   } finally {
+    records.close();
     await metricsServer?.close();
     await coordinator.close();
     process.off('SIGINT', onSignal);

@@ -4,11 +4,12 @@
 // outlives the run, nor does the key file: children are stopped and the file removed on
 // success, on failure and on SIGINT or SIGTERM.
 
-import { readFileSync, writeFileSync } from 'node:fs';
+import { writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import type { Scenario } from '../scenario/schema.js';
 import type { RoundRecord } from '../engine/round-record.js';
 import { resultFiles } from '../results/results-folder.js';
+import { DeferredRecordStream } from '../results/record-stream.js';
 import { Coordinator, type CoordinatorOptions } from '../../server/coordinator.js';
 import { LocalWorker } from '../../server/local-workers.js';
 import { distributedDetails, engineOutcomeOf } from '../../server/results.js';
@@ -77,16 +78,14 @@ export interface DistributedRunResult {
  * added (the true stop reason, control traffic, socket counters, workers).
  */
 export function writeDistributedResults(outcome: CoordinatorOutcome, outDir: string): RunSummary {
-  finishRun(engineOutcomeOf(outcome), 'distributed', outDir);
-  const file = join(outDir, resultFiles.outcome);
-  const summary = JSON.parse(readFileSync(file, 'utf8')) as RunSummary;
+  const summary = finishRun(engineOutcomeOf(outcome), 'distributed', outDir);
   const merged = {
     ...summary,
     seconds: { ...summary.seconds, join: outcome.joinSeconds },
     ...distributedDetails(outcome),
   };
-  writeFileSync(file, `${JSON.stringify(merged, null, 2)}\n`);
-  return merged as unknown as RunSummary;
+  writeFileSync(join(outDir, resultFiles.outcome), `${JSON.stringify(merged, null, 2)}\n`);
+  return merged;
 }
 
 export function coordinatorOptionsForEmbedded(
@@ -128,6 +127,7 @@ export async function runDistributed(
     keyFile.remove();
     throw error;
   }
+  const records = new DeferredRecordStream(outDir);
   const workers: LocalWorker[] = [];
   let interrupted: NodeJS.Signals | null = null;
   let runEnded = false;
@@ -181,7 +181,8 @@ export async function runDistributed(
           );
       });
     }
-    const outcome = await coordinator.run();
+    const outcome = await coordinator.run(() => records.open());
+    records.close();
     runEnded = true;
     await Promise.all(workers.map((w) => w.exitsWithin(EMBEDDED_LIMITS.workerExitSeconds)));
     if (interrupted !== null) {
@@ -202,6 +203,7 @@ export async function runDistributed(
     throw error;
   } finally {
     runEnded = true;
+    records.close();
     await metricsServer?.close();
     await coordinator.close();
     await Promise.all(workers.map((w) => w.stop()));

@@ -1,28 +1,52 @@
 // The end of a run, whichever runtime ran it: the prediction, outcome.json and the rest of the
 // results folder, and the final table a person reads.
 
+import type { Scenario } from '../scenario/schema.js';
+import type { RoundRecord } from '../engine/round-record.js';
 import type { RunOutcome, RunSummary } from '../engine/run-summary.js';
 import { buildRunSummary } from '../engine/run-summary.js';
 import { predictRun } from '../engine/predict-run.js';
+import { runInProcess } from '../engine/in-process-engine.js';
 import { writeResultsFolder } from '../results/results-folder.js';
+import { DeferredRecordStream } from '../results/record-stream.js';
+import { readRoundRecords } from '../results/record-lines.js';
 import { formatTable } from '../report/text-table.js';
 import { formatBytes } from './progress.js';
 
+/**
+ * Completes the results folder of a run whose records are already in outDir's rounds.jsonl and
+ * clients.jsonl: outcome.json (from the rounds read back from the file), the resolved scenario
+ * and the model.
+ */
 export function finishRun(
   outcome: RunOutcome,
   runtime: RunSummary['runtime'],
   outDir: string,
 ): RunSummary {
   const prediction = predictRun(outcome.plan, outcome.theory);
-  const summary = buildRunSummary(outcome, prediction, runtime);
+  const summary = buildRunSummary(outcome, readRoundRecords(outDir), prediction, runtime);
   writeResultsFolder(outDir, {
     scenario: outcome.plan.scenario,
-    rounds: outcome.rounds,
-    clients: outcome.clients,
     outcome: summary,
     finalModel: outcome.finalModel,
   });
   return summary;
+}
+
+/** Runs `scenario` in process, its records streamed into outDir as they happen; then finishRun. */
+export function runInProcessInto(
+  scenario: Scenario,
+  outDir: string,
+  onRound?: (record: RoundRecord) => void,
+): { outcome: RunOutcome; summary: RunSummary } {
+  const records = new DeferredRecordStream(outDir);
+  let outcome: RunOutcome;
+  try {
+    outcome = runInProcess(scenario, { onRound, openRecords: () => records.open() });
+  } finally {
+    records.close();
+  }
+  return { outcome, summary: finishRun(outcome, 'in-process', outDir) };
 }
 
 export function formatRunSummary(s: RunSummary, outDir: string): string {

@@ -9,7 +9,7 @@ import { ClientRuntime } from './client-runtime.js';
 import { DirectTransport } from './direct-transport.js';
 import { evaluateModel, type Evaluation } from './evaluate.js';
 import { walkRun, walkSetup, type RunWalkSetup } from './round-walk.js';
-import type { ClientRoundRecord, RoundRecord } from './round-record.js';
+import type { RecordSink, RoundRecord } from './round-record.js';
 import { assertPlannable, resolveRunPlan, type RunPlan } from './run-plan.js';
 import { restoreRunState, type RunState } from './run-state.js';
 import type { RunOutcome } from './run-summary.js';
@@ -17,8 +17,13 @@ import { ServerRuntime } from './server-runtime.js';
 import { driveAsync, driveSync, type RoundTransport, type WalkPoint } from './walk-transport.js';
 
 export interface EngineOptions {
-  /** called after every round with its clients' records, e.g. for a live progress line */
-  onRound?: (record: RoundRecord, clients: readonly ClientRoundRecord[]) => void;
+  /** called after every round, e.g. for a live progress line */
+  onRound?: (record: RoundRecord) => void;
+  /**
+   * Opens where the records go as they happen, once the plan is made (a scenario the plan
+   * refuses opens nothing); without it the records are not kept.
+   */
+  openRecords?: () => RecordSink;
   /** the server's starting model x_0 (default zero) */
   initialModel?: Float64Array;
   /** go on from this state (a checkpoint's) instead of round 0 */
@@ -29,7 +34,7 @@ export interface EngineOptions {
   onCheckpoint?: (state: RunState) => void;
 }
 
-/** Round 0 of `rounds` is the initial model; then one record per round run (after `resume`'s round when resuming). */
+/** The run's end; its records went to the sink openRecords opened (after `resume`'s round when resuming). */
 export type EngineResult = RunOutcome;
 
 /** The plan and the oracle's theory of a scenario; refuses a scenario no runtime can run before the oracle works. */
@@ -100,10 +105,15 @@ function prepare(
   );
   if (options.resume !== undefined) restoreRunState(plan, options.resume, server, clients);
   const run = { plan, theory, server, clients, stopRequested, onCheckpoint: options.onCheckpoint };
+  const { onRound } = options;
+  const records = options.openRecords?.();
   const setup: RunWalkSetup = {
     ...walkSetup(plan, server),
     wallSeconds,
-    ...(options.onRound === undefined ? {} : { onRound: options.onRound }),
+    onRound: (record, clientRecords) => {
+      records?.append(record, clientRecords);
+      onRound?.(record);
+    },
     ...(options.resume === undefined ? {} : { resumeAfter: options.resume }),
     checkpointEveryRounds: options.checkpointEveryRounds ?? 0,
   };
@@ -118,8 +128,6 @@ function outcomeOf(
   return {
     plan: run.plan,
     theory: run.theory,
-    rounds: walked.rounds,
-    clients: walked.clients,
     finalModel: walked.finalModel,
     stopReason: walked.stopReason,
     wallSeconds,

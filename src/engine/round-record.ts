@@ -1,37 +1,64 @@
-// What a run records per round (rounds.jsonl) and per client per round (clients.jsonl).
+// What a run records per round (rounds.jsonl) and per client per round (clients.jsonl). The zod
+// schemas are the one definition: the types are inferred from them, and `report` parses the
+// files back with them (src/report/run-results.ts).
 
-export interface ByteCounts {
-  up: number;
-  down: number;
-}
+import { z } from 'zod';
 
-export interface RoundRecord {
-  round: number;
-  /** f(x) - f*, or null when this round was not evaluated */
-  suboptimality: number | null;
-  /** ||x - x*||, or null when not evaluated */
-  distance: number | null;
-  bytes: { payload: ByteCounts; encoded?: ByteCounts; wire?: ByteCounts };
+const byteCount = z.number().int().nonnegative();
+const clientId = z.number().int().nonnegative();
+const stepCount = z.number().int().nonnegative();
+const seconds = z.number().nonnegative();
+
+export const byteCountsSchema = z.object({ up: byteCount, down: byteCount });
+export type ByteCounts = z.infer<typeof byteCountsSchema>;
+
+/** Bytes by layer: payload always; encoded and wire where a network carried the run. */
+export const bytesByLayerSchema = z.object({
+  payload: byteCountsSchema,
+  encoded: byteCountsSchema.optional(),
+  wire: byteCountsSchema.optional(),
+});
+
+export const roundRecordSchema = z.object({
+  round: z.number().int().nonnegative(),
+  /**
+   * f(x) - f*, or null when this round was not evaluated (a non-finite value, in a diverged run,
+   * is written as null too: JSON has no NaN or infinity)
+   */
+  suboptimality: z.number().nullable(),
+  /** ||x - x*||, or null when not evaluated (or not finite) */
+  distance: z.number().nullable(),
+  bytes: bytesByLayerSchema,
   /** tau_i actually taken in the local-work exchange, by client id (participants only) */
-  localSteps: Record<string, number>;
+  localSteps: z.record(z.string(), stepCount),
   /** clients whose update did not count (fastest-k, or lost) */
-  dropped: number[];
+  dropped: z.array(clientId),
   /** modelled length of the round */
-  roundSeconds: number;
+  roundSeconds: seconds,
   /** modelled time since the run began, at the round's end */
-  virtualSeconds: number;
+  virtualSeconds: seconds,
   /** wall-clock time since the run began, at the round's end */
-  wallSeconds: number;
-}
+  wallSeconds: seconds,
+});
+export type RoundRecord = z.infer<typeof roundRecordSchema>;
 
-export interface ClientRoundRecord {
-  round: number;
-  exchange: string;
-  clientId: number;
-  localSteps: number;
-  computeSeconds: number;
-  waitSeconds: number;
-  transferSeconds: number;
-  bytes: { payload: ByteCounts; encoded?: ByteCounts; wire?: ByteCounts };
-  dropped: boolean;
+export const clientRoundRecordSchema = z.object({
+  round: z.number().int().nonnegative(),
+  exchange: z.string(),
+  clientId,
+  localSteps: stepCount,
+  computeSeconds: seconds,
+  waitSeconds: seconds,
+  transferSeconds: seconds,
+  bytes: bytesByLayerSchema,
+  dropped: z.boolean(),
+});
+export type ClientRoundRecord = z.infer<typeof clientRoundRecordSchema>;
+
+/**
+ * Where a run's records go as they happen, round by round (round 0, the initial evaluation with
+ * no clients, first): a results folder's files (src/results/record-stream.ts) or a caller's own.
+ */
+export interface RecordSink {
+  append(record: RoundRecord, clients: readonly ClientRoundRecord[]): void;
 }

@@ -176,8 +176,12 @@ export interface RunWalkSetup extends WalkSetup {
   checkpointEveryRounds?: number;
 }
 
-/** A run's outcome as the walk knows it: round 0 (the initial model), then one record per round walked. */
-export type WalkedRun = Pick<RunOutcome, 'rounds' | 'clients' | 'finalModel' | 'stopReason'> & {
+/**
+ * A run's end as the walk knows it. Its records went to onRound as they happened (round 0, the
+ * initial model, then one per round walked); the walk keeps none, so its memory does not grow
+ * with the rounds.
+ */
+export type WalkedRun = Pick<RunOutcome, 'finalModel' | 'stopReason'> & {
   virtualSeconds: number;
 };
 
@@ -202,8 +206,7 @@ export function* walkRun(setup: RunWalkSetup): Generator<WalkRequest, WalkedRun,
   const { rounds: roundsMax, evalEvery, target } = setup.plan.scenario.run;
   const start = setup.resumeAfter;
   const clock = start === undefined ? new VirtualClock() : VirtualClock.fromState(start.clock);
-  const rounds: RoundRecord[] = [];
-  const clients: ClientRoundRecord[] = [];
+  let point: WalkPoint | undefined = start;
   if (start === undefined) {
     const initial = yield* ask({ kind: 'evaluate', model: server.model() });
     const first: RoundRecord = {
@@ -217,14 +220,9 @@ export function* walkRun(setup: RunWalkSetup): Generator<WalkRequest, WalkedRun,
       virtualSeconds: 0,
       wallSeconds: setup.wallSeconds(),
     };
-    rounds.push(first);
     setup.onRound?.(first, []);
+    point = { round: 0, clock: clock.state(), wallSeconds: first.wallSeconds };
   }
-  let point: WalkPoint = start ?? {
-    round: 0,
-    clock: clock.state(),
-    wallSeconds: rounds[0].wallSeconds,
-  };
   const checkpointEvery = setup.checkpointEveryRounds ?? 0;
   let stopReason: StopReason = 'rounds-complete';
 
@@ -232,11 +230,10 @@ export function* walkRun(setup: RunWalkSetup): Generator<WalkRequest, WalkedRun,
     const refused = yield* ask({ kind: 'open-round', round });
     if (refused !== null) {
       stopReason = refused;
-      if (refused === 'stopped') yield* ask({ kind: 'checkpoint', point });
+      if (refused === 'stopped') yield* ask({ kind: 'checkpoint', point: point! });
       break;
     }
     const walked = yield* walkRound(setup, round);
-    clients.push(...walked.records);
     const virtualSeconds = clock.advance(walked.roundSeconds);
     const ending = walked.diverged ? 'diverged' : yield* ask({ kind: 'close-round', round });
     // A stopped run may be resumed: its record must be the one an unstopped run writes.
@@ -256,7 +253,6 @@ export function* walkRun(setup: RunWalkSetup): Generator<WalkRequest, WalkedRun,
       virtualSeconds,
       wallSeconds: setup.wallSeconds(),
     };
-    rounds.push(record);
     setup.onRound?.(record, walked.records);
     point = { round, clock: clock.state(), wallSeconds: record.wallSeconds };
     if (ending !== null) {
@@ -271,5 +267,5 @@ export function* walkRun(setup: RunWalkSetup): Generator<WalkRequest, WalkedRun,
     if (checkpointEvery > 0 && round % checkpointEvery === 0 && round < roundsMax)
       yield* ask({ kind: 'checkpoint', point });
   }
-  return { rounds, clients, finalModel: server.model(), stopReason, virtualSeconds: clock.now() };
+  return { finalModel: server.model(), stopReason, virtualSeconds: clock.now() };
 }

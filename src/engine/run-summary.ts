@@ -1,27 +1,32 @@
 // outcome.json: what a run measured, beside what the theory predicted. The same function serves
 // the in-process engine and the coordinator, so both write the same fields.
 
+import { z } from 'zod';
 import type { PlanTheory } from '../theory/plan-theory.js';
-import {
-  fitLinearRate,
-  measureFloor,
-  roundsToTarget,
-  type CurvePoint,
-} from '../theory/measure-curve.js';
+import { methodSchema, timingSchema } from '../scenario/schema.js';
+import { fitLinearRate, measureFloor, type CurvePoint } from '../theory/measure-curve.js';
 import type { RunPlan } from './run-plan.js';
-import type { ByteCounts, ClientRoundRecord, RoundRecord } from './round-record.js';
+import { bytesByLayerSchema, type ByteCounts, type RoundRecord } from './round-record.js';
 import type { RunPrediction } from './predict-run.js';
 
 /** Why a run ended: its target, its round limit, a non-finite update, every worker lost, or Ctrl-C. */
-export type StopReason =
-  'target-reached' | 'rounds-complete' | 'diverged' | 'workers-lost' | 'stopped';
+export const stopReasonSchema = z.enum([
+  'target-reached',
+  'rounds-complete',
+  'diverged',
+  'workers-lost',
+  'stopped',
+]);
+export type StopReason = z.infer<typeof stopReasonSchema>;
 
-/** What every run hands over at its end, whichever runtime ran it (the coordinator's adds to it). */
+/**
+ * What every run hands over at its end, whichever runtime ran it (the coordinator's adds to it).
+ * Its records are not in it: they went to a RecordSink as they happened (rounds.jsonl and
+ * clients.jsonl), and the summary reads the rounds back from there.
+ */
 export interface RunOutcomeBase {
   plan: RunPlan;
   theory: PlanTheory;
-  rounds: RoundRecord[];
-  clients: ClientRoundRecord[];
   finalModel: Float64Array;
   stopReason: StopReason;
   wallSeconds: number;
@@ -37,58 +42,73 @@ export interface RunOutcome extends RunOutcomeBase {
   protocolErrors?: Record<string, number>;
 }
 
-export interface RunSummary {
-  scenario: string;
-  method: string;
-  planHash: string;
-  problemHash: string;
-  runtime: 'in-process' | 'distributed';
-  clock: 'virtual' | 'wall';
-  stopReason: StopReason;
-  rounds: number;
-  clients: number;
-  stepSize: number;
-  suboptimality: { initial: number; final: number };
-  distance: { initial: number; final: number };
-  rate: {
-    measured: number | null;
-    predicted: number | null;
+/**
+ * A number that may be NaN or infinite in memory (a diverged run, mu = 0): JSON.stringify writes
+ * those as null, and they read back as NaN, which every table shows as missing.
+ */
+const maybeNonFinite = z
+  .number()
+  .nullable()
+  .transform((value) => value ?? Number.NaN);
+
+/**
+ * outcome.json. The schema is the one definition: RunSummary is its output type, and `report`
+ * parses the file with it. Other members (a distributed run's details) pass unread.
+ */
+export const runSummarySchema = z.object({
+  scenario: z.string(),
+  method: methodSchema.shape.name,
+  planHash: z.string(),
+  problemHash: z.string(),
+  runtime: z.enum(['in-process', 'distributed']),
+  clock: timingSchema.shape.clock.unwrap(),
+  stopReason: stopReasonSchema,
+  rounds: z.number().int().nonnegative(),
+  clients: z.number().int().positive(),
+  stepSize: z.number(),
+  suboptimality: z.object({ initial: z.number(), final: maybeNonFinite }),
+  distance: z.object({ initial: maybeNonFinite, final: maybeNonFinite }),
+  rate: z.object({
+    measured: z.number().nullable(),
+    predicted: z.number().nullable(),
     /** the gd bound 1 - mu/L for eta = 1/L (Nesterov 2004, Thm 2.1.15), for scale */
-    gdBound: number;
-    measuredWindow: [number, number] | null;
-  };
-  floor: { measured: number | null; predicted: number | null };
-  prediction: {
-    available: boolean;
-    reason: string | null;
-    spectralRadius: number | null;
-    limitDistance: number | null;
-  };
-  target: number;
-  roundsToTarget: number | null;
-  toTarget: {
-    payloadBytes: number | null;
-    virtualSeconds: number | null;
-    wallSeconds: number | null;
-  };
-  bytes: { payload: ByteCounts; encoded?: ByteCounts; wire?: ByteCounts };
+    gdBound: z.number(),
+    measuredWindow: z.tuple([z.number(), z.number()]).nullable(),
+  }),
+  floor: z.object({ measured: z.number().nullable(), predicted: z.number().nullable() }),
+  prediction: z.object({
+    available: z.boolean(),
+    reason: z.string().nullable(),
+    spectralRadius: z.number().nullable(),
+    limitDistance: z.number().nullable(),
+  }),
+  target: z.number(),
+  roundsToTarget: z.number().int().nonnegative().nullable(),
+  toTarget: z.object({
+    payloadBytes: z.number().nullable(),
+    virtualSeconds: z.number().nullable(),
+    wallSeconds: z.number().nullable(),
+  }),
+  bytes: bytesByLayerSchema,
   /** wall: from the first round; join (distributed runs): waiting for workers before it */
-  seconds: { virtual: number; wall: number; join?: number };
-  droppedUpdates: number;
-  lostWorkers: string[];
-  protocolErrors: Record<string, number>;
-  theory: {
-    smoothness: number;
-    strongConvexity: number;
-    conditionNumber: number;
-    heterogeneity: number;
-    optimumLoss: number;
-    certificate: number;
-  };
-}
+  seconds: z.object({ virtual: z.number(), wall: z.number(), join: z.number().optional() }),
+  droppedUpdates: z.number().int().nonnegative(),
+  lostWorkers: z.array(z.string()),
+  protocolErrors: z.record(z.string(), z.number().int().nonnegative()),
+  theory: z.object({
+    smoothness: z.number(),
+    strongConvexity: z.number(),
+    /** smoothness / strongConvexity: infinite when mu = 0 */
+    conditionNumber: maybeNonFinite,
+    heterogeneity: z.number(),
+    optimumLoss: z.number(),
+    certificate: z.number(),
+  }),
+});
+export type RunSummary = z.output<typeof runSummarySchema>;
 
 /** The evaluated points of a run, cut before the first non-finite one (a diverged run). */
-export function curveOf(rounds: readonly RoundRecord[]): CurvePoint[] {
+export function curveOf(rounds: Iterable<RoundRecord>): CurvePoint[] {
   const points: CurvePoint[] = [];
   for (const r of rounds) {
     if (r.suboptimality === null) continue;
@@ -98,34 +118,77 @@ export function curveOf(rounds: readonly RoundRecord[]): CurvePoint[] {
   return points;
 }
 
+/** What the summary takes from a run's rounds, gathered in one pass in round order. */
+interface RoundsDigest {
+  /**
+   * Every evaluated point up to the first non-finite one. Kept whole, not thinned: the rate and
+   * floor fits look at every point (the floor at the last quarter, the fit's noise estimate at
+   * each point's neighbours), and the summary must give the very values it gave when the rounds
+   * were held in memory. It is built once, at the end, from rounds.jsonl: its size is bounded by
+   * the file, and nothing of it is held while the run goes on.
+   */
+  curve: CurvePoint[];
+  first: RoundRecord;
+  last: RoundRecord;
+  /** the last distance evaluated (NaN if none) */
+  finalDistance: number;
+  /** the first round whose evaluation is at or below the target (> 0), with what it had cost */
+  reached: { record: RoundRecord; payloadBytes: number } | null;
+  payload: ByteCounts;
+  dropped: number;
+}
+
+function digestRounds(rounds: Iterable<RoundRecord>, target: number): RoundsDigest {
+  const curve: CurvePoint[] = [];
+  let curveCut = false;
+  let first: RoundRecord | null = null;
+  let last: RoundRecord | null = null;
+  let finalDistance = Number.NaN;
+  let reached: RoundsDigest['reached'] = null;
+  const payload = { up: 0, down: 0 };
+  let payloadTotal = 0;
+  let dropped = 0;
+  for (const r of rounds) {
+    first ??= r;
+    last = r;
+    payload.up += r.bytes.payload.up;
+    payload.down += r.bytes.payload.down;
+    payloadTotal += r.bytes.payload.up + r.bytes.payload.down;
+    dropped += r.dropped.length;
+    if (r.distance !== null) finalDistance = r.distance;
+    if (r.suboptimality === null || curveCut) continue;
+    if (!Number.isFinite(r.suboptimality)) {
+      curveCut = true;
+      continue;
+    }
+    curve.push({ round: r.round, suboptimality: r.suboptimality });
+    if (reached === null && target > 0 && r.suboptimality <= target)
+      reached = { record: r, payloadBytes: payloadTotal };
+  }
+  if (first === null || last === null)
+    throw new RangeError('buildRunSummary: a run has at least its round 0');
+  return { curve, first, last, finalDistance, reached, payload, dropped };
+}
+
+/** outcome.json's fields from the run's end and its rounds (round 0 first, in round order, read once). */
 export function buildRunSummary(
   outcome: RunOutcome,
+  rounds: Iterable<RoundRecord>,
   prediction: RunPrediction,
   runtime: RunSummary['runtime'],
 ): RunSummary {
-  const { plan, theory, rounds } = outcome;
-  const curve = curveOf(rounds);
+  const { plan, theory } = outcome;
+  const target = plan.scenario.run.target;
+  const digest = digestRounds(rounds, target);
+  const { curve } = digest;
   const first = curve[0];
   const last = curve[curve.length - 1];
   // f is evaluated to a few ulps of its scale; below that the curve is noise (common practice).
   const noiseLevel =
     1e3 * Number.EPSILON * Math.max(Math.abs(theory.optimum.loss), first.suboptimality);
   const fit = curve.length > 1 ? fitLinearRate(curve, { noiseLevel }) : null;
-  const target = plan.scenario.run.target;
-  const reached = target > 0 ? roundsToTarget(curve, target) : null;
-  const reachedRecord = reached === null ? null : (rounds.find((r) => r.round === reached) ?? null);
-  let payloadUp = 0;
-  let payloadDown = 0;
-  let payloadToTarget = 0;
-  let dropped = 0;
-  for (const r of rounds) {
-    payloadUp += r.bytes.payload.up;
-    payloadDown += r.bytes.payload.down;
-    if (reached !== null && r.round <= reached)
-      payloadToTarget += r.bytes.payload.up + r.bytes.payload.down;
-    dropped += r.dropped.length;
-  }
-  const lastRound = rounds[rounds.length - 1];
+  const reached = digest.reached;
+  const lastRound = digest.last;
   const c = theory.constants;
   return {
     scenario: plan.scenario.name,
@@ -143,8 +206,8 @@ export function buildRunSummary(
       final: lastRound.suboptimality ?? last.suboptimality,
     },
     distance: {
-      initial: rounds[0].distance ?? Number.NaN,
-      final: [...rounds].reverse().find((r) => r.distance !== null)?.distance ?? Number.NaN,
+      initial: digest.first.distance ?? Number.NaN,
+      final: digest.finalDistance,
     },
     rate: {
       measured: fit ? fit.rate : null,
@@ -163,15 +226,15 @@ export function buildRunSummary(
       limitDistance: prediction.limitDistance,
     },
     target,
-    roundsToTarget: reached,
+    roundsToTarget: reached === null ? null : reached.record.round,
     toTarget: {
-      payloadBytes: reached === null ? null : payloadToTarget,
-      virtualSeconds: reachedRecord ? reachedRecord.virtualSeconds : null,
-      wallSeconds: reachedRecord ? reachedRecord.wallSeconds : null,
+      payloadBytes: reached === null ? null : reached.payloadBytes,
+      virtualSeconds: reached === null ? null : reached.record.virtualSeconds,
+      wallSeconds: reached === null ? null : reached.record.wallSeconds,
     },
-    bytes: { payload: { up: payloadUp, down: payloadDown }, ...(outcome.bytesLayers ?? {}) },
+    bytes: { payload: digest.payload, ...(outcome.bytesLayers ?? {}) },
     seconds: { virtual: lastRound.virtualSeconds, wall: outcome.wallSeconds },
-    droppedUpdates: dropped,
+    droppedUpdates: digest.dropped,
     lostWorkers: outcome.lostWorkers ?? [],
     protocolErrors: outcome.protocolErrors ?? {},
     theory: {

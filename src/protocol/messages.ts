@@ -32,10 +32,11 @@
 // that client's latency and bandwidth), and bytes are counted per client at every layer, which
 // a frame shared by several clients could only apportion.
 
-import type { ProtocolErrorCode } from './errors.js';
-import type { ProtocolLimits } from './limits.js';
-import type { WirePlan } from './wire-plan.js';
-import type { WireVector } from './wire-vector.js';
+import { z } from 'zod';
+import { PROTOCOL_ERROR_CODES } from './errors.js';
+import { protocolLimitsSchema } from './limits.js';
+import { wirePlanSchema } from './wire-plan.js';
+import { bytesShape, wireVectorShape } from './wire-vector.js';
 
 /** Bumped on any change to a message's shape or meaning; peers must match exactly. */
 export const PROTOCOL_VERSION = 3;
@@ -82,113 +83,124 @@ export const DONE_REASONS = [
 ] as const;
 export type DoneReason = (typeof DONE_REASONS)[number];
 
+// The shapes below are the one definition of every message: validate.ts parses with them, and
+// the types are inferred from them. What a shape cannot say (byte lengths, names, limits, the
+// receiver's state) validate.ts checks after the shape.
+
+const count = z.number().int().nonnegative();
+const seconds = z.number().nonnegative();
+
+const fieldsShape = z.record(z.string(), wireVectorShape);
+
 /** Named vectors of one message, by field name (as the method names them). */
-export type WireFields = Record<string, WireVector>;
+export type WireFields = z.infer<typeof fieldsShape>;
 
-export interface ChallengeMessage {
-  type: 'challenge';
-  protocolVersion: number;
-  /** NONCE_BYTES random bytes, fresh for every connection */
-  nonce: Uint8Array;
-}
+export const messageShapes = {
+  challenge: z.strictObject({
+    type: z.literal('challenge'),
+    protocolVersion: count,
+    /** NONCE_BYTES random bytes, fresh for every connection */
+    nonce: bytesShape,
+  }),
+  hello: z.strictObject({
+    type: z.literal('hello'),
+    protocolVersion: count,
+    /** for logs and metric labels; printable, at most limits.maxWorkerNameLength characters */
+    workerName: z.string(),
+    /** capacity: how many clients this worker offers to host */
+    capacity: z.number().int().positive(),
+    /** HMAC-SHA256(shared key, challenge nonce), PROOF_BYTES bytes */
+    proof: bytesShape,
+    /** present when resuming a dropped session: the resume token of its welcome, RESUME_TOKEN_BYTES bytes */
+    resume: bytesShape.optional(),
+  }),
+  welcome: z.strictObject({
+    type: z.literal('welcome'),
+    /** ids of the clients this worker hosts, strictly increasing */
+    assignments: z.array(count),
+    /** the resolved scenario, the method's numbers and the dimension (wire-plan.ts) */
+    plan: wirePlanSchema,
+    /** the limits both ends apply from now on (frame size from the plan, heartbeat timing) */
+    limits: protocolLimitsSchema,
+    /**
+     * RESUME_TOKEN_BYTES random bytes naming this worker's session, for a hello after a dropped
+     * connection; absent when the coordinator does not let workers resume
+     */
+    resumeToken: bytesShape.optional(),
+  }),
+  down: z.strictObject({
+    type: z.literal('down'),
+    /** 0-based round number */
+    round: count,
+    /** the method's exchange name, e.g. 'local', or 'gradient' then 'local' for FedLin */
+    exchange: z.string(),
+    clientId: count,
+    /** tau_i for this exchange, decided by the timing model before the client starts */
+    localSteps: z.number().int().positive(),
+    /** eta_i after the step-size policy */
+    stepSize: z.number().positive(),
+    fields: fieldsShape,
+    /** time the client has from receipt until its up is due; null when the round waits for all */
+    deadlineSeconds: z.number().positive().nullable(),
+  }),
+  up: z.strictObject({
+    type: z.literal('up'),
+    round: count,
+    exchange: z.string(),
+    clientId: count,
+    fields: fieldsShape,
+    /** local steps actually taken (0 for an exchange without local work) */
+    localSteps: count,
+    /** time spent computing, as the speed model accounts it */
+    computeSeconds: seconds,
+    /** time spent waiting (a straggler's idle time in wall mode, or the model's) */
+    waitSeconds: seconds,
+    /** time spent on the link model for this client's traffic of the exchange */
+    transferSeconds: seconds,
+  }),
+  heartbeat: z.strictObject({
+    type: z.literal('heartbeat'),
+    /** sender's wall clock, for round-trip estimates; never used by results */
+    sentAtMs: z.number().nonnegative(),
+  }),
+  error: z.strictObject({
+    type: z.literal('error'),
+    code: z.enum(PROTOCOL_ERROR_CODES),
+    /** at most limits.maxErrorMessageLength characters */
+    message: z.string(),
+  }),
+  done: z.strictObject({ type: z.literal('done'), reason: z.enum(DONE_REASONS) }),
+  checkpoint: z.strictObject({
+    type: z.literal('checkpoint'),
+    /** the round just finished: each hosted client's state must show its work up to this round */
+    round: count,
+  }),
+  state: z.strictObject({
+    type: z.literal('state'),
+    /** the round the state is the end of */
+    round: count,
+    clientId: count,
+    /**
+     * the client's state as a JSON text: {"tree": the state tree (src/base/state-tree.ts),
+     * "lengths": the length of each vector}
+     */
+    tree: z.string(),
+    /** the tree's vectors one after another, little-endian float64 */
+    vectors: bytesShape,
+  }),
+} satisfies Record<MessageType, z.ZodType>;
 
-export interface HelloMessage {
-  type: 'hello';
-  protocolVersion: number;
-  /** for logs and metric labels; printable, at most limits.maxWorkerNameLength characters */
-  workerName: string;
-  /** capacity: how many clients this worker offers to host */
-  capacity: number;
-  /** HMAC-SHA256(shared key, challenge nonce), PROOF_BYTES bytes */
-  proof: Uint8Array;
-  /** present when resuming a dropped session: the resume token of its welcome, RESUME_TOKEN_BYTES bytes */
-  resume?: Uint8Array;
-}
+export type ChallengeMessage = z.infer<typeof messageShapes.challenge>;
+export type HelloMessage = z.infer<typeof messageShapes.hello>;
+export type WelcomeMessage = z.infer<typeof messageShapes.welcome>;
+export type DownMessage = z.infer<typeof messageShapes.down>;
+export type UpMessage = z.infer<typeof messageShapes.up>;
+export type HeartbeatMessage = z.infer<typeof messageShapes.heartbeat>;
+export type ErrorMessage = z.infer<typeof messageShapes.error>;
+export type DoneMessage = z.infer<typeof messageShapes.done>;
 
-export interface WelcomeMessage {
-  type: 'welcome';
-  /** ids of the clients this worker hosts, strictly increasing */
-  assignments: number[];
-  /** the resolved scenario, the method's numbers and the dimension (wire-plan.ts) */
-  plan: WirePlan;
-  /** the limits both ends apply from now on (frame size from the plan, heartbeat timing) */
-  limits: ProtocolLimits;
-  /**
-   * RESUME_TOKEN_BYTES random bytes naming this worker's session, for a hello after a dropped
-   * connection; absent when the coordinator does not let workers resume
-   */
-  resumeToken?: Uint8Array;
-}
-
-export interface DownMessage {
-  type: 'down';
-  /** 0-based round number */
-  round: number;
-  /** the method's exchange name, e.g. 'local', or 'gradient' then 'local' for FedLin */
-  exchange: string;
-  clientId: number;
-  /** tau_i for this exchange, decided by the timing model before the client starts */
-  localSteps: number;
-  /** eta_i after the step-size policy */
-  stepSize: number;
-  fields: WireFields;
-  /** time the client has from receipt until its up is due; null when the round waits for all */
-  deadlineSeconds: number | null;
-}
-
-export interface UpMessage {
-  type: 'up';
-  round: number;
-  exchange: string;
-  clientId: number;
-  fields: WireFields;
-  /** local steps actually taken (0 for an exchange without local work) */
-  localSteps: number;
-  /** time spent computing, as the speed model accounts it */
-  computeSeconds: number;
-  /** time spent waiting (a straggler's idle time in wall mode, or the model's) */
-  waitSeconds: number;
-  /** time spent on the link model for this client's traffic of the exchange */
-  transferSeconds: number;
-}
-
-export interface HeartbeatMessage {
-  type: 'heartbeat';
-  /** sender's wall clock, for round-trip estimates; never used by results */
-  sentAtMs: number;
-}
-
-export interface ErrorMessage {
-  type: 'error';
-  code: ProtocolErrorCode;
-  /** at most limits.maxErrorMessageLength characters */
-  message: string;
-}
-
-export interface DoneMessage {
-  type: 'done';
-  reason: DoneReason;
-}
-
-export interface CheckpointMessage {
-  type: 'checkpoint';
-  /** the round just finished: each hosted client's state must show its work up to this round */
-  round: number;
-}
-
-export interface StateMessage {
-  type: 'state';
-  /** the round the state is the end of */
-  round: number;
-  clientId: number;
-  /**
-   * the client's state as a JSON text: {"tree": the state tree (src/base/state-tree.ts),
-   * "lengths": the length of each vector}
-   */
-  tree: string;
-  /** the tree's vectors one after another, little-endian float64 */
-  vectors: Uint8Array;
-}
+export type CheckpointMessage = z.infer<typeof messageShapes.checkpoint>;
+export type StateMessage = z.infer<typeof messageShapes.state>;
 
 export type Message =
   | ChallengeMessage

@@ -1,16 +1,15 @@
 // Decoded plain data -> a typed message, or a ProtocolError with a stable code and the path of
-// the offending field. Shapes are zod schemas (E_TYPE; E_NOT_FINITE where the wrong value is a
+// the offending field. Shapes are the zod schemas of messages.ts (E_TYPE; E_NOT_FINITE where the wrong value is a
 // NaN or an infinity); what depends on the receiver's state comes after, from the context:
 // the round and exchange in progress (E_ROUND), the clients this connection may name
 // (E_CLIENT), the plan's dimensions (E_DIMENSION), the limits (E_SIZE), the challenge (E_AUTH).
 // Checks run in that order, so a message with several faults always reports the same one.
 
-import { z } from 'zod';
+import type { z } from 'zod';
 import { verifyProof } from './auth.js';
-import { PROTOCOL_ERROR_CODES, ProtocolError } from './errors.js';
-import { protocolLimitsSchema, type ProtocolLimits } from './limits.js';
+import { ProtocolError } from './errors.js';
+import type { ProtocolLimits } from './limits.js';
 import {
-  DONE_REASONS,
   MESSAGE_TYPES,
   NAME_LENGTH_MAX,
   NAME_PATTERN,
@@ -18,14 +17,16 @@ import {
   PROOF_BYTES,
   PROTOCOL_VERSION,
   RESUME_TOKEN_BYTES,
+  messageShapes,
   type DownMessage,
+  type HelloMessage,
   type Message,
   type MessageType,
   type UpMessage,
+  type WelcomeMessage,
   type WireFields,
 } from './messages.js';
 import type { FieldDims } from './field-dims.js';
-import { wirePlanSchema } from './wire-plan.js';
 import { formatIssue } from '../scenario/validate-scenario.js';
 import { checkWireVector } from './wire-vector.js';
 
@@ -45,74 +46,6 @@ export interface ValidationContext {
   /** the shared key and the nonce this connection's challenge carried, to check a hello */
   auth: { key: string | Uint8Array; nonce: Uint8Array } | null;
 }
-
-const bytes = z.instanceof(Uint8Array);
-const count = z.number().int().nonnegative();
-const seconds = z.number().nonnegative();
-
-const wireVectorShape = z.strictObject({
-  dim: z.number(),
-  indices: bytes.nullable(),
-  count: z.number(),
-  values: bytes,
-  width: z.union([z.literal(4), z.literal(8)]),
-});
-const fieldsShape = z.record(z.string(), wireVectorShape);
-
-const shapes = {
-  challenge: z.strictObject({ type: z.literal('challenge'), protocolVersion: count, nonce: bytes }),
-  hello: z.strictObject({
-    type: z.literal('hello'),
-    protocolVersion: count,
-    workerName: z.string(),
-    capacity: z.number().int().positive(),
-    proof: bytes,
-    resume: bytes.optional(),
-  }),
-  welcome: z.strictObject({
-    type: z.literal('welcome'),
-    assignments: z.array(count),
-    plan: wirePlanSchema,
-    limits: protocolLimitsSchema,
-    resumeToken: bytes.optional(),
-  }),
-  down: z.strictObject({
-    type: z.literal('down'),
-    round: count,
-    exchange: z.string(),
-    clientId: count,
-    localSteps: z.number().int().positive(),
-    stepSize: z.number().positive(),
-    fields: fieldsShape,
-    deadlineSeconds: z.number().positive().nullable(),
-  }),
-  up: z.strictObject({
-    type: z.literal('up'),
-    round: count,
-    exchange: z.string(),
-    clientId: count,
-    fields: fieldsShape,
-    localSteps: count,
-    computeSeconds: seconds,
-    waitSeconds: seconds,
-    transferSeconds: seconds,
-  }),
-  heartbeat: z.strictObject({ type: z.literal('heartbeat'), sentAtMs: z.number().nonnegative() }),
-  error: z.strictObject({
-    type: z.literal('error'),
-    code: z.enum(PROTOCOL_ERROR_CODES),
-    message: z.string(),
-  }),
-  done: z.strictObject({ type: z.literal('done'), reason: z.enum(DONE_REASONS) }),
-  checkpoint: z.strictObject({ type: z.literal('checkpoint'), round: count }),
-  state: z.strictObject({
-    type: z.literal('state'),
-    round: count,
-    clientId: count,
-    tree: z.string(),
-    vectors: bytes,
-  }),
-} satisfies Record<MessageType, z.ZodType>;
 
 function formatPath(type: string, path: readonly PropertyKey[]): string {
   let out = type;
@@ -255,7 +188,7 @@ function checkRoundTraffic(message: DownMessage | UpMessage, context: Validation
 // Control characters would let a name forge log lines or break metric labels.
 const CONTROL_CHARACTER = /\p{Cc}/u;
 
-function checkHello(message: z.output<typeof shapes.hello>, context: ValidationContext): void {
+function checkHello(message: HelloMessage, context: ValidationContext): void {
   const { workerName, capacity, proof, resume } = message;
   const { limits, auth } = context;
   if (workerName.length === 0 || CONTROL_CHARACTER.test(workerName)) {
@@ -294,7 +227,7 @@ function checkHello(message: z.output<typeof shapes.hello>, context: ValidationC
   }
 }
 
-function checkWelcome(message: z.output<typeof shapes.welcome>, limits: ProtocolLimits): void {
+function checkWelcome(message: WelcomeMessage, limits: ProtocolLimits): void {
   const { assignments, resumeToken, plan } = message;
   if (resumeToken !== undefined && resumeToken.length !== RESUME_TOKEN_BYTES) {
     throw new ProtocolError(
@@ -366,7 +299,7 @@ export function validateMessage(raw: unknown, context: ValidationContext): Messa
   switch (type) {
     case 'challenge': {
       checkVersion(record, type);
-      const message = parseShape(shapes.challenge, record, type);
+      const message = parseShape(messageShapes.challenge, record, type);
       if (message.nonce.length !== NONCE_BYTES) {
         throw new ProtocolError(
           'E_TYPE',
@@ -377,27 +310,27 @@ export function validateMessage(raw: unknown, context: ValidationContext): Messa
     }
     case 'hello': {
       checkVersion(record, type);
-      const message = parseShape(shapes.hello, record, type);
+      const message = parseShape(messageShapes.hello, record, type);
       checkHello(message, context);
       return message;
     }
     case 'welcome': {
-      const message = parseShape(shapes.welcome, record, type);
+      const message = parseShape(messageShapes.welcome, record, type);
       checkWelcome(message, context.limits);
       return message;
     }
     case 'down': {
-      const message = parseShape(shapes.down, record, type);
+      const message = parseShape(messageShapes.down, record, type);
       checkRoundTraffic(message, context);
       return message;
     }
     case 'up': {
-      const message = parseShape(shapes.up, record, type);
+      const message = parseShape(messageShapes.up, record, type);
       checkRoundTraffic(message, context);
       return message;
     }
     case 'error': {
-      const message = parseShape(shapes.error, record, type);
+      const message = parseShape(messageShapes.error, record, type);
       if (message.message.length > context.limits.maxErrorMessageLength) {
         throw new ProtocolError(
           'E_SIZE',
@@ -407,11 +340,11 @@ export function validateMessage(raw: unknown, context: ValidationContext): Messa
       return message;
     }
     case 'heartbeat':
-      return parseShape(shapes.heartbeat, record, type);
+      return parseShape(messageShapes.heartbeat, record, type);
     case 'checkpoint':
-      return parseShape(shapes.checkpoint, record, type);
+      return parseShape(messageShapes.checkpoint, record, type);
     case 'state': {
-      const message = parseShape(shapes.state, record, type);
+      const message = parseShape(messageShapes.state, record, type);
       if (context.expectedRound !== null && message.round !== context.expectedRound) {
         throw new ProtocolError(
           'E_ROUND',
@@ -433,6 +366,6 @@ export function validateMessage(raw: unknown, context: ValidationContext): Messa
       return message;
     }
     case 'done':
-      return parseShape(shapes.done, record, type);
+      return parseShape(messageShapes.done, record, type);
   }
 }

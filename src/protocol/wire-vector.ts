@@ -9,25 +9,36 @@
 // cannot sit on an offset that is not a multiple of 8; the DataView reads any offset and fills
 // a fresh, aligned array, on a host of either byte order.
 
+import { z } from 'zod';
 import { CompressError } from '../compress/compress-error.js';
 import { type CompressedVector, validateCompressedVector } from '../compress/compressed-vector.js';
 import { decodeIndicesDeltaVarint, encodeIndicesDeltaVarint } from '../compress/index-coding.js';
 import { ProtocolError } from './errors.js';
 
-/** Bytes per value on the wire: f32 or f64. */
-export type ValueWidthBytes = 4 | 8;
+// Typed as the plain Uint8Array (any buffer): a decoded bin is a view into the frame's buffer.
+const Uint8ArrayOfAnyBuffer: new (length: number) => Uint8Array = Uint8Array;
 
-export interface WireVector {
+/** Raw bytes in a message (a MessagePack bin). */
+export const bytesShape = z.instanceof(Uint8ArrayOfAnyBuffer);
+
+export const wireVectorShape = z.strictObject({
   /** dimension d of the vector this stands for */
-  dim: number;
+  dim: z.number(),
   /** delta varint coded, strictly increasing indices; null: dense (one value per entry) */
-  indices: Uint8Array | null;
+  indices: bytesShape.nullable(),
   /** values carried: d when dense, k when sparse */
-  count: number;
+  count: z.number(),
   /** `count` little-endian IEEE 754 values of `width` bytes each */
-  values: Uint8Array;
-  width: ValueWidthBytes;
-}
+  values: bytesShape,
+  /** bytes per value: f32 or f64 */
+  width: z.union([z.literal(4), z.literal(8)]),
+});
+
+/** Checked in full by checkWireVector; the shape only says what each member is. */
+export type WireVector = z.infer<typeof wireVectorShape>;
+
+/** Bytes per value on the wire: f32 or f64. */
+export type ValueWidthBytes = WireVector['width'];
 
 function widthOf(values: Float64Array | Float32Array): ValueWidthBytes {
   return values instanceof Float32Array ? 4 : 8;

@@ -1,10 +1,21 @@
 // What a report reads from a results folder, parsed from the files' text. Reading the files is
-// the command's job (src/commands/report-command.ts); this module stays pure.
+// the command's job (src/commands/report-command.ts); this module stays pure. Each file is parsed
+// once, with the schemas that define what a run writes (src/engine/round-record.ts,
+// src/engine/run-summary.ts, src/scenario/schema.ts); a file that does not hold it is an
+// E_RESULTS_CONTENT naming the file, the line (.jsonl) and the field.
 
 import { parse } from 'yaml';
-import type { ClientRoundRecord, RoundRecord } from '../engine/round-record.js';
-import type { RunSummary } from '../engine/run-summary.js';
-import { isMethodName, METHOD_NAMES } from './palette.js';
+import type { z } from 'zod';
+import {
+  clientRoundRecordSchema,
+  roundRecordSchema,
+  type ClientRoundRecord,
+  type RoundRecord,
+} from '../engine/round-record.js';
+import { runSummarySchema, type RunSummary } from '../engine/run-summary.js';
+import { ScenarioError } from '../scenario/scenario-error.js';
+import { showValue, validateScenario } from '../scenario/validate-scenario.js';
+import type { Scenario } from '../scenario/schema.js';
 import { ReportError } from './report-error.js';
 
 export interface RunResults {
@@ -23,71 +34,94 @@ export interface RunResultsText {
   clients: string;
 }
 
-function jsonLines<T>(text: string, file: string): T[] {
+function valueAt(input: unknown, path: readonly PropertyKey[]): unknown {
+  let value = input;
+  for (const key of path) {
+    if (value === null || typeof value !== 'object' || !Object.hasOwn(value, key)) return undefined;
+    value = (value as Record<PropertyKey, unknown>)[key];
+  }
+  return value;
+}
+
+function fieldPath(path: readonly PropertyKey[]): string {
+  return path
+    .map((key, i) => (typeof key === 'number' ? `[${key}]` : `${i > 0 ? '.' : ''}${String(key)}`))
+    .join('');
+}
+
+/** "bytes.payload.up: expected number, got "x"": the field, what a run writes there, what came. */
+function describeIssue(issue: z.core.$ZodIssue, input: unknown): string {
+  const given = valueAt(input, issue.path);
+  let expected: string;
+  if (issue.code === 'invalid_type') expected = `expected ${issue.expected}`;
+  else if (issue.code === 'invalid_value')
+    expected = `expected one of ${issue.values.map((v) => JSON.stringify(v)).join(', ')}`;
+  else expected = issue.message;
+  const what =
+    given === undefined && issue.code === 'invalid_type'
+      ? `missing; ${expected}`
+      : `${expected}, got ${showValue(given)}`;
+  const field = fieldPath(issue.path);
+  return field === '' ? what : `${field}: ${what}`;
+}
+
+/** One JSON value -> the schema's output; `where` names the file (and line) in the error. */
+function parseJson<T>(schema: z.ZodType<T, unknown>, text: string, where: string): T {
+  let input: unknown;
+  try {
+    input = JSON.parse(text);
+  } catch (error) {
+    throw new ReportError('E_RESULTS_CONTENT', `${where}: not JSON (${(error as Error).message})`);
+  }
+  const result = schema.safeParse(input);
+  if (!result.success) {
+    throw new ReportError(
+      'E_RESULTS_CONTENT',
+      `${where}: ${describeIssue(result.error.issues[0], input)}`,
+    );
+  }
+  return result.data;
+}
+
+/** One JSON value a line, blank lines skipped; lines are counted from 1. */
+function parseJsonLines<T>(schema: z.ZodType<T, unknown>, text: string, file: string): T[] {
   const items: T[] = [];
   text.split('\n').forEach((line, i) => {
-    if (line.trim() === '') return;
-    try {
-      items.push(JSON.parse(line) as T);
-    } catch {
-      throw new ReportError('E_RESULTS_CONTENT', `${file}: line ${i + 1} is not JSON`);
-    }
+    if (line.trim() !== '') items.push(parseJson(schema, line, `${file} line ${i + 1}`));
   });
   return items;
 }
 
-function isRecord(value: unknown): value is Record<string, unknown> {
-  return value !== null && typeof value === 'object' && !Array.isArray(value);
+const RESOLVED_SCENARIO = 'resolved-scenario.yaml';
+
+function parseResolvedScenario(text: string): Scenario {
+  let document: unknown;
+  try {
+    document = parse(text);
+  } catch (error) {
+    const reason = (error as Error).message.split('\n')[0];
+    throw new ReportError('E_RESULTS_CONTENT', `${RESOLVED_SCENARIO}: not YAML (${reason})`);
+  }
+  try {
+    return validateScenario(document);
+  } catch (error) {
+    if (!(error instanceof ScenarioError)) throw error;
+    throw new ReportError('E_RESULTS_CONTENT', `${RESOLVED_SCENARIO}: ${error.message}`);
+  }
 }
 
 export function parseRunResults(text: RunResultsText): RunResults {
-  let summary: unknown;
-  try {
-    summary = JSON.parse(text.outcome);
-  } catch {
-    throw new ReportError('E_RESULTS_CONTENT', 'outcome.json is not JSON');
-  }
-  if (
-    !isRecord(summary) ||
-    !isRecord(summary.rate) ||
-    !isRecord(summary.floor) ||
-    !isRecord(summary.suboptimality) ||
-    typeof summary.clock !== 'string'
-  ) {
-    throw new ReportError(
-      'E_RESULTS_CONTENT',
-      'outcome.json lacks the fields a run writes (rate, floor, suboptimality, clock)',
-    );
-  }
-  // The charts draw a run in its method's colour, so the method must be one roundwire knows.
-  if (typeof summary.method !== 'string' || !isMethodName(summary.method)) {
-    throw new ReportError(
-      'E_RESULTS_CONTENT',
-      `outcome.json: method ${JSON.stringify(summary.method)} is not one of ${METHOD_NAMES.join(', ')}`,
-    );
-  }
-  const scenario: unknown = parse(text.resolvedScenario);
-  const rounds = jsonLines<RoundRecord>(text.rounds, 'rounds.jsonl');
+  const summary = parseJson(runSummarySchema, text.outcome, 'outcome.json');
+  const scenario = parseResolvedScenario(text.resolvedScenario);
+  const rounds = parseJsonLines(roundRecordSchema, text.rounds, 'rounds.jsonl');
   if (rounds.length === 0)
     throw new ReportError('E_RESULTS_CONTENT', 'rounds.jsonl holds no rounds');
-  for (const r of rounds) {
-    if (
-      !isRecord(r) ||
-      typeof r.round !== 'number' ||
-      !isRecord(r.bytes) ||
-      !isRecord(r.localSteps)
-    ) {
-      throw new ReportError(
-        'E_RESULTS_CONTENT',
-        'rounds.jsonl: a line lacks round, bytes or localSteps',
-      );
-    }
-  }
-  const clients = jsonLines<ClientRoundRecord>(text.clients, 'clients.jsonl');
-  const run = summary as unknown as RunSummary;
-  const name =
-    isRecord(scenario) && typeof scenario.name === 'string' ? scenario.name : run.scenario;
-  const description =
-    isRecord(scenario) && typeof scenario.description === 'string' ? scenario.description : null;
-  return { scenarioName: name, description, summary: run, rounds, clients };
+  const clients = parseJsonLines(clientRoundRecordSchema, text.clients, 'clients.jsonl');
+  return {
+    scenarioName: scenario.name,
+    description: scenario.description ?? null,
+    summary,
+    rounds,
+    clients,
+  };
 }

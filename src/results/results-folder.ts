@@ -1,13 +1,13 @@
 // The results folder of a run, the same layout for the in-process engine and the coordinator;
-// README.md ("Results folder") is the one description of every file in it. report.html is
-// added by src/commands/report-command.ts. This is the one module under src/ that writes run
-// results; the core computes, this records.
+// README.md ("Results folder") is the one description of every file in it. rounds.jsonl and
+// clients.jsonl are written as the rounds happen (record-stream.ts), the rest here at the end;
+// report.html is added by src/commands/report-command.ts. src/results is the one part of src/
+// that writes run results; the core computes, this records.
 
 import { accessSync, constants, mkdirSync, rmSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { stringify } from 'yaml';
 import type { Scenario } from '../scenario/schema.js';
-import type { ClientRoundRecord, RoundRecord } from '../engine/round-record.js';
 import { CodedError } from '../base/coded-error.js';
 
 /** The results folder cannot be created or written. */
@@ -22,17 +22,12 @@ export const resultFiles = {
   modelBinary: 'model.f64',
 } as const;
 
+/** What a run adds to its folder at the end, beside the records streamed while it ran. */
 export interface ResultsPayload {
   scenario: Scenario;
-  rounds: readonly RoundRecord[];
-  clients: readonly ClientRoundRecord[];
   /** outcome.json: measured beside predicted (RunSummary, with distributed details) */
   outcome: unknown;
   finalModel: Float64Array;
-}
-
-function jsonLines(items: readonly unknown[]): string {
-  return items.map((item) => JSON.stringify(item)).join('\n') + (items.length > 0 ? '\n' : '');
 }
 
 /** A results folder name that sorts by time and says what ran: <scenario>-<method>-<utc stamp>. */
@@ -62,8 +57,6 @@ export function prepareResultsFolder(dir: string): void {
 export function writeResultsFolder(dir: string, payload: ResultsPayload): void {
   mkdirSync(dir, { recursive: true });
   writeFileSync(join(dir, resultFiles.resolvedScenario), stringify(payload.scenario));
-  writeFileSync(join(dir, resultFiles.rounds), jsonLines(payload.rounds));
-  writeFileSync(join(dir, resultFiles.clients), jsonLines(payload.clients));
   writeFileSync(join(dir, resultFiles.outcome), `${JSON.stringify(payload.outcome, null, 2)}\n`);
   writeFileSync(join(dir, resultFiles.modelJson), `${JSON.stringify({ dim: payload.finalModel.length, x: Array.from(payload.finalModel) })}\n`);
   const bytes = new Uint8Array(payload.finalModel.length * 8);

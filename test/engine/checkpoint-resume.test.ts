@@ -10,8 +10,9 @@ import { describe, expect, it } from 'vitest';
 import { scenarioFromText } from '../../src/scenario/load-scenario.js';
 import { runInProcess } from '../../src/engine/in-process-engine.js';
 import type { RunState } from '../../src/engine/run-state.js';
-import type { ClientRoundRecord, RoundRecord } from '../../src/engine/round-record.js';
+import type { RoundRecord } from '../../src/engine/round-record.js';
 import { decodeCheckpoint, encodeCheckpoint } from '../../src/results/checkpoint-file.js';
+import { RecordList } from '../support/record-list.js';
 
 const text = readFileSync(new URL('../../scenarios/quickstart.yaml', import.meta.url), 'utf8');
 
@@ -30,26 +31,6 @@ const COMPRESSIONS = {
 
 const ROUNDS = 9;
 const CHECKPOINT_EVERY = 3;
-
-interface Recorded {
-  rounds: RoundRecord[];
-  clients: ClientRoundRecord[];
-}
-
-function recorder(): Recorded & {
-  onRound: (r: RoundRecord, c: readonly ClientRoundRecord[]) => void;
-} {
-  const rounds: RoundRecord[] = [];
-  const clients: ClientRoundRecord[] = [];
-  return {
-    rounds,
-    clients,
-    onRound: (record, cs) => {
-      rounds.push(record);
-      clients.push(...cs);
-    },
-  };
-}
 
 function withoutWallClock(records: readonly RoundRecord[]): unknown[] {
   return records.map(({ wallSeconds: _wall, ...rest }) => rest);
@@ -75,10 +56,10 @@ describe(`resuming from a checkpoint continues the run bit for bit (${ROUNDS} ro
           ...tweaks,
         ]);
         const plain = runInProcess(scenario);
-        const whole = recorder();
+        const whole = new RecordList();
         const states = new Map<number, RunState>();
         const checkpointed = runInProcess(scenario, {
-          onRound: whole.onRound,
+          openRecords: () => whole,
           checkpointEveryRounds: CHECKPOINT_EVERY,
           onCheckpoint: (state) => states.set(state.round, state),
         });
@@ -89,8 +70,8 @@ describe(`resuming from a checkpoint continues the run bit for bit (${ROUNDS} ro
         for (const [round, state] of states) {
           const bytes = encodeCheckpoint({ state, records: { roundsBytes: 0, clientsBytes: 0 } });
           const restored = decodeCheckpoint(bytes, state.planHash, 'checkpoint.bin').state;
-          const rest = recorder();
-          const resumed = runInProcess(scenario, { resume: restored, onRound: rest.onRound });
+          const rest = new RecordList();
+          const resumed = runInProcess(scenario, { resume: restored, openRecords: () => rest });
           expect(bitsOf(resumed.finalModel), `resumed after round ${round}`).toBe(
             bitsOf(plain.finalModel),
           );

@@ -10,6 +10,7 @@ import { buildRunSummary } from '../../src/engine/run-summary.js';
 import { predictRun } from '../../src/engine/predict-run.js';
 import { buildAllShards } from '../../src/data/build-shard.js';
 import { distanceSquared, norm2 } from '../../src/vec/kernels.js';
+import { RecordList } from '../support/record-list.js';
 
 const base = `
 name: engine-test
@@ -25,11 +26,22 @@ function scenario(tweaks: string[] = [], text = base): Scenario {
   return scenarioFromText(text, 'engine-test.yaml', tweaks);
 }
 
+function runKept(s: Scenario) {
+  const records = new RecordList();
+  return { ...runInProcess(s, { openRecords: () => records }), rounds: records.rounds };
+}
+
 function summaryOf(s: Scenario) {
-  const outcome = runInProcess(s);
+  const records = new RecordList();
+  const outcome = runInProcess(s, { openRecords: () => records });
   return {
     outcome,
-    summary: buildRunSummary(outcome, predictRun(outcome.plan, outcome.theory), 'in-process'),
+    summary: buildRunSummary(
+      outcome,
+      records.rounds,
+      predictRun(outcome.plan, outcome.theory),
+      'in-process',
+    ),
   };
 }
 
@@ -230,8 +242,8 @@ describe('determinism', () => {
       'timing.jitter:0.2',
       'run.rounds:40',
     ];
-    const a = runInProcess(scenario(tweaks));
-    const b = runInProcess(scenario(tweaks));
+    const a = runKept(scenario(tweaks));
+    const b = runKept(scenario(tweaks));
     expect(Buffer.from(a.finalModel.buffer).equals(Buffer.from(b.finalModel.buffer))).toBe(true);
     expect(JSON.stringify(a.rounds.map((r) => ({ ...r, wallSeconds: 0 })))).toBe(
       JSON.stringify(b.rounds.map((r) => ({ ...r, wallSeconds: 0 }))),

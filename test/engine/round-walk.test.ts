@@ -15,6 +15,7 @@ import { DirectTransport } from '../../src/engine/direct-transport.js';
 import { evaluateModel, type Evaluation } from '../../src/engine/evaluate.js';
 import { ServerRuntime } from '../../src/engine/server-runtime.js';
 import { walkRun, walkSetup } from '../../src/engine/round-walk.js';
+import { RecordList } from '../support/record-list.js';
 import type { StopReason } from '../../src/engine/run-summary.js';
 import {
   driveSync,
@@ -86,15 +87,21 @@ function walk(tweaks: string[], script: Script, checkpointEveryRounds = 0) {
     (x) => evaluateModel(theory.instance.global, theory.optimum.x, theory.optimum.loss, x),
     script,
   );
-  const walked = driveSync(
+  const records = new RecordList();
+  const end = driveSync(
     walkRun({
       ...walkSetup(plan, new ServerRuntime(plan)),
       wallSeconds: () => 0,
+      onRound: (record, clientRecords) => records.append(record, clientRecords),
       checkpointEveryRounds,
     }),
     transport,
   );
-  return { walked, orders: transport.orders, checkpoints: transport.checkpoints };
+  return {
+    walked: { ...end, rounds: records.rounds, clients: records.clients },
+    orders: transport.orders,
+    checkpoints: transport.checkpoints,
+  };
 }
 
 const idsOf = (order: ExchangeOrder) => order.downs.map((d) => d.assignment.clientId);

@@ -14,8 +14,7 @@ import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { loadScenarioFile } from '../../src/scenario/load-scenario.js';
-import { runInProcess } from '../../src/engine/in-process-engine.js';
-import { finishRun } from '../../src/commands/run-report.js';
+import { runInProcessInto } from '../../src/commands/run-report.js';
 import { resultFiles } from '../../src/results/results-folder.js';
 import type { ClientRoundRecord, RoundRecord } from '../../src/engine/round-record.js';
 import {
@@ -154,11 +153,7 @@ describe(`roundwire run (${WORKERS} workers, ${CLIENTS} clients, ${ROUNDS} round
         }
 
         const inProcess = freshDir(`same-${cell.method}-in-process`);
-        finishRun(
-          runInProcess(loadScenarioFile(join(out, resultFiles.resolvedScenario))),
-          'in-process',
-          inProcess,
-        );
+        runInProcessInto(loadScenarioFile(join(out, resultFiles.resolvedScenario)), inProcess);
         expect(
           readFileSync(join(out, resultFiles.modelBinary)).equals(
             readFileSync(join(inProcess, resultFiles.modelBinary)),

@@ -8,14 +8,11 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import type { MethodName } from '../../src/algorithm/method.js';
 import { scenarioFromText } from '../../src/scenario/load-scenario.js';
-import { runInProcess } from '../../src/engine/in-process-engine.js';
-import { finishRun } from '../../src/commands/run-report.js';
+import { runInProcessInto } from '../../src/commands/run-report.js';
 import { readRunResults } from '../../src/commands/report-command.js';
 import { buildRunReport } from '../../src/report/run-report-page.js';
 import { buildComparePage } from '../../src/report/compare-page.js';
 import { buildComparison, type VariantOutcome } from '../../src/report/compare-table.js';
-import { parseRunResults } from '../../src/report/run-results.js';
-import { ReportError } from '../../src/report/report-error.js';
 import {
   DIRECTION_STYLES,
   LAYER_COLOURS,
@@ -25,7 +22,6 @@ import {
   PREDICTED_DASH,
   SOLID_DASH,
 } from '../../src/report/palette.js';
-import { codeOf } from '../support/error-code.js';
 
 const root = mkdtempSync(join(tmpdir(), 'roundwire-palette-'));
 afterAll(() => rmSync(root, { recursive: true, force: true }));
@@ -65,7 +61,7 @@ function runOf(method: MethodName): VariantOutcome {
     'quickstart.yaml',
     [`method.name:${method}`, 'run.rounds:4'],
   );
-  finishRun(runInProcess(scenario), 'in-process', dir);
+  runInProcessInto(scenario, dir);
   const results = readRunResults(dir);
   return {
     variant: {
@@ -95,22 +91,6 @@ describe('the palette', () => {
     expect(new Set(Object.values(METHOD_COLOURS)).size).toBe(7);
     for (const colour of [...Object.values(METHOD_COLOURS), ...Object.values(LAYER_COLOURS)])
       expect(okabeIto.has(colour), colour).toBe(true);
-  });
-
-  it('refuses to report a results folder whose outcome names no known method', () => {
-    const text = {
-      resolvedScenario: 'name: s\n',
-      outcome: JSON.stringify({
-        method: 'newton',
-        rate: {},
-        floor: {},
-        suboptimality: {},
-        clock: 'virtual',
-      }),
-      rounds: '{"round":0,"bytes":{},"localSteps":{}}\n',
-      clients: '',
-    };
-    expect(codeOf(() => parseRunResults(text), ReportError)).toBe('E_RESULTS_CONTENT');
   });
 });
 

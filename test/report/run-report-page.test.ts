@@ -6,8 +6,7 @@ import { mkdtempSync, readFileSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { scenarioFromText } from '../../src/scenario/load-scenario.js';
-import { runInProcess } from '../../src/engine/in-process-engine.js';
-import { finishRun } from '../../src/commands/run-report.js';
+import { runInProcessInto } from '../../src/commands/run-report.js';
 import { readRunResults, writeRunReport } from '../../src/commands/report-command.js';
 import { buildRunReport } from '../../src/report/run-report-page.js';
 
@@ -25,7 +24,7 @@ function runInto(dir: string, tweaks: string[]): string {
     'run.rounds:60',
     ...tweaks,
   ]);
-  finishRun(runInProcess(scenario), 'in-process', dir);
+  runInProcessInto(scenario, dir);
   return dir;
 }
 
