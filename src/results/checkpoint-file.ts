@@ -28,8 +28,11 @@ import {
   writeSync,
 } from 'node:fs';
 import { basename, dirname, join } from 'node:path';
+import { stringify } from 'yaml';
 import { z } from 'zod';
 import { CodedError } from '../base/coded-error.js';
+import type { Scenario } from '../scenario/schema.js';
+import { resultFiles } from './results-folder.js';
 import type { RunState } from '../engine/run-state.js';
 import {
   flattenState,
@@ -224,8 +227,16 @@ export function writeFileAtomically(file: string, bytes: Uint8Array): void {
   }
 }
 
-/** Writes checkpoint.bin into the results folder `dir`, atomically. */
-export function writeCheckpoint(dir: string, checkpoint: Checkpoint): void {
+/**
+ * Writes checkpoint.bin into the results folder `dir`, atomically, and the resolved scenario
+ * beside it (resolved-scenario.yaml), which `roundwire resume` reads: a run killed before its end
+ * has written nothing else.
+ */
+export function writeCheckpoint(dir: string, checkpoint: Checkpoint, scenario: Scenario): void {
+  writeFileAtomically(
+    join(dir, resultFiles.resolvedScenario),
+    Buffer.from(stringify(scenario), 'utf8'),
+  );
   writeFileAtomically(join(dir, CHECKPOINT_FILE), encodeCheckpoint(checkpoint));
 }
 

@@ -17,6 +17,7 @@ import {
 } from '../../src/results/checkpoint-file.js';
 import { CheckpointError } from '../../src/results/checkpoint-file.js';
 import { codeOf } from '../support/error-code.js';
+import { scenarioFromText } from '../../src/scenario/load-scenario.js';
 
 function expectCode(action: () => unknown, code: string): void {
   expect(codeOf(action, CheckpointError)).toBe(code);
@@ -84,9 +85,13 @@ describe('checkpoint file', () => {
 
   it('is written atomically, leaving no temporary file, and read back from the folder', () => {
     const dir = mkdtempSync(join(tmpdir(), 'roundwire-checkpoint-'));
-    writeCheckpoint(dir, sample());
-    writeCheckpoint(dir, sample());
-    expect(readdirSync(dir)).toEqual([CHECKPOINT_FILE]);
+    const scenario = scenarioFromText(
+      readFileSync(new URL('../../scenarios/quickstart.yaml', import.meta.url), 'utf8'),
+      'quickstart.yaml',
+    );
+    writeCheckpoint(dir, sample(), scenario);
+    writeCheckpoint(dir, sample(), scenario);
+    expect(readdirSync(dir).sort()).toEqual([CHECKPOINT_FILE, 'resolved-scenario.yaml']);
     expect(readCheckpoint(dir, PLAN).state.round).toBe(7);
   });
 
