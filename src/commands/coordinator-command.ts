@@ -200,6 +200,7 @@ async function coordinate(
     const outcome = await coordinator.run(() => files.records());
     files.close();
     const summary = writeDistributedResults(outcome, outDir);
+    files.ended(outcome.stopReason);
     if (interrupted !== null) throw new RunInterrupted(files.resumeAdvice(interrupted));
     await lingerWithMetrics(
       metricsServer,

@@ -6,7 +6,7 @@ export const exitCodes = {
   failure: 1,
   /** bad input: a scenario file, a --tweak, a --ladder, any other command-line argument */
   badInput: 2,
-  /** interrupted (SIGINT / Ctrl-C); 128 + signal number, as shells do */
+  /** interrupted (SIGINT / Ctrl-C, SIGTERM) after a checkpoint; 128 + SIGINT's number, as shells do */
   interrupted: 130,
 } as const;
 
@@ -63,5 +63,6 @@ export const exitCodesHelp = `
 Exit codes:
   0    success
   1    the run failed (runtime error)
-  2    bad input: scenario file, --tweak, --ladder or other argument
-  130  interrupted (Ctrl-C)`;
+  2    bad input: scenario file, --tweak, --ladder or other argument, or a checkpoint
+       resume cannot use
+  130  interrupted (Ctrl-C, SIGTERM), with a checkpoint: roundwire resume <folder>`;

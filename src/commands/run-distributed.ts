@@ -204,6 +204,7 @@ export async function runDistributed(
       throw new RunInterrupted(files.resumeAdvice(interrupted));
     }
     const summary = writeDistributedResults(outcome, outDir);
+    files.ended(outcome.stopReason);
     await lingerWithMetrics(
       metricsServer,
       metrics?.lingerSeconds ?? 0,

@@ -6,7 +6,14 @@
 import type { Scenario } from '../scenario/schema.js';
 import type { RunState } from '../engine/run-state.js';
 import { RecordStream } from '../results/record-stream.js';
-import { writeCheckpoint, type CheckpointRecords } from '../results/checkpoint-file.js';
+import { rmSync } from 'node:fs';
+import { join } from 'node:path';
+import type { StopReason } from '../engine/run-summary.js';
+import {
+  CHECKPOINT_FILE,
+  writeCheckpoint,
+  type CheckpointRecords,
+} from '../results/checkpoint-file.js';
 
 export class RunFiles {
   private readonly outDir: string;
@@ -47,6 +54,15 @@ export class RunFiles {
 
   close(): void {
     this.stream?.close();
+  }
+
+  /**
+   * A run that reached its end (its rounds, its target) has nothing left to resume: its
+   * checkpoint goes. One that stopped otherwise (interrupted, its workers lost, diverged) keeps it.
+   */
+  ended(stopReason: StopReason): void {
+    if (stopReason === 'rounds-complete' || stopReason === 'target-reached')
+      rmSync(join(this.outDir, CHECKPOINT_FILE), { force: true });
   }
 
   /** The line an interrupted run ends with: where it stopped and how to go on. */

@@ -51,6 +51,7 @@ export async function runInProcessCheckpointed(
     process.off('SIGTERM', onSignal);
   }
   const summary = finishRun(outcome, 'in-process', outDir);
+  files.ended(outcome.stopReason);
   if (interrupted !== null) throw new RunInterrupted(files.resumeAdvice(interrupted));
   return { outcome, summary };
 }
