@@ -140,7 +140,7 @@ export class Worker {
           this.rejoinFresh = false;
           await this.dropHosting();
           this.options.log(
-            'the coordinator does not know this session (restarted); joining afresh',
+            'the coordinator refused to resume this session (E_AUTH: it was restarted, or the grace passed); joining afresh',
           );
           this.phase = 'challenge';
           continue;
