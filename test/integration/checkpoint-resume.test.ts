@@ -1,13 +1,16 @@
 // kill -9 of a running `roundwire run` (the coordinator with its local workers, or the
 // in-process engine) at a seeded random round, then `roundwire resume <folder>`: the final model
 // and every record (wall-clock seconds aside) equal an uninterrupted run's bit for bit (virtual
-// clock). SIGINT on `run --in-process` leaves a folder that resumes to the same end. A checkpoint
+// clock). So does kill -9 of a `roundwire coordinator` whose workers survive: they wait for it
+// and rejoin `roundwire resume <folder> --listen` at the same address, which sends them their
+// clients' states. SIGINT on `run --in-process` leaves a folder that resumes to the same end. A checkpoint
 // of another scenario, a cut-short one and one of another format version are each refused with
 // exit code 2 and one line naming the reason.
 
 import { copyFileSync, readFileSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
+import { createServer } from 'node:net';
 import { Rng } from '../../src/base/rng.js';
 import {
   CliProcess,
@@ -16,6 +19,7 @@ import {
   readJsonLines,
   repoRoot,
   survivorsAfter,
+  writeKeyFile,
 } from './cli-process.js';
 
 const ROUNDS = 160;
@@ -109,10 +113,19 @@ const rng = Rng.derive(KILL_SEED, 'kill-round');
 const killRounds = [
   KILL_ROUND_MIN + rng.nextInt(KILL_ROUND_SPAN),
   KILL_ROUND_MIN + rng.nextInt(KILL_ROUND_SPAN),
+  KILL_ROUND_MIN + rng.nextInt(KILL_ROUND_SPAN),
 ];
 console.log(
-  `kill rounds (seed ${KILL_SEED}): distributed ${killRounds[0]}, in-process ${killRounds[1]}`,
+  `kill rounds (seed ${KILL_SEED}): distributed ${killRounds[0]}, in-process ${killRounds[1]}, coordinator ${killRounds[2]}`,
 );
+
+async function freePort(): Promise<number> {
+  const server = createServer();
+  await new Promise<void>((resolve) => server.listen(0, '127.0.0.1', resolve));
+  const port = (server.address() as { port: number }).port;
+  await new Promise<void>((resolve) => server.close(() => resolve()));
+  return port;
+}
 
 describe('kill -9, then roundwire resume', () => {
   it(`run with local workers, killed after round ${killRounds[0]}, resumes to the uninterrupted run bit for bit`, async () => {
@@ -148,6 +161,60 @@ describe('kill -9, then roundwire resume', () => {
     await completed(['resume', copy], 90_000);
     expectSameRun(copy, reference, true);
   }, 300_000);
+});
+
+describe('kill -9 of a coordinator whose workers survive', () => {
+  it(`the workers wait, rejoin the resumed coordinator and the run ends as the uninterrupted one`, async () => {
+    const reference = freshDir('resume-coord-ref');
+    await completed(['run', ...scenarioArgs(), '--out', reference], 90_000);
+    const dir = freshDir('resume-coord');
+    const key = writeKeyFile(freshDir('resume-coord-key'), 'a-shared-key-of-the-test-cluster');
+    const port = await freePort();
+    const listen = ['--listen', `127.0.0.1:${port}`, '--key-file', key, '--workers-min', '2'];
+    const [scenario, ...tweaks] = scenarioArgs();
+    const coordinator = new CliProcess([
+      'coordinator',
+      scenario,
+      ...listen,
+      ...tweaks,
+      '--out',
+      dir,
+    ]);
+    const workers = [1, 2].map(
+      (i) =>
+        new CliProcess([
+          'worker',
+          `ws://127.0.0.1:${port}`,
+          '--key-file',
+          key,
+          '--capacity',
+          '4',
+          '--name',
+          `survivor-${i}`,
+        ]),
+    );
+    try {
+      await progressPast(coordinator, killRounds[2], 60_000);
+      coordinator.child.kill('SIGKILL');
+      await coordinator.exit(10_000);
+      const resumed = new CliProcess(['resume', dir, ...listen]);
+      try {
+        const exit = await resumed.exit(90_000);
+        expect(exit.code, resumed.stderr).toBe(0);
+      } finally {
+        resumed.kill();
+      }
+      for (const worker of workers) {
+        const exit = await worker.exit(30_000);
+        expect(exit.code, worker.stderr).toBe(0);
+        expect(worker.stderr).toMatch(/joining afresh/);
+      }
+      expectSameRun(dir, reference);
+    } finally {
+      coordinator.kill();
+      for (const worker of workers) worker.kill();
+    }
+  }, 240_000);
 });
 
 describe('SIGINT on run --in-process', () => {
