@@ -91,6 +91,8 @@ export class RoundDriver implements RoundTransport<'async'> {
   private readonly wall: boolean;
   private current: ExchangeWait | null = null;
   private stopRequested = false;
+  /** the run's records held for late ups (null before the run, or with no records) */
+  private hold: LateUpHold | null = null;
   /** the round in progress (0 before the first) */
   round = 0;
 
@@ -228,6 +230,7 @@ export class RoundDriver implements RoundTransport<'async'> {
   /** Runs every round, its records into `records` as they happen; resolves when the run stops. */
   async run(wallSecondsNow: () => number, records: RecordSink | null): Promise<RoundsResult> {
     const hold = records && new LateUpHold(records, () => this.awaitingLateUps());
+    this.hold = hold;
     const onRound = (record: RoundRecord, clients: readonly ClientRoundRecord[]): void => {
       hold?.add(record, clients);
       this.options.onRoundRecords?.(record, clients);
@@ -304,6 +307,9 @@ export class RoundDriver implements RoundTransport<'async'> {
   }
 
   async checkpoint(point: WalkPoint): Promise<void> {
+    // The records up to the checkpoint's round must be in the files when their offsets are
+    // taken: rounds held for a late up (wall clock) go out now, as they are.
+    this.hold?.flush();
     await this.options.checkpoint?.(point, this.server);
   }
 
