@@ -7,7 +7,9 @@ import { performance } from 'node:perf_hooks';
 import { availableParallelism } from 'node:os';
 import { Piscina } from 'piscina';
 import {
+  checkClientSnapshot,
   ClientRuntime,
+  freshClientSnapshot,
   snapshotWithReplicasReset,
   type ClientRuntimeSnapshot,
   type EncodedFields,
@@ -120,6 +122,40 @@ export class ClientHost {
       resets.push(next);
     }
     return Promise.all(resets).then(() => undefined);
+  }
+
+  /** Queues `step` for `clientId` after its queued work; resolves to what it returns. */
+  private afterQueued<T>(clientId: number, step: () => T): Promise<T> {
+    if (!this.hosts(clientId)) throw new RangeError(`client ${clientId} is not hosted here`);
+    const previous = this.queues.get(clientId) ?? Promise.resolve();
+    const next = previous.catch(() => undefined).then(step);
+    this.queues.set(clientId, next);
+    return next;
+  }
+
+  /** The client's state after its queued work (a checkpoint's), as a copy. */
+  snapshot(clientId: number): Promise<ClientRuntimeSnapshot> {
+    return this.afterQueued(clientId, () => {
+      if (this.inline !== null) return this.inline.get(clientId)!.snapshot();
+      return structuredClone(
+        this.snapshots.get(clientId) ?? freshClientSnapshot(this.plan, clientId),
+      );
+    });
+  }
+
+  /**
+   * Continues the client from `snapshot` (a resumed run's) after its queued work and before any
+   * work queued later; rejects with StateTreeError when the state is not one of this client.
+   */
+  restore(clientId: number, snapshot: ClientRuntimeSnapshot): Promise<void> {
+    return this.afterQueued(clientId, () => {
+      if (this.inline !== null) {
+        this.inline.get(clientId)!.restoreChecked(snapshot);
+        return;
+      }
+      checkClientSnapshot(this.plan, clientId, snapshot);
+      this.snapshots.set(clientId, structuredClone(snapshot));
+    });
   }
 
   private async run(job: HostedWork, queuedSeconds: number): Promise<HostedResult> {

@@ -1,6 +1,8 @@
-// Reaching the coordinator: a WebSocket connection, retried with exponential backoff (doubling
-// from a first delay up to a cap) for a bounded number of attempts, so that workers may start
-// before the coordinator listens and a transient refusal does not end them. A failure that no
+// Reaching the coordinator: a WebSocket connection, retried with exponential backoff (each wait
+// a factor longer than the one before, from a first delay up to a cap) for a bounded number of
+// attempts and a bounded total wait, so that workers may start before the coordinator listens,
+// a transient refusal does not end them, and a worker whose coordinator died waits for it to be
+// resumed (RECONNECT_RETRY_POLICY) but not forever. A failure that no
 // retry can mend (the scheme does not match the coordinator's TLS, its certificate is not
 // trusted) ends the join at once with a message that says what to change.
 
@@ -11,23 +13,48 @@ import { sleepSeconds } from './sleep.js';
 
 export interface RetryPolicy {
   attemptsMax: number;
+  /** the wait before the second attempt */
   firstDelaySeconds: number;
+  /** each wait is this many times the one before, up to the cap */
+  delayFactor: number;
   delayCapSeconds: number;
+  /** the waits between attempts add up to at most this; an attempt that would wait longer is not made */
+  waitTotalSeconds: number;
   /** one attempt's limit for the TCP and WebSocket handshake */
   connectTimeoutSeconds: number;
 }
 
+/** Joining: the coordinator may start a little after its workers. */
 export const DEFAULT_RETRY_POLICY: RetryPolicy = {
   attemptsMax: 8,
   firstDelaySeconds: 0.25,
+  delayFactor: 2,
   delayCapSeconds: 5,
+  waitTotalSeconds: 30,
+  connectTimeoutSeconds: 10,
+};
+
+/**
+ * Reconnecting mid-run: long enough for an operator to resume a coordinator that died
+ * (`roundwire resume`), bounded so that a worker whose run is over does not wait forever. The
+ * worker's --reconnect-wait-seconds replaces the total wait.
+ */
+export const RECONNECT_RETRY_POLICY: RetryPolicy = {
+  attemptsMax: 1000,
+  firstDelaySeconds: 0.25,
+  delayFactor: 2,
+  delayCapSeconds: 5,
+  waitTotalSeconds: 120,
   connectTimeoutSeconds: 10,
 };
 
 /** The wait before attempt `attempt` (1-based; the first attempt does not wait). */
 export function backoffSeconds(policy: RetryPolicy, attempt: number): number {
   if (attempt <= 1) return 0;
-  return Math.min(policy.delayCapSeconds, policy.firstDelaySeconds * 2 ** (attempt - 2));
+  return Math.min(
+    policy.delayCapSeconds,
+    policy.firstDelaySeconds * policy.delayFactor ** (attempt - 2),
+  );
 }
 
 export class JoinError extends Error {
@@ -161,8 +188,13 @@ export async function connectWithRetry(
   trustedCertificatesPem: string | null = null,
 ): Promise<WebSocket> {
   let lastError: Error | null = null;
-  for (let attempt = 1; attempt <= policy.attemptsMax; attempt++) {
-    await sleepSeconds(backoffSeconds(policy, attempt));
+  let waitedSeconds = 0;
+  let attempt = 1;
+  for (; attempt <= policy.attemptsMax; attempt++) {
+    const delaySeconds = backoffSeconds(policy, attempt);
+    if (waitedSeconds + delaySeconds > policy.waitTotalSeconds) break;
+    waitedSeconds += delaySeconds;
+    await sleepSeconds(delaySeconds);
     try {
       return await connectOnce(url, policy, maxPayloadBytes, onFrame, log, trustedCertificatesPem);
     } catch (error) {
@@ -173,6 +205,6 @@ export async function connectWithRetry(
     }
   }
   throw new JoinError(
-    `could not reach ${url} after ${policy.attemptsMax} attempts (${lastError?.message ?? 'no attempt'})`,
+    `could not reach ${url} after ${attempt - 1} attempts in ${waitedSeconds.toFixed(2)} s of waiting (${lastError?.message ?? 'no attempt'})`,
   );
 }

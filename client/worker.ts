@@ -4,6 +4,10 @@
 // gets an error reply with its code and is otherwise ignored. A connection that drops mid-run
 // (no done, no final error) is reconnected with the same backoff as the join, and the new
 // challenge answered with the welcome's resume token, which gives the worker its clients back.
+// A coordinator that died and was resumed from its checkpoint (`roundwire resume`) knows no
+// token: the worker waits for it with bounded backoff (RECONNECT_RETRY_POLICY), and when its
+// resume is refused it joins afresh; the coordinator then deals clients again and sends each
+// its state from the checkpoint (state messages), so the worker keeps nothing of its own.
 //
 // Order on a connection: the hello is the first message sent on it (the coordinator refuses
 // anything else with E_ORDER), and nothing answers a down that came on an earlier connection,
@@ -22,6 +26,8 @@ import {
   proveKey,
   receiveMessage,
   toWire,
+  fromWireState,
+  toWireState,
   type DownMessage,
   type FieldDims,
   type Message,
@@ -30,7 +36,7 @@ import {
   type WelcomeMessage,
   type WireFields,
 } from '../src/protocol/index.js';
-import type { EncodedFields } from '../src/engine/client-runtime.js';
+import type { ClientRuntimeSnapshot, EncodedFields } from '../src/engine/client-runtime.js';
 import type { WirePlan } from '../src/engine/run-plan.js';
 import { downFieldDimsFor } from '../src/engine/down-field-dims.js';
 import { fieldsPayloadBytes } from '../src/compress/payload-bytes.js';
@@ -41,6 +47,7 @@ import {
   connectWithRetry,
   DEFAULT_RETRY_POLICY,
   JoinError,
+  RECONNECT_RETRY_POLICY,
   type RetryPolicy,
 } from './connection.js';
 import { LinkShaper } from './link.js';
@@ -57,6 +64,8 @@ export interface WorkerOptions {
   /** most pool threads when hosting several clients */
   threadsMax: number;
   retry?: RetryPolicy;
+  /** most seconds of waiting for a coordinator that dropped mid-run (RECONNECT_RETRY_POLICY's when absent) */
+  reconnectWaitSeconds?: number;
   /** PEM certificates trusted for a wss:// coordinator beside the system's (e.g. its self-signed one) */
   trustedCertificatesPem?: string;
   /** counts messages, link delay and each hosted client's work when given */
@@ -103,6 +112,10 @@ export class Worker {
   private connectionNumber = 0;
   /** each hosted client's newest down: an up for an older one is superseded and withheld */
   private readonly newestDownOf = new Map<number, DownMessage>();
+  /** the last hello carried a resume token */
+  private resumeSent = false;
+  /** the coordinator refused the resume (it was restarted): join afresh */
+  private rejoinFresh = false;
   private finish: (exit: WorkerExit) => void = () => undefined;
   private fail: (error: Error) => void = () => undefined;
 
@@ -130,6 +143,15 @@ export class Worker {
         });
         if (outcome !== 'closed') return outcome;
         this.stopHeartbeats();
+        if (this.rejoinFresh) {
+          this.rejoinFresh = false;
+          await this.dropHosting();
+          this.options.log(
+            'the coordinator refused to resume this session (E_AUTH: it was restarted, or the grace passed); joining afresh',
+          );
+          this.phase = 'challenge';
+          continue;
+        }
         const resumeToken = this.hosting?.resumeToken ?? null;
         if (this.hosting === null)
           throw new JoinError('the coordinator closed the connection before the run');
@@ -149,11 +171,29 @@ export class Worker {
     }
   }
 
+  /** Forgets the clients of a session the coordinator no longer knows. */
+  private async dropHosting(): Promise<void> {
+    const hosting = this.hosting;
+    this.hosting = null;
+    this.newestDownOf.clear();
+    await hosting?.host.close();
+  }
+
+  private retryPolicy(): RetryPolicy {
+    if (this.options.retry !== undefined) return this.options.retry;
+    if (this.hosting === null) return DEFAULT_RETRY_POLICY;
+    return {
+      ...RECONNECT_RETRY_POLICY,
+      waitTotalSeconds:
+        this.options.reconnectWaitSeconds ?? RECONNECT_RETRY_POLICY.waitTotalSeconds,
+    };
+  }
+
   private connect(): Promise<WebSocket> {
     this.connectionNumber += 1;
     return connectWithRetry(
       this.options.url,
-      this.options.retry ?? DEFAULT_RETRY_POLICY,
+      this.retryPolicy(),
       WORKER_FRAME_BYTES_MAX,
       (frame, socket) => {
         // The first frame may come before the connection's promise settles; answer on its socket.
@@ -192,7 +232,7 @@ export class Worker {
       case 'welcome':
         return ['welcome', 'error'];
       default:
-        return ['down', 'heartbeat', 'error', 'done'];
+        return ['down', 'heartbeat', 'error', 'done', 'checkpoint', 'state'];
     }
   }
 
@@ -240,6 +280,7 @@ export class Worker {
       case 'challenge': {
         this.phase = 'welcome';
         const resumeToken = this.hosting?.resumeToken ?? null;
+        this.resumeSent = resumeToken !== null;
         this.send({
           type: 'hello',
           protocolVersion: PROTOCOL_VERSION,
@@ -257,8 +298,16 @@ export class Worker {
       case 'down':
         this.down(message);
         return;
+      case 'checkpoint':
+        this.sendStates(message.round);
+        return;
+      case 'state':
+        this.restoreState(message);
+        return;
       case 'error':
-        if (this.phase !== 'active')
+        if (this.phase === 'welcome' && this.resumeSent && message.code === 'E_AUTH')
+          this.rejoinFresh = true;
+        else if (this.phase !== 'active')
           this.fail(
             new JoinError(`refused by the coordinator (${message.code}): ${message.message}`),
           );
@@ -330,6 +379,44 @@ export class Worker {
     this.phase = 'active';
     this.options.log(`resumed hosting clients ${ids.join(', ')}`);
     this.startHeartbeats(message.limits);
+  }
+
+  /** Each hosted client's state after its work up to `round`, one state message per client. */
+  private sendStates(round: number): void {
+    const hosting = this.hosting!;
+    for (const clientId of [...hosting.clientIds].sort((a, b) => a - b)) {
+      hosting.host
+        .snapshot(clientId)
+        .then((snapshot) => this.send({ type: 'state', round, clientId, ...toWireState(snapshot) }))
+        .catch((error: Error) => this.fail(error));
+    }
+  }
+
+  /** A resumed run's state for a client, restored before any down that follows. */
+  private restoreState(message: Extract<Message, { type: 'state' }>): void {
+    const hosting = this.hosting!;
+    if (!hosting.clientIds.has(message.clientId))
+      throw new ProtocolError(
+        'E_CLIENT',
+        `state.clientId: client ${message.clientId} is not hosted by this worker`,
+      );
+    const snapshot = fromWireState(message) as ClientRuntimeSnapshot;
+    hosting.host
+      .restore(message.clientId, snapshot)
+      .catch((error: Error) => this.reportRestoreFailure(message.clientId, error));
+  }
+
+  private reportRestoreFailure(clientId: number, error: Error): void {
+    const limits = this.hosting?.limits ?? HANDSHAKE_LIMITS;
+    this.options.log(`client ${clientId}: the coordinator's state was refused: ${error.message}`);
+    this.send({
+      type: 'error',
+      code: 'E_TYPE',
+      message: `state of client ${clientId}: ${error.message}`.slice(
+        0,
+        limits.maxErrorMessageLength,
+      ),
+    });
   }
 
   private startHeartbeats(limits: ProtocolLimits): void {

@@ -12,6 +12,15 @@ import { predictRun } from '../src/engine/predict-run.js';
 import type { RunPlan, WirePlan } from '../src/engine/run-plan.js';
 import type { PlanTheory } from '../src/theory/plan-theory.js';
 import type { RecordSink, RoundRecord } from '../src/engine/round-record.js';
+import type { RunState } from '../src/engine/run-state.js';
+import type { ServerRuntime } from '../src/engine/server-runtime.js';
+import type { WalkPoint } from '../src/engine/walk-transport.js';
+import {
+  checkClientSnapshot,
+  clientStateBound,
+  type ClientRuntimeSnapshot,
+} from '../src/engine/client-runtime.js';
+import { StateTreeError } from '../src/base/state-tree.js';
 import {
   CLOSE_NORMAL,
   CLOSE_POLICY_VIOLATION,
@@ -20,13 +29,16 @@ import {
   HANDSHAKE_LIMITS,
   helloFrameBytesMax,
   ProtocolError,
+  fromWireState,
   limitsForPlan,
   pendingBytesMaxFor,
   receiveMessage,
+  toWireState,
   RESUME_TOKEN_BYTES,
   type DoneReason,
   type FrameFailure,
   type ProtocolLimits,
+  type StateMessage,
 } from '../src/protocol/index.js';
 import { ByteLedger } from './byte-ledger.js';
 import { ConnectionGate } from './connection-gate.js';
@@ -75,6 +87,21 @@ export interface CoordinatorOptions {
   resumeGraceSeconds?: number;
   onRound?: (record: RoundRecord) => void;
   log: (line: string) => void;
+  /** go on from this state (a checkpoint's) instead of round 0; workers are sent their clients' states */
+  resume?: RunState;
+  /** ask for a checkpoint after every this many rounds (0 or absent: only when stopped) */
+  checkpointEveryRounds?: number;
+  /** keeps a checkpoint (writes its file); without it no checkpoint is taken */
+  onCheckpoint?: (state: RunState) => void;
+}
+
+/** The clients' states a checkpoint waits for, one state message per client. */
+interface StateCollection {
+  round: number;
+  states: Map<number, ClientRuntimeSnapshot>;
+  missing: Set<number>;
+  /** ends the wait (every state came, or a worker left) */
+  settle: () => void;
 }
 
 /**
@@ -131,6 +158,7 @@ export class Coordinator {
   private nextSessionId = 1;
   private joinChanged: () => void = () => undefined;
   private stopRequested = false;
+  private collecting: StateCollection | null = null;
 
   constructor(scenario: Scenario, options: CoordinatorOptions) {
     this.options = options;
@@ -192,6 +220,9 @@ export class Coordinator {
       untilConnected: () => this.untilConnected(),
       onRound: options.onRound,
       onRoundRecords: (record, clients) => this.metrics.roundRecorded(record, clients),
+      checkpoint: (point, server) => this.checkpoint(point, server),
+      ...(options.resume === undefined ? {} : { resume: options.resume }),
+      checkpointEveryRounds: options.checkpointEveryRounds ?? 0,
     });
     const heartbeat = options.heartbeat ?? {
       intervalSeconds: HANDSHAKE_LIMITS.heartbeatIntervalSeconds,
@@ -226,11 +257,17 @@ export class Coordinator {
 
   private limitsFor(clientsPerWorker: number): ProtocolLimits {
     const heartbeat = this.options.heartbeat;
+    const fieldNames = new Set(
+      [...Object.values(this.shapes.down), ...Object.values(this.shapes.up)].flatMap((fields) =>
+        Object.keys(fields),
+      ),
+    );
     return {
       ...limitsForPlan({
         downFieldDims: this.shapes.down,
         upFieldDims: this.shapes.up,
         clientsPerWorker,
+        clientState: clientStateBound(this.wirePlan(), fieldNames.size),
       }),
       ...(heartbeat
         ? {
@@ -341,7 +378,7 @@ export class Coordinator {
         this.plan.scenario.timing.clock === 'virtual' ? this.driver.expectation() : null;
       const message = receiveMessage(frame, {
         limits,
-        expectedTypes: active ? ['up', 'heartbeat', 'error'] : ['heartbeat', 'error'],
+        expectedTypes: active ? ['up', 'state', 'heartbeat', 'error'] : ['heartbeat', 'error'],
         expectedRound: expectation?.round ?? null,
         expectedExchange: expectation?.exchange ?? null,
         ownedClientIds: session.clientIds,
@@ -353,6 +390,10 @@ export class Coordinator {
         return;
       }
       this.ledger.recordControlMessage('up', frame.byteLength, wireBytes);
+      if (message.type === 'state') {
+        this.stateReceived(message);
+        return;
+      }
       if (message.type === 'error') {
         this.errors.countReported(message.code);
         this.options.log(`${session.label()} reported ${message.code}: ${message.message}`);
@@ -374,6 +415,75 @@ export class Coordinator {
     }
   }
 
+  /** One client's state for the checkpoint being taken. Throws ProtocolError when it is not one. */
+  private stateReceived(message: StateMessage): void {
+    const collection = this.collecting;
+    if (collection === null || collection.round !== message.round)
+      throw new ProtocolError(
+        'E_ROUND',
+        `state.round: no checkpoint asked for round ${message.round}${collection === null ? '' : ` (asked: round ${collection.round})`}`,
+      );
+    const snapshot = fromWireState(message) as ClientRuntimeSnapshot;
+    try {
+      checkClientSnapshot(this.wirePlan(), message.clientId, snapshot);
+    } catch (error) {
+      if (error instanceof StateTreeError) throw new ProtocolError('E_TYPE', error.message);
+      throw error;
+    }
+    collection.states.set(message.clientId, snapshot);
+    collection.missing.delete(message.clientId);
+    if (collection.missing.size === 0) collection.settle();
+  }
+
+  /**
+   * Takes a checkpoint after `point.round`: the server's state here, every client's from its
+   * worker (checkpoint -> one state per client). Skipped, with a line in the log, when a client's
+   * worker is away or does not answer within the exchange timeout: the previous checkpoint stays.
+   */
+  private async checkpoint(point: WalkPoint, server: ServerRuntime): Promise<void> {
+    const keep = this.options.onCheckpoint;
+    if (keep === undefined) return;
+    const serverState = server.snapshot();
+    const away: number[] = [];
+    for (let id = 0; id < this.plan.clientCount; id++)
+      if (this.registry.hostOfClient(id) === null) away.push(id);
+    if (away.length > 0) {
+      this.options.log(
+        `no checkpoint after round ${point.round}: clients ${away.join(', ')} have no worker connected`,
+      );
+      return;
+    }
+    const collection: StateCollection = {
+      round: point.round,
+      states: new Map(),
+      missing: new Set(Array.from({ length: this.plan.clientCount }, (_, id) => id)),
+      settle: () => undefined,
+    };
+    await new Promise<void>((resolve) => {
+      const timer = setTimeout(resolve, this.options.exchangeTimeoutSeconds * 1000);
+      collection.settle = () => {
+        clearTimeout(timer);
+        resolve();
+      };
+      this.collecting = collection;
+      for (const session of this.registry.activeSessions())
+        this.sendControl(session, { type: 'checkpoint', round: point.round });
+    });
+    this.collecting = null;
+    if (collection.missing.size > 0) {
+      this.options.log(
+        `no checkpoint after round ${point.round}: no state came for clients ${[...collection.missing].join(', ')}`,
+      );
+      return;
+    }
+    keep({
+      ...point,
+      planHash: this.plan.planHash,
+      server: serverState,
+      clients: Array.from({ length: this.plan.clientCount }, (_, id) => collection.states.get(id)!),
+    });
+  }
+
   private closed(session: WorkerSession): void {
     this.sessions.delete(session);
     const totals = session.wireTotals();
@@ -381,6 +491,8 @@ export class Coordinator {
     this.closedSocketBytes.down += totals.writtenBytes;
     // A disconnected session keeps its limits for its resume; every other closed one is over.
     if (session.state !== 'active') this.limitsOf.delete(session);
+    // A worker that left cannot answer a checkpoint: it is skipped rather than waited for.
+    if (session.clientIds.size > 0) this.collecting?.settle();
     if (session.state === 'joined') {
       this.registry.leave(session);
       this.options.log(`${session.label()} left before the run started`);
@@ -537,6 +649,15 @@ export class Coordinator {
         ...(session.resumeToken === null ? {} : { resumeToken: session.resumeToken }),
       });
       this.options.log(`${session.label()} hosts clients ${clientIds.join(', ')}`);
+      const resume = this.options.resume;
+      if (resume !== undefined)
+        for (const clientId of clientIds)
+          this.sendControl(session, {
+            type: 'state',
+            round: resume.round,
+            clientId,
+            ...toWireState(resume.clients[clientId]),
+          });
     }
   }
 
@@ -554,8 +675,9 @@ export class Coordinator {
     const joinSeconds = (roundsStartedMs - this.startedMs) / 1000;
     this.welcomeAll();
     this.liveness.start();
+    const wallBeforeSeconds = this.options.resume?.wallSeconds ?? 0;
     const result = await this.driver.run(
-      () => (performance.now() - roundsStartedMs) / 1000,
+      () => wallBeforeSeconds + (performance.now() - roundsStartedMs) / 1000,
       records,
     );
     this.liveness.stop();
@@ -599,7 +721,7 @@ export class Coordinator {
     };
   }
 
-  /** Stops the run after the exchange in progress (SIGINT); run() then resolves with 'stopped'. */
+  /** Stops the run after the round in progress (SIGINT), with a checkpoint; run() then resolves with 'stopped'. */
   stop(): void {
     this.stopRequested = true;
     this.driver.requestStop();

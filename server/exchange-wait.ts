@@ -87,11 +87,6 @@ export class ExchangeWait {
     this.check();
   }
 
-  /** Ends the wait now (the run is stopping). */
-  abort(): void {
-    this.close('timeout');
-  }
-
   private check(): void {
     if (this.rule.kind === 'first-k' && this.arrivals.size >= this.rule.k) this.close('first-k');
     else if (this.pending().length === 0) this.close('complete');

@@ -14,6 +14,8 @@ export interface LocalWorkerSpec {
   /** clients the worker offers to host */
   capacity: number;
   workerName: string;
+  /** the worker's --reconnect-wait-seconds */
+  reconnectWaitSeconds: number;
 }
 
 /** Lines of a worker's standard error kept to show when the run fails. */
@@ -53,9 +55,14 @@ export class LocalWorker {
         String(spec.capacity),
         '--name',
         spec.workerName,
+        '--reconnect-wait-seconds',
+        String(spec.reconnectWaitSeconds),
       ],
       {
         stdio: ['ignore', 'ignore', 'pipe'],
+        // Its own process group: a Ctrl-C at the terminal reaches the run, which lets the round
+        // in progress finish with its workers and takes a checkpoint before it stops them.
+        detached: true,
       },
     );
     let partial = '';

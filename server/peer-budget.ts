@@ -46,9 +46,9 @@ export class PeerBudget {
     this.bad = new TokenBucket(limits.badMessagesPerSecond, limits.badMessagesBurst, nowMs);
   }
 
-  /** A down went to the peer: it may answer with one message. */
-  grant(): void {
-    this.credits += 1;
+  /** A down went to the peer (it may answer with one message), or a checkpoint request (one state per client). */
+  grant(messages = 1): void {
+    this.credits += messages;
   }
 
   /** A message of `bytes` arrived, not yet decoded; `controlBytesMax` bounds a heartbeat or an error. */

@@ -8,6 +8,7 @@
 
 import type { RunPlan } from '../src/engine/run-plan.js';
 import { ServerRuntime } from '../src/engine/server-runtime.js';
+import type { RunState } from '../src/engine/run-state.js';
 import type { EncodedFields } from '../src/engine/client-runtime.js';
 import type { ClientAssignment } from '../src/engine/round-schedule.js';
 import type { ClientRoundRecord, RecordSink, RoundRecord } from '../src/engine/round-record.js';
@@ -19,6 +20,7 @@ import {
   type ExchangeOrder,
   type ExchangeReply,
   type RoundTransport,
+  type WalkPoint,
 } from '../src/engine/walk-transport.js';
 import { payloadBytes } from '../src/compress/payload-bytes.js';
 import { policyForUpdates } from '../src/timing/round-policy.js';
@@ -56,6 +58,12 @@ export interface RoundDriverOptions {
   onRound?: (record: RoundRecord) => void;
   /** every round with its clients' records, round 0 (the initial evaluation, no clients) first */
   onRoundRecords?: (record: RoundRecord, clients: readonly ClientRoundRecord[]) => void;
+  /** keeps what the run needs to go on after `point` (the server's state is `server`'s) */
+  checkpoint?: (point: WalkPoint, server: ServerRuntime) => Promise<void>;
+  /** go on from this state (a checkpoint's): the server's part is restored here */
+  resume?: RunState;
+  /** ask for a checkpoint after every this many rounds (0 or absent: only when stopped) */
+  checkpointEveryRounds?: number;
 }
 
 export type RoundsResult = WalkedRun;
@@ -83,6 +91,8 @@ export class RoundDriver implements RoundTransport<'async'> {
   private readonly wall: boolean;
   private current: ExchangeWait | null = null;
   private stopRequested = false;
+  /** the run's records held for late ups (null before the run, or with no records) */
+  private hold: LateUpHold | null = null;
   /** the round in progress (0 before the first) */
   round = 0;
 
@@ -90,6 +100,10 @@ export class RoundDriver implements RoundTransport<'async'> {
     this.options = options;
     this.plan = options.plan;
     this.server = new ServerRuntime(options.plan);
+    if (options.resume !== undefined) {
+      this.server.restore(options.resume.server);
+      this.round = options.resume.round;
+    }
     this.wall = options.plan.scenario.timing.clock === 'wall';
   }
 
@@ -200,15 +214,18 @@ export class RoundDriver implements RoundTransport<'async'> {
     for (const id of clientIds) this.server.resetReplicas(id);
   }
 
-  /** Ends the run after the exchange in progress, which stops waiting now. */
+  /**
+   * Ends the run after the round in progress, which finishes as it would have: the checkpoint
+   * taken then lets the run go on exactly as if it had never stopped.
+   */
   requestStop(): void {
     this.stopRequested = true;
-    this.current?.abort();
   }
 
   /** Runs every round, its records into `records` as they happen; resolves when the run stops. */
   async run(wallSecondsNow: () => number, records: RecordSink | null): Promise<RoundsResult> {
     const hold = records && new LateUpHold(records, () => this.awaitingLateUps());
+    this.hold = hold;
     const onRound = (record: RoundRecord, clients: readonly ClientRoundRecord[]): void => {
       hold?.add(record, clients);
       this.options.onRoundRecords?.(record, clients);
@@ -219,6 +236,8 @@ export class RoundDriver implements RoundTransport<'async'> {
         ...walkSetup(this.plan, this.server, ['encoded', 'wire']),
         wallSeconds: wallSecondsNow,
         onRound,
+        ...(this.options.resume === undefined ? {} : { resumeAfter: this.options.resume }),
+        checkpointEveryRounds: this.options.checkpointEveryRounds ?? 0,
       }),
       this,
     );
@@ -280,6 +299,13 @@ export class RoundDriver implements RoundTransport<'async'> {
 
   evaluate(model: Float64Array): Promise<Evaluation> {
     return this.options.evaluate(model);
+  }
+
+  async checkpoint(point: WalkPoint): Promise<void> {
+    // The records up to the checkpoint's round must be in the files when their offsets are
+    // taken: rounds held for a late up (wall clock) go out now, as they are.
+    this.hold?.flush();
+    await this.options.checkpoint?.(point, this.server);
   }
 
   private closeRuleFor(assignments: readonly ClientAssignment[], sentMs: number): CloseRule {

@@ -194,6 +194,8 @@ export class WorkerSession {
     const bytes = encodeMessage(message);
     this.ws.send(bytes, { binary: true });
     if (message.type === 'down') this.budget.grant();
+    // A checkpoint request is answered with one state message per hosted client.
+    else if (message.type === 'checkpoint') this.budget.grant(this.clientIds.size);
     // ws's bufferedAmount reads two counters: O(1), whatever is queued.
     if (this.limits !== null && this.ws.bufferedAmount > this.limits.pendingBytesMax) {
       this.passLimit(

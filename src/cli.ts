@@ -8,7 +8,10 @@ import { scenarioJsonSchema } from './scenario/json-schema.js';
 import { exitCodeOf, exitCodes, exitCodesHelp } from './commands/exit-codes.js';
 import { formatTheoryReport, theoryReport } from './commands/theory-command.js';
 import { writeShards } from './commands/shards-command.js';
-import { formatRunSummary, runInProcessInto } from './commands/run-report.js';
+import { formatRunSummary } from './commands/run-report.js';
+import { runInProcessCheckpointed } from './commands/run-in-process.js';
+import { loadRunToResume } from './commands/resume-command.js';
+import type { RoundRecord } from './engine/round-record.js';
 import { ProgressLine } from './commands/progress.js';
 import { defaultResultsDir, prepareResultsFolder } from './results/results-folder.js';
 import {
@@ -18,6 +21,7 @@ import {
   RunInterrupted,
 } from './commands/run-distributed.js';
 import {
+  RECONNECT_WAIT_SECONDS_MAX,
   runWorkerCommand,
   WORKER_CAPACITY_MAX,
   workerOptionsProblem,
@@ -213,7 +217,10 @@ function buildProgram(io: Io): Command {
           await finishDistributed(io, progress, result, outDir, opts.json === true);
           return;
         }
-        const { summary } = runInProcessInto(scenario, outDir, (r) => progress.update(r));
+        const { summary } = await runInProcessCheckpointed(scenario, outDir, {
+          err: io.err,
+          onRound: (r) => progress.update(r),
+        });
         progress.finish();
         await writeRunReport(outDir);
         io.out(
@@ -242,6 +249,12 @@ function buildProgram(io: Io): Command {
     .option(
       '--ca <file>',
       "PEM certificate(s) to trust for a wss:// coordinator beside the system's, e.g. its self-signed --tls-cert",
+    )
+    .addOption(
+      new Option(
+        '--reconnect-wait-seconds <s>',
+        `when the coordinator drops mid-run, keep trying to reach it (backoff from 0.25 s, doubling, at most 5 s apart) this long in all, e.g. while it is resumed (0 to ${RECONNECT_WAIT_SECONDS_MAX} s; default 120)`,
+      ).argParser(secondsInRange('--reconnect-wait-seconds', 0, RECONNECT_WAIT_SECONDS_MAX)),
     )
     .addOption(metricsOption)
     .addOption(metricsLingerOption)
@@ -331,6 +344,106 @@ function buildProgram(io: Io): Command {
           metricsServing(opts),
         );
         await finishDistributed(io, progress, result, outDir, opts.json === true);
+      },
+    );
+
+  program
+    .command('resume')
+    .description(
+      'go on with an interrupted run from the checkpoint in its results folder: with local workers as run does, --in-process, or as a coordinator (--listen) that workers rejoin',
+    )
+    .argument('<results-folder>', 'a folder written by run or coordinator, holding checkpoint.bin')
+    .option('--in-process', 'go on in this process with the virtual clock (no sockets)')
+    .option(
+      '--listen <host:port>',
+      'go on as a coordinator listening here, as `coordinator` does; its workers rejoin by themselves',
+    )
+    .option(
+      '--key-file <path>',
+      'with --listen: the shared key file, as for coordinator (default: ROUNDWIRE_KEY_FILE; on loopback without either, a fresh one)',
+    )
+    .addOption(
+      new Option('--workers-min <n>', 'with --listen: wait for at least this many workers')
+        .argParser(integerInRange('--workers-min', 1, WORKERS_MIN_MAX))
+        .default(1),
+    )
+    .addOption(
+      new Option(
+        '--workers-wait-seconds <s>',
+        'with --listen: give up if the workers have not joined within this many seconds',
+      )
+        .argParser(secondsInRange('--workers-wait-seconds', 0, WORKERS_WAIT_SECONDS_MAX, true))
+        .default(300),
+    )
+    .option(
+      '--json',
+      'print outcome.json (see the results folder in README.md) instead of the table',
+    )
+    .addHelpText('after', exitCodesHelp)
+    .action(
+      async (
+        dir: string,
+        opts: {
+          inProcess?: boolean;
+          listen?: string;
+          keyFile?: string;
+          workersMin: number;
+          workersWaitSeconds: number;
+          json?: boolean;
+        },
+      ) => {
+        if (opts.inProcess && opts.listen !== undefined)
+          throw new UsageError('--in-process and --listen exclude each other');
+        const { scenario, checkpoint } = loadRunToResume(dir);
+        const progress = new ProgressLine(
+          { write: io.err, isTTY: process.stderr.isTTY === true },
+          scenario.run.rounds,
+        );
+        io.err(`resuming ${dir} after round ${checkpoint.state.round}\n`);
+        const onRound = (r: RoundRecord) => progress.update(r);
+        if (opts.inProcess) {
+          const { summary } = await runInProcessCheckpointed(
+            scenario,
+            dir,
+            { err: io.err, onRound },
+            checkpoint,
+          );
+          progress.finish();
+          await writeRunReport(dir);
+          io.out(
+            opts.json ? `${JSON.stringify(summary, null, 2)}\n` : formatRunSummary(summary, dir),
+          );
+          return;
+        }
+        if (opts.listen === undefined) {
+          const result = await runDistributed(
+            scenario,
+            dir,
+            { out: io.out, err: io.err, onRound },
+            null,
+            checkpoint,
+          );
+          await finishDistributed(io, progress, result, dir, opts.json === true);
+          return;
+        }
+        const coordinatorOpts: CoordinatorCommandOptions = {
+          listen: opts.listen,
+          workersMin: opts.workersMin,
+          workersWaitSeconds: opts.workersWaitSeconds,
+          ...(opts.keyFile === undefined ? {} : { keyFile: opts.keyFile }),
+        };
+        const problem = coordinatorOptionsProblem(coordinatorOpts, process.env);
+        if (problem !== null) throw new UsageError(problem);
+        const result = await runCoordinatorCommand(
+          scenario,
+          coordinatorOpts,
+          dir,
+          process.env,
+          { err: io.err, onRound },
+          null,
+          checkpoint,
+        );
+        await finishDistributed(io, progress, result, dir, opts.json === true);
       },
     );
 

@@ -7,7 +7,8 @@
 import { HANDSHAKE_LIMITS } from '../protocol/index.js';
 import type { Scenario } from '../scenario/schema.js';
 import type { RoundRecord } from '../engine/round-record.js';
-import { DeferredRecordStream } from '../results/record-stream.js';
+import type { Checkpoint } from '../results/checkpoint-file.js';
+import { RunFiles } from './run-files.js';
 import { Coordinator } from '../../server/coordinator.js';
 import type { TlsFiles } from '../../server/listener.js';
 import {
@@ -103,6 +104,7 @@ export async function runCoordinatorCommand(
   env: NodeJS.ProcessEnv,
   io: { err: (text: string) => void; onRound?: (record: RoundRecord) => void },
   metrics: MetricsServing | null = null,
+  resume: Checkpoint | null = null,
 ): Promise<DistributedRunResult> {
   const address = parseHostPort(opts.listen)!;
   const source = keyFileSource(opts.keyFile, env);
@@ -122,6 +124,7 @@ export async function runCoordinatorCommand(
       outDir,
       io,
       metrics,
+      resume,
     );
   } finally {
     removeFresh();
@@ -136,8 +139,14 @@ async function coordinate(
   outDir: string,
   io: { err: (text: string) => void; onRound?: (record: RoundRecord) => void },
   metrics: MetricsServing | null,
+  resume: Checkpoint | null,
 ): Promise<DistributedRunResult> {
   const address = parseHostPort(opts.listen)!;
+  const files = new RunFiles(
+    outDir,
+    scenario,
+    resume && { round: resume.state.round, records: resume.records },
+  );
   const tls: TlsFiles | null =
     opts.tlsCert && opts.tlsKey ? { certFile: opts.tlsCert, keyFile: opts.tlsKey } : null;
   const coordinator = new Coordinator(scenario, {
@@ -159,8 +168,10 @@ async function coordinate(
       : { resumeGraceSeconds: opts.resumeGraceSeconds }),
     onRound: io.onRound,
     log: (line) => io.err(`coordinator: ${line}\n`),
+    checkpointEveryRounds: scenario.run.checkpointEveryRounds,
+    onCheckpoint: (state) => files.keepCheckpoint(state),
+    ...(resume === null ? {} : { resume: resume.state }),
   });
-  const records = new DeferredRecordStream(outDir);
   let interrupted: NodeJS.Signals | null = null;
   let metricsServer: MetricsServer | null = null;
   let cutLinger: () => void = () => undefined;
@@ -185,11 +196,11 @@ async function coordinate(
         `key file: ${auth.fresh.path} (fresh, private to you, removed when the coordinator ends; workers on this machine join with --key-file ${auth.fresh.path})\n`,
       );
     io.err(`listening on ${url}\n`);
-    const outcome = await coordinator.run(() => records.open());
-    records.close();
+    const outcome = await coordinator.run(() => files.records());
+    files.close();
     const summary = writeDistributedResults(outcome, outDir);
-    if (interrupted !== null)
-      throw new RunInterrupted(`interrupted by ${interrupted}; partial results in ${outDir}`);
+    files.ended(outcome.stopReason);
+    if (interrupted !== null) throw new RunInterrupted(files.resumeAdvice(interrupted));
     await lingerWithMetrics(
       metricsServer,
       metrics?.lingerSeconds ?? 0,
@@ -198,7 +209,7 @@ async function coordinate(
     );
     return { outcome, summary };
   } finally {
-    records.close();
+    files.close();
     await metricsServer?.close();
     await coordinator.close();
     process.off('SIGINT', onSignal);

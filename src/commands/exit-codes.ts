@@ -6,7 +6,7 @@ export const exitCodes = {
   failure: 1,
   /** bad input: a scenario file, a --tweak, a --ladder, any other command-line argument */
   badInput: 2,
-  /** interrupted (SIGINT / Ctrl-C); 128 + signal number, as shells do */
+  /** interrupted (SIGINT / Ctrl-C, SIGTERM) after a checkpoint; 128 + SIGINT's number, as shells do */
   interrupted: 130,
 } as const;
 
@@ -32,6 +32,10 @@ export const BAD_INPUT_CODES: ReadonlySet<string> = new Set([
   'E_TIMING_SLOWDOWN_NOT_FINITE',
   // src/results
   'E_RESULTS_FOLDER',
+  'E_CHECKPOINT_MISSING',
+  'E_CHECKPOINT_DAMAGED',
+  'E_CHECKPOINT_VERSION',
+  'E_CHECKPOINT_PLAN',
   // src/report
   'E_COMPARE_VARIANTS',
   'E_LADDER_FIELDS',
@@ -60,5 +64,6 @@ export const exitCodesHelp = `
 Exit codes:
   0    success: the results are written, whatever the run found (diverged included)
   1    the run failed (runtime error)
-  2    bad input: scenario file, --tweak, --ladder or other argument
-  130  interrupted (Ctrl-C)`;
+  2    bad input: scenario file, --tweak, --ladder or other argument, or a checkpoint
+       resume cannot use
+  130  interrupted (Ctrl-C, SIGTERM), with a checkpoint: roundwire resume <folder>`;

@@ -9,7 +9,8 @@ import { join } from 'node:path';
 import type { Scenario } from '../scenario/schema.js';
 import type { RoundRecord } from '../engine/round-record.js';
 import { resultFiles } from '../results/results-folder.js';
-import { DeferredRecordStream } from '../results/record-stream.js';
+import type { Checkpoint } from '../results/checkpoint-file.js';
+import { RunFiles } from './run-files.js';
 import { Coordinator, type CoordinatorOptions } from '../../server/coordinator.js';
 import { LocalWorker } from '../../server/local-workers.js';
 import { distributedDetails, engineOutcomeOf } from '../../server/results.js';
@@ -37,6 +38,11 @@ export const EMBEDDED_LIMITS = {
   wallGraceSeconds: 0.5,
   /** after done, workers close their pools and exit; past this they are stopped */
   workerExitSeconds: 5,
+  /**
+   * a local worker whose coordinator died waits this long for it (a resumed run starts its own
+   * workers, so an orphan only needs to outlast a blip)
+   */
+  workerReconnectWaitSeconds: 10,
 } as const;
 
 export interface DistributedRunIo {
@@ -104,6 +110,7 @@ export function coordinatorOptionsForEmbedded(
     ...EMBEDDED_LIMITS,
     onRound: io.onRound,
     log: (line) => io.err(`coordinator: ${line}\n`),
+    checkpointEveryRounds: scenario.run.checkpointEveryRounds,
   };
 }
 
@@ -113,20 +120,26 @@ export async function runDistributed(
   outDir: string,
   io: DistributedRunIo,
   metrics: MetricsServing | null = null,
+  resume: Checkpoint | null = null,
 ): Promise<DistributedRunResult> {
   const workerCount = Math.min(scenario.run.workers, scenario.clients.count);
   const keyFile = writeFreshKeyFile();
+  const files = new RunFiles(
+    outDir,
+    scenario,
+    resume && { round: resume.state.round, records: resume.records },
+  );
   let coordinator: Coordinator;
   try {
-    coordinator = new Coordinator(
-      scenario,
-      coordinatorOptionsForEmbedded(scenario, keyFile.key, workerCount, io),
-    );
+    coordinator = new Coordinator(scenario, {
+      ...coordinatorOptionsForEmbedded(scenario, keyFile.key, workerCount, io),
+      onCheckpoint: (state) => files.keepCheckpoint(state),
+      ...(resume === null ? {} : { resume: resume.state }),
+    });
   } catch (error) {
     keyFile.remove();
     throw error;
   }
-  const records = new DeferredRecordStream(outDir);
   const workers: LocalWorker[] = [];
   let interrupted: NodeJS.Signals | null = null;
   let runEnded = false;
@@ -146,9 +159,9 @@ export async function runDistributed(
     }
     interrupted = signal;
     cutLinger();
-    io.err(`\n${signal}: stopping the run and its workers\n`);
+    // The workers stay for the round in progress and the checkpoint; done then ends them.
+    io.err(`\n${signal}: stopping after the round in progress, with a checkpoint\n`);
     coordinator.stop();
-    for (const w of workers) void w.stop();
   };
   process.on('SIGINT', onSignal);
   process.on('SIGTERM', onSignal);
@@ -166,6 +179,7 @@ export async function runDistributed(
         keyFile: keyFile.path,
         capacity,
         workerName: `local-${i + 1}`,
+        reconnectWaitSeconds: EMBEDDED_LIMITS.workerReconnectWaitSeconds,
       });
       workers.push(worker);
       io.err(`started worker local-${i + 1} (pid ${worker.child.pid})\n`);
@@ -180,15 +194,16 @@ export async function runDistributed(
           );
       });
     }
-    const outcome = await coordinator.run(() => records.open());
-    records.close();
+    const outcome = await coordinator.run(() => files.records());
+    files.close();
     runEnded = true;
     await Promise.all(workers.map((w) => w.exitsWithin(EMBEDDED_LIMITS.workerExitSeconds)));
     if (interrupted !== null) {
       writeDistributedResults(outcome, outDir);
-      throw new RunInterrupted(`interrupted by ${interrupted}; partial results in ${outDir}`);
+      throw new RunInterrupted(files.resumeAdvice(interrupted));
     }
     const summary = writeDistributedResults(outcome, outDir);
+    files.ended(outcome.stopReason);
     await lingerWithMetrics(
       metricsServer,
       metrics?.lingerSeconds ?? 0,
@@ -202,7 +217,7 @@ export async function runDistributed(
     throw error;
   } finally {
     runEnded = true;
-    records.close();
+    files.close();
     await metricsServer?.close();
     await coordinator.close();
     await Promise.all(workers.map((w) => w.stop()));

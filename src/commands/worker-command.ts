@@ -28,7 +28,12 @@ export interface WorkerCommandOptions {
   metricsLinger: number;
   /** PEM certificates to trust for a wss:// coordinator, beside the system's */
   ca?: string;
+  /** most seconds of waiting for a coordinator that dropped mid-run (absent: RECONNECT_RETRY_POLICY's) */
+  reconnectWaitSeconds?: number;
 }
+
+/** Most --reconnect-wait-seconds: a day; an operator resumes a coordinator well within it. */
+export const RECONNECT_WAIT_SECONDS_MAX = 86_400;
 
 /** A CA file far larger than any certificate bundle is a wrong path, not certificates. */
 export const CA_FILE_BYTES_MAX = 1024 * 1024;
@@ -107,6 +112,9 @@ export async function runWorkerCommand(
     capacity: opts.capacity,
     workerName,
     threadsMax: opts.capacity,
+    ...(opts.reconnectWaitSeconds === undefined
+      ? {}
+      : { reconnectWaitSeconds: opts.reconnectWaitSeconds }),
     ...(metrics === null ? {} : { metrics }),
     ...(certificates !== null && 'pem' in certificates
       ? { trustedCertificatesPem: certificates.pem }

@@ -113,6 +113,16 @@ export class UplinkDecoder {
     }
     return out;
   }
+
+  /** Copies of the state fields' replicas, by field name (a checkpoint keeps them). */
+  snapshot(): Record<string, Float64Array> {
+    return this.states.snapshot();
+  }
+
+  /** Replaces the state fields' replicas by copies of a snapshot's. */
+  restore(replicas: Readonly<Record<string, Float64Array>>): void {
+    this.states.restore(replicas);
+  }
 }
 
 /** Server side: every field validated and decompressed to a dense vector. */

@@ -13,6 +13,12 @@ import { ReplicaDecoder } from '../compress/replica.js';
 import type { CompressedVector } from '../compress/compressed-vector.js';
 import type { WirePlan } from './run-plan.js';
 import { minibatchRng, uplinkRngFor } from './seeded-streams.js';
+import {
+  assertSameShape,
+  assertVectorsByName,
+  flattenState,
+  StateTreeError,
+} from '../base/state-tree.js';
 
 export type EncodedFields = Record<string, CompressedVector>;
 
@@ -49,6 +55,61 @@ export function snapshotWithReplicasReset(
     methodState: snapshot.methodState,
     uplinkMemories,
     downlinkReplicas: {},
+  };
+}
+
+/** The snapshot of a client that has not worked yet: its method's initial state, no replicas. */
+export function freshClientSnapshot(plan: WirePlan, clientId: number): ClientRuntimeSnapshot {
+  const method = methodByName(plan.scenario.method.name);
+  return {
+    clientId,
+    methodState: method.initClient(plan.dim, plan.methodConfig, clientId),
+    uplinkMemories: {},
+    downlinkReplicas: {},
+  };
+}
+
+/**
+ * Throws StateTreeError unless `snapshot` (from a file or a peer) has the shape this plan's
+ * method gives client `clientId`: its method state's keys, kinds and lengths, and vectors of the
+ * plan's dimension in its memories and replicas.
+ */
+export function checkClientSnapshot(
+  plan: WirePlan,
+  clientId: number,
+  snapshot: ClientRuntimeSnapshot,
+): void {
+  const path = `clients[${clientId}]`;
+  if (snapshot.clientId !== clientId)
+    throw new StateTreeError(
+      'E_STATE_TREE',
+      `${path}.clientId: the state of client ${snapshot.clientId}`,
+    );
+  assertSameShape(
+    freshClientSnapshot(plan, clientId).methodState,
+    snapshot.methodState,
+    `${path}.methodState`,
+  );
+  assertVectorsByName(snapshot.uplinkMemories, plan.dim, `${path}.uplinkMemories`);
+  assertVectorsByName(snapshot.downlinkReplicas, plan.dim, `${path}.downlinkReplicas`);
+}
+
+/**
+ * The most a client's snapshot of this plan holds, for the frame limit of state messages: the
+ * float64 values of its method state plus one vector per field name the channels may keep
+ * (`fieldNames`: every up and down field), and a generous bound on its tree's text.
+ */
+export function clientStateBound(
+  plan: WirePlan,
+  fieldNames: number,
+): { valuesMax: number; treeBytesMax: number } {
+  const fresh = flattenState(freshClientSnapshot(plan, 0));
+  const values = fresh.vectors.reduce((n, v) => n + v.length, 0);
+  // A fresh tree holds small numbers; a worked one may print each as up to 24 characters.
+  const treeBytes = JSON.stringify(fresh.tree).length;
+  return {
+    valuesMax: values + fieldNames * plan.dim,
+    treeBytesMax: 4 * treeBytes + 256 * fieldNames + 16 * 1024,
   };
 }
 
@@ -123,6 +184,15 @@ export class ClientRuntime {
     this.state = structuredClone(snapshot.methodState);
     this.uplink.restore(snapshot.uplinkMemories);
     this.downlink.restore(snapshot.downlinkReplicas);
+  }
+
+  /**
+   * restore() for a snapshot from outside this process (a checkpoint file, a coordinator's
+   * message): throws StateTreeError unless its shape is the one this client's method builds.
+   */
+  restoreChecked(snapshot: ClientRuntimeSnapshot): void {
+    checkClientSnapshot(this.plan, this.clientId, snapshot);
+    this.restore(snapshot);
   }
 
   /**

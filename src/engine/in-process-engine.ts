@@ -8,12 +8,13 @@ import { theoryOf, type PlanTheory } from '../theory/plan-theory.js';
 import { ClientRuntime } from './client-runtime.js';
 import { DirectTransport } from './direct-transport.js';
 import { evaluateModel, type Evaluation } from './evaluate.js';
-import { walkRun, walkSetup } from './round-walk.js';
+import { walkRun, walkSetup, type RunWalkSetup } from './round-walk.js';
 import type { RecordSink, RoundRecord } from './round-record.js';
 import { assertPlannable, resolveRunPlan, type RunPlan } from './run-plan.js';
+import { restoreRunState, type RunState } from './run-state.js';
 import type { RunOutcome } from './run-summary.js';
 import { ServerRuntime } from './server-runtime.js';
-import { driveSync, type RoundTransport } from './walk-transport.js';
+import { driveAsync, driveSync, type RoundTransport, type WalkPoint } from './walk-transport.js';
 
 export interface EngineOptions {
   /** called after every round, e.g. for a live progress line */
@@ -25,9 +26,15 @@ export interface EngineOptions {
   openRecords?: () => RecordSink;
   /** the server's starting model x_0 (default zero) */
   initialModel?: Float64Array;
+  /** go on from this state (a checkpoint's) instead of round 0 */
+  resume?: RunState;
+  /** hand the run's state to onCheckpoint after every this many rounds (0 or absent: never) */
+  checkpointEveryRounds?: number;
+  /** receives the run's state at each checkpoint, and when a stop ends the run */
+  onCheckpoint?: (state: RunState) => void;
 }
 
-/** The run's end; its records went to the sink openRecords opened. */
+/** The run's end; its records went to the sink openRecords opened (after `resume`'s round when resuming). */
 export type EngineResult = RunOutcome;
 
 /** The plan and the oracle's theory of a scenario; refuses a scenario no runtime can run before the oracle works. */
@@ -42,58 +49,119 @@ export function planFor(scenario: Scenario): { plan: RunPlan; theory: PlanTheory
   return { plan, theory };
 }
 
-/** Direct calls, evaluated by the oracle here; nothing ever leaves the run or stops it early. */
+/** Direct calls, evaluated by the oracle here; the run stops early only when asked to. */
 class InProcessTransport extends DirectTransport implements RoundTransport {
-  private readonly evaluateModel: (x: Float64Array) => Evaluation;
+  private readonly run: InProcessRun;
 
-  constructor(clients: readonly ClientRuntime[], evaluate: (x: Float64Array) => Evaluation) {
-    super(clients);
-    this.evaluateModel = evaluate;
+  constructor(run: InProcessRun) {
+    super(run.clients);
+    this.run = run;
   }
 
-  openRound(): null {
-    return null;
+  openRound(_round: number): 'stopped' | null {
+    return this.run.stopRequested() ? 'stopped' : null;
   }
 
-  closeRound(): null {
-    return null;
+  closeRound(): 'stopped' | null {
+    return this.run.stopRequested() ? 'stopped' : null;
   }
 
   evaluate(model: Float64Array): Evaluation {
-    return this.evaluateModel(model);
+    const { theory } = this.run;
+    return evaluateModel(theory.instance.global, theory.optimum.x, theory.optimum.loss, model);
+  }
+
+  checkpoint(point: WalkPoint): void {
+    this.run.onCheckpoint?.({
+      ...point,
+      planHash: this.run.plan.planHash,
+      server: this.run.server.snapshot(),
+      clients: this.run.clients.map((c) => c.snapshot()),
+    });
   }
 }
 
-/** Runs a scenario to its target or its round limit, entirely in this process. */
-export function runInProcess(scenario: Scenario, options: EngineOptions = {}): EngineResult {
+interface InProcessRun {
+  plan: RunPlan;
+  theory: PlanTheory;
+  server: ServerRuntime;
+  clients: ClientRuntime[];
+  stopRequested: () => boolean;
+  onCheckpoint?: (state: RunState) => void;
+}
+
+function prepare(
+  scenario: Scenario,
+  options: EngineOptions,
+  stopRequested: () => boolean,
+): { run: InProcessRun; setup: RunWalkSetup; wallSeconds: () => number } {
   const started = performance.now();
-  const wallSeconds = () => (performance.now() - started) / 1000;
+  const wallOffset = options.resume?.wallSeconds ?? 0;
+  const wallSeconds = () => wallOffset + (performance.now() - started) / 1000;
   const { plan, theory } = planFor(scenario);
   const server = new ServerRuntime(plan, options.initialModel);
   const clients = theory.instance.objectives.map(
     (objective, id) => new ClientRuntime(plan, id, objective),
   );
-  const transport = new InProcessTransport(clients, (x) =>
-    evaluateModel(theory.instance.global, theory.optimum.x, theory.optimum.loss, x),
-  );
+  if (options.resume !== undefined) restoreRunState(plan, options.resume, server, clients);
+  const run = { plan, theory, server, clients, stopRequested, onCheckpoint: options.onCheckpoint };
   const { onRound } = options;
   const records = options.openRecords?.();
-  const walked = driveSync(
-    walkRun({
-      ...walkSetup(plan, server),
-      wallSeconds,
-      onRound: (record, clientRecords) => {
-        records?.append(record, clientRecords);
-        onRound?.(record);
-      },
-    }),
-    transport,
-  );
+  const setup: RunWalkSetup = {
+    ...walkSetup(plan, server),
+    wallSeconds,
+    onRound: (record, clientRecords) => {
+      records?.append(record, clientRecords);
+      onRound?.(record);
+    },
+    ...(options.resume === undefined ? {} : { resumeAfter: options.resume }),
+    checkpointEveryRounds: options.checkpointEveryRounds ?? 0,
+  };
+  return { run, setup, wallSeconds };
+}
+
+function outcomeOf(
+  run: InProcessRun,
+  walked: ReturnType<typeof walkRun> extends Generator<unknown, infer R> ? R : never,
+  wallSeconds: number,
+): EngineResult {
   return {
-    plan,
-    theory,
+    plan: run.plan,
+    theory: run.theory,
     finalModel: walked.finalModel,
     stopReason: walked.stopReason,
-    wallSeconds: wallSeconds(),
+    wallSeconds,
   };
+}
+
+/** Runs a scenario to its target or its round limit, entirely in this process. */
+export function runInProcess(scenario: Scenario, options: EngineOptions = {}): EngineResult {
+  const { run, setup, wallSeconds } = prepare(scenario, options, () => false);
+  const walked = driveSync(walkRun(setup), new InProcessTransport(run));
+  return outcomeOf(run, walked, wallSeconds());
+}
+
+/**
+ * runInProcess that lets the event loop turn between rounds, so that a signal handler runs and
+ * may ask the run to stop (`stopRequested`); a stopped run ends after the round in progress,
+ * with a checkpoint (onCheckpoint) from which it can go on.
+ */
+export async function runInProcessStoppable(
+  scenario: Scenario,
+  options: EngineOptions,
+  stopRequested: () => boolean,
+): Promise<EngineResult> {
+  const { run, setup, wallSeconds } = prepare(scenario, options, stopRequested);
+  const direct = new InProcessTransport(run);
+  const transport: RoundTransport<'async'> = {
+    members: (round, exchange, candidates) => direct.members(round, exchange, candidates),
+    exchange: (order) => direct.exchange(order),
+    openRound: (round) =>
+      new Promise((resolve) => setImmediate(() => resolve(direct.openRound(round)))),
+    closeRound: () => direct.closeRound(),
+    evaluate: (model) => direct.evaluate(model),
+    checkpoint: (point) => direct.checkpoint(point),
+  };
+  const walked = await driveAsync(walkRun(setup), transport);
+  return outcomeOf(run, walked, wallSeconds());
 }

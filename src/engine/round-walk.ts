@@ -40,6 +40,7 @@ import {
   type ExchangeDown,
   type ExchangeReply,
   type ExchangeRequest,
+  type WalkPoint,
   type WalkRequest,
 } from './walk-transport.js';
 
@@ -198,6 +199,16 @@ export interface RunWalkSetup extends WalkSetup {
   wallSeconds: () => number;
   /** every round with its clients' records, round 0 (the initial evaluation, no clients) first */
   onRound?: (record: RoundRecord, clients: readonly ClientRoundRecord[]) => void;
+  /**
+   * Go on after this point (a checkpoint's), the runtimes already restored to it: round 0's
+   * evaluation and record are not repeated, and the virtual clock counts on from the point's.
+   */
+  resumeAfter?: WalkPoint;
+  /**
+   * Ask the transport for a checkpoint after every this many rounds (0 or absent: never), and
+   * always after the round a stop ('stopped') ended, so that an interrupted run can go on.
+   */
+  checkpointEveryRounds?: number;
 }
 
 /**
@@ -228,28 +239,39 @@ function bytesOf(
 export function* walkRun(setup: RunWalkSetup): Generator<WalkRequest, WalkedRun, unknown> {
   const { server, byteLayers } = setup;
   const { rounds: roundsMax, evalEvery, target } = setup.plan.scenario.run;
-  const clock = new VirtualClock();
-  const initialModel = server.model();
-  const initial = yield* ask({ kind: 'evaluate', model: initialModel });
-  const bound = explosionBound(initialModel, initial);
-  const first: RoundRecord = {
-    round: 0,
-    suboptimality: initial.suboptimality,
-    distance: initial.distance,
-    bytes: bytesOf([], byteLayers),
-    localSteps: {},
-    dropped: [],
-    roundSeconds: 0,
-    virtualSeconds: 0,
-    wallSeconds: setup.wallSeconds(),
-  };
-  setup.onRound?.(first, []);
+  const start = setup.resumeAfter;
+  const clock = start === undefined ? new VirtualClock() : VirtualClock.fromState(start.clock);
+  let point: WalkPoint | undefined = start;
+  // A resumed walk keeps the bound of the run it resumes: x_0 and its evaluation are behind it.
+  let bound: ExplosionBound;
+  if (start === undefined) {
+    const initialModel = server.model();
+    const initial = yield* ask({ kind: 'evaluate', model: initialModel });
+    bound = explosionBound(initialModel, initial);
+    const first: RoundRecord = {
+      round: 0,
+      suboptimality: initial.suboptimality,
+      distance: initial.distance,
+      bytes: bytesOf([], byteLayers),
+      localSteps: {},
+      dropped: [],
+      roundSeconds: 0,
+      virtualSeconds: 0,
+      wallSeconds: setup.wallSeconds(),
+    };
+    setup.onRound?.(first, []);
+    point = { round: 0, clock: clock.state(), wallSeconds: first.wallSeconds, bound };
+  } else {
+    bound = start.bound;
+  }
+  const checkpointEvery = setup.checkpointEveryRounds ?? 0;
   let stopReason: StopReason = 'rounds-complete';
 
-  for (let round = 1; round <= roundsMax; round++) {
+  for (let round = (start?.round ?? 0) + 1; round <= roundsMax; round++) {
     const refused = yield* ask({ kind: 'open-round', round });
     if (refused !== null) {
       stopReason = refused;
+      if (refused === 'stopped') yield* ask({ kind: 'checkpoint', point: point! });
       break;
     }
     const walked = yield* walkRound(setup, round, bound);
@@ -257,7 +279,8 @@ export function* walkRun(setup: RunWalkSetup): Generator<WalkRequest, WalkedRun,
     let ending: StopReason | null = walked.diverged
       ? 'diverged'
       : yield* ask({ kind: 'close-round', round });
-    const last = round === roundsMax || ending !== null;
+    // A stopped run may be resumed: its record must be the one an unstopped run writes.
+    const last = round === roundsMax || (ending !== null && ending !== 'stopped');
     const evaluated =
       round % evalEvery === 0 || last
         ? yield* ask({ kind: 'evaluate', model: server.model() })
@@ -275,14 +298,18 @@ export function* walkRun(setup: RunWalkSetup): Generator<WalkRequest, WalkedRun,
       wallSeconds: setup.wallSeconds(),
     };
     setup.onRound?.(record, walked.records);
+    point = { round, clock: clock.state(), wallSeconds: record.wallSeconds, bound };
     if (ending !== null) {
       stopReason = ending;
+      if (ending === 'stopped') yield* ask({ kind: 'checkpoint', point });
       break;
     }
     if (evaluated && target > 0 && evaluated.suboptimality <= target) {
       stopReason = 'target-reached';
       break;
     }
+    if (checkpointEvery > 0 && round % checkpointEvery === 0 && round < roundsMax)
+      yield* ask({ kind: 'checkpoint', point });
   }
   return { finalModel: server.model(), stopReason, virtualSeconds: clock.now() };
 }

@@ -10,12 +10,26 @@ import { UplinkDecoder } from '../compress/uplink.js';
 import type { EncodedFields } from './client-runtime.js';
 import type { RunPlan } from './run-plan.js';
 import { downlinkRngFor } from './seeded-streams.js';
+import { assertSameShape, assertVectorsByName, StateTreeError } from '../base/state-tree.js';
 
 export interface EncodedUpload {
   clientId: number;
   stepsTaken: number;
   stepSize: number;
   encodedUp: EncodedFields;
+}
+
+/**
+ * Everything the server side carries from one round to the next, as structured-cloneable data:
+ * the method state and, per client id, the replicas of both channels that live on the server.
+ * Restoring it into a fresh runtime of the same plan continues the server bit for bit.
+ */
+export interface ServerRuntimeSnapshot {
+  methodState: unknown;
+  /** per client id: the downlink replicas (what that client holds of each field) */
+  downlinkReplicas: Record<string, Float64Array>[];
+  /** per client id: the replicas of the uplink's state fields (FedLin's gradient) */
+  uplinkReplicas: Record<string, Float64Array>[];
 }
 
 export class ServerRuntime {
@@ -81,6 +95,38 @@ export class ServerRuntime {
   /** A copy of the current model x. */
   model(): Float64Array {
     return Float64Array.from(this.method.model(this.state));
+  }
+
+  /** A deep copy of the server's state (see ServerRuntimeSnapshot). */
+  snapshot(): ServerRuntimeSnapshot {
+    return {
+      methodState: structuredClone(this.state),
+      downlinkReplicas: this.downlinks.map((d) => d.snapshot()),
+      uplinkReplicas: this.uplinks.map((u) => u.snapshot()),
+    };
+  }
+
+  /**
+   * Continues from a snapshot of a server of the same plan (deep-copied). Throws StateTreeError
+   * when its shape is not the one this plan's method builds (another method, dimension or
+   * client count), so that a state read from a file never replaces a state of another kind.
+   */
+  restore(snapshot: ServerRuntimeSnapshot): void {
+    assertSameShape(this.state, snapshot.methodState, 'server.methodState');
+    for (const [name, perClient] of [
+      ['server.downlinkReplicas', snapshot.downlinkReplicas],
+      ['server.uplinkReplicas', snapshot.uplinkReplicas],
+    ] as const) {
+      if (!Array.isArray(perClient) || perClient.length !== this.plan.clientCount)
+        throw new StateTreeError(
+          'E_STATE_TREE',
+          `${name}: expected one entry for each of the ${this.plan.clientCount} clients`,
+        );
+      perClient.forEach((r, id) => assertVectorsByName(r, this.plan.dim, `${name}[${id}]`));
+    }
+    this.state = structuredClone(snapshot.methodState);
+    snapshot.downlinkReplicas.forEach((r, id) => this.downlinks[id].restore(r));
+    snapshot.uplinkReplicas.forEach((r, id) => this.uplinks[id].restore(r));
   }
 
   /** The method state itself (plain data), for the round map. */

@@ -5,11 +5,13 @@
 // driveAsync awaits each answer (the coordinator's WebSocket sessions). Everything else, from
 // budgets to records, happens inside the walk, once, for every transport.
 
+import type { ExplosionBound } from './explosion-bound.js';
 import type { ByteCounts, ClientRoundRecord } from './round-record.js';
 import type { ClientAssignment } from './round-schedule.js';
 import type { EncodedFields } from './client-runtime.js';
 import type { Evaluation } from './evaluate.js';
 import type { StopReason } from './run-summary.js';
+import type { VirtualClockState } from '../timing/virtual-clock.js';
 
 /** Byte layers beyond the payload that a transport counts (a network's codec and socket). */
 export type ByteLayer = 'encoded' | 'wire';
@@ -66,11 +68,26 @@ export type ExchangeRequest =
   | { kind: 'members'; round: number; exchange: string; candidates: readonly number[] }
   | { kind: 'exchange'; order: ExchangeOrder };
 
+/**
+ * Where a walk stands between two rounds: with the runtimes' states, all a run needs to go on
+ * from there (a checkpoint), and what a resumed walk starts from.
+ */
+export interface WalkPoint {
+  /** the last round walked (its record written); a resumed walk goes on with round + 1 */
+  round: number;
+  clock: VirtualClockState;
+  /** wall-clock seconds of the run so far (its last record's), which a resumed run counts on from */
+  wallSeconds: number;
+  /** the run's explosion bound, from x_0 and its evaluation (explosion-bound.ts) */
+  bound: ExplosionBound;
+}
+
 export type WalkRequest =
   | ExchangeRequest
   | { kind: 'open-round'; round: number }
   | { kind: 'close-round'; round: number }
-  | { kind: 'evaluate'; model: Float64Array };
+  | { kind: 'evaluate'; model: Float64Array }
+  | { kind: 'checkpoint'; point: WalkPoint };
 
 /** What a request of each kind is answered with. */
 export interface WalkAnswers {
@@ -79,6 +96,7 @@ export interface WalkAnswers {
   'open-round': StopReason | null;
   'close-round': StopReason | null;
   evaluate: Evaluation;
+  checkpoint: void;
 }
 
 type Answer<T, Mode extends 'sync' | 'async'> = Mode extends 'sync' ? T : T | Promise<T>;
@@ -104,6 +122,8 @@ export interface RoundTransport<
   /** after a round's exchanges: null to go on, or why this round is the last */
   closeRound(round: number): Answer<StopReason | null, Mode>;
   evaluate(model: Float64Array): Answer<Evaluation, Mode>;
+  /** keeps everything the run needs to go on after `point.round` (a checkpoint) */
+  checkpoint(point: WalkPoint): Answer<void, Mode>;
 }
 
 /** One request, typed by its answer: the walk writes `yield* ask(request)`. */
@@ -130,6 +150,8 @@ function answer(transport: Answering, request: WalkRequest): unknown {
       return transport.closeRound(request.round);
     case 'evaluate':
       return transport.evaluate(request.model);
+    case 'checkpoint':
+      return transport.checkpoint(request.point);
   }
 }
 

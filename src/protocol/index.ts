@@ -42,6 +42,7 @@ export * from './messages.js';
 export * from './field-dims.js';
 export { receiveMessage } from './receive.js';
 export { validateMessage, type ValidationContext } from './validate.js';
+export { fromWireState, toWireState } from './wire-state.js';
 export {
   checkWireVector,
   fromWire,

@@ -100,6 +100,8 @@ export interface PlanShape {
   upFieldDims: FieldDims;
   /** clients the worker hosts */
   clientsPerWorker: number;
+  /** the largest client state a state message may carry: float64 values and tree text bytes */
+  clientState?: { valuesMax: number; treeBytesMax: number };
 }
 
 /** The limits a welcome carries for a plan of this shape. */
@@ -117,9 +119,16 @@ export function limitsForPlan(shape: PlanShape): ProtocolLimits {
       for (const dim of dims) maxVectorDim = Math.max(maxVectorDim, dim);
     }
   }
+  const state = shape.clientState;
+  const stateFrameBytes =
+    state === undefined ? 0 : MESSAGE_ENVELOPE_BYTES + 8 * state.valuesMax + state.treeBytesMax;
   return {
     ...HANDSHAKE_LIMITS,
-    maxFrameBytes: Math.max(frameLimitBytesFor(downFieldDims), frameLimitBytesFor(upFieldDims)),
+    maxFrameBytes: Math.max(
+      frameLimitBytesFor(downFieldDims),
+      frameLimitBytesFor(upFieldDims),
+      stateFrameBytes,
+    ),
     maxFieldsPerMessage,
     maxClientsPerWorker: clientsPerWorker,
     maxVectorDim,

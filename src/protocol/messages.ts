@@ -15,6 +15,15 @@
 //   either way        heartbeat, error
 //   server -> worker  done
 //
+// Checkpoints: after a round the coordinator keeps (checkpoint), it asks every worker for its
+// clients' states, and each worker answers with one state message per client, taken after the
+// client's work of that round. A coordinator resumed from a checkpoint welcomes its workers
+// afresh and then sends each its clients' states (state, server -> worker), which the worker
+// restores before any down.
+//   server -> worker  checkpoint  the round whose end the states must show
+//   worker -> server  state       one client's state as of that round
+//   server -> worker  state       (resumed run) the state a client starts from
+//
 // A worker whose connection drops mid-run reconnects and answers the new challenge with a hello
 // that also carries its welcome's resume token; the coordinator, if it still holds that worker's
 // session (within its grace period), welcomes it again with the same clients.
@@ -51,6 +60,8 @@ export const MESSAGE_TYPES = [
   'heartbeat',
   'error',
   'done',
+  'checkpoint',
+  'state',
 ] as const;
 export type MessageType = (typeof MESSAGE_TYPES)[number];
 
@@ -160,6 +171,24 @@ export const messageShapes = {
     message: z.string(),
   }),
   done: z.strictObject({ type: z.literal('done'), reason: z.enum(DONE_REASONS) }),
+  checkpoint: z.strictObject({
+    type: z.literal('checkpoint'),
+    /** the round just finished: each hosted client's state must show its work up to this round */
+    round: count,
+  }),
+  state: z.strictObject({
+    type: z.literal('state'),
+    /** the round the state is the end of */
+    round: count,
+    clientId: count,
+    /**
+     * the client's state as a JSON text: {"tree": the state tree (src/base/state-tree.ts),
+     * "lengths": the length of each vector}
+     */
+    tree: z.string(),
+    /** the tree's vectors one after another, little-endian float64 */
+    vectors: bytesShape,
+  }),
 } satisfies Record<MessageType, z.ZodType>;
 
 export type ChallengeMessage = z.infer<typeof messageShapes.challenge>;
@@ -171,6 +200,9 @@ export type HeartbeatMessage = z.infer<typeof messageShapes.heartbeat>;
 export type ErrorMessage = z.infer<typeof messageShapes.error>;
 export type DoneMessage = z.infer<typeof messageShapes.done>;
 
+export type CheckpointMessage = z.infer<typeof messageShapes.checkpoint>;
+export type StateMessage = z.infer<typeof messageShapes.state>;
+
 export type Message =
   | ChallengeMessage
   | HelloMessage
@@ -179,4 +211,6 @@ export type Message =
   | UpMessage
   | HeartbeatMessage
   | ErrorMessage
-  | DoneMessage;
+  | DoneMessage
+  | CheckpointMessage
+  | StateMessage;

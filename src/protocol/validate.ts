@@ -349,6 +349,30 @@ export function validateMessage(raw: unknown, context: ValidationContext): Messa
     }
     case 'heartbeat':
       return parseShape(messageShapes.heartbeat, record, type);
+    case 'checkpoint':
+      return parseShape(messageShapes.checkpoint, record, type);
+    case 'state': {
+      const message = parseShape(messageShapes.state, record, type);
+      if (context.expectedRound !== null && message.round !== context.expectedRound) {
+        throw new ProtocolError(
+          'E_ROUND',
+          `state.round: expected round ${context.expectedRound}, got ${message.round}`,
+        );
+      }
+      if (context.ownedClientIds !== null && !context.ownedClientIds.has(message.clientId)) {
+        throw new ProtocolError(
+          'E_CLIENT',
+          `state.clientId: client ${message.clientId} is not hosted by this worker`,
+        );
+      }
+      if (message.vectors.byteLength % 8 !== 0) {
+        throw new ProtocolError(
+          'E_DIMENSION',
+          `state.vectors: ${message.vectors.byteLength} bytes, not a whole number of float64 values`,
+        );
+      }
+      return message;
+    }
     case 'done':
       return parseShape(messageShapes.done, record, type);
   }

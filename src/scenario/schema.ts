@@ -216,6 +216,11 @@ export const runSchema = z
     workers: positiveInt.max(256).default(2),
     /** evaluate f(x) - f* every this many rounds */
     evalEvery: positiveInt.default(1),
+    /**
+     * write checkpoint.bin into the results folder after every this many rounds (0: only when
+     * the run is interrupted); `roundwire resume` goes on from it
+     */
+    checkpointEveryRounds: z.number().int().nonnegative().max(1_000_000).default(50),
   })
   .strict();
 

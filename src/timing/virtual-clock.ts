@@ -3,6 +3,12 @@
 
 import { assertFiniteAtLeast } from './errors.js';
 
+/** The clock's whole state, for a checkpoint: both parts, so that a resumed clock adds bit for bit alike. */
+export interface VirtualClockState {
+  elapsedSeconds: number;
+  compensationSeconds: number;
+}
+
 export class VirtualClock {
   /** seconds since the run started */
   private elapsedSeconds = 0;
@@ -28,5 +34,23 @@ export class VirtualClock {
   /** Virtual seconds since the run started. */
   now(): number {
     return this.elapsedSeconds + this.compensationSeconds;
+  }
+
+  /** The clock's state (see VirtualClockState). */
+  state(): VirtualClockState {
+    return {
+      elapsedSeconds: this.elapsedSeconds,
+      compensationSeconds: this.compensationSeconds,
+    };
+  }
+
+  /** A clock that continues from `state`. */
+  static fromState(state: VirtualClockState): VirtualClock {
+    assertFiniteAtLeast('elapsedSeconds', state.elapsedSeconds, 0);
+    assertFiniteAtLeast('compensationSeconds', state.compensationSeconds, -Infinity);
+    const clock = new VirtualClock();
+    clock.elapsedSeconds = state.elapsedSeconds;
+    clock.compensationSeconds = state.compensationSeconds;
+    return clock;
   }
 }

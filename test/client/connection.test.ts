@@ -17,7 +17,9 @@ import {
 const policy: RetryPolicy = {
   attemptsMax: 3,
   firstDelaySeconds: 0.01,
+  delayFactor: 2,
   delayCapSeconds: 0.03,
+  waitTotalSeconds: 10,
   connectTimeoutSeconds: 2,
 };
 
@@ -45,6 +47,36 @@ describe('backoff', () => {
     expect(error).toBeInstanceOf(JoinError);
     expect((error as JoinError).code).toBe('E_WORKER_JOIN');
     expect(lines).toHaveLength(3);
+  });
+});
+
+describe('a bounded total wait', () => {
+  it('grows each wait by the factor up to the cap, and stops before the total would be passed', async () => {
+    const bounded: RetryPolicy = {
+      ...policy,
+      attemptsMax: 100,
+      delayFactor: 3,
+      delayCapSeconds: 0.05,
+      waitTotalSeconds: 0.1,
+    };
+    expect([1, 2, 3, 4, 5].map((a) => backoffSeconds(bounded, a))).toEqual([
+      0, 0.01, 0.03, 0.05, 0.05,
+    ]);
+    const probe = createServer();
+    await new Promise<void>((r) => probe.listen(0, '127.0.0.1', () => r()));
+    const port = (probe.address() as { port: number }).port;
+    await new Promise<void>((r) => probe.close(() => r()));
+    const lines: string[] = [];
+    const error = await connectWithRetry(
+      `ws://127.0.0.1:${port}`,
+      bounded,
+      1024,
+      () => undefined,
+      (l) => lines.push(l),
+    ).catch((e: unknown) => e);
+    // waits 0, 0.01, 0.03, 0.05 add up to 0.09; a fifth attempt would bring them to 0.14 > 0.1
+    expect(lines).toHaveLength(4);
+    expect((error as JoinError).message).toMatch(/after 4 attempts in 0\.09 s of waiting/);
   });
 });
 

@@ -25,6 +25,7 @@ import {
   type ExchangeOrder,
   type ExchangeReply,
   type RoundTransport,
+  type WalkPoint,
 } from '../../src/engine/walk-transport.js';
 
 const text = readFileSync(new URL('../../scenarios/quickstart.yaml', import.meta.url), 'utf8');
@@ -43,6 +44,8 @@ interface Script {
 /** Direct calls, with the answers a network can give scripted in. */
 class ScriptedTransport extends DirectTransport implements RoundTransport {
   readonly orders: ExchangeOrder[] = [];
+  /** the rounds after which the walk asked for a checkpoint */
+  readonly checkpoints: number[] = [];
   private readonly script: Script;
   private readonly evaluateModel: (x: Float64Array) => Evaluation;
 
@@ -76,9 +79,13 @@ class ScriptedTransport extends DirectTransport implements RoundTransport {
   evaluate(model: Float64Array): Evaluation {
     return this.evaluateModel(model);
   }
+
+  checkpoint(point: WalkPoint): void {
+    this.checkpoints.push(point.round);
+  }
 }
 
-function walk(tweaks: string[], script: Script) {
+function walk(tweaks: string[], script: Script, checkpointEveryRounds = 0) {
   const { plan, theory } = planFor(
     scenarioFromText(text, 'quickstart.yaml', ['run.target:0', ...tweaks]),
   );
@@ -96,12 +103,14 @@ function walk(tweaks: string[], script: Script) {
       ...walkSetup(plan, new ServerRuntime(plan)),
       wallSeconds: () => 0,
       onRound: (record, clientRecords) => records.append(record, clientRecords),
+      checkpointEveryRounds,
     }),
     transport,
   );
   return {
     walked: { ...end, rounds: records.rounds, clients: records.clients },
     orders: transport.orders,
+    checkpoints: transport.checkpoints,
   };
 }
 
@@ -209,5 +218,28 @@ describe('walkRun', () => {
     expect(after.walked.stopReason).toBe('workers-lost');
     expect(after.walked.rounds.map((r) => r.round)).toEqual([0, 1, 2]);
     expect(after.walked.rounds[2].suboptimality).not.toBeNull();
+  });
+
+  it('asks for a checkpoint every N rounds but after the last, and after the round a stop ended', () => {
+    const periodic = walk(['run.rounds:7'], {}, 3);
+    expect(periodic.checkpoints).toEqual([3, 6]);
+    const never = walk(['run.rounds:7'], {});
+    expect(never.checkpoints).toEqual([]);
+    const closed = walk(['run.rounds:7', 'run.evalEvery:2'], {
+      closeRound: (round) => (round === 5 ? 'stopped' : null),
+    });
+    expect(closed.checkpoints).toEqual([5]);
+    // a stopped round is recorded as an unstopped run records it: round 5 is not evaluated
+    expect(closed.walked.rounds[5].suboptimality).toBeNull();
+    const opened = walk(
+      ['run.rounds:7'],
+      { openRound: (round) => (round === 4 ? 'stopped' : null) },
+      2,
+    );
+    expect(opened.checkpoints).toEqual([2, 3]);
+    const lost = walk(['run.rounds:7'], {
+      closeRound: (round) => (round === 2 ? 'workers-lost' : null),
+    });
+    expect(lost.checkpoints).toEqual([]);
   });
 });

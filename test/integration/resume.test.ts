@@ -288,12 +288,15 @@ describe('a worker whose connection drops mid-run', () => {
       'E_AUTH',
     );
     expect(await helloWithResume(run.url, new Uint8Array(5))).toBe('E_TYPE');
-    // Its token expired with the grace: when it gets through again, its resume is refused.
+    // Its token expired with the grace: when it gets through again, its resume is refused, it
+    // joins afresh (as after a coordinator's restart), and a run with no clients left to deal
+    // refuses that too.
     run.relay.refusing = false;
     const relayedExit = await run.relayed.exit(30_000);
     expect(relayedExit.code, run.relayed.stderr).not.toBe(0);
     expect(run.relayed.stderr).toMatch(/reconnecting to resume/);
-    expect(run.relayed.stderr).toMatch(/refused by the coordinator \(E_AUTH\)/);
+    expect(run.relayed.stderr).toMatch(/refused to resume this session \(E_AUTH/);
+    expect(run.relayed.stderr).toMatch(/refused by the coordinator \(E_CLIENT\)/);
     const exit = await run.coordinator.exit(60_000);
     expect(exit.code, run.coordinator.stderr).toBe(0);
 

@@ -189,7 +189,9 @@ describe('a wss:// worker against a plain ws:// server', () => {
       const policy = {
         attemptsMax: 3,
         firstDelaySeconds: 0.01,
+        delayFactor: 2,
         delayCapSeconds: 0.02,
+        waitTotalSeconds: 10,
         connectTimeoutSeconds: 5,
       };
       const error = await connectWithRetry(

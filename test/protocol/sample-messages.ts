@@ -101,6 +101,14 @@ export function sampleMessages(): Message[] {
     { type: 'heartbeat', sentAtMs: 1_700_000_000_123 },
     { type: 'error', code: 'E_DIMENSION', message: 'up.fields.delta.dim: the plan says 6, got 7' },
     { type: 'done', reason: 'target-reached' },
+    { type: 'checkpoint', round: 3 },
+    {
+      type: 'state',
+      round: 3,
+      clientId: 5,
+      tree: JSON.stringify({ tree: { clientId: 5, z: { $f64: 0 } }, lengths: [2] }),
+      vectors: Uint8Array.from([0, 0, 0, 0, 0, 0, 0xf8, 0x3f, 0, 0, 0, 0, 0, 0, 0, 0x80]),
+    },
   ];
 }
 
@@ -108,7 +116,7 @@ export function sampleMessages(): Message[] {
 export function serverContext(overrides: Partial<ValidationContext> = {}): ValidationContext {
   return {
     limits: PLAN_LIMITS,
-    expectedTypes: ['hello', 'up', 'heartbeat', 'error'],
+    expectedTypes: ['hello', 'up', 'state', 'heartbeat', 'error'],
     expectedRound: 3,
     expectedExchange: 'local',
     ownedClientIds: new Set([2, 5]),
@@ -122,7 +130,16 @@ export function serverContext(overrides: Partial<ValidationContext> = {}): Valid
 export function workerContext(overrides: Partial<ValidationContext> = {}): ValidationContext {
   return {
     limits: PLAN_LIMITS,
-    expectedTypes: ['challenge', 'welcome', 'down', 'heartbeat', 'error', 'done'],
+    expectedTypes: [
+      'challenge',
+      'welcome',
+      'down',
+      'heartbeat',
+      'error',
+      'done',
+      'checkpoint',
+      'state',
+    ],
     expectedRound: null,
     expectedExchange: null,
     ownedClientIds: new Set([2, 5]),
