@@ -10,7 +10,7 @@ import { axpy, norm2, scale } from '../vec/kernels.js';
 import { LinalgError } from '../linalg/linalg-error.js';
 import { choleskyFactor, choleskySolve } from '../linalg/cholesky.js';
 import { notCertified, type OptimumCertificate } from './oracle-certificate.js';
-import { backtrackingStep, type NewtonState } from './line-search.js';
+import { dampedNewton } from './line-search.js';
 
 /** A dense dim x dim matrix of this size is 32 MiB; beyond it assembleHessian refuses. */
 const DENSE_DIMENSION_MAX = 2048;
@@ -119,32 +119,11 @@ export function solveByDenseNewton(
   iterationsMax: number,
 ): OptimumCertificate {
   const n = objective.dim;
-  const state: NewtonState = {
-    x: new Float64Array(n),
-    loss: 0,
-    gradient: new Float64Array(n),
-    gradientNorm: 0,
-  };
   const direction = new Float64Array(n);
-  state.loss = objective.loss(state.x);
-  objective.gradient(state.x, state.gradient);
-  state.gradientNorm = norm2(state.gradient);
-  let iterations = 0;
-  while (state.gradientNorm > tolerance) {
-    if (iterations >= iterationsMax)
-      throw notCertified(state.gradientNorm, tolerance, iterations, 'iteration cap');
+  return dampedNewton(objective, tolerance, iterationsMax, (state) => {
     const factor = factorWithShift(assembleHessian(objective, state.x), n);
     choleskySolve(factor, n, state.gradient, direction);
     scale(-1, direction);
-    const accepted = backtrackingStep(objective, state, direction);
-    iterations++;
-    if (!accepted)
-      throw notCertified(
-        state.gradientNorm,
-        tolerance,
-        iterations,
-        'line search found no decrease',
-      );
-  }
-  return { x: state.x, loss: state.loss, gradientNorm: state.gradientNorm, iterations };
+    return direction;
+  });
 }

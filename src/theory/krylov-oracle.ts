@@ -12,7 +12,7 @@ import { axpy, norm2 } from '../vec/kernels.js';
 import { LinalgError } from '../linalg/linalg-error.js';
 import { conjugateGradient } from '../linalg/conjugate-gradient.js';
 import { notCertified, type OptimumCertificate } from './oracle-certificate.js';
-import { backtrackingStep, type NewtonState } from './line-search.js';
+import { dampedNewton } from './line-search.js';
 
 /**
  * The inner solve of least squares stops at this fraction of the tolerance (recurrence residual),
@@ -88,36 +88,13 @@ export function solveByNewtonConjugateGradients(
   tolerance: number,
   iterationsMax: number,
 ): OptimumCertificate {
-  const n = objective.dim;
-  const state: NewtonState = {
-    x: new Float64Array(n),
-    loss: 0,
-    gradient: new Float64Array(n),
-    gradientNorm: 0,
-  };
-  state.loss = objective.loss(state.x);
-  objective.gradient(state.x, state.gradient);
-  state.gradientNorm = norm2(state.gradient);
-  const descent = new Float64Array(n);
-  let iterations = 0;
-  while (state.gradientNorm > tolerance) {
-    if (iterations >= iterationsMax)
-      throw notCertified(state.gradientNorm, tolerance, iterations, 'iteration cap');
-    for (let j = 0; j < n; j++) descent[j] = -state.gradient[j];
+  const descent = new Float64Array(objective.dim);
+  return dampedNewton(objective, tolerance, iterationsMax, (state) => {
+    for (let j = 0; j < descent.length; j++) descent[j] = -state.gradient[j];
     const inner = conjugateGradient(hessianOperatorOf(objective, state.x), descent, {
       relativeTolerance: Math.min(FORCING_MAX, Math.sqrt(state.gradientNorm)),
     });
     // A first direction of no curvature leaves nothing better than steepest descent (Alg. 7.1).
-    const direction = norm2(inner.solution) > 0 ? inner.solution : descent;
-    const accepted = backtrackingStep(objective, state, direction);
-    iterations++;
-    if (!accepted)
-      throw notCertified(
-        state.gradientNorm,
-        tolerance,
-        iterations,
-        'line search found no decrease',
-      );
-  }
-  return { x: state.x, loss: state.loss, gradientNorm: state.gradientNorm, iterations };
+    return norm2(inner.solution) > 0 ? inner.solution : descent;
+  });
 }

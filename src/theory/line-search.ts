@@ -1,9 +1,10 @@
-// One damped Newton step: Armijo backtracking along a descent direction (Nocedal and Wright,
-// Numerical Optimization, 2nd ed., Alg. 3.1), shared by the dense and the matrix-free Newton
-// solvers of the oracle.
+// Damped Newton from x = 0 to the certificate: Armijo backtracking along a descent direction
+// (Nocedal and Wright, Numerical Optimization, 2nd ed., Alg. 3.1), shared by the dense and the
+// matrix-free Newton solvers of the oracle, which differ only in how they find the direction.
 
 import type { Objective } from '../problem/objective.js';
 import { axpy, dot, norm2 } from '../vec/kernels.js';
+import { notCertified, type OptimumCertificate } from './oracle-certificate.js';
 
 /** Armijo's sufficient-decrease constant and the backtracking factor (Nocedal and Wright, section 3.1). */
 const ARMIJO_DECREASE = 1e-4;
@@ -51,4 +52,42 @@ export function backtrackingStep(
     t *= BACKTRACK_FACTOR;
   }
   return false;
+}
+
+/**
+ * Newton's iterations from x = 0 until ||grad f|| <= tolerance, each along `directionAt(state)`
+ * (a descent direction) with a backtracking step; throws the oracle's not-certified error at the
+ * iteration cap or when no step decreases f.
+ */
+export function dampedNewton(
+  objective: Objective,
+  tolerance: number,
+  iterationsMax: number,
+  directionAt: (state: NewtonState) => Float64Array,
+): OptimumCertificate {
+  const n = objective.dim;
+  const state: NewtonState = {
+    x: new Float64Array(n),
+    loss: 0,
+    gradient: new Float64Array(n),
+    gradientNorm: 0,
+  };
+  state.loss = objective.loss(state.x);
+  objective.gradient(state.x, state.gradient);
+  state.gradientNorm = norm2(state.gradient);
+  let iterations = 0;
+  while (state.gradientNorm > tolerance) {
+    if (iterations >= iterationsMax)
+      throw notCertified(state.gradientNorm, tolerance, iterations, 'iteration cap');
+    const accepted = backtrackingStep(objective, state, directionAt(state));
+    iterations++;
+    if (!accepted)
+      throw notCertified(
+        state.gradientNorm,
+        tolerance,
+        iterations,
+        'line search found no decrease',
+      );
+  }
+  return { x: state.x, loss: state.loss, gradientNorm: state.gradientNorm, iterations };
 }

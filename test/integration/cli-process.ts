@@ -168,3 +168,26 @@ export function quickstartCoordinatorArgs(
     ...extra,
   ];
 }
+
+/** `count` honest workers named honest-1, honest-2, ..., each offering `capacity` clients. */
+export function honestWorkers(
+  url: string,
+  keyFile: string,
+  count: number,
+  capacity = 4,
+): CliProcess[] {
+  return Array.from(
+    { length: count },
+    (_, i) =>
+      new CliProcess([
+        'worker',
+        url,
+        '--key-file',
+        keyFile,
+        '--capacity',
+        String(capacity),
+        '--name',
+        `honest-${i + 1}`,
+      ]),
+  );
+}

@@ -14,7 +14,13 @@ import WebSocket from 'ws';
 import { afterEach, describe, expect, it } from 'vitest';
 import { Rng } from '../../src/base/rng.js';
 import { CONNECTION_LIMITS, encodeMessage, helloFrameBytesMax } from '../../src/protocol/index.js';
-import { CliProcess, freshDir, quickstartCoordinatorArgs, writeKeyFile } from './cli-process.js';
+import {
+  CliProcess,
+  freshDir,
+  quickstartCoordinatorArgs,
+  writeKeyFile,
+  honestWorkers,
+} from './cli-process.js';
 import {
   authenticate,
   closeCodeIn,
@@ -293,19 +299,7 @@ describe('a seeded fuzz of frames and messages', () => {
 
     // The run: two honest workers, and framing faults and bad first messages while the rounds
     // go on (an extra worker joining now is refused at once: the clients are dealt).
-    const workers = [1, 2].map(
-      (i) =>
-        new CliProcess([
-          'worker',
-          url,
-          '--key-file',
-          keyFile,
-          '--capacity',
-          '4',
-          '--name',
-          `honest-${i}`,
-        ]),
-    );
+    const workers = honestWorkers(url, keyFile, 2);
     started.push(...workers);
     await coordinator.waitForStderr(/worker "honest-2" hosts clients/, 30_000);
     const duringRun = { frames: 0 };

@@ -13,6 +13,7 @@ import {
   quickstartCoordinatorArgs,
   repoRoot,
   writeKeyFile,
+  honestWorkers,
 } from './cli-process.js';
 
 const KEY = 'a-key-for-the-flood-test';
@@ -134,19 +135,7 @@ describe('a flooding peer that never reads', () => {
       /roundwire_protocol_errors_total\{code="E_LIMIT_MESSAGE_RATE",origin="limit"\} 2\b/,
     );
 
-    const workers = [1, 2].map(
-      (i) =>
-        new CliProcess([
-          'worker',
-          url,
-          '--key-file',
-          keyFile,
-          '--capacity',
-          '4',
-          '--name',
-          `honest-${i}`,
-        ]),
-    );
+    const workers = honestWorkers(url, keyFile, 2);
     started.push(...workers);
     expect((await coordinator.exit(60_000)).code, coordinator.stderr).toBe(0);
     for (const worker of workers) expect((await worker.exit(20_000)).code, worker.stderr).toBe(0);

@@ -28,6 +28,7 @@ import {
   repoRoot,
   writeKeyFile,
   quickstartCoordinatorArgs,
+  honestWorkers,
 } from './cli-process.js';
 
 const KEY = 'a-key-for-the-malformed-frames-test';
@@ -304,19 +305,7 @@ describe('malformed WebSocket frames', () => {
     for (const kind of [KINDS[0], KINDS[1], KINDS[5], KINDS[8]])
       await probe('after hello', kind, true);
 
-    const workers = [1, 2].map(
-      (i) =>
-        new CliProcess([
-          'worker',
-          url,
-          '--key-file',
-          keyFile,
-          '--capacity',
-          '4',
-          '--name',
-          `honest-${i}`,
-        ]),
-    );
+    const workers = honestWorkers(url, keyFile, 2);
     started.push(...workers);
     await coordinator.waitForStderr(/worker "honest-2" hosts clients/, 30_000);
     // During the run: every kind again, on fresh connections.
