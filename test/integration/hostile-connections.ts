@@ -16,8 +16,7 @@ import {
   PROTOCOL_VERSION,
 } from '../../src/protocol/index.js';
 import { loadScenarioFile } from '../../src/scenario/load-scenario.js';
-import { runInProcess } from '../../src/engine/in-process-engine.js';
-import { finishRun } from '../../src/commands/run-report.js';
+import { runInProcessInto } from '../../src/commands/run-report.js';
 import { resultFiles } from '../../src/results/results-folder.js';
 import type { ClientRoundRecord, RoundRecord } from '../../src/engine/round-record.js';
 import { freshDir, readJsonLines } from './cli-process.js';
@@ -187,11 +186,7 @@ function comparable<T extends RoundRecord | ClientRoundRecord>(record: T): unkno
  */
 export function expectRecordsOfCleanRun(out: string): void {
   const clean = freshDir('clean-run');
-  finishRun(
-    runInProcess(loadScenarioFile(join(out, resultFiles.resolvedScenario))),
-    'in-process',
-    clean,
-  );
+  runInProcessInto(loadScenarioFile(join(out, resultFiles.resolvedScenario)), clean);
   expect(
     readFileSync(join(out, resultFiles.modelBinary)).equals(
       readFileSync(join(clean, resultFiles.modelBinary)),
