@@ -3,15 +3,17 @@
 // squares residual sum fused into one pass per row. The kernels (wasm/row-kernels-module.ts)
 // run two f64 lanes at a time.
 //
-// Why WebAssembly SIMD: least-squares gradient, n = 4,000, d = 500, CPU time on the 2-core
-// AMD EPYC of the team's machine (Node 20.20), one process:
-//   plain JS loop (the previous kernel)          1.4 GFLOP/s
-//   JS with eight partial sums, unrolled         1.9 GFLOP/s
-//   wasm f64x2, one JS->wasm call per row        7.9 GFLOP/s
-//   wasm f64x2, whole sum in one call           10.3 GFLOP/s
-//   C, gcc -O3 -march=native, same order        10.4 GFLOP/s
-// so the whole sum runs in one call, and the matrix lives in kernel memory (copying it in per
-// call would cost as much as the kernel).
+// Why WebAssembly SIMD: least-squares gradient, CPU time on the team's 2-core AMD EPYC (Node
+// 20.20), GFLOP/s at n = 4,000, d = 500, one process:
+//   plain JS loop (the previous kernel)                 1.4
+//   JS with eight partial sums, unrolled                1.9
+//   wasm f64x2, one JS->wasm call per row               7.9
+//   wasm f64x2, whole sum in one call                  10.3 (scratch run) / 7.5 (bench run)
+//   C, gcc -O3 -march=native, same order               10.4 (scratch run) / 11.3 (bench run)
+// and from `npm run bench -- --suite kernels` (rows two at a time, C measured back to back):
+// 7.5 vs C 11.3 at 4,000 x 500 (0.66x), 10.0 vs 17.4 at 20 x 1,000 (0.58x), 11.8 vs 16.3 at
+// 1,000 x 100 (0.72x); logistic 0.58x to 0.82x. So the whole sum runs in one call, and the
+// matrix lives in kernel memory (copying it in per call would cost as much as the kernel).
 //
 // Determinism: every result is a fixed sequence of IEEE binary64 operations: a dot product sums
 // in the order documented in row-kernels-module.ts, and the rows are added into the output one
