@@ -2,10 +2,12 @@
 //   f(x) = (1/n) sum_s (1/2)(a_s . x - b_s)^2 + (lambda/2) ||x||^2,
 // with gradient A^T (A x - b) / n + lambda x and the constant Hessian A^T A / n + lambda I.
 // Its curvature bounds are exact: the extreme eigenvalues of that Hessian, computed once on
-// first request.
+// first request. The gradient and Hessian-vector sums run on the row kernels (vec/row-matrix.ts),
+// which hold the shard in WebAssembly memory.
 
 import type { Shard } from './shard.js';
 import { axpy, normSquared, scale } from '../vec/kernels.js';
+import { RowMatrix } from '../vec/row-matrix.js';
 import { gramExtremeEigenvalues, type GramExtremes } from './gram-spectrum.js';
 import type { Objective } from './objective.js';
 import type { SymmetricOperator } from '../linalg/spectrum.js';
@@ -17,14 +19,24 @@ export class LeastSquaresObjective implements Objective {
   readonly dim: number;
   readonly sampleCount: number;
   readonly regularization: number;
-  /** the data, for solves that use its shape (the oracle's dual solve when n < p) */
+  /** the data, for solves that use its shape (the oracle's dual solve when n < p); its arrays are the kernel memory's */
   readonly shard: Shard;
+  private readonly matrix: RowMatrix;
+  /** a_s . v for every sample: Hessian-vector scratch */
+  private readonly projections: Float64Array;
   private gram: GramExtremes | null = null;
 
   constructor(shard: Shard, regularization: number) {
     checkShard(shard);
     checkRegularization(regularization);
-    this.shard = shard;
+    this.matrix = new RowMatrix(
+      shard.features,
+      shard.sampleCount,
+      shard.featureCount,
+      shard.targets,
+    );
+    this.shard = { ...shard, features: this.matrix.values, targets: this.matrix.rowValues };
+    this.projections = new Float64Array(shard.sampleCount);
     this.dim = shard.featureCount;
     this.sampleCount = shard.sampleCount;
     this.regularization = regularization;
@@ -56,7 +68,8 @@ export class LeastSquaresObjective implements Objective {
   /**
    * out <- mean over the samples (all of them when `sampleIndices` is null) plus lambda x. Full
    * and minibatch gradients share this loop, so a sorted batch of every index gives the full
-   * gradient bit for bit.
+   * gradient bit for bit: the kernel walks the listed rows in order and a list of every row in
+   * order is the full walk.
    */
   private meanGradient(
     x: Float64Array,
@@ -66,16 +79,7 @@ export class LeastSquaresObjective implements Objective {
   ): void {
     assertLength('x', x, this.dim);
     assertLength('gradient', out, this.dim);
-    const { features, targets } = this.shard;
-    const p = this.dim;
-    out.fill(0);
-    for (let t = 0; t < count; t++) {
-      const s = sampleIndices === null ? t : sampleIndices[t];
-      const base = s * p;
-      let residual = -targets[s];
-      for (let j = 0; j < p; j++) residual += features[base + j] * x[j];
-      for (let j = 0; j < p; j++) out[j] += residual * features[base + j];
-    }
+    this.matrix.residualSum(x, sampleIndices, out);
     scale(1 / count, out);
     axpy(this.regularization, x, out);
   }
@@ -84,15 +88,9 @@ export class LeastSquaresObjective implements Objective {
     assertLength('x', x, this.dim);
     assertLength('v', v, this.dim);
     assertLength('out', out, this.dim);
-    const { features } = this.shard;
-    const p = this.dim;
+    this.matrix.rowDots(v, 0, null, this.projections);
     out.fill(0);
-    for (let s = 0; s < this.sampleCount; s++) {
-      const base = s * p;
-      let projection = 0;
-      for (let j = 0; j < p; j++) projection += features[base + j] * v[j];
-      for (let j = 0; j < p; j++) out[j] += projection * features[base + j];
-    }
+    this.matrix.rowCombine(this.projections, null, out, 0);
     scale(1 / this.sampleCount, out);
     axpy(this.regularization, v, out);
   }

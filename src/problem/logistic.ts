@@ -3,10 +3,12 @@
 // gradient (1/n) sum_s (sigma(z_s) - b_s) a_s + lambda x, Hessian
 // (1/n) sum_s sigma(z_s)(1 - sigma(z_s)) a_s a_s^T + lambda I. Since sigma(1 - sigma) <= 1/4
 // (equality at z = 0), L <= lambda_max(A^T A / n)/4 + lambda; the loss term is only convex, so
-// mu >= lambda is all that holds for every x.
+// mu >= lambda is all that holds for every x. The sums over samples run on the row kernels
+// (vec/row-matrix.ts): row dot products, then the weighted sum of the rows in sample order.
 
 import type { Shard } from './shard.js';
 import { axpy, normSquared, scale } from '../vec/kernels.js';
+import { RowMatrix } from '../vec/row-matrix.js';
 import { gramLargestEigenvalue } from './gram-spectrum.js';
 import type { Objective } from './objective.js';
 import type { SymmetricOperator } from '../linalg/spectrum.js';
@@ -31,6 +33,10 @@ export class LogisticObjective implements Objective {
   readonly sampleCount: number;
   readonly regularization: number;
   private readonly shard: Shard;
+  private readonly matrix: RowMatrix;
+  /** per-sample scratch: scores a_s . x, then the weights of the rows */
+  private readonly scores: Float64Array;
+  private readonly projections: Float64Array;
   private gramLargest: number | null = null;
 
   constructor(shard: Shard, regularization: number) {
@@ -45,7 +51,15 @@ export class LogisticObjective implements Objective {
         );
       }
     }
-    this.shard = shard;
+    this.matrix = new RowMatrix(
+      shard.features,
+      shard.sampleCount,
+      shard.featureCount,
+      shard.targets,
+    );
+    this.shard = { ...shard, features: this.matrix.values, targets: this.matrix.rowValues };
+    this.scores = new Float64Array(shard.sampleCount);
+    this.projections = new Float64Array(shard.sampleCount);
     this.dim = shard.featureCount;
     this.sampleCount = shard.sampleCount;
     this.regularization = regularization;
@@ -84,17 +98,16 @@ export class LogisticObjective implements Objective {
   ): void {
     assertLength('x', x, this.dim);
     assertLength('gradient', out, this.dim);
-    const { features, targets } = this.shard;
-    const p = this.dim;
-    out.fill(0);
+    const { targets } = this.shard;
+    // A batch may list a sample more than once, so it may be longer than the scratch.
+    const weights = count <= this.sampleCount ? this.scores : new Float64Array(count);
+    this.matrix.rowDots(x, 0, sampleIndices, weights);
     for (let t = 0; t < count; t++) {
       const s = sampleIndices === null ? t : sampleIndices[t];
-      const base = s * p;
-      let z = 0;
-      for (let j = 0; j < p; j++) z += features[base + j] * x[j];
-      const weight = sigmoid(z) - targets[s];
-      for (let j = 0; j < p; j++) out[j] += weight * features[base + j];
+      weights[t] = sigmoid(weights[t]) - targets[s];
     }
+    out.fill(0);
+    this.matrix.rowCombine(weights, sampleIndices, out, 0);
     scale(1 / count, out);
     axpy(this.regularization, x, out);
   }
@@ -103,21 +116,15 @@ export class LogisticObjective implements Objective {
     assertLength('x', x, this.dim);
     assertLength('v', v, this.dim);
     assertLength('out', out, this.dim);
-    const { features } = this.shard;
-    const p = this.dim;
-    out.fill(0);
+    const weights = this.scores;
+    this.matrix.rowDots(x, 0, null, weights);
+    this.matrix.rowDots(v, 0, null, this.projections);
     for (let s = 0; s < this.sampleCount; s++) {
-      const base = s * p;
-      let z = 0;
-      let projection = 0;
-      for (let j = 0; j < p; j++) {
-        z += features[base + j] * x[j];
-        projection += features[base + j] * v[j];
-      }
-      const sig = sigmoid(z);
-      const weight = sig * (1 - sig) * projection;
-      for (let j = 0; j < p; j++) out[j] += weight * features[base + j];
+      const sig = sigmoid(weights[s]);
+      weights[s] = sig * (1 - sig) * this.projections[s];
     }
+    out.fill(0);
+    this.matrix.rowCombine(weights, null, out, 0);
     scale(1 / this.sampleCount, out);
     axpy(this.regularization, v, out);
   }
@@ -125,28 +132,22 @@ export class LogisticObjective implements Objective {
   /** Each sample's curvature sigma(z)(1 - sigma(z)) at x, computed once. */
   hessianOperator(x: Float64Array): SymmetricOperator {
     assertLength('x', x, this.dim);
-    const { features } = this.shard;
     const p = this.dim;
     const n = this.sampleCount;
     const curvature = new Float64Array(n);
+    this.matrix.rowDots(x, 0, null, curvature);
     for (let s = 0; s < n; s++) {
-      const base = s * p;
-      let z = 0;
-      for (let j = 0; j < p; j++) z += features[base + j] * x[j];
-      const sig = sigmoid(z);
+      const sig = sigmoid(curvature[s]);
       curvature[s] = sig * (1 - sig);
     }
+    const weights = new Float64Array(n);
     return (v, out) => {
       assertLength('v', v, p);
       assertLength('out', out, p);
+      this.matrix.rowDots(v, 0, null, weights);
+      for (let s = 0; s < n; s++) weights[s] = curvature[s] * weights[s];
       out.fill(0);
-      for (let s = 0; s < n; s++) {
-        const base = s * p;
-        let projection = 0;
-        for (let j = 0; j < p; j++) projection += features[base + j] * v[j];
-        const weight = curvature[s] * projection;
-        for (let j = 0; j < p; j++) out[j] += weight * features[base + j];
-      }
+      this.matrix.rowCombine(weights, null, out, 0);
       scale(1 / n, out);
       axpy(this.regularization, v, out);
     };

@@ -6,9 +6,12 @@
 // algorithm", Ann. Inst. Stat. Math. 44, 1992) bounds diag(s) - s s^T <= (1/2)(I - 11^T/C) <= I/2,
 // hence L <= lambda_max(A^T A / n)/2 + lambda. Adding one vector to every row of W leaves every
 // loss unchanged, so the loss term is flat along those directions and mu = lambda exactly.
+// Gradient and Hessian-vector sums run on the row kernels (vec/row-matrix.ts), one class at a
+// time: each class's sum over samples is in sample order, as in a loop over samples.
 
 import type { Shard } from './shard.js';
 import { axpy, normSquared, scale } from '../vec/kernels.js';
+import { RowMatrix } from '../vec/row-matrix.js';
 import { gramLargestEigenvalue } from './gram-spectrum.js';
 import type { Objective } from './objective.js';
 import type { SymmetricOperator } from '../linalg/spectrum.js';
@@ -26,9 +29,13 @@ export class SoftmaxObjective implements Objective {
   readonly classCount: number;
   readonly featureCount: number;
   private readonly shard: Shard;
-  /** Per-sample scratch (logits, then probabilities; curvature products): one sample at a time. */
+  /** Per-sample scratch (logits, then probabilities): one sample at a time. */
   private readonly logits: Float64Array;
-  private readonly directional: Float64Array;
+  private readonly matrix: RowMatrix;
+  /** samples x classes scratch, class-major (entry c * count + t): logits, then row weights */
+  private readonly scores: Float64Array;
+  /** the same for the Hessian's projections V a_s */
+  private readonly projections: Float64Array;
   private gramLargest: number | null = null;
 
   constructor(shard: Shard, regularization: number, classCount: number) {
@@ -49,14 +56,21 @@ export class SoftmaxObjective implements Objective {
         );
       }
     }
-    this.shard = shard;
+    this.matrix = new RowMatrix(
+      shard.features,
+      shard.sampleCount,
+      shard.featureCount,
+      shard.targets,
+    );
+    this.shard = { ...shard, features: this.matrix.values, targets: this.matrix.rowValues };
+    this.scores = new Float64Array(shard.sampleCount * classCount);
+    this.projections = new Float64Array(shard.sampleCount * classCount);
     this.classCount = classCount;
     this.featureCount = shard.featureCount;
     this.dim = classCount * shard.featureCount;
     this.sampleCount = shard.sampleCount;
     this.regularization = regularization;
     this.logits = new Float64Array(classCount);
-    this.directional = new Float64Array(classCount);
   }
 
   /** logits <- W a_s; returns their maximum. */
@@ -88,6 +102,43 @@ export class SoftmaxObjective implements Objective {
     }
     for (let c = 0; c < this.classCount; c++) this.logits[c] /= total;
     return Math.log(total);
+  }
+
+  /** For each class c: scores[c * count + t] <- w_c . a_{s_t} over the listed samples. */
+  private classScores(
+    w: Float64Array,
+    rows: Uint32Array | null,
+    count: number,
+    scores: Float64Array,
+  ): void {
+    const p = this.featureCount;
+    for (let c = 0; c < this.classCount; c++) {
+      this.matrix.rowDots(w, c * p, rows, scores.subarray(c * count, (c + 1) * count));
+    }
+  }
+
+  /** logits <- the t-th sample's scores (class-major, `count` samples); returns their maximum. */
+  private gatherLogits(scores: Float64Array, count: number, t: number): number {
+    let largest = -Infinity;
+    for (let c = 0; c < this.classCount; c++) {
+      const z = scores[c * count + t];
+      this.logits[c] = z;
+      if (z > largest) largest = z;
+    }
+    return largest;
+  }
+
+  /** out_c <- out_c + sum_t weights[c * count + t] a_{s_t} for every class c. */
+  private combineClasses(
+    weights: Float64Array,
+    rows: Uint32Array | null,
+    count: number,
+    out: Float64Array,
+  ): void {
+    const p = this.featureCount;
+    for (let c = 0; c < this.classCount; c++) {
+      this.matrix.rowCombine(weights.subarray(c * count, (c + 1) * count), rows, out, c * p);
+    }
   }
 
   loss(w: Float64Array): number {
@@ -123,20 +174,19 @@ export class SoftmaxObjective implements Objective {
   ): void {
     assertLength('W', w, this.dim);
     assertLength('gradient', out, this.dim);
-    const { features, targets } = this.shard;
-    const p = this.featureCount;
-    out.fill(0);
+    const { targets } = this.shard;
+    const classes = this.classCount;
+    // A batch may list a sample more than once, so it may be longer than the scratch.
+    const scores = count <= this.sampleCount ? this.scores : new Float64Array(count * classes);
+    this.classScores(w, sampleIndices, count, scores);
     for (let t = 0; t < count; t++) {
       const s = sampleIndices === null ? t : sampleIndices[t];
-      this.toProbabilities(this.computeLogits(w, s));
+      this.toProbabilities(this.gatherLogits(scores, count, t));
       this.logits[targets[s]] -= 1;
-      const base = s * p;
-      for (let c = 0; c < this.classCount; c++) {
-        const weight = this.logits[c];
-        const row = c * p;
-        for (let j = 0; j < p; j++) out[row + j] += weight * features[base + j];
-      }
+      for (let c = 0; c < classes; c++) scores[c * count + t] = this.logits[c];
     }
+    out.fill(0);
+    this.combineClasses(scores, sampleIndices, count, out);
     scale(1 / count, out);
     axpy(this.regularization, w, out);
   }
@@ -145,67 +195,50 @@ export class SoftmaxObjective implements Objective {
     assertLength('W', w, this.dim);
     assertLength('v', v, this.dim);
     assertLength('out', out, this.dim);
-    const { features } = this.shard;
-    const p = this.featureCount;
+    const n = this.sampleCount;
+    const classes = this.classCount;
     const probabilities = this.logits;
-    const u = this.directional;
-    out.fill(0);
-    for (let s = 0; s < this.sampleCount; s++) {
-      this.toProbabilities(this.computeLogits(w, s));
-      const base = s * p;
-      // u = V a; (diag(s) - s s^T) u = s * (u - s . u), entry by entry.
+    const u = this.projections;
+    this.classScores(w, null, n, this.scores);
+    // u = V a; (diag(s) - s s^T) u = s * (u - s . u), entry by entry.
+    this.classScores(v, null, n, u);
+    for (let s = 0; s < n; s++) {
+      this.toProbabilities(this.gatherLogits(this.scores, n, s));
       let mean = 0;
-      for (let c = 0; c < this.classCount; c++) {
-        const row = c * p;
-        let projection = 0;
-        for (let j = 0; j < p; j++) projection += v[row + j] * features[base + j];
-        u[c] = projection;
-        mean += probabilities[c] * projection;
-      }
-      for (let c = 0; c < this.classCount; c++) {
-        const weight = probabilities[c] * (u[c] - mean);
-        const row = c * p;
-        for (let j = 0; j < p; j++) out[row + j] += weight * features[base + j];
-      }
+      for (let c = 0; c < classes; c++) mean += probabilities[c] * u[c * n + s];
+      for (let c = 0; c < classes; c++) u[c * n + s] = probabilities[c] * (u[c * n + s] - mean);
     }
-    scale(1 / this.sampleCount, out);
+    out.fill(0);
+    this.combineClasses(u, null, n, out);
+    scale(1 / n, out);
     axpy(this.regularization, v, out);
   }
 
   /** Each sample's class probabilities at W, computed once (n x C values). */
   hessianOperator(w: Float64Array): SymmetricOperator {
     assertLength('W', w, this.dim);
-    const { features } = this.shard;
-    const p = this.featureCount;
     const classes = this.classCount;
     const n = this.sampleCount;
     const probabilities = new Float64Array(n * classes);
+    this.classScores(w, null, n, this.scores);
     for (let s = 0; s < n; s++) {
-      this.toProbabilities(this.computeLogits(w, s));
+      this.toProbabilities(this.gatherLogits(this.scores, n, s));
       probabilities.set(this.logits, s * classes);
     }
-    const u = new Float64Array(classes);
+    const u = new Float64Array(n * classes);
     return (v, out) => {
       assertLength('v', v, this.dim);
       assertLength('out', out, this.dim);
-      out.fill(0);
+      this.classScores(v, null, n, u);
       for (let s = 0; s < n; s++) {
-        const base = s * p;
         const at = s * classes;
         let mean = 0;
-        for (let c = 0; c < classes; c++) {
-          const row = c * p;
-          let projection = 0;
-          for (let j = 0; j < p; j++) projection += v[row + j] * features[base + j];
-          u[c] = projection;
-          mean += probabilities[at + c] * projection;
-        }
-        for (let c = 0; c < classes; c++) {
-          const weight = probabilities[at + c] * (u[c] - mean);
-          const row = c * p;
-          for (let j = 0; j < p; j++) out[row + j] += weight * features[base + j];
-        }
+        for (let c = 0; c < classes; c++) mean += probabilities[at + c] * u[c * n + s];
+        for (let c = 0; c < classes; c++)
+          u[c * n + s] = probabilities[at + c] * (u[c * n + s] - mean);
       }
+      out.fill(0);
+      this.combineClasses(u, null, n, out);
       scale(1 / n, out);
       axpy(this.regularization, v, out);
     };

@@ -5,6 +5,8 @@ import { describe, expect, it } from 'vitest';
 import { BENCH_REPORT_VERSION, benchReport, benchReportSchema } from './bench-report.js';
 import { runBench, type BenchSizes } from './bench-cases.js';
 import { runOracleBench } from './oracle-bench-cases.js';
+import { runKernelBench } from './kernel-bench-cases.js';
+import { spawnSync } from 'node:child_process';
 
 const TINY_SIZES: BenchSizes = {
   dotLengths: [64],
@@ -77,5 +79,46 @@ describe('oracle bench output', () => {
     }
     expect(report.results[0].shape).toEqual({ clients: 3, d: 40, samplesPerClient: 10 });
     expect(report.results[2].figure).toBeGreaterThanOrEqual(report.results[1].figure);
+  });
+});
+
+describe('kernel bench output', () => {
+  // Shapes with a tail after the block of 8 (d = 13) and below it (d = 5).
+  const report = benchReport(
+    runKernelBench({
+      shapes: [
+        [7, 13],
+        [3, 5],
+      ],
+      batchSeconds: 0.001,
+      batches: 3,
+    }),
+  );
+  const gccPresent = spawnSync('gcc', ['--version']).error === undefined;
+
+  it('reports GFLOP/s from wall and CPU time for both gradients at every shape', () => {
+    expect(report.results.map((r) => `${r.suite}/${r.case}/${r.shape.features}`)).toEqual([
+      'kernels/gradient least-squares/13',
+      'kernels/gradient logistic/13',
+      'kernels/gradient least-squares/5',
+      'kernels/gradient logistic/5',
+    ]);
+    for (const r of report.results) {
+      expect(r.unit).toBe('GFLOP/s');
+      expect(r.cpuFigure).toBeGreaterThan(0);
+    }
+  });
+
+  it('measures the C reference when gcc is there (same least-squares bits), and says why not otherwise', () => {
+    for (const r of report.results) {
+      if (gccPresent) {
+        expect(r.reference?.against).toBe('C, gcc -O3 -march=native');
+        expect(r.reference!.ratio).toBeCloseTo(r.figure / r.reference!.figure, 12);
+        expect(r.reference!.cpuRatio).toBeCloseTo(r.cpuFigure! / r.reference!.cpuFigure!, 12);
+        if (r.case === 'gradient least-squares') expect(r.reference!.sameBits).toBe(true);
+      } else {
+        expect(r.referenceSkipped).toMatch(/gcc/);
+      }
+    }
   });
 });

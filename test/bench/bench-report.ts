@@ -14,6 +14,12 @@ export const benchReferenceSchema = z.strictObject({
   figure: z.number().positive(),
   /** result figure / reference figure, both in the result's unit (higher is better) */
   ratio: z.number().positive(),
+  /** the reference's figure from its process CPU time, beside cpuFigure of the result */
+  cpuFigure: z.number().positive().optional(),
+  /** result cpuFigure / reference cpuFigure: steadier than `ratio` on a loaded machine */
+  cpuRatio: z.number().positive().optional(),
+  /** whether the reference computed the same bits as the result (when both compute one vector) */
+  sameBits: z.boolean().optional(),
 });
 
 export const benchResultSchema = z.strictObject({
@@ -28,7 +34,11 @@ export const benchResultSchema = z.strictObject({
   unit: z.string().min(1),
   /** "lower" for a figure where less is better (seconds of a setup); absent means higher */
   better: z.literal('lower').optional(),
+  /** the figure from the process's CPU time instead of wall time (other load stretches wall time) */
+  cpuFigure: z.number().positive().optional(),
   reference: benchReferenceSchema.optional(),
+  /** why a case that has a reference was measured without it this time (e.g. no C compiler) */
+  referenceSkipped: z.string().min(1).optional(),
 });
 
 export const benchMachineSchema = z.strictObject({

@@ -1,12 +1,34 @@
 // `npm run bench`: every case at full size, printed as one JSON document (bench-report.ts holds
-// its schema; README.md, "Benchmark output", describes it).
+// its schema; README.md, "Benchmark output", describes it). `npm run bench -- --suite kernels`
+// runs one part: core (the vec, problem and compress suites, measured in one run), kernels,
+// oracle or memory.
 
-import { benchReport } from './bench-report.js';
+import { parseArgs } from 'node:util';
+import { benchReport, type BenchResult } from './bench-report.js';
 import { benchSink, runBench } from './bench-cases.js';
+import { runKernelBench } from './kernel-bench-cases.js';
 import { runMemoryBench } from './memory-cases.js';
 import { runOracleBench } from './oracle-bench-cases.js';
 
-const results = [...runBench(), ...(await runOracleBench()), ...(await runMemoryBench())];
+const SUITES = {
+  core: () => runBench(),
+  kernels: () => runKernelBench(),
+  oracle: () => runOracleBench(),
+  memory: () => runMemoryBench(),
+} satisfies Record<string, () => BenchResult[] | Promise<BenchResult[]>>;
+
+const { values } = parseArgs({ options: { suite: { type: 'string' } } });
+const suite = values.suite;
+if (suite !== undefined && !Object.hasOwn(SUITES, suite)) {
+  process.stderr.write(
+    `--suite must be one of ${Object.keys(SUITES).join(', ')}, got "${suite}"\n`,
+  );
+  process.exit(2);
+}
+const results =
+  suite === undefined
+    ? [...runBench(), ...runKernelBench(), ...(await runOracleBench()), ...(await runMemoryBench())]
+    : await SUITES[suite as keyof typeof SUITES]();
 process.stdout.write(`${JSON.stringify(benchReport(results), null, 2)}\n`);
 // Read the sink once, so that no engine can prove the measured results unused.
 if (benchSink() === Number.MIN_VALUE) process.stderr.write('');
