@@ -5,6 +5,7 @@
 // bytes by direction and layer summed over clients, final f - f*, drops, the rates). The text
 // must also pass `promtool check metrics` (Prometheus's own linter) without a complaint.
 
+import { LIMIT_REASONS } from '../../server/limit-reasons.js';
 import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
@@ -165,12 +166,14 @@ describe('coordinator /metrics after a real run', () => {
     expect(dropped).toBe(summary.droppedUpdates);
     const errors = family('roundwire_protocol_errors_total', 'COUNTER');
     expect(errors.metrics).toHaveLength(
-      2 * PROTOCOL_ERROR_CODES.length + FRAME_ERROR_REASONS.length,
+      2 * PROTOCOL_ERROR_CODES.length + FRAME_ERROR_REASONS.length + LIMIT_REASONS.length,
     );
+    const codesOf: Record<string, readonly string[]> = {
+      frame: FRAME_ERROR_REASONS,
+      limit: LIMIT_REASONS,
+    };
     for (const m of errors.metrics) {
-      expect(m.labels?.origin === 'frame' ? FRAME_ERROR_REASONS : PROTOCOL_ERROR_CODES).toContain(
-        m.labels?.code,
-      );
+      expect(codesOf[m.labels?.origin ?? ''] ?? PROTOCOL_ERROR_CODES).toContain(m.labels?.code);
       expect(Number(m.value)).toBe(0);
     }
     expect(single('roundwire_workers_lost_total', 'COUNTER')).toBe(summary.lostWorkers.length);
