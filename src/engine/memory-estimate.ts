@@ -6,6 +6,9 @@
 // same data, and its oracle thread a second copy):
 //   data      every client's shard, n_i samples x p features plus the targets; a pooled layout
 //             (labels partitioned non-iid, data sets) holds the pool beside the shards (twice)
+//   kernels   the row kernels' copy of every shard's features (src/vec/wasm/kernel-arena.ts):
+//             the objectives compute on it, and the shards above are held beside it only while
+//             the problem is built
 //   oracle    up to DENSE_DIMENSION_FASTER_MAX (src/theory/oracle.ts) the dense d x d Hessian,
 //             its Cholesky factor and, for Newton's method, a shifted copy: three d x d matrices
 //             at once; above it the matrix-free route, whose largest holding is a Krylov basis
@@ -46,7 +49,14 @@ export interface MemoryEstimate {
   /** the model's dimension d */
   dim: number;
   /** by part, in bytes (see the file comment) */
-  parts: { data: number; oracle: number; clients: number; server: number; messages: number };
+  parts: {
+    data: number;
+    kernels: number;
+    oracle: number;
+    clients: number;
+    server: number;
+    messages: number;
+  };
   totalBytes: number;
 }
 
@@ -102,14 +112,17 @@ export function estimateRunMemory(scenario: Scenario): MemoryEstimate {
     server: vectors.server * dim,
     messages: 2 * perRound * dim,
   };
+  const shardBytes = samples * features * FLOAT64_BYTES;
   const parts = {
     data: values.data * FLOAT64_BYTES,
+    kernels: shardBytes,
     oracle: values.oracle * FLOAT64_BYTES,
     clients: values.clients * FLOAT64_BYTES,
     server: values.server * FLOAT64_BYTES,
     messages: values.messages * FLOAT64_BYTES,
   };
-  const totalBytes = parts.data + parts.oracle + parts.clients + parts.server + parts.messages;
+  const totalBytes =
+    parts.data + parts.kernels + parts.oracle + parts.clients + parts.server + parts.messages;
   return { dim, parts, totalBytes };
 }
 
@@ -125,6 +138,6 @@ export function assertMemoryFits(scenario: Scenario): void {
   throw new ScenarioError(
     'E_SCENARIO_MEMORY',
     '',
-    `the run would need an estimated ${mib(estimate.totalBytes)} MiB of memory (data ${mib(p.data)}, oracle ${mib(p.oracle)}, client states ${mib(p.clients)}, server ${mib(p.server)}, messages ${mib(p.messages)} MiB for clients.count ${scenario.clients.count}, model dimension ${estimate.dim}), above the limit of ${RUN_MEMORY_MIB_MAX} MiB`,
+    `the run would need an estimated ${mib(estimate.totalBytes)} MiB of memory (data ${mib(p.data)}, kernel copy ${mib(p.kernels)}, oracle ${mib(p.oracle)}, client states ${mib(p.clients)}, server ${mib(p.server)}, messages ${mib(p.messages)} MiB for clients.count ${scenario.clients.count}, model dimension ${estimate.dim}), above the limit of ${RUN_MEMORY_MIB_MAX} MiB`,
   );
 }

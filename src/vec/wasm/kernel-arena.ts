@@ -56,6 +56,13 @@ function newSlab(bytes: number): Slab {
   };
 }
 
+/** Bytes of every region handed out so far (for measurements: regions are never freed one by one). */
+let regionBytesAllocated = 0;
+
+export function kernelRegionBytesAllocated(): number {
+  return regionBytesAllocated;
+}
+
 /** A zeroed region of at least `bytes`, 16-byte aligned. */
 export function allocateKernelRegion(bytes: number): KernelRegion {
   const size = Math.ceil(Math.max(bytes, 1) / ALIGN_BYTES) * ALIGN_BYTES;
@@ -74,5 +81,6 @@ export function allocateKernelRegion(bytes: number): KernelRegion {
   }
   const byteOffset = slab.usedBytes;
   slab.usedBytes += size;
+  regionBytesAllocated += size;
   return { kernels: slab.kernels, buffer: slab.buffer, byteOffset, byteLength: size };
 }
