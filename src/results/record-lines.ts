@@ -4,7 +4,7 @@
 
 import { closeSync, openSync, readSync } from 'node:fs';
 import { join } from 'node:path';
-import type { RoundRecord } from '../engine/round-record.js';
+import { roundRecordSchema, type RoundRecord } from '../engine/round-record.js';
 import { ResultsFolderError, resultFiles } from './results-folder.js';
 
 /** Bytes read at a time: large enough that a read costs little per line (common practice). */
@@ -49,12 +49,19 @@ export function* readRoundRecords(folder: string): Generator<RoundRecord, void, 
   let lineNumber = 0;
   for (const line of readLines(path)) {
     lineNumber++;
-    let record: RoundRecord;
+    let json: unknown;
     try {
-      record = JSON.parse(line) as RoundRecord;
+      json = JSON.parse(line);
     } catch {
       throw new ResultsFolderError('E_RESULTS_FOLDER', `${path}: line ${lineNumber} is not JSON`);
     }
+    const parsed = roundRecordSchema.safeParse(json);
+    if (!parsed.success)
+      throw new ResultsFolderError(
+        'E_RESULTS_FOLDER',
+        `${path}: line ${lineNumber} is not a round record (${parsed.error.issues[0]?.path.join('.') || 'line'}: ${parsed.error.issues[0]?.message ?? 'invalid'})`,
+      );
+    const record: RoundRecord = parsed.data;
     yield record;
   }
 }

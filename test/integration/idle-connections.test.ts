@@ -6,22 +6,15 @@
 // run (wall clock), a worker whose link is cut resumes its clients; there, an up sent before a
 // hello is refused with E_ORDER (a resuming worker sends its hello first).
 
-import { once } from 'node:events';
 import { readFileSync } from 'node:fs';
-import {
-  connect,
-  createConnection,
-  createServer,
-  type AddressInfo,
-  type Server,
-  type Socket,
-} from 'node:net';
+import { connect, type Socket } from 'node:net';
 import { join } from 'node:path';
 import WebSocket from 'ws';
 import { afterEach, describe, expect, it } from 'vitest';
 import { decodeMessage, encodeMessage } from '../../src/protocol/index.js';
 import { CliProcess, freshDir, quickstartCoordinatorArgs, writeKeyFile } from './cli-process.js';
 import { expectRecordsOfCleanRun, FIN, frame, OP, upgradeRequest } from './hostile-connections.js';
+import { Relay } from './tcp-relay.js';
 
 const KEY = 'a-key-for-the-idle-connections-test';
 const HELD = 200;
@@ -78,43 +71,6 @@ class IdleCrowd {
   stop(): void {
     this.stopped = true;
     for (const socket of this.sockets) socket.destroy();
-  }
-}
-
-/** Forwards TCP connections to the coordinator; cut() destroys both sides of every one. */
-class Relay {
-  private readonly server: Server;
-  private readonly sockets = new Set<Socket>();
-
-  constructor(targetPort: number) {
-    this.server = createServer((inbound) => {
-      const outbound = createConnection({ host: '127.0.0.1', port: targetPort });
-      for (const socket of [inbound, outbound]) {
-        this.sockets.add(socket);
-        socket.once('close', () => this.sockets.delete(socket));
-        socket.on('error', () => undefined);
-      }
-      inbound.pipe(outbound);
-      outbound.pipe(inbound);
-      inbound.once('close', () => outbound.destroy());
-      outbound.once('close', () => inbound.destroy());
-    });
-  }
-
-  async listen(): Promise<string> {
-    this.server.listen(0, '127.0.0.1');
-    await once(this.server, 'listening');
-    return `ws://127.0.0.1:${(this.server.address() as AddressInfo).port}`;
-  }
-
-  cut(): void {
-    for (const socket of this.sockets) socket.destroy();
-  }
-
-  async close(): Promise<void> {
-    const closed = new Promise((resolve) => this.server.close(resolve));
-    this.cut();
-    await closed;
   }
 }
 

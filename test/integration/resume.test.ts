@@ -6,15 +6,7 @@
 // Real processes on 127.0.0.1: a coordinator, two workers joined directly, and one joined
 // through a TCP relay in this test that can cut both of its sockets at once.
 
-import { once } from 'node:events';
 import { readFileSync } from 'node:fs';
-import {
-  createConnection,
-  createServer,
-  type AddressInfo,
-  type Server,
-  type Socket,
-} from 'node:net';
 import { join } from 'node:path';
 import { randomBytes } from 'node:crypto';
 import WebSocket from 'ws';
@@ -28,6 +20,7 @@ import {
 } from '../../src/protocol/index.js';
 import type { RoundRecord } from '../../src/engine/round-record.js';
 import { CliProcess, freshDir, readJsonLines, repoRoot, writeKeyFile } from './cli-process.js';
+import { Relay } from './tcp-relay.js';
 
 const KEY = 'a-key-for-the-resume-test';
 const READ_LIMIT_BYTES = 64 * 1024 * 1024;
@@ -64,55 +57,6 @@ function helloWithResume(url: string, resume: Uint8Array): Promise<string> {
     });
     ws.once('error', reject);
   });
-}
-
-/**
- * Forwards TCP connections to the coordinator; cut() destroys both sides of every one, and
- * while `refusing` a new connection is destroyed as it arrives.
- */
-class Relay {
-  private readonly server: Server;
-  private readonly sockets = new Set<Socket>();
-  connections = 0;
-  refusing = false;
-
-  constructor(targetPort: number) {
-    this.server = createServer((inbound) => {
-      if (this.refusing) {
-        inbound.destroy();
-        return;
-      }
-      this.connections++;
-      const outbound = createConnection({ host: '127.0.0.1', port: targetPort });
-      for (const socket of [inbound, outbound]) {
-        this.sockets.add(socket);
-        socket.once('close', () => this.sockets.delete(socket));
-        // A cut shows as a reset on the other side; nothing to report here.
-        socket.on('error', () => undefined);
-      }
-      inbound.pipe(outbound);
-      outbound.pipe(inbound);
-      inbound.once('close', () => outbound.destroy());
-      outbound.once('close', () => inbound.destroy());
-    });
-  }
-
-  async listen(): Promise<string> {
-    this.server.listen(0, '127.0.0.1');
-    await once(this.server, 'listening');
-    return `ws://127.0.0.1:${(this.server.address() as AddressInfo).port}`;
-  }
-
-  cut(): void {
-    for (const socket of this.sockets) socket.destroy();
-  }
-
-  /** Refuses new connections from now on and cuts the open ones. */
-  async close(): Promise<void> {
-    const closed = new Promise((resolve) => this.server.close(resolve));
-    this.cut();
-    await closed;
-  }
 }
 
 const started: CliProcess[] = [];
