@@ -122,18 +122,25 @@ describe('a flooding peer that never reads', () => {
     expect([...left.values()]).toEqual([true, true, true]);
     expect(polls.length).toBeGreaterThan(0);
     expect(Math.max(...polls)).toBeLessThan(METRICS_ANSWER_MS_MAX);
-    expect(coordinator.stderr).toMatch(/worker "garbage" dropped \(E_LIMIT_BAD_MESSAGES\)/);
-    // The heartbeat and the ping floods share a reason, and the log one line per reason per interval.
-    expect(coordinator.stderr).toMatch(
-      /worker "(heartbeats|pings)" dropped \(E_LIMIT_MESSAGE_RATE\)/,
-    );
     const metrics = (await fetchWithin(metricsUrl, METRICS_ANSWER_MS_MAX)).text;
-    expect(metrics).toMatch(
-      /roundwire_protocol_errors_total\{code="E_LIMIT_BAD_MESSAGES",origin="limit"\} 1\b/,
+    const closings = (code: string): number =>
+      Number(
+        new RegExp(
+          `roundwire_protocol_errors_total\\{code="${code}",origin="limit"\\} (\\d+)`,
+        ).exec(metrics)?.[1] ?? Number.NaN,
+      );
+    // Junk frames draw on two budgets at once, the unsolicited-message rate and the bad-message
+    // budget (README, "Connection limits"): which runs out first depends on how fast the flood
+    // arrives, so the garbage flooder is dropped under either reason. Three flooders, three limit
+    // closings: the heartbeat and ping floods for their rate, the garbage under one of the two.
+    expect(closings('E_LIMIT_MESSAGE_RATE')).toBeGreaterThanOrEqual(2);
+    expect(closings('E_LIMIT_BAD_MESSAGES') + closings('E_LIMIT_MESSAGE_RATE')).toBe(3);
+    // The log says each reason once per interval (rate-limited), naming the first peer dropped.
+    expect(coordinator.stderr).toMatch(
+      /worker "(garbage|heartbeats|pings)" dropped \(E_LIMIT_MESSAGE_RATE\)/,
     );
-    expect(metrics).toMatch(
-      /roundwire_protocol_errors_total\{code="E_LIMIT_MESSAGE_RATE",origin="limit"\} 2\b/,
-    );
+    if (closings('E_LIMIT_BAD_MESSAGES') === 1)
+      expect(coordinator.stderr).toMatch(/worker "garbage" dropped \(E_LIMIT_BAD_MESSAGES\)/);
 
     const workers = honestWorkers(url, keyFile, 2);
     started.push(...workers);
