@@ -3,7 +3,8 @@
 
 import { readFileSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
-import { resultFiles } from '../results/results-folder.js';
+import { ResultsFolderError, resultFiles } from '../results/results-folder.js';
+import { readLines } from '../results/record-lines.js';
 import { ReportError } from '../report/report-error.js';
 import { parseRunResults, type RunResults } from '../report/run-results.js';
 import { buildRunReport } from '../report/run-report-page.js';
@@ -22,12 +23,22 @@ function readResultsFile(dir: string, file: string): string {
   }
 }
 
+/** The lines of a .jsonl results file, read a chunk at a time (src/results/record-lines.ts). */
+function* resultsFileLines(dir: string, file: string): Generator<string, void, undefined> {
+  try {
+    yield* readLines(join(dir, file));
+  } catch (error) {
+    if (!(error instanceof ResultsFolderError)) throw error;
+    throw new ReportError('E_RESULTS_FILE', `${error.message}; is ${dir} a results folder?`);
+  }
+}
+
 export function readRunResults(dir: string): RunResults {
   return parseRunResults({
     resolvedScenario: readResultsFile(dir, resultFiles.resolvedScenario),
     outcome: readResultsFile(dir, resultFiles.outcome),
-    rounds: readResultsFile(dir, resultFiles.rounds),
-    clients: readResultsFile(dir, resultFiles.clients),
+    rounds: resultsFileLines(dir, resultFiles.rounds),
+    clients: resultsFileLines(dir, resultFiles.clients),
   });
 }
 

@@ -28,7 +28,6 @@ import { renderSvg } from './render-svg.js';
 import type { RunResults } from './run-results.js';
 import {
   bytesByLayer,
-  clientTimeline,
   localStepsHistogram,
   measuredCurve,
   predictedCurve,
@@ -151,7 +150,7 @@ async function bytesFigure(results: RunResults): Promise<Html> {
 }
 
 async function timelineFigure(results: RunResults): Promise<Html> {
-  const timeline = clientTimeline(results.rounds, results.clients);
+  const timeline = results.timeline;
   const labels = [...new Set(timeline.segments.map((s) => s.client))].sort(
     (a, b) => Number(a.slice(7)) - Number(b.slice(7)),
   );
@@ -161,7 +160,9 @@ async function timelineFigure(results: RunResults): Promise<Html> {
       : 'No rounds with client records.',
   ];
   if (timeline.clientsShown < timeline.clientsTotal)
-    notes.push(`The first ${timeline.clientsShown} of ${timeline.clientsTotal} clients are shown.`);
+    notes.push(
+      `${timeline.clientsShown} of ${timeline.clientsTotal} clients are shown, the lowest ids taking part in those rounds.`,
+    );
   return figure(
     await renderSvg(timelineChartSpec(timeline.segments, labels), 'timeline'),
     notes.join(' '),

@@ -2,14 +2,15 @@
 // the command's job (src/commands/report-command.ts); this module stays pure. Each file is parsed
 // once, with the schemas that define what a run writes (src/engine/round-record.ts,
 // src/engine/run-summary.ts, src/scenario/schema.ts); a file that does not hold it is an
-// E_RESULTS_CONTENT naming the file, the line (.jsonl) and the field.
+// E_RESULTS_CONTENT naming the file, the line (.jsonl) and the field. The .jsonl files come as
+// lines, read one at a time: every client record is checked, but only those the timeline draws
+// are kept, so that clients.jsonl (clients x rounds lines) never sits in memory whole.
 
 import { parse } from 'yaml';
 import type { z } from 'zod';
 import {
   clientRoundRecordSchema,
   roundRecordSchema,
-  type ClientRoundRecord,
   type RoundRecord,
 } from '../engine/round-record.js';
 import { runSummarySchema, type RunSummary } from '../engine/run-summary.js';
@@ -17,21 +18,26 @@ import { ScenarioError } from '../scenario/scenario-error.js';
 import { showValue, validateScenario } from '../scenario/validate-scenario.js';
 import type { Scenario } from '../scenario/schema.js';
 import { ReportError } from './report-error.js';
+import { clientTimeline, type Timeline } from './run-series.js';
 
 export interface RunResults {
   scenarioName: string;
   description: string | null;
   summary: RunSummary;
   rounds: RoundRecord[];
-  clients: ClientRoundRecord[];
+  /** the per-client timeline of the last rounds, built while clients.jsonl was read */
+  timeline: Timeline;
 }
 
-/** The text of a results folder's files, by file (README.md, "Results folder"). */
+/**
+ * A results folder's files (README.md, "Results folder"): the small ones as text, the .jsonl ones
+ * as their lines (blank lines included, so that errors name the right line), read once.
+ */
 export interface RunResultsText {
   resolvedScenario: string;
   outcome: string;
-  rounds: string;
-  clients: string;
+  rounds: Iterable<string>;
+  clients: Iterable<string>;
 }
 
 function valueAt(input: unknown, path: readonly PropertyKey[]): unknown {
@@ -84,12 +90,16 @@ function parseJson<T>(schema: z.ZodType<T, unknown>, text: string, where: string
 }
 
 /** One JSON value a line, blank lines skipped; lines are counted from 1. */
-function parseJsonLines<T>(schema: z.ZodType<T, unknown>, text: string, file: string): T[] {
-  const items: T[] = [];
-  text.split('\n').forEach((line, i) => {
-    if (line.trim() !== '') items.push(parseJson(schema, line, `${file} line ${i + 1}`));
-  });
-  return items;
+function* parseJsonLines<T>(
+  schema: z.ZodType<T, unknown>,
+  lines: Iterable<string>,
+  file: string,
+): Generator<T, void, undefined> {
+  let lineNumber = 0;
+  for (const line of lines) {
+    lineNumber++;
+    if (line.trim() !== '') yield parseJson(schema, line, `${file} line ${lineNumber}`);
+  }
 }
 
 const RESOLVED_SCENARIO = 'resolved-scenario.yaml';
@@ -113,7 +123,7 @@ function parseResolvedScenario(text: string): Scenario {
 export function parseRunResults(text: RunResultsText): RunResults {
   const summary = parseJson(runSummarySchema, text.outcome, 'outcome.json');
   const scenario = parseResolvedScenario(text.resolvedScenario);
-  const rounds = parseJsonLines(roundRecordSchema, text.rounds, 'rounds.jsonl');
+  const rounds = [...parseJsonLines(roundRecordSchema, text.rounds, 'rounds.jsonl')];
   if (rounds.length === 0)
     throw new ReportError('E_RESULTS_CONTENT', 'rounds.jsonl holds no rounds');
   const clients = parseJsonLines(clientRoundRecordSchema, text.clients, 'clients.jsonl');
@@ -122,6 +132,6 @@ export function parseRunResults(text: RunResultsText): RunResults {
     description: scenario.description ?? null,
     summary,
     rounds,
-    clients,
+    timeline: clientTimeline(rounds, clients),
   };
 }

@@ -186,30 +186,50 @@ export interface Timeline {
 /**
  * The last rounds, client by client: within a round each exchange is laid end to end as compute,
  * transfer, then idle (waiting for the round to close). Modelled seconds: the records carry them
- * for both clocks.
+ * for both clocks. `clients` is read once, in file order, and only the records drawn are kept
+ * (at most clientsMax clients over roundsMax rounds): clients.jsonl of any length fits.
  */
 export function clientTimeline(
   rounds: readonly RoundRecord[],
-  clients: readonly ClientRoundRecord[],
+  clients: Iterable<ClientRoundRecord>,
   roundsMax: number = SERIES_LIMITS.timelineRoundsMax,
   clientsMax: number = SERIES_LIMITS.timelineClientsMax,
 ): Timeline {
-  const clientIds = [...new Set(clients.map((c) => c.clientId))].sort((a, b) => a - b);
-  const shownIds = new Set(clientIds.slice(0, clientsMax));
   const traffic = rounds.filter((r) => r.round > 0);
   const shownRounds = traffic.slice(-roundsMax);
   const roundStart = new Map<number, number>();
   const origin =
     shownRounds.length > 0 ? shownRounds[0].virtualSeconds - shownRounds[0].roundSeconds : 0;
   for (const r of shownRounds) roundStart.set(r.round, r.virtualSeconds - r.roundSeconds - origin);
+  // The lowest clientsMax ids seen so far keep their records of the shown rounds; an id pushed
+  // out by a lower one can never come back, so its records go.
+  const allIds = new Set<number>();
+  const kept = new Map<number, { order: number; record: ClientRoundRecord }[]>();
+  let highestKept = -Infinity;
+  let order = 0;
+  for (const c of clients) {
+    order++;
+    allIds.add(c.clientId);
+    if (!roundStart.has(c.round)) continue;
+    let records = kept.get(c.clientId);
+    if (records === undefined) {
+      if (kept.size >= clientsMax) {
+        if (c.clientId > highestKept) continue;
+        kept.delete(highestKept);
+      }
+      records = [];
+      kept.set(c.clientId, records);
+      highestKept = Math.max(...kept.keys());
+    }
+    records.push({ order, record: c });
+  }
+  const drawn = [...kept.values()].flat().sort((a, b) => a.order - b.order);
   const cursor = new Map<string, number>();
   const segments: TimelineSegment[] = [];
-  for (const c of clients) {
-    const start = roundStart.get(c.round);
-    if (start === undefined || !shownIds.has(c.clientId)) continue;
+  for (const { record: c } of drawn) {
     const client = `client ${c.clientId}`;
     const key = `${c.round}:${c.clientId}`;
-    let t = cursor.get(key) ?? start;
+    let t = cursor.get(key) ?? roundStart.get(c.round)!;
     for (const [activity, seconds] of [
       ['compute', c.computeSeconds],
       ['transfer', c.transferSeconds],
@@ -223,8 +243,8 @@ export function clientTimeline(
   }
   return {
     segments,
-    clientsShown: shownIds.size,
-    clientsTotal: clientIds.length,
+    clientsShown: kept.size,
+    clientsTotal: allIds.size,
     roundsShown: shownRounds.map((r) => r.round),
   };
 }

@@ -10,7 +10,10 @@ import { ResultsFolderError, resultFiles } from './results-folder.js';
 /** Bytes read at a time: large enough that a read costs little per line (common practice). */
 const READ_CHUNK_BYTES = 1 << 20;
 
-/** The lines of `path` without their line breaks, empty lines skipped, read chunk by chunk. */
+/**
+ * The lines of `path` without their line breaks, read chunk by chunk: empty lines included (so
+ * that a reader can name a line by its number), none after a final line break.
+ */
 export function* readLines(path: string): Generator<string, void, undefined> {
   let fd: number;
   try {
@@ -32,7 +35,7 @@ export function* readLines(path: string): Generator<string, void, undefined> {
         const line = Buffer.concat(pending).toString('utf8');
         pending = [];
         start = end + 1;
-        if (line.length > 0) yield line;
+        yield line;
       }
       if (start < read) pending.push(Buffer.from(chunk.subarray(start, read)));
     }
@@ -49,6 +52,7 @@ export function* readRoundRecords(folder: string): Generator<RoundRecord, void, 
   let lineNumber = 0;
   for (const line of readLines(path)) {
     lineNumber++;
+    if (line.trim() === '') continue;
     let json: unknown;
     try {
       json = JSON.parse(line);

@@ -13,6 +13,8 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { resultFiles } from '../../src/results/results-folder.js';
 import { ReportError } from '../../src/report/report-error.js';
 import { parseRunResults, type RunResultsText } from '../../src/report/run-results.js';
+import { clientTimeline } from '../../src/report/run-series.js';
+import type { ClientRoundRecord } from '../../src/engine/round-record.js';
 import { runCli } from '../cli/run-cli.js';
 
 const root = mkdtempSync(join(tmpdir(), 'roundwire-run-results-'));
@@ -27,7 +29,22 @@ const RUNS = {
   ],
 };
 
-function textOf(dir: string): RunResultsText {
+/** A results folder's files as text. */
+interface FolderText {
+  resolvedScenario: string;
+  outcome: string;
+  rounds: string;
+  clients: string;
+}
+
+/** The files as `report` hands them over: the .jsonl ones line by line. */
+const asRead = (text: FolderText): RunResultsText => ({
+  ...text,
+  rounds: text.rounds.split('\n'),
+  clients: text.clients.split('\n'),
+});
+
+function textOf(dir: string): FolderText {
   const read = (file: string) => readFileSync(join(dir, file), 'utf8');
   return {
     resolvedScenario: read(resultFiles.resolvedScenario),
@@ -37,7 +54,7 @@ function textOf(dir: string): RunResultsText {
   };
 }
 
-const texts = new Map<string, RunResultsText>();
+const texts = new Map<string, FolderText>();
 beforeAll(async () => {
   for (const [name, tweaks] of Object.entries(RUNS)) {
     const dir = join(root, name);
@@ -55,9 +72,9 @@ beforeAll(async () => {
 }, 120_000);
 
 /** The error parseRunResults throws for `text`, asserted to be E_RESULTS_CONTENT. */
-function contentError(text: RunResultsText): string {
+function contentError(text: FolderText): string {
   try {
-    parseRunResults(text);
+    parseRunResults(asRead(text));
   } catch (error) {
     expect(error).toBeInstanceOf(ReportError);
     expect((error as ReportError).code).toBe('E_RESULTS_CONTENT');
@@ -71,14 +88,14 @@ function withLine(
   file: 'rounds' | 'clients',
   lineNumber: number,
   change: (record: Record<string, unknown>) => unknown,
-): RunResultsText {
+): FolderText {
   const good = texts.get('evaluatedEverySecondRound')!;
   const lines = good[file].split('\n');
   lines[lineNumber - 1] = JSON.stringify(change(JSON.parse(lines[lineNumber - 1])));
   return { ...good, [file]: lines.join('\n') };
 }
 
-function withOutcome(change: (outcome: Record<string, unknown>) => void): RunResultsText {
+function withOutcome(change: (outcome: Record<string, unknown>) => void): FolderText {
   const good = texts.get('evaluatedEverySecondRound')!;
   const outcome = JSON.parse(good.outcome) as Record<string, unknown>;
   change(outcome);
@@ -92,19 +109,28 @@ describe('parseRunResults on folders a run wrote', () => {
   for (const name of Object.keys(RUNS)) {
     it(`${name}: parses, and what it parsed writes back to the same text`, () => {
       const text = texts.get(name)!;
-      const results = parseRunResults(text);
+      const results = parseRunResults(asRead(text));
       expect(results.scenarioName).toBe('quickstart');
       expect(results.description).toBe(
         'Heterogeneous least squares, 8 clients, FedLin with 5 local steps.',
       );
       expect(`${JSON.stringify(results.summary, null, 2)}\n`).toBe(text.outcome);
       expect(jsonLines(results.rounds)).toBe(text.rounds);
-      expect(jsonLines(results.clients)).toBe(text.clients);
+      // Client records are checked line by line and only the timeline's are kept: it is the one
+      // drawn from every record of the file at once.
+      const clients = text.clients
+        .trimEnd()
+        .split('\n')
+        .map((line) => JSON.parse(line) as ClientRoundRecord);
+      expect(results.timeline).toEqual(clientTimeline(results.rounds, clients));
+      expect(results.timeline.clientsTotal).toBe(8);
+      if (name === 'evaluatedEverySecondRound')
+        expect(results.timeline.segments.length).toBeGreaterThan(0);
     });
   }
 
   it('holds the nulls the writer writes for rounds not evaluated, and a diverged run', () => {
-    const every2 = parseRunResults(texts.get('evaluatedEverySecondRound')!);
+    const every2 = parseRunResults(asRead(texts.get('evaluatedEverySecondRound')!));
     expect(every2.rounds.map((r) => r.suboptimality === null)).toEqual([
       false,
       true,
@@ -114,7 +140,7 @@ describe('parseRunResults on folders a run wrote', () => {
       true,
       false,
     ]);
-    const diverged = parseRunResults(texts.get('diverged')!);
+    const diverged = parseRunResults(asRead(texts.get('diverged')!));
     expect(diverged.summary.stopReason).toBe('diverged');
     // A non-finite update is never folded in (README, "Results folder"): the model, and so the
     // final f - f*, are the initial ones, read back exactly.

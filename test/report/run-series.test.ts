@@ -183,4 +183,28 @@ describe('clientTimeline', () => {
     expect(new Set(t.segments.map((s) => s.client)).size).toBe(64);
     expect(t.segments.some((s) => s.client === 'client 64')).toBe(false);
   });
+
+  it('reads the records once, as they come: the lowest ids of the shown rounds win whatever the order', () => {
+    const rounds = Array.from({ length: 21 }, (_, r) => round(r, 1));
+    let yielded = 0;
+    // 20 rounds x 5,000 clients, highest ids first, as a generator read once (never an array).
+    function* records(): Generator<ClientRoundRecord> {
+      for (let r = 1; r <= 20; r++)
+        for (let id = 4999; id >= 0; id--) {
+          yielded++;
+          // client 0 takes part in the early rounds only, so it is not drawn
+          if (id === 0 && r > 5) continue;
+          yield client(r, id, 1, 0, 0);
+        }
+    }
+    const t = clientTimeline(rounds, records(), 10, 64);
+    expect(yielded).toBe(100_000);
+    expect(t.clientsTotal).toBe(5000);
+    expect(t.clientsShown).toBe(64);
+    const shown = [...new Set(t.segments.map((s) => Number(s.client.slice(7))))].sort(
+      (a, b) => a - b,
+    );
+    expect(shown).toEqual(Array.from({ length: 64 }, (_, i) => i + 1));
+    expect(t.segments.length).toBe(64 * 10);
+  });
 });
