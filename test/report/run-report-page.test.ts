@@ -2,13 +2,14 @@
 // scenario is the bundled quickstart (FedLin, least squares: a prediction exists) and its
 // logistic variant (no prediction: the objective is not quadratic).
 import { afterAll, describe, expect, it } from 'vitest';
-import { mkdtempSync, readFileSync, rmSync } from 'node:fs';
+import { cpSync, mkdtempSync, readFileSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { scenarioFromText } from '../../src/scenario/load-scenario.js';
 import { runInProcessInto } from '../../src/commands/run-report.js';
 import { readRunResults, writeRunReport } from '../../src/commands/report-command.js';
 import { buildRunReport } from '../../src/report/run-report-page.js';
+import { ReportError } from '../../src/report/report-error.js';
 
 const root = mkdtempSync(join(tmpdir(), 'roundwire-report-'));
 afterAll(() => rmSync(root, { recursive: true, force: true }));
@@ -72,5 +73,22 @@ describe('run report page', () => {
 
   it('refuses a folder that is not a results folder, naming the file', () => {
     expect(() => readRunResults(join(root, 'missing'))).toThrow(/resolved-scenario\.yaml/);
+  });
+
+  it('names a missing .jsonl file, read line by line, with the same error', () => {
+    const partial = join(root, 'without-clients');
+    cpSync(withoutPrediction, partial, { recursive: true });
+    rmSync(join(partial, 'clients.jsonl'));
+    let caught: unknown;
+    try {
+      readRunResults(partial);
+    } catch (error) {
+      caught = error;
+    }
+    expect(caught).toBeInstanceOf(ReportError);
+    expect((caught as ReportError).code).toBe('E_RESULTS_FILE');
+    expect((caught as Error).message).toMatch(
+      /clients\.jsonl: cannot read it \(ENOENT\); is .* a results folder\?$/,
+    );
   });
 });
