@@ -178,7 +178,7 @@ export class Coordinator {
       workersMax: options.workersMax,
       maxClientsPerWorker: options.maxClientsPerWorker,
     });
-    this.oracle = new OraclePool(scenario);
+    this.oracle = new OraclePool(plan);
     const nowMs = () => performance.now();
     this.joinLimits = this.limitsFor(1);
     this.peerLog = new LogLimiter(options.log, CONNECTION_LIMITS.logIntervalSeconds, nowMs);
@@ -213,7 +213,7 @@ export class Coordinator {
       plan,
       registry: this.registry,
       ledger: this.ledger,
-      evaluate: (x) => this.oracle.evaluate(x),
+      evaluate: (x, round) => this.oracle.evaluate(x, round),
       exchangeTimeoutSeconds: options.exchangeTimeoutSeconds,
       wallGraceSeconds: options.wallGraceSeconds,
       nowMs,

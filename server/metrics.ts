@@ -55,6 +55,7 @@ export class CoordinatorMetrics {
   private readonly roundsCompleted: Counter;
   private readonly suboptimality: Gauge;
   private readonly suboptimalityInitial: Gauge;
+  private readonly suboptimalityPredicted: Gauge;
   private readonly distance: Gauge;
   private readonly roundDuration: Histogram<'clock'>;
   private readonly computeSeconds: Counter<'client'>;
@@ -99,6 +100,12 @@ export class CoordinatorMetrics {
       help: 'f(x0) - f* of the initial model.',
       registers,
     });
+    this.suboptimalityPredicted = new Gauge({
+      name: 'roundwire_suboptimality_predicted',
+      help: 'f - f* the theory predicts at the last evaluated round: the ideal round map iterated from x0 (NaN where it predicts none).',
+      registers,
+    });
+    this.suboptimalityPredicted.set(Number.NaN);
     this.distance = new Gauge({
       name: 'roundwire_distance_to_optimum',
       help: '||x - x*|| at the last evaluated round.',
@@ -231,6 +238,8 @@ export class CoordinatorMetrics {
       this.suboptimality.set(record.suboptimality);
     }
     if (record.distance !== null) this.distance.set(record.distance);
+    if (record.suboptimality !== null)
+      this.suboptimalityPredicted.set(record.predictedSuboptimality ?? Number.NaN);
     if (record.round === 0) {
       if (record.suboptimality !== null) this.suboptimalityInitial.set(record.suboptimality);
       this.lastWallSeconds = record.wallSeconds;

@@ -5,7 +5,8 @@
 import { availableParallelism } from 'node:os';
 import { Piscina } from 'piscina';
 import type { Scenario } from '../src/scenario/schema.js';
-import type { Evaluation } from '../src/engine/evaluate.js';
+import type { RoundEvaluation } from '../src/engine/evaluate.js';
+import type { RunPlan } from '../src/engine/run-plan.js';
 import type { ClientConstants } from '../src/theory/constants.js';
 import { theoryOf } from '../src/theory/plan-theory.js';
 import { compiledModulePath } from '../runtime/compiled-module.js';
@@ -17,16 +18,16 @@ const ORACLE_IDLE_TIMEOUT_MS = 60_000;
 const CLIENT_CONSTANTS_THREADS_MAX = 8;
 
 export class OraclePool {
-  private readonly pool: Piscina<OracleTask, Evaluation>;
-  private readonly scenario: Scenario;
+  private readonly pool: Piscina<OracleTask, RoundEvaluation>;
+  private readonly plan: RunPlan;
   private readonly optimum: { x: Float64Array; loss: number };
 
   /** x* and f* come from this process's oracle (theoryOf), solved or read once. */
-  constructor(scenario: Scenario) {
-    this.scenario = scenario;
-    const { x, loss } = theoryOf(scenario).optimum;
+  constructor(plan: RunPlan) {
+    this.plan = plan;
+    const { x, loss } = theoryOf(plan.scenario).optimum;
     this.optimum = { x, loss };
-    this.pool = new Piscina<OracleTask, Evaluation>({
+    this.pool = new Piscina<OracleTask, RoundEvaluation>({
       filename: compiledModulePath(import.meta.url, 'oracle-task.js'),
       minThreads: 1,
       maxThreads: 1,
@@ -34,8 +35,9 @@ export class OraclePool {
     });
   }
 
-  evaluate(model: Float64Array): Promise<Evaluation> {
-    return this.pool.run({ scenario: this.scenario, model, optimum: this.optimum });
+  /** The model after `round` rounds, and the predicted trajectory there (rounds asked in order cost one ideal round each). */
+  evaluate(model: Float64Array, round: number): Promise<RoundEvaluation> {
+    return this.pool.run({ plan: this.plan, model, round, optimum: this.optimum });
   }
 
   async close(): Promise<void> {

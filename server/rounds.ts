@@ -12,7 +12,7 @@ import type { RunState } from '../src/engine/run-state.js';
 import type { EncodedFields } from '../src/engine/client-runtime.js';
 import type { ClientAssignment } from '../src/engine/round-schedule.js';
 import type { ClientRoundRecord, RecordSink, RoundRecord } from '../src/engine/round-record.js';
-import type { Evaluation } from '../src/engine/evaluate.js';
+import type { RoundEvaluation } from '../src/engine/evaluate.js';
 import { walkRun, walkSetup, type WalkedRun } from '../src/engine/round-walk.js';
 import {
   driveAsync,
@@ -44,7 +44,8 @@ export interface RoundDriverOptions {
   plan: RunPlan;
   registry: WorkerRegistry;
   ledger: ByteLedger;
-  evaluate: (x: Float64Array) => Promise<Evaluation>;
+  /** the model after `round` rounds, evaluated by the oracle, with the predicted trajectory's value there */
+  evaluate: (x: Float64Array, round: number) => Promise<RoundEvaluation>;
   /** longest wait for one exchange's ups before the missing ones count as lost */
   exchangeTimeoutSeconds: number;
   /** wall-clock deadline: extra time after budget plus transfer before an up is late */
@@ -297,8 +298,8 @@ export class RoundDriver implements RoundTransport<'async'> {
     return this.stopRequested ? 'stopped' : null;
   }
 
-  evaluate(model: Float64Array): Promise<Evaluation> {
-    return this.options.evaluate(model);
+  evaluate(model: Float64Array, round: number): Promise<RoundEvaluation> {
+    return this.options.evaluate(model, round);
   }
 
   async checkpoint(point: WalkPoint): Promise<void> {

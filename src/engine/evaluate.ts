@@ -9,6 +9,11 @@ export interface Evaluation {
   distance: number;
 }
 
+/** A round's evaluation: the model's, and f - f* of the predicted trajectory (predicted-trajectory.ts) after as many rounds, null where there is none. */
+export interface RoundEvaluation extends Evaluation {
+  predictedSuboptimality: number | null;
+}
+
 export function evaluateModel(
   global: Objective,
   optimumX: Float64Array,

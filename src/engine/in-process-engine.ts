@@ -7,7 +7,8 @@ import type { Scenario } from '../scenario/schema.js';
 import { theoryOf, type PlanTheory } from '../theory/plan-theory.js';
 import { ClientRuntime } from './client-runtime.js';
 import { DirectTransport } from './direct-transport.js';
-import { evaluateModel, type Evaluation } from './evaluate.js';
+import { evaluateModel, type RoundEvaluation } from './evaluate.js';
+import { PredictedTrajectory } from './predicted-trajectory.js';
 import { walkRun, walkSetup, type RunWalkSetup } from './round-walk.js';
 import type { RecordSink, RoundRecord } from './round-record.js';
 import { assertPlannable, resolveRunPlan, type RunPlan } from './run-plan.js';
@@ -66,9 +67,12 @@ class InProcessTransport extends DirectTransport implements RoundTransport {
     return this.run.stopRequested() ? 'stopped' : null;
   }
 
-  evaluate(model: Float64Array): Evaluation {
+  evaluate(model: Float64Array, round: number): RoundEvaluation {
     const { theory } = this.run;
-    return evaluateModel(theory.instance.global, theory.optimum.x, theory.optimum.loss, model);
+    return {
+      ...evaluateModel(theory.instance.global, theory.optimum.x, theory.optimum.loss, model),
+      predictedSuboptimality: this.run.predicted.at(round),
+    };
   }
 
   checkpoint(point: WalkPoint): void {
@@ -86,6 +90,7 @@ interface InProcessRun {
   theory: PlanTheory;
   server: ServerRuntime;
   clients: ClientRuntime[];
+  predicted: PredictedTrajectory;
   stopRequested: () => boolean;
   onCheckpoint?: (state: RunState) => void;
 }
@@ -104,7 +109,22 @@ function prepare(
     (objective, id) => new ClientRuntime(plan, id, objective),
   );
   if (options.resume !== undefined) restoreRunState(plan, options.resume, server, clients);
-  const run = { plan, theory, server, clients, stopRequested, onCheckpoint: options.onCheckpoint };
+  const predicted = new PredictedTrajectory(
+    plan,
+    theory.instance.objectives,
+    theory.instance.global,
+    theory.optimum,
+    options.initialModel,
+  );
+  const run = {
+    plan,
+    theory,
+    server,
+    clients,
+    predicted,
+    stopRequested,
+    onCheckpoint: options.onCheckpoint,
+  };
   const { onRound } = options;
   const records = options.openRecords?.();
   const setup: RunWalkSetup = {
@@ -159,7 +179,7 @@ export async function runInProcessStoppable(
     openRound: (round) =>
       new Promise((resolve) => setImmediate(() => resolve(direct.openRound(round)))),
     closeRound: () => direct.closeRound(),
-    evaluate: (model) => direct.evaluate(model),
+    evaluate: (model, round) => direct.evaluate(model, round),
     checkpoint: (point) => direct.checkpoint(point),
   };
   const walked = await driveAsync(walkRun(setup), transport);

@@ -28,6 +28,12 @@ export const roundRecordSchema = z.object({
   suboptimality: z.number().nullable(),
   /** ||x - x*||, or null when not evaluated (or not finite) */
   distance: z.number().nullable(),
+  /**
+   * f - f* the theory predicts after this many rounds: the ideal round map (no compression, no
+   * drops, the plan's tau_i) iterated from the run's initial model (predicted-trajectory.ts);
+   * null when not evaluated, or where the round map is not affine and fixed
+   */
+  predictedSuboptimality: z.number().nullable(),
   bytes: bytesByLayerSchema,
   /** tau_i actually taken in the local-work exchange, by client id (participants only) */
   localSteps: z.record(z.string(), stepCount),

@@ -246,12 +246,13 @@ export function* walkRun(setup: RunWalkSetup): Generator<WalkRequest, WalkedRun,
   let bound: ExplosionBound;
   if (start === undefined) {
     const initialModel = server.model();
-    const initial = yield* ask({ kind: 'evaluate', model: initialModel });
+    const initial = yield* ask({ kind: 'evaluate', model: initialModel, round: 0 });
     bound = explosionBound(initialModel, initial);
     const first: RoundRecord = {
       round: 0,
       suboptimality: initial.suboptimality,
       distance: initial.distance,
+      predictedSuboptimality: initial.predictedSuboptimality,
       bytes: bytesOf([], byteLayers),
       localSteps: {},
       dropped: [],
@@ -283,13 +284,14 @@ export function* walkRun(setup: RunWalkSetup): Generator<WalkRequest, WalkedRun,
     const last = round === roundsMax || (ending !== null && ending !== 'stopped');
     const evaluated =
       round % evalEvery === 0 || last
-        ? yield* ask({ kind: 'evaluate', model: server.model() })
+        ? yield* ask({ kind: 'evaluate', model: server.model(), round })
         : null;
     if (evaluated && !suboptimalityWithin(evaluated.suboptimality, bound)) ending = 'diverged';
     const record: RoundRecord = {
       round,
       suboptimality: evaluated ? evaluated.suboptimality : null,
       distance: evaluated ? evaluated.distance : null,
+      predictedSuboptimality: evaluated ? evaluated.predictedSuboptimality : null,
       bytes: bytesOf(walked.records, byteLayers),
       localSteps: walked.localSteps,
       dropped: walked.dropped,

@@ -9,7 +9,7 @@ import type { ExplosionBound } from './explosion-bound.js';
 import type { ByteCounts, ClientRoundRecord } from './round-record.js';
 import type { ClientAssignment } from './round-schedule.js';
 import type { EncodedFields } from './client-runtime.js';
-import type { Evaluation } from './evaluate.js';
+import type { RoundEvaluation } from './evaluate.js';
 import type { StopReason } from './run-summary.js';
 import type { VirtualClockState } from '../timing/virtual-clock.js';
 
@@ -86,7 +86,7 @@ export type WalkRequest =
   | ExchangeRequest
   | { kind: 'open-round'; round: number }
   | { kind: 'close-round'; round: number }
-  | { kind: 'evaluate'; model: Float64Array }
+  | { kind: 'evaluate'; model: Float64Array; round: number }
   | { kind: 'checkpoint'; point: WalkPoint };
 
 /** What a request of each kind is answered with. */
@@ -95,7 +95,7 @@ export interface WalkAnswers {
   exchange: ExchangeReply;
   'open-round': StopReason | null;
   'close-round': StopReason | null;
-  evaluate: Evaluation;
+  evaluate: RoundEvaluation;
   checkpoint: void;
 }
 
@@ -121,7 +121,8 @@ export interface RoundTransport<
   openRound(round: number): Answer<StopReason | null, Mode>;
   /** after a round's exchanges: null to go on, or why this round is the last */
   closeRound(round: number): Answer<StopReason | null, Mode>;
-  evaluate(model: Float64Array): Answer<Evaluation, Mode>;
+  /** the oracle's view of the model after `round` rounds, and the predicted trajectory's there */
+  evaluate(model: Float64Array, round: number): Answer<RoundEvaluation, Mode>;
   /** keeps everything the run needs to go on after `point.round` (a checkpoint) */
   checkpoint(point: WalkPoint): Answer<void, Mode>;
 }
@@ -149,7 +150,7 @@ function answer(transport: Answering, request: WalkRequest): unknown {
     case 'close-round':
       return transport.closeRound(request.round);
     case 'evaluate':
-      return transport.evaluate(request.model);
+      return transport.evaluate(request.model, request.round);
     case 'checkpoint':
       return transport.checkpoint(request.point);
   }

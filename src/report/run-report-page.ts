@@ -35,7 +35,7 @@ import {
 } from './run-series.js';
 
 const measuredLabel = 'measured';
-const predictedLabel = 'predicted: floor + (f0 - floor) rate^k';
+const predictedLabel = 'predicted: the ideal round map from x0';
 
 export function secondsTitle(clock: RunSummary['clock']): string {
   return clock === 'virtual' ? 'modelled seconds (virtual clock)' : 'wall seconds (wall clock)';
@@ -80,11 +80,19 @@ function curveCaption(
   predicted: boolean,
 ): string {
   const s = results.summary;
+  const ideal =
+    "the predicted trajectory, the ideal round map (no compression, no drops, the plan's tau_i) iterated from the same x0";
   const parts = [
-    predicted
-      ? `Dashed: the predicted curve from the summary's predicted rate ${formatNumber(s.rate.predicted)} and floor ${formatNumber(s.floor.predicted)}.`
-      : `No prediction is drawn: ${s.prediction.reason ?? 'the summary holds no predicted rate and floor'}.`,
+    !predicted
+      ? `No prediction is drawn: ${s.prediction.reason ?? 'the run recorded no predicted trajectory'}.`
+      : s.prediction.available
+        ? `Dashed: ${ideal}; it tends to the predicted floor ${formatNumber(s.floor.predicted)} at the predicted rate ${formatNumber(s.rate.predicted)} a round.`
+        : `Dashed: ${ideal}. No asymptotic rate or floor is predicted: ${s.prediction.reason ?? 'none was solved'}.`,
   ];
+  if (predicted)
+    parts.push(
+      'With nothing injected the two curves coincide; the gap is what compression, stragglers and drops cost.',
+    );
   if (curve.points.length < curve.pointsTotal)
     parts.push(
       `${curve.points.length} of ${curve.pointsTotal} evaluated rounds drawn, evenly spread.`,
@@ -99,7 +107,7 @@ function curveCaption(
 async function curveFigures(results: RunResults): Promise<Html[]> {
   const s = results.summary;
   const curve = measuredCurve(results.rounds, s.clock, measuredLabel);
-  const prediction = predictedCurve(s, curve.points, predictedLabel);
+  const prediction = predictedCurve(results.rounds, curve.points, predictedLabel);
   const rows = prediction === null ? curve.points : [...curve.points, ...prediction];
   // Both lines in the method's colour: the line style, not the colour, says which is the prediction.
   const colour = methodColour(s.method);

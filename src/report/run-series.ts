@@ -77,22 +77,24 @@ export function measuredCurve(
 }
 
 /**
- * The predicted curve f_k - f* = floor + (f_0 - floor) rate^k at the measured curve's rounds (so
- * that it can be drawn against bytes and seconds too), or null when the run has no prediction.
+ * The predicted trajectory (each record's predictedSuboptimality: the ideal round map iterated
+ * from the run's x0) at the measured curve's rounds, so that it can be drawn against bytes and
+ * seconds too; null when the run recorded none.
  */
 export function predictedCurve(
-  summary: RunSummary,
+  rounds: readonly RoundRecord[],
   measured: readonly CurvePointRow[],
   series: string,
 ): CurvePointRow[] | null {
-  const rate = summary.rate.predicted;
-  const floor = summary.floor.predicted;
-  if (!summary.prediction.available || rate === null || floor === null) return null;
-  const initial = summary.suboptimality.initial;
+  const predicted = new Map<number, number>();
+  for (const r of rounds)
+    if (r.predictedSuboptimality !== null) predicted.set(r.round, r.predictedSuboptimality);
+  if (predicted.size === 0) return null;
   const rows: CurvePointRow[] = [];
   for (const p of measured) {
-    const value = floor + (initial - floor) * rate ** p.round;
-    if (Number.isFinite(value) && value > 0) rows.push({ ...p, series, suboptimality: value });
+    const value = predicted.get(p.round);
+    if (value !== undefined && Number.isFinite(value) && value > 0)
+      rows.push({ ...p, series, suboptimality: value });
   }
   return rows;
 }

@@ -14,7 +14,7 @@ import { scenarioFromText } from '../../src/scenario/load-scenario.js';
 import { planFor } from '../../src/engine/in-process-engine.js';
 import { ClientRuntime, type EncodedFields } from '../../src/engine/client-runtime.js';
 import { DirectTransport } from '../../src/engine/direct-transport.js';
-import { evaluateModel, type Evaluation } from '../../src/engine/evaluate.js';
+import { evaluateModel, type Evaluation, type RoundEvaluation } from '../../src/engine/evaluate.js';
 import { ServerRuntime } from '../../src/engine/server-runtime.js';
 import { walkRun, walkSetup } from '../../src/engine/round-walk.js';
 import { RecordList } from '../support/record-list.js';
@@ -76,8 +76,8 @@ class ScriptedTransport extends DirectTransport implements RoundTransport {
     return this.script.closeRound?.(round) ?? null;
   }
 
-  evaluate(model: Float64Array): Evaluation {
-    return this.evaluateModel(model);
+  evaluate(model: Float64Array): RoundEvaluation {
+    return { ...this.evaluateModel(model), predictedSuboptimality: null };
   }
 
   checkpoint(point: WalkPoint): void {

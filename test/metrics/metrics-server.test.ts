@@ -98,6 +98,7 @@ describe('coordinator metrics labels', () => {
     const round: RoundRecord = {
       round: 1,
       suboptimality: 0.5,
+      predictedSuboptimality: 0.25,
       distance: 0.1,
       bytes: { payload: { up: 0, down: 0 } },
       localSteps: {},

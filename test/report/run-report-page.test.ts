@@ -63,12 +63,16 @@ describe('run report page', () => {
     expect(new Set(ids).size).toBe(ids.length);
   });
 
-  it('draws the prediction when the summary has one, and says why not otherwise', async () => {
+  it('draws the predicted trajectory, with the asymptotic rate and floor where the summary has them', async () => {
     const predicted = await buildRunReport(readRunResults(withPrediction));
-    expect(predicted).toContain('predicted: floor + (f0 - floor) rate^k');
+    expect(predicted).toContain('predicted: the ideal round map from x0');
     expect(predicted).not.toContain('No prediction is drawn');
     const plain = await buildRunReport(readRunResults(withoutPrediction));
-    expect(plain).toContain('No prediction is drawn: the objective is not quadratic.');
+    // A logistic run has its ideal run drawn, but no asymptotic rate or floor.
+    expect(plain).toContain('predicted: the ideal round map from x0');
+    expect(plain).toContain(
+      'No asymptotic rate or floor is predicted: the objective is not quadratic.',
+    );
   });
 
   it('refuses a folder that is not a results folder, naming the file', () => {

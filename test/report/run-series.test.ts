@@ -3,7 +3,6 @@
 // (DESIGN.md, "Oracle and theory"); the other numbers are counted by hand from the records.
 import { describe, expect, it } from 'vitest';
 import type { ClientRoundRecord, RoundRecord } from '../../src/engine/round-record.js';
-import type { RunSummary } from '../../src/engine/run-summary.js';
 import {
   bytesByLayer,
   clientTimeline,
@@ -21,6 +20,7 @@ function round(
     round: r,
     suboptimality,
     distance: null,
+    predictedSuboptimality: null,
     bytes: { payload: { up: r === 0 ? 0 : 100, down: r === 0 ? 0 : 50 } },
     localSteps: r === 0 ? {} : { '0': 5, '1': 7 },
     dropped: [],
@@ -61,31 +61,30 @@ describe('measuredCurve', () => {
 });
 
 describe('predictedCurve', () => {
-  const summary = {
-    suboptimality: { initial: 2, final: 0 },
-    rate: { predicted: 0.5, measured: null },
-    floor: { predicted: 0.25, measured: null },
-    prediction: { available: true, reason: null, spectralRadius: 0.5, limitDistance: 0 },
-  } as unknown as RunSummary;
-  const measured = measuredCurve([round(0, 2), round(1, 1), round(3, 0.3)], 'virtual', 'm').points;
+  const withPrediction = (r: number, measured: number, predicted: number | null): RoundRecord =>
+    round(r, measured, { predictedSuboptimality: predicted });
+  const rounds = [
+    withPrediction(0, 2, 2),
+    withPrediction(1, 1, 0.9),
+    round(2, null),
+    withPrediction(3, 0.3, 0.25),
+  ];
+  const measured = measuredCurve(rounds, 'virtual', 'm').points;
 
-  it('follows floor + (f0 - floor) rate^k at the measured rounds', () => {
-    const rows = predictedCurve(summary, measured, 'p');
-    expect(rows?.map((r) => r.suboptimality)).toEqual([
-      0.25 + 1.75,
-      0.25 + 1.75 * 0.5,
-      0.25 + 1.75 * 0.125,
+  it("draws each record's predicted value at the measured curve's rounds, on its bytes and seconds", () => {
+    const rows = predictedCurve(rounds, measured, 'p');
+    expect(rows?.map((r) => [r.round, r.suboptimality])).toEqual([
+      [0, 2],
+      [1, 0.9],
+      [3, 0.25],
     ]);
     expect(rows?.map((r) => r.payloadBytes)).toEqual(measured.map((m) => m.payloadBytes));
+    expect(rows?.every((r) => r.series === 'p')).toBe(true);
   });
 
-  it('is null when the run has no prediction', () => {
-    const none = {
-      ...summary,
-      prediction: { ...summary.prediction, available: false },
-      rate: { predicted: null, measured: null },
-    } as unknown as RunSummary;
-    expect(predictedCurve(none, measured, 'p')).toBeNull();
+  it('is null when the run recorded no predicted value', () => {
+    const plain = [round(0, 2), round(1, 1)];
+    expect(predictedCurve(plain, measuredCurve(plain, 'virtual', 'm').points, 'p')).toBeNull();
   });
 });
 

@@ -36,6 +36,7 @@ function roundRecord(round: number): RoundRecord {
     round,
     suboptimality: round % 2 === 0 ? 1 / (round + 1) : null,
     distance: round % 2 === 0 ? 2 / (round + 1) : null,
+    predictedSuboptimality: round % 2 === 0 ? 1 / (round + 2) : null,
     bytes: { payload: { up: 10 * round, down: 20 * round } },
     localSteps: round === 0 ? {} : { '0': 3, '1': 5 },
     dropped: round === 2 ? [1] : [],

@@ -12,6 +12,7 @@ function round(r: number): { record: RoundRecord; clients: ClientRoundRecord[] }
       round: r,
       suboptimality: null,
       distance: null,
+      predictedSuboptimality: null,
       bytes: { payload: { up: 0, down: 0 } },
       localSteps: {},
       dropped: [],
