@@ -7,12 +7,12 @@
 // (the target is at most 1.2).
 
 import { spawn } from 'node:child_process';
-import { existsSync, mkdtempSync, readFileSync, rmSync } from 'node:fs';
+import { mkdtempSync, readFileSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
-import { dirname, join } from 'node:path';
+import { join } from 'node:path';
 import { createInterface } from 'node:readline';
-import { fileURLToPath } from 'node:url';
 import type { BenchResult } from './bench-report.js';
+import { repositoryRoot } from './repository-root.js';
 
 export interface MemoryCase {
   name: string;
@@ -49,17 +49,6 @@ const CASE_SECONDS_MAX = 900;
 
 const KIB_BYTES = 1024;
 const MIB_BYTES = 1024 * 1024;
-
-/** The repository's root: the nearest folder above this file that holds bin/roundwire.js. */
-function repositoryRoot(): string {
-  let dir = dirname(fileURLToPath(import.meta.url));
-  while (!existsSync(join(dir, 'bin', 'roundwire.js'))) {
-    const parent = dirname(dir);
-    if (parent === dir) throw new Error('bench: bin/roundwire.js not found above the bench');
-    dir = parent;
-  }
-  return dir;
-}
 
 /** VmRSS of a process in bytes (proc(5): "VmRSS: <n> kB"). */
 function residentBytes(pid: number): number {

@@ -1,7 +1,8 @@
 // `npm run bench`: every case at full size, printed as one JSON document (bench-report.ts holds
 // its schema; README.md, "Benchmark output", describes it). `npm run bench -- --suite kernels`
 // runs one part: core (the vec, problem and compress suites, measured in one run), kernels,
-// oracle or memory.
+// oracle, memory, wire or scale. The scale suite takes several minutes of real runs and is not
+// part of the default document: ask for it with --suite scale.
 
 import { parseArgs } from 'node:util';
 import { benchReport, type BenchResult } from './bench-report.js';
@@ -9,12 +10,16 @@ import { benchSink, runBench } from './bench-cases.js';
 import { runKernelBench } from './kernel-bench-cases.js';
 import { runMemoryBench } from './memory-cases.js';
 import { runOracleBench } from './oracle-bench-cases.js';
+import { runScaleBench } from './scale-cases.js';
+import { runWireBench } from './wire-envelope-cases.js';
 
 const SUITES = {
   core: () => runBench(),
   kernels: () => runKernelBench(),
   oracle: () => runOracleBench(),
   memory: () => runMemoryBench(),
+  wire: () => runWireBench(),
+  scale: () => runScaleBench(),
 } satisfies Record<string, () => BenchResult[] | Promise<BenchResult[]>>;
 
 const { values } = parseArgs({ options: { suite: { type: 'string' } } });
@@ -27,7 +32,13 @@ if (suite !== undefined && !Object.hasOwn(SUITES, suite)) {
 }
 const results =
   suite === undefined
-    ? [...runBench(), ...runKernelBench(), ...(await runOracleBench()), ...(await runMemoryBench())]
+    ? [
+        ...runBench(),
+        ...runKernelBench(),
+        ...(await runOracleBench()),
+        ...(await runMemoryBench()),
+        ...runWireBench(),
+      ]
     : await SUITES[suite as keyof typeof SUITES]();
 process.stdout.write(`${JSON.stringify(benchReport(results), null, 2)}\n`);
 // Read the sink once, so that no engine can prove the measured results unused.
