@@ -1,15 +1,24 @@
-// The run the theory predicts, round by round, beside the one measured: the ideal round map
-// (round-map.ts: no compression, no drops, the plan's tau_i and step sizes, direct calls) iterated
-// from the run's own initial model, and f - f* of its model after each round. Where the run
-// injects nothing the two are the same arithmetic and agree to rounding; the gap between them is
-// what compression, stragglers and drops cost. The ideal run needs no affine map: logistic and
-// softmax runs have one too. Where a round is random (minibatches, partial participation) or its
-// tau_i change from round to round there is no single ideal run, and every value is null.
+// The run the theory predicts, round by round, beside the one measured: the ideal run (the plan's
+// ideal twin, ideal-plan.ts: no compression, every client in every round, and here no dropped
+// update either; the plan's tau_i and step sizes) walked by direct calls from the run's own
+// initial model, and f - f* of its model after each round. Where the run injects nothing the two
+// are the same arithmetic and agree to rounding; the gap between them is what compression,
+// stragglers and drops cost. The ideal run needs no affine map: logistic and softmax runs have
+// one too. Where a round is random (minibatches, partial participation) or its tau_i change from
+// round to round there is no single ideal run, and every value is null.
+//
+// The ideal run keeps its own runtimes (each client's method state once more; the data is
+// shared), so that a round costs one round of in-process work, with no state vector to flatten.
 
 import type { Objective } from '../problem/objective.js';
+import { ClientRuntime } from './client-runtime.js';
+import { DirectTransport } from './direct-transport.js';
 import { evaluateModel } from './evaluate.js';
-import { buildRoundMap, type PlanRoundMap } from './round-map.js';
+import { idealPlan } from './ideal-plan.js';
+import { walkRound, walkSetup, type WalkSetup } from './round-walk.js';
 import type { RunPlan } from './run-plan.js';
+import { ServerRuntime } from './server-runtime.js';
+import { driveSync } from './walk-transport.js';
 
 /** The oracle's solution the trajectory is measured against. */
 export interface TrajectoryOptimum {
@@ -45,10 +54,10 @@ export class PredictedTrajectory {
   private readonly initialModel: Float64Array;
   /** why there is no trajectory, or null */
   readonly blocker: string | null;
-  private roundMap: PlanRoundMap | null = null;
-  /** the state after round `stateRound` (1 after the map's own first round) */
-  private state: Float64Array | null = null;
-  private stateRound = 0;
+  /** the ideal run, walked up to `walkedRound` */
+  private ideal: { setup: WalkSetup; server: ServerRuntime; transport: DirectTransport } | null =
+    null;
+  private walkedRound = 0;
   /** set once the ideal run leaves the finite numbers: it stays there */
   private diverged = false;
 
@@ -70,25 +79,32 @@ export class PredictedTrajectory {
   /**
    * Predicted f - f* after `round` rounds (round 0: the initial model), or null where there is no
    * trajectory or the ideal run is no longer finite. Rounds asked in increasing order cost one
-   * round-map application each; an earlier round replays from the start.
+   * ideal round each; an earlier round replays from the start.
    */
   at(round: number): number | null {
     if (this.blocker !== null) return null;
-    if (round === 0) return this.suboptimalityOf(this.initialModel);
-    if (this.state === null || this.stateRound > round) {
-      this.roundMap ??= buildRoundMap(noDropsPlan(this.plan), this.objectives, this.initialModel);
-      this.state = this.roundMap.start;
-      this.stateRound = 1;
-      this.diverged = false;
+    if (this.ideal === null || this.walkedRound > round) this.restart();
+    const { setup, server, transport } = this.ideal!;
+    while (this.walkedRound < round && !this.diverged) {
+      const walked = driveSync(walkRound(setup, this.walkedRound + 1), transport);
+      this.walkedRound++;
+      // A non-finite update is never folded in: the ideal run stops being one.
+      if (walked.diverged) this.diverged = true;
     }
-    const roundMap = this.roundMap!;
-    while (this.stateRound < round && !this.diverged) {
-      this.state = roundMap.map(this.state);
-      this.stateRound++;
-      if (!this.state.every(Number.isFinite)) this.diverged = true;
-    }
-    if (this.diverged) return null;
-    return this.suboptimalityOf(roundMap.modelOf(this.state));
+    return this.diverged ? null : this.suboptimalityOf(server.model());
+  }
+
+  private restart(): void {
+    const plan = idealPlan(noDropsPlan(this.plan));
+    const server = new ServerRuntime(plan, this.initialModel);
+    const clients = this.objectives.map((objective, id) => new ClientRuntime(plan, id, objective));
+    this.ideal = {
+      setup: walkSetup(plan, server),
+      server,
+      transport: new DirectTransport(clients),
+    };
+    this.walkedRound = 0;
+    this.diverged = false;
   }
 
   private suboptimalityOf(model: Float64Array): number | null {

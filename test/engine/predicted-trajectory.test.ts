@@ -1,5 +1,5 @@
-// The predicted trajectory beside the measured one. The round map is the round walk itself over
-// the plan's ideal twin (src/engine/round-map.ts), so with nothing injected the trajectory the
+// The predicted trajectory beside the measured one. The ideal run is the round walk itself over
+// the plan's ideal twin (src/engine/ideal-plan.ts), so with nothing injected the trajectory the
 // theory predicts and the run's measured f - f* are the same arithmetic: asked to agree to 1e-9
 // relative at every round, on every bundled least-squares scenario and for every method, they
 // agree exactly. With compression injected the two part, and the gap is the compression's cost.
