@@ -4,6 +4,7 @@
 // Beyond loopback a key file is required; on loopback without one, the coordinator writes a
 // fresh key file and says where (key-file.ts).
 
+import { assertMemoryFits } from '../engine/memory-estimate.js';
 import { HANDSHAKE_LIMITS } from '../protocol/index.js';
 import type { Scenario } from '../scenario/schema.js';
 import type { RoundRecord } from '../engine/round-record.js';
@@ -106,6 +107,8 @@ export async function runCoordinatorCommand(
   metrics: MetricsServing | null = null,
   resume: Checkpoint | null = null,
 ): Promise<DistributedRunResult> {
+  // This process holds the problem twice (its main thread and its evaluation thread).
+  assertMemoryFits(scenario, 'coordinator');
   const address = parseHostPort(opts.listen)!;
   const source = keyFileSource(opts.keyFile, env);
   // Read before anything listens, so that a bad key file ends the command at once.

@@ -22,6 +22,7 @@ export const BAD_INPUT_CODES: ReadonlySet<string> = new Set([
   'E_SCENARIO_TWEAK',
   'E_SCENARIO_FILE',
   'E_SCENARIO_MEMORY',
+  'E_SCENARIO_RECORDS',
   // src/data
   'E_DATA_SPEC',
   'E_DATASET',

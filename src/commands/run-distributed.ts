@@ -11,6 +11,7 @@ import type { RoundRecord } from '../engine/round-record.js';
 import { resultFiles } from '../results/results-folder.js';
 import type { Checkpoint } from '../results/checkpoint-file.js';
 import { RunFiles } from './run-files.js';
+import { assertMemoryFits } from '../engine/memory-estimate.js';
 import { Coordinator, type CoordinatorOptions } from '../../server/coordinator.js';
 import { LocalWorker } from '../../server/local-workers.js';
 import { distributedDetails, engineOutcomeOf } from '../../server/results.js';
@@ -122,6 +123,8 @@ export async function runDistributed(
   metrics: MetricsServing | null = null,
   resume: Checkpoint | null = null,
 ): Promise<DistributedRunResult> {
+  // The coordinator and every local worker share this machine: all of them count.
+  assertMemoryFits(scenario, 'local-cluster');
   const workerCount = Math.min(scenario.run.workers, scenario.clients.count);
   const keyFile = writeFreshKeyFile();
   const files = new RunFiles(

@@ -65,8 +65,8 @@ async function clientConstantsOf(
 }
 
 export async function theoryReport(scenario: Scenario): Promise<TheoryReport> {
-  // The oracle builds every shard and dense Hessians: a scenario too large is refused first.
-  assertMemoryFits(scenario);
+  // The oracle builds every shard, and its pool a second copy: a scenario too large is refused first.
+  assertMemoryFits(scenario, 'theory');
   const t = theoryOf(scenario);
   const c = t.constants;
   const details = knownTheoryDetails(t) ?? theoryDetailsOf(t, await clientConstantsOf(scenario, t));

@@ -31,7 +31,7 @@ interface FullState {
 const MAP_ROUND = 1;
 
 /** Why no prediction is made for a plan, or null when the round map is affine and fixed. */
-export function predictionBlocker(plan: RunPlan): string | null {
+export function predictionBlocker(plan: Pick<RunPlan, 'scenario' | 'dim'>): string | null {
   const s = plan.scenario;
   if (s.problem.kind !== 'least-squares') return 'the objective is not quadratic';
   if (s.method.gradient !== 'full') return 'minibatch gradients make the round map random';

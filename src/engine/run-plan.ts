@@ -10,6 +10,7 @@ import { localStepsFor } from '../timing/local-steps.js';
 import { participantCount } from '../timing/participation.js';
 import { assertPolicyFitsRound } from '../timing/round-policy.js';
 import { assertMemoryFits } from './memory-estimate.js';
+import { assertRecordsFit } from './records-limit.js';
 
 export type { WirePlan };
 
@@ -47,7 +48,8 @@ export function methodConfigFor(scenario: Scenario, smoothness: number): MethodC
 /**
  * Refuses what the schema cannot see field by field, with exit code 2, before any work: both
  * runtimes plan through here, so they accept and refuse the same scenarios. That includes a
- * scenario too large for memory (memory-estimate.ts), refused before any shard is built.
+ * scenario too large for memory (memory-estimate.ts) or whose records could outgrow the disk
+ * (records-limit.ts), refused before any shard is built.
  */
 export function assertPlannable(scenario: Scenario): void {
   const { participation } = scenario.method;
@@ -57,6 +59,7 @@ export function assertPlannable(scenario: Scenario): void {
     perRound,
     `method.participation ${participation} of clients.count ${scenario.clients.count}`,
   );
+  assertRecordsFit(scenario);
   assertMemoryFits(scenario);
 }
 

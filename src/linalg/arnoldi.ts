@@ -62,7 +62,8 @@ export interface DominantEigenvalue {
   products: number;
 }
 
-const DEFAULT_KRYLOV_DIMENSION = 30;
+/** Basis vectors per cycle unless asked otherwise; the memory estimate counts them. */
+export const DEFAULT_KRYLOV_DIMENSION = 30;
 const DEFAULT_PRODUCTS_MAX = 2000;
 const DEFAULT_TOLERANCE = 1e-8;
 /**

@@ -32,7 +32,8 @@ export interface LanczosOptions {
 
 const EPSILON = Number.EPSILON;
 const DEFAULT_RELATIVE_TOLERANCE = 1e-13;
-const DEFAULT_ITERATIONS_MAX = 1000;
+/** Steps, and so basis vectors kept, unless asked otherwise; the memory estimate counts them. */
+export const DEFAULT_ITERATIONS_MAX = 1000;
 const DEFAULT_SEED = 0x5eed;
 /** Implicit QL needs a handful of sweeps per eigenvalue; more means a broken input. */
 const QL_SWEEPS_MAX = 60;

@@ -6,7 +6,9 @@ export type ScenarioErrorCode =
   | 'E_SCENARIO_TWEAK'
   | 'E_SCENARIO_FILE'
   /** the run the scenario describes would need more memory than RUN_MEMORY_MIB_MAX */
-  | 'E_SCENARIO_MEMORY';
+  | 'E_SCENARIO_MEMORY'
+  /** the run could write more client records than CLIENT_RECORDS_MAX */
+  | 'E_SCENARIO_RECORDS';
 
 export class ScenarioError extends Error {
   readonly code: ScenarioErrorCode;

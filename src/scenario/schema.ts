@@ -9,16 +9,58 @@ const nonNegative = z.number().nonnegative();
 const positive = z.number().positive();
 const probability = z.number().min(0).max(1);
 
-/** A count per client: one integer for all, a list (one per client), or a seeded uniform range. */
-export const countSpec = z.union([
-  positiveInt,
-  z.array(positiveInt).min(1),
-  z
-    .object({ uniform: z.tuple([positiveInt, positiveInt]) })
-    .strict()
-    .refine((u) => u.uniform[0] <= u.uniform[1], { message: 'uniform: min must not exceed max' }),
-]);
-export type CountSpec = z.infer<typeof countSpec>;
+/**
+ * The limits of single fields that sizes and work follow from. Each is a limit that works:
+ * README.md, "Limits", gives the memory each implies. Products of sizes (samples x features, the
+ * state a prediction walks, rounds x clients for the records) are bounded where they are known,
+ * by the memory estimate and the records limit (src/engine).
+ */
+export const SCENARIO_LIMITS = {
+  /** data.features; least squares at d = 100,000 runs in a few hundred MiB with few samples */
+  featuresMax: 100_000,
+  /** the model's dimension: features, times classes for softmax */
+  dimensionMax: 100_000,
+  /** softmax classes */
+  classesMax: 1000,
+  /** clients.count; the welcome carries per-client lists of this length within its 4 MiB */
+  clientsMax: 10_000,
+  /** n_i of one client: its shard is a row matrix of n_i x features */
+  samplesPerClientMax: 1_000_000,
+  /** tau_i, and the deadline policy's stepsMax: a round's work per client */
+  localStepsMax: 100_000,
+  /** run.rounds */
+  roundsMax: 1_000_000,
+  /** run.workers */
+  workersMax: 256,
+} as const;
+
+/**
+ * A count per client: one integer for all, a list (one per client), or a seeded uniform range;
+ * every count at most `max` (named `what` in the refusal).
+ */
+function countSpecUpTo(max: number, what: string) {
+  return z
+    .union([
+      positiveInt,
+      z.array(positiveInt).min(1),
+      z
+        .object({ uniform: z.tuple([positiveInt, positiveInt]) })
+        .strict()
+        .refine((u) => u.uniform[0] <= u.uniform[1], {
+          message: 'uniform: min must not exceed max',
+        }),
+    ])
+    .superRefine((spec, ctx) => {
+      const counts = typeof spec === 'number' ? [spec] : Array.isArray(spec) ? spec : spec.uniform;
+      const largest = Math.max(...counts);
+      if (largest > max)
+        ctx.addIssue({
+          code: 'custom',
+          message: `${largest} ${what} is above the limit of ${max}`,
+        });
+    });
+}
+export type CountSpec = z.infer<ReturnType<typeof countSpecUpTo>>;
 
 export const problemSchema = z
   .object({
@@ -26,7 +68,7 @@ export const problemSchema = z
     /** lambda of the L2 term (lambda/2)||x||^2 */
     regularization: nonNegative.default(1e-3),
     /** softmax: number of classes */
-    classes: z.number().int().min(2).max(1000).default(3),
+    classes: z.number().int().min(2).max(SCENARIO_LIMITS.classesMax).default(3),
   })
   .strict();
 
@@ -40,9 +82,9 @@ export const partitionSchema = z.discriminatedUnion('kind', [
 export const syntheticDataSchema = z
   .object({
     source: z.literal('synthetic'),
-    features: positiveInt.max(100_000).default(20),
+    features: positiveInt.max(SCENARIO_LIMITS.featuresMax).default(20),
     /** samples per client: quantity skew comes from a list or a range */
-    samplesPerClient: countSpec.default(100),
+    samplesPerClient: countSpecUpTo(SCENARIO_LIMITS.samplesPerClientMax, 'samples').default(100),
     /** spread of the clients' own minimizers around a common centre; 0 gives one common minimizer */
     minimizerSpread: nonNegative.default(0),
     /** condition number of the feature covariance (1 = isotropic) */
@@ -71,7 +113,7 @@ export const dataSchema = z.discriminatedUnion('source', [syntheticDataSchema, d
 
 export const clientsSchema = z
   .object({
-    count: positiveInt.max(10_000),
+    count: positiveInt.max(SCENARIO_LIMITS.clientsMax),
     /** p_i: by sample count (n_i/n) or uniform (1/m) */
     weights: z.enum(['samples', 'uniform']).default('samples'),
   })
@@ -86,7 +128,7 @@ export const methodSchema = z
   .object({
     name: z.enum(['gd', 'fedavg', 'fedprox', 'fednova', 'scaffold', 'fedlin', 'fedsplit']),
     /** tau_i: one count, one per client, or a seeded range */
-    localSteps: countSpec.default(1),
+    localSteps: countSpecUpTo(SCENARIO_LIMITS.localStepsMax, 'local steps').default(1),
     /** local step size eta; 'auto' uses 1/L of the global objective */
     stepSize: z.union([positive, z.literal('auto')]).default('auto'),
     /** fixed eta, or eta/tau_i */
@@ -171,7 +213,7 @@ export const roundPolicySchema = z.discriminatedUnion('kind', [
     .object({
       kind: z.literal('deadline'),
       budgetSeconds: positive,
-      stepsMax: positiveInt.max(100_000).default(1000),
+      stepsMax: positiveInt.max(SCENARIO_LIMITS.localStepsMax).default(1000),
     })
     .strict(),
   z.object({ kind: z.literal('fastest-k'), k: positiveInt }).strict(),
@@ -209,11 +251,11 @@ export const timingSchema = z
 
 export const runSchema = z
   .object({
-    rounds: positiveInt.max(1_000_000),
+    rounds: positiveInt.max(SCENARIO_LIMITS.roundsMax),
     /** stop once f(x) - f* is at or below this */
     target: nonNegative.default(0),
     /** worker processes for the distributed runtime */
-    workers: positiveInt.max(256).default(2),
+    workers: positiveInt.max(SCENARIO_LIMITS.workersMax).default(2),
     /** evaluate f(x) - f* every this many rounds */
     evalEvery: positiveInt.default(1),
     /**
@@ -322,7 +364,18 @@ export const scenarioSchema = z
      */
     ladders: z.array(ladderSchema).max(ladderLimits.laddersMax).optional(),
   })
-  .strict();
+  .strict()
+  .superRefine((scenario, ctx) => {
+    // Softmax learns one weight vector per class: its dimension is a product of two fields.
+    if (scenario.problem.kind !== 'softmax' || scenario.data.source !== 'synthetic') return;
+    const dim = scenario.problem.classes * scenario.data.features;
+    if (dim > SCENARIO_LIMITS.dimensionMax)
+      ctx.addIssue({
+        code: 'custom',
+        path: ['problem', 'classes'],
+        message: `${scenario.problem.classes} classes x ${scenario.data.features} features is a model of dimension ${dim}, above the limit of ${SCENARIO_LIMITS.dimensionMax}`,
+      });
+  });
 
 /** What a user writes (defaults optional). */
 export type ScenarioInput = z.input<typeof scenarioSchema>;

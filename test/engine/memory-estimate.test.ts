@@ -20,6 +20,12 @@ import { DirectTransport } from '../../src/engine/direct-transport.js';
 import { walkRound, walkSetup } from '../../src/engine/round-walk.js';
 import { driveSync } from '../../src/engine/walk-transport.js';
 import { codeOf } from '../support/error-code.js';
+import { DEFAULT_ITERATIONS_MAX as LANCZOS_STEPS_MAX } from '../../src/linalg/spectrum.js';
+import {
+  PREDICTION_STATE_ENTRIES_MAX,
+  PREDICTION_WORKING_VECTORS,
+} from '../../src/engine/predict-run.js';
+import { stateVectorsPerDimension } from '../../src/engine/method-state-size.js';
 import { runCli } from '../cli/run-cli.js';
 
 /** V8's collector, so that the measurement counts live memory, not garbage (Node's own docs for v8.setFlagsFromString). */
@@ -101,10 +107,67 @@ describe('memory estimate at load', () => {
     const held = process.memoryUsage().arrayBuffers + kernelRegionBytesAllocated() - before;
     // Whether the shards are collected by now depends on the engine's collector: the held memory
     // lies between the estimate's steady part and that part plus the shards.
-    const steady = estimate.totalBytes - estimate.parts.oracle - estimate.parts.data;
+    const p = estimate.parts;
+    const steady = p.kernels + p.clients + p.server + p.messages;
     // Common practice for an order-of-magnitude guard: a factor of 2 either way.
     expect(held).toBeGreaterThan(steady / 2);
-    expect(held).toBeLessThan((steady + estimate.parts.data) * 2);
+    expect(held).toBeLessThan((steady + p.data) * 2);
     expect(clients).toHaveLength(40);
+  });
+});
+
+describe('memory estimate at d = 20,000 (scenarios/wide-least-squares.yaml)', () => {
+  // The scenario's own sizes (invented demo numbers): 8 clients x 500 samples, 20,000 features,
+  // FedAvg, 2 local workers. Each part follows the file comment of memory-estimate.ts.
+  const wide = scenarioFromText(
+    readFileSync('scenarios/wide-least-squares.yaml', 'utf8'),
+    'wide-least-squares.yaml',
+  );
+  const estimate = estimateRunMemory(wide);
+  const d = 20_000;
+  const samples = 8 * 500;
+  const mib = 2 ** 20;
+
+  it('counts X and its kernel copy, one Lanczos basis of the rank plus one, and the prediction', () => {
+    const p = estimate.parts;
+    expect(estimate.dim).toBe(d);
+    expect(p.data).toBe(samples * (d + 1) * 8);
+    expect(p.kernels).toBe(samples * d * 8);
+    // Fewer samples than features: Lanczos on the data's Hessian ends within rank + 1 steps,
+    // capped by its step limit (1000 here, below 4001).
+    expect(p.oracle).toBe(Math.min(samples + 1, LANCZOS_STEPS_MAX) * d * 8);
+    // No d x d matrix anywhere: the oracle's part is far below one (3.2 GB at d = 20,000).
+    expect(p.oracle).toBeLessThan(d * d * 8);
+    const vectors = stateVectorsPerDimension(wide);
+    const entries = (vectors.server + 8 * vectors.client) * d;
+    expect(estimate.predictionStateEntries).toBe(entries);
+    expect(entries).toBeLessThanOrEqual(PREDICTION_STATE_ENTRIES_MAX);
+    expect(p.prediction).toBe(PREDICTION_WORKING_VECTORS * entries * 8);
+  });
+
+  it('fits one process and the local cluster (coordinator and 2 workers) within the limit', () => {
+    expect(estimate.workerCount).toBe(2);
+    // A worker hosts 4 clients: their shards while built, the kernel copy, states and messages.
+    expect(estimate.workerBytes).toBeGreaterThan(4 * 500 * (2 * d + 1) * 8);
+    expect(estimate.coordinatorBytes).toBeGreaterThan(estimate.totalBytes);
+    expect(estimate.localClusterBytes).toBe(estimate.coordinatorBytes + 2 * estimate.workerBytes);
+    expect(estimate.localClusterBytes).toBeLessThan(RUN_MEMORY_MIB_MAX * mib);
+    for (const layout of ['one-process', 'theory', 'coordinator', 'local-cluster'] as const)
+      expect(() => assertMemoryFits(wide, layout)).not.toThrow();
+  });
+
+  it('refuses twice the samples on the local cluster, though one process would hold them', () => {
+    const doubled = scenarioFromText(
+      readFileSync('scenarios/wide-least-squares.yaml', 'utf8'),
+      'wide-least-squares.yaml',
+      ['data.samplesPerClient:1000'],
+    );
+    expect(() => assertMemoryFits(doubled, 'one-process')).not.toThrow();
+    expect(codeOf(() => assertMemoryFits(doubled, 'local-cluster'), ScenarioError)).toBe(
+      'E_SCENARIO_MEMORY',
+    );
+    expect(() => assertMemoryFits(doubled, 'local-cluster')).toThrow(
+      /^the run would need an estimated \d+\.\d MiB of memory \(coordinator .* and 2 local workers of up to \d+\.\d MiB each for clients.count 8, model dimension 20000\), above the limit of 4096 MiB$/,
+    );
   });
 });
