@@ -12,6 +12,8 @@
 //             compressed), and the downlink's replicas at both ends when the downlink is compressed
 //   server    the method's server state
 //   messages  one exchange's downs and ups, dense, for the clients of one round
+//   trajectory the predicted trajectory's ideal run (predicted-trajectory.ts): every client's
+//             method state and the server's once more, where the scenario has one
 // and, one after another, never together:
 //   data       every client's shard, n_i samples x p features plus the targets, while the problem
 //              is built (a pooled layout, labels partitioned non-iid or a data set, holds the pool
@@ -48,6 +50,7 @@ import { FIXED_POINT_DIMENSION_MAX, FIXED_POINT_KRYLOV_MAX } from '../theory/fix
 import { stateVectorsPerDimension } from './method-state-size.js';
 import { PREDICTION_STATE_ENTRIES_MAX, PREDICTION_WORKING_VECTORS } from './predict-run.js';
 import { predictionBlocker } from './round-map.js';
+import { trajectoryBlocker } from './trajectory-blocker.js';
 
 /**
  * The most memory a scenario may need, in MiB (4 GiB): several times any bundled scenario and
@@ -84,6 +87,7 @@ export interface MemoryEstimate {
     clients: number;
     server: number;
     messages: number;
+    trajectory: number;
   };
   /** entries of the state the prediction's round map walks (0 when no prediction is made) */
   predictionStateEntries: number;
@@ -189,6 +193,10 @@ export function estimateRunMemory(scenario: Scenario): MemoryEstimate {
     clients: clientCount * perClientVectors * dim,
     server: vectors.server * dim,
     messages: 2 * perRound * dim,
+    trajectory:
+      trajectoryBlocker(scenario) === null
+        ? (vectors.server + clientCount * vectors.client) * dim
+        : 0,
   };
   const parts = {
     data: values.data * FLOAT64_BYTES,
@@ -198,8 +206,9 @@ export function estimateRunMemory(scenario: Scenario): MemoryEstimate {
     clients: values.clients * FLOAT64_BYTES,
     server: values.server * FLOAT64_BYTES,
     messages: values.messages * FLOAT64_BYTES,
+    trajectory: values.trajectory * FLOAT64_BYTES,
   };
-  const kept = parts.kernels + parts.clients + parts.server + parts.messages;
+  const kept = parts.kernels + parts.clients + parts.server + parts.messages + parts.trajectory;
   const totalBytes = kept + Math.max(parts.data, parts.oracle, parts.prediction);
 
   // The Hessian at x* of logistic and softmax, by Lanczos on d, and the pool's copy of the shards
@@ -240,7 +249,7 @@ function mib(bytes: number): string {
 /** The estimate for the processes a layout starts, and what it is made of, for the refusal. */
 function layoutBytes(estimate: MemoryEstimate, layout: MemoryLayout): [number, string] {
   const p = estimate.parts;
-  const one = `data ${mib(p.data)}, kernel copy ${mib(p.kernels)}, oracle ${mib(p.oracle)}, prediction ${mib(p.prediction)}, client states ${mib(p.clients)}, server ${mib(p.server)}, messages ${mib(p.messages)} MiB`;
+  const one = `data ${mib(p.data)}, kernel copy ${mib(p.kernels)}, oracle ${mib(p.oracle)}, prediction ${mib(p.prediction)}, client states ${mib(p.clients)}, server ${mib(p.server)}, messages ${mib(p.messages)}, predicted trajectory ${mib(p.trajectory)} MiB`;
   switch (layout) {
     case 'one-process':
       return [estimate.totalBytes, one];

@@ -19,24 +19,12 @@ import { walkRound, walkSetup, type WalkSetup } from './round-walk.js';
 import type { RunPlan } from './run-plan.js';
 import { ServerRuntime } from './server-runtime.js';
 import { driveSync } from './walk-transport.js';
+import { trajectoryBlocker } from './trajectory-blocker.js';
 
 /** The oracle's solution the trajectory is measured against. */
 export interface TrajectoryOptimum {
   x: Float64Array;
   loss: number;
-}
-
-/** Why a plan has no single ideal run, or null. */
-export function trajectoryBlocker(plan: RunPlan): string | null {
-  const s = plan.scenario;
-  if (s.method.gradient !== 'full') return 'minibatch gradients make every round random';
-  if (s.method.participation < 1) return 'partial participation makes every round random';
-  if (
-    s.timing.policy.kind === 'deadline' &&
-    (s.timing.jitter > 0 || s.timing.transient.probability > 0)
-  )
-    return 'a deadline with jitter changes tau_i every round';
-  return null;
 }
 
 /** The plan the ideal run follows: round-map.ts drops compression; here no update is dropped either. */
@@ -73,7 +61,7 @@ export class PredictedTrajectory {
     this.global = global;
     this.optimum = optimum;
     this.initialModel = initialModel;
-    this.blocker = trajectoryBlocker(plan);
+    this.blocker = trajectoryBlocker(plan.scenario);
   }
 
   /**
