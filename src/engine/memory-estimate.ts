@@ -12,7 +12,9 @@
 //   oracle    up to DENSE_DIMENSION_FASTER_MAX (src/theory/oracle.ts) the dense d x d Hessian,
 //             its Cholesky factor and, for Newton's method, a shifted copy: three d x d matrices
 //             at once; above it the matrix-free route, whose largest holding is a Krylov basis
-//             (at most LANCZOS_BASIS_MAX vectors of d, src/linalg/spectrum.ts's iteration cap)
+//             (at most LANCZOS_BASIS_MAX vectors of d, src/linalg/spectrum.ts's iteration cap);
+//             for least squares with at least as many samples as features, plus the formed
+//             d x d Hessian the global objective keeps (src/problem/formed-gram.ts)
 //   clients   each client's method state (measured: the method's initClient at dimension 1
 //             gives its vectors per dimension) plus its compression state: per exchange, the
 //             uplink's error-feedback memory (and its working copy when compressed), and the
@@ -31,6 +33,7 @@ import { parameterDimension } from '../data/synthetic-models.js';
 import { participantCount } from '../timing/participation.js';
 import { stateLength } from './state-vector.js';
 import { DENSE_DIMENSION_FASTER_MAX } from '../theory/oracle.js';
+import { formedGramPays, formedGramValues } from '../problem/formed-gram.js';
 
 /** Vectors a Krylov basis of the matrix-free oracle may hold (spectrum.ts's iteration cap). */
 const LANCZOS_BASIS_MAX = 1000;
@@ -107,7 +110,10 @@ export function estimateRunMemory(scenario: Scenario): MemoryEstimate {
   const values = {
     data: (pooled ? 2 : 1) * samples * (features + 1),
     oracle:
-      dim <= DENSE_DIMENSION_FASTER_MAX ? 3 * dim * dim : Math.min(dim, LANCZOS_BASIS_MAX) * dim,
+      (dim <= DENSE_DIMENSION_FASTER_MAX ? 3 * dim * dim : Math.min(dim, LANCZOS_BASIS_MAX) * dim) +
+      (scenario.problem.kind === 'least-squares' && formedGramPays(samples, dim)
+        ? formedGramValues(dim)
+        : 0),
     clients: clientCount * (vectors.client + uplinkVectors + downlinkVectors) * dim,
     server: vectors.server * dim,
     messages: 2 * perRound * dim,

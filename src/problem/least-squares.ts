@@ -8,7 +8,7 @@
 import type { Shard } from './shard.js';
 import { axpy, normSquared, scale } from '../vec/kernels.js';
 import { RowMatrix } from '../vec/row-matrix.js';
-import { gramExtremeEigenvalues, type GramExtremes } from './gram-spectrum.js';
+import { gramExtremeEigenvalues, rowGram, type GramExtremes } from './gram-spectrum.js';
 import type { Objective } from './objective.js';
 import type { SymmetricOperator } from '../linalg/spectrum.js';
 import { assertLength } from './problem-error.js';
@@ -111,8 +111,13 @@ export class LeastSquaresObjective implements Objective {
     return this.gramExtremes().smallest + this.regularization;
   }
 
+  /** A A^T / n, n x n row-major, on the row kernels: the dual system of a solve when n < p. */
+  rowGram(): Float64Array {
+    return rowGram(this.matrix);
+  }
+
   private gramExtremes(): GramExtremes {
-    this.gram ??= gramExtremeEigenvalues(this.shard);
+    this.gram ??= gramExtremeEigenvalues(this.matrix);
     return this.gram;
   }
 }

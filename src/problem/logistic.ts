@@ -155,7 +155,7 @@ export class LogisticObjective implements Objective {
 
   /** lambda_max(A^T A / n)/4 + lambda, attained by the Hessian at x = 0. */
   smoothnessBound(): number {
-    this.gramLargest ??= gramLargestEigenvalue(this.shard);
+    this.gramLargest ??= gramLargestEigenvalue(this.matrix);
     return this.gramLargest / 4 + this.regularization;
   }
 
