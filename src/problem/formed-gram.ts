@@ -4,10 +4,12 @@
 // a matrix-free product costs 2 n d streamed from the data. The global problem's extreme
 // eigenvalues to the Lanczos tolerance, then the oracle's conjugate gradients, take a few hundred
 // products: measured on 1,000 clients x 20 samples at d = 1,000 (CPU seconds, the shared 2-core
-// EPYC under load), 207 Lanczos products took 11.3 s through the data, while forming took 2.2 s and
-// the same Lanczos on the formed matrix 0.2 s. So the matrix is formed when there are at least as
-// many samples as features (below that, the data part's smallest eigenvalue is 0 and Lanczos only
-// seeks the largest, a few dozen products), up to a dimension whose matrix is cheap to hold.
+// EPYC under load), the 207 Lanczos products took 7.1 s through the data, while forming took
+// 2.4 s and the same Lanczos on the formed matrix 0.5 s; at d = 2,000 with 2 clients x 2,000
+// samples, L, mu and x* took 7.4 s formed against 10.3 s through the data. So the matrix is
+// formed when there are at least as many samples as features (below that, the data part's
+// smallest eigenvalue is 0 and Lanczos only seeks the largest, a few dozen products), up to a
+// dimension whose matrix is cheap to hold.
 
 import { GRAM_PANEL_ROWS } from '../vec/gram-matrix.js';
 

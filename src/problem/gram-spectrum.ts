@@ -30,11 +30,9 @@ export const ROW_GRAM_SAMPLES_MAX = 64;
 /** v -> A^T (A v) / n on R^p. */
 function primalGram(matrix: RowMatrix): SymmetricOperator {
   const n = matrix.rowCount;
-  const projected = new Float64Array(n);
   return (v, out) => {
-    matrix.rowDots(v, 0, null, projected);
     out.fill(0);
-    matrix.rowCombine(projected, null, out, 0);
+    matrix.projectCombine(v, null, out);
     scale(1 / n, out);
   };
 }

@@ -22,8 +22,6 @@ export class LeastSquaresObjective implements Objective {
   /** the data, for solves that use its shape (the oracle's dual solve when n < p); its arrays are the kernel memory's */
   readonly shard: Shard;
   private readonly matrix: RowMatrix;
-  /** a_s . v for every sample: Hessian-vector scratch */
-  private readonly projections: Float64Array;
   private gram: GramExtremes | null = null;
 
   constructor(shard: Shard, regularization: number) {
@@ -36,7 +34,6 @@ export class LeastSquaresObjective implements Objective {
       shard.targets,
     );
     this.shard = { ...shard, features: this.matrix.values, targets: this.matrix.rowValues };
-    this.projections = new Float64Array(shard.sampleCount);
     this.dim = shard.featureCount;
     this.sampleCount = shard.sampleCount;
     this.regularization = regularization;
@@ -88,9 +85,8 @@ export class LeastSquaresObjective implements Objective {
     assertLength('x', x, this.dim);
     assertLength('v', v, this.dim);
     assertLength('out', out, this.dim);
-    this.matrix.rowDots(v, 0, null, this.projections);
     out.fill(0);
-    this.matrix.rowCombine(this.projections, null, out, 0);
+    this.matrix.projectCombine(v, null, out);
     scale(1 / this.sampleCount, out);
     axpy(this.regularization, v, out);
   }

@@ -316,6 +316,47 @@ function rowCombineFunction(): WasmFunction {
 }
 
 /**
+ * rowProjectCombine(A, d, rows, count, c, x, out): for each listed row s in order (t its place in
+ * the list), out <- out + (c_t (a_s . x)) a_s: a Hessian-vector product's two sums in one pass
+ * over each row, with the bits of rowDots followed by rowCombine with weights c_t z_t.
+ */
+// prettier-ignore
+function rowProjectCombineFunction(): WasmFunction {
+  const [a, d, rows, count, c, x, out] = [0, 1, 2, 3, 4, 5, 6];
+  const walk: RowWalk = { a, d, rows, count, t: 7, end: 8, pairsEnd: 9, row0: 10, row1: 11 };
+  const pc = 12;
+  const [w0, w1] = [13, 14];
+  return {
+    exportName: 'rowProjectCombine',
+    params: [I32, I32, I32, I32, I32, I32, I32],
+    results: [],
+    locals: [...walkLocals, I32, F64, F64],
+    code: [
+      ...get(c), ...set(pc),
+      ...walkRows(
+        walk,
+        [
+          ...get(walk.row0), ...get(walk.row1), ...get(x), ...get(d), op.call, DOT2,
+          ...set(w1), ...set(w0),
+          ...get(pc), ...f64Load, ...get(w0), op.f64Mul, ...set(w0),
+          ...get(pc), op.f64Load, 3, 8, ...get(w1), op.f64Mul, ...set(w1),
+          ...get(w0), ...get(w1), ...get(walk.row0), ...get(walk.row1), ...get(out), ...get(d), op.call, AXPY2,
+        ],
+        [
+          ...get(walk.row0), ...get(x), ...get(d), op.call, DOT, ...set(w0),
+          ...get(pc), ...f64Load, ...get(w0), op.f64Mul, ...set(w0),
+          ...get(w0), ...get(walk.row0), ...get(out), ...get(d), op.call, AXPY,
+        ],
+        {
+          pair: [...get(pc), ...i32(16), op.i32Add, ...set(pc)],
+          single: [...get(pc), ...i32(8), op.i32Add, ...set(pc)],
+        },
+      ),
+    ],
+  };
+}
+
+/**
  * gramUpper(q, s, w, d, g): g_jk <- g_jk + q_k . w_j for every j in [0, d) and k in [j, d), where
  * q and w hold d rows of s entries each (a panel of s data rows, transposed: row j of q is the
  * panel's column j, row j of w the same column times each data row's weight) and g is d x d,
@@ -391,6 +432,7 @@ export function rowKernelsModuleBytes(): Uint8Array {
     rowDotsFunction(),
     rowCombineFunction(),
     gramUpperFunction(),
+    rowProjectCombineFunction(),
   ]);
 }
 
@@ -407,4 +449,13 @@ export interface RowKernelExports {
   rowDots(a: number, d: number, rows: number, count: number, x: number, z: number): void;
   rowCombine(a: number, d: number, rows: number, count: number, w: number, out: number): void;
   gramUpper(q: number, s: number, w: number, d: number, g: number): void;
+  rowProjectCombine(
+    a: number,
+    d: number,
+    rows: number,
+    count: number,
+    c: number,
+    x: number,
+    out: number,
+  ): void;
 }
