@@ -11,6 +11,9 @@
 //             exchange, the uplink's error-feedback memory (and its working copy when
 //             compressed), and the downlink's replicas at both ends when the downlink is compressed
 //   server    the method's server state
+//   formed    for least squares with at least as many samples as features (up to a dimension,
+//             src/problem/formed-gram.ts), the d x d Hessian the global objective forms once and
+//             keeps
 //   messages  one exchange's downs and ups, dense, for the clients of one round
 //   trajectory the predicted trajectory's ideal run (predicted-trajectory.ts): every client's
 //             method state and the server's once more, where the scenario has one
@@ -51,6 +54,7 @@ import { stateVectorsPerDimension } from './method-state-size.js';
 import { PREDICTION_STATE_ENTRIES_MAX, PREDICTION_WORKING_VECTORS } from './predict-run.js';
 import { predictionBlocker } from './round-map.js';
 import { trajectoryBlocker } from './trajectory-blocker.js';
+import { formedGramPays, formedGramValues } from '../problem/formed-gram.js';
 
 /**
  * The most memory a scenario may need, in MiB (4 GiB): several times any bundled scenario and
@@ -87,6 +91,7 @@ export interface MemoryEstimate {
     clients: number;
     server: number;
     messages: number;
+    formed: number;
     trajectory: number;
   };
   /** entries of the state the prediction's round map walks (0 when no prediction is made) */
@@ -193,6 +198,7 @@ export function estimateRunMemory(scenario: Scenario): MemoryEstimate {
     clients: clientCount * perClientVectors * dim,
     server: vectors.server * dim,
     messages: 2 * perRound * dim,
+    formed: kind === 'least-squares' && formedGramPays(samples, dim) ? formedGramValues(dim) : 0,
     trajectory:
       trajectoryBlocker(scenario) === null
         ? (vectors.server + clientCount * vectors.client) * dim
@@ -206,9 +212,11 @@ export function estimateRunMemory(scenario: Scenario): MemoryEstimate {
     clients: values.clients * FLOAT64_BYTES,
     server: values.server * FLOAT64_BYTES,
     messages: values.messages * FLOAT64_BYTES,
+    formed: values.formed * FLOAT64_BYTES,
     trajectory: values.trajectory * FLOAT64_BYTES,
   };
-  const kept = parts.kernels + parts.clients + parts.server + parts.messages + parts.trajectory;
+  const kept =
+    parts.kernels + parts.formed + parts.clients + parts.server + parts.messages + parts.trajectory;
   const totalBytes = kept + Math.max(parts.data, parts.oracle, parts.prediction);
 
   // The Hessian at x* of logistic and softmax, by Lanczos on d, and the pool's copy of the shards
@@ -249,7 +257,7 @@ function mib(bytes: number): string {
 /** The estimate for the processes a layout starts, and what it is made of, for the refusal. */
 function layoutBytes(estimate: MemoryEstimate, layout: MemoryLayout): [number, string] {
   const p = estimate.parts;
-  const one = `data ${mib(p.data)}, kernel copy ${mib(p.kernels)}, oracle ${mib(p.oracle)}, prediction ${mib(p.prediction)}, client states ${mib(p.clients)}, server ${mib(p.server)}, messages ${mib(p.messages)}, predicted trajectory ${mib(p.trajectory)} MiB`;
+  const one = `data ${mib(p.data)}, kernel copy ${mib(p.kernels)}, formed Hessian ${mib(p.formed)}, oracle ${mib(p.oracle)}, prediction ${mib(p.prediction)}, client states ${mib(p.clients)}, server ${mib(p.server)}, messages ${mib(p.messages)}, predicted trajectory ${mib(p.trajectory)} MiB`;
   switch (layout) {
     case 'one-process':
       return [estimate.totalBytes, one];

@@ -8,7 +8,7 @@
 import type { Shard } from './shard.js';
 import { axpy, normSquared, scale } from '../vec/kernels.js';
 import { RowMatrix } from '../vec/row-matrix.js';
-import { gramExtremeEigenvalues, type GramExtremes } from './gram-spectrum.js';
+import { gramExtremeEigenvalues, rowGram, type GramExtremes } from './gram-spectrum.js';
 import type { Objective } from './objective.js';
 import type { SymmetricOperator } from '../linalg/spectrum.js';
 import { assertLength } from './problem-error.js';
@@ -22,8 +22,6 @@ export class LeastSquaresObjective implements Objective {
   /** the data, for solves that use its shape (the oracle's dual solve when n < p); its arrays are the kernel memory's */
   readonly shard: Shard;
   private readonly matrix: RowMatrix;
-  /** a_s . v for every sample: Hessian-vector scratch */
-  private readonly projections: Float64Array;
   private gram: GramExtremes | null = null;
 
   constructor(shard: Shard, regularization: number) {
@@ -36,7 +34,6 @@ export class LeastSquaresObjective implements Objective {
       shard.targets,
     );
     this.shard = { ...shard, features: this.matrix.values, targets: this.matrix.rowValues };
-    this.projections = new Float64Array(shard.sampleCount);
     this.dim = shard.featureCount;
     this.sampleCount = shard.sampleCount;
     this.regularization = regularization;
@@ -88,9 +85,8 @@ export class LeastSquaresObjective implements Objective {
     assertLength('x', x, this.dim);
     assertLength('v', v, this.dim);
     assertLength('out', out, this.dim);
-    this.matrix.rowDots(v, 0, null, this.projections);
     out.fill(0);
-    this.matrix.rowCombine(this.projections, null, out, 0);
+    this.matrix.projectCombine(v, null, out);
     scale(1 / this.sampleCount, out);
     axpy(this.regularization, v, out);
   }
@@ -111,8 +107,13 @@ export class LeastSquaresObjective implements Objective {
     return this.gramExtremes().smallest + this.regularization;
   }
 
+  /** A A^T / n, n x n row-major, on the row kernels: the dual system of a solve when n < p. */
+  rowGram(): Float64Array {
+    return rowGram(this.matrix);
+  }
+
   private gramExtremes(): GramExtremes {
-    this.gram ??= gramExtremeEigenvalues(this.shard);
+    this.gram ??= gramExtremeEigenvalues(this.matrix);
     return this.gram;
   }
 }

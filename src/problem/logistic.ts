@@ -140,14 +140,11 @@ export class LogisticObjective implements Objective {
       const sig = sigmoid(curvature[s]);
       curvature[s] = sig * (1 - sig);
     }
-    const weights = new Float64Array(n);
     return (v, out) => {
       assertLength('v', v, p);
       assertLength('out', out, p);
-      this.matrix.rowDots(v, 0, null, weights);
-      for (let s = 0; s < n; s++) weights[s] = curvature[s] * weights[s];
       out.fill(0);
-      this.matrix.rowCombine(weights, null, out, 0);
+      this.matrix.projectCombine(v, curvature, out);
       scale(1 / n, out);
       axpy(this.regularization, v, out);
     };
@@ -155,7 +152,7 @@ export class LogisticObjective implements Objective {
 
   /** lambda_max(A^T A / n)/4 + lambda, attained by the Hessian at x = 0. */
   smoothnessBound(): number {
-    this.gramLargest ??= gramLargestEigenvalue(this.shard);
+    this.gramLargest ??= gramLargestEigenvalue(this.matrix);
     return this.gramLargest / 4 + this.regularization;
   }
 

@@ -26,6 +26,12 @@ export interface Objective {
    * Optional: without it, callers use hessianVector.
    */
   hessianOperator?(x: Float64Array): SymmetricOperator;
+  /**
+   * Quadratics only: v -> H v through the Hessian formed as a matrix, where forming it pays
+   * (formed-gram.ts); equal to hessianVector to rounding, not bit for bit, so it serves solvers
+   * whose certificate is recomputed from the data. Absent or null: there is none.
+   */
+  formedHessian?(): SymmetricOperator | null;
   /** An upper bound on the largest Hessian eigenvalue over all x (exact for least squares). */
   smoothnessBound(): number;
   /** A lower bound on the smallest Hessian eigenvalue over all x (exact for least squares). */

@@ -246,7 +246,7 @@ export class SoftmaxObjective implements Objective {
 
   /** Böhning's bound: lambda_max(A^T A / n)/2 + lambda. */
   smoothnessBound(): number {
-    this.gramLargest ??= gramLargestEigenvalue(this.shard);
+    this.gramLargest ??= gramLargestEigenvalue(this.matrix);
     return this.gramLargest / 2 + this.regularization;
   }
 

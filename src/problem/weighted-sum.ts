@@ -2,7 +2,9 @@
 // so that the oracle, the step-size rule and the evaluation of f(x) - f* need no special case.
 // Loss, gradient and Hessian-vector product are the weighted sums of the clients'. The curvature
 // bounds are weighted sums of the clients' bounds, except for least squares, where the interface
-// promises exact values: there the Hessian is constant and its extremes are computed directly.
+// promises exact values: there the Hessian is constant and its extremes are computed directly,
+// on its data part formed once as a matrix where that pays (formed-gram.ts), which the oracle's
+// solve then applies too (formedHessian).
 
 import {
   largestEigenvalue,
@@ -10,7 +12,10 @@ import {
   type SymmetricOperator,
 } from '../linalg/spectrum.js';
 import { axpy, zero } from '../vec/kernels.js';
+import { GramMatrix } from '../vec/gram-matrix.js';
 import { hessianOperatorOf, type Objective, type ProblemKind } from './objective.js';
+import { LeastSquaresObjective } from './least-squares.js';
+import { formedGramPays } from './formed-gram.js';
 import { ProblemError, assertLength } from './problem-error.js';
 
 export class WeightedSumObjective implements Objective {
@@ -26,6 +31,8 @@ export class WeightedSumObjective implements Objective {
   private readonly sampleOffsets: Uint32Array;
   private readonly scratch: Float64Array;
   private exactExtremes: { smallest: number; largest: number } | null = null;
+  /** least squares: sum_i p_i A_i^T A_i / n_i once formed; null where it does not pay */
+  private gram: GramMatrix | null | undefined = undefined;
 
   constructor(components: readonly Objective[], weights: ArrayLike<number>) {
     if (components.length === 0)
@@ -177,6 +184,50 @@ export class WeightedSumObjective implements Objective {
     };
   }
 
+  /**
+   * Least squares where forming pays: v -> H v through the formed data part plus lambda v, equal
+   * to hessianVector to rounding (not bit for bit). Null otherwise.
+   */
+  formedHessian(): SymmetricOperator | null {
+    const gram = this.formedGram();
+    if (gram === null) return null;
+    const lambda = this.regularization;
+    return (v, out) => {
+      gram.multiply(v, out);
+      axpy(lambda, v, out);
+    };
+  }
+
+  /** The data part sum_i p_i A_i^T A_i / n_i, formed on first request where it pays. */
+  private formedGram(): GramMatrix | null {
+    if (this.gram !== undefined) return this.gram;
+    const shards: LeastSquaresObjective[] = [];
+    for (const component of this.components) {
+      if (component instanceof LeastSquaresObjective) shards.push(component);
+    }
+    const pays =
+      this.kind === 'least-squares' &&
+      shards.length === this.components.length &&
+      formedGramPays(this.sampleCount, this.dim);
+    this.gram = pays
+      ? new GramMatrix(
+          this.dim,
+          shards.flatMap((client, i) =>
+            this.weights[i] === 0
+              ? []
+              : [
+                  {
+                    values: client.shard.features,
+                    rowCount: client.sampleCount,
+                    weight: this.weights[i] / client.sampleCount,
+                  },
+                ],
+          ),
+        )
+      : null;
+    return this.gram;
+  }
+
   smoothnessBound(): number {
     if (this.kind === 'least-squares') return this.leastSquaresExtremes().largest;
     let sum = 0;
@@ -197,16 +248,20 @@ export class WeightedSumObjective implements Objective {
    * Extremes of the constant Hessian sum_i p_i (A_i^T A_i / n_i) + lambda I: those of the data
    * part (semidefinite, so a rank-deficient one reports exactly 0), shifted by lambda. The data
    * part has rank at most the total sample count; below the dimension its smallest eigenvalue is
-   * exactly 0 and Lanczos only has to find the largest.
+   * exactly 0 and Lanczos only has to find the largest. Lanczos runs on the formed data part
+   * where there is one, else through the data.
    */
   private leastSquaresExtremes(): { smallest: number; largest: number } {
     if (this.exactExtremes === null) {
       const origin = new Float64Array(this.dim);
       const lambda = this.regularization;
-      const dataPart: SymmetricOperator = (v, out) => {
-        this.hessianVector(origin, v, out);
-        axpy(-lambda, v, out);
-      };
+      const gram = this.formedGram();
+      const dataPart: SymmetricOperator = gram
+        ? (v, out) => gram.multiply(v, out)
+        : (v, out) => {
+            this.hessianVector(origin, v, out);
+            axpy(-lambda, v, out);
+          };
       const data =
         this.sampleCount < this.dim
           ? { smallest: 0, largest: largestEigenvalue(dataPart, this.dim).largest }

@@ -1,7 +1,10 @@
-// The oracle's matrix-free solvers: nothing of size d x d is formed, only Hessian-vector products
-// (two passes over the data each). Least squares: conjugate gradients on the normal equations
-// H x = -grad f(0), restarted from the recomputed gradient (iterative refinement with CG as the
-// inner solver) until the gradient norm is at the tolerance. Logistic and softmax: line-search
+// The oracle's matrix-free solvers: nothing of size d x d is assembled, only Hessian-vector
+// products (two passes over the data each). Least squares: conjugate gradients on the normal
+// equations H x = -grad f(0), restarted from the recomputed gradient (iterative refinement with CG
+// as the inner solver) until the gradient norm is at the tolerance; where the objective has
+// formed its Hessian's data part for its extreme eigenvalues (formedHessian, many more samples
+// than features), CG applies that matrix instead of the data, and only the gradients that drive
+// the refinement and certify the result read the data. Logistic and softmax: line-search
 // Newton-CG (Nocedal and Wright, Numerical Optimization, 2nd ed., Alg. 7.1) with the forcing
 // sequence min(0.5, sqrt ||grad f||), which converges superlinearly (their Thm 7.2), and Armijo
 // backtracking. The certificate is the same as the dense solvers': ||grad f|| recomputed at the
@@ -49,7 +52,7 @@ export function solveLeastSquaresByConjugateGradients(
   const n = objective.dim;
   const x = new Float64Array(n);
   const gradient = new Float64Array(n);
-  const apply = hessianOperatorOf(objective, x);
+  const apply = objective.formedHessian?.() ?? hessianOperatorOf(objective, x);
   objective.gradient(x, gradient);
   let gradientNorm = norm2(gradient);
   let iterations = 0;

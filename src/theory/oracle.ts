@@ -23,7 +23,7 @@ export type { OptimumCertificate, OracleOptions } from './oracle-certificate.js'
  * Changes whenever a solver's result may change; part of every cache key, so that a cached
  * answer of another version of the oracle is never read (plan-theory.ts).
  */
-export const ORACLE_VERSION = 2;
+export const ORACLE_VERSION = 3;
 
 const DEFAULT_GRADIENT_TOLERANCE = 1e-10;
 const DEFAULT_ITERATIONS_MAX = 100;

@@ -7,6 +7,7 @@
 // Its certificate is the same: ||grad f_i(x)|| recomputed from the data, at or below the tolerance.
 
 import { LeastSquaresObjective } from '../problem/least-squares.js';
+import { ROW_GRAM_SAMPLES_MAX } from '../problem/gram-spectrum.js';
 import type { Objective } from '../problem/objective.js';
 import { ProblemError } from '../problem/problem-error.js';
 import { axpy, matTVec, matVec, norm2, scale } from '../vec/kernels.js';
@@ -20,30 +21,18 @@ import { notCertified, type OracleOptions } from './oracle-certificate.js';
 const DEFAULT_GRADIENT_TOLERANCE = 1e-10;
 const DEFAULT_ITERATIONS_MAX = 100;
 /**
- * The dual system is formed and factored up to this many samples (n^2 p / 2 products to form it,
- * against 2 n p per CG step, so forming wins while CG would need more than n / 4 steps); above
- * it, CG on u -> A (A^T u) / n + lambda u.
+ * The dual system's factor when it is small enough to form (ROW_GRAM_SAMPLES_MAX: forming wins
+ * while CG would need more than n / 4 steps), else CG on u -> A (A^T u) / n + lambda u.
  */
-const DUAL_DENSE_SAMPLES_MAX = 64;
-
-/** The dual system's operator, or its factor when it is small enough to form. */
 function dualSolver(
   client: LeastSquaresObjective,
   dualTolerance: number,
 ): (rhs: Float64Array, out: Float64Array) => void {
   const { sampleCount: n, featureCount: p, features } = client.shard;
   const lambda = client.regularization;
-  if (n <= DUAL_DENSE_SAMPLES_MAX) {
-    const gram = new Float64Array(n * n);
-    for (let r = 0; r < n; r++) {
-      for (let c = 0; c <= r; c++) {
-        let sum = 0;
-        for (let j = 0; j < p; j++) sum += features[r * p + j] * features[c * p + j];
-        gram[r * n + c] = sum / n;
-        gram[c * n + r] = sum / n;
-      }
-      gram[r * n + r] += lambda;
-    }
+  if (n <= ROW_GRAM_SAMPLES_MAX) {
+    const gram = client.rowGram();
+    for (let r = 0; r < n; r++) gram[r * n + r] += lambda;
     const factor = choleskyFactor(gram, n);
     return (rhs, out) => choleskySolve(factor, n, rhs, out);
   }

@@ -1,7 +1,8 @@
 // A row-major matrix kept in WebAssembly memory, with the loops every objective's gradient and
-// Hessian-vector product is made of: row dot products, weighted sums of rows, and the least
-// squares residual sum fused into one pass per row. The kernels (wasm/row-kernels-module.ts)
-// run two f64 lanes at a time.
+// Hessian-vector product is made of: row dot products, weighted sums of rows, and two fused
+// into one pass per row, the least-squares residual sum and the projection sum of a
+// Hessian-vector product (which a matrix larger than the cache then streams from memory once,
+// not twice). The kernels (wasm/row-kernels-module.ts) run two f64 lanes at a time.
 //
 // Why WebAssembly SIMD: least-squares gradient, CPU time on the team's 2-core AMD EPYC (Node
 // 20.20), GFLOP/s at n = 4,000, d = 500, one process:
@@ -144,6 +145,30 @@ export class RowMatrix {
       this.kernels.rowCombine(this.valuesAt, p, listAt, count, this.scalarsAt, this.outAt);
     });
     out.set(this.heap.subarray(outStart, outStart + p), outOffset);
+  }
+
+  /**
+   * out <- out + sum_s (c_s (a_s . x)) a_s over every row in order, c_s = 1 when `factors` is
+   * null: rowDots then rowCombine with weights c_s z_s, bit for bit, in one pass over the matrix
+   * (each row is dotted and added while it is in cache, so the data is read from memory once).
+   */
+  projectCombine(x: Float64Array, factors: Float64Array | null, out: Float64Array): void {
+    const p = this.columnCount;
+    const scalars = this.scalarsAt / F64_BYTES;
+    if (factors === null) this.heap.fill(1, scalars, scalars + this.rowCount);
+    else this.heap.set(factors.subarray(0, this.rowCount), scalars);
+    this.heap.set(x, this.vectorAt / F64_BYTES);
+    this.heap.set(out, this.outAt / F64_BYTES);
+    this.kernels.rowProjectCombine(
+      this.valuesAt,
+      p,
+      this.everyRowAt,
+      this.rowCount,
+      this.scalarsAt,
+      this.vectorAt,
+      this.outAt,
+    );
+    out.set(this.heap.subarray(this.outAt / F64_BYTES, this.outAt / F64_BYTES + p));
   }
 
   /** Hands the kernel the rows in chunks of at most rowCount (a list may repeat rows). */

@@ -145,6 +145,35 @@ describe('WeightedSumObjective', () => {
     expect(Math.abs(sum.strongConvexityBound() - smallest) / smallest).toBeLessThan(1e-9);
   });
 
+  it('applies least squares through its formed Hessian where there are at least as many samples as features, as ml-matrix sum_i p_i A_i^T A_i / n_i + lambda I does (1e-13 relative), and nowhere else', () => {
+    const rng = Rng.fromSeed(10);
+    const shards = [4, 3].map((n, i) => gaussianShard(rng, i, n, P, 'real', 1 + i, 0.5));
+    const weights = [0.6, 0.4];
+    const clients = shards.map((shard) => new LeastSquaresObjective(shard, LAMBDA));
+    const formed = new WeightedSumObjective(clients, weights).formedHessian();
+    expect(formed).not.toBeNull();
+    let hessian = Matrix.eye(P).mul(LAMBDA);
+    shards.forEach((shard, i) => {
+      const a = featureMatrix(shard);
+      hessian = hessian.add(
+        a
+          .transpose()
+          .mmul(a)
+          .mul(weights[i] / shard.sampleCount),
+      );
+    });
+    const v = randomVector(rng, P);
+    const out = new Float64Array(P);
+    formed?.(v, out);
+    const expected = hessian.mmul(Matrix.columnVector(Array.from(v))).getColumn(0);
+    expect(relativeError(out, expected)).toBeLessThan(1e-13);
+    // Fewer samples than features: the data part is rank-deficient and never formed.
+    expect(new WeightedSumObjective(clients.slice(1), [1]).formedHessian()).toBeNull();
+    expect(
+      new WeightedSumObjective(logisticClients(10, [12, 30]), [0.3, 0.7]).formedHessian(),
+    ).toBeNull();
+  });
+
   it('reports weighted sums of the clients bounds for logistic', () => {
     const clients = logisticClients(10, [12, 30]);
     const sum = new WeightedSumObjective(clients, [0.3, 0.7]);

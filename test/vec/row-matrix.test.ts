@@ -88,6 +88,26 @@ describe('row kernels', () => {
     }
   });
 
+  it('fuses the projection sum (c_s (a_s . x)) a_s in one pass with the bits of rowDots then rowCombine', () => {
+    for (const [rows, cols] of SHAPES) {
+      const a = vec(rows * cols);
+      const matrix = new RowMatrix(a, rows, cols, vec(rows));
+      const x = vec(cols);
+      const factors = vec(rows);
+      const dots = new Float64Array(rows);
+      matrix.rowDots(x, 0, null, dots);
+      for (const c of [null, factors]) {
+        const weights = Float64Array.from(dots, (z, s) => (c === null ? z : c[s] * z));
+        const start = vec(cols);
+        const expected = Float64Array.from(start);
+        matrix.rowCombine(weights, null, expected, 0);
+        const out = Float64Array.from(start);
+        matrix.projectCombine(x, c, out);
+        for (let j = 0; j < cols; j++) expect(Object.is(out[j], expected[j])).toBe(true);
+      }
+    }
+  });
+
   it('fuses the residual sum (a_s . x - b_s) a_s in one pass with the bits of its two-step form', () => {
     for (const [rows, cols] of SHAPES) {
       const a = vec(rows * cols);

@@ -315,6 +315,112 @@ function rowCombineFunction(): WasmFunction {
   };
 }
 
+/**
+ * rowProjectCombine(A, d, rows, count, c, x, out): for each listed row s in order (t its place in
+ * the list), out <- out + (c_t (a_s . x)) a_s: a Hessian-vector product's two sums in one pass
+ * over each row, with the bits of rowDots followed by rowCombine with weights c_t z_t.
+ */
+// prettier-ignore
+function rowProjectCombineFunction(): WasmFunction {
+  const [a, d, rows, count, c, x, out] = [0, 1, 2, 3, 4, 5, 6];
+  const walk: RowWalk = { a, d, rows, count, t: 7, end: 8, pairsEnd: 9, row0: 10, row1: 11 };
+  const pc = 12;
+  const [w0, w1] = [13, 14];
+  return {
+    exportName: 'rowProjectCombine',
+    params: [I32, I32, I32, I32, I32, I32, I32],
+    results: [],
+    locals: [...walkLocals, I32, F64, F64],
+    code: [
+      ...get(c), ...set(pc),
+      ...walkRows(
+        walk,
+        [
+          ...get(walk.row0), ...get(walk.row1), ...get(x), ...get(d), op.call, DOT2,
+          ...set(w1), ...set(w0),
+          ...get(pc), ...f64Load, ...get(w0), op.f64Mul, ...set(w0),
+          ...get(pc), op.f64Load, 3, 8, ...get(w1), op.f64Mul, ...set(w1),
+          ...get(w0), ...get(w1), ...get(walk.row0), ...get(walk.row1), ...get(out), ...get(d), op.call, AXPY2,
+        ],
+        [
+          ...get(walk.row0), ...get(x), ...get(d), op.call, DOT, ...set(w0),
+          ...get(pc), ...f64Load, ...get(w0), op.f64Mul, ...set(w0),
+          ...get(w0), ...get(walk.row0), ...get(out), ...get(d), op.call, AXPY,
+        ],
+        {
+          pair: [...get(pc), ...i32(16), op.i32Add, ...set(pc)],
+          single: [...get(pc), ...i32(8), op.i32Add, ...set(pc)],
+        },
+      ),
+    ],
+  };
+}
+
+/**
+ * gramUpper(q, s, w, d, g): g_jk <- g_jk + q_k . w_j for every j in [0, d) and k in [j, d), where
+ * q and w hold d rows of s entries each (a panel of s data rows, transposed: row j of q is the
+ * panel's column j, row j of w the same column times each data row's weight) and g is d x d,
+ * row-major. Each g_jk gains one dot product in the order of `dot`; the k go two at a time
+ * through dot2 (sharing the loads of w_j), the last of an odd count through dot. (A variant that
+ * took two j and two k at a time, one load per multiply-add, measured within the noise of this.)
+ */
+// prettier-ignore
+function gramUpperFunction(): WasmFunction {
+  const [q, s, w, d, g] = [0, 1, 2, 3, 4];
+  const [rowBytes, wj, wEnd, qj, qEnd, qk, pairsEnd, gk, gDiagonal, remaining] = [5, 6, 7, 8, 9, 10, 11, 12, 13, 14];
+  const [first, second] = [15, 16];
+  const add = (local: number) => [op.i32Add, ...set(local)];
+  /** while (local < limit) { body } */
+  const whileBelow = (local: number, limit: number, body: number[]) => [
+    op.block, 0x40, op.loop, 0x40,
+    ...get(local), ...get(limit), op.i32GeU, op.brIf, 1,
+    ...body,
+    op.br, 0,
+    op.end, op.end,
+  ];
+  /** g at gk + offset <- itself + value */
+  const accumulate = (value: number, offset: number) => [
+    ...get(gk), ...get(gk), op.f64Load, 3, ...unsignedLeb(offset), ...get(value), op.f64Add, op.f64Store, 3, ...unsignedLeb(offset),
+  ];
+  return {
+    exportName: 'gramUpper',
+    params: [I32, I32, I32, I32, I32],
+    results: [],
+    locals: [I32, I32, I32, I32, I32, I32, I32, I32, I32, I32, F64, F64],
+    code: [
+      ...get(s), ...i32(3), op.i32Shl, ...set(rowBytes),
+      ...get(w), ...set(wj),
+      ...get(d), ...get(rowBytes), op.i32Mul, ...get(w), ...add(wEnd),
+      ...get(q), ...set(qj),
+      ...get(d), ...get(rowBytes), op.i32Mul, ...get(q), ...add(qEnd),
+      ...get(g), ...set(gDiagonal),
+      ...get(d), ...set(remaining),
+      ...whileBelow(wj, wEnd, [
+        ...get(qj), ...set(qk),
+        ...get(gDiagonal), ...set(gk),
+        ...get(remaining), ...i32(-2), op.i32And, ...get(rowBytes), op.i32Mul, ...get(qj), ...add(pairsEnd),
+        ...whileBelow(qk, pairsEnd, [
+          ...get(qk), ...get(qk), ...get(rowBytes), op.i32Add, ...get(wj), ...get(s), op.call, DOT2,
+          ...set(second), ...set(first),
+          ...accumulate(first, 0),
+          ...accumulate(second, 8),
+          ...get(qk), ...get(rowBytes), op.i32Add, ...get(rowBytes), ...add(qk),
+          ...get(gk), ...i32(16), ...add(gk),
+        ]),
+        ...whileBelow(qk, qEnd, [
+          ...get(qk), ...get(wj), ...get(s), op.call, DOT, ...set(first),
+          ...accumulate(first, 0),
+          ...get(qk), ...get(rowBytes), ...add(qk),
+        ]),
+        ...get(wj), ...get(rowBytes), ...add(wj),
+        ...get(qj), ...get(rowBytes), ...add(qj),
+        ...get(gDiagonal), ...get(d), ...i32(3), op.i32Shl, op.i32Add, ...i32(8), ...add(gDiagonal),
+        ...get(remaining), ...i32(-1), ...add(remaining),
+      ]),
+    ],
+  };
+}
+
 /** The module's bytes; function indices follow this order (DOT, DOT2, AXPY, AXPY2). */
 export function rowKernelsModuleBytes(): Uint8Array {
   return encodeModule([
@@ -325,6 +431,8 @@ export function rowKernelsModuleBytes(): Uint8Array {
     residualRowsFunction(),
     rowDotsFunction(),
     rowCombineFunction(),
+    gramUpperFunction(),
+    rowProjectCombineFunction(),
   ]);
 }
 
@@ -340,4 +448,14 @@ export interface RowKernelExports {
   ): void;
   rowDots(a: number, d: number, rows: number, count: number, x: number, z: number): void;
   rowCombine(a: number, d: number, rows: number, count: number, w: number, out: number): void;
+  gramUpper(q: number, s: number, w: number, d: number, g: number): void;
+  rowProjectCombine(
+    a: number,
+    d: number,
+    rows: number,
+    count: number,
+    c: number,
+    x: number,
+    out: number,
+  ): void;
 }
