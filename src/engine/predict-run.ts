@@ -61,11 +61,32 @@ const none = (reason: string): RunPrediction => ({
 /** Below this many ulps of the problem's scale (|f*| or the initial gap), a floor is rounding: the limit is x*. */
 const floorRoundingUlps = 1e4;
 
+/**
+ * Predictions from the zero model, by theory and plan: a coordinator asks for its run's once for
+ * the metrics and once at the end, and the round map of a large state costs many rounds' work.
+ */
+const fromZero = new WeakMap<PlanTheory, Map<string, RunPrediction>>();
+
 export function predictRun(
   plan: RunPlan,
   theory: PlanTheory,
-  initialModel: Float64Array = new Float64Array(plan.dim),
+  initialModel?: Float64Array,
 ): RunPrediction {
+  if (initialModel !== undefined) return predictFrom(plan, theory, initialModel);
+  let byPlan = fromZero.get(theory);
+  if (byPlan === undefined) {
+    byPlan = new Map();
+    fromZero.set(theory, byPlan);
+  }
+  let prediction = byPlan.get(plan.planHash);
+  if (prediction === undefined) {
+    prediction = predictFrom(plan, theory, new Float64Array(plan.dim));
+    byPlan.set(plan.planHash, prediction);
+  }
+  return prediction;
+}
+
+function predictFrom(plan: RunPlan, theory: PlanTheory, initialModel: Float64Array): RunPrediction {
   const blocker = predictionBlocker(plan);
   if (blocker) return none(blocker);
   const entries = roundMapStateEntries(plan.scenario, plan.dim);

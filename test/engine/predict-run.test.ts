@@ -53,5 +53,9 @@ describe('prediction state limit', () => {
     // Convex Optimization, Thm 2.1.15), so a settled spectral radius lies in (0, 1).
     expect(prediction.spectralRadius).toBeGreaterThan(0);
     expect(prediction.spectralRadius).toBeLessThan(1);
+    // Asked again (a coordinator's metrics, then the run's end), the same prediction, not a
+    // second walk of the round map; from another initial model, a fresh one.
+    expect(predictRun(plan, theory)).toBe(prediction);
+    expect(predictRun(plan, theory, new Float64Array(plan.dim).fill(1))).not.toBe(prediction);
   }, 60_000);
 });
