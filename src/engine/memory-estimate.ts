@@ -200,7 +200,7 @@ export function estimateRunMemory(scenario: Scenario): MemoryEstimate {
     messages: 2 * perRound * dim,
     formed: kind === 'least-squares' && formedGramPays(samples, dim) ? formedGramValues(dim) : 0,
     trajectory:
-      trajectoryBlocker(scenario) === null
+      trajectoryBlocker(scenario, dim) === null
         ? (vectors.server + clientCount * vectors.client) * dim
         : 0,
   };

@@ -61,7 +61,7 @@ export class PredictedTrajectory {
     this.global = global;
     this.optimum = optimum;
     this.initialModel = initialModel;
-    this.blocker = trajectoryBlocker(plan.scenario);
+    this.blocker = trajectoryBlocker(plan.scenario, plan.dim);
   }
 
   /**

@@ -13,6 +13,11 @@ import { describe, expect, it } from 'vitest';
 import { loadScenarioFile, scenarioFromText } from '../../src/scenario/load-scenario.js';
 import { runInProcess, planFor } from '../../src/engine/in-process-engine.js';
 import { PredictedTrajectory } from '../../src/engine/predicted-trajectory.js';
+import {
+  TRAJECTORY_STATE_ENTRIES_MAX,
+  trajectoryBlocker,
+} from '../../src/engine/trajectory-blocker.js';
+import { roundMapStateEntries } from '../../src/engine/method-state-size.js';
 import type { RoundRecord } from '../../src/engine/round-record.js';
 import { buildProblemInstance } from '../../src/data/problem-instance.js';
 import type { LeastSquaresObjective } from '../../src/problem/least-squares.js';
@@ -146,5 +151,20 @@ describe('PredictedTrajectory', () => {
     const asked = [0, 3, 4, 10, 2, 7];
     for (const k of asked)
       expect(Math.abs(trajectory.at(k)! / expected[k] - 1), `round ${k}`).toBeLessThan(1e-10);
+  });
+
+  it('is not walked past the state limit, and says why', () => {
+    // FedAvg on 2,000 clients at d = 300: the method's state is past 2^20 entries.
+    const scenario = loadScenarioFile('scenarios/quickstart.yaml', [
+      'method.name:fedavg',
+      'clients.count:2000',
+      'data.features:300',
+    ]);
+    const entries = roundMapStateEntries(scenario, 300);
+    expect(entries).toBeGreaterThan(TRAJECTORY_STATE_ENTRIES_MAX);
+    expect(trajectoryBlocker(scenario, 300)).toBe(
+      `the method's state has ${entries} entries (fedavg, 2000 clients, dimension 300), above the limit of ${TRAJECTORY_STATE_ENTRIES_MAX} for walking the ideal run beside it`,
+    );
+    expect(trajectoryBlocker(loadScenarioFile('scenarios/quickstart.yaml'), 20)).toBeNull();
   });
 });
