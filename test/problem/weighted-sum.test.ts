@@ -5,6 +5,7 @@ import { LeastSquaresObjective } from '../../src/problem/least-squares.js';
 import { LogisticObjective } from '../../src/problem/logistic.js';
 import type { Objective } from '../../src/problem/objective.js';
 import { WeightedSumObjective } from '../../src/problem/weighted-sum.js';
+import type { Shard } from '../../src/problem/shard.js';
 import {
   errorCode,
   featureMatrix,
@@ -38,6 +39,21 @@ function weightedReference(clients: Objective[], weights: number[], x: Float64Ar
     part.forEach((g, j) => (hv[j] += weights[i] * g));
   });
   return { loss, gradient, hv, v };
+}
+
+/** sum_i p_i A_i^T A_i / n_i + lambda I by ml-matrix, the reference the objectives are held to. */
+function pooledHessian(shards: readonly Shard[], weights: readonly number[]): Matrix {
+  let hessian = Matrix.eye(P).mul(LAMBDA);
+  shards.forEach((shard, i) => {
+    const a = featureMatrix(shard);
+    hessian = hessian.add(
+      a
+        .transpose()
+        .mmul(a)
+        .mul(weights[i] / shard.sampleCount),
+    );
+  });
+  return hessian;
 }
 
 describe('WeightedSumObjective', () => {
@@ -130,16 +146,7 @@ describe('WeightedSumObjective', () => {
       shards.map((shard) => new LeastSquaresObjective(shard, LAMBDA)),
       weights,
     );
-    let hessian = Matrix.eye(P).mul(LAMBDA);
-    shards.forEach((shard, i) => {
-      const a = featureMatrix(shard);
-      hessian = hessian.add(
-        a
-          .transpose()
-          .mmul(a)
-          .mul(weights[i] / shard.sampleCount),
-      );
-    });
+    const hessian = pooledHessian(shards, weights);
     const { smallest, largest } = symmetricExtremes(hessian);
     expect(Math.abs(sum.smoothnessBound() - largest) / largest).toBeLessThan(1e-9);
     expect(Math.abs(sum.strongConvexityBound() - smallest) / smallest).toBeLessThan(1e-9);
@@ -152,16 +159,7 @@ describe('WeightedSumObjective', () => {
     const clients = shards.map((shard) => new LeastSquaresObjective(shard, LAMBDA));
     const formed = new WeightedSumObjective(clients, weights).formedHessian();
     expect(formed).not.toBeNull();
-    let hessian = Matrix.eye(P).mul(LAMBDA);
-    shards.forEach((shard, i) => {
-      const a = featureMatrix(shard);
-      hessian = hessian.add(
-        a
-          .transpose()
-          .mmul(a)
-          .mul(weights[i] / shard.sampleCount),
-      );
-    });
+    const hessian = pooledHessian(shards, weights);
     const v = randomVector(rng, P);
     const out = new Float64Array(P);
     formed?.(v, out);

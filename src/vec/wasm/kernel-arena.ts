@@ -63,32 +63,32 @@ export function kernelRegionBytesAllocated(): number {
   return regionBytesAllocated;
 }
 
+/** `bytes` rounded up to the alignment; past what one memory addresses, E_KERNEL_MEMORY naming `what`. */
+function alignedSize(bytes: number, what: string): number {
+  const size = Math.ceil(Math.max(bytes, 1) / ALIGN_BYTES) * ALIGN_BYTES;
+  if (size > REGION_BYTES_MAX) {
+    throw new KernelArenaError(
+      'E_KERNEL_MEMORY',
+      `${what} needs ${size} bytes of kernel memory, more than the ${REGION_BYTES_MAX} one WebAssembly memory addresses`,
+    );
+  }
+  return size;
+}
+
 /**
  * A zeroed memory of its own, of at least `bytes`, outside the slabs and the count above: it is
  * collected with the last object that refers to it, so a large matrix that lives only for one
  * computation (a formed Gram matrix) leaves nothing behind.
  */
 export function allocateKernelMemory(bytes: number): KernelRegion {
-  const size = Math.ceil(Math.max(bytes, 1) / ALIGN_BYTES) * ALIGN_BYTES;
-  if (size > REGION_BYTES_MAX) {
-    throw new KernelArenaError(
-      'E_KERNEL_MEMORY',
-      `a matrix needs ${size} bytes of kernel memory, more than the ${REGION_BYTES_MAX} one WebAssembly memory addresses`,
-    );
-  }
+  const size = alignedSize(bytes, 'a matrix');
   const memory = newSlab(size);
   return { kernels: memory.kernels, buffer: memory.buffer, byteOffset: 0, byteLength: size };
 }
 
 /** A zeroed region of at least `bytes`, 16-byte aligned. */
 export function allocateKernelRegion(bytes: number): KernelRegion {
-  const size = Math.ceil(Math.max(bytes, 1) / ALIGN_BYTES) * ALIGN_BYTES;
-  if (size > REGION_BYTES_MAX) {
-    throw new KernelArenaError(
-      'E_KERNEL_MEMORY',
-      `a shard needs ${size} bytes of kernel memory, more than the ${REGION_BYTES_MAX} one WebAssembly memory addresses`,
-    );
-  }
+  const size = alignedSize(bytes, 'a shard');
   let slab: Slab;
   if (size > SLAB_BYTES / 2) {
     slab = newSlab(size);
