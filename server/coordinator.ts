@@ -33,6 +33,7 @@ import {
   limitsForPlan,
   pendingBytesMaxFor,
   receiveMessage,
+  stateFrameBytesMaxFor,
   toWireState,
   RESUME_TOKEN_BYTES,
   type DoneReason,
@@ -129,6 +130,8 @@ export class Coordinator {
   private readonly theory: PlanTheory;
   private readonly options: CoordinatorOptions;
   private readonly shapes: FieldShapes;
+  /** the largest state message of this plan (a resumed run sends one per client after the welcome) */
+  private readonly stateFrameBytesMax: number;
   private readonly oracle: OraclePool;
   private readonly registry: WorkerRegistry;
   private readonly ledger = new ByteLedger();
@@ -172,6 +175,7 @@ export class Coordinator {
     this.plan = plan;
     this.theory = theory;
     this.shapes = fieldShapesFor(plan, theory.instance.objectives[0]);
+    this.stateFrameBytesMax = stateFrameBytesMaxFor(this.clientStateBound());
     this.registry = new WorkerRegistry({
       clientCount: plan.clientCount,
       workersMin: options.workersMin,
@@ -255,19 +259,24 @@ export class Coordinator {
     return this.listener.url;
   }
 
-  private limitsFor(clientsPerWorker: number): ProtocolLimits {
-    const heartbeat = this.options.heartbeat;
+  /** The largest client state a state message carries, from the plan. */
+  private clientStateBound(): { valuesMax: number; treeBytesMax: number } {
     const fieldNames = new Set(
       [...Object.values(this.shapes.down), ...Object.values(this.shapes.up)].flatMap((fields) =>
         Object.keys(fields),
       ),
     );
+    return clientStateBound(this.wirePlan(), fieldNames.size);
+  }
+
+  private limitsFor(clientsPerWorker: number): ProtocolLimits {
+    const heartbeat = this.options.heartbeat;
     return {
       ...limitsForPlan({
         downFieldDims: this.shapes.down,
         upFieldDims: this.shapes.up,
         clientsPerWorker,
-        clientState: clientStateBound(this.wirePlan(), fieldNames.size),
+        clientState: this.clientStateBound(),
       }),
       ...(heartbeat
         ? {
@@ -289,7 +298,7 @@ export class Coordinator {
       payloadLimitBytes: limits.maxFrameBytes * PAYLOAD_HEADROOM_FACTOR,
       frameLimitBytes: limits.maxFrameBytes,
       controlFrameBytesMax: controlFrameBytesMax(limits),
-      pendingBytesMax: pendingBytesMaxFor(limits, clientsMax),
+      pendingBytesMax: pendingBytesMaxFor(limits, clientsMax, this.stateFrameBytesMax),
     };
   }
 
@@ -378,15 +387,16 @@ export class Coordinator {
         this.plan.scenario.timing.clock === 'virtual' ? this.driver.expectation() : null;
       const message = receiveMessage(frame, {
         limits,
-        expectedTypes: active ? ['up', 'state', 'heartbeat', 'error'] : ['heartbeat', 'error'],
+        expectedTypes: active ? ['ups', 'state', 'heartbeat', 'error'] : ['heartbeat', 'error'],
         expectedRound: expectation?.round ?? null,
         expectedExchange: expectation?.exchange ?? null,
         ownedClientIds: session.clientIds,
         fieldDims: this.shapes.up,
         auth: null,
       });
-      if (message.type === 'up') {
-        this.driver.acceptUp(message, frame.byteLength, wireBytes);
+      if (message.type === 'ups') {
+        session.upsReceived(message.entries.length);
+        this.driver.acceptUps(message, frame.byteLength, wireBytes);
         return;
       }
       this.ledger.recordControlMessage('up', frame.byteLength, wireBytes);
