@@ -250,7 +250,11 @@ export class Coordinator {
         host: this.options.host,
         port: this.options.port,
         tls: this.options.tls,
-        maxPayloadBytes: this.joinLimits.maxFrameBytes * PAYLOAD_HEADROOM_FACTOR,
+        // ws's own bound is one for all connections: the largest a worker's frames may be, its
+        // round frames holding an entry per client it may host; each session holds its own.
+        maxPayloadBytes:
+          this.limitsFor(Math.min(this.options.maxClientsPerWorker, this.plan.clientCount))
+            .maxFrameBytes * PAYLOAD_HEADROOM_FACTOR,
         gate: this.gate,
         log: this.options.log,
       },
@@ -648,6 +652,8 @@ export class Coordinator {
     for (const [session, clientIds] of this.registry.assign()) {
       const limits = this.limitsFor(Math.max(1, clientIds.length));
       this.limitsOf.set(session, limits);
+      // Its round frames hold an entry per client it hosts: the frame limit grows with them.
+      session.authenticate(this.sessionLimits(limits, clientIds.length));
       // Authentication only, like the challenge nonce: no result depends on it.
       session.resumeToken =
         this.resumeGraceSeconds > 0 ? new Uint8Array(randomBytes(RESUME_TOKEN_BYTES)) : null;
