@@ -1,6 +1,7 @@
 // The worker process: joins a coordinator (challenge -> hello with the shared key's proof ->
-// welcome), hosts the clients it is dealt, and answers every down with an up after the client's
-// local work, paced by the speed and link models. Every incoming frame is validated; a bad one
+// welcome), hosts the clients it is dealt, and answers every entry of a downs frame with an up
+// after the client's local work, paced by the speed and link models; ups go in ups frames
+// (up-batch.ts: one per downs frame on the virtual clock, those ready together on the wall clock). Every incoming frame is validated; a bad one
 // gets an error reply with its code and is otherwise ignored. A connection that drops mid-run
 // (no done, no final error) is reconnected with the same backoff as the join, and the new
 // challenge answered with the welcome's resume token, which gives the worker its clients back.
@@ -10,7 +11,7 @@
 // its state from the checkpoint (state messages), so the worker keeps nothing of its own.
 //
 // Order on a connection: the hello is the first message sent on it (the coordinator refuses
-// anything else with E_ORDER), and nothing answers a down that came on an earlier connection,
+// anything else with E_ORDER), and nothing answers a downs frame that came on an earlier connection,
 // even when its client's work ends after the reconnection: the coordinator counted that client
 // as dropped from its exchange, and the up would reach the new connection ahead of the hello.
 
@@ -21,18 +22,23 @@ import {
   HANDSHAKE_LIMITS,
   PROTOCOL_VERSION,
   ProtocolError,
+  assembleUpsFrame,
   encodeMessage,
+  encodeUpEntry,
+  exchangeSlots,
   fromWire,
   proveKey,
   receiveMessage,
   toWire,
   fromWireState,
   toWireState,
-  type DownMessage,
+  type DownEntry,
+  type DownsFrame,
   type FieldDims,
   type Message,
   type MessageType,
   type ProtocolLimits,
+  type UpEntry,
   type WelcomeMessage,
   type WireFields,
 } from '../src/protocol/index.js';
@@ -52,6 +58,7 @@ import {
 } from './connection.js';
 import { LinkShaper } from './link.js';
 import { ComputePacer } from './speed.js';
+import { UpBatch } from './up-batch.js';
 import type { WorkerMetrics } from './metrics.js';
 
 export interface WorkerOptions {
@@ -91,8 +98,10 @@ const WORKER_FRAME_BYTES_MAX = 512 * 1024 * 1024;
 interface Hosting {
   plan: WirePlan;
   clientIds: Set<number>;
-  /** the fields of each exchange's downs, with dimensions: receiveMessage checks every down */
+  /** the fields of each exchange's downs, with dimensions: receiveMessage checks every downs frame */
   downFieldDims: FieldDims;
+  /** the method's exchanges in order: a round frame names its exchange by its index here */
+  exchanges: readonly string[];
   host: ClientHost;
   link: LinkShaper;
   pacer: ComputePacer;
@@ -108,10 +117,10 @@ export class Worker {
   private hosting: Hosting | null = null;
   private heartbeatTimer: NodeJS.Timeout | null = null;
   private lastHeardMs = performance.now();
-  /** counts connections; a down remembers the one it came on */
+  /** counts connections; a downs frame remembers the one it came on */
   private connectionNumber = 0;
-  /** each hosted client's newest down: an up for an older one is superseded and withheld */
-  private readonly newestDownOf = new Map<number, DownMessage>();
+  /** each hosted client's newest down entry: an up for an older one is superseded and withheld */
+  private readonly newestDownOf = new Map<number, DownEntry>();
   /** the last hello carried a resume token */
   private resumeSent = false;
   /** the coordinator refused the resume (it was restarted): join afresh */
@@ -218,11 +227,14 @@ export class Worker {
     await this.hosting?.host.close();
   }
 
-  private send(message: Message): void {
+  private send(message: Parameters<typeof encodeMessage>[0]): void {
+    this.sendBytes(message.type, encodeMessage(message));
+  }
+
+  private sendBytes(type: MessageType, bytes: Uint8Array): void {
     if (this.ws === null || this.ws.readyState !== this.ws.OPEN) return;
-    const bytes = encodeMessage(message);
     this.ws.send(bytes, { binary: true });
-    this.options.metrics?.messageSent(message.type, bytes.byteLength);
+    this.options.metrics?.messageSent(type, bytes.byteLength);
   }
 
   private expectedTypes(): MessageType[] {
@@ -232,7 +244,7 @@ export class Worker {
       case 'welcome':
         return ['welcome', 'error'];
       default:
-        return ['down', 'heartbeat', 'error', 'done', 'checkpoint', 'state'];
+        return ['downs', 'heartbeat', 'error', 'done', 'checkpoint', 'state'];
     }
   }
 
@@ -295,8 +307,8 @@ export class Worker {
         if (this.hosting === null) this.welcome(message);
         else this.resumed(this.hosting, message);
         return;
-      case 'down':
-        this.down(message);
+      case 'downs':
+        this.downs(message);
         return;
       case 'checkpoint':
         this.sendStates(message.round);
@@ -333,10 +345,12 @@ export class Worker {
         `welcome.assignments: ${message.assignments.length} clients for a capacity of ${this.options.capacity}`,
       );
     const wall = plan.scenario.timing.clock === 'wall';
+    const downFieldDims = downFieldDimsFor(plan);
     this.hosting = {
       plan,
       clientIds: new Set(message.assignments),
-      downFieldDims: downFieldDimsFor(plan),
+      downFieldDims,
+      exchanges: exchangeSlots(downFieldDims),
       host: new ClientHost(plan, message.assignments, { threadsMax: this.options.capacity }),
       link: new LinkShaper(plan.scenario.timing.links, wall),
       pacer: new ComputePacer(
@@ -436,17 +450,42 @@ export class Worker {
     this.heartbeatTimer.unref();
   }
 
-  /** A down that receiveMessage passed: its exchange, fields and dimensions are the plan's. */
-  private down(message: DownMessage): void {
+  /**
+   * A downs frame that receiveMessage passed: its exchange, entries, fields and dimensions are
+   * the plan's. Each entry's client works as if its down had come alone; the ups gather in an
+   * UpBatch.
+   */
+  private downs(frame: DownsFrame): void {
     const hosting = this.hosting!;
-    const encodedDown: EncodedFields = {};
-    for (const [name, wv] of Object.entries(message.fields))
-      encodedDown[name] = fromWire(wv, `down.fields.${name}`);
-    this.newestDownOf.set(message.clientId, message);
+    const common: EncodedFields = {};
+    for (const [name, wv] of Object.entries(frame.common))
+      common[name] = fromWire(wv, `downs.common.${name}`);
     const connection = this.connectionNumber;
-    void this.answer(hosting, message, encodedDown, connection).catch((error: Error) =>
-      this.reportFailure(message, error, connection),
+    const exchangeIndex = hosting.exchanges.indexOf(frame.exchange);
+    const batch = new UpBatch(
+      hosting.plan.scenario.timing.clock === 'wall' ? 'same-turn' : 'frame-done',
+      frame.entries.length,
+      (entries) => {
+        if (!this.mayAnswerOn(connection)) return;
+        this.sendBytes(
+          'ups',
+          assembleUpsFrame(frame.round, exchangeIndex, entries.map(encodeUpEntry)),
+        );
+      },
     );
+    for (const entry of frame.entries) {
+      // The common vectors are shared by the entries: a client's runtime decodes into arrays of its own.
+      const encodedDown: EncodedFields = { ...common };
+      for (const [name, wv] of Object.entries(entry.fields))
+        encodedDown[name] = fromWire(wv, `downs.fields.${name}`);
+      this.newestDownOf.set(entry.clientId, entry);
+      void this.answer(hosting, frame, entry, encodedDown, connection, batch).catch(
+        (error: Error) => {
+          batch.skip();
+          this.reportFailure(frame, entry, error, connection);
+        },
+      );
+    }
   }
 
   /** True while the worker is welcomed on the connection `connection` names (see the order rule above). */
@@ -456,11 +495,14 @@ export class Worker {
 
   private async answer(
     hosting: Hosting,
-    message: DownMessage,
+    frame: DownsFrame,
+    entry: DownEntry,
     encodedDown: EncodedFields,
     connection: number,
+    batch: UpBatch,
   ): Promise<void> {
-    const { clientId, round, exchange } = message;
+    const { round, exchange } = frame;
+    const { clientId } = entry;
     const downSeconds = await hosting.link.received(fieldsPayloadBytes(encodedDown));
     let result;
     try {
@@ -469,12 +511,12 @@ export class Worker {
         round,
         exchange,
         encodedDown,
-        localSteps: message.localSteps,
-        stepSize: message.stepSize,
+        localSteps: entry.localSteps,
+        stepSize: entry.stepSize,
       });
     } catch (error) {
       if (!isNonFiniteError(error)) throw error;
-      this.sendNotFinite(message, downSeconds, connection);
+      this.sendNotFinite(frame, entry, downSeconds, connection, batch);
       return;
     }
     const computeSeconds = await hosting.pacer.pace(
@@ -485,17 +527,17 @@ export class Worker {
     );
     const fields: WireFields = {};
     for (const [name, cv] of Object.entries(result.encodedUp))
-      fields[name] = toWire(cv, `up.fields.${name}`);
+      fields[name] = toWire(cv, `ups.fields.${name}`);
     const upSeconds = await hosting.link.beforeSend(fieldsPayloadBytes(result.encodedUp));
     this.options.metrics?.clientWorked(clientId, computeSeconds, result.stepsTaken);
     this.options.metrics?.linkDelay('down', downSeconds);
     this.options.metrics?.linkDelay('up', upSeconds);
     // A newer down for this client means the coordinator closed this exchange without it.
-    if (this.newestDownOf.get(clientId) !== message || !this.mayAnswerOn(connection)) return;
-    this.send({
-      type: 'up',
-      round,
-      exchange,
+    if (this.newestDownOf.get(clientId) !== entry || !this.mayAnswerOn(connection)) {
+      batch.skip();
+      return;
+    }
+    batch.add({
       clientId,
       fields,
       localSteps: result.stepsTaken,
@@ -510,41 +552,55 @@ export class Worker {
    * (which must be finite on the wire): the coordinator's round walk judges it as the
    * in-process engine judges its own client's, and the run stops as diverged in both.
    */
-  private sendNotFinite(message: DownMessage, downSeconds: number, connection: number): void {
-    const { clientId, round, exchange } = message;
-    this.options.log(`client ${clientId}, round ${round} (${exchange}): its update is not finite`);
-    if (this.newestDownOf.get(clientId) !== message || !this.mayAnswerOn(connection)) return;
-    this.send({
-      type: 'up',
-      round,
-      exchange,
+  private sendNotFinite(
+    frame: DownsFrame,
+    entry: DownEntry,
+    downSeconds: number,
+    connection: number,
+    batch: UpBatch,
+  ): void {
+    const { clientId } = entry;
+    this.options.log(
+      `client ${clientId}, round ${frame.round} (${frame.exchange}): its update is not finite`,
+    );
+    if (this.newestDownOf.get(clientId) !== entry || !this.mayAnswerOn(connection)) {
+      batch.skip();
+      return;
+    }
+    const up: UpEntry = {
       clientId,
       fields: {},
       updateNotFinite: true,
-      localSteps: message.localSteps,
+      localSteps: entry.localSteps,
       computeSeconds: 0,
       waitSeconds: 0,
       transferSeconds: downSeconds,
-    });
+    };
+    batch.add(up);
   }
 
   /**
    * A client that cannot answer for another reason tells the coordinator why; the coordinator
    * then counts this worker's clients lost.
    */
-  private reportFailure(message: DownMessage, error: Error, connection: number): void {
+  private reportFailure(
+    frame: DownsFrame,
+    entry: DownEntry,
+    error: Error,
+    connection: number,
+  ): void {
     const code = error instanceof ProtocolError ? error.code : 'E_TYPE';
     const limit =
       this.hosting?.limits.maxErrorMessageLength ?? HANDSHAKE_LIMITS.maxErrorMessageLength;
     this.options.log(
-      `client ${message.clientId}, round ${message.round} (${message.exchange}) failed: ${error.message}`,
+      `client ${entry.clientId}, round ${frame.round} (${frame.exchange}) failed: ${error.message}`,
     );
     if (!this.mayAnswerOn(connection)) return;
     this.send({
       type: 'error',
       code,
       message:
-        `client ${message.clientId}, round ${message.round}, exchange ${message.exchange}: ${error.message}`.slice(
+        `client ${entry.clientId}, round ${frame.round}, exchange ${frame.exchange}: ${error.message}`.slice(
           0,
           limit,
         ),

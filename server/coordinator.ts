@@ -33,6 +33,7 @@ import {
   limitsForPlan,
   pendingBytesMaxFor,
   receiveMessage,
+  stateFrameBytesMaxFor,
   toWireState,
   RESUME_TOKEN_BYTES,
   type DoneReason,
@@ -129,6 +130,8 @@ export class Coordinator {
   private readonly theory: PlanTheory;
   private readonly options: CoordinatorOptions;
   private readonly shapes: FieldShapes;
+  /** the largest state message of this plan (a resumed run sends one per client after the welcome) */
+  private readonly stateFrameBytesMax: number;
   private readonly oracle: OraclePool;
   private readonly registry: WorkerRegistry;
   private readonly ledger = new ByteLedger();
@@ -172,6 +175,7 @@ export class Coordinator {
     this.plan = plan;
     this.theory = theory;
     this.shapes = fieldShapesFor(plan, theory.instance.objectives[0]);
+    this.stateFrameBytesMax = stateFrameBytesMaxFor(this.clientStateBound());
     this.registry = new WorkerRegistry({
       clientCount: plan.clientCount,
       workersMin: options.workersMin,
@@ -246,7 +250,11 @@ export class Coordinator {
         host: this.options.host,
         port: this.options.port,
         tls: this.options.tls,
-        maxPayloadBytes: this.joinLimits.maxFrameBytes * PAYLOAD_HEADROOM_FACTOR,
+        // ws's own bound is one for all connections: the largest a worker's frames may be, its
+        // round frames holding an entry per client it may host; each session holds its own.
+        maxPayloadBytes:
+          this.limitsFor(Math.min(this.options.maxClientsPerWorker, this.plan.clientCount))
+            .maxFrameBytes * PAYLOAD_HEADROOM_FACTOR,
         gate: this.gate,
         log: this.options.log,
       },
@@ -255,19 +263,24 @@ export class Coordinator {
     return this.listener.url;
   }
 
-  private limitsFor(clientsPerWorker: number): ProtocolLimits {
-    const heartbeat = this.options.heartbeat;
+  /** The largest client state a state message carries, from the plan. */
+  private clientStateBound(): { valuesMax: number; treeBytesMax: number } {
     const fieldNames = new Set(
       [...Object.values(this.shapes.down), ...Object.values(this.shapes.up)].flatMap((fields) =>
         Object.keys(fields),
       ),
     );
+    return clientStateBound(this.wirePlan(), fieldNames.size);
+  }
+
+  private limitsFor(clientsPerWorker: number): ProtocolLimits {
+    const heartbeat = this.options.heartbeat;
     return {
       ...limitsForPlan({
         downFieldDims: this.shapes.down,
         upFieldDims: this.shapes.up,
         clientsPerWorker,
-        clientState: clientStateBound(this.wirePlan(), fieldNames.size),
+        clientState: this.clientStateBound(),
       }),
       ...(heartbeat
         ? {
@@ -289,7 +302,7 @@ export class Coordinator {
       payloadLimitBytes: limits.maxFrameBytes * PAYLOAD_HEADROOM_FACTOR,
       frameLimitBytes: limits.maxFrameBytes,
       controlFrameBytesMax: controlFrameBytesMax(limits),
-      pendingBytesMax: pendingBytesMaxFor(limits, clientsMax),
+      pendingBytesMax: pendingBytesMaxFor(limits, clientsMax, this.stateFrameBytesMax),
     };
   }
 
@@ -378,15 +391,16 @@ export class Coordinator {
         this.plan.scenario.timing.clock === 'virtual' ? this.driver.expectation() : null;
       const message = receiveMessage(frame, {
         limits,
-        expectedTypes: active ? ['up', 'state', 'heartbeat', 'error'] : ['heartbeat', 'error'],
+        expectedTypes: active ? ['ups', 'state', 'heartbeat', 'error'] : ['heartbeat', 'error'],
         expectedRound: expectation?.round ?? null,
         expectedExchange: expectation?.exchange ?? null,
         ownedClientIds: session.clientIds,
         fieldDims: this.shapes.up,
         auth: null,
       });
-      if (message.type === 'up') {
-        this.driver.acceptUp(message, frame.byteLength, wireBytes);
+      if (message.type === 'ups') {
+        session.upsReceived(message.entries.length);
+        this.driver.acceptUps(message, frame.byteLength, wireBytes);
         return;
       }
       this.ledger.recordControlMessage('up', frame.byteLength, wireBytes);
@@ -638,6 +652,8 @@ export class Coordinator {
     for (const [session, clientIds] of this.registry.assign()) {
       const limits = this.limitsFor(Math.max(1, clientIds.length));
       this.limitsOf.set(session, limits);
+      // Its round frames hold an entry per client it hosts: the frame limit grows with them.
+      session.authenticate(this.sessionLimits(limits, clientIds.length));
       // Authentication only, like the challenge nonce: no result depends on it.
       session.resumeToken =
         this.resumeGraceSeconds > 0 ? new Uint8Array(randomBytes(RESUME_TOKEN_BYTES)) : null;

@@ -2,11 +2,12 @@
 // has answered or left the run, or (wall clock) once the first k have answered (fastest-k) or
 // the deadline has passed, and in any case at the exchange time limit.
 
-import type { UpMessage } from '../src/protocol/index.js';
+import type { UpEntry } from '../src/protocol/index.js';
 import type { EncodedFields } from '../src/engine/client-runtime.js';
 
 export interface Arrival {
-  message: UpMessage;
+  round: number;
+  up: UpEntry;
   encodedUp: EncodedFields;
   /** payload bytes per field */
   fieldPayloadBytes: Record<string, number>;
@@ -37,6 +38,8 @@ export class ExchangeWait {
   cause: CloseCause = 'complete';
   closedMs = 0;
   private readonly expected: ReadonlySet<number>;
+  /** expected clients that arrived or were lost */
+  private settled = 0;
   private readonly rule: CloseRule;
   private readonly timers: NodeJS.Timeout[] = [];
   private readonly now: () => number;
@@ -74,8 +77,14 @@ export class ExchangeWait {
       .sort((a, b) => a - b);
   }
 
+  /** How many clients still owe an up: O(1), for the check after every arrival. */
+  private pendingCount(): number {
+    return this.expected.size - this.settled;
+  }
+
   deliver(clientId: number, arrival: Arrival): void {
     if (this.closed) return;
+    if (!this.arrivals.has(clientId) && !this.lostClientIds.has(clientId)) this.settled += 1;
     this.arrivals.set(clientId, arrival);
     this.arrivalOrder.push(clientId);
     this.check();
@@ -83,13 +92,14 @@ export class ExchangeWait {
 
   lose(clientId: number): void {
     if (this.closed || !this.expected.has(clientId)) return;
+    if (!this.arrivals.has(clientId) && !this.lostClientIds.has(clientId)) this.settled += 1;
     this.lostClientIds.add(clientId);
     this.check();
   }
 
   private check(): void {
     if (this.rule.kind === 'first-k' && this.arrivals.size >= this.rule.k) this.close('first-k');
-    else if (this.pending().length === 0) this.close('complete');
+    else if (this.pendingCount() === 0) this.close('complete');
   }
 
   private close(cause: CloseCause): void {

@@ -52,6 +52,12 @@ export function fieldShapesFor(plan: RunPlan, objective: Objective): FieldShapes
     plannedSteps: new Int32Array(plan.clientCount).fill(1),
   };
   const probe = new ShapeProbe([new ClientRuntime(probePlan, 0, objective)]);
-  driveSync(walkRound(walkSetup(probePlan, new ServerRuntime(probePlan)), 1), probe);
-  return { down: probe.down, up: probe.up };
+  const server = new ServerRuntime(probePlan);
+  driveSync(walkRound(walkSetup(probePlan, server), 1), probe);
+  // In the method's exchange order: a round frame names its exchange by its index here.
+  const ordered = (dims: FieldDims): FieldDims =>
+    Object.fromEntries(
+      server.method.exchanges.filter((e) => Object.hasOwn(dims, e)).map((e) => [e, dims[e]]),
+    );
+  return { down: ordered(probe.down), up: ordered(probe.up) };
 }

@@ -1,5 +1,5 @@
 // The handshake on a fresh connection: challenge(nonce) -> hello(HMAC(key, nonce), version,
-// name, capacity). The first message must be the hello: anything else (an up a worker held from
+// name, capacity). The first message must be the hello: anything else (ups a worker held from
 // its previous connection, say) is refused with E_ORDER, and a wrong proof or version with its
 // own code; either way the connection is closed before anything of the plan is sent. The time a
 // connection may take to get here is the connection gate's (server/connection-gate.ts), and
@@ -8,10 +8,12 @@
 import {
   CLOSE_POLICY_VIOLATION,
   decodeMessage,
+  FrameElements,
   HANDSHAKE_LIMITS,
   MESSAGE_TYPES,
   PROTOCOL_VERSION,
   ProtocolError,
+  ROUND_FRAME_KINDS,
   createChallengeNonce,
   validateMessage,
   type HelloMessage,
@@ -31,6 +33,14 @@ export interface HandshakeDeps {
 
 /** Throws E_ORDER when `raw` is a message of this protocol, but not a hello. */
 function assertHelloFirst(raw: unknown): void {
+  if (raw instanceof FrameElements) {
+    const kind = Object.entries(ROUND_FRAME_KINDS).find(([, code]) => code === raw.elements[0]);
+    if (kind === undefined) return;
+    throw new ProtocolError(
+      'E_ORDER',
+      `type: the first message must be hello, got "${kind[0]}" (a worker sends nothing else before its welcome)`,
+    );
+  }
   if (raw === null || typeof raw !== 'object' || Array.isArray(raw)) return;
   const type = (raw as Record<string, unknown>).type;
   if (type !== 'hello' && (MESSAGE_TYPES as readonly unknown[]).includes(type)) {

@@ -1,12 +1,15 @@
 // What one authenticated connection may send, checked before a message is decoded (so that
 // counting costs O(1) whatever the peer sends), and how its bad messages are answered.
 //
-// Messages: every down the coordinator sends grants the peer one message (its up, or an error
-// in its place), so a worker is never held to a rate the run itself sets; beyond those credits,
-// messages draw on a token bucket. A message no larger than a heartbeat or an error can be
+// Messages: every entry of a downs frame the coordinator sends grants the peer one credit (its
+// client's up, or an error in its place), so a worker is never held to a rate the run itself
+// sets; beyond those credits, messages draw on a token bucket. A frame spends one credit when it
+// arrives (before it is decoded) and, once decoded, one more for each further entry it holds: a
+// worker that answers a frame of n entries with one ups frame of n entries (virtual clock) or
+// with several smaller ones (wall clock) spends the same n credits. A message no larger than a heartbeat or an error can be
 // draws on the bucket first and on a credit when it is empty; a larger one (only an up can be)
 // needs a credit, and without one it is refused by its size, never decoded: a peer can make the
-// coordinator decode large frames only as often as it was sent downs. Bad messages: each
+// coordinator decode large frames only as often as it was sent entries. Bad messages: each
 // draws on one bucket that, once empty, drops the peer, and is answered with an error only while
 // a second, smaller one lasts, so that a peer cannot make the coordinator write without end.
 
@@ -28,7 +31,7 @@ export interface PeerBudgetLimits {
 }
 
 export class PeerBudget {
-  /** messages granted by downs sent and not yet used */
+  /** entries granted by downs frames sent and not yet used */
   private credits = 0;
   private readonly unsolicited: TokenBucket;
   private readonly replies: TokenBucket;
@@ -46,9 +49,14 @@ export class PeerBudget {
     this.bad = new TokenBucket(limits.badMessagesPerSecond, limits.badMessagesBurst, nowMs);
   }
 
-  /** A down went to the peer (it may answer with one message), or a checkpoint request (one state per client). */
-  grant(messages = 1): void {
+  /** A downs frame of `messages` entries went to the peer, or a checkpoint request (one state per client). */
+  grant(messages: number): void {
     this.credits += messages;
+  }
+
+  /** A frame admitted on one credit held `entries` entries: the rest are spent now (down to none left). */
+  spendEntries(entries: number): void {
+    this.credits = Math.max(0, this.credits - Math.max(0, entries - 1));
   }
 
   /** A message of `bytes` arrived, not yet decoded; `controlBytesMax` bounds a heartbeat or an error. */

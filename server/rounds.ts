@@ -2,7 +2,7 @@
 // what a round is: participants, tau_i and eta_i, the downs, timing and drops, aggregation in
 // ascending client id, divergence and the records, exactly as in the in-process engine, which is
 // why a virtual-clock run ends on the engine's model bit for bit. This file carries it over the
-// WebSocket sessions: a down per client through its worker's session, an ExchangeWait for the
+// WebSocket sessions: a downs frame per worker through its session, an ExchangeWait for the
 // ups under the clock's closing rules (wall clock: fastest-k closes at the first k arrivals, a
 // deadline at its time), the byte ledger, and the workers that leave, come back or go silent.
 
@@ -17,6 +17,7 @@ import { walkRun, walkSetup, type WalkedRun } from '../src/engine/round-walk.js'
 import {
   driveAsync,
   type ClientReturn,
+  type ExchangeDown,
   type ExchangeOrder,
   type ExchangeReply,
   type RoundTransport,
@@ -27,12 +28,18 @@ import { policyForUpdates } from '../src/timing/round-policy.js';
 import { downlinkSecondsFor, uplinkSecondsFor } from '../src/timing/links.js';
 import {
   ProtocolError,
+  assembleDownsFrame,
+  encodeDownEntry,
+  encodeDownsPrefix,
   fromWire,
   toWire,
-  type UpMessage,
+  type UpEntry,
+  type UpsFrame,
   type WireFields,
 } from '../src/protocol/index.js';
-import type { ByteLedger } from './byte-ledger.js';
+import type { ByteLedger, FrameEntryBytes } from './byte-ledger.js';
+import { sharedFields } from './shared-fields.js';
+import type { WorkerSession } from './worker-session.js';
 import { ExchangeWait, type CloseRule } from './exchange-wait.js';
 import { LateUpHold } from './late-up-hold.js';
 import type { WorkerRegistry } from './worker-registry.js';
@@ -76,7 +83,7 @@ interface Owed {
   record: ClientRoundRecord | null;
 }
 
-/** The encoded and wire bytes of a down as sent (0 when its client's worker was away). */
+/** A client's share of the encoded and wire bytes of its downs frame (0 when its worker was away). */
 interface SentDown {
   encodedBytes: number;
   wireBytes: number;
@@ -109,78 +116,118 @@ export class RoundDriver implements RoundTransport<'async'> {
   }
 
   /**
-   * An up from a worker, already validated against the plan's shapes and the worker's clients.
-   * Throws ProtocolError E_ROUND when the client owes no up for that round and exchange.
+   * An ups frame from a worker, already validated against the plan's shapes and the worker's
+   * clients. Every entry is checked against what its client owes before any is used: throws
+   * ProtocolError E_ROUND when a client owes no up for that round and exchange, E_TYPE when it
+   * took more steps than it was assigned.
    */
-  acceptUp(message: UpMessage, encodedBytes: number, wireBytes: number): void {
-    const owed = this.owedFor(message);
+  acceptUps(frame: UpsFrame, encodedBytes: number, wireBytes: number): void {
+    const owedOf = frame.entries.map((entry) => this.owedEntry(frame, entry));
+    const decoded = frame.entries.map((entry) => {
+      const encodedUp: EncodedFields = {};
+      const fieldPayloadBytes: Record<string, number> = {};
+      let payload = 0;
+      for (const [name, wv] of Object.entries(entry.fields)) {
+        encodedUp[name] = fromWire(wv, `ups.fields.${name}`);
+        fieldPayloadBytes[name] = payloadBytes(encodedUp[name]);
+        payload += fieldPayloadBytes[name];
+      }
+      return { encodedUp, fieldPayloadBytes, payload };
+    });
+    const entryBytes = frame.entryBytes ?? [];
+    const shares = this.options.ledger.recordRoundFrame(
+      'up',
+      frame.entries.map((entry, i) => ({
+        clientId: entry.clientId,
+        entryBytes: entryBytes[i] ?? 0,
+        fieldPayloadBytes: decoded[i].fieldPayloadBytes,
+      })),
+      encodedBytes,
+      wireBytes,
+    );
+    const arrivedMs = this.options.nowMs();
+    frame.entries.forEach((entry, i) => {
+      const share = shares.get(entry.clientId)!;
+      this.applyUp(
+        frame,
+        entry,
+        owedOf[i],
+        decoded[i],
+        share.encodedBytes,
+        share.wireBytes,
+        arrivedMs,
+      );
+    });
+  }
+
+  /** What the entry answers; throws when its client owes no such up or overstates its steps. */
+  private owedEntry(frame: UpsFrame, entry: UpEntry): Owed {
+    const owed = this.owedFor(entry.clientId, frame.round, frame.exchange);
     if (owed === null) {
-      const current = this.owed.get(message.clientId);
+      const current = this.owed.get(entry.clientId);
       const expected =
         current === undefined
           ? 'none'
           : `round ${current.wait.round}, exchange "${current.wait.exchange}"`;
       throw new ProtocolError(
         'E_ROUND',
-        `up: client ${message.clientId} owes no up for round ${message.round}, exchange "${message.exchange}" (owed: ${expected})`,
+        `ups: client ${entry.clientId} owes no up for round ${frame.round}, exchange "${frame.exchange}" (owed: ${expected})`,
       );
     }
-    if (message.localSteps > owed.assignment.localSteps) {
+    if (entry.localSteps > owed.assignment.localSteps) {
       throw new ProtocolError(
         'E_TYPE',
-        `up.localSteps: ${message.localSteps} steps, but ${owed.assignment.localSteps} were assigned`,
+        `ups.localSteps: client ${entry.clientId} took ${entry.localSteps} steps, but ${owed.assignment.localSteps} were assigned`,
       );
     }
-    const encodedUp: EncodedFields = {};
-    const fieldPayloadBytes: Record<string, number> = {};
-    let payload = 0;
-    for (const [name, wv] of Object.entries(message.fields)) {
-      encodedUp[name] = fromWire(wv, `up.fields.${name}`);
-      fieldPayloadBytes[name] = payloadBytes(encodedUp[name]);
-      payload += fieldPayloadBytes[name];
-    }
-    if (this.owed.get(message.clientId) === owed) this.owed.delete(message.clientId);
-    else this.superseded.delete(message.clientId);
-    this.options.ledger.recordRoundMessage(
-      'up',
-      message.clientId,
-      fieldPayloadBytes,
-      encodedBytes,
-      wireBytes,
-    );
+    return owed;
+  }
+
+  private applyUp(
+    frame: UpsFrame,
+    entry: UpEntry,
+    owed: Owed,
+    decoded: {
+      encodedUp: EncodedFields;
+      fieldPayloadBytes: Record<string, number>;
+      payload: number;
+    },
+    encodedBytes: number,
+    wireBytes: number,
+    arrivedMs: number,
+  ): void {
+    if (this.owed.get(entry.clientId) === owed) this.owed.delete(entry.clientId);
+    else this.superseded.delete(entry.clientId);
     if (owed.wait.closed) {
       // A late up (wall clock): recorded with the bytes it cost, never aggregated.
       if (owed.record !== null) {
-        owed.record.bytes.payload.up = payload;
+        owed.record.bytes.payload.up = decoded.payload;
         owed.record.bytes.encoded = {
           up: encodedBytes,
           down: owed.record.bytes.encoded?.down ?? 0,
         };
         owed.record.bytes.wire = { up: wireBytes, down: owed.record.bytes.wire?.down ?? 0 };
-        owed.record.computeSeconds = message.computeSeconds;
-        owed.record.transferSeconds = message.transferSeconds;
+        owed.record.computeSeconds = entry.computeSeconds;
+        owed.record.transferSeconds = entry.transferSeconds;
       }
       return;
     }
-    owed.wait.deliver(message.clientId, {
-      message,
-      encodedUp,
-      fieldPayloadBytes,
-      payloadBytes: payload,
+    owed.wait.deliver(entry.clientId, {
+      round: frame.round,
+      up: entry,
+      encodedUp: decoded.encodedUp,
+      fieldPayloadBytes: decoded.fieldPayloadBytes,
+      payloadBytes: decoded.payload,
       encodedBytes,
       wireBytes,
-      arrivedMs: this.options.nowMs(),
+      arrivedMs,
     });
   }
 
   /** What an up answers: the client's current owed up, or the one its newest down superseded. */
-  private owedFor(message: UpMessage): Owed | null {
-    for (const owed of [this.owed.get(message.clientId), this.superseded.get(message.clientId)]) {
-      if (
-        owed !== undefined &&
-        owed.wait.round === message.round &&
-        owed.wait.exchange === message.exchange
-      )
+  private owedFor(clientId: number, round: number, exchange: string): Owed | null {
+    for (const owed of [this.owed.get(clientId), this.superseded.get(clientId)]) {
+      if (owed !== undefined && owed.wait.round === round && owed.wait.exchange === exchange)
         return owed;
     }
     return null;
@@ -327,44 +374,69 @@ export class RoundDriver implements RoundTransport<'async'> {
     return { kind: 'all' };
   }
 
+  /**
+   * One downs frame per worker. The fields every client of the exchange receives alike go once,
+   * in the common section, encoded once for all workers' frames; each entry holds its client's
+   * own. Wall clock as virtual: the frame goes at once, and each client's downlink delay is its
+   * own, applied on the worker (client/link.ts) when the frame arrives.
+   */
   private sendDowns(order: ExchangeOrder, wait: ExchangeWait): Map<number, SentDown> {
     const { round, exchange } = order;
     const policy = this.plan.scenario.timing.policy;
     const deadlineSeconds = policy.kind === 'deadline' ? policy.budgetSeconds : null;
     const sent = new Map<number, SentDown>();
-    for (const { assignment: a, encodedDown } of order.downs) {
-      const fields: WireFields = {};
-      const fieldPayloadBytes: Record<string, number> = {};
-      for (const [name, cv] of Object.entries(encodedDown)) {
-        fields[name] = toWire(cv, `down.fields.${name}`);
-        fieldPayloadBytes[name] = payloadBytes(cv);
-      }
-      const session = this.options.registry.hostOfClient(a.clientId);
+    if (order.downs.length === 0) return sent;
+    const fieldNames = Object.keys(order.downs[0].encodedDown);
+    const commonNames = sharedFields(order.downs);
+    const common: WireFields = {};
+    for (const name of commonNames)
+      common[name] = toWire(order.downs[0].encodedDown[name], `downs.common.${name}`);
+    const prefix = encodeDownsPrefix(
+      round,
+      this.server.method.exchanges.indexOf(exchange),
+      deadlineSeconds,
+      fieldNames,
+      common,
+    );
+    const byWorker = new Map<WorkerSession, ExchangeDown[]>();
+    for (const down of order.downs) {
+      const session = this.options.registry.hostOfClient(down.assignment.clientId);
       if (session === null) {
-        wait.lose(a.clientId);
+        wait.lose(down.assignment.clientId);
         continue;
       }
-      const earlier = this.owed.get(a.clientId);
-      if (earlier !== undefined) this.superseded.set(a.clientId, earlier);
-      this.owed.set(a.clientId, { wait, assignment: a, record: null });
-      const bytes = session.send({
-        type: 'down',
-        round,
-        exchange,
-        clientId: a.clientId,
-        localSteps: a.localSteps,
-        stepSize: a.stepSize,
-        fields,
-        deadlineSeconds,
-      });
-      sent.set(a.clientId, bytes);
-      this.options.ledger.recordRoundMessage(
+      const downs = byWorker.get(session) ?? [];
+      downs.push(down);
+      byWorker.set(session, downs);
+    }
+    for (const [session, downs] of byWorker) {
+      const entries: FrameEntryBytes[] = [];
+      const pieces: Uint8Array[] = [];
+      for (const { assignment: a, encodedDown } of downs) {
+        const fields: WireFields = {};
+        const fieldPayloadBytes: Record<string, number> = {};
+        for (const [name, cv] of Object.entries(encodedDown)) {
+          fieldPayloadBytes[name] = payloadBytes(cv);
+          if (!commonNames.has(name)) fields[name] = toWire(cv, `downs.fields.${name}`);
+        }
+        const piece = encodeDownEntry(
+          { clientId: a.clientId, localSteps: a.localSteps, stepSize: a.stepSize, fields },
+          prefix,
+        );
+        pieces.push(piece);
+        entries.push({ clientId: a.clientId, entryBytes: piece.byteLength, fieldPayloadBytes });
+        const earlier = this.owed.get(a.clientId);
+        if (earlier !== undefined) this.superseded.set(a.clientId, earlier);
+        this.owed.set(a.clientId, { wait, assignment: a, record: null });
+      }
+      const bytes = session.sendDowns(assembleDownsFrame(prefix, pieces), pieces.length);
+      const shares = this.options.ledger.recordRoundFrame(
         'down',
-        a.clientId,
-        fieldPayloadBytes,
+        entries,
         bytes.encodedBytes,
         bytes.wireBytes,
       );
+      for (const [clientId, share] of shares) sent.set(clientId, share);
     }
     return sent;
   }
@@ -387,7 +459,7 @@ export class RoundDriver implements RoundTransport<'async'> {
         returns.set(a.clientId, { kind: 'missing', layers });
         continue;
       }
-      const m = arrival.message;
+      const m = arrival.up;
       if (m.updateNotFinite === true) {
         // Data for the walk to judge, as the engine's own client's non-finite update is.
         returns.set(a.clientId, { kind: 'not-finite', layers });

@@ -17,7 +17,6 @@ import {
   encodeMessage,
   frameBytes,
   type FrameFailure,
-  type Message,
 } from '../src/protocol/index.js';
 import type { LimitReason } from './limit-reasons.js';
 import { PeerBudget } from './peer-budget.js';
@@ -164,11 +163,11 @@ export class WorkerSession {
     if (admission === 'over-rate') {
       this.passLimit(
         'E_LIMIT_MESSAGE_RATE',
-        'more messages than its downs and the unsolicited rate allow',
+        'more messages than its downs entries and the unsolicited rate allow',
       );
       return;
     }
-    // Without a down's credit, a message larger than a heartbeat or an error fails the codec's
+    // Without an entry's credit, a message larger than a heartbeat or an error fails the codec's
     // size check before any decoding.
     this.handler(
       frame,
@@ -188,14 +187,29 @@ export class WorkerSession {
     return verdict === 'reply';
   }
 
-  /** Encodes and sends one message as one binary frame; returns its bytes at both layers. */
-  send(message: Message): SentBytes {
-    if (!this.isOpen() || this.failed) return { encodedBytes: 0, wireBytes: 0 };
-    const bytes = encodeMessage(message);
-    this.ws.send(bytes, { binary: true });
-    if (message.type === 'down') this.budget.grant();
+  /** Encodes and sends one control message as one binary frame; returns its bytes at both layers. */
+  send(message: Parameters<typeof encodeMessage>[0]): SentBytes {
     // A checkpoint request is answered with one state message per hosted client.
-    else if (message.type === 'checkpoint') this.budget.grant(this.clientIds.size);
+    return this.sendBytes(
+      encodeMessage(message),
+      message.type === 'checkpoint' ? this.clientIds.size : 0,
+    );
+  }
+
+  /** Sends an encoded downs frame of `entries` entries, each of which the worker may answer. */
+  sendDowns(frame: Uint8Array, entries: number): SentBytes {
+    return this.sendBytes(frame, entries);
+  }
+
+  /** A valid ups frame of `entries` entries arrived: it spends a credit for each (PeerBudget). */
+  upsReceived(entries: number): void {
+    this.budget.spendEntries(entries);
+  }
+
+  private sendBytes(bytes: Uint8Array, grants: number): SentBytes {
+    if (!this.isOpen() || this.failed) return { encodedBytes: 0, wireBytes: 0 };
+    this.ws.send(bytes, { binary: true });
+    if (grants > 0) this.budget.grant(grants);
     // ws's bufferedAmount reads two counters: O(1), whatever is queued.
     if (this.limits !== null && this.ws.bufferedAmount > this.limits.pendingBytesMax) {
       this.passLimit(

@@ -1,8 +1,9 @@
 // The protocol's public surface, for the coordinator (server/) and the worker (client/).
 //
-// Sending:   encodeMessage({ type: 'up', ..., fields: { delta: toWire(cv) } })
+// Sending:   encodeMessage({ type: 'heartbeat', ... }) for a control message; a round frame from
+//            its pieces: assembleUpsFrame(round, exchangeIndex, entries.map(encodeUpEntry))
 // Receiving: const message = receiveMessage(frame, context)  // throws ProtocolError
-//            then fromWire(message.fields.delta) for the typed arrays.
+//            then fromWire(entry.fields.delta) for the typed arrays.
 
 export { createChallengeNonce, proveKey, verifyProof } from './auth.js';
 export {
@@ -12,7 +13,22 @@ export {
   CLOSE_POLICY_VIOLATION,
   CLOSE_PROTOCOL_ERROR,
 } from './close-codes.js';
-export { decodeMessage, encodeMessage, NESTING_DEPTH_MAX } from './codec.js';
+export { decodeMessage, encodeMessage, FrameElements, NESTING_DEPTH_MAX } from './codec.js';
+export {
+  assembleDownsFrame,
+  assembleUpsFrame,
+  encodeDownEntry,
+  encodeDownsPrefix,
+  encodeRoundFrame,
+  encodeUpEntry,
+  type DownsPrefix,
+} from './round-frame-encode.js';
+export {
+  exchangeSlots,
+  fieldSlots,
+  ROUND_FRAME_KINDS,
+  ROUND_FRAME_LAYOUT,
+} from './round-frame-layout.js';
 export {
   isProtocolErrorCode,
   PROTOCOL_ERROR_CODES,
@@ -29,11 +45,12 @@ export { frameBytes, frameHeaderBytes } from './framing.js';
 export {
   CONNECTION_LIMITS,
   controlFrameBytesMax,
-  frameLimitBytesFor,
   HANDSHAKE_LIMITS,
   helloFrameBytesMax,
   limitsForPlan,
   pendingBytesMaxFor,
+  roundFrameBytesMaxFor,
+  stateFrameBytesMaxFor,
   protocolLimitsSchema,
   type PlanShape,
   type ProtocolLimits,

@@ -12,9 +12,9 @@ export const protocolLimitsSchema = z
   .object({
     /** largest MessagePack frame a receiver decodes (WebSocket framing not included) */
     maxFrameBytes: z.number().int().positive().max(Number.MAX_SAFE_INTEGER),
-    /** most vectors in one down or up */
+    /** most vectors of one client in one exchange, either way */
     maxFieldsPerMessage: z.number().int().positive(),
-    /** most clients one worker hosts (welcome assignments, hello capacity) */
+    /** most clients one worker hosts (welcome assignments, hello capacity), and so the most entries of a round frame */
     maxClientsPerWorker: z.number().int().positive(),
     /** largest vector dimension */
     maxVectorDim: z.number().int().positive().max(Number.MAX_SAFE_INTEGER),
@@ -35,10 +35,17 @@ export const protocolLimitsSchema = z
 
 export type ProtocolLimits = z.infer<typeof protocolLimitsSchema>;
 
-/** Worst-case bytes of everything in a down or up but its vectors: keys, six numbers, the exchange name (NAME_LENGTH_MAX ASCII characters). */
-const MESSAGE_ENVELOPE_BYTES = 1024;
-/** Worst-case bytes of one field around its payload: the name, the five keys of a wire vector, three numbers, two bin headers. */
-const FIELD_ENVELOPE_BYTES = 512;
+// Worst cases below from the MessagePack spec, "formats": a number takes at most 9 bytes (a
+// marker and 8), an array header at most 5 (array 32), a bin header at most 5 (bin 32).
+/**
+ * Worst-case bytes of a round frame around its entries and common section: the array header,
+ * kind, layout, round, exchange index and deadline (about 40), with room to spare.
+ */
+const FRAME_ENVELOPE_BYTES = 1024;
+/** Worst-case bytes of one entry around its vectors: the array header, six numbers, the slots' array header (51), with room. */
+const ENTRY_ENVELOPE_BYTES = 128;
+/** Worst-case bytes of one vector around its values and indices: the array header, three numbers, two bin headers (38), with room. */
+const FIELD_ENVELOPE_BYTES = 64;
 /**
  * Worst-case bytes per vector entry: 8 for an f64 value plus at most 1 for its index. The
  * index stream of any subset of [0, d) is at most d bytes: a gap g (coded as g, the distance
@@ -78,19 +85,31 @@ function assertFieldDims(fieldDims: FieldDims): void {
 }
 
 /**
- * The frame limit for one direction: the largest legal down or up of any exchange (every
- * field at its dimension, every entry carried, with an index, at 8 bytes a value) plus the
- * envelope, and never below the size of a control message.
+ * The largest legal round frame of one direction holding up to `entriesMax` entries (a worker's
+ * clients): the envelope, then, for the exchange whose entry can be largest (every field at its
+ * dimension, every value carried with an index, at 8 bytes), that entry `entriesMax` times plus
+ * once more for a downs frame's common section; never below the size of a control message.
  */
-export function frameLimitBytesFor(fieldDims: FieldDims): number {
+export function roundFrameBytesMaxFor(fieldDims: FieldDims, entriesMax: number): number {
   assertFieldDims(fieldDims);
-  let largestBytes = CONTROL_FRAME_BYTES;
-  for (const fields of Object.values(fieldDims)) {
-    let bytes = MESSAGE_ENVELOPE_BYTES;
-    for (const dim of Object.values(fields)) bytes += FIELD_ENVELOPE_BYTES + ENTRY_BYTES_MAX * dim;
-    largestBytes = Math.max(largestBytes, bytes);
+  if (!Number.isSafeInteger(entriesMax) || entriesMax < 1) {
+    throw new RangeError(`entriesMax must be a positive integer, got ${entriesMax}`);
   }
-  return largestBytes;
+  let entryBytesMax = 0;
+  for (const fields of Object.values(fieldDims)) {
+    let bytes = ENTRY_ENVELOPE_BYTES;
+    for (const dim of Object.values(fields)) bytes += FIELD_ENVELOPE_BYTES + ENTRY_BYTES_MAX * dim;
+    entryBytesMax = Math.max(entryBytesMax, bytes);
+  }
+  return Math.max(CONTROL_FRAME_BYTES, FRAME_ENVELOPE_BYTES + (entriesMax + 1) * entryBytesMax);
+}
+
+/** Worst-case bytes of everything in a state message but its tree and vectors: keys, numbers, headers. */
+const STATE_ENVELOPE_BYTES = 1024;
+
+/** The largest state message of a client state of this bound. */
+export function stateFrameBytesMaxFor(state: { valuesMax: number; treeBytesMax: number }): number {
+  return STATE_ENVELOPE_BYTES + 8 * state.valuesMax + state.treeBytesMax;
 }
 
 export interface PlanShape {
@@ -98,7 +117,7 @@ export interface PlanShape {
   downFieldDims: FieldDims;
   /** vectors going up, per exchange */
   upFieldDims: FieldDims;
-  /** clients the worker hosts */
+  /** clients the worker hosts: the most entries one of its round frames holds */
   clientsPerWorker: number;
   /** the largest client state a state message may carry: float64 values and tree text bytes */
   clientState?: { valuesMax: number; treeBytesMax: number };
@@ -120,13 +139,12 @@ export function limitsForPlan(shape: PlanShape): ProtocolLimits {
     }
   }
   const state = shape.clientState;
-  const stateFrameBytes =
-    state === undefined ? 0 : MESSAGE_ENVELOPE_BYTES + 8 * state.valuesMax + state.treeBytesMax;
+  const stateFrameBytes = state === undefined ? 0 : stateFrameBytesMaxFor(state);
   return {
     ...HANDSHAKE_LIMITS,
     maxFrameBytes: Math.max(
-      frameLimitBytesFor(downFieldDims),
-      frameLimitBytesFor(upFieldDims),
+      roundFrameBytesMaxFor(downFieldDims, clientsPerWorker),
+      roundFrameBytesMaxFor(upFieldDims, clientsPerWorker),
       stateFrameBytes,
     ),
     maxFieldsPerMessage,
@@ -210,7 +228,7 @@ export const CONNECTION_LIMITS = {
    */
   unauthenticatedConnectionsMax: 64,
   /**
-   * Messages a worker may send beyond one per down it was sent (heartbeats, error reports):
+   * Messages a worker may send beyond one per entry of the downs frames it was sent (heartbeats, error reports):
    * a sustained rate and a burst. A worker sends a heartbeat every heartbeatIntervalSeconds.
    */
   unsolicitedMessagesPerSecond: 20,
@@ -229,16 +247,24 @@ export const CONNECTION_LIMITS = {
 
 /**
  * Bytes the coordinator may have queued for one connection, unsent because the peer does not
- * read, before it drops the peer: every frame of two exchanges to each client the worker hosts
- * (one that the peer is still reading, one just sent) at the frame limit, or before the
- * welcome, the welcome itself (HANDSHAKE_LIMITS.maxFrameBytes); and room for control messages.
+ * read, before it drops the peer: the downs frames of two exchanges (one that the peer is still
+ * reading, one just sent) at the frame limit, or the state of each of its clients that a resumed
+ * run sends after the welcome (`stateFrameBytesMax` each), or before the welcome, the welcome
+ * itself (HANDSHAKE_LIMITS.maxFrameBytes); and room for control messages.
  */
-export function pendingBytesMaxFor(limits: ProtocolLimits, clientsPerWorker: number): number {
+export function pendingBytesMaxFor(
+  limits: ProtocolLimits,
+  clientsPerWorker: number,
+  stateFrameBytesMax = 0,
+): number {
   if (!Number.isSafeInteger(clientsPerWorker) || clientsPerWorker < 0) {
     throw new RangeError(
       `clientsPerWorker must be a non-negative integer, got ${clientsPerWorker}`,
     );
   }
-  const exchangesBytes = 2 * clientsPerWorker * limits.maxFrameBytes;
-  return Math.max(exchangesBytes, HANDSHAKE_LIMITS.maxFrameBytes) + CONTROL_FRAME_BYTES;
+  const exchangesBytes = clientsPerWorker === 0 ? 0 : 2 * limits.maxFrameBytes;
+  const statesBytes = clientsPerWorker * stateFrameBytesMax;
+  return (
+    Math.max(exchangesBytes, statesBytes, HANDSHAKE_LIMITS.maxFrameBytes) + CONTROL_FRAME_BYTES
+  );
 }

@@ -8,10 +8,14 @@
 //                                 capacity it offers; the key itself never crosses the wire
 //   server -> worker  welcome     client ids to host, the plan, the limits, a resume token;
 //                                 or error E_AUTH
-//   then per round, per exchange, per participating client:
-//   server -> worker  down        that client's vectors, tau_i, eta_i, deadline
-//   worker -> server  up          that client's vectors and timings, or word that its update
-//                                 was not finite (it diverged) in place of the vectors
+//   then per round, per exchange, one frame per worker each way:
+//   server -> worker  downs       for every hosted client taking part: tau_i, eta_i and its own
+//                                 vectors; the vectors every client of the exchange receives
+//                                 alike (the model, a control variate, a gradient broadcast)
+//                                 once, as the frame's common section; the deadline once
+//   worker -> server  ups         the ups of one or more of its clients: vectors and timings, or
+//                                 word that a client's update was not finite (it diverged) in
+//                                 place of its vectors
 //   either way        heartbeat, error
 //   server -> worker  done
 //
@@ -19,7 +23,7 @@
 // clients' states, and each worker answers with one state message per client, taken after the
 // client's work of that round. A coordinator resumed from a checkpoint welcomes its workers
 // afresh and then sends each its clients' states (state, server -> worker), which the worker
-// restores before any down.
+// restores before any downs.
 //   server -> worker  checkpoint  the round whose end the states must show
 //   worker -> server  state       one client's state as of that round
 //   server -> worker  state       (resumed run) the state a client starts from
@@ -28,19 +32,32 @@
 // that also carries its welcome's resume token; the coordinator, if it still holds that worker's
 // session (within its grace period), welcomes it again with the same clients.
 //
-// One down and one up per client, not one per worker: the downlink replicas and tau_i differ
-// per client, each client has its own link model (a sender delays each client's message by
-// that client's latency and bandwidth), and bytes are counted per client at every layer, which
-// a frame shared by several clients could only apportion.
+// Why one frame per worker, not one message per client: at a thousand clients a round is a
+// thousand small messages each way, and each paid a frame, a decode, a validation and a name for
+// every key and field; the broadcast, identical for every client, was encoded and sent once per
+// client. A worker frame pays the envelope once, carries the broadcast once (encoded once per
+// exchange, its bytes reused in every worker's frame: round-frame-encode.ts) and names
+// exchanges and fields by their index in the plan, which both ends know from the welcome
+// (round-frame-layout.ts). What made per-client messages attractive stays true per entry: each
+// entry holds its client's own replicas' differences and tau_i; the worker delays each client
+// by that client's link model after the frame arrives and sends each up as soon as it is ready
+// (wall clock: ups ready in the same event-loop turn share a frame, none waits for another;
+// virtual clock: one frame once the worker's clients of the exchange are done); and bytes stay
+// per client: the ledger (server/byte-ledger.ts) gives each client its entry's bytes plus an
+// even share of the frame's common bytes, so that per-client sums equal the frame totals.
+//
+// Control messages (everything but downs and ups) are MessagePack maps keyed by name, as
+// readable as before; round frames are MessagePack arrays (round-frame-layout.ts) whose layout
+// carries its own version number.
 
 import { z } from 'zod';
 import { PROTOCOL_ERROR_CODES } from './errors.js';
 import { protocolLimitsSchema } from './limits.js';
 import { wirePlanSchema } from './wire-plan.js';
-import { bytesShape, wireVectorShape } from './wire-vector.js';
+import { bytesShape, type WireVector } from './wire-vector.js';
 
 /** Bumped on any change to a message's shape or meaning; peers must match exactly. */
-export const PROTOCOL_VERSION = 3;
+export const PROTOCOL_VERSION = 4;
 
 export { NONCE_BYTES, PROOF_BYTES, RESUME_TOKEN_BYTES } from './secret-lengths.js';
 
@@ -55,8 +72,8 @@ export const MESSAGE_TYPES = [
   'challenge',
   'hello',
   'welcome',
-  'down',
-  'up',
+  'downs',
+  'ups',
   'heartbeat',
   'error',
   'done',
@@ -64,6 +81,8 @@ export const MESSAGE_TYPES = [
   'state',
 ] as const;
 export type MessageType = (typeof MESSAGE_TYPES)[number];
+/** The messages that travel as MessagePack maps keyed by name. */
+export type ControlMessageType = Exclude<MessageType, 'downs' | 'ups'>;
 
 export const DONE_REASONS = [
   /** every planned round ran */
@@ -82,12 +101,70 @@ export type DoneReason = (typeof DONE_REASONS)[number];
 // receiver's state) validate.ts checks after the shape.
 
 const count = z.number().int().nonnegative();
-const seconds = z.number().nonnegative();
-
-const fieldsShape = z.record(z.string(), wireVectorShape);
 
 /** Named vectors of one message, by field name (as the method names them). */
-export type WireFields = z.infer<typeof fieldsShape>;
+export type WireFields = Record<string, WireVector>;
+
+/** One client's part of a downs frame. */
+export interface DownEntry {
+  clientId: number;
+  /** tau_i for this exchange, decided by the timing model before the client starts */
+  localSteps: number;
+  /** eta_i after the step-size policy */
+  stepSize: number;
+  /** the client's own vectors: those not in the frame's common section */
+  fields: WireFields;
+}
+
+/** What the coordinator sends a worker in one exchange (round-frame-layout.ts has the bytes). */
+export interface DownsFrame {
+  type: 'downs';
+  /** 0-based round number */
+  round: number;
+  /** the method's exchange name, e.g. 'local', or 'gradient' then 'local' for FedLin */
+  exchange: string;
+  /** time a client has from receipt until its up is due; null when the round waits for all */
+  deadlineSeconds: number | null;
+  /** the vectors every entry receives alike, sent once */
+  common: WireFields;
+  /** ascending client id, each client once */
+  entries: DownEntry[];
+}
+
+/** One client's up inside an ups frame. */
+export interface UpEntry {
+  clientId: number;
+  /** empty when updateNotFinite is set */
+  fields: WireFields;
+  /**
+   * The client's update was not finite, so it has no vectors to send (vectors on the wire are
+   * finite, always). The coordinator's round walk judges this as the in-process engine judges
+   * its own client's non-finite update: the run diverged. Absent otherwise.
+   */
+  updateNotFinite?: true;
+  /** local steps actually taken (0 for an exchange without local work) */
+  localSteps: number;
+  /** time spent computing, as the speed model accounts it */
+  computeSeconds: number;
+  /** time spent waiting (a straggler's idle time in wall mode, or the model's) */
+  waitSeconds: number;
+  /** time spent on the link model for this client's traffic of the exchange */
+  transferSeconds: number;
+}
+
+/** What a worker sends for one or more of its clients in one exchange. */
+export interface UpsFrame {
+  type: 'ups';
+  round: number;
+  exchange: string;
+  /** each client once */
+  entries: UpEntry[];
+  /**
+   * Set on a frame as received: the encoded bytes of each entry, in entry order (the rest of
+   * the frame is its envelope, shared by its entries).
+   */
+  entryBytes?: number[];
+}
 
 export const messageShapes = {
   challenge: z.strictObject({
@@ -122,43 +199,6 @@ export const messageShapes = {
      */
     resumeToken: bytesShape.optional(),
   }),
-  down: z.strictObject({
-    type: z.literal('down'),
-    /** 0-based round number */
-    round: count,
-    /** the method's exchange name, e.g. 'local', or 'gradient' then 'local' for FedLin */
-    exchange: z.string(),
-    clientId: count,
-    /** tau_i for this exchange, decided by the timing model before the client starts */
-    localSteps: z.number().int().positive(),
-    /** eta_i after the step-size policy */
-    stepSize: z.number().positive(),
-    fields: fieldsShape,
-    /** time the client has from receipt until its up is due; null when the round waits for all */
-    deadlineSeconds: z.number().positive().nullable(),
-  }),
-  up: z.strictObject({
-    type: z.literal('up'),
-    round: count,
-    exchange: z.string(),
-    clientId: count,
-    /** empty when updateNotFinite is set */
-    fields: fieldsShape,
-    /**
-     * The client's update was not finite, so it has no vectors to send (vectors on the wire are
-     * finite, always). The coordinator's round walk judges this as the in-process engine judges
-     * its own client's non-finite update: the run diverged. Absent otherwise.
-     */
-    updateNotFinite: z.literal(true).optional(),
-    /** local steps actually taken (0 for an exchange without local work) */
-    localSteps: count,
-    /** time spent computing, as the speed model accounts it */
-    computeSeconds: seconds,
-    /** time spent waiting (a straggler's idle time in wall mode, or the model's) */
-    waitSeconds: seconds,
-    /** time spent on the link model for this client's traffic of the exchange */
-    transferSeconds: seconds,
-  }),
   heartbeat: z.strictObject({
     type: z.literal('heartbeat'),
     /** sender's wall clock, for round-trip estimates; never used by results */
@@ -189,16 +229,17 @@ export const messageShapes = {
     /** the tree's vectors one after another, little-endian float64 */
     vectors: bytesShape,
   }),
-} satisfies Record<MessageType, z.ZodType>;
+} satisfies Record<ControlMessageType, z.ZodType>;
 
 export type ChallengeMessage = z.infer<typeof messageShapes.challenge>;
 export type HelloMessage = z.infer<typeof messageShapes.hello>;
 export type WelcomeMessage = z.infer<typeof messageShapes.welcome>;
-export type DownMessage = z.infer<typeof messageShapes.down>;
-export type UpMessage = z.infer<typeof messageShapes.up>;
 export type HeartbeatMessage = z.infer<typeof messageShapes.heartbeat>;
 export type ErrorMessage = z.infer<typeof messageShapes.error>;
 export type DoneMessage = z.infer<typeof messageShapes.done>;
+
+/** A message that travels as a MessagePack map keyed by name (encodeMessage). */
+export type ControlMessage = Exclude<Message, DownsFrame | UpsFrame>;
 
 export type CheckpointMessage = z.infer<typeof messageShapes.checkpoint>;
 export type StateMessage = z.infer<typeof messageShapes.state>;
@@ -207,8 +248,8 @@ export type Message =
   | ChallengeMessage
   | HelloMessage
   | WelcomeMessage
-  | DownMessage
-  | UpMessage
+  | DownsFrame
+  | UpsFrame
   | HeartbeatMessage
   | ErrorMessage
   | DoneMessage

@@ -1,5 +1,5 @@
 // Decoded plain data -> a typed message, or a ProtocolError with a stable code and the path of
-// the offending field. Shapes are the zod schemas of messages.ts (E_TYPE; E_NOT_FINITE where the wrong value is a
+// the offending field. Round frames (downs, ups) are read by validate-round-frame.ts. Shapes are the zod schemas of messages.ts (E_TYPE; E_NOT_FINITE where the wrong value is a
 // NaN or an infinity); what depends on the receiver's state comes after, from the context:
 // the round and exchange in progress (E_ROUND), the clients this connection may name
 // (E_CLIENT), the plan's dimensions (E_DIMENSION), the limits (E_SIZE), the challenge (E_AUTH).
@@ -12,36 +12,37 @@ import type { ProtocolLimits } from './limits.js';
 import {
   MESSAGE_TYPES,
   NAME_LENGTH_MAX,
-  NAME_PATTERN,
   NONCE_BYTES,
   PROOF_BYTES,
   PROTOCOL_VERSION,
   RESUME_TOKEN_BYTES,
   messageShapes,
-  type DownMessage,
+  type ControlMessageType,
   type HelloMessage,
   type Message,
   type MessageType,
-  type UpMessage,
   type WelcomeMessage,
-  type WireFields,
 } from './messages.js';
 import type { FieldDims } from './field-dims.js';
 import { formatIssue } from '../scenario/validate-scenario.js';
-import { checkWireVector } from './wire-vector.js';
+import { FrameElements } from './codec.js';
+import { validateRoundFrame } from './validate-round-frame.js';
 
 /** What the receiver expects, from its own state. A null member is not checked. */
 export interface ValidationContext {
   limits: ProtocolLimits;
-  /** types acceptable now, e.g. ['hello'] before the handshake, ['up', 'heartbeat', 'error'] after */
+  /** types acceptable now, e.g. ['hello'] before the handshake, ['ups', 'heartbeat', 'error'] after */
   expectedTypes: readonly MessageType[];
-  /** the round a down or up must carry (a worker, which cannot know the next round, passes null) */
+  /** the round a round frame must carry (a worker, which cannot know the next round, passes null) */
   expectedRound: number | null;
-  /** the exchange a down or up must carry; null: any exchange named in fieldDims */
+  /** the exchange a round frame must carry; null: any exchange named in fieldDims */
   expectedExchange: string | null;
-  /** client ids a down or up may name: the worker's assignments, on either end */
+  /** client ids a round frame's entries may name: the worker's assignments, on either end */
   ownedClientIds: ReadonlySet<number> | null;
-  /** the exact fields, with dimensions, of each exchange's downs (on a worker) or ups (on the server) */
+  /**
+   * the exact fields, with dimensions, of each exchange's downs (on a worker) or ups (on the
+   * server), the exchanges in the method's order: a round frame names its exchange by its index here
+   */
   fieldDims: FieldDims | null;
   /** the shared key and the nonce this connection's challenge carried, to check a hello */
   auth: { key: string | Uint8Array; nonce: Uint8Array } | null;
@@ -90,107 +91,6 @@ function parseShape<T>(schema: z.ZodType<T>, raw: Record<string, unknown>, type:
   const value = valueAt(raw, issue.path);
   const code = typeof value === 'number' && !Number.isFinite(value) ? 'E_NOT_FINITE' : 'E_TYPE';
   throw new ProtocolError(code, describeIssue(issue, raw, type));
-}
-
-function checkName(name: string, path: string): void {
-  if (name.length > NAME_LENGTH_MAX) {
-    throw new ProtocolError(
-      'E_SIZE',
-      `${path}: ${name.length} characters, at most ${NAME_LENGTH_MAX}`,
-    );
-  }
-  if (!NAME_PATTERN.test(name)) {
-    throw new ProtocolError(
-      'E_TYPE',
-      `${path}: "${name}" is not a name (letters, digits, '_', '.', '-', first a letter)`,
-    );
-  }
-}
-
-function checkFields(
-  fields: WireFields,
-  expected: Readonly<Record<string, number>> | null,
-  type: string,
-  limits: ProtocolLimits,
-): void {
-  const names = Object.keys(fields);
-  if (names.length > limits.maxFieldsPerMessage) {
-    throw new ProtocolError(
-      'E_SIZE',
-      `${type}.fields: ${names.length} fields, at most ${limits.maxFieldsPerMessage}`,
-    );
-  }
-  for (const name of names) checkName(name, `${type}.fields`);
-  if (expected !== null) {
-    for (const name of names) {
-      if (!Object.hasOwn(expected, name)) {
-        throw new ProtocolError(
-          'E_TYPE',
-          `${type}.fields.${name}: not a field of this exchange (expected ${Object.keys(expected).join(', ')})`,
-        );
-      }
-    }
-    for (const name of Object.keys(expected)) {
-      if (!Object.hasOwn(fields, name))
-        throw new ProtocolError('E_TYPE', `${type}.fields.${name}: missing`);
-    }
-  }
-  for (const name of names) {
-    const path = `${type}.fields.${name}`;
-    const vector = fields[name];
-    if (vector.dim > limits.maxVectorDim) {
-      throw new ProtocolError(
-        'E_SIZE',
-        `${path}.dim: ${vector.dim} exceeds the limit of ${limits.maxVectorDim}`,
-      );
-    }
-    if (expected !== null && vector.dim !== expected[name]) {
-      throw new ProtocolError(
-        'E_DIMENSION',
-        `${path}.dim: the plan says ${expected[name]}, got ${vector.dim}`,
-      );
-    }
-    checkWireVector(vector, path);
-  }
-}
-
-function checkRoundTraffic(message: DownMessage | UpMessage, context: ValidationContext): void {
-  const { type, round, exchange, clientId } = message;
-  checkName(exchange, `${type}.exchange`);
-  if (context.expectedRound !== null && round !== context.expectedRound) {
-    throw new ProtocolError(
-      'E_ROUND',
-      `${type}.round: expected round ${context.expectedRound}, got ${round}`,
-    );
-  }
-  if (context.expectedExchange !== null && exchange !== context.expectedExchange) {
-    throw new ProtocolError(
-      'E_ROUND',
-      `${type}.exchange: expected "${context.expectedExchange}", got "${exchange}"`,
-    );
-  }
-  if (context.fieldDims !== null && !Object.hasOwn(context.fieldDims, exchange)) {
-    throw new ProtocolError(
-      'E_ROUND',
-      `${type}.exchange: "${exchange}" is not an exchange of this method`,
-    );
-  }
-  if (context.ownedClientIds !== null && !context.ownedClientIds.has(clientId)) {
-    throw new ProtocolError(
-      'E_CLIENT',
-      `${type}.clientId: client ${clientId} is not hosted by this worker`,
-    );
-  }
-  if (message.type === 'up' && message.updateNotFinite === true) {
-    if (Object.keys(message.fields).length > 0)
-      throw new ProtocolError(
-        'E_TYPE',
-        'up.fields: must be empty when up.updateNotFinite is set (a non-finite update has no vectors)',
-      );
-    return;
-  }
-  const expected = context.fieldDims === null ? null : context.fieldDims[exchange];
-  checkFields(message.fields, expected, type, context.limits);
 }
 
 // Control characters would let a name forge log lines or break metric labels.
@@ -284,18 +184,24 @@ function quote(value: unknown): string {
   return text.length > NAME_LENGTH_MAX ? `${text.slice(0, NAME_LENGTH_MAX)}...` : text;
 }
 
-function isMessageType(value: unknown): value is MessageType {
-  return typeof value === 'string' && (MESSAGE_TYPES as readonly string[]).includes(value);
+function isControlMessageType(value: unknown): value is ControlMessageType {
+  return (
+    typeof value === 'string' &&
+    value !== 'downs' &&
+    value !== 'ups' &&
+    (MESSAGE_TYPES as readonly string[]).includes(value)
+  );
 }
 
 /** Plain data (from decodeMessage) -> a message this receiver may use now. Throws ProtocolError. */
 export function validateMessage(raw: unknown, context: ValidationContext): Message {
+  if (raw instanceof FrameElements) return validateRoundFrame(raw, context);
   if (raw === null || typeof raw !== 'object' || Array.isArray(raw) || raw instanceof Uint8Array) {
     throw new ProtocolError('E_TYPE', 'message: expected a map with a "type"');
   }
   const record = raw as Record<string, unknown>;
   const type = record.type;
-  if (!isMessageType(type)) {
+  if (!isControlMessageType(type)) {
     throw new ProtocolError('E_TYPE', `type: unknown message type ${quote(type)}`);
   }
   if (!context.expectedTypes.includes(type)) {
@@ -325,16 +231,6 @@ export function validateMessage(raw: unknown, context: ValidationContext): Messa
     case 'welcome': {
       const message = parseShape(messageShapes.welcome, record, type);
       checkWelcome(message, context.limits);
-      return message;
-    }
-    case 'down': {
-      const message = parseShape(messageShapes.down, record, type);
-      checkRoundTraffic(message, context);
-      return message;
-    }
-    case 'up': {
-      const message = parseShape(messageShapes.up, record, type);
-      checkRoundTraffic(message, context);
       return message;
     }
     case 'error': {

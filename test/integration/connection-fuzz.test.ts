@@ -13,7 +13,12 @@ import { join } from 'node:path';
 import WebSocket from 'ws';
 import { afterEach, describe, expect, it } from 'vitest';
 import { Rng } from '../../src/base/rng.js';
-import { CONNECTION_LIMITS, encodeMessage, helloFrameBytesMax } from '../../src/protocol/index.js';
+import {
+  CONNECTION_LIMITS,
+  encodeMessage,
+  encodeRoundFrame,
+  helloFrameBytesMax,
+} from '../../src/protocol/index.js';
 import {
   CliProcess,
   freshDir,
@@ -138,13 +143,26 @@ function malformedMessage(rng: Rng): Uint8Array {
       return encodeMessage([1, 2, rng.nextInt(100)] as never);
     case 4:
       return encodeMessage({ type: `no-such-type-${rng.nextInt(100)}` } as never);
-    case 5: // an up with nothing to answer, or of the wrong shape
-      return encodeMessage({
-        type: 'up',
-        round: rng.nextInt(10),
-        exchange: 'local',
-        clientId: 0,
-      } as never);
+    case 5: // ups with nothing to answer (the quickstart's FedLin: exchanges 'gradient', 'local')
+      return encodeRoundFrame(
+        {
+          type: 'ups',
+          round: rng.nextInt(10),
+          exchange: 'local',
+          entries: [
+            {
+              clientId: 0,
+              fields: {},
+              updateNotFinite: true,
+              localSteps: 1,
+              computeSeconds: 0,
+              waitSeconds: 0,
+              transferSeconds: 0,
+            },
+          ],
+        },
+        { gradient: {}, local: {} },
+      );
     case 6:
       return encodeMessage({ type: 'heartbeat', sentAtMs: -1 - rng.nextInt(100) });
     case 7:

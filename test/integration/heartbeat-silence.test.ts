@@ -13,7 +13,9 @@ import { afterEach, describe, expect, it } from 'vitest';
 import {
   decodeMessage,
   encodeMessage,
+  FrameElements,
   PROTOCOL_VERSION,
+  ROUND_FRAME_KINDS,
   proveKey,
 } from '../../src/protocol/index.js';
 import type { RoundRecord } from '../../src/engine/round-record.js';
@@ -52,7 +54,13 @@ function joinSilently(url: string): Promise<SilentPeer> {
       closed: new Promise((r) => ws.once('close', () => r(performance.now()))),
     };
     ws.on('message', (data: Buffer) => {
-      const message = decodeMessage(new Uint8Array(data), READ_LIMIT_BYTES) as Plain;
+      const decoded = decodeMessage(new Uint8Array(data), READ_LIMIT_BYTES);
+      // A round frame is an array whose first element is its kind (round-frame-layout.ts).
+      if (decoded instanceof FrameElements) {
+        peer.received.push(decoded.elements[0] === ROUND_FRAME_KINDS.downs ? 'downs' : 'frame');
+        return;
+      }
+      const message = decoded as Plain;
       peer.received.push(message.type as string);
       if (message.type === 'challenge') {
         ws.send(
@@ -125,7 +133,7 @@ describe('a worker that falls silent', () => {
     expect(silentForSeconds).toBeLessThan(SILENCE_SECONDS * (1 + 1 / 6) + 2);
     // The coordinator kept beating while it waited: heartbeats and downs reached the silent peer.
     expect(silent.received).toContain('heartbeat');
-    expect(silent.received).toContain('down');
+    expect(silent.received).toContain('downs');
 
     const exit = await coordinator.exit(40_000);
     expect(exit.code, coordinator.stderr).toBe(0);

@@ -1,8 +1,8 @@
 // Every network input is validated before use (DESIGN.md, Messages). Against a real
 // coordinator process: a worker proving a wrong key is refused (E_AUTH) before it learns
 // anything of the plan; a worker that authenticates but also sends malformed frames (random
-// bytes, a wrong round, another worker's client id, a smaller dimension (a larger one is E_SIZE, past the plan's largest), NaN values, an oversized
-// frame) gets an error with the matching code for each, they are counted, and the run's final
+// bytes, a wrong round, another worker's client id, a client twice in one frame, a smaller
+// dimension (a larger one is E_SIZE, past the plan's largest), NaN values, an oversized frame) gets an error with the matching code for each, they are counted, and the run's final
 // model is still exactly the clean in-process run's.
 
 import { readFileSync } from 'node:fs';
@@ -12,13 +12,22 @@ import { afterEach, describe, expect, it } from 'vitest';
 import {
   decodeMessage,
   encodeMessage,
+  encodeRoundFrame,
+  FrameElements,
   fromWire,
+  HANDSHAKE_LIMITS,
   proveKey,
   PROTOCOL_VERSION,
   toWire,
-  type Message,
+  validateMessage,
+  type ControlMessage,
+  type DownsFrame,
+  type FieldDims,
+  type UpEntry,
+  type UpsFrame,
   type WireFields,
 } from '../../src/protocol/index.js';
+import { downFieldDimsFor } from '../../src/engine/down-field-dims.js';
 import { ClientRuntime, type EncodedFields } from '../../src/engine/client-runtime.js';
 import type { WirePlan } from '../../src/engine/run-plan.js';
 import { runInProcess } from '../../src/engine/in-process-engine.js';
@@ -39,11 +48,14 @@ const READ_LIMIT_BYTES = 64 * 1024 * 1024;
 
 type Plain = Record<string, unknown>;
 
-function open(url: string, onMessage: (message: Plain, ws: WebSocket) => void): Promise<WebSocket> {
+function open(
+  url: string,
+  onMessage: (message: Plain | FrameElements, ws: WebSocket) => void,
+): Promise<WebSocket> {
   return new Promise((resolve, reject) => {
     const ws = new WebSocket(url, { perMessageDeflate: false });
     ws.on('message', (data: Buffer) =>
-      onMessage(decodeMessage(new Uint8Array(data), READ_LIMIT_BYTES) as Plain, ws),
+      onMessage(decodeMessage(new Uint8Array(data), READ_LIMIT_BYTES) as Plain | FrameElements, ws),
     );
     ws.once('open', () => resolve(ws));
     ws.once('error', reject);
@@ -54,7 +66,7 @@ function sendRaw(ws: WebSocket, bytes: Uint8Array): void {
   ws.send(bytes, { binary: true });
 }
 
-function send(ws: WebSocket, message: Message): void {
+function send(ws: WebSocket, message: ControlMessage): void {
   sendRaw(ws, encodeMessage(message));
 }
 
@@ -80,7 +92,8 @@ describe('hostile peers', () => {
 
     // 1. Wrong key: a challenge, then an error E_AUTH and a closed socket; never a welcome.
     const intruderSaw: Plain[] = [];
-    const intruder = await open(url, (m, ws) => {
+    const intruder = await open(url, (raw, ws) => {
+      const m = raw as Plain;
       intruderSaw.push(m);
       if (m.type === 'challenge')
         send(ws, {
@@ -95,7 +108,7 @@ describe('hostile peers', () => {
     expect(intruderSaw.map((m) => m.type)).toEqual(['challenge', 'error']);
     expect(intruderSaw[1].code).toBe('E_AUTH');
 
-    // 2. A real worker, and a peer that works correctly but first sends six bad frames.
+    // 2. A real worker, and a peer that works correctly but first sends seven bad frames.
     const worker = new CliProcess([
       'worker',
       url,
@@ -113,8 +126,86 @@ describe('hostile peers', () => {
     let ownIds: number[] = [];
     let maxFrameBytes = 0;
     let dim = 0;
+    let downFieldDims: FieldDims = {};
     const finished = new Promise<void>((resolve) => {
-      void open(url, (m, ws) => {
+      void open(url, (raw, ws) => {
+        if (raw instanceof FrameElements) {
+          const frame = validateMessage(raw, {
+            limits: { ...HANDSHAKE_LIMITS, maxVectorDim: dim },
+            expectedTypes: ['downs'],
+            expectedRound: null,
+            expectedExchange: null,
+            ownedClientIds: null,
+            fieldDims: downFieldDims,
+            auth: null,
+          }) as DownsFrame;
+          const ups: UpEntry[] = frame.entries.map((entry) => {
+            const encodedDown: EncodedFields = {};
+            for (const [name, wv] of Object.entries({ ...frame.common, ...entry.fields }))
+              encodedDown[name] = fromWire(wv);
+            const result = runtimes
+              .get(entry.clientId)!
+              .work(frame.round, frame.exchange, encodedDown, entry.localSteps, entry.stepSize);
+            const fields: WireFields = {};
+            for (const [name, cv] of Object.entries(result.encodedUp)) fields[name] = toWire(cv);
+            return {
+              clientId: entry.clientId,
+              fields,
+              localSteps: result.stepsTaken,
+              computeSeconds: 0,
+              waitSeconds: 0,
+              transferSeconds: 0,
+            };
+          });
+          const upsFrame = (changes: Partial<UpsFrame>): Uint8Array =>
+            encodeRoundFrame(
+              {
+                type: 'ups',
+                round: frame.round,
+                exchange: frame.exchange,
+                entries: ups,
+                ...changes,
+              },
+              downFieldDims,
+            );
+          if (!badFramesSent) {
+            badFramesSent = true;
+            const up = ups[0];
+            const [name, vector] = Object.entries(up.fields)[0];
+            const nanValues = new Uint8Array(vector.values);
+            new DataView(nanValues.buffer).setFloat64(0, Number.NaN, true);
+            const otherClient = Array.from({ length: 8 }, (_, i) => i).find(
+              (i) => !ownIds.includes(i),
+            )!;
+            // 0xc1 is the one byte MessagePack never uses (MessagePack spec, "formats").
+            sendRaw(ws, Uint8Array.from([0xc1, 0x13, 0x37, 0x00]));
+            sendRaw(ws, upsFrame({ round: frame.round + 7 }));
+            sendRaw(ws, upsFrame({ entries: [...ups, { ...up, clientId: otherClient }] }));
+            // Every entry is checked before any is used: one client twice spoils the frame.
+            sendRaw(ws, upsFrame({ entries: [...ups, up] }));
+            const smaller = toWire({
+              dim: dim - 1,
+              indices: null,
+              values: new Float64Array(dim - 1),
+            });
+            sendRaw(
+              ws,
+              upsFrame({ entries: [{ ...up, fields: { ...up.fields, [name]: smaller } }] }),
+            );
+            sendRaw(
+              ws,
+              upsFrame({
+                entries: [
+                  { ...up, fields: { ...up.fields, [name]: { ...vector, values: nanValues } } },
+                ],
+              }),
+            );
+            sendRaw(ws, new Uint8Array(maxFrameBytes + 1));
+          }
+          sendRaw(ws, upsFrame({}));
+          return;
+        }
+        const m = raw;
         switch (m.type) {
           case 'challenge':
             send(ws, {
@@ -130,6 +221,7 @@ describe('hostile peers', () => {
             const plan: WirePlan = { ...wire, scenario: validateScenario(wire.scenario) };
             ownIds = m.assignments as number[];
             dim = plan.dim;
+            downFieldDims = downFieldDimsFor(plan);
             maxFrameBytes = (m.limits as { maxFrameBytes: number }).maxFrameBytes;
             runtimes = new Map(
               ownIds.map((id) => [
@@ -146,64 +238,6 @@ describe('hostile peers', () => {
             ws.close();
             resolve();
             return;
-          case 'down': {
-            const fields = m.fields as WireFields;
-            const encodedDown: EncodedFields = {};
-            for (const [name, wv] of Object.entries(fields)) encodedDown[name] = fromWire(wv);
-            const result = runtimes
-              .get(m.clientId as number)!
-              .work(
-                m.round as number,
-                m.exchange as string,
-                encodedDown,
-                m.localSteps as number,
-                m.stepSize as number,
-              );
-            const upFields: WireFields = {};
-            for (const [name, cv] of Object.entries(result.encodedUp)) upFields[name] = toWire(cv);
-            const up = {
-              type: 'up' as const,
-              round: m.round as number,
-              exchange: m.exchange as string,
-              clientId: m.clientId as number,
-              fields: upFields,
-              localSteps: result.stepsTaken,
-              computeSeconds: 0,
-              waitSeconds: 0,
-              transferSeconds: 0,
-            };
-            if (!badFramesSent) {
-              badFramesSent = true;
-              const [name, vector] = Object.entries(upFields)[0];
-              const nanValues = new Uint8Array(vector.values);
-              new DataView(nanValues.buffer).setFloat64(0, Number.NaN, true);
-              const otherClient = Array.from({ length: 8 }, (_, i) => i).find(
-                (i) => !ownIds.includes(i),
-              )!;
-              // 0xc1 is the one byte MessagePack never uses (MessagePack spec, "formats").
-              sendRaw(ws, Uint8Array.from([0xc1, 0x13, 0x37, 0x00]));
-              send(ws, { ...up, round: up.round + 7 });
-              send(ws, { ...up, clientId: otherClient });
-              send(ws, {
-                ...up,
-                fields: {
-                  ...upFields,
-                  [name]: toWire({
-                    dim: dim - 1,
-                    indices: null,
-                    values: new Float64Array(dim - 1),
-                  }),
-                },
-              });
-              send(ws, {
-                ...up,
-                fields: { ...upFields, [name]: { ...vector, values: nanValues } },
-              });
-              sendRaw(ws, new Uint8Array(maxFrameBytes + 1));
-            }
-            send(ws, up);
-            return;
-          }
           default:
             return;
         }
@@ -215,6 +249,7 @@ describe('hostile peers', () => {
     expect((await worker.exit(20_000)).code).toBe(0);
 
     expect([...errorCodes].sort()).toEqual([
+      'E_CLIENT',
       'E_CLIENT',
       'E_DECODE',
       'E_DIMENSION',
@@ -229,7 +264,7 @@ describe('hostile peers', () => {
       E_AUTH: 1,
       E_DECODE: 1,
       E_ROUND: 1,
-      E_CLIENT: 1,
+      E_CLIENT: 2,
       E_DIMENSION: 1,
       E_NOT_FINITE: 1,
       E_SIZE: 1,

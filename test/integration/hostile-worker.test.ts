@@ -16,14 +16,23 @@ import { afterEach, describe, expect, it } from 'vitest';
 import {
   decodeMessage,
   encodeMessage,
+  encodeRoundFrame,
+  FrameElements,
   fromWire,
+  HANDSHAKE_LIMITS,
   proveKey,
   PROTOCOL_VERSION,
   toWire,
-  type Message,
-  type UpMessage,
+  validateMessage,
+  type ControlMessage,
+  type DownEntry,
+  type DownsFrame,
+  type ErrorMessage,
+  type FieldDims,
+  type UpEntry,
   type WireFields,
 } from '../../src/protocol/index.js';
+import { downFieldDimsFor } from '../../src/engine/down-field-dims.js';
 import { ClientRuntime, type EncodedFields } from '../../src/engine/client-runtime.js';
 import type { RoundRecord } from '../../src/engine/round-record.js';
 import type { WirePlan } from '../../src/engine/run-plan.js';
@@ -48,8 +57,15 @@ const READ_LIMIT_BYTES = 64 * 1024 * 1024;
 
 type Plain = Record<string, unknown>;
 
-/** What the peer sends for a down: given the honest up (computed on demand), a message or nothing. */
-type PeerScript = (down: Plain, honestUp: () => UpMessage) => Message | null;
+/** One entry of a downs frame as the peer sees it. */
+interface PeerDown {
+  round: number;
+  exchange: string;
+  clientId: number;
+}
+
+/** What the peer sends for one client's down: given the honest up (computed on demand), an up, an error, or nothing. */
+type PeerScript = (down: PeerDown, honestUp: () => UpEntry) => UpEntry | ErrorMessage | null;
 
 interface Peer {
   clientIds: () => number[];
@@ -57,32 +73,24 @@ interface Peer {
   finished: Promise<void>;
 }
 
-/** Joins `url` with the key as a worker named PEER_NAME and answers every down by `script`. */
+/** Joins `url` with the key as a worker named PEER_NAME and answers every downs entry by `script`. */
 function joinAsPeer(url: string, capacity: number, script: PeerScript): Peer {
   let runtimes = new Map<number, ClientRuntime>();
   let ownIds: number[] = [];
-  const send = (ws: WebSocket, message: Message) =>
+  let downFieldDims: FieldDims = {};
+  const send = (ws: WebSocket, message: ControlMessage) =>
     ws.send(encodeMessage(message), { binary: true });
-  const honestUp = (down: Plain): UpMessage => {
+  const honestUp = (frame: DownsFrame, entry: DownEntry): UpEntry => {
     const encodedDown: EncodedFields = {};
-    for (const [name, wv] of Object.entries(down.fields as WireFields))
+    for (const [name, wv] of Object.entries({ ...frame.common, ...entry.fields }))
       encodedDown[name] = fromWire(wv);
     const result = runtimes
-      .get(down.clientId as number)!
-      .work(
-        down.round as number,
-        down.exchange as string,
-        encodedDown,
-        down.localSteps as number,
-        down.stepSize as number,
-      );
+      .get(entry.clientId)!
+      .work(frame.round, frame.exchange, encodedDown, entry.localSteps, entry.stepSize);
     const fields: WireFields = {};
     for (const [name, cv] of Object.entries(result.encodedUp)) fields[name] = toWire(cv);
     return {
-      type: 'up',
-      round: down.round as number,
-      exchange: down.exchange as string,
-      clientId: down.clientId as number,
+      clientId: entry.clientId,
       fields,
       localSteps: result.stepsTaken,
       computeSeconds: 0,
@@ -95,7 +103,39 @@ function joinAsPeer(url: string, capacity: number, script: PeerScript): Peer {
     ws.once('error', reject);
     ws.once('close', () => resolve());
     ws.on('message', (data: Buffer) => {
-      const m = decodeMessage(new Uint8Array(data), READ_LIMIT_BYTES) as Plain;
+      const raw = decodeMessage(new Uint8Array(data), READ_LIMIT_BYTES);
+      if (raw instanceof FrameElements) {
+        const frame = validateMessage(raw, {
+          limits: { ...HANDSHAKE_LIMITS, maxVectorDim: Number.MAX_SAFE_INTEGER },
+          expectedTypes: ['downs'],
+          expectedRound: null,
+          expectedExchange: null,
+          ownedClientIds: null,
+          fieldDims: downFieldDims,
+          auth: null,
+        }) as DownsFrame;
+        const ups: UpEntry[] = [];
+        for (const entry of frame.entries) {
+          const down = { round: frame.round, exchange: frame.exchange, clientId: entry.clientId };
+          const reply = script(down, () => honestUp(frame, entry));
+          if (reply === null) continue;
+          if ('type' in reply) {
+            send(ws, reply);
+            return;
+          }
+          ups.push(reply);
+        }
+        if (ups.length > 0)
+          ws.send(
+            encodeRoundFrame(
+              { type: 'ups', round: frame.round, exchange: frame.exchange, entries: ups },
+              downFieldDims,
+            ),
+            { binary: true },
+          );
+        return;
+      }
+      const m = raw as Plain;
       switch (m.type) {
         case 'challenge':
           send(ws, {
@@ -110,17 +150,13 @@ function joinAsPeer(url: string, capacity: number, script: PeerScript): Peer {
           const wire = m.plan as unknown as WirePlan;
           const plan: WirePlan = { ...wire, scenario: validateScenario(wire.scenario) };
           ownIds = m.assignments as number[];
+          downFieldDims = downFieldDimsFor(plan);
           runtimes = new Map(
             ownIds.map((id) => [
               id,
               new ClientRuntime(plan, id, clientObjective(plan.scenario, id)),
             ]),
           );
-          return;
-        }
-        case 'down': {
-          const reply = script(m, () => honestUp(m));
-          if (reply !== null) send(ws, reply);
           return;
         }
         case 'done':

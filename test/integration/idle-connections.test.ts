@@ -11,7 +11,7 @@ import { connect, type Socket } from 'node:net';
 import { join } from 'node:path';
 import WebSocket from 'ws';
 import { afterEach, describe, expect, it } from 'vitest';
-import { decodeMessage, encodeMessage } from '../../src/protocol/index.js';
+import { decodeMessage, encodeRoundFrame } from '../../src/protocol/index.js';
 import { CliProcess, freshDir, quickstartCoordinatorArgs, writeKeyFile } from './cli-process.js';
 import { expectRecordsOfCleanRun, FIN, frame, OP, upgradeRequest } from './hostile-connections.js';
 import { Relay } from './tcp-relay.js';
@@ -83,7 +83,7 @@ afterEach(async () => {
   for (const r of relays.splice(0)) await r.close();
 });
 
-/** Answers the challenge with an up (a stale one, as a worker might hold); resolves to the error sent back. */
+/** Answers the challenge with an ups frame (a stale one, as a worker might hold); resolves to the error sent back. */
 function upBeforeHello(url: string): Promise<{ code: string; message: string }> {
   return new Promise((resolve, reject) => {
     const ws = new WebSocket(url, { perMessageDeflate: false });
@@ -91,18 +91,27 @@ function upBeforeHello(url: string): Promise<{ code: string; message: string }> 
     ws.on('message', (data: Buffer) => {
       const message = decodeMessage(new Uint8Array(data), 1024 * 1024) as Record<string, unknown>;
       if (message.type === 'challenge') {
+        // The quickstart's method, FedLin, has the exchanges 'gradient' and 'local'.
         ws.send(
-          encodeMessage({
-            type: 'up',
-            round: 3,
-            exchange: 'local',
-            clientId: 0,
-            fields: {},
-            localSteps: 5,
-            computeSeconds: 0,
-            waitSeconds: 0,
-            transferSeconds: 0,
-          }),
+          encodeRoundFrame(
+            {
+              type: 'ups',
+              round: 3,
+              exchange: 'local',
+              entries: [
+                {
+                  clientId: 0,
+                  fields: {},
+                  updateNotFinite: true,
+                  localSteps: 5,
+                  computeSeconds: 0,
+                  waitSeconds: 0,
+                  transferSeconds: 0,
+                },
+              ],
+            },
+            { gradient: {}, local: {} },
+          ),
           { binary: true },
         );
         return;
@@ -199,10 +208,10 @@ describe(`${HELD} idle connections held open`, () => {
     const direct = [worker(url, keyFile, 'direct-a'), worker(url, keyFile, 'direct-b')];
     const relayed = worker(relayUrl, keyFile, 'relayed');
     await coordinator.waitForStderr(/worker "relayed" hosts clients/, 30_000);
-    // The order rule a resuming worker keeps: an up before the hello is refused as such.
+    // The order rule a resuming worker keeps: ups before the hello are refused as such.
     const refusal = await upBeforeHello(url);
     expect(refusal.code).toBe('E_ORDER');
-    expect(refusal.message).toMatch(/the first message must be hello, got "up"/);
+    expect(refusal.message).toMatch(/the first message must be hello, got "ups"/);
     await coordinator.waitForStderr(/round (?:[4-9]|[1-9]\d+)\//, 30_000);
     relay.cut();
     await coordinator.waitForStderr(/worker "relayed" disconnected in round \d+/, 10_000);

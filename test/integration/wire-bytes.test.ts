@@ -1,8 +1,11 @@
 // Wire bytes are the socket's own counters; encoded bytes are the codec's frame lengths. Every
-// message travels as one unfragmented, uncompressed WebSocket frame, so for each down and up
+// message travels as one unfragmented, uncompressed WebSocket frame, so for each frame
 // wire = encoded + the RFC 6455 section 5.2 header: 2 bytes, +2 or +8 for an extended length,
-// +4 for the masking key a client must use (section 5.3). Checked per message and in total
-// against the sockets' counters, for dense messages and for top-k sparse uplinks.
+// +4 for the masking key a client must use (section 5.3). On the virtual clock each worker sends
+// and receives one round frame per exchange, whose bytes its clients share (server/byte-ledger.ts):
+// so per worker, round and exchange, the clients' wire bytes are their encoded bytes plus one
+// header for the frame they share. Checked so and in total against the sockets' counters, for
+// dense messages and for top-k sparse uplinks.
 
 import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
@@ -20,6 +23,7 @@ interface SummaryBytes {
   distributed: {
     controlBytes: { wire: { up: number; down: number } };
     socketBytes: { up: number; down: number };
+    workers: { workerName: string; clientIds: number[] }[];
   };
 }
 
@@ -53,17 +57,33 @@ async function runAndRead(
 
 function checkFraming(records: readonly ClientRoundRecord[], summary: SummaryBytes): void {
   expect(records.length).toBeGreaterThan(0);
+  const workerOf = new Map<number, string>();
+  for (const w of summary.distributed.workers)
+    for (const id of w.clientIds) workerOf.set(id, w.workerName);
+  const frames = new Map<
+    string,
+    { encoded: { up: number; down: number }; wire: { up: number; down: number } }
+  >();
+  for (const r of records) {
+    const key = `${r.round}/${r.exchange}/${workerOf.get(r.clientId)}`;
+    const frame = frames.get(key) ?? { encoded: { up: 0, down: 0 }, wire: { up: 0, down: 0 } };
+    for (const d of ['up', 'down'] as const) {
+      frame.encoded[d] += r.bytes.encoded![d];
+      frame.wire[d] += r.bytes.wire![d];
+    }
+    frames.set(key, frame);
+  }
   let headerUp = 0;
   let headerDown = 0;
-  for (const r of records) {
-    const encoded = r.bytes.encoded!;
-    const wire = r.bytes.wire!;
+  for (const { encoded, wire } of frames.values()) {
     // The coordinator sends unmasked frames; workers, as WebSocket clients, mask theirs.
     expect(wire.down).toBe(encoded.down + frameHeaderBytes(encoded.down, false));
     expect(wire.up).toBe(encoded.up + frameHeaderBytes(encoded.up, true));
     headerUp += frameHeaderBytes(encoded.up, true);
     headerDown += frameHeaderBytes(encoded.down, false);
   }
+  // Two workers, each one frame per exchange each way.
+  expect(new Set([...frames.keys()].map((k) => k.split('/')[2])).size).toBe(2);
   const { bytes, distributed } = summary;
   expect(bytes.wire.up).toBe(bytes.encoded.up + headerUp);
   expect(bytes.wire.down).toBe(bytes.encoded.down + headerDown);

@@ -1,18 +1,27 @@
 import { Packr, pack } from 'msgpackr';
 import { describe, expect, it } from 'vitest';
 import { Rng } from '../../src/base/rng.js';
-import { decodeMessage, encodeMessage, NESTING_DEPTH_MAX } from '../../src/protocol/codec.js';
+import {
+  decodeMessage,
+  encodeMessage,
+  FrameElements,
+  NESTING_DEPTH_MAX,
+} from '../../src/protocol/codec.js';
 import { ProtocolError } from '../../src/protocol/errors.js';
 import { HANDSHAKE_LIMITS } from '../../src/protocol/limits.js';
-import type { DownMessage, UpMessage } from '../../src/protocol/messages.js';
+import type { DownsFrame, UpsFrame } from '../../src/protocol/messages.js';
+import { encodeRoundFrame } from '../../src/protocol/round-frame-encode.js';
 import { receiveMessage } from '../../src/protocol/receive.js';
 import { fromWire, toWire } from '../../src/protocol/wire-vector.js';
 import {
   contextFor,
   DIM,
+  DOWN_FIELD_DIMS,
+  encodeSample,
   plain,
   sampleMessages,
   serverContext,
+  UP_FIELD_DIMS,
   workerContext,
 } from './sample-messages.js';
 import { codeOf } from '../support/error-code.js';
@@ -31,7 +40,16 @@ function atOffset(frame: Uint8Array, offset: number): Uint8Array {
 describe('encodeMessage / decodeMessage', () => {
   it('round-trips every message type through encode, decode and validation', () => {
     for (const message of sampleMessages()) {
-      const received = receiveMessage(encodeMessage(message), contextFor(message));
+      const frame = encodeSample(message);
+      const received = receiveMessage(frame, contextFor(message));
+      if (received.type === 'ups') {
+        // Each entry's bytes as received: together with the envelope, the whole frame.
+        const { entryBytes, ...rest } = received;
+        expect(entryBytes!.length).toBe(received.entries.length);
+        expect(entryBytes!.reduce((a, b) => a + b, 0)).toBeLessThan(frame.byteLength);
+        expect(plain(rest)).toEqual(plain(message));
+        continue;
+      }
       expect(plain(received)).toEqual(plain(message));
     }
   });
@@ -63,17 +81,24 @@ describe('encodeMessage / decodeMessage', () => {
 
   it('carries a vector as one bin holding its little-endian bytes (MessagePack spec: bin 8 is 0xc4, length)', () => {
     const values = Float64Array.from([1, -2, 0.5]);
-    const frame = encodeMessage({
-      type: 'up',
-      round: 0,
-      exchange: 'local',
-      clientId: 2,
-      localSteps: 1,
-      computeSeconds: 0,
-      waitSeconds: 0,
-      transferSeconds: 0,
-      fields: { delta: toWire({ dim: 3, indices: null, values }) },
-    });
+    const frame = encodeRoundFrame(
+      {
+        type: 'ups',
+        round: 0,
+        exchange: 'local',
+        entries: [
+          {
+            clientId: 2,
+            localSteps: 1,
+            computeSeconds: 0,
+            waitSeconds: 0,
+            transferSeconds: 0,
+            fields: { delta: toWire({ dim: 3, indices: null, values }) },
+          },
+        ],
+      },
+      UP_FIELD_DIMS,
+    );
     const le = Buffer.alloc(24);
     values.forEach((v, i) => le.writeDoubleLE(v, i * 8));
     const needle = Buffer.concat([Buffer.from([0xc4, 24]), le]);
@@ -81,20 +106,20 @@ describe('encodeMessage / decodeMessage', () => {
   });
 
   it('decodes vectors at any byte offset into aligned arrays (msgpackr returns bins as views into the frame)', () => {
-    const message = sampleMessages().find((m): m is DownMessage => m.type === 'down')!;
-    const frame = encodeMessage(message);
-    const expected = fromWire(message.fields.model);
+    const message = sampleMessages().find((m): m is DownsFrame => m.type === 'downs')!;
+    const frame = encodeSample(message);
+    const expected = fromWire(message.common.model);
     let unalignedSeen = 0;
     for (let offset = 0; offset < 8; offset++) {
-      const received = receiveMessage(atOffset(frame, offset), workerContext()) as DownMessage;
-      const bin = received.fields.model.values;
+      const received = receiveMessage(atOffset(frame, offset), workerContext()) as DownsFrame;
+      const bin = received.common.model.values;
       if (bin.byteOffset % 8 !== 0) {
         unalignedSeen++;
         // ECMA-262 (TypedArray constructor with a buffer): the offset must be a multiple of the
         // element size, else RangeError. This is the trap a direct Float64Array view falls into.
         expect(() => new Float64Array(bin.buffer, bin.byteOffset, DIM)).toThrow(RangeError);
       }
-      const model = fromWire(received.fields.model);
+      const model = fromWire(received.common.model);
       expect(model.values).toBeInstanceOf(Float64Array);
       expect(model.values.byteOffset).toBe(0);
       expect(model.values.buffer).not.toBe(bin.buffer);
@@ -115,23 +140,30 @@ describe('encodeMessage / decodeMessage', () => {
       1 / 3,
       Math.PI,
     ]);
-    const frame = encodeMessage({
-      type: 'up',
-      round: 3,
-      exchange: 'local',
-      clientId: 2,
-      localSteps: 1,
-      computeSeconds: 0,
-      waitSeconds: 0,
-      transferSeconds: 0,
-      fields: { delta: toWire({ dim: values.length, indices: null, values }) },
-    });
+    const frame = encodeRoundFrame(
+      {
+        type: 'ups',
+        round: 3,
+        exchange: 'local',
+        entries: [
+          {
+            clientId: 2,
+            localSteps: 1,
+            computeSeconds: 0,
+            waitSeconds: 0,
+            transferSeconds: 0,
+            fields: { delta: toWire({ dim: values.length, indices: null, values }) },
+          },
+        ],
+      },
+      { local: { delta: values.length } },
+    );
     const context = serverContext({
       fieldDims: { local: { delta: values.length } },
       limits: { ...serverContext().limits, maxVectorDim: values.length },
     });
     const back = fromWire(
-      (receiveMessage(atOffset(frame, 3), context) as UpMessage).fields.delta,
+      (receiveMessage(atOffset(frame, 3), context) as UpsFrame).entries[0].fields.delta,
     ).values;
     expect(back).toBeInstanceOf(Float64Array);
     expect(Object.is(back[0], -0)).toBe(true);
@@ -148,18 +180,26 @@ describe('encodeMessage / decodeMessage', () => {
       3.4028234663852886e38,
       Math.fround(0.1),
     ]);
-    const frame = encodeMessage({
-      type: 'down',
-      round: 0,
-      exchange: 'gradient',
-      clientId: 5,
-      localSteps: 1,
-      stepSize: 1,
-      deadlineSeconds: null,
-      fields: { model: toWire({ dim: 6, indices: null, values }) },
-    });
+    const frame = encodeRoundFrame(
+      {
+        type: 'downs',
+        round: 0,
+        exchange: 'gradient',
+        deadlineSeconds: null,
+        common: {},
+        entries: [
+          {
+            clientId: 5,
+            localSteps: 1,
+            stepSize: 1,
+            fields: { model: toWire({ dim: 6, indices: null, values }) },
+          },
+        ],
+      },
+      DOWN_FIELD_DIMS,
+    );
     const back = fromWire(
-      (receiveMessage(atOffset(frame, 5), workerContext()) as DownMessage).fields.model,
+      (receiveMessage(atOffset(frame, 5), workerContext()) as DownsFrame).entries[0].fields.model,
     ).values;
     expect(back).toBeInstanceOf(Float32Array);
     expect(Object.is(back[0], -0)).toBe(true);
@@ -178,17 +218,24 @@ describe('encodeMessage / decodeMessage', () => {
         const view = new DataView(good.values.buffer);
         if (good.width === 8) view.setFloat64(8, bad, true);
         else view.setFloat32(4, bad, true);
-        const frame = encodeMessage({
-          type: 'up',
-          round: 3,
-          exchange: 'local',
-          clientId: 2,
-          localSteps: 1,
-          computeSeconds: 0,
-          waitSeconds: 0,
-          transferSeconds: 0,
-          fields: { delta: good },
-        });
+        const frame = encodeRoundFrame(
+          {
+            type: 'ups',
+            round: 3,
+            exchange: 'local',
+            entries: [
+              {
+                clientId: 2,
+                localSteps: 1,
+                computeSeconds: 0,
+                waitSeconds: 0,
+                transferSeconds: 0,
+                fields: { delta: good },
+              },
+            ],
+          },
+          { local: { delta: 3 } },
+        );
         const context = serverContext({ fieldDims: { local: { delta: 3 } } });
         expect(protocolErrorCode(() => receiveMessage(frame, context))).toBe('E_NOT_FINITE');
       }
@@ -245,7 +292,10 @@ describe('encodeMessage / decodeMessage', () => {
     expect(
       protocolErrorCode(() => decodeMessage(sequential.pack({ x: 3, y: 4 }), LIMIT_BYTES)),
     ).toBe('E_DECODE');
-    expect(decodeMessage(Uint8Array.of(0x91, 0x40), LIMIT_BYTES)).toEqual([64]);
+    // An array comes back as its elements with their byte lengths (a round frame's entries).
+    const array = decodeMessage(Uint8Array.of(0x91, 0x40), LIMIT_BYTES) as FrameElements;
+    expect(array.elements).toEqual([64]);
+    expect(array.elementBytes).toEqual([1]);
   });
 
   it('checks the frame size before decoding (E_SIZE even for garbage)', () => {
@@ -257,10 +307,10 @@ describe('encodeMessage / decodeMessage', () => {
   });
 
   it('leaves frames it returned intact when it encodes again', () => {
-    const [first, second] = sampleMessages().filter((m) => m.type === 'down' || m.type === 'up');
-    const firstFrame = encodeMessage(first);
+    const [first, second] = sampleMessages().filter((m) => m.type === 'downs' || m.type === 'ups');
+    const firstFrame = encodeSample(first);
     const copy = Array.from(firstFrame);
-    encodeMessage(second);
+    encodeSample(second);
     expect(Array.from(firstFrame)).toEqual(copy);
   });
 });

@@ -1,9 +1,8 @@
 import type { Socket } from 'node:net';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { WebSocket, WebSocketServer } from 'ws';
-import { encodeMessage } from '../../src/protocol/codec.js';
 import { frameBytes, frameHeaderBytes } from '../../src/protocol/framing.js';
-import { sampleMessages } from './sample-messages.js';
+import { encodeSample, sampleMessages } from './sample-messages.js';
 
 describe('frameHeaderBytes (RFC 6455 section 5.2)', () => {
   it('matches the payload-length rules at every boundary, masked and not', () => {
@@ -87,7 +86,7 @@ describe('frameHeaderBytes against a real ws pair on 127.0.0.1', () => {
   // The RFC's boundaries, then real encoded messages as the runtime will send them.
   const payloads: Uint8Array[] = [
     ...[0, 125, 126, 65_535, 65_536].map((length) => new Uint8Array(length).fill(7)),
-    ...sampleMessages().map(encodeMessage),
+    ...sampleMessages().map(encodeSample),
   ];
 
   it('client -> server: masked frames, counted on both sockets', async () => {

@@ -4,7 +4,7 @@ import { Rng } from '../../src/base/rng.js';
 import { encodeMessage } from '../../src/protocol/codec.js';
 import {
   controlFrameBytesMax,
-  frameLimitBytesFor,
+  roundFrameBytesMaxFor,
   HANDSHAKE_LIMITS,
   helloFrameBytesMax,
   limitsForPlan,
@@ -21,6 +21,7 @@ import {
 } from '../../src/protocol/messages.js';
 import type { FieldDims } from '../../src/protocol/field-dims.js';
 import { toWire } from '../../src/protocol/wire-vector.js';
+import { encodeRoundFrame } from '../../src/protocol/round-frame-encode.js';
 
 const longName = (letter: string) => letter + 'x'.repeat(NAME_LENGTH_MAX - 1);
 
@@ -35,48 +36,64 @@ function worstFields(fields: Readonly<Record<string, number>>): WireFields {
   return out;
 }
 
-describe('frameLimitBytesFor', () => {
+describe('roundFrameBytesMaxFor', () => {
   const dims = { [longName('d')]: 30_000, [longName('c')]: 10_000 };
   const fieldDims: FieldDims = { [longName('e')]: dims, small: { [longName('g')]: 10 } };
-  const limit = frameLimitBytesFor(fieldDims);
+  const entriesMax = 3;
+  const limit = roundFrameBytesMaxFor(fieldDims, entriesMax);
   const big = Number.MAX_SAFE_INTEGER;
 
-  it('holds the largest legal up and down the real encoder writes, with a few KiB of headroom', () => {
-    const up = encodeMessage({
-      type: 'up',
-      round: big,
-      exchange: longName('e'),
-      clientId: big,
-      fields: worstFields(dims),
-      localSteps: big,
-      computeSeconds: Number.MAX_VALUE,
-      waitSeconds: Number.MAX_VALUE,
-      transferSeconds: Number.MAX_VALUE,
-    });
-    const down = encodeMessage({
-      type: 'down',
-      round: big,
-      exchange: longName('e'),
-      clientId: big,
-      localSteps: big,
-      stepSize: Number.MAX_VALUE,
-      fields: worstFields(dims),
-      deadlineSeconds: Number.MAX_VALUE,
-    });
-    for (const frame of [up, down]) {
-      expect(frame.length).toBeLessThanOrEqual(limit);
-      expect(limit - frame.length).toBeLessThan(4096);
-    }
+  it('holds the largest legal ups and downs frames the real encoder writes, with a few KiB of headroom', () => {
+    const clientIds = Array.from({ length: entriesMax }, (_, i) => big - i);
+    const ups = encodeRoundFrame(
+      {
+        type: 'ups',
+        round: big,
+        exchange: longName('e'),
+        entries: clientIds.map((clientId) => ({
+          clientId,
+          fields: worstFields(dims),
+          localSteps: big,
+          computeSeconds: Number.MAX_VALUE,
+          waitSeconds: Number.MAX_VALUE,
+          transferSeconds: Number.MAX_VALUE,
+        })),
+      },
+      fieldDims,
+    );
+    // The most a downs frame holds: one field common, the other in every entry.
+    const [first, second] = Object.keys(dims);
+    const downs = encodeRoundFrame(
+      {
+        type: 'downs',
+        round: big,
+        exchange: longName('e'),
+        deadlineSeconds: Number.MAX_VALUE,
+        common: { [first]: worstFields(dims)[first] },
+        entries: clientIds.map((clientId) => ({
+          clientId,
+          localSteps: big,
+          stepSize: Number.MAX_VALUE,
+          fields: { [second]: worstFields(dims)[second] },
+        })),
+      },
+      fieldDims,
+    );
+    for (const frame of [ups, downs]) expect(frame.length).toBeLessThanOrEqual(limit);
+    // Every entry carrying every field: the bound is that plus one more entry (a downs frame's
+    // common section) and the envelope's room.
+    expect(limit - ups.length).toBeLessThan(4096 + 4096 + 9 * 40_000);
   });
 
   it('never falls below a control frame, so errors always fit', () => {
-    expect(frameLimitBytesFor({ local: { delta: 1 } })).toBe(64 * 1024);
-    expect(frameLimitBytesFor({})).toBe(64 * 1024);
+    expect(roundFrameBytesMaxFor({ local: { delta: 1 } }, 1)).toBe(64 * 1024);
+    expect(roundFrameBytesMaxFor({}, 1)).toBe(64 * 1024);
   });
 
-  it('refuses dimensions that are not positive integers', () => {
-    expect(() => frameLimitBytesFor({ local: { delta: 0 } })).toThrow(RangeError);
-    expect(() => frameLimitBytesFor({ local: { delta: 2.5 } })).toThrow(RangeError);
+  it('refuses dimensions that are not positive integers, and a frame without entries', () => {
+    expect(() => roundFrameBytesMaxFor({ local: { delta: 0 } }, 1)).toThrow(RangeError);
+    expect(() => roundFrameBytesMaxFor({ local: { delta: 2.5 } }, 1)).toThrow(RangeError);
+    expect(() => roundFrameBytesMaxFor({ local: { delta: 2 } }, 0)).toThrow(RangeError);
   });
 });
 
@@ -115,7 +132,7 @@ describe('limitsForPlan', () => {
     expect(limits.maxVectorDim).toBe(70_000);
     expect(limits.maxClientsPerWorker).toBe(3);
     expect(limits.maxFrameBytes).toBe(
-      frameLimitBytesFor({ local: { delta: 40, control: 40, extra: 70_000 } }),
+      roundFrameBytesMaxFor({ local: { delta: 40, control: 40, extra: 70_000 } }, 3),
     );
     expect(protocolLimitsSchema.safeParse(limits).success).toBe(true);
   });
@@ -187,8 +204,13 @@ describe('pendingBytesMaxFor', () => {
   });
   const controlBytes = 64 * 1024;
 
-  it('holds two exchanges of the largest downs to every client, and room for control messages', () => {
-    expect(pendingBytesMaxFor(limits, 3)).toBe(2 * 3 * limits.maxFrameBytes + controlBytes);
+  it('holds the downs frames of two exchanges, and room for control messages', () => {
+    expect(pendingBytesMaxFor(limits, 3)).toBe(2 * limits.maxFrameBytes + controlBytes);
+  });
+
+  it("holds a resumed run's state for every client when that is more", () => {
+    const stateBytes = limits.maxFrameBytes;
+    expect(pendingBytesMaxFor(limits, 3, stateBytes)).toBe(3 * stateBytes + controlBytes);
   });
 
   it('holds the welcome before any client is dealt', () => {

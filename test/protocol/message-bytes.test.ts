@@ -6,20 +6,21 @@
 // resolved sample scenario, so a new scenario default changes its bytes too (regenerate it then,
 // with the protocol version in mind). Protocol version 3 (the up's updateNotFinite marker, the
 // checkpoint and state messages, E_ORDER, and the scenario's run.checkpointEveryRounds in the
-// welcome) regenerated them by encoding the samples once more.
+// welcome) regenerated them by encoding the samples once more; so did version 4 (downs and ups
+// frames in place of down and up: positional arrays, round-frame-layout.ts; the welcome's frame
+// limit now counts a worker's clients).
 
 import { describe, expect, it } from 'vitest';
-import { encodeMessage } from '../../src/protocol/codec.js';
 import type { MessageType } from '../../src/protocol/messages.js';
-import { sampleMessages } from './sample-messages.js';
+import { encodeSample, sampleMessages } from './sample-messages.js';
 
 const EXPECTED_HEX: Record<MessageType, string> = {
   challenge: [
-    '83a474797065a96368616c6c656e6765af70726f746f636f6c56657273696f6e03a56e6f6e6365c4',
+    '83a474797065a96368616c6c656e6765af70726f746f636f6c56657273696f6e04a56e6f6e6365c4',
     '200b30557a9fc4e90e33587da2c7ec11365b80a5caef14395e83a8cdf2173c6186',
   ].join(''),
   hello: [
-    '85a474797065a568656c6c6faf70726f746f636f6c56657273696f6e03aa776f726b65724e616d65',
+    '85a474797065a568656c6c6faf70726f746f636f6c56657273696f6e04aa776f726b65724e616d65',
     'a86c6170746f702d31a8636170616369747902a570726f6f66c420721bda15cb1a1a9167c29f6df8',
     '4ee00fddae691f7e7b86353d5124526a396600',
   ].join(''),
@@ -54,21 +55,15 @@ const EXPECTED_HEX: Record<MessageType, string> = {
     '7468cc80b56d61784572726f724d6573736167654c656e677468cd0400b868656172746265617449',
     '6e74657276616c5365636f6e647305b768656172746265617453696c656e63655365636f6e64731e',
   ].join(''),
-  down: [
-    '88a474797065a4646f776ea5726f756e6403a865786368616e6765a56c6f63616ca8636c69656e74',
-    '496405aa6c6f63616c537465707304a87374657053697a65cb3f9999999999999aa66669656c6473',
-    '82a56d6f64656c85a364696d06a7696e6469636573c0a5636f756e7406a676616c756573c4300000',
-    '00000000f83f0000000000000080010000000000000000000000000002c09c7500883ce4377e9a99',
-    '99999999b93fa5776964746808a76176657261676585a364696d06a7696e6469636573c4020003a5',
-    '636f756e7402a676616c756573c4080000003f000040c0a5776964746804af646561646c696e6553',
-    '65636f6e6473cb3ff8000000000000',
+  downs: [
+    '9801010301cb3ff800000000000092c095060806c0c430000000000000f83f000000000000008001',
+    '0000000000000000000000000002c09c7500883ce4377e9a9999999999b93f940203cb3f99999999',
+    '99999a9295060401c40101c40400000040c0940504cb3f9999999999999a9295060402c4020003c4',
+    '080000003f000040c0c0',
   ].join(''),
-  up: [
-    '89a474797065a27570a5726f756e6403a865786368616e6765a56c6f63616ca8636c69656e744964',
-    '02a66669656c647381a564656c746185a364696d06a7696e6469636573c403010002a5636f756e74',
-    '03a676616c756573c40ccdcccc3d0000008001000000a5776964746804aa6c6f63616c5374657073',
-    '04ae636f6d707574655365636f6e6473cb3f70624dd2f1a9fcab776169745365636f6e647300af74',
-    '72616e736665725365636f6e6473cb3f1a36e2eb1c432d',
+  ups: [
+    '9602010301960204cb3f70624dd2f1a9fc00cb3f1a36e2eb1c432d9195060403c403010002c40ccd',
+    'cccc3d0000008001000000960502000000c0',
   ].join(''),
   heartbeat: ['82a474797065a9686561727462656174a873656e7441744d73cb4278bcfe5687b000'].join(''),
   error: [
@@ -90,7 +85,7 @@ describe('the bytes of every sample message', () => {
     const messages = sampleMessages();
     expect(messages.map((m) => m.type).sort()).toEqual(Object.keys(EXPECTED_HEX).sort());
     for (const message of messages) {
-      expect(Buffer.from(encodeMessage(message)).toString('hex'), message.type).toBe(
+      expect(Buffer.from(encodeSample(message)).toString('hex'), message.type).toBe(
         EXPECTED_HEX[message.type],
       );
     }

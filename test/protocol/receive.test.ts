@@ -2,13 +2,13 @@ import { describe, expect, it } from 'vitest';
 import { encodeMessage } from '../../src/protocol/codec.js';
 import { ProtocolError } from '../../src/protocol/errors.js';
 import { receiveMessage } from '../../src/protocol/receive.js';
-import { sampleMessages, serverContext } from './sample-messages.js';
+import { encodeSample, sampleMessages, serverContext } from './sample-messages.js';
 import { codeOf } from '../support/error-code.js';
 
 const protocolErrorCode = (action: () => unknown): string => codeOf(action, ProtocolError);
 
 describe('receiveMessage', () => {
-  const upFrame = encodeMessage(sampleMessages().find((m) => m.type === 'up')!);
+  const upFrame = encodeSample(sampleMessages().find((m) => m.type === 'ups')!);
 
   it('applies the frame limit of the context before anything else', () => {
     const limits = { ...serverContext().limits, maxFrameBytes: upFrame.length - 1 };
@@ -20,7 +20,7 @@ describe('receiveMessage', () => {
         upFrame,
         serverContext({ limits: { ...limits, maxFrameBytes: upFrame.length } }),
       ).type,
-    ).toBe('up');
+    ).toBe('ups');
   });
 
   it('reports decoding faults as E_DECODE and shape faults as E_TYPE', () => {

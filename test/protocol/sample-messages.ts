@@ -1,8 +1,10 @@
 // Messages and receiver contexts shared by the protocol tests: a worker hosting clients 2 and 5
-// of a method with a 'gradient' and a 'local' exchange, in round 3. Values are arbitrary
+// of a method with a 'gradient' and a 'local' exchange (in that order), in round 3. Values are arbitrary
 // inputs; no test asserts a number taken from here without computing it.
 
 import { proveKey } from '../../src/protocol/auth.js';
+import { encodeMessage } from '../../src/protocol/codec.js';
+import { encodeRoundFrame } from '../../src/protocol/round-frame-encode.js';
 import { HANDSHAKE_LIMITS, limitsForPlan, type ProtocolLimits } from '../../src/protocol/limits.js';
 import { NONCE_BYTES, PROTOCOL_VERSION, type Message } from '../../src/protocol/messages.js';
 import type { FieldDims } from '../../src/protocol/field-dims.js';
@@ -75,28 +77,51 @@ export function sampleMessages(): Message[] {
       limits: PLAN_LIMITS,
     },
     {
-      type: 'down',
+      type: 'downs',
       round: 3,
       exchange: 'local',
-      clientId: 5,
-      localSteps: 4,
-      stepSize: 0.025,
-      fields: {
-        model: denseF64([1.5, -0, 5e-324, -2.25, 1e300, 0.1]),
-        average: sparseF32(DIM, [0, 4], [0.5, -3]),
-      },
       deadlineSeconds: 1.5,
+      common: { model: denseF64([1.5, -0, 5e-324, -2.25, 1e300, 0.1]) },
+      entries: [
+        {
+          clientId: 2,
+          localSteps: 3,
+          stepSize: 0.025,
+          fields: { average: sparseF32(DIM, [1], [2]) },
+        },
+        {
+          clientId: 5,
+          localSteps: 4,
+          stepSize: 0.025,
+          fields: { average: sparseF32(DIM, [0, 4], [0.5, -3]) },
+        },
+      ],
     },
     {
-      type: 'up',
+      type: 'ups',
       round: 3,
       exchange: 'local',
-      clientId: 2,
-      fields: { delta: sparseF32(DIM, [1, 2, 5], [Math.fround(0.1), -0, 1.401298464324817e-45]) },
-      localSteps: 4,
-      computeSeconds: 0.004,
-      waitSeconds: 0,
-      transferSeconds: 0.0001,
+      entries: [
+        {
+          clientId: 2,
+          fields: {
+            delta: sparseF32(DIM, [1, 2, 5], [Math.fround(0.1), -0, 1.401298464324817e-45]),
+          },
+          localSteps: 4,
+          computeSeconds: 0.004,
+          waitSeconds: 0,
+          transferSeconds: 0.0001,
+        },
+        {
+          clientId: 5,
+          fields: {},
+          updateNotFinite: true,
+          localSteps: 2,
+          computeSeconds: 0,
+          waitSeconds: 0,
+          transferSeconds: 0,
+        },
+      ],
     },
     { type: 'heartbeat', sentAtMs: 1_700_000_000_123 },
     { type: 'error', code: 'E_DIMENSION', message: 'up.fields.delta.dim: the plan says 6, got 7' },
@@ -116,7 +141,7 @@ export function sampleMessages(): Message[] {
 export function serverContext(overrides: Partial<ValidationContext> = {}): ValidationContext {
   return {
     limits: PLAN_LIMITS,
-    expectedTypes: ['hello', 'up', 'state', 'heartbeat', 'error'],
+    expectedTypes: ['hello', 'ups', 'state', 'heartbeat', 'error'],
     expectedRound: 3,
     expectedExchange: 'local',
     ownedClientIds: new Set([2, 5]),
@@ -133,7 +158,7 @@ export function workerContext(overrides: Partial<ValidationContext> = {}): Valid
     expectedTypes: [
       'challenge',
       'welcome',
-      'down',
+      'downs',
       'heartbeat',
       'error',
       'done',
@@ -153,7 +178,7 @@ export function workerContext(overrides: Partial<ValidationContext> = {}): Valid
 export function contextFor(message: Message): ValidationContext {
   switch (message.type) {
     case 'hello':
-    case 'up':
+    case 'ups':
       return serverContext();
     case 'challenge':
     case 'welcome':
@@ -161,6 +186,13 @@ export function contextFor(message: Message): ValidationContext {
     default:
       return workerContext();
   }
+}
+
+/** Any message's bytes: a control message by its encoder, a round frame by the sample plan's layout. */
+export function encodeSample(message: Message): Uint8Array {
+  if (message.type === 'downs') return encodeRoundFrame(message, DOWN_FIELD_DIMS);
+  if (message.type === 'ups') return encodeRoundFrame(message, UP_FIELD_DIMS);
+  return encodeMessage(message);
 }
 
 /** Deep copy with every Uint8Array (or Buffer) as a plain byte list, for structural comparison. */

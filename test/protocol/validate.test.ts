@@ -3,15 +3,26 @@
 
 import { describe, expect, it } from 'vitest';
 import { proveKey } from '../../src/protocol/auth.js';
-import { encodeMessage } from '../../src/protocol/codec.js';
+import { encodeMessage, encodeValue } from '../../src/protocol/codec.js';
+import { encodeRoundFrame } from '../../src/protocol/round-frame-encode.js';
+import { ROUND_FRAME_LAYOUT } from '../../src/protocol/round-frame-layout.js';
+import type { WireVector } from '../../src/protocol/wire-vector.js';
 import { ProtocolError, type ProtocolErrorCode } from '../../src/protocol/errors.js';
 import { HANDSHAKE_LIMITS } from '../../src/protocol/limits.js';
-import { NONCE_BYTES, PROTOCOL_VERSION, type Message } from '../../src/protocol/messages.js';
+import {
+  NONCE_BYTES,
+  PROTOCOL_VERSION,
+  type ControlMessage,
+  type DownsFrame,
+  type Message,
+  type UpsFrame,
+} from '../../src/protocol/messages.js';
 import { receiveMessage } from '../../src/protocol/receive.js';
 import { validateMessage, type ValidationContext } from '../../src/protocol/validate.js';
 import {
   denseF64,
   DIM,
+  DOWN_FIELD_DIMS,
   NONCE,
   PLAN_LIMITS,
   sampleMessages,
@@ -19,6 +30,7 @@ import {
   serverContext,
   sparseF32,
   SHARED_KEY,
+  UP_FIELD_DIMS,
   workerContext,
 } from './sample-messages.js';
 
@@ -30,8 +42,44 @@ function sample<T extends Message['type']>(type: T): Sample<T> {
 
 /** Sends `message` (any shape) through the codec to a receiver with `context`. */
 function receive(message: object, context: ValidationContext): Message {
-  return receiveMessage(encodeMessage(message as unknown as Message), context);
+  return receiveMessage(encodeMessage(message as unknown as ControlMessage), context);
 }
+
+/** Sends a round frame as the layout writes it, under the sample plan's exchanges. */
+function receiveFrame(frame: DownsFrame | UpsFrame, context: ValidationContext): Message {
+  const dims = frame.type === 'ups' ? UP_FIELD_DIMS : DOWN_FIELD_DIMS;
+  return receiveMessage(encodeRoundFrame(frame, dims), context);
+}
+
+/** Sends a round frame's elements as they are: the faults an encoder would not write. */
+function receiveRaw(elements: unknown[], context: ValidationContext): Message {
+  return receiveMessage(encodeValue(elements), context);
+}
+
+type Entry = UpsFrame['entries'][number];
+const upEntry = (changes: Partial<Entry> = {}): Entry => ({
+  ...sample('ups').entries[0],
+  ...changes,
+});
+/** An ups frame of client 2 alone, with `changes` to its one entry. */
+const up = (changes: Partial<Entry> = {}, frame: Partial<UpsFrame> = {}): UpsFrame => ({
+  ...sample('ups'),
+  entries: [upEntry(changes)],
+  ...frame,
+});
+const down = (changes: Partial<DownsFrame> = {}): DownsFrame => ({
+  ...sample('downs'),
+  ...changes,
+});
+/** The vector [dim, width, count, indices, values] as a frame holds it. */
+const slot = (wv: WireVector): unknown[] => [wv.dim, wv.width, wv.count, wv.indices, wv.values];
+/** A raw ups frame, round 3, exchange 'local' (index 1), with these entries. */
+const rawUps = (...entries: unknown[]): unknown[] => [2, ROUND_FRAME_LAYOUT, 3, 1, ...entries];
+const rawEntry = (fields: unknown[] | null, changes: Record<number, unknown> = {}): unknown[] => {
+  const entry: unknown[] = [2, 4, 0.004, 0, 0.0001, fields];
+  for (const [i, v] of Object.entries(changes)) entry[Number(i)] = v;
+  return entry;
+};
 
 function errorOf(action: () => unknown): ProtocolError {
   try {
@@ -49,25 +97,30 @@ function expectCode(code: ProtocolErrorCode, action: () => unknown, messagePart?
   if (messagePart !== undefined) expect(error.message).toContain(messagePart);
 }
 
-const up = (changes: Record<string, unknown>) => ({ ...sample('up'), ...changes });
-const down = (changes: Record<string, unknown>) => ({ ...sample('down'), ...changes });
 const hello = (changes: Record<string, unknown>) => ({ ...sample('hello'), ...changes });
 const handshake = workerContext({ limits: HANDSHAKE_LIMITS });
 
 describe('validateMessage accepts', () => {
-  it('a down for any exchange of the method on a worker, and an up for the current one on the server', () => {
-    expect(
-      receive(
-        down({ exchange: 'gradient', round: 17, fields: { model: denseF64([1, 2, 3, 4, 5, 6]) } }),
-        workerContext(),
-      ).type,
-    ).toBe('down');
-    expect(receive(up({}), serverContext()).type).toBe('up');
+  it('downs for any exchange of the method on a worker, and ups for the current one on the server', () => {
+    const gradient = down({
+      exchange: 'gradient',
+      round: 17,
+      common: { model: denseF64([1, 2, 3, 4, 5, 6]) },
+      entries: sample('downs').entries.map((e) => ({ ...e, fields: {} })),
+    });
+    expect(receiveFrame(gradient, workerContext()).type).toBe('downs');
+    expect(receiveFrame(sample('downs'), workerContext())).toMatchObject({
+      type: 'downs',
+      entries: [{ clientId: 2 }, { clientId: 5 }],
+    });
+    expect(receiveFrame(sample('ups'), serverContext()).type).toBe('ups');
   });
-
-  it("an up saying its client's update was not finite, with no fields", () => {
-    const message = receive(up({ fields: {}, updateNotFinite: true }), serverContext());
-    expect(message).toMatchObject({ type: 'up', fields: {}, updateNotFinite: true });
+  it("an up entry saying its client's update was not finite, with no fields", () => {
+    const message = receiveFrame(up({ fields: {}, updateNotFinite: true }), serverContext());
+    expect(message).toMatchObject({
+      type: 'ups',
+      entries: [{ fields: {}, updateNotFinite: true }],
+    });
   });
 });
 
@@ -95,72 +148,80 @@ describe('E_TYPE', () => {
   it('a known type the receiver does not expect now', () => {
     expectCode(
       'E_TYPE',
-      () => receive(sample('up'), serverContext({ expectedTypes: ['hello'] })),
-      '"up" is not expected now (expected hello)',
+      () => receiveFrame(sample('ups'), serverContext({ expectedTypes: ['hello'] })),
+      '"ups" is not expected now (expected hello)',
     );
   });
 
-  it('a missing field, an extra field, a field of the wrong type, naming the path', () => {
-    const { localSteps: _omitted, ...withoutSteps } = sample('up');
-    expectCode('E_TYPE', () => receive(withoutSteps, serverContext()), 'up.localSteps');
-    expectCode('E_TYPE', () => receive(up({ extra: 1 }), serverContext()), 'extra');
-    expectCode('E_TYPE', () => receive(up({ round: '3' }), serverContext()), 'up.round');
-    expectCode('E_TYPE', () => receive(up({ clientId: -1 }), serverContext()), 'up.clientId');
+  it('a missing slot, an extra slot, a slot of the wrong type, naming the path', () => {
+    const delta = slot(denseF64([1, 2, 3, 4, 5, 6]));
     expectCode(
       'E_TYPE',
-      () => receive(down({ deadlineSeconds: 0 }), workerContext()),
-      'down.deadlineSeconds',
+      () => receiveRaw(rawUps(rawEntry([delta]).slice(0, 5)), serverContext()),
+      'ups.entries[0]',
     );
-    const vector = { ...denseF64([1, 2, 3, 4, 5, 6]), values: [1, 2] };
     expectCode(
       'E_TYPE',
-      () => receive(up({ fields: { delta: vector } }), serverContext()),
-      'up.fields.delta.values',
+      () => receiveRaw(rawUps([...rawEntry([delta]), 1]), serverContext()),
+      'ups.entries[0]',
+    );
+    expectCode(
+      'E_TYPE',
+      () => receiveRaw([2, ROUND_FRAME_LAYOUT, '3', 1, rawEntry([delta])], serverContext()),
+      'ups.round',
+    );
+    expectCode(
+      'E_TYPE',
+      () => receiveRaw(rawUps(rawEntry([delta], { 0: -1 })), serverContext()),
+      'ups.entries[0].clientId',
+    );
+    expectCode(
+      'E_TYPE',
+      () => receiveFrame(down({ deadlineSeconds: 0 }), workerContext()),
+      'downs.deadlineSeconds',
+    );
+    const wrongValues = [6, 8, 6, null, [1, 2]];
+    expectCode(
+      'E_TYPE',
+      () => receiveRaw(rawUps(rawEntry([wrongValues])), serverContext()),
+      'ups.entries[0].fields.[0].values',
     );
   });
 
-  it('a not-finite mark that is not true, or that comes with fields', () => {
+  it('a frame without entries, an unknown kind', () => {
+    expectCode('E_TYPE', () => receiveRaw(rawUps(), serverContext()), 'at least one entry');
+    expectCode('E_TYPE', () => receiveRaw([9, 1, 3, 1], serverContext()), 'not a round frame kind');
+  });
+  it('more or fewer slots than the exchange has fields, a field both common and in an entry, or in neither', () => {
+    const vector = slot(denseF64([1, 2, 3, 4, 5, 6]));
     expectCode(
       'E_TYPE',
-      () => receive(up({ fields: {}, updateNotFinite: false }), serverContext()),
-      'up.updateNotFinite',
+      () => receiveRaw(rawUps(rawEntry([vector, vector])), serverContext()),
+      'ups.entries[0].fields: 2 slots, the exchange "local" has 1 fields (delta)',
+    );
+    // Both, and neither: written by hand, since the encoder puts every field in one place.
+    // The exchange 'local' has the fields average and model, in that slot order.
+    const average = slot(sample('downs').entries[0].fields.average);
+    const model = slot(denseF64([1, 2, 3, 4, 5, 6]));
+    expectCode(
+      'E_TYPE',
+      () =>
+        receiveRaw(
+          [1, ROUND_FRAME_LAYOUT, 3, 1, null, [null, model], [2, 3, 0.025, [average, model]]],
+          workerContext(),
+        ),
+      'downs.entries[0].fields.model: also in the common section',
     );
     expectCode(
       'E_TYPE',
-      () => receive(up({ updateNotFinite: true }), serverContext()),
-      'up.fields: must be empty',
+      () =>
+        receiveRaw(
+          [1, ROUND_FRAME_LAYOUT, 3, 1, null, [null, null], [2, 3, 0.025, [average, null]]],
+          workerContext(),
+        ),
+      'downs.entries[0].fields.model: missing',
     );
   });
-
-  it('a field the exchange does not have, or a missing one', () => {
-    const vector = denseF64([1, 2, 3, 4, 5, 6]);
-    expectCode(
-      'E_TYPE',
-      () => receive(up({ fields: { delta: vector, extra: vector } }), serverContext()),
-      'up.fields.extra: not a field',
-    );
-    expectCode(
-      'E_TYPE',
-      () => receive(down({ fields: { model: vector } }), workerContext()),
-      'down.fields.average: missing',
-    );
-  });
-
-  it('a field or exchange name that is not an ASCII identifier', () => {
-    const vector = denseF64([1, 2, 3, 4, 5, 6]);
-    expectCode(
-      'E_TYPE',
-      () => receive(up({ fields: { 'de lta': vector } }), serverContext({ fieldDims: null })),
-      '"de lta" is not a name',
-    );
-    expectCode('E_TYPE', () =>
-      receive(
-        up({ exchange: 'lo\ncal' }),
-        serverContext({ expectedExchange: null, fieldDims: null }),
-      ),
-    );
-  });
-
   it('a worker name with control characters, a short proof or nonce, unsorted assignments, an unknown error code', () => {
     expectCode(
       'E_TYPE',
@@ -264,38 +325,44 @@ describe('E_VERSION', () => {
 });
 
 describe('E_ROUND', () => {
-  it('an up for another round or exchange than the one in progress', () => {
+  it('ups for another round or exchange than the one in progress', () => {
     expectCode(
       'E_ROUND',
-      () => receive(up({ round: 2 }), serverContext()),
+      () => receiveFrame(up({}, { round: 2 }), serverContext()),
       'expected round 3, got 2',
     );
     expectCode(
       'E_ROUND',
       () =>
-        receive(
-          up({ exchange: 'gradient', fields: { gradient: denseF64([1, 2, 3, 4, 5, 6]) } }),
+        receiveFrame(
+          up({ fields: { gradient: denseF64([1, 2, 3, 4, 5, 6]) } }, { exchange: 'gradient' }),
           serverContext(),
         ),
       'expected "local"',
     );
   });
-
-  it('a down for an exchange the method does not have', () => {
+  it('downs for an exchange index the method does not have', () => {
     expectCode(
       'E_ROUND',
-      () => receive(down({ exchange: 'prox' }), workerContext()),
-      '"prox" is not an exchange',
+      () => receiveRaw([1, ROUND_FRAME_LAYOUT, 3, 2, null, [null]], workerContext()),
+      'downs.exchange: index 2, the method has 2 exchanges',
     );
   });
 });
 
 describe('E_CLIENT', () => {
-  it('a client id the worker does not host, on either end', () => {
-    expectCode('E_CLIENT', () => receive(up({ clientId: 3 }), serverContext()), 'client 3');
-    expectCode('E_CLIENT', () => receive(down({ clientId: 0 }), workerContext()));
+  it('a client id the worker does not host, on either end, or a client twice in one frame', () => {
+    expectCode('E_CLIENT', () => receiveFrame(up({ clientId: 3 }), serverContext()), 'client 3');
+    const [first, second] = sample('downs').entries;
+    expectCode('E_CLIENT', () =>
+      receiveFrame(down({ entries: [{ ...first, clientId: 0 }, second] }), workerContext()),
+    );
+    expectCode(
+      'E_CLIENT',
+      () => receiveFrame(up({}, { entries: [upEntry(), upEntry()] }), serverContext()),
+      'ups.entries[1].clientId: client 2 is in the frame twice',
+    );
   });
-
   it("a welcome assigning a client beyond the plan's clients", () => {
     expectCode(
       'E_CLIENT',
@@ -309,7 +376,7 @@ describe('E_DIMENSION', () => {
   it("a dimension other than the plan's", () => {
     expectCode(
       'E_DIMENSION',
-      () => receive(up({ fields: { delta: denseF64([1, 2, 3, 4, 5]) } }), serverContext()),
+      () => receiveFrame(up({ fields: { delta: denseF64([1, 2, 3, 4, 5]) } }), serverContext()),
       'the plan says 6, got 5',
     );
   });
@@ -318,8 +385,8 @@ describe('E_DIMENSION', () => {
     const vector = { ...sparseF32(DIM + 1, [1, DIM], [1, 2]), dim: DIM };
     expectCode(
       'E_DIMENSION',
-      () => receive(up({ fields: { delta: vector } }), serverContext()),
-      'up.fields.delta.indices',
+      () => receiveFrame(up({ fields: { delta: vector } }), serverContext()),
+      'ups.entries[0].fields.delta.indices',
     );
   });
 
@@ -327,11 +394,11 @@ describe('E_DIMENSION', () => {
     const vector = sparseF32(DIM, [1, 2], [1, 2]);
     expectCode(
       'E_DIMENSION',
-      () => receive(up({ fields: { delta: { ...vector, count: 1 } } }), serverContext()),
-      'up.fields.delta.values',
+      () => receiveFrame(up({ fields: { delta: { ...vector, count: 1 } } }), serverContext()),
+      'ups.entries[0].fields.delta.values',
     );
     expectCode('E_DIMENSION', () =>
-      receive(
+      receiveFrame(
         up({ fields: { delta: { ...vector, count: 3, values: new Uint8Array(12) } } }),
         serverContext(),
       ),
@@ -345,21 +412,37 @@ describe('E_NOT_FINITE', () => {
     new DataView(vector.values.buffer).setFloat64(16, -Infinity, true);
     expectCode(
       'E_NOT_FINITE',
-      () => receive(up({ fields: { delta: vector } }), serverContext()),
-      'up.fields.delta.values: value 2 is -Infinity',
+      () => receiveFrame(up({ fields: { delta: vector } }), serverContext()),
+      'ups.entries[0].fields.delta.values: value 2 is -Infinity',
     );
   });
 
   it('NaN or an infinity in a scalar', () => {
     expectCode(
       'E_NOT_FINITE',
-      () => receive(up({ computeSeconds: Infinity }), serverContext()),
-      'up.computeSeconds',
+      () =>
+        receiveRaw(
+          rawUps(rawEntry([slot(denseF64([1, 2, 3, 4, 5, 6]))], { 2: Infinity })),
+          serverContext(),
+        ),
+      'ups.entries[0].computeSeconds',
     );
     expectCode(
       'E_NOT_FINITE',
-      () => receive(down({ stepSize: NaN }), workerContext()),
-      'down.stepSize',
+      () =>
+        receiveRaw(
+          [
+            1,
+            ROUND_FRAME_LAYOUT,
+            3,
+            0,
+            null,
+            [null],
+            [2, 1, NaN, [slot(denseF64([1, 2, 3, 4, 5, 6]))]],
+          ],
+          workerContext(),
+        ),
+      'downs.entries[0].stepSize',
     );
     expectCode(
       'E_NOT_FINITE',
@@ -370,26 +453,22 @@ describe('E_NOT_FINITE', () => {
 });
 
 describe('E_SIZE', () => {
-  const vector = denseF64([1, 2, 3, 4, 5, 6]);
-
-  it('more fields than the limit', () => {
-    const fields = { a: vector, b: vector, c: vector };
+  it('more entries than the worker has clients', () => {
+    const limits = { ...PLAN_LIMITS, maxClientsPerWorker: 1 };
     expectCode(
       'E_SIZE',
-      () => receive(up({ fields }), serverContext({ fieldDims: null })),
-      '3 fields, at most 2',
+      () => receiveFrame(sample('downs'), workerContext({ limits })),
+      'downs.entries: 2 entries, at most 1',
     );
   });
-
-  it('a dimension beyond the limit, even when the plan is not checked', () => {
+  it('a dimension beyond the limit', () => {
     const big = denseF64(new Array(DIM + 1).fill(0));
     expectCode(
       'E_SIZE',
-      () => receive(up({ fields: { delta: big } }), serverContext({ fieldDims: null })),
+      () => receiveRaw(rawUps(rawEntry([slot(big)])), serverContext()),
       'exceeds the limit of 6',
     );
   });
-
   it('strings beyond their limits', () => {
     expectCode(
       'E_SIZE',
@@ -399,11 +478,6 @@ describe('E_SIZE', () => {
           serverContext(),
         ),
       'hello.workerName',
-    );
-    expectCode(
-      'E_SIZE',
-      () => receive(up({ exchange: 'x'.repeat(65) }), serverContext()),
-      'up.exchange',
     );
     expectCode(
       'E_SIZE',

@@ -20,7 +20,7 @@ describe('PeerBudget', () => {
     const heartbeatEvery = (HANDSHAKE_LIMITS.heartbeatIntervalSeconds * 1000) / 0.1;
     for (let exchange = 0; exchange < 100_000; exchange++) {
       const nowMs = exchange * 0.1;
-      for (let client = 0; client < 8; client++) budget.grant();
+      for (let client = 0; client < 8; client++) budget.grant(1);
       for (let client = 0; client < 8; client++) {
         const bytes = exchange % 2 === 0 ? SMALL_UP_BYTES : LARGE_UP_BYTES;
         admissions.add(budget.admitMessage(nowMs, bytes, CONTROL_BYTES));
@@ -43,7 +43,7 @@ describe('PeerBudget', () => {
   it('marks a frame larger than a control message without a down to answer as uncredited', () => {
     const budget = new PeerBudget(0);
     expect(budget.admitMessage(0, LARGE_UP_BYTES, CONTROL_BYTES)).toBe('uncredited');
-    budget.grant();
+    budget.grant(1);
     expect(budget.admitMessage(0, LARGE_UP_BYTES, CONTROL_BYTES)).toBe('credited');
     expect(budget.admitMessage(0, LARGE_UP_BYTES, CONTROL_BYTES)).toBe('uncredited');
   });

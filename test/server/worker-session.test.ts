@@ -14,7 +14,7 @@ import {
   CONNECTION_LIMITS,
   encodeMessage,
   type FrameFailure,
-  type Message,
+  type ControlMessage,
 } from '../../src/protocol/index.js';
 import {
   WorkerSession,
@@ -90,7 +90,7 @@ describe('WorkerSession', () => {
     const session = new WorkerSession(1, ws, socket, () => 0, 1024, NO_HOOKS);
     const readsAtStart = bytesWrittenReads();
     // Error messages with texts of 0, 200 and 70 000 characters: each header form once.
-    const messages: Message[] = [0, 200, 70_000].map((n) => ({
+    const messages: ControlMessage[] = [0, 200, 70_000].map((n) => ({
       type: 'error',
       code: 'E_DECODE',
       message: 'x'.repeat(n),
@@ -171,25 +171,23 @@ describe('WorkerSession', () => {
     expect((ws as unknown as { closedWith: number }).closedWith).toBe(1008);
   });
 
-  it("holds a large message without a down to answer to the control size, and one with a down to the plan's", () => {
+  it("holds a large message without an entry to answer to the control size, and one per entry of a downs frame to the plan's", () => {
     const { socket, ws } = fakeConnection();
     const frameLimits: number[] = [];
     const session = new WorkerSession(1, ws, socket, () => 0, 600, NO_HOOKS);
     session.authenticate(LIMITS);
     session.onFrame((_, __, frameLimitBytes) => frameLimits.push(frameLimitBytes));
     ws.emit('message', Buffer.alloc(50_000));
-    session.send({
-      type: 'down',
-      round: 1,
-      exchange: 'local',
-      clientId: 0,
-      localSteps: 1,
-      stepSize: 0.1,
-      fields: {},
-      deadlineSeconds: null,
-    });
-    ws.emit('message', Buffer.alloc(50_000));
-    expect(frameLimits).toEqual([LIMITS.controlFrameBytesMax, LIMITS.frameLimitBytes]);
+    // A downs frame of two entries: two large messages may answer it (wall clock: one ups frame
+    // per client at worst), the third may not.
+    session.sendDowns(new Uint8Array(16), 2);
+    for (let i = 0; i < 3; i++) ws.emit('message', Buffer.alloc(50_000));
+    expect(frameLimits).toEqual([
+      LIMITS.controlFrameBytesMax,
+      LIMITS.frameLimitBytes,
+      LIMITS.frameLimitBytes,
+      LIMITS.controlFrameBytesMax,
+    ]);
   });
 
   it('drops a peer that does not read once the bytes queued for it pass the bound', () => {
@@ -200,7 +198,7 @@ describe('WorkerSession', () => {
       onLimit: (_, reason) => limits.push(reason),
     });
     session.authenticate(LIMITS);
-    const heartbeat: Message = { type: 'heartbeat', sentAtMs: 0 };
+    const heartbeat: ControlMessage = { type: 'heartbeat', sentAtMs: 0 };
     Object.assign(ws, { bufferedAmount: LIMITS.pendingBytesMax });
     session.send(heartbeat);
     expect(limits).toEqual([]);

@@ -1,0 +1,143 @@
+// Round frames from pre-encoded pieces (layout: round-frame-layout.ts). A MessagePack array is
+// its header followed by its elements' encodings one after another, so a frame is assembled by
+// concatenation: the coordinator encodes the part of a downs frame that every worker's frame of
+// an exchange shares (the header elements and the common section, which holds the broadcast)
+// once, and each worker's frame is that piece, the worker's entries and an array header. The
+// length of each entry's piece is what the byte ledger counts as that client's own.
+
+import { concatArray, encodeValue } from './codec.js';
+import type { FieldDims } from './field-dims.js';
+import type { DownEntry, DownsFrame, UpEntry, UpsFrame, WireFields } from './messages.js';
+import {
+  DOWNS_HEADER_ELEMENTS,
+  ROUND_FRAME_KINDS,
+  ROUND_FRAME_LAYOUT,
+  UPS_HEADER_ELEMENTS,
+  exchangeSlots,
+  fieldSlots,
+} from './round-frame-layout.js';
+import type { WireVector } from './wire-vector.js';
+
+function vectorElement(wv: WireVector): unknown[] {
+  return [wv.dim, wv.width, wv.count, wv.indices, wv.values];
+}
+
+/** What every worker's downs frame of one exchange shares, encoded once. */
+export interface DownsPrefix {
+  /** the header elements and the common section, encoded */
+  bytes: Uint8Array;
+  /** the exchange's field names in slot order */
+  slots: readonly string[];
+  /** the fields the common section holds */
+  common: ReadonlySet<string>;
+}
+
+/**
+ * Encodes the shared part of an exchange's downs frames. `fieldNames` are every field of the
+ * exchange (any order); `common` holds those every entry receives alike.
+ */
+export function encodeDownsPrefix(
+  round: number,
+  exchangeIndex: number,
+  deadlineSeconds: number | null,
+  fieldNames: readonly string[],
+  common: WireFields,
+): DownsPrefix {
+  const slots = fieldSlots(fieldNames);
+  const commonSlots = slots.map((name) =>
+    Object.hasOwn(common, name) ? vectorElement(common[name]) : null,
+  );
+  const header = [
+    ROUND_FRAME_KINDS.downs,
+    ROUND_FRAME_LAYOUT,
+    round,
+    exchangeIndex,
+    deadlineSeconds,
+    commonSlots,
+  ];
+  return {
+    bytes: concatPieces(header.map(encodeValue)),
+    slots,
+    common: new Set(Object.keys(common)),
+  };
+}
+
+/** One client's entry of a downs frame: its own fields (every field not in the common section). */
+export function encodeDownEntry(entry: DownEntry, prefix: DownsPrefix): Uint8Array {
+  const fields = prefix.slots.map((name) => {
+    if (prefix.common.has(name)) return null;
+    const wv = entry.fields[name];
+    if (wv === undefined)
+      throw new RangeError(`down entry of client ${entry.clientId}: no "${name}"`);
+    return vectorElement(wv);
+  });
+  return encodeValue([entry.clientId, entry.localSteps, entry.stepSize, fields]);
+}
+
+/** A worker's downs frame: the shared prefix and its entries (ascending client id). */
+export function assembleDownsFrame(
+  prefix: DownsPrefix,
+  entries: readonly Uint8Array[],
+): Uint8Array {
+  return concatArray(DOWNS_HEADER_ELEMENTS + entries.length, [prefix.bytes, ...entries]);
+}
+
+/** One client's entry of an ups frame. */
+export function encodeUpEntry(entry: UpEntry): Uint8Array {
+  const fields =
+    entry.updateNotFinite === true
+      ? null
+      : fieldSlots(Object.keys(entry.fields)).map((name) => vectorElement(entry.fields[name]));
+  return encodeValue([
+    entry.clientId,
+    entry.localSteps,
+    entry.computeSeconds,
+    entry.waitSeconds,
+    entry.transferSeconds,
+    fields,
+  ]);
+}
+
+/** An ups frame from its encoded entries. */
+export function assembleUpsFrame(
+  round: number,
+  exchangeIndex: number,
+  entries: readonly Uint8Array[],
+): Uint8Array {
+  const header = [ROUND_FRAME_KINDS.ups, ROUND_FRAME_LAYOUT, round, exchangeIndex].map(encodeValue);
+  return concatArray(UPS_HEADER_ELEMENTS + entries.length, [...header, ...entries]);
+}
+
+/**
+ * A whole round frame in one call, for a sender with no pieces to reuse (a worker's tools, tests):
+ * `fieldDims` is the plan's for the frame's direction, in the method's exchange order.
+ */
+export function encodeRoundFrame(frame: DownsFrame | UpsFrame, fieldDims: FieldDims): Uint8Array {
+  const exchangeIndex = exchangeSlots(fieldDims).indexOf(frame.exchange);
+  if (exchangeIndex < 0) throw new RangeError(`"${frame.exchange}" is not an exchange of the plan`);
+  if (frame.type === 'ups')
+    return assembleUpsFrame(frame.round, exchangeIndex, frame.entries.map(encodeUpEntry));
+  const prefix = encodeDownsPrefix(
+    frame.round,
+    exchangeIndex,
+    frame.deadlineSeconds,
+    Object.keys(fieldDims[frame.exchange]),
+    frame.common,
+  );
+  return assembleDownsFrame(
+    prefix,
+    frame.entries.map((entry) => encodeDownEntry(entry, prefix)),
+  );
+}
+
+function concatPieces(pieces: readonly Uint8Array[]): Uint8Array {
+  let length = 0;
+  for (const piece of pieces) length += piece.byteLength;
+  const out = new Uint8Array(length);
+  let offset = 0;
+  for (const piece of pieces) {
+    out.set(piece, offset);
+    offset += piece.byteLength;
+  }
+  return out;
+}
