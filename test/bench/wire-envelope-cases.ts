@@ -1,7 +1,7 @@
 // The wire suite of `npm run bench`: how many bytes one upload puts on the socket beside the
-// information it carries. One real `up` message is encoded with the protocol's public encoder
-// (src/protocol/index.ts) and framed as a worker sends it: RFC 6455 section 5.2 header, masked
-// (section 5.3: every frame from a client is masked). A top-k upload is measured against the
+// information it carries. One client's upload alone in a real `ups` frame is encoded with the
+// protocol's public encoder (src/protocol/index.ts) and framed as a worker sends it: RFC 6455
+// section 5.2 header, masked (section 5.3: every frame from a client is masked). A top-k upload is measured against the
 // information bound of its content, k values plus log2 C(d, k) bits for which k of d positions
 // (the entropy of a uniform k-subset, common practice); a dense upload against its payload, d
 // values. Both are sizes, computed once: no timing.
@@ -10,7 +10,7 @@ import { Rng } from '../../src/base/rng.js';
 import { compress } from '../../src/compress/compressor.js';
 import type { CompressedVector } from '../../src/compress/compressed-vector.js';
 import { informationBoundBits, payloadBytes } from '../../src/compress/payload-bytes.js';
-import { encodeMessage, frameHeaderBytes, toWire } from '../../src/protocol/index.js';
+import { encodeRoundFrame, frameHeaderBytes, toWire } from '../../src/protocol/index.js';
 import { benchTarget, type BenchResult } from './bench-report.js';
 
 export interface WireEnvelopeSizes {
@@ -28,21 +28,31 @@ export const WIRE_TARGETS = { sparseOverBound: 1.15, denseOverPayload: 1.002 };
 
 const F64_BYTES = 8;
 
-/** Bytes one `up` of a client's update puts on the socket: the encoded message and its frame header. */
+/**
+ * Bytes one client's upload puts on the socket alone in its worker's `ups` frame (protocol 4:
+ * one frame per worker per exchange): the encoded frame and its header.
+ */
 export function upWireBytes(update: CompressedVector): number {
   // A round and client id past the one-byte integers, and timings that are not round numbers,
   // as a long run's ups are.
-  const encoded = encodeMessage({
-    type: 'up',
-    round: 1_234,
-    exchange: 'local',
-    clientId: 987,
-    fields: { delta: toWire(update, 'delta') },
-    localSteps: 1,
-    computeSeconds: 0.0123456789,
-    waitSeconds: 0.0031415926,
-    transferSeconds: 0.0027182818,
-  });
+  const encoded = encodeRoundFrame(
+    {
+      type: 'ups',
+      round: 1_234,
+      exchange: 'local',
+      entries: [
+        {
+          clientId: 987,
+          fields: { delta: toWire(update, 'delta') },
+          localSteps: 1,
+          computeSeconds: 0.0123456789,
+          waitSeconds: 0.0031415926,
+          transferSeconds: 0.0027182818,
+        },
+      ],
+    },
+    { local: { delta: update.dim } },
+  );
   return encoded.byteLength + frameHeaderBytes(encoded.byteLength, true);
 }
 
