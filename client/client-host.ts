@@ -1,7 +1,7 @@
-// The clients a worker hosts. One client works on the worker's own thread; several work on a
-// piscina pool (client-task.ts), each client's state passed to the task as a snapshot and
-// taken back, so that clients run in parallel while each stays bit for bit what it would be
-// on one thread. A client's exchanges run strictly in the order its downs arrived.
+// The clients a worker hosts. One client, or clients whose exchanges are light
+// (hosting-mode.ts), work on the worker's own thread; others work on a piscina pool
+// (client-task.ts), each client's state passed to the task as a snapshot and taken back, so that
+// clients run in parallel while each stays bit for bit what it would be on one thread. A client's exchanges run strictly in the order its downs arrived.
 
 import { performance } from 'node:perf_hooks';
 import { availableParallelism } from 'node:os';
@@ -21,6 +21,7 @@ import { hashOf } from '../src/scenario/plan-hash.js';
 import { compiledModulePath } from '../runtime/compiled-module.js';
 import type { ClientTask, ClientTaskNonFinite, ClientTaskResult } from './client-task.js';
 import { CodedError } from '../src/base/coded-error.js';
+import { hostsInline } from './hosting-mode.js';
 
 export interface HostedWork {
   clientId: number;
@@ -57,7 +58,11 @@ export class ClientHost {
   constructor(plan: WirePlan, clientIds: readonly number[], options: ClientHostOptions) {
     this.plan = plan;
     this.planKey = hashOf(plan);
-    if (clientIds.length <= 1) {
+    const threads = Math.max(
+      1,
+      Math.min(clientIds.length, options.threadsMax, availableParallelism()),
+    );
+    if (hostsInline(plan, clientIds, threads)) {
       this.inline = new Map(
         clientIds.map((id) => [
           id,
@@ -67,10 +72,6 @@ export class ClientHost {
       this.pool = null;
     } else {
       this.inline = null;
-      const threads = Math.max(
-        1,
-        Math.min(clientIds.length, options.threadsMax, availableParallelism()),
-      );
       this.pool = new Piscina<ClientTask, ClientTaskResult | ClientTaskNonFinite>({
         filename: compiledModulePath(import.meta.url, 'client-task.js'),
         minThreads: threads,

@@ -110,14 +110,15 @@ export interface MemoryEstimate {
   localClusterBytes: number;
 }
 
-interface DataShape {
+export interface DataShape {
   /** n_i in client order (a data set's pool is dealt evenly) */
   samplesPerClient: number[];
   features: number;
   pooled: boolean;
 }
 
-function dataShape(scenario: Scenario): DataShape {
+/** Every client's sample count and the feature count, from the scenario alone (nothing built). */
+export function dataShape(scenario: Scenario): DataShape {
   const data = scenario.data;
   const m = scenario.clients.count;
   if (data.source === 'dataset') {

@@ -1,11 +1,15 @@
 // A client's state survives the trip to a pool thread and back: running every exchange through
 // clientTask (fresh runtime, restore the snapshot, work, snapshot again; the snapshot
 // structured-cloned each way as worker_threads does) gives the very bits that one long-lived
-// ClientRuntime gives. SCAFFOLD keeps a control variate, and top-k with error feedback on both
-// channels keeps memories and replicas, so every part of the snapshot matters.
+// ClientRuntime gives; and a ClientHost whose clients are heavy enough for its thread pool
+// computes the same bits through the real pool. SCAFFOLD keeps a control variate, and top-k with
+// error feedback on both channels keeps memories and replicas, so every part of the snapshot
+// matters.
 
 import { describe, expect, it } from 'vitest';
 import clientTask from '../../client/client-task.js';
+import { ClientHost } from '../../client/client-host.js';
+import { hostsInline } from '../../client/hosting-mode.js';
 import { ClientRuntime, type EncodedFields } from '../../src/engine/client-runtime.js';
 import { ServerRuntime } from '../../src/engine/server-runtime.js';
 import { planFor } from '../../src/engine/in-process-engine.js';
@@ -66,4 +70,57 @@ describe('clientTask snapshots', () => {
       ]);
     }
   });
+});
+
+describe('ClientHost on its thread pool', () => {
+  it('computes heavy clients on the pool, bit for bit what direct runtimes compute', async () => {
+    // 500 samples x d = 100 x 5 local steps: 4 n d tau = 1e6 flops an exchange, at the inline
+    // bound (client/hosting-mode.ts), so the host uses its pool.
+    const scenario = loadScenarioFile(`${repoRoot}scenarios/quickstart.yaml`, [
+      'method.name:scaffold',
+      'data.samplesPerClient:500',
+      'data.features:100',
+    ]);
+    const { plan } = planFor(scenario);
+    const ids = [2, 5];
+    expect(hostsInline(plan, ids, 2)).toBe(false);
+    const host = new ClientHost(plan, ids, { threadsMax: 2 });
+    try {
+      const server = new ServerRuntime(plan);
+      const direct = ids.map((id) => new ClientRuntime(plan, id, clientObjective(scenario, id)));
+      for (let round = 1; round <= 3; round++) {
+        const broadcast = server.broadcast('local');
+        const downs = ids.map((id) => server.encodeDown(id, round, 'local', broadcast));
+        const hosted = await Promise.all(
+          ids.map((clientId, i) =>
+            host.work({
+              clientId,
+              round,
+              exchange: 'local',
+              encodedDown: downs[i],
+              localSteps: 5,
+              stepSize: plan.methodConfig.stepSize,
+            }),
+          ),
+        );
+        ids.forEach((_, i) => {
+          const expected = direct[i].work(round, 'local', downs[i], 5, plan.methodConfig.stepSize);
+          expect(bits(hosted[i].encodedUp), `round ${round} client ${ids[i]}`).toBe(
+            bits(expected.encodedUp),
+          );
+        });
+        server.aggregate(
+          'local',
+          ids.map((clientId, i) => ({
+            clientId,
+            stepsTaken: hosted[i].stepsTaken,
+            stepSize: plan.methodConfig.stepSize,
+            encodedUp: hosted[i].encodedUp,
+          })),
+        );
+      }
+    } finally {
+      await host.close();
+    }
+  }, 60_000);
 });
