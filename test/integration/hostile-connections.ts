@@ -20,6 +20,15 @@ import { runInProcessInto } from '../../src/commands/run-report.js';
 import { resultFiles } from '../../src/results/results-folder.js';
 import type { ClientRoundRecord, RoundRecord } from '../../src/engine/round-record.js';
 import { freshDir, readJsonLines } from './cli-process.js';
+import type { ClientRuntime, EncodedFields } from '../../src/engine/client-runtime.js';
+import {
+  fromWire,
+  toWire,
+  type DownEntry,
+  type DownsFrame,
+  type UpEntry,
+  type WireFields,
+} from '../../src/protocol/index.js';
 
 /** RFC 6455 section 5.2 opcodes and bits. */
 export const OP = { continuation: 0x0, text: 0x1, binary: 0x2, close: 0x8, ping: 0x9 } as const;
@@ -198,4 +207,31 @@ export function expectRecordsOfCleanRun(out: string): void {
   expect(readJsonLines<ClientRoundRecord>(join(out, resultFiles.clients)).map(comparable)).toEqual(
     readJsonLines<ClientRoundRecord>(join(clean, resultFiles.clients)).map(comparable),
   );
+}
+
+/**
+ * The up an honest worker answers `entry` of a downs frame with: its client's runtime works the
+ * down (the frame's common fields and the entry's own), timings zero.
+ */
+export function honestUpEntry(
+  runtimes: ReadonlyMap<number, ClientRuntime>,
+  frame: DownsFrame,
+  entry: DownEntry,
+): UpEntry {
+  const encodedDown: EncodedFields = {};
+  for (const [name, wv] of Object.entries({ ...frame.common, ...entry.fields }))
+    encodedDown[name] = fromWire(wv);
+  const result = runtimes
+    .get(entry.clientId)!
+    .work(frame.round, frame.exchange, encodedDown, entry.localSteps, entry.stepSize);
+  const fields: WireFields = {};
+  for (const [name, cv] of Object.entries(result.encodedUp)) fields[name] = toWire(cv);
+  return {
+    clientId: entry.clientId,
+    fields,
+    localSteps: result.stepsTaken,
+    computeSeconds: 0,
+    waitSeconds: 0,
+    transferSeconds: 0,
+  };
 }

@@ -14,7 +14,6 @@ import {
   encodeMessage,
   encodeRoundFrame,
   FrameElements,
-  fromWire,
   HANDSHAKE_LIMITS,
   proveKey,
   PROTOCOL_VERSION,
@@ -25,10 +24,9 @@ import {
   type FieldDims,
   type UpEntry,
   type UpsFrame,
-  type WireFields,
 } from '../../src/protocol/index.js';
 import { downFieldDimsFor } from '../../src/engine/down-field-dims.js';
-import { ClientRuntime, type EncodedFields } from '../../src/engine/client-runtime.js';
+import { ClientRuntime } from '../../src/engine/client-runtime.js';
 import type { WirePlan } from '../../src/engine/run-plan.js';
 import { runInProcess } from '../../src/engine/in-process-engine.js';
 import { clientObjective } from '../../src/data/problem-instance.js';
@@ -41,6 +39,7 @@ import {
   writeKeyFile,
   quickstartCoordinatorArgs,
 } from './cli-process.js';
+import { honestUpEntry } from './hostile-connections.js';
 
 const KEY = 'a-key-for-the-hostile-peer-test';
 const TWEAKS = ['run.rounds:3', 'run.target:0'];
@@ -139,24 +138,9 @@ describe('hostile peers', () => {
             fieldDims: downFieldDims,
             auth: null,
           }) as DownsFrame;
-          const ups: UpEntry[] = frame.entries.map((entry) => {
-            const encodedDown: EncodedFields = {};
-            for (const [name, wv] of Object.entries({ ...frame.common, ...entry.fields }))
-              encodedDown[name] = fromWire(wv);
-            const result = runtimes
-              .get(entry.clientId)!
-              .work(frame.round, frame.exchange, encodedDown, entry.localSteps, entry.stepSize);
-            const fields: WireFields = {};
-            for (const [name, cv] of Object.entries(result.encodedUp)) fields[name] = toWire(cv);
-            return {
-              clientId: entry.clientId,
-              fields,
-              localSteps: result.stepsTaken,
-              computeSeconds: 0,
-              waitSeconds: 0,
-              transferSeconds: 0,
-            };
-          });
+          const ups: UpEntry[] = frame.entries.map((entry) =>
+            honestUpEntry(runtimes, frame, entry),
+          );
           const upsFrame = (changes: Partial<UpsFrame>): Uint8Array =>
             encodeRoundFrame(
               {

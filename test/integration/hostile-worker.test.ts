@@ -18,7 +18,6 @@ import {
   encodeMessage,
   encodeRoundFrame,
   FrameElements,
-  fromWire,
   HANDSHAKE_LIMITS,
   proveKey,
   PROTOCOL_VERSION,
@@ -33,7 +32,7 @@ import {
   type WireFields,
 } from '../../src/protocol/index.js';
 import { downFieldDimsFor } from '../../src/engine/down-field-dims.js';
-import { ClientRuntime, type EncodedFields } from '../../src/engine/client-runtime.js';
+import { ClientRuntime } from '../../src/engine/client-runtime.js';
 import type { RoundRecord } from '../../src/engine/round-record.js';
 import type { WirePlan } from '../../src/engine/run-plan.js';
 import { runInProcess } from '../../src/engine/in-process-engine.js';
@@ -50,6 +49,7 @@ import {
   writeKeyFile,
 } from './cli-process.js';
 import { RecordList } from '../support/record-list.js';
+import { honestUpEntry } from './hostile-connections.js';
 
 const KEY = 'a-key-for-the-hostile-worker-test';
 const PEER_NAME = 'scripted';
@@ -80,24 +80,8 @@ function joinAsPeer(url: string, capacity: number, script: PeerScript): Peer {
   let downFieldDims: FieldDims = {};
   const send = (ws: WebSocket, message: ControlMessage) =>
     ws.send(encodeMessage(message), { binary: true });
-  const honestUp = (frame: DownsFrame, entry: DownEntry): UpEntry => {
-    const encodedDown: EncodedFields = {};
-    for (const [name, wv] of Object.entries({ ...frame.common, ...entry.fields }))
-      encodedDown[name] = fromWire(wv);
-    const result = runtimes
-      .get(entry.clientId)!
-      .work(frame.round, frame.exchange, encodedDown, entry.localSteps, entry.stepSize);
-    const fields: WireFields = {};
-    for (const [name, cv] of Object.entries(result.encodedUp)) fields[name] = toWire(cv);
-    return {
-      clientId: entry.clientId,
-      fields,
-      localSteps: result.stepsTaken,
-      computeSeconds: 0,
-      waitSeconds: 0,
-      transferSeconds: 0,
-    };
-  };
+  const honestUp = (frame: DownsFrame, entry: DownEntry): UpEntry =>
+    honestUpEntry(runtimes, frame, entry);
   const finished = new Promise<void>((resolve, reject) => {
     const ws = new WebSocket(url, { perMessageDeflate: false });
     ws.once('error', reject);
