@@ -23,9 +23,13 @@ import { freshDir, readJsonLines } from './cli-process.js';
 import type { ClientRuntime, EncodedFields } from '../../src/engine/client-runtime.js';
 import {
   fromWire,
+  HANDSHAKE_LIMITS,
   toWire,
+  validateMessage,
   type DownEntry,
   type DownsFrame,
+  type FieldDims,
+  type FrameElements,
   type UpEntry,
   type WireFields,
 } from '../../src/protocol/index.js';
@@ -234,4 +238,21 @@ export function honestUpEntry(
     waitSeconds: 0,
     transferSeconds: 0,
   };
+}
+
+/** A downs frame from the coordinator, validated as a worker reads it (any round, exchange and client). */
+export function readDownsFrame(
+  raw: FrameElements,
+  fieldDims: FieldDims,
+  maxVectorDim: number,
+): DownsFrame {
+  return validateMessage(raw, {
+    limits: { ...HANDSHAKE_LIMITS, maxVectorDim },
+    expectedTypes: ['downs'],
+    expectedRound: null,
+    expectedExchange: null,
+    ownedClientIds: null,
+    fieldDims,
+    auth: null,
+  }) as DownsFrame;
 }

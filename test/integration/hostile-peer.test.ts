@@ -14,13 +14,10 @@ import {
   encodeMessage,
   encodeRoundFrame,
   FrameElements,
-  HANDSHAKE_LIMITS,
   proveKey,
   PROTOCOL_VERSION,
   toWire,
-  validateMessage,
   type ControlMessage,
-  type DownsFrame,
   type FieldDims,
   type UpEntry,
   type UpsFrame,
@@ -39,7 +36,7 @@ import {
   writeKeyFile,
   quickstartCoordinatorArgs,
 } from './cli-process.js';
-import { honestUpEntry } from './hostile-connections.js';
+import { honestUpEntry, readDownsFrame } from './hostile-connections.js';
 
 const KEY = 'a-key-for-the-hostile-peer-test';
 const TWEAKS = ['run.rounds:3', 'run.target:0'];
@@ -129,15 +126,7 @@ describe('hostile peers', () => {
     const finished = new Promise<void>((resolve) => {
       void open(url, (raw, ws) => {
         if (raw instanceof FrameElements) {
-          const frame = validateMessage(raw, {
-            limits: { ...HANDSHAKE_LIMITS, maxVectorDim: dim },
-            expectedTypes: ['downs'],
-            expectedRound: null,
-            expectedExchange: null,
-            ownedClientIds: null,
-            fieldDims: downFieldDims,
-            auth: null,
-          }) as DownsFrame;
+          const frame = readDownsFrame(raw, downFieldDims, dim);
           const ups: UpEntry[] = frame.entries.map((entry) =>
             honestUpEntry(runtimes, frame, entry),
           );

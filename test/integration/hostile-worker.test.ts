@@ -18,11 +18,9 @@ import {
   encodeMessage,
   encodeRoundFrame,
   FrameElements,
-  HANDSHAKE_LIMITS,
   proveKey,
   PROTOCOL_VERSION,
   toWire,
-  validateMessage,
   type ControlMessage,
   type DownEntry,
   type DownsFrame,
@@ -49,7 +47,7 @@ import {
   writeKeyFile,
 } from './cli-process.js';
 import { RecordList } from '../support/record-list.js';
-import { honestUpEntry } from './hostile-connections.js';
+import { honestUpEntry, readDownsFrame } from './hostile-connections.js';
 
 const KEY = 'a-key-for-the-hostile-worker-test';
 const PEER_NAME = 'scripted';
@@ -89,15 +87,7 @@ function joinAsPeer(url: string, capacity: number, script: PeerScript): Peer {
     ws.on('message', (data: Buffer) => {
       const raw = decodeMessage(new Uint8Array(data), READ_LIMIT_BYTES);
       if (raw instanceof FrameElements) {
-        const frame = validateMessage(raw, {
-          limits: { ...HANDSHAKE_LIMITS, maxVectorDim: Number.MAX_SAFE_INTEGER },
-          expectedTypes: ['downs'],
-          expectedRound: null,
-          expectedExchange: null,
-          ownedClientIds: null,
-          fieldDims: downFieldDims,
-          auth: null,
-        }) as DownsFrame;
+        const frame = readDownsFrame(raw, downFieldDims, Number.MAX_SAFE_INTEGER);
         const ups: UpEntry[] = [];
         for (const entry of frame.entries) {
           const down = { round: frame.round, exchange: frame.exchange, clientId: entry.clientId };

@@ -12,7 +12,8 @@ import { HANDSHAKE_LIMITS } from '../../src/protocol/limits.js';
 import type { DownsFrame, UpsFrame } from '../../src/protocol/messages.js';
 import { encodeRoundFrame } from '../../src/protocol/round-frame-encode.js';
 import { receiveMessage } from '../../src/protocol/receive.js';
-import { fromWire, toWire } from '../../src/protocol/wire-vector.js';
+import { fromWire, toWire, type WireVector } from '../../src/protocol/wire-vector.js';
+import type { FieldDims } from '../../src/protocol/index.js';
 import {
   contextFor,
   DIM,
@@ -35,6 +36,28 @@ function atOffset(frame: Uint8Array, offset: number): Uint8Array {
   const shifted = new Uint8Array(new ArrayBuffer(frame.length + offset + 8), offset, frame.length);
   shifted.set(frame);
   return shifted;
+}
+
+/** An ups frame holding client 2's one-step upload of `delta` in exchange 'local'. */
+function upsFrameOf(round: number, delta: WireVector, fieldDims: FieldDims): Uint8Array {
+  return encodeRoundFrame(
+    {
+      type: 'ups',
+      round,
+      exchange: 'local',
+      entries: [
+        {
+          clientId: 2,
+          localSteps: 1,
+          computeSeconds: 0,
+          waitSeconds: 0,
+          transferSeconds: 0,
+          fields: { delta },
+        },
+      ],
+    },
+    fieldDims,
+  );
 }
 
 describe('encodeMessage / decodeMessage', () => {
@@ -81,24 +104,7 @@ describe('encodeMessage / decodeMessage', () => {
 
   it('carries a vector as one bin holding its little-endian bytes (MessagePack spec: bin 8 is 0xc4, length)', () => {
     const values = Float64Array.from([1, -2, 0.5]);
-    const frame = encodeRoundFrame(
-      {
-        type: 'ups',
-        round: 0,
-        exchange: 'local',
-        entries: [
-          {
-            clientId: 2,
-            localSteps: 1,
-            computeSeconds: 0,
-            waitSeconds: 0,
-            transferSeconds: 0,
-            fields: { delta: toWire({ dim: 3, indices: null, values }) },
-          },
-        ],
-      },
-      UP_FIELD_DIMS,
-    );
+    const frame = upsFrameOf(0, toWire({ dim: 3, indices: null, values }), UP_FIELD_DIMS);
     const le = Buffer.alloc(24);
     values.forEach((v, i) => le.writeDoubleLE(v, i * 8));
     const needle = Buffer.concat([Buffer.from([0xc4, 24]), le]);
@@ -140,24 +146,9 @@ describe('encodeMessage / decodeMessage', () => {
       1 / 3,
       Math.PI,
     ]);
-    const frame = encodeRoundFrame(
-      {
-        type: 'ups',
-        round: 3,
-        exchange: 'local',
-        entries: [
-          {
-            clientId: 2,
-            localSteps: 1,
-            computeSeconds: 0,
-            waitSeconds: 0,
-            transferSeconds: 0,
-            fields: { delta: toWire({ dim: values.length, indices: null, values }) },
-          },
-        ],
-      },
-      { local: { delta: values.length } },
-    );
+    const frame = upsFrameOf(3, toWire({ dim: values.length, indices: null, values }), {
+      local: { delta: values.length },
+    });
     const context = serverContext({
       fieldDims: { local: { delta: values.length } },
       limits: { ...serverContext().limits, maxVectorDim: values.length },
@@ -218,24 +209,7 @@ describe('encodeMessage / decodeMessage', () => {
         const view = new DataView(good.values.buffer);
         if (good.width === 8) view.setFloat64(8, bad, true);
         else view.setFloat32(4, bad, true);
-        const frame = encodeRoundFrame(
-          {
-            type: 'ups',
-            round: 3,
-            exchange: 'local',
-            entries: [
-              {
-                clientId: 2,
-                localSteps: 1,
-                computeSeconds: 0,
-                waitSeconds: 0,
-                transferSeconds: 0,
-                fields: { delta: good },
-              },
-            ],
-          },
-          { local: { delta: 3 } },
-        );
+        const frame = upsFrameOf(3, good, { local: { delta: 3 } });
         const context = serverContext({ fieldDims: { local: { delta: 3 } } });
         expect(protocolErrorCode(() => receiveMessage(frame, context))).toBe('E_NOT_FINITE');
       }
