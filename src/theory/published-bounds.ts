@@ -6,9 +6,9 @@
 //
 // Only gradient descent has bounds here, and only those whose statement and constants were
 // read (Bubeck 2015, Theorem 3.10, a bound on ||x - x*||^2 for step 1/L, was not, and is left
-// out). FedAvg, FedProx and FedNova with tau_i = 1 in every
-// round take one full gradient step x <- x - eta_g eta grad f(x) (DESIGN.md), so the gradient
-// descent theorems cover them then, with the step h = eta_g eta.
+// out). FedAvg, FedProx and FedNova with tau_i = 1 in every round take one full gradient step
+// x <- x - eta_g eta grad f(x), so the gradient descent theorems cover them then, with the
+// step h = eta_g eta.
 //
 // Conversion to the rate of f - f*. A bound q per round on ||x - x*||^2 gives, with
 // (mu/2)||x - x*||^2 <= f(x) - f* <= (L/2)||x - x*||^2 (strong convexity, smoothness),
@@ -28,7 +28,6 @@ export const boundStatusSchema = z.enum([
   'none-published',
   'left-out',
 ]);
-export type BoundStatus = z.infer<typeof boundStatusSchema>;
 
 export const boundQuantitySchema = z.enum(['f - f*', '||x - x*||^2']);
 
@@ -265,10 +264,12 @@ function entryWithoutValue(
   };
 }
 
+const FIXED_POINTS =
+  'fixed points: R. Pathak and M. J. Wainwright, FedSplit: An algorithmic framework for fast federated optimization, NeurIPS 2020';
+
 const LOCAL_STEP_METHODS: Record<'fedavg' | 'fedprox' | 'fednova', string> = {
-  fedavg:
-    'H. B. McMahan et al., Communication-Efficient Learning of Deep Networks from Decentralized Data, AISTATS 2017',
-  fedprox: 'T. Li et al., Federated Optimization in Heterogeneous Networks, MLSys 2020',
+  fedavg: `H. B. McMahan et al., Communication-Efficient Learning of Deep Networks from Decentralized Data, AISTATS 2017; ${FIXED_POINTS}`,
+  fedprox: `T. Li et al., Federated Optimization in Heterogeneous Networks, MLSys 2020; ${FIXED_POINTS}`,
   fednova:
     'J. Wang et al., Tackling the Objective Inconsistency Problem in Heterogeneous Federated Optimization, NeurIPS 2020',
 };
