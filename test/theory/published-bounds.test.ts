@@ -132,6 +132,33 @@ describe('gradient descent with step 1/L on strongly convex least squares', () =
   });
 });
 
+describe('gradient descent on L2-logistic regression (no exact prediction: not quadratic)', () => {
+  it("still applies both bounds, with the oracle's valid L and mu, and they hold round by round", () => {
+    const { summary, rounds } = runWithSummary(
+      scenario(['problem.kind:logistic', 'run.rounds:40']),
+    );
+    expect(summary.rate.predicted).toBeNull();
+    const karimi = byLabel(summary.bounds, KARIMI);
+    const nesterov = byLabel(summary.bounds, NESTEROV);
+    expect([karimi.status, nesterov.status]).toEqual(['applies', 'applies']);
+    const mu = summary.theory.strongConvexity;
+    const L = summary.theory.smoothness;
+    expect(karimi.ratePerRound).toBeCloseTo(1 - mu / L, 12);
+    const gaps = rounds.map((r) => r.suboptimality as number);
+    let checked = 0;
+    for (let k = 1; k < gaps.length && gaps[k - 1] >= 1e-9 * gaps[0]; k++, checked++)
+      expect(gaps[k]).toBeLessThanOrEqual(
+        (karimi.ratePerRound as number) * gaps[k - 1] + 1e-12 * gaps[0],
+      );
+    expect(checked).toBeGreaterThan(5);
+    const distances = rounds.map((r) => (r.distance as number) ** 2);
+    const q = nesterov.ratePerRound as number;
+    distances.forEach((dist, k) =>
+      expect(dist).toBeLessThanOrEqual(q ** k * distances[0] * (1 + ROUNDING_RELATIVE) + 1e-24),
+    );
+  });
+});
+
 describe('gradient descent with a step other than 1/L', () => {
   const { mu, L } = curvatureOf(scenario());
 
