@@ -11,6 +11,7 @@ import { writeResultsFolder } from '../results/results-folder.js';
 import { DeferredRecordStream } from '../results/record-stream.js';
 import { readRoundRecords } from '../results/record-lines.js';
 import { formatTable } from '../report/text-table.js';
+import { RATE_COMPARISON_HEADER, rateComparisonRows } from '../report/rate-comparison.js';
 import { formatBytes } from './progress.js';
 
 /**
@@ -56,12 +57,15 @@ export function formatRunSummary(s: RunSummary, outDir: string): string {
     ['floor f(limit) - f*', null, s.floor.measured, s.floor.predicted],
   ];
   const table = formatTable(['quantity', 'initial', 'measured', 'predicted'], rows);
+  const rates = formatTable([...RATE_COMPARISON_HEADER], rateComparisonRows(s));
   const bytes = (b: { up: number; down: number }) =>
     `${formatBytes(b.up)} up, ${formatBytes(b.down)} down`;
   const lines = [
     `${s.scenario}: ${s.method}, ${s.rounds} rounds (${s.stopReason}), ${s.clients} clients, step size ${s.stepSize.toPrecision(4)}`,
     '',
     table,
+    '',
+    rates,
     '',
     `target ${s.target}: ${s.roundsToTarget === null ? 'not reached' : `reached at round ${s.roundsToTarget}, ${formatBytes(s.toTarget.payloadBytes ?? 0)} payload`}`,
     `payload bytes: ${bytes(s.bytes.payload)}${s.bytes.wire ? `; wire: ${bytes(s.bytes.wire)}` : ''}`,

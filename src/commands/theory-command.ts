@@ -10,6 +10,14 @@ import {
 import { assertMemoryFits } from '../engine/memory-estimate.js';
 import type { ClientConstants } from '../theory/constants.js';
 import { formatTable } from '../report/text-table.js';
+import { RATE_COMPARISON_HEADER, boundRows } from '../report/rate-comparison.js';
+import { resolveStepSize } from '../engine/run-plan.js';
+import { localStepsFor } from '../timing/local-steps.js';
+import {
+  boundInputsFor,
+  publishedBounds,
+  type PublishedBound,
+} from '../theory/published-bounds.js';
 import { clientConstantsInParallel } from '../../server/oracle-pool.js';
 
 export interface TheoryReport {
@@ -35,6 +43,8 @@ export interface TheoryReport {
     gradientNormAtOptimum: number;
     minimizerDistance: number | null;
   }[];
+  /** the published rate bounds for the scenario's method, step size and conditions */
+  bounds: PublishedBound[];
 }
 
 /**
@@ -97,6 +107,21 @@ export async function theoryReport(scenario: Scenario): Promise<TheoryReport> {
       gradientNormAtOptimum: k.gradientNormAtOptimum,
       minimizerDistance: k.minimizerDistance,
     })),
+    bounds: publishedBounds(
+      boundInputsFor(
+        scenario,
+        {
+          dim: t.instance.dim,
+          plannedSteps: localStepsFor(
+            scenario.method.localSteps,
+            scenario.clients.count,
+            scenario.seed,
+          ),
+          stepSize: resolveStepSize(scenario, c.smoothness),
+        },
+        c,
+      ),
+    ),
   };
 }
 
@@ -132,5 +157,6 @@ export function formatTheoryReport(r: TheoryReport): string {
       k.minimizerDistance,
     ]),
   );
-  return `${title}\n\n${summary}\n\n${clients}\n`;
+  const bounds = formatTable([...RATE_COMPARISON_HEADER], boundRows(r.bounds));
+  return `${title}\n\n${summary}\n\n${clients}\n\n${bounds}\n`;
 }

@@ -5,6 +5,11 @@ import { z } from 'zod';
 import type { PlanTheory } from '../theory/plan-theory.js';
 import { methodSchema, timingSchema } from '../scenario/schema.js';
 import { fitLinearRate, measureFloor, type CurvePoint } from '../theory/measure-curve.js';
+import {
+  boundInputsFor,
+  publishedBoundSchema,
+  publishedBounds,
+} from '../theory/published-bounds.js';
 import type { RunPlan } from './run-plan.js';
 import { bytesByLayerSchema, type ByteCounts, type RoundRecord } from './round-record.js';
 import type { RunPrediction } from './predict-run.js';
@@ -71,11 +76,11 @@ export const runSummarySchema = z.object({
   rate: z.object({
     measured: z.number().nullable(),
     predicted: z.number().nullable(),
-    /** the gd bound 1 - mu/L for eta = 1/L (Nesterov 2004, Thm 2.1.15), for scale */
-    gdBound: z.number(),
     measuredWindow: z.tuple([z.number(), z.number()]).nullable(),
   }),
   floor: z.object({ measured: z.number().nullable(), predicted: z.number().nullable() }),
+  /** published rate bounds for the method, each with its conditions and source (published-bounds.ts) */
+  bounds: z.array(publishedBoundSchema).default([]),
   prediction: z.object({
     available: z.boolean(),
     reason: z.string().nullable(),
@@ -212,13 +217,19 @@ export function buildRunSummary(
     rate: {
       measured: fit ? fit.rate : null,
       predicted: prediction.rate,
-      gdBound: 1 - c.strongConvexity / c.smoothness,
       measuredWindow: fit ? fit.window : null,
     },
     floor: {
       measured: curve.length > 1 ? measureFloor(curve, { noiseLevel }) : null,
       predicted: prediction.floor,
     },
+    bounds: publishedBounds(
+      boundInputsFor(
+        plan.scenario,
+        { dim: plan.dim, plannedSteps: plan.plannedSteps, stepSize: plan.methodConfig.stepSize },
+        c,
+      ),
+    ),
     prediction: {
       available: prediction.unavailableReason === null,
       reason: prediction.unavailableReason,

@@ -1,6 +1,6 @@
 // report.html of one run: the suboptimality curve against rounds, bytes and seconds with the
 // predicted curve beside it, bytes per round by layer, the per-client timeline, the tau_i
-// histogram and the summary table (measured beside predicted).
+// histogram, the summary table (measured beside predicted) and the rate beside its published bounds.
 
 import type { RunSummary } from '../engine/run-summary.js';
 import { formatNumber } from './text-table.js';
@@ -25,6 +25,7 @@ import {
 } from './html-page.js';
 import { methodColour, PREDICTED_DASH, SOLID_DASH } from './palette.js';
 import { renderSvg } from './render-svg.js';
+import { RATE_COMPARISON_HEADER, rateComparisonRows } from './rate-comparison.js';
 import type { RunResults } from './run-results.js';
 import {
   bytesByLayer,
@@ -48,7 +49,6 @@ function summaryRows(s: RunSummary): TableCell[][] {
     ['rate per round', s.rate.measured, s.rate.predicted],
     ['floor f(limit) - f*', s.floor.measured, s.floor.predicted],
     ['||x - x*||, final', s.distance.final, s.prediction.limitDistance],
-    ['gd bound 1 - mu/L (for scale)', null, s.rate.gdBound],
     ['rounds', s.rounds, null],
     [`rounds to target ${formatNumber(s.target)}`, s.roundsToTarget, null],
     ['payload bytes to target', s.toTarget.payloadBytes, null],
@@ -211,6 +211,13 @@ export async function buildRunReport(results: RunResults): Promise<string> {
     ...header,
     section('Summary: measured beside predicted', [
       table(['quantity', 'measured', 'predicted'], summaryRows(s), formatNumber),
+    ]),
+    section('Rate: measured, predicted and published bounds', [
+      table(RATE_COMPARISON_HEADER, rateComparisonRows(s), formatNumber),
+      paragraph(
+        'A bound holds for every function of its class; the exact prediction is for this problem and plan, so a bound that applies lies at or above it.',
+        'note',
+      ),
     ]),
     section('Convergence', [grid(await curveFigures(results))]),
     section('Traffic and time', [

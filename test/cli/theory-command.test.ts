@@ -16,6 +16,10 @@ describe('roundwire theory', () => {
     expect(report.conditionNumber).toBeCloseTo(report.smoothness / report.strongConvexity, 10);
     expect(report.optimum.gradientNorm).toBeLessThanOrEqual(1e-10);
     expect(report.clients).toHaveLength(8);
+    // quickstart runs FedLin: its bound is listed as left out, with its source
+    expect(report.bounds).toHaveLength(1);
+    expect(report.bounds[0]).toMatchObject({ method: 'fedlin', status: 'left-out' });
+    expect(report.bounds[0].source).toContain('FedLin (NeurIPS 2021)');
   });
 
   it('prints a readable table by default', async () => {
@@ -23,6 +27,7 @@ describe('roundwire theory', () => {
     expect(r.code).toBe(0);
     expect(r.stdout).toMatch(/condition number L\/mu\s+\d/);
     expect(r.stdout).toMatch(/certificate \|grad f\(x\*\)\|/);
+    expect(r.stdout).toMatch(/rate no bound: FedLin, strongly convex case/);
   });
 
   // The certificate the oracle reports must hold for the Newton-solved objectives on synthetic

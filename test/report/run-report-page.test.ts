@@ -43,6 +43,19 @@ describe('run report page', () => {
     expect(second).toBe(firstText);
   });
 
+  it('shows the rate measured, predicted and bounded, each with its source', async () => {
+    const fedlin = await buildRunReport(readRunResults(withPrediction));
+    expect(fedlin).toContain('predicted (exact)');
+    expect(fedlin).toContain('left out: ');
+    expect(fedlin).toContain('FedLin (NeurIPS 2021)');
+    const gd = await buildRunReport(
+      readRunResults(
+        runInto(join(root, 'gd'), ['method.name:gd', 'method.stepPolicy:fixed', 'run.rounds:20']),
+      ),
+    );
+    for (const theorem of ['Theorem 1;', 'Theorem 2.1.15 ']) expect(gd).toContain(theorem);
+  });
+
   it('escapes the text it takes from the scenario', async () => {
     const html = await buildRunReport(readRunResults(withPrediction));
     expect(html).not.toContain('<script');
