@@ -45,7 +45,13 @@ function summaryRows(s: RunSummary): TableCell[][] {
   return [
     ['f(x) - f*, initial', s.suboptimality.initial, null],
     ['f(x) - f*, final', s.suboptimality.final, null],
-    ['rate per round', s.rate.measured, s.rate.predicted],
+    [
+      s.prediction.kind === 'local'
+        ? 'rate per round (predicted: local, near the limit)'
+        : 'rate per round',
+      s.rate.measured,
+      s.rate.predicted,
+    ],
     ['floor f(limit) - f*', s.floor.measured, s.floor.predicted],
     ['||x - x*||, final', s.distance.final, s.prediction.limitDistance],
     ['gd bound 1 - mu/L (for scale)', null, s.rate.gdBound],
