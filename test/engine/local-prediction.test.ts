@@ -17,11 +17,11 @@ import type { RoundRecord } from '../../src/engine/round-record.js';
 
 const quickstart = readFileSync('scenarios/quickstart.yaml', 'utf8');
 
-/** Logistic on the quickstart's heterogeneous data, 4 clients, d = 6. */
-function logistic(method: string, extra: string[] = []) {
+/** Logistic (or another kind) on the quickstart's heterogeneous data, 4 clients, 6 features. */
+function logistic(method: string, extra: string[] = [], kind = 'logistic') {
   return scenarioFromText(quickstart, 'quickstart.yaml', [
     `method.name:${method}`,
-    'problem.kind:logistic',
+    `problem.kind:${kind}`,
     'clients.count:4',
     'data.features:6',
     ...extra,
@@ -51,8 +51,8 @@ function formedHessian(
 }
 
 /** The round map's Jacobian at its fixed point as an explicit matrix, column j = J e_j. */
-function explicitJacobian(method: string, extra: string[] = []) {
-  const { plan, theory } = planFor(logistic(method, extra));
+function explicitJacobian(method: string, kind = 'logistic') {
+  const { plan, theory } = planFor(logistic(method, [], kind));
   const objectives = theory.instance.objectives;
   const roundMap = buildRoundMap(plan, objectives, new Float64Array(plan.dim));
   const fixed = newtonFixedPoint(
@@ -100,6 +100,13 @@ describe('the local prediction for logistic regression', () => {
       expect(Math.abs(prediction.spectralRadius! - largestModulus)).toBeLessThan(1e-8);
     },
   );
+
+  it('softmax (3 classes, d = 18), fedavg: the same check of the Arnoldi spectral radius', () => {
+    const { plan, theory, largestModulus } = explicitJacobian('fedavg', 'softmax');
+    const prediction = predictRun(plan, theory);
+    expect(prediction.kind).toBe('local');
+    expect(Math.abs(prediction.spectralRadius! - largestModulus)).toBeLessThan(1e-8);
+  });
 
   it('gd: the spectral radius is max |1 - eta lambda_i(H*)|, as J = I - eta H* for one gradient step', () => {
     // gd's step is eta_i = eta (fixed policy) and eta_g = 1: the model's block of J is I - eta H*,
