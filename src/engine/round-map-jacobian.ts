@@ -25,6 +25,7 @@ import type { LinearOperator } from '../linalg/linear-operator.js';
 import type { SymmetricOperator } from '../linalg/spectrum.js';
 import { hessianOperatorOf, type Objective } from '../problem/objective.js';
 import { applyRoundMap, type RoundMap } from '../theory/affine-map.js';
+import type { RoundMapLinearization } from '../theory/newton-fixed-point.js';
 import { TheoryError } from '../theory/theory-error.js';
 import { roundMapChangeBlocker, roundMapOver } from './round-map.js';
 import type { RunPlan } from './run-plan.js';
@@ -44,12 +45,6 @@ export function linearizationBlocker(plan: Pick<RunPlan, 'scenario' | 'dim'>): s
   if (method.name === 'fedsplit' && method.proxTolerance > 0)
     return 'FedSplit stops its inner steps on a gradient-norm test (proxTolerance > 0), a branch the linearized round cannot follow';
   return null;
-}
-
-/** T(s) and v -> J(s) v. */
-export interface LinearizedRound {
-  image: Float64Array;
-  jvp: LinearOperator;
 }
 
 /** Records the point of every full-gradient call, in call order. */
@@ -166,7 +161,7 @@ export function roundMapLinearization(
   plan: RunPlan,
   objectives: readonly Objective[],
   template: unknown,
-): (state: Float64Array) => LinearizedRound {
+): RoundMapLinearization {
   const blocker = linearizationBlocker(plan);
   if (blocker !== null) throw new Error(`the round map cannot be linearized: ${blocker}`);
   const recording = objectives.map((o) => new RecordingObjective(o));
