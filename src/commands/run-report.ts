@@ -53,7 +53,14 @@ export function runInProcessInto(
 export function formatRunSummary(s: RunSummary, outDir: string): string {
   const rows: (string | number | null)[][] = [
     ['f - f*', s.suboptimality.initial, s.suboptimality.final, null],
-    ['rate per round', null, s.rate.measured, s.rate.predicted],
+    [
+      s.prediction.kind === 'local'
+        ? 'rate per round (predicted: local, near the limit)'
+        : 'rate per round',
+      null,
+      s.rate.measured,
+      s.rate.predicted,
+    ],
     ['floor f(limit) - f*', null, s.floor.measured, s.floor.predicted],
   ];
   const table = formatTable(['quantity', 'initial', 'measured', 'predicted'], rows);
@@ -71,7 +78,7 @@ export function formatRunSummary(s: RunSummary, outDir: string): string {
     `payload bytes: ${bytes(s.bytes.payload)}${s.bytes.wire ? `; wire: ${bytes(s.bytes.wire)}` : ''}`,
     `seconds: ${s.seconds.virtual.toPrecision(4)} modelled, ${s.seconds.wall.toFixed(2)} wall; dropped updates ${s.droppedUpdates}`,
     s.prediction.available
-      ? `prediction: spectral radius ${s.prediction.spectralRadius?.toPrecision(6)}`
+      ? `prediction: spectral radius ${s.prediction.spectralRadius?.toPrecision(6)}${s.prediction.kind === 'local' ? ' (local: the round map linearized at its limit; the rate holds once the run is near the limit)' : ''}`
       : `prediction: none (${s.prediction.reason})`,
     `results: ${outDir}`,
   ];

@@ -53,6 +53,7 @@ import { FIXED_POINT_DIMENSION_MAX, FIXED_POINT_KRYLOV_MAX } from '../theory/fix
 import { stateVectorsPerDimension } from './method-state-size.js';
 import { PREDICTION_STATE_ENTRIES_MAX, PREDICTION_WORKING_VECTORS } from './predict-run.js';
 import { predictionBlocker } from './round-map.js';
+import { linearizationBlocker } from './round-map-jacobian.js';
 import { trajectoryBlocker } from './trajectory-blocker.js';
 import { formedGramPays, formedGramValues } from '../problem/formed-gram.js';
 
@@ -180,10 +181,13 @@ export function estimateRunMemory(scenario: Scenario): MemoryEstimate {
   const downlinkVectors = exchanges * (compresses(scenario.compression.downlink) ? 2 : 0);
   const perClientVectors = vectors.client + uplinkVectors + downlinkVectors;
   const perRound = participantCount(scenario.method.participation, clientCount);
+  // Least squares gets the exact prediction, the smooth losses the local one (predict-run.ts).
+  const predictionBlocked =
+    kind === 'least-squares'
+      ? predictionBlocker({ scenario, dim })
+      : linearizationBlocker({ scenario, dim });
   const predictionStateEntries =
-    predictionBlocker({ scenario, dim }) === null
-      ? (vectors.server + clientCount * vectors.client) * dim
-      : 0;
+    predictionBlocked === null ? (vectors.server + clientCount * vectors.client) * dim : 0;
   const shardValues = (n: number) => n * (features + 1);
   const smallestSideMax = Math.max(...samplesPerClient.map((n) => Math.min(n, features)));
   const values = {

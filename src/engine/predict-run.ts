@@ -1,7 +1,10 @@
 // The theory's prediction for a run, where DESIGN.md says one exists: for quadratic objectives
 // with full gradients, full participation and no compression a round is an affine map of the
 // method's whole state, so its asymptotic rate is the spectral radius of the linear part and its
-// limit is the fixed point. Elsewhere the prediction is absent, with the reason.
+// limit is the fixed point (kind 'exact'). For logistic and softmax under the same conditions the
+// round map is smooth but not affine: its limit is its fixed point and the rate is the spectral
+// radius of its Jacobian there, which holds once the run is near the limit (kind 'local',
+// local-limit.ts). Elsewhere the prediction is absent, with the reason.
 
 import type { Objective } from '../problem/objective.js';
 import { DEFAULT_KRYLOV_DIMENSION } from '../linalg/arnoldi.js';
@@ -14,6 +17,8 @@ import { buildRoundMap, predictionBlocker } from './round-map.js';
 import type { RunPlan } from './run-plan.js';
 import { evaluateModel } from './evaluate.js';
 import { roundMapStateEntries } from './method-state-size.js';
+import { linearizationBlocker } from './round-map-jacobian.js';
+import { localLimit } from './local-limit.js';
 
 /**
  * The largest state (server and every client, flattened) a prediction walks: 2^20 entries, so
@@ -33,6 +38,12 @@ export const PREDICTION_WORKING_VECTORS = DEFAULT_KRYLOV_DIMENSION + 10;
 export interface RunPrediction {
   /** null when the prediction is made; else why not */
   unavailableReason: string | null;
+  /**
+   * 'exact': the round map is affine, the rate holds from the first round; 'local': the round
+   * map linearized at its limit, the rate is asymptotic (it holds once the run is near the
+   * limit); null: no spectral radius
+   */
+  kind: 'exact' | 'local' | null;
   /** rho of the round map's linear part (per-round contraction of the state's error) */
   spectralRadius: number | null;
   /**
@@ -51,6 +62,7 @@ export interface RunPrediction {
 
 const none = (reason: string): RunPrediction => ({
   unavailableReason: reason,
+  kind: null,
   spectralRadius: null,
   rate: null,
   floor: null,
@@ -87,7 +99,8 @@ export function predictRun(
 }
 
 function predictFrom(plan: RunPlan, theory: PlanTheory, initialModel: Float64Array): RunPrediction {
-  const blocker = predictionBlocker(plan);
+  const local = plan.scenario.problem.kind !== 'least-squares';
+  const blocker = local ? linearizationBlocker(plan) : predictionBlocker(plan);
   if (blocker) return none(blocker);
   const entries = roundMapStateEntries(plan.scenario, plan.dim);
   if (entries > PREDICTION_STATE_ENTRIES_MAX)
@@ -95,6 +108,11 @@ function predictFrom(plan: RunPlan, theory: PlanTheory, initialModel: Float64Arr
       `no prediction: the method's state has ${entries} entries (${plan.scenario.method.name}, ${plan.clientCount} clients, dimension ${plan.dim}), above the limit of ${PREDICTION_STATE_ENTRIES_MAX}`,
     );
   const objectives: readonly Objective[] = theory.instance.objectives;
+  if (local) {
+    const found = localLimit(plan, objectives, initialModel);
+    if ('reason' in found) return none(found.reason);
+    return predictionAt(theory, initialModel, found.limit, found.spectralRadius, 'local');
+  }
   const roundMap = buildRoundMap(plan, objectives, initialModel);
   let rate;
   try {
@@ -117,6 +135,7 @@ function predictFrom(plan: RunPlan, theory: PlanTheory, initialModel: Float64Arr
       ...none(
         `no floor: the method's state has ${roundMap.start.length} entries, above the limit of ${FIXED_POINT_DIMENSION_MAX} for solving its fixed point (only the spectral radius is given)`,
       ),
+      kind: 'exact',
       spectralRadius: rate.spectralRadius,
     };
   }
@@ -125,10 +144,30 @@ function predictFrom(plan: RunPlan, theory: PlanTheory, initialModel: Float64Arr
     fixed = affineFixedPoint(roundMap.map, roundMap.start.length, { base: roundMap.start });
   } catch (error) {
     if (error instanceof TheoryError || error instanceof LinalgError)
-      return { ...none(`no floor: ${error.message}`), spectralRadius: rate.spectralRadius };
+      return {
+        ...none(`no floor: ${error.message}`),
+        kind: 'exact',
+        spectralRadius: rate.spectralRadius,
+      };
     throw error;
   }
-  const limit = roundMap.modelOf(fixed.state);
+  return predictionAt(
+    theory,
+    initialModel,
+    roundMap.modelOf(fixed.state),
+    rate.spectralRadius,
+    'exact',
+  );
+}
+
+/** The prediction from the limit and the spectral radius: floor, distance and the rate of f. */
+function predictionAt(
+  theory: PlanTheory,
+  initialModel: Float64Array,
+  limit: Float64Array,
+  spectralRadius: number,
+  kind: 'exact' | 'local',
+): RunPrediction {
   const atLimit = evaluateModel(
     theory.instance.global,
     theory.optimum.x,
@@ -145,8 +184,9 @@ function predictFrom(plan: RunPlan, theory: PlanTheory, initialModel: Float64Arr
   const limitIsOptimum = atLimit.suboptimality <= floorRoundingUlps * Number.EPSILON * scale;
   return {
     unavailableReason: null,
-    spectralRadius: rate.spectralRadius,
-    rate: limitIsOptimum ? rate.perRoundRate : rate.spectralRadius,
+    kind,
+    spectralRadius,
+    rate: limitIsOptimum ? spectralRadius * spectralRadius : spectralRadius,
     floor: atLimit.suboptimality,
     limitDistance: atLimit.distance,
     limit,

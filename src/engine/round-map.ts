@@ -32,8 +32,16 @@ const MAP_ROUND = 1;
 
 /** Why no prediction is made for a plan, or null when the round map is affine and fixed. */
 export function predictionBlocker(plan: Pick<RunPlan, 'scenario' | 'dim'>): string | null {
+  if (plan.scenario.problem.kind !== 'least-squares') return 'the objective is not quadratic';
+  return roundMapChangeBlocker(plan);
+}
+
+/**
+ * Why the round map is random or changes from round to round whatever the objective, or null:
+ * the exact (affine) and the local (linearized) predictions both need one fixed map.
+ */
+export function roundMapChangeBlocker(plan: Pick<RunPlan, 'scenario' | 'dim'>): string | null {
   const s = plan.scenario;
-  if (s.problem.kind !== 'least-squares') return 'the objective is not quadratic';
   if (s.method.gradient !== 'full') return 'minibatch gradients make the round map random';
   if (s.method.participation < 1) return 'partial participation makes the round map random';
   // A compressor that keeps every entry at full width is the identity (top-k or rand-k with
@@ -57,13 +65,16 @@ export interface PlanRoundMap {
   start: Float64Array;
   /** where the server model x sits in the state vector */
   modelOf(state: Float64Array): Float64Array;
+  /** the method states' shape (server and clients) whose Float64Array leaves the vector holds */
+  template: unknown;
 }
 
-export function buildRoundMap(
+/** Runtimes over the ideal plan that walk one round from a method state they adopt. */
+function stateWalker(
   plan: RunPlan,
   objectives: readonly Objective[],
   initialModel: Float64Array,
-): PlanRoundMap {
+): { server: ServerRuntime; stateNow(): FullState; runRound(state: FullState): FullState } {
   const ideal = idealPlan(plan);
   const server = new ServerRuntime(ideal, initialModel);
   const clients = objectives.map((objective, id) => new ClientRuntime(ideal, id, objective));
@@ -79,7 +90,30 @@ export function buildRoundMap(
     driveSync(walkRound(setup, MAP_ROUND), transport);
     return stateNow();
   };
+  return { server, stateNow, runRound };
+}
 
+/**
+ * The round map of `plan` over other objectives than the problem's own, on states shaped like
+ * `template` (a PlanRoundMap's): the linearized round walks the very same code on objectives
+ * whose gradient is a Hessian-vector product (round-map-jacobian.ts).
+ */
+export function roundMapOver(
+  plan: RunPlan,
+  objectives: readonly Objective[],
+  template: unknown,
+): RoundMap {
+  const { runRound } = stateWalker(plan, objectives, new Float64Array(plan.dim));
+  return (vector) =>
+    flattenState(runRound(unflattenState(template as FullState, vector) as FullState));
+}
+
+export function buildRoundMap(
+  plan: RunPlan,
+  objectives: readonly Objective[],
+  initialModel: Float64Array,
+): PlanRoundMap {
+  const { server, stateNow, runRound } = stateWalker(plan, objectives, initialModel);
   const template = structuredClone(runRound(stateNow()));
   const map: RoundMap = (vector) => flattenState(runRound(unflattenState(template, vector)));
   // The model's position: read the server's model leaf by identity.
@@ -98,5 +132,6 @@ export function buildRoundMap(
     map,
     start: flattenState(template),
     modelOf: (state) => state.slice(modelOffset, modelOffset + plan.dim),
+    template,
   };
 }

@@ -83,6 +83,11 @@ export const runSummarySchema = z.object({
   bounds: z.array(publishedBoundSchema).default([]),
   prediction: z.object({
     available: z.boolean(),
+    /**
+     * exact: the round map is affine (quadratic losses); local: linearized at its limit, an
+     * asymptotic rate that holds once the run is near the limit; null: no spectral radius
+     */
+    kind: z.enum(['exact', 'local']).nullable().default(null),
     reason: z.string().nullable(),
     spectralRadius: z.number().nullable(),
     limitDistance: z.number().nullable(),
@@ -232,6 +237,7 @@ export function buildRunSummary(
     ),
     prediction: {
       available: prediction.unavailableReason === null,
+      kind: prediction.kind,
       reason: prediction.unavailableReason,
       spectralRadius: prediction.spectralRadius,
       limitDistance: prediction.limitDistance,

@@ -46,7 +46,13 @@ function summaryRows(s: RunSummary): TableCell[][] {
   return [
     ['f(x) - f*, initial', s.suboptimality.initial, null],
     ['f(x) - f*, final', s.suboptimality.final, null],
-    ['rate per round', s.rate.measured, s.rate.predicted],
+    [
+      s.prediction.kind === 'local'
+        ? 'rate per round (predicted: local, near the limit)'
+        : 'rate per round',
+      s.rate.measured,
+      s.rate.predicted,
+    ],
     ['floor f(limit) - f*', s.floor.measured, s.floor.predicted],
     ['||x - x*||, final', s.distance.final, s.prediction.limitDistance],
     ['rounds', s.rounds, null],
@@ -86,7 +92,7 @@ function curveCaption(
     !predicted
       ? `No prediction is drawn: ${s.prediction.reason ?? 'the run recorded no predicted trajectory'}.`
       : s.prediction.available
-        ? `Dashed: ${ideal}; it tends to the predicted floor ${formatNumber(s.floor.predicted)} at the predicted rate ${formatNumber(s.rate.predicted)} a round.`
+        ? `Dashed: ${ideal}; it tends to the predicted floor ${formatNumber(s.floor.predicted)} at the predicted ${s.prediction.kind === 'local' ? 'local ' : ''}rate ${formatNumber(s.rate.predicted)} a round${s.prediction.kind === 'local' ? ' (local: the round map linearized at its limit, a rate that holds once the run is near the limit)' : ''}.`
         : `Dashed: ${ideal}. No asymptotic rate or floor is predicted: ${s.prediction.reason ?? 'none was solved'}.`,
   ];
   if (predicted)

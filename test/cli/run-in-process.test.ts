@@ -70,26 +70,39 @@ describe('roundwire run --in-process', () => {
     }
   });
 
-  it('names the reason when no prediction is made', async () => {
+  it('names the reason when no prediction is made, and says when one is local', async () => {
     const dir = mkdtempSync(join(tmpdir(), 'roundwire-run-'));
     try {
-      const r = await runCli([
-        'run',
-        'scenarios/quickstart.yaml',
-        '--in-process',
-        '--json',
-        '--out',
-        dir,
-        '--tweak',
-        'problem.kind:logistic',
-        '--tweak',
-        'run.rounds:20',
-      ]);
-      expect(r.code).toBe(0);
-      const outcome = JSON.parse(r.stdout);
-      expect(outcome.prediction.available).toBe(false);
-      expect(outcome.prediction.reason).toBe('the objective is not quadratic');
-      expect(outcome.rate.predicted).toBeNull();
+      const run = (out: string, tweaks: string[]) =>
+        runCli([
+          'run',
+          'scenarios/quickstart.yaml',
+          '--in-process',
+          '--json',
+          '--out',
+          join(dir, out),
+          '--tweak',
+          'problem.kind:logistic',
+          '--tweak',
+          'run.rounds:20',
+          ...tweaks.flatMap((t) => ['--tweak', t]),
+        ]);
+      const refused = await run('partial', ['method.participation:0.5']);
+      expect(refused.code).toBe(0);
+      const none = JSON.parse(refused.stdout);
+      expect(none.prediction.available).toBe(false);
+      expect(none.prediction.kind).toBeNull();
+      expect(none.prediction.reason).toBe('partial participation makes the round map random');
+      expect(none.rate.predicted).toBeNull();
+      // A logistic FedLin run with nothing random in its rounds: the round map linearized at
+      // its limit, a rate in (0, 1) (the run converges) that is marked local.
+      const linearized = await run('full', []);
+      expect(linearized.code).toBe(0);
+      const local = JSON.parse(linearized.stdout);
+      expect(local.prediction.available).toBe(true);
+      expect(local.prediction.kind).toBe('local');
+      expect(local.rate.predicted).toBeGreaterThan(0);
+      expect(local.rate.predicted).toBeLessThan(1);
     } finally {
       rmSync(dir, { recursive: true, force: true });
     }

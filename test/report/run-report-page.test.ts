@@ -1,6 +1,7 @@
 // report.html built from a real in-process run: deterministic, self-contained, escaped. The
-// scenario is the bundled quickstart (FedLin, least squares: a prediction exists) and its
-// logistic variant (no prediction: the objective is not quadratic).
+// scenario is the bundled quickstart (FedLin, least squares: a prediction exists), its logistic
+// variant (a local prediction) and a logistic FedSplit whose inner steps stop on a gradient-norm
+// test (no prediction: the round cannot be linearized).
 import { afterAll, describe, expect, it } from 'vitest';
 import { cpSync, mkdtempSync, readFileSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
@@ -31,8 +32,14 @@ function runInto(dir: string, tweaks: string[]): string {
 
 describe('run report page', () => {
   const withPrediction = runInto(join(root, 'fedlin'), []);
-  const withoutPrediction = runInto(join(root, 'logistic'), [
+  const withLocalPrediction = runInto(join(root, 'logistic'), [
     'problem.kind:logistic',
+    'run.rounds:20',
+  ]);
+  const withoutPrediction = runInto(join(root, 'fedsplit'), [
+    'problem.kind:logistic',
+    'method.name:fedsplit',
+    'method.proxTolerance:0.001',
     'run.rounds:20',
   ]);
 
@@ -81,11 +88,18 @@ describe('run report page', () => {
     expect(predicted).toContain('predicted: the ideal round map from x0');
     expect(predicted).not.toContain('No prediction is drawn');
     const plain = await buildRunReport(readRunResults(withoutPrediction));
-    // A logistic run has its ideal run drawn, but no asymptotic rate or floor.
+    // This run has its ideal run drawn, but no asymptotic rate or floor.
     expect(plain).toContain('predicted: the ideal round map from x0');
     expect(plain).toContain(
-      'No asymptotic rate or floor is predicted: the objective is not quadratic.',
+      'No asymptotic rate or floor is predicted: FedSplit stops its inner steps on a gradient-norm test (proxTolerance &gt; 0), a branch the linearized round cannot follow.',
     );
+    // A logistic FedLin run's prediction is local, and the page says so beside the rate.
+    const local = await buildRunReport(readRunResults(withLocalPrediction));
+    expect(local).toContain('rate per round (predicted: local, near the limit)');
+    expect(local).toContain(
+      '(local: the round map linearized at its limit, a rate that holds once the run is near the limit)',
+    );
+    expect(predicted).not.toContain('predicted: local');
   });
 
   it('refuses a folder that is not a results folder, naming the file', () => {

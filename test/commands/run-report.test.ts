@@ -1,0 +1,31 @@
+// The text summary a run prints at its end says when its prediction is local (the round map
+// linearized at its limit) and says nothing of the kind for an exact (affine) one.
+import { afterAll, describe, expect, it } from 'vitest';
+import { mkdtempSync, readFileSync, rmSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { scenarioFromText } from '../../src/scenario/load-scenario.js';
+import { formatRunSummary, runInProcessInto } from '../../src/commands/run-report.js';
+
+const root = mkdtempSync(join(tmpdir(), 'roundwire-summary-'));
+afterAll(() => rmSync(root, { recursive: true, force: true }));
+const quickstart = readFileSync('scenarios/quickstart.yaml', 'utf8');
+
+function summaryText(name: string, tweaks: string[]): string {
+  const scenario = scenarioFromText(quickstart, 'quickstart.yaml', ['run.rounds:20', ...tweaks]);
+  const dir = join(root, name);
+  return formatRunSummary(runInProcessInto(scenario, dir).summary, dir);
+}
+
+describe('the text summary of a run', () => {
+  it('marks a local prediction as local, in the table and on the prediction line', () => {
+    const local = summaryText('logistic', ['problem.kind:logistic']);
+    expect(local).toContain('rate per round (predicted: local, near the limit)');
+    expect(local).toMatch(
+      /prediction: spectral radius 0\.\d+ \(local: the round map linearized at its limit; the rate holds once the run is near the limit\)/,
+    );
+    const exact = summaryText('least-squares', []);
+    expect(exact).toMatch(/prediction: spectral radius 0\.\d+\n/);
+    expect(exact).not.toContain('local');
+  });
+});
