@@ -28,7 +28,7 @@ export interface TrajectoryOptimum {
 }
 
 /** The plan the ideal run follows: round-map.ts drops compression; here no update is dropped either. */
-function noDropsPlan(plan: RunPlan): RunPlan {
+export function noDropsPlan(plan: RunPlan): RunPlan {
   if (plan.scenario.timing.policy.kind !== 'fastest-k') return plan;
   const timing = { ...plan.scenario.timing, policy: { kind: 'all' as const } };
   return { ...plan, scenario: { ...plan.scenario, timing } };
