@@ -1,6 +1,7 @@
 // report.html of one run: the suboptimality curve against rounds, bytes and seconds with the
 // predicted curve beside it, bytes per round by layer, the per-client timeline, the tau_i
-// histogram and the summary table (measured beside predicted).
+// histogram and the summary table (measured beside predicted). A run with random rounds has a
+// predicted band instead of a predicted line (band-series.ts), drawn behind its curve.
 
 import type { RunSummary } from '../engine/run-summary.js';
 import { formatNumber } from './text-table.js';
@@ -12,6 +13,7 @@ import {
   type CurveAxis,
   type CurveSeries,
 } from './chart-specs.js';
+import { bandCaption, bandRows, bandSummaryRows } from './band-series.js';
 import {
   figure,
   grid,
@@ -48,6 +50,7 @@ function summaryRows(s: RunSummary): TableCell[][] {
     ['rate per round', s.rate.measured, s.rate.predicted],
     ['floor f(limit) - f*', s.floor.measured, s.floor.predicted],
     ['||x - x*||, final', s.distance.final, s.prediction.limitDistance],
+    ...bandSummaryRows(s.band),
     ['gd bound 1 - mu/L (for scale)', null, s.rate.gdBound],
     ['rounds', s.rounds, null],
     [`rounds to target ${formatNumber(s.target)}`, s.roundsToTarget, null],
@@ -93,6 +96,7 @@ function curveCaption(
     parts.push(
       'With nothing injected the two curves coincide; the gap is what compression, stragglers and drops cost.',
     );
+  if (s.band !== undefined) parts.push(bandCaption(s.band));
   if (curve.points.length < curve.pointsTotal)
     parts.push(
       `${curve.points.length} of ${curve.pointsTotal} evaluated rounds drawn, evenly spread.`,
@@ -122,6 +126,7 @@ async function curveFigures(results: RunResults): Promise<Html[]> {
       ? [Math.min(...values), Math.max(...values)]
       : undefined;
   const caption = curveCaption(results, curve, prediction !== null);
+  const band = s.band === undefined ? [] : bandRows(s.band);
   const axes: [CurveAxis, string][] = [
     ['round', 'Suboptimality against rounds'],
     ['payloadBytes', 'Suboptimality against payload bytes'],
@@ -134,6 +139,7 @@ async function curveFigures(results: RunResults): Promise<Html[]> {
       series,
       yDomain,
       ...(axis === 'seconds' ? { axisTitle: secondsTitle(s.clock) } : {}),
+      ...(band.length > 0 ? { band: { rows: band, colour } } : {}),
     });
     figures.push(figure(await renderSvg(spec, `curve-${axis}`), caption, title));
   }
