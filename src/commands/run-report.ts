@@ -4,7 +4,10 @@
 import type { Scenario } from '../scenario/schema.js';
 import type { RoundRecord } from '../engine/round-record.js';
 import type { RunOutcome, RunSummary } from '../engine/run-summary.js';
-import { buildRunSummary } from '../engine/run-summary.js';
+import { buildRunSummary, curveOf } from '../engine/run-summary.js';
+import { roundsAreRandom } from '../engine/monte-carlo-band.js';
+import { predictRandomBand } from '../engine/random-band.js';
+import { formatBandLine } from '../report/band-text.js';
 import { predictRun } from '../engine/predict-run.js';
 import { runInProcess } from '../engine/in-process-engine.js';
 import { writeResultsFolder } from '../results/results-folder.js';
@@ -25,7 +28,14 @@ export function finishRun(
   outDir: string,
 ): RunSummary {
   const prediction = predictRun(outcome.plan, outcome.theory);
-  const summary = buildRunSummary(outcome, readRoundRecords(outDir), prediction, runtime);
+  const measured = buildRunSummary(outcome, readRoundRecords(outDir), prediction, runtime);
+  // Random rounds: the band costs its replicas' ideal runs, once, at the end.
+  const summary = roundsAreRandom(outcome.plan.scenario)
+    ? {
+        ...measured,
+        band: predictRandomBand(outcome.plan, outcome.theory, curveOf(readRoundRecords(outDir))),
+      }
+    : measured;
   writeResultsFolder(outDir, {
     scenario: outcome.plan.scenario,
     outcome: summary,
@@ -80,6 +90,7 @@ export function formatRunSummary(s: RunSummary, outDir: string): string {
     s.prediction.available
       ? `prediction: spectral radius ${s.prediction.spectralRadius?.toPrecision(6)}${s.prediction.kind === 'local' ? ' (local: the round map linearized at its limit; the rate holds once the run is near the limit)' : ''}`
       : `prediction: none (${s.prediction.reason})`,
+    ...(s.band === undefined ? [] : [formatBandLine(s.band)]),
     `results: ${outDir}`,
   ];
   return `${lines.join('\n')}\n`;

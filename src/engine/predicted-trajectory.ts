@@ -5,7 +5,8 @@
 // are the same arithmetic and agree to rounding; the gap between them is what compression,
 // stragglers and drops cost. The ideal run needs no affine map: logistic and softmax runs have
 // one too. Where a round is random (minibatches, partial participation) or its tau_i change from
-// round to round there is no single ideal run, and every value is null.
+// round to round there is no single ideal run, and every value is null (random rounds get a
+// Monte Carlo band instead, monte-carlo-band.ts).
 //
 // The ideal run keeps its own runtimes (each client's method state once more; the data is
 // shared), so that a round costs one round of in-process work, with no state vector to flatten.
@@ -28,7 +29,7 @@ export interface TrajectoryOptimum {
 }
 
 /** The plan the ideal run follows: round-map.ts drops compression; here no update is dropped either. */
-function noDropsPlan(plan: RunPlan): RunPlan {
+export function noDropsPlan(plan: RunPlan): RunPlan {
   if (plan.scenario.timing.policy.kind !== 'fastest-k') return plan;
   const timing = { ...plan.scenario.timing, policy: { kind: 'all' as const } };
   return { ...plan, scenario: { ...plan.scenario, timing } };

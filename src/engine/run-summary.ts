@@ -13,6 +13,7 @@ import {
 import type { RunPlan } from './run-plan.js';
 import { bytesByLayerSchema, type ByteCounts, type RoundRecord } from './round-record.js';
 import type { RunPrediction } from './predict-run.js';
+import { randomBandSchema } from './random-band-schema.js';
 
 /** Why a run ended: its target, its round limit, a non-finite update, every worker lost, or Ctrl-C. */
 export const stopReasonSchema = z.enum([
@@ -114,6 +115,8 @@ export const runSummarySchema = z.object({
     optimumLoss: z.number(),
     certificate: z.number(),
   }),
+  /** runs with random rounds only: the Monte Carlo band and closed form (random-band.ts) */
+  band: randomBandSchema.optional(),
 });
 export type RunSummary = z.output<typeof runSummarySchema>;
 

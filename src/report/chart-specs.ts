@@ -5,6 +5,7 @@
 import type { TopLevelSpec } from 'vega-lite';
 import {
   ACTIVITY_COLOURS,
+  BAND_OPACITIES,
   DIRECTION_STYLES,
   LAYER_COLOURS,
   NEUTRAL_MARK_COLOUR,
@@ -53,6 +54,30 @@ export interface CurveChartOptions {
   series: readonly CurveSeries[];
   /** the y range, when some series (a prediction) should not stretch it */
   yDomain?: [number, number];
+  /** a predicted band drawn behind the lines (rounds axis only), in one palette colour */
+  band?: { rows: readonly CurveBandRow[]; colour: string };
+}
+
+/** One round of a band: kind 'single-run' (where one run is expected) or 'mean' (the mean's interval). */
+export interface CurveBandRow {
+  kind: keyof typeof BAND_OPACITIES;
+  round: number;
+  low: number;
+  high: number;
+}
+
+/** The band's area layers, one a kind, in one colour: the mean's more opaque and drawn over. */
+function bandLayers(band: NonNullable<CurveChartOptions['band']>, yScale: object) {
+  const kinds = Object.keys(BAND_OPACITIES) as (keyof typeof BAND_OPACITIES)[];
+  return kinds.map((kind) => ({
+    data: { values: band.rows.filter((r) => r.kind === kind).map((r) => ({ ...r })) },
+    mark: { type: 'area', clip: true, color: band.colour, opacity: BAND_OPACITIES[kind] },
+    encoding: {
+      x: { field: 'round', type: 'quantitative' },
+      y: { field: 'low', type: 'quantitative', title: 'f(x) - f*', scale: yScale },
+      y2: { field: 'high' },
+    },
+  }));
 }
 
 /** Suboptimality on a log scale against rounds, cumulative bytes or seconds, one line a series. */
@@ -69,10 +94,8 @@ export function curveChartSpec(
     symbolSize: 300,
     symbolStrokeWidth: 2,
   } as const;
-  return {
-    width: chartWidth,
-    height: chartHeight,
-    config: baseConfig,
+  const yScale = { type: 'log', ...(options.yDomain ? { domain: options.yDomain } : {}) } as const;
+  const lines = {
     data: {
       values: rows.map((r) => ({
         series: r.series,
@@ -92,7 +115,7 @@ export function curveChartSpec(
         field: 'suboptimality',
         type: 'quantitative',
         title: 'f(x) - f*',
-        scale: { type: 'log', ...(options.yDomain ? { domain: options.yDomain } : {}) },
+        scale: yScale,
         axis: { format: '.0e' },
       },
       // One legend shows both channels: the same field, domain and legend settings merge them.
@@ -111,7 +134,12 @@ export function curveChartSpec(
         legend,
       },
     },
-  };
+  } as const;
+  const frame = { width: chartWidth, height: chartHeight, config: baseConfig };
+  // The band goes first so that the measured line is drawn over it.
+  if (options.band !== undefined && options.axis === 'round')
+    return { ...frame, layer: [...bandLayers(options.band, yScale), lines] } as TopLevelSpec;
+  return { ...frame, ...lines } as TopLevelSpec;
 }
 
 /** Bytes per round: colour says the layer, line style and point shape the direction. */

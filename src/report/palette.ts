@@ -68,6 +68,11 @@ export const NEUTRAL_MARK_COLOUR = OKABE_ITO.skyBlue;
 export const SOLID_DASH: readonly number[] = [1, 0];
 export const PREDICTED_DASH: readonly number[] = [6, 4];
 export const DOTTED_DASH: readonly number[] = [2, 2];
+/**
+ * A predicted band is an area in the method's colour behind its curve: light where a single run
+ * is expected, darker for the interval of the mean (which lies inside it).
+ */
+export const BAND_OPACITIES = { 'single-run': 0.15, mean: 0.35 } as const;
 
 /** Traffic direction by line style and point shape, so that colour stays free for the layer. */
 export const DIRECTION_STYLES = {

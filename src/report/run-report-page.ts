@@ -1,6 +1,8 @@
 // report.html of one run: the suboptimality curve against rounds, bytes and seconds with the
 // predicted curve beside it, bytes per round by layer, the per-client timeline, the tau_i
-// histogram, the summary table (measured beside predicted) and the rate beside its published bounds.
+// histogram, the summary table (measured beside predicted) and the rate beside its published
+// bounds. A run with random rounds has a predicted band instead of a predicted line
+// (band-series.ts), drawn behind its curve.
 
 import type { RunSummary } from '../engine/run-summary.js';
 import { formatNumber } from './text-table.js';
@@ -12,6 +14,7 @@ import {
   type CurveAxis,
   type CurveSeries,
 } from './chart-specs.js';
+import { bandCaption, bandRows, bandSummaryRows } from './band-series.js';
 import {
   figure,
   grid,
@@ -55,6 +58,7 @@ function summaryRows(s: RunSummary): TableCell[][] {
     ],
     ['floor f(limit) - f*', s.floor.measured, s.floor.predicted],
     ['||x - x*||, final', s.distance.final, s.prediction.limitDistance],
+    ...bandSummaryRows(s.band),
     ['rounds', s.rounds, null],
     [`rounds to target ${formatNumber(s.target)}`, s.roundsToTarget, null],
     ['payload bytes to target', s.toTarget.payloadBytes, null],
@@ -99,6 +103,7 @@ function curveCaption(
     parts.push(
       'With nothing injected the two curves coincide; the gap is what compression, stragglers and drops cost.',
     );
+  if (s.band !== undefined) parts.push(bandCaption(s.band));
   if (curve.points.length < curve.pointsTotal)
     parts.push(
       `${curve.points.length} of ${curve.pointsTotal} evaluated rounds drawn, evenly spread.`,
@@ -128,6 +133,7 @@ async function curveFigures(results: RunResults): Promise<Html[]> {
       ? [Math.min(...values), Math.max(...values)]
       : undefined;
   const caption = curveCaption(results, curve, prediction !== null);
+  const band = s.band === undefined ? [] : bandRows(s.band);
   const axes: [CurveAxis, string][] = [
     ['round', 'Suboptimality against rounds'],
     ['payloadBytes', 'Suboptimality against payload bytes'],
@@ -140,6 +146,7 @@ async function curveFigures(results: RunResults): Promise<Html[]> {
       series,
       yDomain,
       ...(axis === 'seconds' ? { axisTitle: secondsTitle(s.clock) } : {}),
+      ...(band.length > 0 ? { band: { rows: band, colour } } : {}),
     });
     figures.push(figure(await renderSvg(spec, `curve-${axis}`), caption, title));
   }
