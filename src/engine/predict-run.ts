@@ -36,6 +36,12 @@ export interface RunPrediction {
   /** rho of the round map's linear part (per-round contraction of the state's error) */
   spectralRadius: number | null;
   /**
+   * |lambda_2| of the linear part (the next mode after the dominant one and its conjugate or -r
+   * partner; predict-rate.ts), null when none was seen; with its Ritz residual relative to rho
+   */
+  subdominantModulus: number | null;
+  subdominantRelativeResidual: number | null;
+  /**
    * Per-round contraction of f(x) - (its limit): rho^2 when the limit is x* (f - f* is quadratic
    * in the error there), rho when it is not (the gradient at the limit is not zero, so f moves
    * linearly in the error).
@@ -52,6 +58,8 @@ export interface RunPrediction {
 const none = (reason: string): RunPrediction => ({
   unavailableReason: reason,
   spectralRadius: null,
+  subdominantModulus: null,
+  subdominantRelativeResidual: null,
   rate: null,
   floor: null,
   limitDistance: null,
@@ -146,6 +154,8 @@ function predictFrom(plan: RunPlan, theory: PlanTheory, initialModel: Float64Arr
   return {
     unavailableReason: null,
     spectralRadius: rate.spectralRadius,
+    subdominantModulus: rate.subdominantModulus,
+    subdominantRelativeResidual: rate.subdominantRelativeResidual,
     rate: limitIsOptimum ? rate.perRoundRate : rate.spectralRadius,
     floor: atLimit.suboptimality,
     limitDistance: atLimit.distance,

@@ -5,6 +5,7 @@ import { z } from 'zod';
 import type { PlanTheory } from '../theory/plan-theory.js';
 import { methodSchema, timingSchema } from '../scenario/schema.js';
 import { fitLinearRate, measureFloor, type CurvePoint } from '../theory/measure-curve.js';
+import { assessAsymptoticRate, type ModeEstimate } from '../theory/asymptotic-window.js';
 import type { RunPlan } from './run-plan.js';
 import { bytesByLayerSchema, type ByteCounts, type RoundRecord } from './round-record.js';
 import type { RunPrediction } from './predict-run.js';
@@ -74,12 +75,28 @@ export const runSummarySchema = z.object({
     /** the gd bound 1 - mu/L for eta = 1/L (Nesterov 2004, Thm 2.1.15), for scale */
     gdBound: z.number(),
     measuredWindow: z.tuple([z.number(), z.number()]).nullable(),
+    /** the rate over the window where the leading mode dominates (theory/asymptotic-window.ts) */
+    asymptotic: z.object({
+      status: z.enum(['asymptotic', 'not-yet-asymptotic', 'no-clean-window', 'no-prediction']),
+      note: z.string(),
+      tolerance: z.number(),
+      asymptoticRound: z.number().int().nonnegative().nullable(),
+      roundsNeeded: z.number().int().nonnegative().nullable(),
+      window: z.tuple([z.number(), z.number()]).nullable(),
+      measured: z.number().nullable(),
+      measuredStandardError: z.number().nullable(),
+      predictedOverWindow: z.number().nullable(),
+      predictedOverWindowStandardError: z.number().nullable(),
+    }),
   }),
   floor: z.object({ measured: z.number().nullable(), predicted: z.number().nullable() }),
   prediction: z.object({
     available: z.boolean(),
     reason: z.string().nullable(),
     spectralRadius: z.number().nullable(),
+    /** |lambda_2| of the round map and its Ritz residual relative to rho (predict-rate.ts) */
+    subdominantModulus: z.number().nullable(),
+    subdominantRelativeResidual: z.number().nullable(),
     limitDistance: z.number().nullable(),
   }),
   target: z.number(),
@@ -128,6 +145,8 @@ interface RoundsDigest {
    * the file, and nothing of it is held while the run goes on.
    */
   curve: CurvePoint[];
+  /** the predicted trajectory's points, cut the same way */
+  predictedCurve: CurvePoint[];
   first: RoundRecord;
   last: RoundRecord;
   /** the last distance evaluated (NaN if none) */
@@ -140,6 +159,7 @@ interface RoundsDigest {
 
 function digestRounds(rounds: Iterable<RoundRecord>, target: number): RoundsDigest {
   const curve: CurvePoint[] = [];
+  const predictedCurve: CurvePoint[] = [];
   let curveCut = false;
   let first: RoundRecord | null = null;
   let last: RoundRecord | null = null;
@@ -162,12 +182,27 @@ function digestRounds(rounds: Iterable<RoundRecord>, target: number): RoundsDige
       continue;
     }
     curve.push({ round: r.round, suboptimality: r.suboptimality });
+    if (r.predictedSuboptimality !== null && Number.isFinite(r.predictedSuboptimality))
+      predictedCurve.push({ round: r.round, suboptimality: r.predictedSuboptimality });
     if (reached === null && target > 0 && r.suboptimality <= target)
       reached = { record: r, payloadBytes: payloadTotal };
   }
   if (first === null || last === null)
     throw new RangeError('buildRunSummary: a run has at least its round 0');
-  return { curve, first, last, finalDistance, reached, payload, dropped };
+  return { curve, predictedCurve, first, last, finalDistance, reached, payload, dropped };
+}
+
+/** What the asymptotic window needs of a prediction, or null where it lacks the rate or the floor. */
+function modeEstimateOf(prediction: RunPrediction): ModeEstimate | null {
+  const { spectralRadius, rate, floor } = prediction;
+  if (spectralRadius === null || rate === null || floor === null) return null;
+  return {
+    spectralRadius,
+    rate,
+    floor,
+    subdominantModulus: prediction.subdominantModulus,
+    subdominantRelativeResidual: prediction.subdominantRelativeResidual,
+  };
 }
 
 /** outcome.json's fields from the run's end and its rounds (round 0 first, in round order, read once). */
@@ -187,6 +222,12 @@ export function buildRunSummary(
   const noiseLevel =
     1e3 * Number.EPSILON * Math.max(Math.abs(theory.optimum.loss), first.suboptimality);
   const fit = curve.length > 1 ? fitLinearRate(curve, { noiseLevel }) : null;
+  const asymptotic = assessAsymptoticRate(
+    curve,
+    digest.predictedCurve,
+    modeEstimateOf(prediction),
+    noiseLevel,
+  );
   const reached = digest.reached;
   const lastRound = digest.last;
   const c = theory.constants;
@@ -214,6 +255,7 @@ export function buildRunSummary(
       predicted: prediction.rate,
       gdBound: 1 - c.strongConvexity / c.smoothness,
       measuredWindow: fit ? fit.window : null,
+      asymptotic,
     },
     floor: {
       measured: curve.length > 1 ? measureFloor(curve, { noiseLevel }) : null,
@@ -223,6 +265,8 @@ export function buildRunSummary(
       available: prediction.unavailableReason === null,
       reason: prediction.unavailableReason,
       spectralRadius: prediction.spectralRadius,
+      subdominantModulus: prediction.subdominantModulus,
+      subdominantRelativeResidual: prediction.subdominantRelativeResidual,
       limitDistance: prediction.limitDistance,
     },
     target,
