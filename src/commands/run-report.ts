@@ -84,7 +84,7 @@ export function formatRunSummary(s: RunSummary, outDir: string): string {
     `seconds: ${s.seconds.virtual.toPrecision(4)} modelled, ${s.seconds.wall.toFixed(2)} wall; dropped updates ${s.droppedUpdates}`,
     `rate window: ${windowLine(s.rate.asymptotic)}`,
     s.prediction.available
-      ? `prediction: spectral radius ${s.prediction.spectralRadius?.toPrecision(6)}, next eigenvalue modulus ${formatNumber(s.prediction.subdominantModulus)} (Ritz residual ${formatNumber(s.prediction.subdominantRelativeResidual)} of it)`
+      ? `prediction: spectral radius ${s.prediction.spectralRadius?.toPrecision(6)}, next eigenvalue modulus ${formatNumber(s.prediction.subdominantModulus)} (Ritz residual ${formatNumber(s.prediction.subdominantRelativeResidual)} relative to rho)`
       : `prediction: none (${s.prediction.reason})`,
     `results: ${outDir}`,
   ];

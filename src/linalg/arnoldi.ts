@@ -138,8 +138,16 @@ function ritzPairs(h: Float64Array, krylov: number, k: number, next: number): Ri
 }
 
 /**
+ * Ritz values closer than this (relative to the dominant modulus), beyond their residuals, count
+ * as one mode: a Ritz value's error can exceed its residual by the eigenvector's condition number
+ * (a few units on the test matrices), and two modes 1e-6 apart separate only after about a
+ * million rounds, so for a rate they are one.
+ */
+const SAME_MODE_RELATIVE = 1e-6;
+
+/**
  * The largest modulus among `pairs` other than `dominant`, its conjugate (never listed) or its
- * -r partner, told apart within the two Ritz values' residuals and the rounding level.
+ * -r partner, told apart beyond SAME_MODE_RELATIVE, the two residuals and the rounding level.
  */
 function subdominantOf(
   pairs: readonly RitzPair[],
@@ -149,7 +157,8 @@ function subdominantOf(
   let best: SubdominantRitz | null = null;
   for (const pair of pairs) {
     if (pair === dominant) continue;
-    const apart = pair.residual + dominant.residual + roundingLevel;
+    const apart =
+      SAME_MODE_RELATIVE * dominant.modulus + pair.residual + dominant.residual + roundingLevel;
     const partner =
       dominant.imaginary === 0 &&
       pair.imaginary === 0 &&
