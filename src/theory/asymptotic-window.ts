@@ -17,9 +17,9 @@
 // The assumption. The weights c are unknown (they are the initial error's components along
 // eigenvectors nobody computed), so |c| <= 1 is assumed: at round 0 no later mode carries more
 // of f - limit than the leading one. It fails when the start lies mostly along faster modes
-// (test/theory/asymptotic-window.test.ts shows a case, and the predicted trajectory's rate over
-// the window, reported beside the measured one, shows it on a real run: the two agree with each
-// other, and both stray from the asymptotic rate by more than the tolerance). Under it, with
+// (test/theory/asymptotic-window.test.ts shows a case). On a run the predicted trajectory's rate
+// over the window, reported beside the measured one, shows such a failure: the two agree with
+// each other, and both stray from the asymptotic rate by more than the tolerance. Under it, with
 // a = tol |log q| / |log r|, the bias is within tolerance once r^k <= a / (1 + a), i.e. from
 // round ceil(log(a / (1 + a)) / log r). That round grows as r tends to 1 but stays below
 // 1 / (tol |log q|): a second mode almost as slow as the first barely bends the line.
