@@ -239,7 +239,7 @@ export function assessAsymptoticRate(
   if (!(modes.rate > 0 && modes.rate < 1))
     return noWindow(
       'no-prediction',
-      `no window: the predicted rate ${modes.rate} does not contract`,
+      `no window: the predicted rate ${modes.rate} is not in (0, 1): the limit is reached at once, or never`,
     );
   const start = asymptoticRound(modes);
   const floor = measuredFloorOf(measured, modes.floor, noiseLevel);
