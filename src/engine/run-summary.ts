@@ -5,7 +5,11 @@ import { z } from 'zod';
 import type { PlanTheory } from '../theory/plan-theory.js';
 import { methodSchema, timingSchema } from '../scenario/schema.js';
 import { fitLinearRate, measureFloor, type CurvePoint } from '../theory/measure-curve.js';
-import { assessAsymptoticRate, type ModeEstimate } from '../theory/asymptotic-window.js';
+import {
+  ASYMPTOTIC_STATUSES,
+  assessAsymptoticRate,
+  type ModeEstimate,
+} from '../theory/asymptotic-window.js';
 import type { RunPlan } from './run-plan.js';
 import { bytesByLayerSchema, type ByteCounts, type RoundRecord } from './round-record.js';
 import type { RunPrediction } from './predict-run.js';
@@ -77,7 +81,7 @@ export const runSummarySchema = z.object({
     measuredWindow: z.tuple([z.number(), z.number()]).nullable(),
     /** the rate over the window where the leading mode dominates (theory/asymptotic-window.ts) */
     asymptotic: z.object({
-      status: z.enum(['asymptotic', 'not-yet-asymptotic', 'no-clean-window', 'no-prediction']),
+      status: z.enum(ASYMPTOTIC_STATUSES),
       note: z.string(),
       tolerance: z.number(),
       asymptoticRound: z.number().int().nonnegative().nullable(),

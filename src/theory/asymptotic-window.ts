@@ -59,15 +59,19 @@ export const SUBDOMINANT_RESIDUAL_TRUSTED = 1e-6;
 /** A window needs this many evaluated rounds for a line and its standard error. */
 export const WINDOW_POINTS_MIN = 4;
 
-export type AsymptoticStatus =
-  /** the window lies where the leading mode dominates */
-  | 'asymptotic'
-  /** the run stopped before the asymptotic round; more rounds would reach it */
-  | 'not-yet-asymptotic'
-  /** the curve reached its floor (or the noise) before the asymptotic round */
-  | 'no-clean-window'
-  /** nothing predicted: no eigenvalues, or no predicted trajectory */
-  | 'no-prediction';
+/**
+ * What a run's window is: 'asymptotic' (it lies where the leading mode dominates),
+ * 'not-yet-asymptotic' (the run stopped before the asymptotic round; more rounds would reach it),
+ * 'no-clean-window' (the curve reached its floor or the noise before the asymptotic round),
+ * 'no-prediction' (no eigenvalues, or no predicted trajectory).
+ */
+export const ASYMPTOTIC_STATUSES = [
+  'asymptotic',
+  'not-yet-asymptotic',
+  'no-clean-window',
+  'no-prediction',
+] as const;
+export type AsymptoticStatus = (typeof ASYMPTOTIC_STATUSES)[number];
 
 /** What the prediction tells the window. */
 export interface ModeEstimate {
