@@ -13,7 +13,7 @@ import { runInProcess } from '../engine/in-process-engine.js';
 import { writeResultsFolder } from '../results/results-folder.js';
 import { DeferredRecordStream } from '../results/record-stream.js';
 import { readRoundRecords } from '../results/record-lines.js';
-import { formatTable } from '../report/text-table.js';
+import { formatNumber, formatTable } from '../report/text-table.js';
 import { RATE_COMPARISON_HEADER, rateComparisonRows } from '../report/rate-comparison.js';
 import { formatBytes } from './progress.js';
 
@@ -60,17 +60,33 @@ export function runInProcessInto(
   return { outcome, summary: finishRun(outcome, 'in-process', outDir) };
 }
 
+/** The row of the rate over the asymptotic window: measured beside the predicted trajectory's. */
+function windowRows(s: RunSummary): (string | number | null)[][] {
+  const a = s.rate.asymptotic;
+  if (a.window === null) return [];
+  return [
+    [`rate over rounds ${a.window[0]}-${a.window[1]}`, null, a.measured, a.predictedOverWindow],
+  ];
+}
+
+/** The window's status, and the measured rate's standard error where there is a fit. */
+function windowLine(a: RunSummary['rate']['asymptotic']): string {
+  if (a.measuredStandardError === null) return a.note;
+  return `${a.note}; measured rate standard error ${formatNumber(a.measuredStandardError)}`;
+}
+
 export function formatRunSummary(s: RunSummary, outDir: string): string {
   const rows: (string | number | null)[][] = [
     ['f - f*', s.suboptimality.initial, s.suboptimality.final, null],
     [
       s.prediction.kind === 'local'
-        ? 'rate per round (predicted: local, near the limit)'
-        : 'rate per round',
+        ? 'rate per round, straight fit (predicted: local, near the limit)'
+        : 'rate per round, straight fit',
       null,
       s.rate.measured,
       s.rate.predicted,
     ],
+    ...windowRows(s),
     ['floor f(limit) - f*', null, s.floor.measured, s.floor.predicted],
   ];
   const table = formatTable(['quantity', 'initial', 'measured', 'predicted'], rows);
@@ -87,8 +103,9 @@ export function formatRunSummary(s: RunSummary, outDir: string): string {
     `target ${s.target}: ${s.roundsToTarget === null ? 'not reached' : `reached at round ${s.roundsToTarget}, ${formatBytes(s.toTarget.payloadBytes ?? 0)} payload`}`,
     `payload bytes: ${bytes(s.bytes.payload)}${s.bytes.wire ? `; wire: ${bytes(s.bytes.wire)}` : ''}`,
     `seconds: ${s.seconds.virtual.toPrecision(4)} modelled, ${s.seconds.wall.toFixed(2)} wall; dropped updates ${s.droppedUpdates}`,
+    `rate window: ${windowLine(s.rate.asymptotic)}`,
     s.prediction.available
-      ? `prediction: spectral radius ${s.prediction.spectralRadius?.toPrecision(6)}${s.prediction.kind === 'local' ? ' (local: the round map linearized at its limit; the rate holds once the run is near the limit)' : ''}`
+      ? `prediction: spectral radius ${s.prediction.spectralRadius?.toPrecision(6)}, next eigenvalue modulus ${formatNumber(s.prediction.subdominantModulus)} (Ritz residual ${formatNumber(s.prediction.subdominantRelativeResidual)} relative to rho)${s.prediction.kind === 'local' ? '; local: the round map linearized at its limit, the rate holds once the run is near the limit' : ''}`
       : `prediction: none (${s.prediction.reason})`,
     ...(s.band === undefined ? [] : [formatBandLine(s.band)]),
     `results: ${outDir}`,

@@ -14,13 +14,14 @@ import { LinalgError } from '../linalg/linalg-error.js';
 import { roundMapLinearization } from './round-map-jacobian.js';
 import { buildRoundMap } from './round-map.js';
 import type { RunPlan } from './run-plan.js';
+import type { RoundMapModes } from './predict-run.js';
 
 export type LocalLimit =
   | {
       /** the server model at the fixed point */
       limit: Float64Array;
-      /** rho(J(s*)) on the directions that move */
-      spectralRadius: number;
+      /** rho(J(s*)) on the directions that move, and the next eigenvalue's modulus */
+      modes: RoundMapModes;
     }
   | { reason: string };
 
@@ -57,5 +58,12 @@ export function localLimit(
     return {
       reason: `the spectral radius of the round map's Jacobian at its fixed point did not settle within ${rate.products} products`,
     };
-  return { limit: roundMap.modelOf(fixed.state), spectralRadius: rate.spectralRadius };
+  return {
+    limit: roundMap.modelOf(fixed.state),
+    modes: {
+      spectralRadius: rate.spectralRadius,
+      subdominantModulus: rate.subdominantModulus,
+      subdominantRelativeResidual: rate.subdominantRelativeResidual,
+    },
+  };
 }

@@ -35,6 +35,12 @@ export const PREDICTION_STATE_ENTRIES_MAX = 2 ** 20;
  */
 export const PREDICTION_WORKING_VECTORS = DEFAULT_KRYLOV_DIMENSION + 10;
 
+/** The round map's leading eigenvalue modulus and the next one (see arnoldi.ts). */
+export type RoundMapModes = Pick<
+  RunPrediction,
+  'spectralRadius' | 'subdominantModulus' | 'subdominantRelativeResidual'
+> & { spectralRadius: number };
+
 export interface RunPrediction {
   /** null when the prediction is made; else why not */
   unavailableReason: string | null;
@@ -46,6 +52,12 @@ export interface RunPrediction {
   kind: 'exact' | 'local' | null;
   /** rho of the round map's linear part (per-round contraction of the state's error) */
   spectralRadius: number | null;
+  /**
+   * |lambda_2| of the linear part (the next mode after the dominant one and its conjugate or -r
+   * partner; predict-rate.ts), null when none was seen; with its Ritz residual relative to rho
+   */
+  subdominantModulus: number | null;
+  subdominantRelativeResidual: number | null;
   /**
    * Per-round contraction of f(x) - (its limit): rho^2 when the limit is x* (f - f* is quadratic
    * in the error there), rho when it is not (the gradient at the limit is not zero, so f moves
@@ -64,6 +76,8 @@ const none = (reason: string): RunPrediction => ({
   unavailableReason: reason,
   kind: null,
   spectralRadius: null,
+  subdominantModulus: null,
+  subdominantRelativeResidual: null,
   rate: null,
   floor: null,
   limitDistance: null,
@@ -111,7 +125,7 @@ function predictFrom(plan: RunPlan, theory: PlanTheory, initialModel: Float64Arr
   if (local) {
     const found = localLimit(plan, objectives, initialModel);
     if ('reason' in found) return none(found.reason);
-    return predictionAt(theory, initialModel, found.limit, found.spectralRadius, 'local');
+    return predictionAt(theory, initialModel, found.limit, found.modes, 'local');
   }
   const roundMap = buildRoundMap(plan, objectives, initialModel);
   let rate;
@@ -137,6 +151,8 @@ function predictFrom(plan: RunPlan, theory: PlanTheory, initialModel: Float64Arr
       ),
       kind: 'exact',
       spectralRadius: rate.spectralRadius,
+      subdominantModulus: rate.subdominantModulus,
+      subdominantRelativeResidual: rate.subdominantRelativeResidual,
     };
   }
   let fixed;
@@ -148,6 +164,8 @@ function predictFrom(plan: RunPlan, theory: PlanTheory, initialModel: Float64Arr
         ...none(`no floor: ${error.message}`),
         kind: 'exact',
         spectralRadius: rate.spectralRadius,
+        subdominantModulus: rate.subdominantModulus,
+        subdominantRelativeResidual: rate.subdominantRelativeResidual,
       };
     throw error;
   }
@@ -155,7 +173,11 @@ function predictFrom(plan: RunPlan, theory: PlanTheory, initialModel: Float64Arr
     theory,
     initialModel,
     roundMap.modelOf(fixed.state),
-    rate.spectralRadius,
+    {
+      spectralRadius: rate.spectralRadius,
+      subdominantModulus: rate.subdominantModulus,
+      subdominantRelativeResidual: rate.subdominantRelativeResidual,
+    },
     'exact',
   );
 }
@@ -165,7 +187,7 @@ function predictionAt(
   theory: PlanTheory,
   initialModel: Float64Array,
   limit: Float64Array,
-  spectralRadius: number,
+  modes: RoundMapModes,
   kind: 'exact' | 'local',
 ): RunPrediction {
   const atLimit = evaluateModel(
@@ -185,8 +207,8 @@ function predictionAt(
   return {
     unavailableReason: null,
     kind,
-    spectralRadius,
-    rate: limitIsOptimum ? spectralRadius * spectralRadius : spectralRadius,
+    ...modes,
+    rate: limitIsOptimum ? modes.spectralRadius ** 2 : modes.spectralRadius,
     floor: atLimit.suboptimality,
     limitDistance: atLimit.distance,
     limit,

@@ -10,6 +10,11 @@ import {
   publishedBoundSchema,
   publishedBounds,
 } from '../theory/published-bounds.js';
+import {
+  ASYMPTOTIC_STATUSES,
+  assessAsymptoticRate,
+  type ModeEstimate,
+} from '../theory/asymptotic-window.js';
 import type { RunPlan } from './run-plan.js';
 import { bytesByLayerSchema, type ByteCounts, type RoundRecord } from './round-record.js';
 import type { RunPrediction } from './predict-run.js';
@@ -78,6 +83,19 @@ export const runSummarySchema = z.object({
     measured: z.number().nullable(),
     predicted: z.number().nullable(),
     measuredWindow: z.tuple([z.number(), z.number()]).nullable(),
+    /** the rate over the window where the leading mode dominates (theory/asymptotic-window.ts) */
+    asymptotic: z.object({
+      status: z.enum(ASYMPTOTIC_STATUSES),
+      note: z.string(),
+      tolerance: z.number(),
+      asymptoticRound: z.number().int().nonnegative().nullable(),
+      roundsNeeded: z.number().int().nonnegative().nullable(),
+      window: z.tuple([z.number(), z.number()]).nullable(),
+      measured: z.number().nullable(),
+      measuredStandardError: z.number().nullable(),
+      predictedOverWindow: z.number().nullable(),
+      predictedOverWindowStandardError: z.number().nullable(),
+    }),
   }),
   floor: z.object({ measured: z.number().nullable(), predicted: z.number().nullable() }),
   /** published rate bounds for the method, each with its conditions and source (published-bounds.ts) */
@@ -91,6 +109,9 @@ export const runSummarySchema = z.object({
     kind: z.enum(['exact', 'local']).nullable().default(null),
     reason: z.string().nullable(),
     spectralRadius: z.number().nullable(),
+    /** |lambda_2| of the round map and its Ritz residual relative to rho (predict-rate.ts) */
+    subdominantModulus: z.number().nullable(),
+    subdominantRelativeResidual: z.number().nullable(),
     limitDistance: z.number().nullable(),
   }),
   target: z.number(),
@@ -141,6 +162,8 @@ interface RoundsDigest {
    * the file, and nothing of it is held while the run goes on.
    */
   curve: CurvePoint[];
+  /** the predicted trajectory's points, cut the same way */
+  predictedCurve: CurvePoint[];
   first: RoundRecord;
   last: RoundRecord;
   /** the last distance evaluated (NaN if none) */
@@ -153,6 +176,7 @@ interface RoundsDigest {
 
 function digestRounds(rounds: Iterable<RoundRecord>, target: number): RoundsDigest {
   const curve: CurvePoint[] = [];
+  const predictedCurve: CurvePoint[] = [];
   let curveCut = false;
   let first: RoundRecord | null = null;
   let last: RoundRecord | null = null;
@@ -175,12 +199,27 @@ function digestRounds(rounds: Iterable<RoundRecord>, target: number): RoundsDige
       continue;
     }
     curve.push({ round: r.round, suboptimality: r.suboptimality });
+    if (r.predictedSuboptimality !== null && Number.isFinite(r.predictedSuboptimality))
+      predictedCurve.push({ round: r.round, suboptimality: r.predictedSuboptimality });
     if (reached === null && target > 0 && r.suboptimality <= target)
       reached = { record: r, payloadBytes: payloadTotal };
   }
   if (first === null || last === null)
     throw new RangeError('buildRunSummary: a run has at least its round 0');
-  return { curve, first, last, finalDistance, reached, payload, dropped };
+  return { curve, predictedCurve, first, last, finalDistance, reached, payload, dropped };
+}
+
+/** What the asymptotic window needs of a prediction, or null where it lacks the rate or the floor. */
+function modeEstimateOf(prediction: RunPrediction): ModeEstimate | null {
+  const { spectralRadius, rate, floor } = prediction;
+  if (spectralRadius === null || rate === null || floor === null) return null;
+  return {
+    spectralRadius,
+    rate,
+    floor,
+    subdominantModulus: prediction.subdominantModulus,
+    subdominantRelativeResidual: prediction.subdominantRelativeResidual,
+  };
 }
 
 /** outcome.json's fields from the run's end and its rounds (round 0 first, in round order, read once). */
@@ -200,6 +239,12 @@ export function buildRunSummary(
   const noiseLevel =
     1e3 * Number.EPSILON * Math.max(Math.abs(theory.optimum.loss), first.suboptimality);
   const fit = curve.length > 1 ? fitLinearRate(curve, { noiseLevel }) : null;
+  const asymptotic = assessAsymptoticRate(
+    curve,
+    digest.predictedCurve,
+    modeEstimateOf(prediction),
+    noiseLevel,
+  );
   const reached = digest.reached;
   const lastRound = digest.last;
   const c = theory.constants;
@@ -226,6 +271,7 @@ export function buildRunSummary(
       measured: fit ? fit.rate : null,
       predicted: prediction.rate,
       measuredWindow: fit ? fit.window : null,
+      asymptotic,
     },
     floor: {
       measured: curve.length > 1 ? measureFloor(curve, { noiseLevel }) : null,
@@ -243,6 +289,8 @@ export function buildRunSummary(
       kind: prediction.kind,
       reason: prediction.unavailableReason,
       spectralRadius: prediction.spectralRadius,
+      subdominantModulus: prediction.subdominantModulus,
+      subdominantRelativeResidual: prediction.subdominantRelativeResidual,
       limitDistance: prediction.limitDistance,
     },
     target,

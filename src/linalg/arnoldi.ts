@@ -29,6 +29,15 @@
 // as the dominant one. The multiplication also scales each moving eigencomponent by |1 - lambda|,
 // which costs the dominant one at most a factor (1 + rho) / (1 - rho) against the others: a few
 // steps of the next cycle.
+//
+// The subdominant eigenvalue. The Ritz values of the final Krylov space also estimate the next
+// eigenvalue: the largest modulus among the Ritz values that are not the dominant one, its
+// conjugate (never listed twice) or, for a dominant real r, its partner -r (a +-r pair has one
+// modulus and is one mode for the rate). Ritz values converge from the outside of the spectrum
+// inwards, so when the dominant pair has converged the next one has usually been separated too,
+// but less well: its residual is reported beside it, and it bounds the error of that Ritz value
+// (for a normal M; times the eigenvector's condition number otherwise). It is a by-product of the
+// dominant's iteration, never iterated to a tolerance of its own.
 
 import { EigenvalueDecomposition, Matrix } from 'ml-matrix';
 import { axpy, dot, norm2, scale } from '../vec/kernels.js';
@@ -60,6 +69,15 @@ export interface DominantEigenvalue {
   restarts: number;
   /** products with M in all */
   products: number;
+  /** the next eigenvalue's estimate (see the file comment), null when the space held no other */
+  subdominant: SubdominantRitz | null;
+}
+
+export interface SubdominantRitz {
+  /** |theta| of the subdominant Ritz value */
+  modulus: number;
+  /** ||M x - theta x|| for its unit Ritz vector: how far it is from an eigenpair */
+  residual: number;
 }
 
 /** Basis vectors per cycle unless asked otherwise; the memory estimate counts them. */
@@ -119,6 +137,43 @@ function ritzPairs(h: Float64Array, krylov: number, k: number, next: number): Ri
   return pairs;
 }
 
+/**
+ * Ritz values closer than this (relative to the dominant modulus), beyond their residuals, count
+ * as one mode: a Ritz value's error can exceed its residual by the eigenvector's condition number
+ * (a few units on the test matrices), and two modes 1e-6 apart separate only after about a
+ * million rounds, so for a rate they are one.
+ */
+const SAME_MODE_RELATIVE = 1e-6;
+
+/**
+ * The largest modulus among `pairs` other than `dominant`, its conjugate (never listed) or its
+ * -r partner, told apart beyond SAME_MODE_RELATIVE, the two residuals and the rounding level.
+ */
+function subdominantOf(
+  pairs: readonly RitzPair[],
+  dominant: RitzPair,
+  roundingLevel: number,
+): SubdominantRitz | null {
+  let best: SubdominantRitz | null = null;
+  for (const pair of pairs) {
+    if (pair === dominant) continue;
+    const apart =
+      SAME_MODE_RELATIVE * dominant.modulus + pair.residual + dominant.residual + roundingLevel;
+    const partner =
+      dominant.imaginary === 0 &&
+      pair.imaginary === 0 &&
+      Math.abs(pair.real + dominant.real) <= apart;
+    if (
+      partner ||
+      Math.hypot(pair.real - dominant.real, pair.imaginary - dominant.imaginary) <= apart
+    )
+      continue;
+    if (best === null || pair.modulus > best.modulus)
+      best = { modulus: pair.modulus, residual: pair.residual };
+  }
+  return best;
+}
+
 function checkOptions(krylovDimension: number, productsMax: number, tolerance: number): void {
   if (!Number.isInteger(krylovDimension) || krylovDimension < 1) {
     throw new LinalgError(
@@ -167,6 +222,7 @@ export function dominantEigenvalue(
   };
   let steps = 0;
   let restarts = 0;
+  let subdominant: SubdominantRitz | null = null;
   const result = (pair: Omit<RitzPair, 'coordinates'>, converged: boolean): DominantEigenvalue => ({
     real: pair.real,
     imaginary: pair.imaginary,
@@ -176,9 +232,12 @@ export function dominantEigenvalue(
     steps,
     restarts,
     products,
+    subdominant,
   });
-  const nothingMoves = (): DominantEigenvalue =>
-    result({ real: 0, imaginary: 0, modulus: 0, residual: 0 }, true);
+  const nothingMoves = (): DominantEigenvalue => ({
+    ...result({ real: 0, imaginary: 0, modulus: 0, residual: 0 }, true),
+    subdominant: null,
+  });
 
   let first: Float64Array = Float64Array.from(start);
   const startLength = norm2(first);
@@ -230,6 +289,7 @@ export function dominantEigenvalue(
       );
       if (candidates.length === 0) return nothingMoves();
       latest = candidates.reduce((best, pair) => (pair.modulus > best.modulus ? pair : best));
+      subdominant = subdominantOf(candidates, latest, roundingLevel);
       // A subdiagonal at the rounding level makes every residual converged: the space is invariant.
       if (converged(latest)) return result(latest, true);
       if (j + 1 < krylov) {

@@ -23,6 +23,9 @@ export interface CompareRow {
   floorMeasured: number | null;
   rateMeasured: number | null;
   ratePredicted: number | null;
+  /** the measured rate over the asymptotic window (outcome.json's rate.asymptotic) and its status */
+  rateOverWindow: number | null;
+  windowStatus: string;
   droppedUpdates: number;
   /** the variant's results folder, beside compare.json */
   folder: string;
@@ -40,6 +43,8 @@ export const compareColumns: (keyof CompareRow)[] = [
   'floorMeasured',
   'rateMeasured',
   'ratePredicted',
+  'rateOverWindow',
+  'windowStatus',
   'droppedUpdates',
   'folder',
 ];
@@ -127,6 +132,8 @@ export function compareRow(outcome: VariantOutcome, timeBasis: TimeBasis): Compa
     floorMeasured: s.floor.measured,
     rateMeasured: s.rate.measured,
     ratePredicted: s.rate.predicted,
+    rateOverWindow: s.rate.asymptotic.measured,
+    windowStatus: s.rate.asymptotic.status,
     droppedUpdates: s.droppedUpdates,
     folder: variant.folderName,
   };

@@ -45,17 +45,36 @@ export function secondsTitle(clock: RunSummary['clock']): string {
   return clock === 'virtual' ? 'modelled seconds (virtual clock)' : 'wall seconds (wall clock)';
 }
 
+/**
+ * The rate over the asymptotic window (measured beside the predicted trajectory's over the same
+ * rounds) and the window's status; the standard error travels with the measured rate.
+ */
+function windowRows(s: RunSummary): TableCell[][] {
+  const a = s.rate.asymptotic;
+  const rows: TableCell[][] = [['rate window', a.note, null]];
+  if (a.window !== null)
+    rows.push([
+      `rate over rounds ${a.window[0]}-${a.window[1]}`,
+      a.measuredStandardError === null
+        ? a.measured
+        : `${formatNumber(a.measured)} ± ${formatNumber(a.measuredStandardError)}`,
+      a.predictedOverWindow,
+    ]);
+  return rows;
+}
+
 function summaryRows(s: RunSummary): TableCell[][] {
   return [
     ['f(x) - f*, initial', s.suboptimality.initial, null],
     ['f(x) - f*, final', s.suboptimality.final, null],
     [
       s.prediction.kind === 'local'
-        ? 'rate per round (predicted: local, near the limit)'
-        : 'rate per round',
+        ? 'rate per round, straight fit (predicted: local, near the limit)'
+        : 'rate per round, straight fit',
       s.rate.measured,
       s.rate.predicted,
     ],
+    ...windowRows(s),
     ['floor f(limit) - f*', s.floor.measured, s.floor.predicted],
     ['||x - x*||, final', s.distance.final, s.prediction.limitDistance],
     ...bandSummaryRows(s.band),

@@ -123,7 +123,7 @@ function noiseLevelOf(points: readonly CurvePoint[], options: CurveOptions): num
   return points.length === 0 ? 0 : NOISE_RELATIVE_DEFAULT * Math.max(points[0].suboptimality, 0);
 }
 
-interface LineFit {
+export interface LineFit {
   slope: number;
   /** standard error of the slope (0 with fewer than three points) */
   slopeStandardError: number;
@@ -134,7 +134,12 @@ interface LineFit {
 }
 
 /** Least-squares line through (x_j, y_j) for j in [from, to], by the two-pass centered formulas. */
-function fitLine(x: ArrayLike<number>, y: ArrayLike<number>, from: number, to: number): LineFit {
+export function fitLine(
+  x: ArrayLike<number>,
+  y: ArrayLike<number>,
+  from: number,
+  to: number,
+): LineFit {
   const count = to - from + 1;
   let meanX = 0;
   let meanY = 0;
@@ -171,7 +176,7 @@ function median(values: number[]): number {
   return sorted.length % 2 === 1 ? sorted[middle] : 0.5 * (sorted[middle - 1] + sorted[middle]);
 }
 
-interface Floor {
+export interface Floor {
   level: number;
   /** median |f - f* - level| over the flat points: how well the level is known */
   deviation: number;
@@ -203,6 +208,15 @@ function floorOf(points: readonly CurvePoint[], noise: number): Floor | null {
   const values = points.slice(from).map((p) => p.suboptimality);
   const level = Math.max(0, median(values));
   return { level, deviation: median(values.map((v) => Math.abs(v - level))) };
+}
+
+/** measureFloor's level with the scatter of the flat points around it, or null. */
+export function measureFloorSpread(
+  points: readonly CurvePoint[],
+  options: CurveOptions = {},
+): Floor | null {
+  checkPoints(points);
+  return floorOf(points, noiseLevelOf(points, options));
 }
 
 /**
@@ -281,6 +295,41 @@ function longestStraightWindow(
 }
 
 /**
+ * The usable part of the curve (steps 1 and 2 of the file comment): the rounds and
+ * log|f - f* - floor| of the points resolved above `resolved`, up to the first run of
+ * UNRESOLVED_RUN_END unresolved points.
+ */
+export function resolvedApproach(
+  points: readonly CurvePoint[],
+  floor: number,
+  resolved: number,
+): { rounds: number[]; logs: number[] } {
+  // A curve may cross its floor and approach it from below, so with a floor |f - f* - F| is fitted.
+  const isResolved = (approach: number) =>
+    floor > 0 ? Math.abs(approach) > resolved : approach > resolved;
+  const rounds: number[] = [];
+  const logs: number[] = [];
+  let unresolvedRun = 0;
+  for (const { round, suboptimality } of points) {
+    const approach = suboptimality - floor;
+    if (!isResolved(approach)) {
+      // A point or two at a crossing of the floor are skipped; a run of them is the end.
+      if (++unresolvedRun >= UNRESOLVED_RUN_END) break;
+      continue;
+    }
+    unresolvedRun = 0;
+    rounds.push(round);
+    logs.push(Math.log(Math.abs(approach)));
+  }
+  return { rounds, logs };
+}
+
+/** f - f* - F is trusted down to this level for a floor measured with the given scatter. */
+export function floorResolution(floor: Floor, noise: number): number {
+  return Math.max(noise, FLOOR_RESOLUTION * floor.deviation);
+}
+
+/**
  * The asymptotic per-round rate over the last straight part of the curve, or null when no
  * FIT_POINTS_MIN consecutive usable points lie on a straight line. See the file comment for the rule.
  */
@@ -299,26 +348,9 @@ export function fitLinearRate(
   const noise = noiseLevelOf(points, options);
   const measured = floorOf(points, noise);
   const floor = measured !== null && measured.level > noise ? measured.level : 0;
-  const resolved =
-    measured !== null && floor > 0 ? Math.max(noise, FLOOR_RESOLUTION * measured.deviation) : noise;
+  const resolved = measured !== null && floor > 0 ? floorResolution(measured, noise) : noise;
 
-  // A curve may cross its floor and approach it from below, so with a floor |f - f* - F| is fitted.
-  const isResolved = (approach: number) =>
-    floor > 0 ? Math.abs(approach) > resolved : approach > resolved;
-  const rounds: number[] = [];
-  const logs: number[] = [];
-  let unresolvedRun = 0;
-  for (const { round, suboptimality } of points) {
-    const approach = suboptimality - floor;
-    if (!isResolved(approach)) {
-      // A point or two at a crossing of the floor are skipped; a run of them is the end.
-      if (++unresolvedRun >= UNRESOLVED_RUN_END) break;
-      continue;
-    }
-    unresolvedRun = 0;
-    rounds.push(round);
-    logs.push(Math.log(Math.abs(approach)));
-  }
+  const { rounds, logs } = resolvedApproach(points, floor, resolved);
   if (rounds.length < FIT_POINTS_MIN) return null;
 
   const x = thin(rounds, SEARCH_POINTS_MAX);

@@ -24,6 +24,10 @@ export interface OperatorRateOptions {
 export interface OperatorRate {
   /** rho(M) on the range of I - M */
   spectralRadius: number;
+  /** modulus of the next eigenvalue (see arnoldi.ts: a by-product, never iterated to a tolerance) */
+  subdominantModulus: number | null;
+  /** that Ritz pair's residual, relative to the spectral radius (null with it) */
+  subdominantRelativeResidual: number | null;
   /** products with the operator */
   products: number;
   converged: boolean;
@@ -61,6 +65,9 @@ export function operatorSpectralRadius(
   const rho = eigenvalue.modulus;
   return {
     spectralRadius: rho,
+    subdominantModulus: eigenvalue.subdominant?.modulus ?? null,
+    subdominantRelativeResidual:
+      eigenvalue.subdominant === null ? null : rho > 0 ? eigenvalue.subdominant.residual / rho : 0,
     products: eigenvalue.products,
     converged: eigenvalue.converged,
     dominant: !eigenvalue.converged ? 'unsettled' : eigenvalue.imaginary === 0 ? 'real' : 'pair',

@@ -58,6 +58,14 @@ export interface RatePrediction {
   dominant: DominantKind;
   /** ||M x - lambda x|| of the dominant Ritz pair, relative to the spectral radius */
   relativeResidual: number;
+  /**
+   * |lambda_2|: the largest modulus of M's other eigenvalues on the moving range (not the
+   * dominant's conjugate or -r partner), a by-product of the same Krylov space (arnoldi.ts);
+   * null when that space held no other Ritz value
+   */
+  subdominantModulus: number | null;
+  /** the subdominant Ritz pair's residual, relative to the spectral radius (null with it) */
+  subdominantRelativeResidual: number | null;
 }
 
 const DEFAULT_MAP_APPLICATIONS_MAX = 2000;
@@ -112,5 +120,8 @@ export function predictRate(
     converged: eigenvalue.converged,
     dominant: !eigenvalue.converged ? 'unsettled' : eigenvalue.imaginary === 0 ? 'real' : 'pair',
     relativeResidual: rho > 0 ? eigenvalue.residual / rho : 0,
+    subdominantModulus: eigenvalue.subdominant?.modulus ?? null,
+    subdominantRelativeResidual:
+      eigenvalue.subdominant === null ? null : rho > 0 ? eigenvalue.subdominant.residual / rho : 0,
   };
 }

@@ -98,7 +98,7 @@ describe('roundwire compare on the bundled compression ladders', () => {
       const start = lines.indexOf(`variant ${row.variant}`);
       expect(start, row.variant).toBeGreaterThanOrEqual(0);
       const fields = lines
-        .slice(start + 1, start + 11)
+        .slice(start + 1, start + 13)
         .map((l) => /^ {2}(.+?) \.{2,} (.+)$/.exec(l)?.slice(1));
       expect(fields).toEqual([
         ['stop', row.stop],
@@ -110,6 +110,8 @@ describe('roundwire compare on the bundled compression ladders', () => {
         ['floor measured', formatNumber(row.floorMeasured)],
         ['rate measured', formatNumber(row.rateMeasured)],
         ['rate predicted', formatNumber(row.ratePredicted)],
+        ['rate over window', formatNumber(row.rateOverWindow)],
+        ['window status', row.windowStatus],
         ['dropped updates', withUnit(row.droppedUpdates, 'updates')],
       ]);
     }

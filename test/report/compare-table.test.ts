@@ -35,7 +35,11 @@ function outcome(
       wallSeconds: virtualSeconds === null ? null : virtualSeconds * 10,
     },
     floor: { measured: null },
-    rate: { measured: 0.5, predicted: null },
+    rate: {
+      measured: 0.5,
+      predicted: null,
+      asymptotic: { measured: null, status: 'no-prediction' },
+    },
     droppedUpdates: 0,
   } as unknown as RunSummary;
   const rounds = Array.from({ length: 11 }, (_, r) => ({
@@ -162,7 +166,9 @@ describe('comparisonCsv', () => {
     const c = buildComparison('s', 1, [], [outcome('name:"x, y"', 1, 10, 2)]);
     const lines = comparisonCsv(c).split('\r\n');
     expect(lines[0]).toBe(compareColumns.join(','));
-    expect(lines[1]).toBe('"name:""x, y""",target-reached,10,1,10,3,2,,0.5,,0,"name:""x, y"""');
+    expect(lines[1]).toBe(
+      '"name:""x, y""",target-reached,10,1,10,3,2,,0.5,,,no-prediction,0,"name:""x, y"""',
+    );
     expect(lines[2]).toBe('');
   });
 });
