@@ -39,11 +39,13 @@ export function rateComparisonRows(s: RunSummary): RateComparisonRow[] {
         : `fitted slope of log(f - f*) over rounds ${window[0]} to ${window[1]} of this run`,
     ],
     [
-      'predicted (exact)',
+      s.prediction.kind === 'local' ? 'predicted (local)' : 'predicted (exact)',
       s.rate.predicted,
-      s.prediction.available
-        ? 'spectral radius of the ideal round map (squared when its limit is x*)'
-        : `none: ${s.prediction.reason ?? 'not solved'}`,
+      !s.prediction.available
+        ? `none: ${s.prediction.reason ?? 'not solved'}`
+        : s.prediction.kind === 'local'
+          ? "spectral radius of the ideal round map's Jacobian at its limit (squared when the limit is x*): holds near the limit"
+          : 'spectral radius of the ideal round map (squared when its limit is x*)',
     ],
     ...boundRows(s.bounds),
   ];

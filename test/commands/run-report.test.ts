@@ -20,9 +20,9 @@ function summaryText(name: string, tweaks: string[]): string {
 describe('the text summary of a run', () => {
   it('marks a local prediction as local, in the table and on the prediction line', () => {
     const local = summaryText('logistic', ['problem.kind:logistic']);
-    expect(local).toContain('rate per round (predicted: local, near the limit)');
+    expect(local).toContain('rate per round, straight fit (predicted: local, near the limit)');
     expect(local).toMatch(
-      /prediction: spectral radius 0\.\d+ \(local: the round map linearized at its limit; the rate holds once the run is near the limit\)/,
+      /prediction: spectral radius 0\.\d+, .*; local: the round map linearized at its limit, the rate holds once the run is near the limit/,
     );
     const exact = summaryText('least-squares', []);
     expect(exact).toMatch(/prediction: spectral radius 0\.\d+\n/);

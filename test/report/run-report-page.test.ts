@@ -95,7 +95,7 @@ describe('run report page', () => {
     );
     // A logistic FedLin run's prediction is local, and the page says so beside the rate.
     const local = await buildRunReport(readRunResults(withLocalPrediction));
-    expect(local).toContain('rate per round (predicted: local, near the limit)');
+    expect(local).toContain('rate per round, straight fit (predicted: local, near the limit)');
     expect(local).toContain(
       '(local: the round map linearized at its limit, a rate that holds once the run is near the limit)',
     );
