@@ -150,17 +150,28 @@ function typedOfWidth(width: ValueWidthBytes, count: number): Float64Array | Flo
   return width === 8 ? new Float64Array(count) : new Float32Array(count);
 }
 
-/** The values as a typed array: a view where the bytes sit aligned, else an aligned copy. */
+/**
+ * Where validation copies values that sit unaligned in their frame: one buffer reused from one
+ * check to the next (a check allocates nothing per vector), grown to the largest vector seen,
+ * which is never more than bytes the peer already sent.
+ */
+let alignedScratch = new ArrayBuffer(0);
+
+/** The values as a typed array: a view where the bytes sit aligned, else a copy in the scratch. */
 function alignedValues(wv: WireVector): Float64Array | Float32Array {
   const { values, width, count } = wv;
-  if (values.byteOffset % width === 0) {
-    return width === 8
-      ? new Float64Array(values.buffer, values.byteOffset, count)
-      : new Float32Array(values.buffer, values.byteOffset, count);
+  let buffer = values.buffer;
+  let byteOffset = values.byteOffset;
+  if (byteOffset % width !== 0) {
+    if (alignedScratch.byteLength < values.byteLength)
+      alignedScratch = new ArrayBuffer(values.byteLength);
+    new Uint8Array(alignedScratch, 0, values.byteLength).set(values);
+    buffer = alignedScratch;
+    byteOffset = 0;
   }
-  const copy = typedOfWidth(width, count);
-  new Uint8Array(copy.buffer).set(values);
-  return copy;
+  return width === 8
+    ? new Float64Array(buffer, byteOffset, count)
+    : new Float32Array(buffer, byteOffset, count);
 }
 
 /**
