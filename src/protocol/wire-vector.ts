@@ -4,10 +4,12 @@
 // MessagePack bin each, so a vector costs its payload plus a few header bytes, never a
 // per-number tag.
 //
-// Values are read and written through a DataView with an explicit byte order: a bin decoded by
-// msgpackr is a view into the frame at whatever byte offset it landed on, and a Float64Array
-// cannot sit on an offset that is not a multiple of 8; the DataView reads any offset and fills
-// a fresh, aligned array, on a host of either byte order.
+// Values are little-endian on the wire. On a little-endian host (every platform Node runs on
+// today) they travel as plain byte copies, the in-memory form being the wire form; a bin decoded
+// by msgpackr is a view into the frame at whatever byte offset it landed on, and a Float64Array
+// cannot sit on an offset that is not a multiple of 8, so the bytes are copied into a fresh,
+// aligned array before any value is read. A big-endian host goes through a DataView with the
+// byte order explicit. Both give the same numbers bit for bit: no value is ever computed.
 
 import { z } from 'zod';
 import { CompressError } from '../compress/compress-error.js';
@@ -39,6 +41,9 @@ export type WireVector = z.infer<typeof wireVectorShape>;
 
 /** Bytes per value on the wire: f32 or f64. */
 export type ValueWidthBytes = WireVector['width'];
+
+/** Whether typed arrays on this host hold numbers in the wire's byte order (IEEE 754 binary64 of 1.0 ends in 0x3f in memory when little-endian). */
+const HOST_LITTLE_ENDIAN = new Uint8Array(Float64Array.of(1).buffer)[7] === 0x3f;
 
 function widthOf(values: Float64Array | Float32Array): ValueWidthBytes {
   return values instanceof Float32Array ? 4 : 8;
@@ -74,11 +79,15 @@ export function toWire(cv: CompressedVector, path = 'vector'): WireVector {
   const width = widthOf(cv.values);
   const count = cv.values.length;
   const values = new Uint8Array(count * width);
-  const view = new DataView(values.buffer);
-  if (width === 8) {
-    for (let i = 0; i < count; i++) view.setFloat64(i * 8, cv.values[i], true);
+  if (HOST_LITTLE_ENDIAN) {
+    values.set(new Uint8Array(cv.values.buffer, cv.values.byteOffset, count * width));
   } else {
-    for (let i = 0; i < count; i++) view.setFloat32(i * 4, cv.values[i], true);
+    const view = new DataView(values.buffer);
+    if (width === 8) {
+      for (let i = 0; i < count; i++) view.setFloat64(i * 8, cv.values[i], true);
+    } else {
+      for (let i = 0; i < count; i++) view.setFloat32(i * 4, cv.values[i], true);
+    }
   }
   const indices = cv.indices === null ? null : encodeIndicesDeltaVarint(cv.indices);
   return { dim: cv.dim, indices, count, values, width };
@@ -129,11 +138,56 @@ function decodeIndices(wv: WireVector, path: string): Uint32Array | null {
   return indices;
 }
 
+function assertAllFinite(values: Float64Array | Float32Array, path: string): void {
+  for (let i = 0; i < values.length; i++) {
+    if (!Number.isFinite(values[i])) {
+      throw new ProtocolError('E_NOT_FINITE', `${path}.values: value ${i} is ${values[i]}`);
+    }
+  }
+}
+
+function typedOfWidth(width: ValueWidthBytes, count: number): Float64Array | Float32Array {
+  return width === 8 ? new Float64Array(count) : new Float32Array(count);
+}
+
+/**
+ * Where validation copies values that sit unaligned in their frame: one buffer reused from one
+ * check to the next (a check allocates nothing per vector), grown to the largest vector seen,
+ * which is never more than bytes the peer already sent.
+ */
+let alignedScratch = new ArrayBuffer(0);
+
+/** The values as a typed array: a view where the bytes sit aligned, else a copy in the scratch. */
+function alignedValues(wv: WireVector): Float64Array | Float32Array {
+  const { values, width, count } = wv;
+  let buffer = values.buffer;
+  let byteOffset = values.byteOffset;
+  if (byteOffset % width !== 0) {
+    if (alignedScratch.byteLength < values.byteLength)
+      alignedScratch = new ArrayBuffer(values.byteLength);
+    new Uint8Array(alignedScratch, 0, values.byteLength).set(values);
+    buffer = alignedScratch;
+    byteOffset = 0;
+  }
+  return width === 8
+    ? new Float64Array(buffer, byteOffset, count)
+    : new Float32Array(buffer, byteOffset, count);
+}
+
 /**
  * Reads the little-endian values, checking each is finite, into `out` when given (validation
- * alone passes null and allocates nothing for the values).
+ * alone passes null and copies the values only where they sit unaligned in the frame).
  */
 function readValues(wv: WireVector, path: string, out: Float64Array | Float32Array | null): void {
+  if (HOST_LITTLE_ENDIAN) {
+    if (out === null) {
+      assertAllFinite(alignedValues(wv), path);
+      return;
+    }
+    new Uint8Array(out.buffer, out.byteOffset, out.byteLength).set(wv.values);
+    assertAllFinite(out, path);
+    return;
+  }
   const view = new DataView(wv.values.buffer, wv.values.byteOffset, wv.values.byteLength);
   const wide = wv.width === 8;
   for (let i = 0; i < wv.count; i++) {
@@ -163,7 +217,7 @@ export function checkWireVector(wv: WireVector, path = 'vector'): void {
 export function fromWire(wv: WireVector, path = 'vector'): CompressedVector {
   checkCounts(wv, path);
   const indices = decodeIndices(wv, path);
-  const values = wv.width === 8 ? new Float64Array(wv.count) : new Float32Array(wv.count);
+  const values = typedOfWidth(wv.width, wv.count);
   readValues(wv, path, values);
   return { dim: wv.dim, indices, values };
 }

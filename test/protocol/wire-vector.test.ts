@@ -64,6 +64,55 @@ describe('toWire / fromWire', () => {
   });
 });
 
+describe('values wherever they sit in a frame', () => {
+  // A decoded bin is a view into the frame at any byte offset (codec.ts: msgpackr copies no
+  // buffers), and a typed array sent may itself be a view into a larger buffer. The values span
+  // IEEE 754's range: negative zero, the smallest subnormal, near the largest finite magnitude.
+  const values64 = Float64Array.from([1.5, -0, 2 ** -1074, -1e308, Math.PI]);
+  const values32 = Float32Array.from([1.5, -0, 2 ** -149, -3e38, Math.fround(Math.PI)]);
+
+  /** The wire vector's value bytes copied into a larger buffer at `offset`. */
+  function atOffset(wv: WireVector, offset: number): WireVector {
+    const frame = new Uint8Array(offset + wv.values.byteLength + 3);
+    frame.set(wv.values, offset);
+    return { ...wv, values: frame.subarray(offset, offset + wv.values.byteLength) };
+  }
+
+  for (const values of [values64, values32]) {
+    it(`reads ${values.constructor.name} values at every byte offset bit for bit`, () => {
+      const wv = toWire({ dim: values.length, indices: null, values });
+      for (let offset = 0; offset < 16; offset++) {
+        const placed = atOffset(wv, offset);
+        checkWireVector(placed);
+        const back = fromWire(placed);
+        expect(back.values.byteOffset % back.values.BYTES_PER_ELEMENT).toBe(0);
+        expect(new Uint8Array(back.values.buffer)).toEqual(
+          new Uint8Array(values.buffer, values.byteOffset, values.byteLength),
+        );
+      }
+    });
+
+    it(`refuses a ${values.constructor.name} NaN at every byte offset with E_NOT_FINITE`, () => {
+      const wv = toWire({ dim: values.length, indices: null, values });
+      const view = new DataView(wv.values.buffer, wv.values.byteOffset);
+      if (wv.width === 8) view.setFloat64(3 * 8, Infinity, true);
+      else view.setFloat32(3 * 4, NaN, true);
+      for (let offset = 0; offset < 16; offset++) {
+        const placed = atOffset(wv, offset);
+        expect(protocolErrorCode(() => checkWireVector(placed))).toBe('E_NOT_FINITE');
+        expect(protocolErrorCode(() => fromWire(placed))).toBe('E_NOT_FINITE');
+      }
+    });
+  }
+
+  it('sends the values of a typed array that is a view into a larger buffer', () => {
+    const whole = Float64Array.from([9, 1, 2, 3, 9]);
+    const wv = toWire({ dim: 3, indices: null, values: whole.subarray(1, 4) });
+    expect(wv.values.byteLength).toBe(24);
+    expect(Array.from(fromWire(wv).values)).toEqual([1, 2, 3]);
+  });
+});
+
 describe('checks on a wire vector from a peer', () => {
   function dense(values: number[]): WireVector {
     return toWire({ dim: values.length, indices: null, values: Float64Array.from(values) });
