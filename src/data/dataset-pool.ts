@@ -4,9 +4,13 @@
 // field (src/scenario/schema.ts); the checks here hold the same for a scenario built in code.
 
 import type { Scenario } from '../scenario/schema.js';
-import { datasetStandardizes, datasetTargetName } from '../scenario/dataset-choices.js';
+import {
+  datasetStandardizes,
+  datasetTargetName,
+  type DatasetName,
+} from '../scenario/dataset-choices.js';
 import { DataError } from './data-error.js';
-import { loadDataset, type LabelledDataset } from './datasets.js';
+import { datasetShape, loadDataset, type DatasetShape, type LabelledDataset } from './datasets.js';
 import type { LabelledPool } from './partition.js';
 
 type DatasetData = Extract<Scenario['data'], { source: 'dataset' }>;
@@ -50,11 +54,20 @@ function checkProblemFits(scenario: Scenario, dataset: LabelledDataset): void {
   }
 }
 
+/** The scenario's data set's size and keys, without copying its features. */
+export function scenarioDatasetShape(scenario: Scenario): DatasetShape & { name: DatasetName } {
+  const data = datasetDataOf(scenario);
+  return { name: data.name, ...datasetShape(data.name, datasetTargetName(data)) };
+}
+
 /** The natural key's value of every sample, or undefined when the partition is not natural. */
-export function naturalKeysOf(scenario: Scenario, dataset: LabelledDataset): string[] | undefined {
+export function naturalKeysOf(
+  scenario: Scenario,
+  dataset: Pick<LabelledDataset, 'name'> & DatasetShape,
+): readonly string[] | undefined {
   const partition = datasetDataOf(scenario).partition;
   if (partition.kind !== 'natural') return undefined;
-  const keys = dataset.keys[partition.key] as string[] | undefined;
+  const keys = dataset.keys[partition.key] as readonly string[] | undefined;
   if (keys === undefined) {
     const known = Object.keys(dataset.keys);
     throw new DataError(

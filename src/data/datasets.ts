@@ -56,16 +56,17 @@ const TABLE_CACHE_ENTRIES_MAX = 8;
 const tableCache = new Map<string, DatasetTable>();
 
 /**
- * In place: each column minus its mean, divided by its population standard deviation (divide
- * by n, so that the scaled column has variance exactly 1 over these samples). A constant
- * column is only centred.
+ * In place: each of the first `columnCount` columns minus its mean, divided by its population
+ * standard deviation (divide by n, so that the scaled column has variance exactly 1 over these
+ * samples). A constant column is only centred. Rows are featureCount wide.
  */
 export function standardizeColumns(
   features: Float64Array,
   sampleCount: number,
   featureCount: number,
+  columnCount = featureCount,
 ): void {
-  for (let j = 0; j < featureCount; j++) {
+  for (let j = 0; j < columnCount; j++) {
     let sum = 0;
     for (let s = 0; s < sampleCount; s++) sum += features[s * featureCount + j];
     const mean = sum / sampleCount;
@@ -106,49 +107,76 @@ function cachedTable(name: DatasetName, target: string): DatasetTable {
   return table;
 }
 
-/** The measured columns, then a column of ones. */
-function withIntercept(
-  features: Float64Array,
-  sampleCount: number,
-  measured: number,
-): Float64Array {
+/** A copy of the measured columns, then, when `intercept`, a column of ones. */
+function featureMatrix(table: DatasetTable): Float64Array {
+  const measured = table.featureNames.length;
+  if (!table.intercept) return table.features.slice();
   const width = measured + 1;
-  const out = new Float64Array(sampleCount * width);
-  for (let s = 0; s < sampleCount; s++) {
-    out.set(features.subarray(s * measured, s * measured + measured), s * width);
+  const out = new Float64Array(table.sampleCount * width);
+  for (let s = 0; s < table.sampleCount; s++) {
+    out.set(table.features.subarray(s * measured, s * measured + measured), s * width);
     out[s * width + measured] = 1;
   }
   return out;
 }
 
-/** A fresh copy of the named data set (the caller may modify it). */
-export function loadDataset(name: DatasetName, options: DatasetOptions): LabelledDataset {
+export interface DatasetShape {
+  sampleCount: number;
+  featureCount: number;
+  /** natural keys by name; shared with the cache: read only */
+  keys: Readonly<Record<string, readonly string[]>>;
+}
+
+function resolvedTarget(
+  name: DatasetName,
+  target: string | undefined,
+): {
+  target: string;
+  kind: DatasetProblemKind;
+} {
   const choice = datasetChoice(name) as ReturnType<typeof datasetChoice> | undefined;
   if (choice === undefined)
     throw new DataError('E_DATASET', `unknown data set "${String(name)}"`, 'data.name');
-  const target = options.target ?? Object.keys(choice.targets)[0];
-  const targetChoice = choice.targets[target];
+  const resolved = target ?? Object.keys(choice.targets)[0];
+  const targetChoice = choice.targets[resolved];
   if (targetChoice === undefined) {
     throw new DataError(
       'E_DATA_SPEC',
-      `data set ${name} has the targets ${Object.keys(choice.targets).join(', ')}; got "${target}"`,
+      `data set ${name} has the targets ${Object.keys(choice.targets).join(', ')}; got "${resolved}"`,
       'data.target',
     );
   }
+  return { target: resolved, kind: targetChoice.kind };
+}
+
+/** The data set's size and keys without a copy of its features (for estimates before a run). */
+export function datasetShape(name: DatasetName, target?: string): DatasetShape {
+  const table = cachedTable(name, resolvedTarget(name, target).target);
+  return {
+    sampleCount: table.sampleCount,
+    featureCount: table.featureNames.length + (table.intercept ? 1 : 0),
+    keys: table.keys,
+  };
+}
+
+/** A fresh copy of the named data set (the caller may modify it). */
+export function loadDataset(name: DatasetName, options: DatasetOptions): LabelledDataset {
+  const { target, kind } = resolvedTarget(name, options.target);
   const table = cachedTable(name, target);
   const measured = table.featureNames.length;
-  const features = table.features.slice();
-  if (options.standardize) standardizeColumns(features, table.sampleCount, measured);
+  const featureCount = measured + (table.intercept ? 1 : 0);
+  const features = featureMatrix(table);
+  if (options.standardize) standardizeColumns(features, table.sampleCount, featureCount, measured);
   return {
     name,
     target,
-    kind: targetChoice.kind,
+    kind,
     sampleCount: table.sampleCount,
-    featureCount: measured + (table.intercept ? 1 : 0),
+    featureCount,
     featureNames: table.intercept
       ? [...table.featureNames, INTERCEPT_FEATURE]
       : [...table.featureNames],
-    features: table.intercept ? withIntercept(features, table.sampleCount, measured) : features,
+    features,
     targets: table.targets.slice(),
     classNames: [...table.classNames],
     keys: Object.fromEntries(Object.entries(table.keys).map(([key, values]) => [key, [...values]])),

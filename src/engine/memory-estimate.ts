@@ -44,7 +44,7 @@ import type { Scenario } from '../scenario/schema.js';
 import { ScenarioError } from '../scenario/scenario-error.js';
 import { methodByName } from '../algorithm/registry.js';
 import { samplesForAllClients } from '../data/sample-counts.js';
-import { naturalKeysOf, scenarioDataset } from '../data/dataset-pool.js';
+import { naturalKeysOf, scenarioDatasetShape } from '../data/dataset-pool.js';
 import { checkNaturalClientCount, naturalGroupSizes } from '../data/partition.js';
 import { parameterDimension } from '../data/synthetic-models.js';
 import { participantCount } from '../timing/participation.js';
@@ -125,7 +125,7 @@ export function dataShape(scenario: Scenario): DataShape {
   if (data.source === 'dataset') {
     // A data set ships with a package and is small; its own size is read, not guessed: a
     // natural split's groups as they are, any other split dealt evenly.
-    const dataset = scenarioDataset(scenario);
+    const dataset = scenarioDatasetShape(scenario);
     const keys = naturalKeysOf(scenario, dataset);
     const share = Math.ceil(dataset.sampleCount / m);
     const groupSizes = keys === undefined ? undefined : naturalGroupSizes(keys);
