@@ -15,7 +15,7 @@ import type { Scenario } from '../scenario/schema.js';
 import { canonicalJson } from '../scenario/plan-hash.js';
 import { featureScales } from './covariance.js';
 import { DataError } from './data-error.js';
-import { loadDataset } from './datasets.js';
+import { datasetPool } from './dataset-pool.js';
 import { partitionPool, type LabelledPool } from './partition.js';
 import { Rng } from '../base/rng.js';
 import { samplesForAllClients, samplesForClient } from './sample-counts.js';
@@ -137,38 +137,6 @@ function syntheticPool(
     total,
   );
   return { features: samples.features, targets: samples.targets, labels: samples.targets };
-}
-
-function datasetPool(scenario: Scenario): {
-  featureCount: number;
-  pool: LabelledPool & { features: Float64Array; targets: Float64Array };
-} {
-  const data = scenario.data;
-  if (data.source !== 'dataset')
-    throw new DataError('E_DATA_SPEC', 'not a data set scenario', 'data.source');
-  const dataset = loadDataset(data.name, { standardize: data.standardize });
-  const classCount = dataset.classNames.length;
-  if (scenario.problem.kind !== 'softmax') {
-    throw new DataError(
-      'E_DATA_SPEC',
-      `data set ${data.name} has ${classCount} classes; problem.kind must be "softmax", got "${scenario.problem.kind}"`,
-      'problem.kind',
-    );
-  }
-  if (scenario.problem.classes !== classCount) {
-    throw new DataError(
-      'E_DATA_SPEC',
-      `data set ${data.name} has ${classCount} classes; problem.classes is ${scenario.problem.classes}`,
-      'problem.classes',
-    );
-  }
-  const pool = {
-    features: dataset.features,
-    targets: dataset.labels,
-    labels: dataset.labels,
-    keys: dataset.keys,
-  };
-  return { featureCount: dataset.featureCount, pool };
 }
 
 function pooledData(scenario: Scenario): PooledData {

@@ -9,7 +9,9 @@
 //              Yurochkin et al., ICML 2019)
 //   shards     sort by label, cut into m * classesPerClient shards, deal them out seeded
 //              (McMahan et al., AISTATS 2017, pathological non-iid split)
-//   natural    group by a key; the groups are dealt to clients round-robin in a seeded order
+//   natural    group by a key: one client per distinct key value, so the client count must equal
+//              the number of values; client i holds the i-th value in sorted order (numbers
+//              ascending, then strings by UTF-16 code units), which needs no seed
 
 import type { Scenario } from '../scenario/schema.js';
 import { DataError } from './data-error.js';
@@ -208,12 +210,40 @@ export function partitionShards(
   return sortedCopies(lists);
 }
 
-/** Natural split: samples grouped by key; groups dealt round-robin to clients in a seeded order. */
+/** The distinct key values in client order: client i holds the samples of value i. */
+export function naturalKeyOrder(keys: ArrayLike<string | number>): (string | number)[] {
+  const distinct = new Set<string | number>();
+  for (let i = 0; i < keys.length; i++) distinct.add(keys[i]);
+  return [...distinct].sort(compareKeys);
+}
+
+/** A natural split has one client per key value: the scenario's client count must match. */
+export function checkNaturalClientCount(
+  valueCount: number,
+  clientCount: number,
+  keyName: string,
+): void {
+  if (valueCount !== clientCount) {
+    throw new DataError(
+      'E_DATA_SPEC',
+      `a natural split by "${keyName}" has one client per value: ${valueCount} values, so clients.count must be ${valueCount}, got ${clientCount}`,
+      'clients.count',
+    );
+  }
+}
+
+/** Samples per distinct key value, in naturalKeyOrder. */
+export function naturalGroupSizes(keys: ArrayLike<string | number>): number[] {
+  const counts = new Map<string | number, number>();
+  for (let i = 0; i < keys.length; i++) counts.set(keys[i], (counts.get(keys[i]) ?? 0) + 1);
+  return naturalKeyOrder(keys).map((key) => counts.get(key) as number);
+}
+
+/** Natural split: one client per distinct key value, in naturalKeyOrder. */
 export function partitionNatural(
   pool: LabelledPool,
   clientCount: number,
   keyName: string,
-  rng: Rng,
 ): Uint32Array[] {
   const keys = pool.keys;
   if (keys === undefined) {
@@ -223,28 +253,11 @@ export function partitionNatural(
       'data.partition.key',
     );
   }
-  const groups = new Map<string | number, number[]>();
-  for (let i = 0; i < keys.length; i++) {
-    const members = groups.get(keys[i]);
-    if (members === undefined) groups.set(keys[i], [i]);
-    else members.push(i);
-  }
-  if (groups.size < clientCount) {
-    throw new DataError(
-      'E_DATA_SPEC',
-      `data.partition.key "${keyName}" has ${groups.size} distinct values but there are ${clientCount} clients`,
-      'data.partition.key',
-    );
-  }
-  // A canonical order before the seeded one, so the deal does not depend on sample order.
-  const orderedKeys = [...groups.keys()].sort(compareKeys);
-  const deal = identity(orderedKeys.length);
-  rng.shuffleInPlace(deal);
+  const order = naturalKeyOrder(keys);
+  checkNaturalClientCount(order.length, clientCount, keyName);
+  const clientOf = new Map(order.map((key, client) => [key, client]));
   const lists: number[][] = Array.from({ length: clientCount }, () => []);
-  for (let position = 0; position < deal.length; position++) {
-    const members = groups.get(orderedKeys[deal[position]]) as number[];
-    for (const i of members) lists[position % clientCount].push(i);
-  }
+  for (let i = 0; i < keys.length; i++) lists[clientOf.get(keys[i]) as number].push(i);
   return sortedCopies(lists);
 }
 
@@ -270,6 +283,6 @@ export function partitionPool(
     case 'shards':
       return partitionShards(pool, clientCount, spec.classesPerClient, rng);
     case 'natural':
-      return partitionNatural(pool, clientCount, spec.key, rng);
+      return partitionNatural(pool, clientCount, spec.key);
   }
 }

@@ -44,7 +44,8 @@ import type { Scenario } from '../scenario/schema.js';
 import { ScenarioError } from '../scenario/scenario-error.js';
 import { methodByName } from '../algorithm/registry.js';
 import { samplesForAllClients } from '../data/sample-counts.js';
-import { loadDataset } from '../data/datasets.js';
+import { naturalKeysOf, scenarioDatasetShape } from '../data/dataset-pool.js';
+import { checkNaturalClientCount, naturalGroupSizes } from '../data/partition.js';
 import { parameterDimension } from '../data/synthetic-models.js';
 import { participantCount } from '../timing/participation.js';
 import { DEFAULT_ITERATIONS_MAX as LANCZOS_STEPS_MAX } from '../linalg/spectrum.js';
@@ -123,11 +124,16 @@ export function dataShape(scenario: Scenario): DataShape {
   const data = scenario.data;
   const m = scenario.clients.count;
   if (data.source === 'dataset') {
-    // A data set ships with a package and is small; its own size is read, not guessed.
-    const dataset = loadDataset(data.name, { standardize: false });
+    // A data set ships with a package and is small; its own size is read, not guessed: a
+    // natural split's groups as they are, any other split dealt evenly.
+    const dataset = scenarioDatasetShape(scenario);
+    const keys = naturalKeysOf(scenario, dataset);
     const share = Math.ceil(dataset.sampleCount / m);
+    const groupSizes = keys === undefined ? undefined : naturalGroupSizes(keys);
+    if (groupSizes !== undefined && data.partition.kind === 'natural')
+      checkNaturalClientCount(groupSizes.length, m, data.partition.key);
     return {
-      samplesPerClient: Array.from({ length: m }, () => share),
+      samplesPerClient: groupSizes ?? Array.from({ length: m }, () => share),
       features: dataset.featureCount,
       pooled: true,
     };

@@ -3,6 +3,12 @@
 // Defaults live here too, so that a resolved scenario is always complete and explicit.
 
 import { z } from 'zod';
+import {
+  DATASET_NAMES,
+  DATASET_TARGET_NAMES,
+  datasetChoice,
+  datasetTargetName,
+} from './dataset-choices.js';
 
 const positiveInt = z.number().int().positive();
 const nonNegative = z.number().nonnegative();
@@ -102,10 +108,16 @@ export const datasetDataSchema = z
   .object({
     source: z.literal('dataset'),
     /** a data set that an installed package ships */
-    name: z.enum(['iris']),
+    name: z.enum(DATASET_NAMES),
+    /** what the model learns; absent: the data set's first target (src/scenario/dataset-choices.ts) */
+    target: z.enum(DATASET_TARGET_NAMES).optional(),
+    /** natural: the key must be one of the data set's, and clients.count its number of values */
     partition: partitionSchema.default({ kind: 'iid' }),
-    /** scale features to zero mean and unit variance before partitioning */
-    standardize: z.boolean().default(true),
+    /**
+     * scale features to zero mean and unit variance over the whole data set before partitioning;
+     * absent: the data set's default (yes, except digits, whose pixels are already in [0, 1])
+     */
+    standardize: z.boolean().optional(),
   })
   .strict();
 
@@ -324,6 +336,63 @@ export const ladderSchema = z
   });
 export type ScenarioLadder = z.output<typeof ladderSchema>;
 
+/**
+ * A data set's target fixes the problem kind (and a class count), and its natural keys are its
+ * own: refused here, field by field, before anything is loaded.
+ */
+function checkDatasetFits(
+  data: z.output<typeof datasetDataSchema>,
+  problem: z.output<typeof problemSchema>,
+  ctx: z.RefinementCtx,
+): void {
+  const choice = datasetChoice(data.name);
+  const targetNames = Object.keys(choice.targets);
+  const targetName = datasetTargetName(data);
+  const target = choice.targets[targetName];
+  if (target === undefined) {
+    ctx.addIssue({
+      code: 'custom',
+      path: ['data', 'target'],
+      message: `data set ${data.name} has the target${targetNames.length > 1 ? 's' : ''} ${targetNames.join(', ')}; got "${targetName}"`,
+    });
+    return;
+  }
+  if (problem.kind !== target.kind) {
+    ctx.addIssue({
+      code: 'custom',
+      path: ['problem', 'kind'],
+      message: `data set ${data.name}, target ${targetName} (${target.describes}) needs problem.kind "${target.kind}", got "${problem.kind}"`,
+    });
+  } else if (target.classes !== undefined && problem.classes !== target.classes) {
+    ctx.addIssue({
+      code: 'custom',
+      path: ['problem', 'classes'],
+      message: `data set ${data.name}, target ${targetName} has ${target.classes} classes; problem.classes is ${problem.classes}`,
+    });
+  }
+  const partition = data.partition;
+  if (partition.kind === 'natural' && !choice.naturalKeys.includes(partition.key)) {
+    ctx.addIssue({
+      code: 'custom',
+      path: ['data', 'partition', 'key'],
+      message:
+        choice.naturalKeys.length === 0
+          ? `data set ${data.name} has no key to split by; use the iid, dirichlet or shards partition`
+          : `data set ${data.name} splits naturally by ${choice.naturalKeys.join(' or ')}; got "${partition.key}"`,
+    });
+  }
+  if (
+    (partition.kind === 'dirichlet' || partition.kind === 'shards') &&
+    target.kind === 'least-squares'
+  ) {
+    ctx.addIssue({
+      code: 'custom',
+      path: ['data', 'partition', 'kind'],
+      message: `"${partition.kind}" splits by class label, but target ${targetName} of data set ${data.name} is a real value; use "iid" or "natural"`,
+    });
+  }
+}
+
 export const scenarioSchema = z
   .object({
     name: z.string().min(1).max(200),
@@ -366,8 +435,12 @@ export const scenarioSchema = z
   })
   .strict()
   .superRefine((scenario, ctx) => {
+    if (scenario.data.source === 'dataset') {
+      checkDatasetFits(scenario.data, scenario.problem, ctx);
+      return;
+    }
     // Softmax learns one weight vector per class: its dimension is a product of two fields.
-    if (scenario.problem.kind !== 'softmax' || scenario.data.source !== 'synthetic') return;
+    if (scenario.problem.kind !== 'softmax') return;
     const dim = scenario.problem.classes * scenario.data.features;
     if (dim > SCENARIO_LIMITS.dimensionMax)
       ctx.addIssue({

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { loadDataset, standardizeColumns } from '../../src/data/datasets.js';
+import { INTERCEPT_FEATURE, loadDataset, standardizeColumns } from '../../src/data/datasets.js';
 
 describe('iris', () => {
   it('loads 150 samples of 4 features with 3 classes of 50', () => {
@@ -11,16 +11,17 @@ describe('iris', () => {
     expect(iris.features.length).toBe(600);
     expect(iris.classNames).toEqual(['setosa', 'versicolor', 'virginica']);
     const counts = [0, 0, 0];
-    for (const label of iris.labels) counts[label]++;
+    for (const label of iris.targets) counts[label]++;
     expect(counts).toEqual([50, 50, 50]);
-    expect(iris.keys).toBeUndefined();
+    expect(iris.keys).toEqual({});
+    expect(iris.featureNames).not.toContain(INTERCEPT_FEATURE);
   });
 
   it('keeps the raw measurements: the first sample is 5.1, 3.5, 1.4, 0.2 (setosa)', () => {
     // UCI Machine Learning Repository, iris.data, line 1: 5.1,3.5,1.4,0.2,Iris-setosa.
     const iris = loadDataset('iris', { standardize: false });
     expect(Array.from(iris.features.subarray(0, 4))).toEqual([5.1, 3.5, 1.4, 0.2]);
-    expect(iris.labels[0]).toBe(0);
+    expect(iris.targets[0]).toBe(0);
   });
 
   it('standardizes every feature to mean 0 and population variance 1', () => {
@@ -54,5 +55,25 @@ describe('standardizeColumns', () => {
     expect(Array.from(features.filter((_, i) => i % 2 === 1))).toEqual([0, 0, 0]);
     // Column 0 is 1, 2, 3: mean 2, population standard deviation sqrt(2/3).
     expect(features[0]).toBeCloseTo(-1 / Math.sqrt(2 / 3), 12);
+  });
+});
+
+describe('the intercept column', () => {
+  it('is appended after standardizing, so it stays 1 while the measured columns are centred', () => {
+    const cars = loadDataset('cars', { standardize: true });
+    const p = cars.featureCount;
+    expect(cars.featureNames[p - 1]).toBe(INTERCEPT_FEATURE);
+    let sum = 0;
+    for (let s = 0; s < cars.sampleCount; s++) {
+      expect(cars.features[s * p + p - 1]).toBe(1);
+      sum += cars.features[s * p];
+    }
+    expect(Math.abs(sum / cars.sampleCount)).toBeLessThan(1e-12);
+  });
+
+  it('refuses a target the data set does not have, naming data.target', () => {
+    expect(() => loadDataset('cars', { target: 'species', standardize: true })).toThrow(
+      expect.objectContaining({ code: 'E_DATA_SPEC', fieldPath: 'data.target' }),
+    );
   });
 });

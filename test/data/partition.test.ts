@@ -4,6 +4,8 @@ import {
   nearEqualSizes,
   partitionDirichlet,
   partitionIid,
+  naturalGroupSizes,
+  naturalKeyOrder,
   partitionNatural,
   partitionPool,
   partitionShards,
@@ -39,7 +41,6 @@ const specs: PartitionSpec[] = [
   { kind: 'dirichlet', alpha: 0.3 },
   { kind: 'dirichlet', alpha: 100 },
   { kind: 'shards', classesPerClient: 2 },
-  { kind: 'natural', key: 'writer' },
 ];
 
 describe('every partitioner', () => {
@@ -173,35 +174,44 @@ describe('shards', () => {
 });
 
 describe('natural', () => {
-  it('keeps each group whole and deals the groups round-robin', () => {
-    const keys = ['a', 'b', 'c', 'a', 'd', 'e', 'b', 'c', 'e', 'a'];
+  it('gives each key value its own client, in sorted order, whole', () => {
+    const keys = ['b', 'c', 'a', 'b', 'a', 'c', 'c'];
     const pool: LabelledPool = { labels: new Int32Array(keys.length), keys };
-    const parts = partitionNatural(pool, 2, 'writer', Rng.fromSeed(9));
+    const parts = partitionNatural(pool, 3, 'writer');
     expectExactCover(parts, keys.length);
-    const groupsPerClient = parts.map((part) => new Set(Array.from(part, (i) => keys[i])));
-    // Five groups over two clients: three and two.
-    expect(groupsPerClient.map((g) => g.size).sort()).toEqual([2, 3]);
-    const [first, second] = groupsPerClient;
-    for (const key of first) expect(second.has(key)).toBe(false);
+    expect(parts.map((p) => Array.from(p))).toEqual([
+      [2, 4],
+      [0, 3],
+      [1, 5, 6],
+    ]);
+    expect(naturalKeyOrder(keys)).toEqual(['a', 'b', 'c']);
+    expect(naturalGroupSizes(keys)).toEqual([2, 2, 3]);
   });
 
-  it('does not depend on the order of the samples', () => {
-    const keys = [3, 1, 2, 3, 1, 5, 4];
-    const reordered = [1, 3, 2, 1, 3, 5, 4];
+  it('does not depend on the order of the samples, and orders numbers before strings', () => {
+    expect(naturalKeyOrder([10, 'b', 2, 'a', 10])).toEqual([2, 10, 'a', 'b']);
+    const keys = [3, 1, 2, 3, 1];
+    const reordered = [1, 3, 2, 1, 3];
     const groups = (k: number[]) =>
-      partitionNatural({ labels: new Int32Array(k.length), keys: k }, 3, 'k', Rng.fromSeed(10)).map(
-        (p) => [...new Set(Array.from(p, (i) => k[i]))].sort(),
-      );
+      partitionNatural({ labels: new Int32Array(k.length), keys: k }, 3, 'k').map((p) => [
+        ...new Set(Array.from(p, (i) => k[i])),
+      ]);
     expect(groups(reordered)).toEqual(groups(keys));
+    expect(groups(keys)).toEqual([[1], [2], [3]]);
   });
 
-  it('refuses fewer groups than clients, and data without keys, naming data.partition.key', () => {
+  it('refuses a client count other than the number of key values, naming clients.count', () => {
     const pool: LabelledPool = { labels: new Int32Array(4), keys: ['x', 'x', 'y', 'y'] };
-    expect(() => partitionNatural(pool, 3, 'writer', Rng.fromSeed(11))).toThrow(
+    for (const count of [1, 3]) {
+      expect(() => partitionNatural(pool, count, 'writer')).toThrow(
+        expect.objectContaining({ code: 'E_DATA_SPEC', fieldPath: 'clients.count' }),
+      );
+    }
+  });
+
+  it('refuses data without keys, naming data.partition.key', () => {
+    expect(() => partitionNatural({ labels: new Int32Array(4) }, 2, 'writer')).toThrow(
       expect.objectContaining({ fieldPath: 'data.partition.key' }),
     );
-    expect(() =>
-      partitionNatural({ labels: new Int32Array(4) }, 2, 'writer', Rng.fromSeed(11)),
-    ).toThrow(expect.objectContaining({ fieldPath: 'data.partition.key' }));
   });
 });
