@@ -18,10 +18,17 @@ const probability = z.number().min(0).max(1);
 export const SCENARIO_LIMITS = {
   /** data.features; least squares at d = 100,000 runs in a few hundred MiB with few samples */
   featuresMax: 100_000,
-  /** the model's dimension: features, times classes for softmax */
+  /**
+   * the model's dimension: features, times classes for softmax, every weight and bias for a
+   * perceptron (784 inputs, 64 hidden units and 10 classes is 50,890)
+   */
   dimensionMax: 100_000,
-  /** softmax classes */
+  /** softmax and perceptron classes */
   classesMax: 1000,
+  /** a perceptron's hidden layers */
+  hiddenLayersMax: 2,
+  /** units of one hidden layer; the dimension limit above is usually the binding one */
+  hiddenWidthMax: 4096,
   /** clients.count; the welcome carries per-client lists of this length within its 4 MiB */
   clientsMax: 10_000,
   /** n_i of one client: its shard is a row matrix of n_i x features */
@@ -64,13 +71,43 @@ export type CountSpec = z.infer<ReturnType<typeof countSpecUpTo>>;
 
 export const problemSchema = z
   .object({
-    kind: z.enum(['least-squares', 'logistic', 'softmax']),
-    /** lambda of the L2 term (lambda/2)||x||^2 */
+    kind: z.enum(['least-squares', 'logistic', 'softmax', 'perceptron']),
+    /** lambda of the L2 term (lambda/2)||x||^2 (for a perceptron, over every weight and bias) */
     regularization: nonNegative.default(1e-3),
-    /** softmax: number of classes */
+    /** softmax and perceptron: number of classes */
     classes: z.number().int().min(2).max(SCENARIO_LIMITS.classesMax).default(3),
+    /**
+     * perceptron only, and required there: units of each hidden layer from the input side, one
+     * or two layers
+     */
+    hiddenWidths: z
+      .array(positiveInt.max(SCENARIO_LIMITS.hiddenWidthMax))
+      .min(1)
+      .max(SCENARIO_LIMITS.hiddenLayersMax)
+      .optional(),
+    /** perceptron only, and required there: the hidden units' smooth activation */
+    activation: z.enum(['tanh', 'softplus']).optional(),
   })
-  .strict();
+  .strict()
+  .superRefine((problem, ctx) => {
+    // Required for one kind and meaningless for the others: no default, so that a scenario
+    // always says which network it trains and a convex problem never carries a network's shape.
+    for (const field of ['hiddenWidths', 'activation'] as const) {
+      const given = problem[field] !== undefined;
+      if (problem.kind === 'perceptron' && !given)
+        ctx.addIssue({
+          code: 'custom',
+          path: [field],
+          message: `a perceptron needs problem.${field}`,
+        });
+      if (problem.kind !== 'perceptron' && given)
+        ctx.addIssue({
+          code: 'custom',
+          path: [field],
+          message: `problem.${field} belongs to kind "perceptron" only, not "${problem.kind}"`,
+        });
+    }
+  });
 
 export const partitionSchema = z.discriminatedUnion('kind', [
   z.object({ kind: z.literal('iid') }).strict(),
@@ -367,14 +404,31 @@ export const scenarioSchema = z
   .strict()
   .superRefine((scenario, ctx) => {
     // Softmax learns one weight vector per class: its dimension is a product of two fields.
-    if (scenario.problem.kind !== 'softmax' || scenario.data.source !== 'synthetic') return;
-    const dim = scenario.problem.classes * scenario.data.features;
-    if (dim > SCENARIO_LIMITS.dimensionMax)
-      ctx.addIssue({
-        code: 'custom',
-        path: ['problem', 'classes'],
-        message: `${scenario.problem.classes} classes x ${scenario.data.features} features is a model of dimension ${dim}, above the limit of ${SCENARIO_LIMITS.dimensionMax}`,
-      });
+    // A perceptron's is a sum of products over its layers (its feature count from a data set is
+    // checked when the plan is made, memory-estimate.ts).
+    if (scenario.data.source !== 'synthetic') return;
+    const { problem } = scenario;
+    const features = scenario.data.features;
+    if (problem.kind === 'softmax') {
+      const dim = problem.classes * features;
+      if (dim > SCENARIO_LIMITS.dimensionMax)
+        ctx.addIssue({
+          code: 'custom',
+          path: ['problem', 'classes'],
+          message: `${problem.classes} classes x ${features} features is a model of dimension ${dim}, above the limit of ${SCENARIO_LIMITS.dimensionMax}`,
+        });
+    }
+    if (problem.kind === 'perceptron' && problem.hiddenWidths !== undefined) {
+      const widths = [features, ...problem.hiddenWidths, problem.classes];
+      let dim = 0;
+      for (let l = 0; l + 1 < widths.length; l++) dim += (widths[l] + 1) * widths[l + 1];
+      if (dim > SCENARIO_LIMITS.dimensionMax)
+        ctx.addIssue({
+          code: 'custom',
+          path: ['problem', 'hiddenWidths'],
+          message: `a perceptron of widths ${widths.join(' -> ')} has ${dim} weights and biases, above the limit of ${SCENARIO_LIMITS.dimensionMax}`,
+        });
+    }
   });
 
 /** What a user writes (defaults optional). */
