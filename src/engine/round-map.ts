@@ -16,6 +16,7 @@ import type { RunPlan } from './run-plan.js';
 import { ServerRuntime } from './server-runtime.js';
 import { float64Leaves, flattenState, unflattenState } from './state-vector.js';
 import { driveSync } from './walk-transport.js';
+import { NONCONVEX_BLOCKER } from './trajectory-blocker.js';
 
 interface FullState {
   server: unknown;
@@ -33,6 +34,7 @@ const MAP_ROUND = 1;
 /** Why no prediction is made for a plan, or null when the round map is affine and fixed. */
 export function predictionBlocker(plan: Pick<RunPlan, 'scenario' | 'dim'>): string | null {
   const s = plan.scenario;
+  if (s.problem.kind === 'perceptron') return NONCONVEX_BLOCKER;
   if (s.problem.kind !== 'least-squares') return 'the objective is not quadratic';
   if (s.method.gradient !== 'full') return 'minibatch gradients make the round map random';
   if (s.method.participation < 1) return 'partial participation makes the round map random';

@@ -71,8 +71,8 @@ export const runSummarySchema = z.object({
   rate: z.object({
     measured: z.number().nullable(),
     predicted: z.number().nullable(),
-    /** the gd bound 1 - mu/L for eta = 1/L (Nesterov 2004, Thm 2.1.15), for scale */
-    gdBound: z.number(),
+    /** the gd bound 1 - mu/L for eta = 1/L (Nesterov 2004, Thm 2.1.15), for scale; NaN (null) without L and mu */
+    gdBound: maybeNonFinite,
     measuredWindow: z.tuple([z.number(), z.number()]).nullable(),
   }),
   floor: z.object({ measured: z.number().nullable(), predicted: z.number().nullable() }),
@@ -96,13 +96,27 @@ export const runSummarySchema = z.object({
   lostWorkers: z.array(z.string()),
   protocolErrors: z.record(z.string(), z.number().int().nonnegative()),
   theory: z.object({
-    smoothness: z.number(),
-    strongConvexity: z.number(),
+    /** NaN (null) for a nonconvex objective, which has no L or mu */
+    smoothness: maybeNonFinite,
+    strongConvexity: maybeNonFinite,
     /** smoothness / strongConvexity: infinite when mu = 0 */
     conditionNumber: maybeNonFinite,
     heterogeneity: z.number(),
+    /** f*, or for a nonconvex objective the reference loss (see `reference`) */
     optimumLoss: z.number(),
+    /** ||grad f|| at x*, or at the reference point */
     certificate: z.number(),
+    /**
+     * present for a nonconvex objective: optimumLoss is then the end of a reference run, not an
+     * optimum, `suboptimality` is the gap to it (negative below it) and there is no distance
+     */
+    reference: z
+      .object({
+        iterationsMax: z.number().int().positive(),
+        ending: z.enum(['budget', 'stationary', 'no-decrease']),
+      })
+      .nullable()
+      .optional(),
   }),
 });
 export type RunSummary = z.output<typeof runSummarySchema>;
@@ -186,7 +200,9 @@ export function buildRunSummary(
   // f is evaluated to a few ulps of its scale; below that the curve is noise (common practice).
   const noiseLevel =
     1e3 * Number.EPSILON * Math.max(Math.abs(theory.optimum.loss), first.suboptimality);
-  const fit = curve.length > 1 ? fitLinearRate(curve, { noiseLevel }) : null;
+  // A gap to a reference may be negative and follows no linear-rate theory: nothing is fitted.
+  const fitted = curve.length > 1 && theory.reference === null;
+  const fit = fitted ? fitLinearRate(curve, { noiseLevel }) : null;
   const reached = digest.reached;
   const lastRound = digest.last;
   const c = theory.constants;
@@ -216,7 +232,7 @@ export function buildRunSummary(
       measuredWindow: fit ? fit.window : null,
     },
     floor: {
-      measured: curve.length > 1 ? measureFloor(curve, { noiseLevel }) : null,
+      measured: fitted ? measureFloor(curve, { noiseLevel }) : null,
       predicted: prediction.floor,
     },
     prediction: {
@@ -244,6 +260,7 @@ export function buildRunSummary(
       heterogeneity: c.heterogeneity,
       optimumLoss: theory.optimum.loss,
       certificate: theory.optimum.gradientNorm,
+      reference: theory.reference,
     },
   };
 }

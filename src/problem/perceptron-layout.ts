@@ -64,3 +64,25 @@ export function perceptronLayout(
   }
   return spans;
 }
+
+/**
+ * The layout of a perceptron whose parameter count is `dim`: the feature count is the one
+ * unknown, and dim is affine in it, (features + 1) x hiddenWidths[0] + the rest. A plan carries
+ * the dimension, not the feature count (a data set's is known only once loaded), so a process
+ * that holds only the plan recovers the layout from it.
+ */
+export function perceptronLayoutOfDimension(
+  dim: number,
+  hiddenWidths: readonly number[],
+  classCount: number,
+): LayerSpan[] {
+  const rest = perceptronParameterCount(0, hiddenWidths, classCount) - hiddenWidths[0];
+  const featureCount = (dim - rest) / hiddenWidths[0] - 1;
+  if (!Number.isInteger(featureCount) || featureCount < 1) {
+    throw new ProblemError(
+      'E_PROBLEM_DIMENSION',
+      `no perceptron of hidden widths [${hiddenWidths.join(', ')}] and ${classCount} classes has ${dim} parameters`,
+    );
+  }
+  return perceptronLayout(featureCount, hiddenWidths, classCount);
+}

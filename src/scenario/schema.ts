@@ -403,6 +403,14 @@ export const scenarioSchema = z
   })
   .strict()
   .superRefine((scenario, ctx) => {
+    // 'auto' is 1/L of f, and a perceptron has no L over all x (src/problem/perceptron.ts).
+    if (scenario.problem.kind === 'perceptron' && scenario.method.stepSize === 'auto')
+      ctx.addIssue({
+        code: 'custom',
+        path: ['method', 'stepSize'],
+        message:
+          'a perceptron has no smoothness constant L, so stepSize "auto" (1/L) has no value; give a number',
+      });
     // Softmax learns one weight vector per class: its dimension is a product of two fields.
     // A perceptron's is a sum of products over its layers (its feature count from a data set is
     // checked when the plan is made, memory-estimate.ts).
