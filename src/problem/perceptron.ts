@@ -29,6 +29,12 @@ import { checkBatch, checkRegularization, checkShard } from './shard-checks.js';
 
 /** Classes beyond this are a specification error, as for softmax. */
 const CLASSES_MAX = 1000;
+/**
+ * Float64 values a perceptron keeps per sample and unit for the full shard (a Workspace with its
+ * R pass): z, h, sigma'(z), delta and the back signal, then R{z}, R{h}, R{delta} and R{back}.
+ * The memory estimate (src/engine/memory-estimate.ts) counts them.
+ */
+export const PERCEPTRON_VALUES_PER_UNIT = 9;
 /** Batch sizes whose scratch is kept between calls: the full shard and one minibatch size. */
 const WORKSPACES_KEPT = 2;
 

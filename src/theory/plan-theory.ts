@@ -320,6 +320,9 @@ export function theoryDetailsOf(
     clients: clients ?? theory.instance.objectives.map((client) => clientConstants(client, x)),
   };
   detailCache.set(theory.problemHash, details);
-  store?.write(theory.problemHash, ORACLE_VERSION, toStored(theory, details));
+  // A perceptron's client bounds are infinite (no L_i, mu_i), which the store's JSON cannot
+  // hold: its details stay in this process and its stored entry keeps the reference alone.
+  if (theory.reference === null)
+    store?.write(theory.problemHash, ORACLE_VERSION, toStored(theory, details));
   return details;
 }
