@@ -34,7 +34,11 @@ const bodySchema = z.strictObject({
     gradientNorm: finite,
     iterations: z.number().int().nonnegative(),
   }),
-  constants: z.strictObject({ smoothness: finite, strongConvexity: finite, heterogeneity: finite }),
+  constants: z.strictObject({
+    smoothness: finite.nullable(),
+    strongConvexity: finite.nullable(),
+    heterogeneity: finite,
+  }),
   details: z
     .strictObject({
       hessianAtOptimum: curvature,
@@ -48,6 +52,12 @@ const bodySchema = z.strictObject({
       ),
     })
     .nullable(),
+  reference: z
+    .strictObject({
+      iterationsMax: z.number().int().positive(),
+      ending: z.enum(['budget', 'stationary', 'no-decrease']),
+    })
+    .optional(),
 });
 
 /** ROUNDWIRE_CACHE_DIR, or roundwire/oracle under $XDG_CACHE_HOME or ~/.cache. */

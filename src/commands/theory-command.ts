@@ -126,7 +126,10 @@ export async function theoryReport(scenario: Scenario): Promise<TheoryReport> {
 }
 
 export function formatTheoryReport(r: TheoryReport): string {
-  const exact = r.problem === 'least-squares' ? 'exact' : 'bound';
+  // A perceptron has a reference run's end where the convex kinds have x* (plan-theory.ts).
+  const nonconvex = r.problem === 'perceptron';
+  const exact = nonconvex ? 'none: nonconvex' : r.problem === 'least-squares' ? 'exact' : 'bound';
+  const at = nonconvex ? 'x_ref' : 'x*';
   const title = `${r.scenario} (problem ${r.problemHash.slice(0, 12)}): ${r.problem}, dimension ${r.dimension}, ${r.clientCount} clients, ${r.sampleCount} samples`;
   const summary = formatTable(
     ['quantity', 'value', 'note'],
@@ -134,19 +137,25 @@ export function formatTheoryReport(r: TheoryReport): string {
       ['smoothness L', r.smoothness, exact],
       ['strong convexity mu', r.strongConvexity, exact],
       ['condition number L/mu', r.conditionNumber, exact],
-      ['Hessian at x*: smallest', r.hessianAtOptimum.smallest, 'Lanczos'],
-      ['Hessian at x*: largest', r.hessianAtOptimum.largest, 'Lanczos'],
-      ['heterogeneity sum p_i |grad f_i(x*)|^2', r.heterogeneity, '0 iff x* minimizes every f_i'],
-      ['optimum f*', r.optimum.loss, ''],
+      [`Hessian at ${at}: smallest`, r.hessianAtOptimum.smallest, 'Lanczos'],
+      [`Hessian at ${at}: largest`, r.hessianAtOptimum.largest, 'Lanczos'],
       [
-        'certificate |grad f(x*)|',
+        `heterogeneity sum p_i |grad f_i(${at})|^2`,
+        r.heterogeneity,
+        nonconvex ? 'at the reference point' : '0 iff x* minimizes every f_i',
+      ],
+      nonconvex
+        ? ['reference loss f_ref', r.optimum.loss, 'a reference, not an optimum']
+        : ['optimum f*', r.optimum.loss, ''],
+      [
+        `certificate |grad f(${at})|`,
         r.optimum.gradientNorm,
         `after ${r.optimum.iterations} iterations`,
       ],
     ],
   );
   const clients = formatTable(
-    ['client', 'samples', 'weight p_i', 'L_i', 'mu_i', '|grad f_i(x*)|', '|x_i* - x*|'],
+    ['client', 'samples', 'weight p_i', 'L_i', 'mu_i', `|grad f_i(${at})|`, `|x_i* - ${at}|`],
     r.clients.map((k) => [
       k.id,
       k.samples,

@@ -20,7 +20,7 @@ import { partitionPool, type LabelledPool } from './partition.js';
 import { Rng } from '../base/rng.js';
 import { samplesForAllClients, samplesForClient } from './sample-counts.js';
 import type { Shard } from '../problem/shard.js';
-import { drawSamples, type SampleModel } from './synthetic.js';
+import { drawSamples, type SampleKind, type SampleModel } from './synthetic.js';
 import {
   clientFeatureMean,
   clientMinimizer,
@@ -68,7 +68,19 @@ function checkValueCount(sampleCount: number, featureCount: number): void {
 }
 
 function classCountOf(scenario: Scenario): number {
-  return scenario.problem.kind === 'softmax' ? scenario.problem.classes : 2;
+  return isMulticlass(scenario.problem.kind) ? scenario.problem.classes : 2;
+}
+
+function isMulticlass(kind: Scenario['problem']['kind']): boolean {
+  return kind === 'softmax' || kind === 'perceptron';
+}
+
+/**
+ * The model that labels synthetic samples: a perceptron learns from the samples softmax would
+ * get with the same seed, so that the two can be compared on the same data.
+ */
+function sampleKindOf(kind: Scenario['problem']['kind']): SampleKind {
+  return kind === 'perceptron' ? 'softmax' : kind;
 }
 
 function featureScalesOf(data: SyntheticData): Float64Array {
@@ -78,7 +90,8 @@ function featureScalesOf(data: SyntheticData): Float64Array {
 function directShard(scenario: Scenario & { data: SyntheticData }, clientId: number): Shard {
   const { seed, problem, data } = scenario;
   const p = data.features;
-  const x0 = syntheticCentre(seed, parameterDimension(problem.kind, p, classCountOf(scenario)));
+  const sampleKind = sampleKindOf(problem.kind);
+  const x0 = syntheticCentre(seed, parameterDimension(sampleKind, p, classCountOf(scenario)));
   const sampleCount = samplesForClient(
     data.samplesPerClient,
     scenario.clients.count,
@@ -87,7 +100,7 @@ function directShard(scenario: Scenario & { data: SyntheticData }, clientId: num
   );
   checkValueCount(sampleCount, p);
   const model: SampleModel = {
-    kind: problem.kind,
+    kind: sampleKind,
     featureCount: p,
     classCount: classCountOf(scenario),
     featureScales: featureScalesOf(data),
@@ -121,13 +134,14 @@ function syntheticPool(
     0,
   );
   checkValueCount(total, p);
+  const sampleKind = sampleKindOf(problem.kind);
   const model: SampleModel = {
-    kind: problem.kind,
+    kind: sampleKind,
     featureCount: p,
     classCount: classCountOf(scenario),
     featureScales: featureScalesOf(data),
     featureMean: new Float64Array(p),
-    model: syntheticCentre(seed, parameterDimension(problem.kind, p, classCountOf(scenario))),
+    model: syntheticCentre(seed, parameterDimension(sampleKind, p, classCountOf(scenario))),
     noise: data.noise,
   };
   const samples = drawSamples(

@@ -38,14 +38,20 @@ export function scenarioDataset(scenario: Scenario): LabelledDataset {
 
 function checkProblemFits(scenario: Scenario, dataset: LabelledDataset): void {
   const { problem } = scenario;
-  if (problem.kind !== dataset.kind) {
+  // A perceptron is a multiclass classifier like softmax (schema.ts, checkDatasetFits).
+  const kindFits =
+    problem.kind === dataset.kind || (dataset.kind === 'softmax' && problem.kind === 'perceptron');
+  if (!kindFits) {
     throw new DataError(
       'E_DATA_SPEC',
       `data set ${dataset.name}, target ${dataset.target} needs problem.kind "${dataset.kind}", got "${problem.kind}"`,
       'problem.kind',
     );
   }
-  if (problem.kind === 'softmax' && problem.classes !== dataset.classNames.length) {
+  if (
+    (problem.kind === 'softmax' || problem.kind === 'perceptron') &&
+    problem.classes !== dataset.classNames.length
+  ) {
     throw new DataError(
       'E_DATA_SPEC',
       `data set ${dataset.name} has ${dataset.classNames.length} classes; problem.classes is ${problem.classes}`,

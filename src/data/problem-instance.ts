@@ -23,6 +23,8 @@ export function objectiveSpecOf(scenario: Scenario): ObjectiveSpec {
     kind: scenario.problem.kind,
     regularization: scenario.problem.regularization,
     classes: scenario.problem.classes,
+    hiddenWidths: scenario.problem.hiddenWidths,
+    activation: scenario.problem.activation,
   };
 }
 

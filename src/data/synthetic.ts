@@ -17,8 +17,11 @@ import type { ProblemKind } from '../problem/objective.js';
 import { DataError } from './data-error.js';
 import type { Rng } from '../base/rng.js';
 
+/** The models that label synthetic samples; a perceptron learns from softmax-labelled data. */
+export type SampleKind = Exclude<ProblemKind, 'perceptron'>;
+
 export interface SampleModel {
-  kind: ProblemKind;
+  kind: SampleKind;
   featureCount: number;
   /** softmax: number of classes (ignored otherwise) */
   classCount: number;

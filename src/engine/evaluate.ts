@@ -1,5 +1,8 @@
 // The oracle's view of a model: suboptimality f(x) - f* and distance ||x - x*||. Testbed only;
-// no method ever sees these numbers.
+// no method ever sees these numbers. For a nonconvex objective (a perceptron) the oracle holds a
+// reference run's end instead of x* (src/theory/reference-run.ts): `suboptimality` is then the
+// gap f(x) - f_ref, unclamped, negative where the model is below the reference, and `distance`
+// is NaN (written as null), since a distance to a reference point says nothing.
 
 import type { Objective } from '../problem/objective.js';
 import { distanceSquared } from '../vec/kernels.js';
@@ -20,8 +23,9 @@ export function evaluateModel(
   optimumLoss: number,
   x: Float64Array,
 ): Evaluation {
+  const gap = global.loss(x) - optimumLoss;
+  if (global.kind === 'perceptron') return { suboptimality: gap, distance: Number.NaN };
   // f(x) - f* can come out a few ulps below zero at the optimum; clamp so that logs stay defined
   // and the record never claims a model better than the certified optimum.
-  const gap = global.loss(x) - optimumLoss;
   return { suboptimality: Math.max(0, gap), distance: Math.sqrt(distanceSquared(x, optimumX)) };
 }

@@ -9,7 +9,8 @@
 //
 // max(1, ...) keeps the bound meaningful when the run starts at or near x* (x_0 = x* gives
 // f(x_0) - f* = 0), and ||x_0 - x*|| stands in for the scale of x*, which the walk does not see
-// (||x*|| <= ||x_0|| + ||x_0 - x*||).
+// (||x*|| <= ||x_0|| + ||x_0 - x*||). A nonconvex objective has no x* (its distance is NaN):
+// ||x_0|| alone is the scale there.
 
 import type { Evaluation } from './evaluate.js';
 
@@ -31,7 +32,13 @@ export interface ExplosionBound {
 /** The bound of a run that starts at `initialModel`, evaluated as `initial`. */
 export function explosionBound(initialModel: Float64Array, initial: Evaluation): ExplosionBound {
   return {
-    normMax: EXPLOSION_FACTOR * Math.max(1, euclideanNorm(initialModel), initial.distance),
+    normMax:
+      EXPLOSION_FACTOR *
+      Math.max(
+        1,
+        euclideanNorm(initialModel),
+        Number.isNaN(initial.distance) ? 0 : initial.distance,
+      ),
     suboptimalityMax: EXPLOSION_FACTOR * Math.max(1, initial.suboptimality),
   };
 }

@@ -6,7 +6,9 @@
 // One process that holds the whole problem (the in-process engine; the coordinator's main
 // thread) keeps, for the whole run:
 //   kernels   the row kernels' copy of every shard's features (src/vec/wasm/kernel-arena.ts),
-//             which the objectives compute on
+//             which the objectives compute on; a perceptron adds its per-sample scratch beside
+//             it (src/problem/perceptron.ts: PERCEPTRON_VALUES_PER_UNIT values per sample and
+//             hidden or output unit, kept for the full shard)
 //   clients   each client's method state (method-state-size.ts) plus its compression state: per
 //             exchange, the uplink's error-feedback memory (and its working copy when
 //             compressed), and the downlink's replicas at both ends when the downlink is compressed
@@ -40,7 +42,7 @@
 // computes the clients' constants on a pool whose threads rebuild the shards (a second copy).
 // Fixed costs (Node itself, about 50 to 150 MiB a process, code, a few vectors) are not counted.
 
-import type { Scenario } from '../scenario/schema.js';
+import { SCENARIO_LIMITS, type Scenario } from '../scenario/schema.js';
 import { ScenarioError } from '../scenario/scenario-error.js';
 import { methodByName } from '../algorithm/registry.js';
 import { samplesForAllClients } from '../data/sample-counts.js';
@@ -57,6 +59,8 @@ import { predictionBlocker } from './round-map.js';
 import { linearizationBlocker } from './round-map-jacobian.js';
 import { trajectoryBlocker } from './trajectory-blocker.js';
 import { formedGramPays, formedGramValues } from '../problem/formed-gram.js';
+import { perceptronParameterCount } from '../problem/perceptron-layout.js';
+import { PERCEPTRON_VALUES_PER_UNIT } from '../problem/perceptron.js';
 
 /**
  * The most memory a scenario may need, in MiB (4 GiB): several times any bundled scenario and
@@ -179,7 +183,15 @@ export function estimateRunMemory(scenario: Scenario): MemoryEstimate {
   const { samplesPerClient, features, pooled } = dataShape(scenario);
   const samples = samplesPerClient.reduce((sum, n) => sum + n, 0);
   const kind = scenario.problem.kind;
-  const dim = parameterDimension(kind, features, scenario.problem.classes);
+  const { hiddenWidths, classes } = scenario.problem;
+  const perceptronUnits =
+    kind === 'perceptron' && hiddenWidths !== undefined
+      ? hiddenWidths.reduce((sum, width) => sum + width, 0) + classes
+      : 0;
+  const dim =
+    kind === 'perceptron' && hiddenWidths !== undefined
+      ? perceptronParameterCount(features, hiddenWidths, classes)
+      : parameterDimension(kind, features, classes);
   const clientCount = scenario.clients.count;
   const exchanges = methodByName(scenario.method.name).exchanges.length;
   const vectors = stateVectorsPerDimension(scenario);
@@ -198,7 +210,7 @@ export function estimateRunMemory(scenario: Scenario): MemoryEstimate {
   const smallestSideMax = Math.max(...samplesPerClient.map((n) => Math.min(n, features)));
   const values = {
     data: (pooled ? 2 : 1) * shardValues(samples),
-    kernels: samples * features,
+    kernels: samples * (features + PERCEPTRON_VALUES_PER_UNIT * perceptronUnits),
     oracle:
       dim <= DENSE_DIMENSION_FASTER_MAX
         ? 3 * dim * dim
@@ -293,6 +305,14 @@ function layoutBytes(estimate: MemoryEstimate, layout: MemoryLayout): [number, s
  */
 export function assertMemoryFits(scenario: Scenario, layout: MemoryLayout = 'one-process'): void {
   const estimate = estimateRunMemory(scenario);
+  // The schema holds a synthetic perceptron to the dimension limit; a data set's feature count is
+  // known only here.
+  if (scenario.problem.kind === 'perceptron' && estimate.dim > SCENARIO_LIMITS.dimensionMax)
+    throw new ScenarioError(
+      'E_SCENARIO_FIELD',
+      'problem.hiddenWidths',
+      `a perceptron of hidden widths [${scenario.problem.hiddenWidths?.join(', ')}] on ${scenario.data.source === 'dataset' ? `data set ${scenario.data.name}` : 'this data'} has ${estimate.dim} weights and biases, above the limit of ${SCENARIO_LIMITS.dimensionMax}`,
+    );
   const [bytes, made] = layoutBytes(estimate, layout);
   if (bytes <= RUN_MEMORY_MIB_MAX * MIB_BYTES) return;
   throw new ScenarioError(

@@ -21,6 +21,7 @@
 // from s (recorded in order, client by client). For least squares H is constant and J is the
 // linear part M of the affine map.
 
+import { NONCONVEX_BLOCKER } from './trajectory-blocker.js';
 import type { LinearOperator } from '../linalg/linear-operator.js';
 import type { SymmetricOperator } from '../linalg/spectrum.js';
 import { hessianOperatorOf, type Objective } from '../problem/objective.js';
@@ -39,6 +40,7 @@ export const LINEARIZATION_ENTRIES_MAX = 2 ** 24;
 
 /** Why the round map of `plan` cannot be linearized by a tangent walk, or null. */
 export function linearizationBlocker(plan: Pick<RunPlan, 'scenario' | 'dim'>): string | null {
+  if (plan.scenario.problem.kind === 'perceptron') return NONCONVEX_BLOCKER;
   const blocker = roundMapChangeBlocker(plan);
   if (blocker !== null) return blocker;
   const method = plan.scenario.method;

@@ -16,6 +16,7 @@ import type { RunPlan } from './run-plan.js';
 import { ServerRuntime } from './server-runtime.js';
 import { float64Leaves, flattenState, unflattenState } from './state-vector.js';
 import { driveSync } from './walk-transport.js';
+import { NONCONVEX_BLOCKER } from './trajectory-blocker.js';
 
 interface FullState {
   server: unknown;
@@ -32,6 +33,7 @@ const MAP_ROUND = 1;
 
 /** Why no prediction is made for a plan, or null when the round map is affine and fixed. */
 export function predictionBlocker(plan: Pick<RunPlan, 'scenario' | 'dim'>): string | null {
+  if (plan.scenario.problem.kind === 'perceptron') return NONCONVEX_BLOCKER;
   if (plan.scenario.problem.kind !== 'least-squares') return 'the objective is not quadratic';
   return roundMapChangeBlocker(plan);
 }

@@ -128,13 +128,27 @@ export const runSummarySchema = z.object({
   lostWorkers: z.array(z.string()),
   protocolErrors: z.record(z.string(), z.number().int().nonnegative()),
   theory: z.object({
-    smoothness: z.number(),
-    strongConvexity: z.number(),
+    /** NaN (null) for a nonconvex objective, which has no L or mu */
+    smoothness: maybeNonFinite,
+    strongConvexity: maybeNonFinite,
     /** smoothness / strongConvexity: infinite when mu = 0 */
     conditionNumber: maybeNonFinite,
     heterogeneity: z.number(),
+    /** f*, or for a nonconvex objective the reference loss (see `reference`) */
     optimumLoss: z.number(),
+    /** ||grad f|| at x*, or at the reference point */
     certificate: z.number(),
+    /**
+     * present for a nonconvex objective: optimumLoss is then the end of a reference run, not an
+     * optimum, `suboptimality` is the gap to it (negative below it) and there is no distance
+     */
+    reference: z
+      .object({
+        iterationsMax: z.number().int().positive(),
+        ending: z.enum(['budget', 'stationary', 'no-decrease']),
+      })
+      .nullable()
+      .optional(),
   }),
   /** runs with random rounds only: the Monte Carlo band and closed form (random-band.ts) */
   band: randomBandSchema.optional(),
@@ -238,7 +252,9 @@ export function buildRunSummary(
   // f is evaluated to a few ulps of its scale; below that the curve is noise (common practice).
   const noiseLevel =
     1e3 * Number.EPSILON * Math.max(Math.abs(theory.optimum.loss), first.suboptimality);
-  const fit = curve.length > 1 ? fitLinearRate(curve, { noiseLevel }) : null;
+  // A gap to a reference may be negative and follows no linear-rate theory: nothing is fitted.
+  const fitted = curve.length > 1 && theory.reference === null;
+  const fit = fitted ? fitLinearRate(curve, { noiseLevel }) : null;
   const asymptotic = assessAsymptoticRate(
     curve,
     digest.predictedCurve,
@@ -274,7 +290,7 @@ export function buildRunSummary(
       asymptotic,
     },
     floor: {
-      measured: curve.length > 1 ? measureFloor(curve, { noiseLevel }) : null,
+      measured: fitted ? measureFloor(curve, { noiseLevel }) : null,
       predicted: prediction.floor,
     },
     bounds: publishedBounds(
@@ -312,6 +328,7 @@ export function buildRunSummary(
       heterogeneity: c.heterogeneity,
       optimumLoss: theory.optimum.loss,
       certificate: theory.optimum.gradientNorm,
+      reference: theory.reference,
     },
   };
 }

@@ -8,6 +8,7 @@ import { methodByName } from '../algorithm/registry.js';
 import { ReplicaEncoder } from '../compress/replica.js';
 import { UplinkDecoder } from '../compress/uplink.js';
 import type { EncodedFields } from './client-runtime.js';
+import { initialModelOf } from '../problem/initial-model.js';
 import type { RunPlan } from './run-plan.js';
 import { downlinkRngFor } from './seeded-streams.js';
 import { assertSameShape, assertVectorsByName, StateTreeError } from '../base/state-tree.js';
@@ -39,7 +40,7 @@ export class ServerRuntime {
   private readonly downlinks: ReplicaEncoder[];
   private readonly uplinks: UplinkDecoder[];
 
-  constructor(plan: RunPlan, initialModel: Float64Array = new Float64Array(plan.dim)) {
+  constructor(plan: RunPlan, initialModel: Float64Array = initialModelOf(plan)) {
     this.plan = plan;
     this.method = methodByName(plan.scenario.method.name);
     this.state = this.method.initServer(plan.dim, plan.methodConfig, initialModel);

@@ -16,8 +16,15 @@ import { roundMapStateEntries } from './method-state-size.js';
  */
 export const TRAJECTORY_STATE_ENTRIES_MAX = 2 ** 20;
 
+/**
+ * Why nothing is predicted for a perceptron: every prediction is measured against x* and built
+ * on a convex objective's round map, and a nonconvex objective has neither.
+ */
+export const NONCONVEX_BLOCKER = 'the objective is nonconvex: no x* and no round-map theory';
+
 /** Why a scenario has no single ideal run, or none walked, or null. */
 export function trajectoryBlocker(scenario: Scenario, dim: number): string | null {
+  if (scenario.problem.kind === 'perceptron') return NONCONVEX_BLOCKER;
   if (scenario.method.gradient !== 'full') return 'minibatch gradients make every round random';
   if (scenario.method.participation < 1) return 'partial participation makes every round random';
   if (

@@ -3,12 +3,13 @@
 // so that with weights p_i = n_i/n the global f = sum_i p_i f_i is the pooled empirical risk.
 
 import type { SymmetricOperator } from '../linalg/spectrum.js';
+import type { ActivationName } from './activation.js';
 
-export type ProblemKind = 'least-squares' | 'logistic' | 'softmax';
+export type ProblemKind = 'least-squares' | 'logistic' | 'softmax' | 'perceptron';
 
 export interface Objective {
   readonly kind: ProblemKind;
-  /** Length of the parameter vector x (features, or features x classes for softmax). */
+  /** Length of the parameter vector x (features, features x classes for softmax, every layer's weights and biases for a perceptron). */
   readonly dim: number;
   readonly sampleCount: number;
   /** The L2 coefficient lambda. */
@@ -41,8 +42,12 @@ export interface Objective {
 export interface ObjectiveSpec {
   kind: ProblemKind;
   regularization: number;
-  /** Softmax only: number of classes; labels are integers in [0, classes). */
+  /** Softmax and perceptron: number of classes; labels are integers in [0, classes). */
   classes?: number;
+  /** Perceptron only: the units of each hidden layer, from the input side. */
+  hiddenWidths?: readonly number[];
+  /** Perceptron only: the hidden units' activation. */
+  activation?: ActivationName;
 }
 
 /** v -> H(x) v through the objective's own operator where it has one. */

@@ -24,10 +24,17 @@ const probability = z.number().min(0).max(1);
 export const SCENARIO_LIMITS = {
   /** data.features; least squares at d = 100,000 runs in a few hundred MiB with few samples */
   featuresMax: 100_000,
-  /** the model's dimension: features, times classes for softmax */
+  /**
+   * the model's dimension: features, times classes for softmax, every weight and bias for a
+   * perceptron (784 inputs, 64 hidden units and 10 classes is 50,890)
+   */
   dimensionMax: 100_000,
-  /** softmax classes */
+  /** softmax and perceptron classes */
   classesMax: 1000,
+  /** a perceptron's hidden layers */
+  hiddenLayersMax: 2,
+  /** units of one hidden layer; the dimension limit above is usually the binding one */
+  hiddenWidthMax: 4096,
   /** clients.count; the welcome carries per-client lists of this length within its 4 MiB */
   clientsMax: 10_000,
   /** n_i of one client: its shard is a row matrix of n_i x features */
@@ -70,13 +77,43 @@ export type CountSpec = z.infer<ReturnType<typeof countSpecUpTo>>;
 
 export const problemSchema = z
   .object({
-    kind: z.enum(['least-squares', 'logistic', 'softmax']),
-    /** lambda of the L2 term (lambda/2)||x||^2 */
+    kind: z.enum(['least-squares', 'logistic', 'softmax', 'perceptron']),
+    /** lambda of the L2 term (lambda/2)||x||^2 (for a perceptron, over every weight and bias) */
     regularization: nonNegative.default(1e-3),
-    /** softmax: number of classes */
+    /** softmax and perceptron: number of classes */
     classes: z.number().int().min(2).max(SCENARIO_LIMITS.classesMax).default(3),
+    /**
+     * perceptron only, and required there: units of each hidden layer from the input side, one
+     * or two layers
+     */
+    hiddenWidths: z
+      .array(positiveInt.max(SCENARIO_LIMITS.hiddenWidthMax))
+      .min(1)
+      .max(SCENARIO_LIMITS.hiddenLayersMax)
+      .optional(),
+    /** perceptron only, and required there: the hidden units' smooth activation */
+    activation: z.enum(['tanh', 'softplus']).optional(),
   })
-  .strict();
+  .strict()
+  .superRefine((problem, ctx) => {
+    // Required for one kind and meaningless for the others: no default, so that a scenario
+    // always says which network it trains and a convex problem never carries a network's shape.
+    for (const field of ['hiddenWidths', 'activation'] as const) {
+      const given = problem[field] !== undefined;
+      if (problem.kind === 'perceptron' && !given)
+        ctx.addIssue({
+          code: 'custom',
+          path: [field],
+          message: `a perceptron needs problem.${field}`,
+        });
+      if (problem.kind !== 'perceptron' && given)
+        ctx.addIssue({
+          code: 'custom',
+          path: [field],
+          message: `problem.${field} belongs to kind "perceptron" only, not "${problem.kind}"`,
+        });
+    }
+  });
 
 export const partitionSchema = z.discriminatedUnion('kind', [
   z.object({ kind: z.literal('iid') }).strict(),
@@ -357,11 +394,14 @@ function checkDatasetFits(
     });
     return;
   }
-  if (problem.kind !== target.kind) {
+  // A perceptron is a multiclass classifier like softmax, with hidden layers in between.
+  const kindFits =
+    problem.kind === target.kind || (target.kind === 'softmax' && problem.kind === 'perceptron');
+  if (!kindFits) {
     ctx.addIssue({
       code: 'custom',
       path: ['problem', 'kind'],
-      message: `data set ${data.name}, target ${targetName} (${target.describes}) needs problem.kind "${target.kind}", got "${problem.kind}"`,
+      message: `data set ${data.name}, target ${targetName} (${target.describes}) needs problem.kind "${target.kind}"${target.kind === 'softmax' ? ' or "perceptron"' : ''}, got "${problem.kind}"`,
     });
   } else if (target.classes !== undefined && problem.classes !== target.classes) {
     ctx.addIssue({
@@ -435,19 +475,43 @@ export const scenarioSchema = z
   })
   .strict()
   .superRefine((scenario, ctx) => {
+    // 'auto' is 1/L of f, and a perceptron has no L over all x (src/problem/perceptron.ts).
+    if (scenario.problem.kind === 'perceptron' && scenario.method.stepSize === 'auto')
+      ctx.addIssue({
+        code: 'custom',
+        path: ['method', 'stepSize'],
+        message:
+          'a perceptron has no smoothness constant L, so stepSize "auto" (1/L) has no value; give a number',
+      });
     if (scenario.data.source === 'dataset') {
       checkDatasetFits(scenario.data, scenario.problem, ctx);
       return;
     }
     // Softmax learns one weight vector per class: its dimension is a product of two fields.
-    if (scenario.problem.kind !== 'softmax') return;
-    const dim = scenario.problem.classes * scenario.data.features;
-    if (dim > SCENARIO_LIMITS.dimensionMax)
-      ctx.addIssue({
-        code: 'custom',
-        path: ['problem', 'classes'],
-        message: `${scenario.problem.classes} classes x ${scenario.data.features} features is a model of dimension ${dim}, above the limit of ${SCENARIO_LIMITS.dimensionMax}`,
-      });
+    // A perceptron's is a sum of products over its layers (its feature count from a data set is
+    // checked when the plan is made, memory-estimate.ts).
+    const { problem } = scenario;
+    const features = scenario.data.features;
+    if (problem.kind === 'softmax') {
+      const dim = problem.classes * features;
+      if (dim > SCENARIO_LIMITS.dimensionMax)
+        ctx.addIssue({
+          code: 'custom',
+          path: ['problem', 'classes'],
+          message: `${problem.classes} classes x ${features} features is a model of dimension ${dim}, above the limit of ${SCENARIO_LIMITS.dimensionMax}`,
+        });
+    }
+    if (problem.kind === 'perceptron' && problem.hiddenWidths !== undefined) {
+      const widths = [features, ...problem.hiddenWidths, problem.classes];
+      let dim = 0;
+      for (let l = 0; l + 1 < widths.length; l++) dim += (widths[l] + 1) * widths[l + 1];
+      if (dim > SCENARIO_LIMITS.dimensionMax)
+        ctx.addIssue({
+          code: 'custom',
+          path: ['problem', 'hiddenWidths'],
+          message: `a perceptron of widths ${widths.join(' -> ')} has ${dim} weights and biases, above the limit of ${SCENARIO_LIMITS.dimensionMax}`,
+        });
+    }
   });
 
 /** What a user writes (defaults optional). */

@@ -15,6 +15,8 @@ import { buildProblemInstance, type ProblemInstance } from '../data/problem-inst
 import { WeightedSumObjective } from '../problem/weighted-sum.js';
 import { allFinite, norm2 } from '../vec/kernels.js';
 import { ORACLE_VERSION, solveOptimum } from './oracle.js';
+import { initialModelOf } from '../problem/initial-model.js';
+import { REFERENCE_ITERATIONS_MAX, referenceRun, type ReferenceRun } from './reference-run.js';
 import type { OptimumCertificate } from './oracle-certificate.js';
 import {
   clientConstants,
@@ -28,8 +30,21 @@ import {
 export interface PlanTheory {
   problemHash: string;
   instance: ProblemInstance;
+  /**
+   * x* and f* with their certificate; for a nonconvex objective (`reference` set) the end of the
+   * reference run instead: a reference point and loss, not an optimum.
+   */
   optimum: OptimumCertificate;
+  /** L, mu and the condition number are NaN where no such constant exists (nonconvex) */
   constants: GlobalConstants;
+  /** set for a nonconvex objective: how its reference was found (reference-run.ts) */
+  reference: ReferenceFacts | null;
+}
+
+/** What a reference run was: its budget and why it stopped. */
+export interface ReferenceFacts {
+  iterationsMax: number;
+  ending: ReferenceRun['ending'];
 }
 
 /** What only the theory report asks for. */
@@ -42,8 +57,11 @@ export interface TheoryDetails {
 /** An answer as a store keeps it; the condition number is derived again on reading. */
 export interface StoredTheory {
   optimum: { x: number[]; loss: number; gradientNorm: number; iterations: number };
-  constants: { smoothness: number; strongConvexity: number; heterogeneity: number };
+  /** L and mu null where there are none (a nonconvex objective) */
+  constants: { smoothness: number | null; strongConvexity: number | null; heterogeneity: number };
   details: TheoryDetails | null;
+  /** a nonconvex objective's reference run; absent for an optimum */
+  reference?: ReferenceFacts;
 }
 
 /**
@@ -91,10 +109,16 @@ function remember(theory: PlanTheory): void {
 function toStored(theory: PlanTheory, details: TheoryDetails | null): StoredTheory {
   const { x, loss, gradientNorm, iterations } = theory.optimum;
   const { smoothness, strongConvexity, heterogeneity } = theory.constants;
+  const orNull = (value: number) => (Number.isNaN(value) ? null : value);
   return {
     optimum: { x: Array.from(x), loss, gradientNorm, iterations },
-    constants: { smoothness, strongConvexity, heterogeneity },
+    constants: {
+      smoothness: orNull(smoothness),
+      strongConvexity: orNull(strongConvexity),
+      heterogeneity,
+    },
     details,
+    ...(theory.reference === null ? {} : { reference: theory.reference }),
   };
 }
 
@@ -123,9 +147,14 @@ function verified(
     return null;
   }
   const { smoothness, strongConvexity, heterogeneity } = entry.constants;
+  if (smoothness === null || strongConvexity === null || entry.reference !== undefined) {
+    store?.warn(`${where} is not an optimum; solving again`);
+    return null;
+  }
   return {
     problemHash,
     instance,
+    reference: null,
     optimum: {
       x,
       loss: instance.global.loss(x),
@@ -157,6 +186,7 @@ export function theoryOf(scenario: Scenario): PlanTheory {
   }
   const instance = buildProblemInstance(scenario);
   const stored = store?.read(problemHash, ORACLE_VERSION) ?? null;
+  if (scenario.problem.kind === 'perceptron') return referenceTheoryOf(scenario, instance, stored);
   const fromStore = stored && verified(problemHash, instance, stored);
   if (fromStore) {
     remember(fromStore);
@@ -170,10 +200,103 @@ export function theoryOf(scenario: Scenario): PlanTheory {
     instance,
     optimum,
     constants: globalConstants(globalOf(instance), optimum.x),
+    reference: null,
   };
   remember(theory);
   store?.write(problemHash, ORACLE_VERSION, toStored(theory, null));
   return theory;
+}
+
+/**
+ * A nonconvex objective's theory: the reference run from the run's own start (reference-run.ts),
+ * from the store when a stored one still holds (its loss recomputed at its point is the stored
+ * loss, bit for bit, since the objective is deterministic), else run here and stored.
+ */
+function referenceTheoryOf(
+  scenario: Scenario,
+  instance: ProblemInstance,
+  stored: StoredTheory | null,
+): PlanTheory {
+  const problemHash = problemHashOf(scenario);
+  const global = globalOf(instance);
+  const fromStore = stored && verifiedReference(problemHash, instance, stored);
+  let theory: PlanTheory;
+  if (fromStore) theory = fromStore;
+  else {
+    const start = initialModelOf({ scenario, dim: instance.dim });
+    const run = referenceRun(global, start);
+    theory = {
+      problemHash,
+      instance,
+      optimum: {
+        x: run.x,
+        loss: run.loss,
+        gradientNorm: run.gradientNorm,
+        iterations: run.iterations,
+      },
+      constants: referenceConstants(global, run.x),
+      reference: { iterationsMax: REFERENCE_ITERATIONS_MAX, ending: run.ending },
+    };
+    store?.write(problemHash, ORACLE_VERSION, toStored(theory, null));
+  }
+  remember(theory);
+  return theory;
+}
+
+function verifiedReference(
+  problemHash: string,
+  instance: ProblemInstance,
+  entry: StoredTheory,
+): PlanTheory | null {
+  const x = Float64Array.from(entry.optimum.x);
+  const where = `the cached reference run for problem ${problemHash.slice(0, 12)}`;
+  if (
+    entry.reference === undefined ||
+    entry.reference.iterationsMax !== REFERENCE_ITERATIONS_MAX ||
+    x.length !== instance.dim ||
+    !allFinite(x)
+  ) {
+    store?.warn(`${where} has the wrong shape or budget; running it again`);
+    return null;
+  }
+  const loss = instance.global.loss(x);
+  if (loss !== entry.optimum.loss) {
+    store?.warn(`${where} does not reproduce its loss; running it again`);
+    return null;
+  }
+  return {
+    problemHash,
+    instance,
+    optimum: {
+      x,
+      loss,
+      gradientNorm: entry.optimum.gradientNorm,
+      iterations: entry.optimum.iterations,
+    },
+    constants: referenceConstants(globalOf(instance), x),
+    reference: entry.reference,
+  };
+}
+
+/**
+ * A nonconvex objective has no L or mu over all x (NaN here: "none") and no x*; the heterogeneity
+ * is sum_i p_i ||grad f_i||^2 at the reference point, the same quantity measured there.
+ */
+function referenceConstants(global: WeightedSumObjective, x: Float64Array): GlobalConstants {
+  const gradient = new Float64Array(global.dim);
+  let heterogeneity = 0;
+  for (let i = 0; i < global.components.length; i++) {
+    if (global.weights[i] === 0) continue;
+    global.components[i].gradient(x, gradient);
+    const norm = norm2(gradient);
+    heterogeneity += global.weights[i] * norm * norm;
+  }
+  return {
+    smoothness: Number.NaN,
+    strongConvexity: Number.NaN,
+    conditionNumber: Number.NaN,
+    heterogeneity,
+  };
 }
 
 /** The details if this process or the store already has them. */
@@ -197,6 +320,9 @@ export function theoryDetailsOf(
     clients: clients ?? theory.instance.objectives.map((client) => clientConstants(client, x)),
   };
   detailCache.set(theory.problemHash, details);
-  store?.write(theory.problemHash, ORACLE_VERSION, toStored(theory, details));
+  // A perceptron's client bounds are infinite (no L_i, mu_i), which the store's JSON cannot
+  // hold: its details stay in this process and its stored entry keeps the reference alone.
+  if (theory.reference === null)
+    store?.write(theory.problemHash, ORACLE_VERSION, toStored(theory, details));
   return details;
 }
