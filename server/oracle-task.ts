@@ -68,7 +68,7 @@ function stateFor(instance: ProblemInstance): OracleThreadState {
     instance.global,
     data.optimum,
   );
-  return { data, instance, ahead: new TrajectoryAhead(trajectory, data.plan.scenario.run.rounds) };
+  return { data, instance, ahead: new TrajectoryAhead(trajectory, data.plan.scenario.run) };
 }
 
 /** Walks one round ahead when the thread has nothing else to do, and again after it. */

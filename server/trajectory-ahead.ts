@@ -1,26 +1,29 @@
-// The predicted trajectory (src/engine/predicted-trajectory.ts) walked a little ahead of the
-// rounds that ask for it. The ideal run depends on the plan alone, never on the measured run, so
-// the oracle thread can walk ideal round r + 1 while the workers compute round r + 1, instead of
-// after the coordinator asks for it: the two overlap on separate cores, and every value is the
-// one the walk gives in order. At most ROUNDS_AHEAD_MAX rounds past the last one asked are
-// walked, so that a run that stops early wastes little.
+// The predicted trajectory (src/engine/predicted-trajectory.ts) walked ahead of the rounds that
+// ask for it. The ideal run depends on the plan alone, never on the measured run, so the oracle
+// thread can walk the ideal rounds up to the next evaluated round while the workers compute
+// those rounds, instead of after the coordinator asks: the two overlap on separate cores, and
+// every value is the one the walk in order gives. Nothing past the next round the walk
+// evaluates (run.evalEvery) is walked ahead, so an evaluation never waits behind a round it does
+// not need, and a run that stops early wastes at most those rounds.
 
 import type { PredictedTrajectory } from '../src/engine/predicted-trajectory.js';
 
-/** Ideal rounds walked past the last round asked for: the next round's, and one spare. */
-export const ROUNDS_AHEAD_MAX = 2;
+/** The run's rounds and how often the walk evaluates (scenario.run). */
+export interface EvaluatedRounds {
+  rounds: number;
+  evalEvery: number;
+}
 
 export class TrajectoryAhead {
   private readonly trajectory: PredictedTrajectory;
-  private readonly roundsMax: number;
+  private readonly run: EvaluatedRounds;
   /** the predicted f - f* after 0, 1, ... rounds, as walked so far */
   private readonly values: (number | null)[] = [];
   private lastAsked = 0;
 
-  /** `roundsMax`: the run's rounds; nothing past them is walked ahead. */
-  constructor(trajectory: PredictedTrajectory, roundsMax: number) {
+  constructor(trajectory: PredictedTrajectory, run: EvaluatedRounds) {
     this.trajectory = trajectory;
-    this.roundsMax = roundsMax;
+    this.run = run;
   }
 
   /** Predicted f - f* after `round` rounds (PredictedTrajectory.at), walking up to it if needed. */
@@ -31,10 +34,15 @@ export class TrajectoryAhead {
     return this.values[round];
   }
 
-  /** Whether a round ahead is worth walking now. */
+  /** The round the walk evaluates next: the next multiple of evalEvery, or the run's last. */
+  nextAsked(): number {
+    const { rounds, evalEvery } = this.run;
+    return Math.min(rounds, (Math.floor(this.lastAsked / evalEvery) + 1) * evalEvery);
+  }
+
+  /** Whether a round up to the next evaluated one is still to walk. */
   hasWorkAhead(): boolean {
-    const next = this.values.length;
-    return next <= this.roundsMax && next <= this.lastAsked + ROUNDS_AHEAD_MAX;
+    return this.values.length <= this.nextAsked();
   }
 
   /** Walks the next round. */
