@@ -1,7 +1,10 @@
 // The clients a worker hosts. One client, or clients whose exchanges are light
-// (hosting-mode.ts), work on the worker's own thread; others work on a piscina pool
+// (hosting-mode.ts), work on the worker's own thread; others work on pool threads
 // (client-task.ts), each client's state passed to the task as a snapshot and taken back, so that
 // clients run in parallel while each stays bit for bit what it would be on one thread. A client's exchanges run strictly in the order its downs arrived.
+// Each client stays on one thread (thread-clients.ts): one single-thread piscina pool per
+// thread, given the plan and its clients once (workerData), which starts building its clients'
+// shards as soon as the host exists, before the first down arrives.
 
 import { performance } from 'node:perf_hooks';
 import { availableParallelism } from 'node:os';
@@ -17,11 +20,27 @@ import {
 import { methodByName } from '../src/algorithm/registry.js';
 import type { WirePlan } from '../src/engine/run-plan.js';
 import { clientObjective } from '../src/data/problem-instance.js';
-import { hashOf } from '../src/scenario/plan-hash.js';
 import { compiledModulePath } from '../runtime/compiled-module.js';
-import type { ClientTask, ClientTaskNonFinite, ClientTaskResult } from './client-task.js';
+import type {
+  ClientTask,
+  ClientTaskNonFinite,
+  ClientTaskResult,
+  ClientThreadData,
+} from './client-task.js';
 import { CodedError } from '../src/base/coded-error.js';
 import { hostsInline } from './hosting-mode.js';
+import { clientsByThread } from './thread-clients.js';
+
+type ClientPool = Piscina<
+  ClientTask | undefined,
+  ClientTaskResult | ClientTaskNonFinite | undefined
+>;
+
+/** A pool thread and the start of its clients' shards (prepareTask), which its tasks follow. */
+interface ClientThread {
+  pool: ClientPool;
+  prepared: Promise<unknown>;
+}
 
 export interface HostedWork {
   clientId: number;
@@ -48,16 +67,16 @@ export interface ClientHostOptions {
 
 export class ClientHost {
   private readonly plan: WirePlan;
-  private readonly planKey: string;
   private readonly inline: Map<number, ClientRuntime> | null;
-  private readonly pool: Piscina<ClientTask, ClientTaskResult | ClientTaskNonFinite> | null;
+  /** the thread each pooled client computes on */
+  private readonly threadOf = new Map<number, ClientThread>();
+  private readonly threads: ClientThread[] = [];
   private readonly snapshots = new Map<number, ClientRuntimeSnapshot | null>();
   /** each client's last queued work, so the next waits for it */
   private readonly queues = new Map<number, Promise<unknown>>();
 
   constructor(plan: WirePlan, clientIds: readonly number[], options: ClientHostOptions) {
     this.plan = plan;
-    this.planKey = hashOf(plan);
     const threads = Math.max(
       1,
       Math.min(clientIds.length, options.threadsMax, availableParallelism()),
@@ -69,14 +88,22 @@ export class ClientHost {
           new ClientRuntime(plan, id, clientObjective(plan.scenario, id)),
         ]),
       );
-      this.pool = null;
     } else {
       this.inline = null;
-      this.pool = new Piscina<ClientTask, ClientTaskResult | ClientTaskNonFinite>({
-        filename: compiledModulePath(import.meta.url, 'client-task.js'),
-        minThreads: threads,
-        maxThreads: threads,
-      });
+      for (const ids of clientsByThread(plan, clientIds, threads)) {
+        const threadData: ClientThreadData = { plan, clientIds: ids };
+        const pool: ClientPool = new Piscina({
+          filename: compiledModulePath(import.meta.url, 'client-task.js'),
+          minThreads: 1,
+          maxThreads: 1,
+          workerData: threadData,
+        });
+        const thread = { pool, prepared: pool.run(undefined, { name: 'prepareTask' }) };
+        // A failure to build a shard fails that thread's clients' work, which awaits it.
+        thread.prepared.catch(() => undefined);
+        this.threads.push(thread);
+        for (const id of ids) this.threadOf.set(id, thread);
+      }
       for (const id of clientIds) this.snapshots.set(id, null);
     }
   }
@@ -167,12 +194,14 @@ export class ClientHost {
         .work(job.round, job.exchange, job.encodedDown, job.localSteps, job.stepSize);
       return { ...result, measuredSeconds: (performance.now() - started) / 1000, queuedSeconds };
     }
-    const result = await this.pool!.run({
-      plan: this.plan,
-      planKey: this.planKey,
+    const thread = this.threadOf.get(job.clientId)!;
+    await thread.prepared;
+    const result = await thread.pool.run({
       snapshot: this.snapshots.get(job.clientId) ?? null,
       ...job,
     });
+    if (result === undefined)
+      throw new Error(`client ${job.clientId}: its thread answered nothing`);
     if ('nonFinite' in result) throw new CodedError('E_NOT_FINITE', result.nonFinite);
     this.snapshots.set(job.clientId, result.snapshot);
     return {
@@ -184,6 +213,6 @@ export class ClientHost {
   }
 
   async close(): Promise<void> {
-    await this.pool?.destroy();
+    await Promise.all(this.threads.map(({ pool }) => pool.destroy()));
   }
 }

@@ -1,8 +1,13 @@
 // One client's work as a piscina task: the client's state travels in as a snapshot and back
 // out as one, so that a worker hosting many clients computes them on several threads while
-// every client continues bit for bit. Objectives (the shards) are built once per thread.
+// every client continues bit for bit. Each thread serves a fixed set of clients
+// (thread-clients.ts): the plan and those clients' ids come once, as the pool's workerData
+// (ClientThreadData), and the thread builds each of its clients' shards once, all of them at
+// start (prepareTask, posted when the pool starts) so that building overlaps the coordinator's
+// own start; a task carries only the exchange.
 
 import { performance } from 'node:perf_hooks';
+import { workerData } from 'piscina';
 import {
   ClientRuntime,
   type ClientRuntimeSnapshot,
@@ -13,10 +18,14 @@ import type { Objective } from '../src/problem/objective.js';
 import { clientObjective } from '../src/data/problem-instance.js';
 import { isNonFiniteError } from '../src/base/coded-error.js';
 
-export interface ClientTask {
+/** What a client pool hands each of its threads once. */
+export interface ClientThreadData {
   plan: WirePlan;
-  /** identifies the plan for the thread's objective cache */
-  planKey: string;
+  /** the clients this thread computes, and no other */
+  clientIds: number[];
+}
+
+export interface ClientTask {
   clientId: number;
   /** null: the client's first exchange */
   snapshot: ClientRuntimeSnapshot | null;
@@ -43,24 +52,33 @@ export interface ClientTaskNonFinite {
   nonFinite: string;
 }
 
-/** Objectives kept per thread; a worker hosts at most its capacity's worth. */
-const OBJECTIVE_CACHE_ENTRIES_MAX = 1024;
-const objectives = new Map<string, Objective>();
+/** This thread's clients' objectives, built once each. */
+const objectives = new Map<number, Objective>();
 
-function objectiveFor(task: ClientTask): Objective {
-  const key = `${task.planKey}:${task.clientId}`;
-  let objective = objectives.get(key);
+function objectiveFor(clientId: number): Objective {
+  const { plan, clientIds } = workerData as ClientThreadData;
+  let objective = objectives.get(clientId);
   if (objective === undefined) {
-    objective = clientObjective(task.plan.scenario, task.clientId);
-    objectives.set(key, objective);
-    if (objectives.size > OBJECTIVE_CACHE_ENTRIES_MAX)
-      objectives.delete(objectives.keys().next().value as string);
+    if (!clientIds.includes(clientId))
+      throw new RangeError(`client ${clientId} is not computed on this thread`);
+    objective = clientObjective(plan.scenario, clientId);
+    objectives.set(clientId, objective);
   }
   return objective;
 }
 
-export default function clientTask(task: ClientTask): ClientTaskResult | ClientTaskNonFinite {
-  const runtime = new ClientRuntime(task.plan, task.clientId, objectiveFor(task));
+/** Builds every shard of this thread's clients. */
+export function prepareTask(): void {
+  for (const clientId of (workerData as ClientThreadData).clientIds) objectiveFor(clientId);
+}
+
+/** One exchange of one client from its snapshot: what a pool thread runs for a task. */
+export function runClientTask(
+  plan: WirePlan,
+  objective: Objective,
+  task: ClientTask,
+): ClientTaskResult | ClientTaskNonFinite {
+  const runtime = new ClientRuntime(plan, task.clientId, objective);
   if (task.snapshot !== null) runtime.restore(task.snapshot);
   const started = performance.now();
   let result;
@@ -83,4 +101,9 @@ export default function clientTask(task: ClientTask): ClientTaskResult | ClientT
     stepsTaken: result.stepsTaken,
     measuredSeconds,
   };
+}
+
+export default function clientTask(task: ClientTask): ClientTaskResult | ClientTaskNonFinite {
+  const { plan } = workerData as ClientThreadData;
+  return runClientTask(plan, objectiveFor(task.clientId), task);
 }

@@ -21,18 +21,21 @@ export const INLINE_EXCHANGE_FLOPS_MAX = 1e6;
 /** Flops of a gradient step over n samples in d dimensions: two passes of 2 n d (a product, a combination). */
 const FLOPS_PER_SAMPLE_ENTRY = 4;
 
-/** The most flops one exchange of any of `clientIds` may take: 4 n_i d tau_i, tau_i at its cap. */
-export function exchangeFlopsMax(plan: WirePlan, clientIds: readonly number[]): number {
+/** The most flops one exchange of each of `clientIds` may take: 4 n_i d tau_i, tau_i at its cap. */
+export function exchangeFlopsOf(plan: WirePlan, clientIds: readonly number[]): number[] {
   const { scenario } = plan;
   const samples = dataShape(scenario).samplesPerClient;
   const steps = localStepsFor(scenario.method.localSteps, scenario.clients.count, scenario.seed);
   const policy = scenario.timing.policy;
-  let most = 0;
-  for (const id of clientIds) {
+  return clientIds.map((id) => {
     const tau = policy.kind === 'deadline' ? policy.stepsMax : steps[id];
-    most = Math.max(most, FLOPS_PER_SAMPLE_ENTRY * samples[id] * plan.dim * tau);
-  }
-  return most;
+    return FLOPS_PER_SAMPLE_ENTRY * samples[id] * plan.dim * tau;
+  });
+}
+
+/** The most flops one exchange of any of `clientIds` may take. */
+export function exchangeFlopsMax(plan: WirePlan, clientIds: readonly number[]): number {
+  return exchangeFlopsOf(plan, clientIds).reduce((most, flops) => Math.max(most, flops), 0);
 }
 
 /** Whether the clients compute on the worker's own thread. */

@@ -182,7 +182,7 @@ export class Coordinator {
       workersMax: options.workersMax,
       maxClientsPerWorker: options.maxClientsPerWorker,
     });
-    this.oracle = new OraclePool(plan);
+    this.oracle = new OraclePool(plan, theory);
     const nowMs = () => performance.now();
     this.joinLimits = this.limitsFor(1);
     this.peerLog = new LogLimiter(options.log, CONNECTION_LIMITS.logIntervalSeconds, nowMs);

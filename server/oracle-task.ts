@@ -1,28 +1,46 @@
 // The oracle's work as piscina tasks, on pool threads so that a large problem never holds up the
 // coordinator's message handling or a single core:
-// - evaluateTask (default export): f(x) - f* and ||x - x*|| of a model, given x* and f* (the
-//   thread rebuilds the problem's data from the scenario once, and never solves it again), and
-//   the predicted trajectory's f - f* after as many rounds (src/engine/predicted-trajectory.ts),
-//   kept on the thread so that rounds asked in order cost one ideal round each;
+// - evaluateTask (default export): f(x) - f* and ||x - x*|| of a model, and the predicted
+//   trajectory's f - f* after as many rounds (src/engine/predicted-trajectory.ts). The plan and
+//   x*, f* come once, as the pool's workerData (OracleThreadData); the data comes once too, as the
+//   coordinator's own shards (prepareTask, posted when the pool starts), so that the thread never
+//   draws the data again. A thread that starts without them (piscina replaced it) rebuilds the
+//   data from the scenario: the same bytes either way. Between tasks the thread walks the
+//   trajectory ahead of the rounds (trajectory-ahead.ts);
 // - clientConstantsTask: the constants of a range of clients (their own minimizers included),
 //   given x*; the thread builds only those clients' shards.
 
+import { workerData } from 'piscina';
 import type { Scenario } from '../src/scenario/schema.js';
-import { buildProblemInstance, clientObjective } from '../src/data/problem-instance.js';
+import {
+  buildProblemInstance,
+  clientObjective,
+  problemInstanceOf,
+} from '../src/data/problem-instance.js';
 import type { ProblemInstance } from '../src/data/problem-instance.js';
-import { problemHashOf } from '../src/theory/plan-theory.js';
+import type { Shard } from '../src/problem/shard.js';
 import { clientConstants, type ClientConstants } from '../src/theory/constants.js';
 import { evaluateModel, type RoundEvaluation } from '../src/engine/evaluate.js';
 import { PredictedTrajectory } from '../src/engine/predicted-trajectory.js';
 import type { RunPlan } from '../src/engine/run-plan.js';
+import { TrajectoryAhead } from './trajectory-ahead.js';
+
+/** What an evaluating pool hands its thread once. */
+export interface OracleThreadData {
+  plan: RunPlan;
+  /** x* and f*, solved once by the process that owns the pool */
+  optimum: { x: Float64Array; loss: number };
+}
+
+/** The coordinator's shards, every client's in client order. */
+export interface OraclePrepareTask {
+  shards: Shard[];
+}
 
 export interface OracleTask {
-  plan: RunPlan;
   model: Float64Array;
   /** the rounds the model has been through (0: the initial model) */
   round: number;
-  /** x* and f*, solved once by the process that owns the pool */
-  optimum: { x: Float64Array; loss: number };
 }
 
 export interface ClientConstantsTask {
@@ -33,28 +51,53 @@ export interface ClientConstantsTask {
   to: number;
 }
 
-let instance: { problemHash: string; value: ProblemInstance } | null = null;
-
-function instanceOf(scenario: Scenario): ProblemInstance {
-  const problemHash = problemHashOf(scenario);
-  if (instance?.problemHash !== problemHash)
-    instance = { problemHash, value: buildProblemInstance(scenario) };
-  return instance.value;
+interface OracleThreadState {
+  data: OracleThreadData;
+  instance: ProblemInstance;
+  ahead: TrajectoryAhead;
 }
 
-let trajectory: { planHash: string; value: PredictedTrajectory } | null = null;
+let state: OracleThreadState | null = null;
+let walkScheduled = false;
+
+function stateFor(instance: ProblemInstance): OracleThreadState {
+  const data = workerData as OracleThreadData;
+  const trajectory = new PredictedTrajectory(
+    data.plan,
+    instance.objectives,
+    instance.global,
+    data.optimum,
+  );
+  return { data, instance, ahead: new TrajectoryAhead(trajectory, data.plan.scenario.run) };
+}
+
+/** Walks one round ahead when the thread has nothing else to do, and again after it. */
+function walkAheadWhenIdle(): void {
+  if (walkScheduled || state === null || !state.ahead.hasWorkAhead()) return;
+  walkScheduled = true;
+  setImmediate(() => {
+    walkScheduled = false;
+    if (state === null || !state.ahead.hasWorkAhead()) return;
+    state.ahead.walkOne();
+    walkAheadWhenIdle();
+  });
+}
+
+export function prepareTask(task: OraclePrepareTask): void {
+  const { plan } = workerData as OracleThreadData;
+  state = stateFor(problemInstanceOf(plan.scenario, task.shards));
+  walkAheadWhenIdle();
+}
 
 export default function evaluateTask(task: OracleTask): RoundEvaluation {
-  const { global, objectives } = instanceOf(task.plan.scenario);
-  if (trajectory?.planHash !== task.plan.planHash)
-    trajectory = {
-      planHash: task.plan.planHash,
-      value: new PredictedTrajectory(task.plan, objectives, global, task.optimum),
-    };
-  return {
-    ...evaluateModel(global, task.optimum.x, task.optimum.loss, task.model),
-    predictedSuboptimality: trajectory.value.at(task.round),
+  state ??= stateFor(buildProblemInstance((workerData as OracleThreadData).plan.scenario));
+  const { instance, data, ahead } = state;
+  const evaluation = {
+    ...evaluateModel(instance.global, data.optimum.x, data.optimum.loss, task.model),
+    predictedSuboptimality: ahead.at(task.round),
   };
+  walkAheadWhenIdle();
+  return evaluation;
 }
 
 export function clientConstantsTask(task: ClientConstantsTask): ClientConstants[] {

@@ -1,16 +1,19 @@
 // Every client's objective and weight for a scenario, built from the shards that the plan
 // determines. The testbed's oracle and the in-process engine see all clients; a worker builds
-// only the clients it hosts (clientObjective).
+// only the clients it hosts (clientObjective). A process handed the shards of an instance built
+// elsewhere (the coordinator's oracle thread) makes the same instance from them
+// (problemInstanceOf) instead of drawing the data again.
 
 import type { Scenario } from '../scenario/schema.js';
 import { buildAllShards, buildShard } from './build-shard.js';
 import { createObjective } from '../problem/create-objective.js';
-import type { Objective, ObjectiveSpec } from '../problem/objective.js';
+import type { ClientObjective, Objective, ObjectiveSpec } from '../problem/objective.js';
+import type { Shard } from '../problem/shard.js';
 import { WeightedSumObjective } from '../problem/weighted-sum.js';
 
 export interface ProblemInstance {
   dim: number;
-  objectives: Objective[];
+  objectives: ClientObjective[];
   /** p_i, summing to 1 */
   weights: Float64Array;
   sampleCounts: number[];
@@ -42,13 +45,19 @@ export function clientWeights(scenario: Scenario, sampleCounts: readonly number[
   return weights;
 }
 
-export function clientObjective(scenario: Scenario, clientId: number): Objective {
+export function clientObjective(scenario: Scenario, clientId: number): ClientObjective {
   return createObjective(objectiveSpecOf(scenario), buildShard(scenario, clientId));
 }
 
 export function buildProblemInstance(scenario: Scenario): ProblemInstance {
+  return problemInstanceOf(scenario, buildAllShards(scenario));
+}
+
+/** The instance of `scenario` over its shards (every client's, in client order). */
+export function problemInstanceOf(scenario: Scenario, shards: readonly Shard[]): ProblemInstance {
+  if (shards.length !== scenario.clients.count)
+    throw new RangeError(`${scenario.clients.count} shards expected, got ${shards.length}`);
   const spec = objectiveSpecOf(scenario);
-  const shards = buildAllShards(scenario);
   const objectives = shards.map((shard) => createObjective(spec, shard));
   const sampleCounts = shards.map((s) => s.sampleCount);
   const weights = clientWeights(scenario, sampleCounts);

@@ -4,12 +4,12 @@
 import type { Shard } from './shard.js';
 import { LeastSquaresObjective } from './least-squares.js';
 import { LogisticObjective } from './logistic.js';
-import type { Objective, ObjectiveSpec } from './objective.js';
+import type { ClientObjective, ObjectiveSpec } from './objective.js';
 import { PerceptronObjective } from './perceptron.js';
 import { ProblemError } from './problem-error.js';
 import { SoftmaxObjective } from './softmax.js';
 
-export function createObjective(spec: ObjectiveSpec, shard: Shard): Objective {
+export function createObjective(spec: ObjectiveSpec, shard: Shard): ClientObjective {
   switch (spec.kind) {
     case 'least-squares':
       return new LeastSquaresObjective(shard, spec.regularization);

@@ -9,12 +9,12 @@ import type { Shard } from './shard.js';
 import { axpy, normSquared, scale } from '../vec/kernels.js';
 import { RowMatrix } from '../vec/row-matrix.js';
 import { gramExtremeEigenvalues, rowGram, type GramExtremes } from './gram-spectrum.js';
-import type { Objective } from './objective.js';
+import type { ClientObjective } from './objective.js';
 import type { SymmetricOperator } from '../linalg/spectrum.js';
 import { assertLength } from './problem-error.js';
 import { checkBatch, checkRegularization, checkShard } from './shard-checks.js';
 
-export class LeastSquaresObjective implements Objective {
+export class LeastSquaresObjective implements ClientObjective {
   readonly kind = 'least-squares' as const;
   readonly dim: number;
   readonly sampleCount: number;

@@ -10,7 +10,7 @@ import type { Shard } from './shard.js';
 import { axpy, normSquared, scale } from '../vec/kernels.js';
 import { RowMatrix } from '../vec/row-matrix.js';
 import { gramLargestEigenvalue } from './gram-spectrum.js';
-import type { Objective } from './objective.js';
+import type { ClientObjective } from './objective.js';
 import type { SymmetricOperator } from '../linalg/spectrum.js';
 import { ProblemError, assertLength } from './problem-error.js';
 import { checkBatch, checkRegularization, checkShard } from './shard-checks.js';
@@ -27,12 +27,12 @@ export function sigmoid(z: number): number {
   return e / (1 + e);
 }
 
-export class LogisticObjective implements Objective {
+export class LogisticObjective implements ClientObjective {
   readonly kind = 'logistic' as const;
   readonly dim: number;
   readonly sampleCount: number;
   readonly regularization: number;
-  private readonly shard: Shard;
+  readonly shard: Shard;
   private readonly matrix: RowMatrix;
   /** per-sample scratch: scores a_s . x, then the weights of the rows */
   private readonly scores: Float64Array;

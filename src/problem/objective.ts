@@ -4,6 +4,7 @@
 
 import type { SymmetricOperator } from '../linalg/spectrum.js';
 import type { ActivationName } from './activation.js';
+import type { Shard } from './shard.js';
 
 export type ProblemKind = 'least-squares' | 'logistic' | 'softmax' | 'perceptron';
 
@@ -37,6 +38,15 @@ export interface Objective {
   smoothnessBound(): number;
   /** A lower bound on the smallest Hessian eigenvalue over all x (exact for least squares). */
   strongConvexityBound(): number;
+}
+
+/** One client's objective, over one shard. */
+export interface ClientObjective extends Objective {
+  /**
+   * The data as the objective holds it (in kernel memory, vec/row-matrix.ts): the same bytes as
+   * the shard it was built from, so that an objective built from a copy computes the same bits.
+   */
+  readonly shard: Shard;
 }
 
 export interface ObjectiveSpec {

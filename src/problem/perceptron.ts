@@ -22,7 +22,7 @@ import type { Shard } from './shard.js';
 import { axpy, normSquared, scale } from '../vec/kernels.js';
 import { RowMatrix } from '../vec/row-matrix.js';
 import { activationByName, type Activation, type ActivationName } from './activation.js';
-import type { Objective } from './objective.js';
+import type { ClientObjective } from './objective.js';
 import { perceptronLayout, type LayerSpan } from './perceptron-layout.js';
 import { ProblemError, assertLength } from './problem-error.js';
 import { checkBatch, checkRegularization, checkShard } from './shard-checks.js';
@@ -68,7 +68,7 @@ interface Workspace {
   } | null;
 }
 
-export class PerceptronObjective implements Objective {
+export class PerceptronObjective implements ClientObjective {
   readonly kind = 'perceptron' as const;
   readonly dim: number;
   readonly sampleCount: number;
@@ -78,6 +78,8 @@ export class PerceptronObjective implements Objective {
   readonly layers: readonly LayerSpan[];
   readonly activation: Activation;
   private readonly matrix: RowMatrix;
+  /** the data as this objective holds it (in kernel memory): the same bytes as its shard */
+  readonly shard: Shard;
   private readonly workspaces = new Map<number, Workspace>();
 
   constructor(shard: Shard, regularization: number, shape: PerceptronShape) {
@@ -109,6 +111,7 @@ export class PerceptronObjective implements Objective {
       shard.featureCount,
       shard.targets,
     );
+    this.shard = { ...shard, features: this.matrix.values, targets: this.matrix.rowValues };
     this.classCount = classCount;
     this.featureCount = shard.featureCount;
     this.sampleCount = shard.sampleCount;

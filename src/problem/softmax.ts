@@ -13,7 +13,7 @@ import type { Shard } from './shard.js';
 import { axpy, normSquared, scale } from '../vec/kernels.js';
 import { RowMatrix } from '../vec/row-matrix.js';
 import { gramLargestEigenvalue } from './gram-spectrum.js';
-import type { Objective } from './objective.js';
+import type { ClientObjective } from './objective.js';
 import type { SymmetricOperator } from '../linalg/spectrum.js';
 import { ProblemError, assertLength } from './problem-error.js';
 import { checkBatch, checkRegularization, checkShard } from './shard-checks.js';
@@ -21,14 +21,14 @@ import { checkBatch, checkRegularization, checkShard } from './shard-checks.js';
 /** Classes beyond this are a specification error, as in the scenario schema. */
 const CLASSES_MAX = 1000;
 
-export class SoftmaxObjective implements Objective {
+export class SoftmaxObjective implements ClientObjective {
   readonly kind = 'softmax' as const;
   readonly dim: number;
   readonly sampleCount: number;
   readonly regularization: number;
   readonly classCount: number;
   readonly featureCount: number;
-  private readonly shard: Shard;
+  readonly shard: Shard;
   /** Per-sample scratch (logits, then probabilities): one sample at a time. */
   private readonly logits: Float64Array;
   private readonly matrix: RowMatrix;

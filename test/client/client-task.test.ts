@@ -1,5 +1,5 @@
 // A client's state survives the trip to a pool thread and back: running every exchange through
-// clientTask (fresh runtime, restore the snapshot, work, snapshot again; the snapshot
+// runClientTask (fresh runtime, restore the snapshot, work, snapshot again; the snapshot
 // structured-cloned each way as worker_threads does) gives the very bits that one long-lived
 // ClientRuntime gives; and a ClientHost whose clients are heavy enough for its thread pool
 // computes the same bits through the real pool. SCAFFOLD keeps a control variate, and top-k with
@@ -7,7 +7,7 @@
 // matters.
 
 import { describe, expect, it } from 'vitest';
-import clientTask from '../../client/client-task.js';
+import { runClientTask } from '../../client/client-task.js';
 import { ClientHost } from '../../client/client-host.js';
 import { hostsInline } from '../../client/hosting-mode.js';
 import { ClientRuntime, type EncodedFields } from '../../src/engine/client-runtime.js';
@@ -39,14 +39,15 @@ describe('clientTask snapshots', () => {
     const server = new ServerRuntime(plan);
     const clientId = 3;
     const direct = new ClientRuntime(plan, clientId, clientObjective(scenario, clientId));
+    const objective = clientObjective(scenario, clientId);
     let snapshot = null;
     for (let round = 1; round <= 4; round++) {
       const encodedDown = server.encodeDown(clientId, round, 'local', server.broadcast('local'));
       const expected = direct.work(round, 'local', encodedDown, 5, plan.methodConfig.stepSize);
-      const result = clientTask(
+      const result = runClientTask(
+        structuredClone(plan),
+        objective,
         structuredClone({
-          plan,
-          planKey: plan.planHash,
           clientId,
           snapshot,
           round,
