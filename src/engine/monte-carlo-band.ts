@@ -52,6 +52,14 @@ export const BAND_VALUES_MAX = 2 ** 22;
  * method's state, and at this size the replicas take minutes on the 2-core machine.
  */
 export const BAND_STATE_ROUNDS_MAX = 2 ** 30;
+/**
+ * Most ideal rounds the replicas walk in all (replicas x rounds): the band is computed when the
+ * run ends, and every replica round costs about what a round of the run costs in process
+ * (measured: 0.7 ms a round on the quickstart with partial participation, so this limit is
+ * under a minute there). A longer run gets no band, with the reason, rather than an end that
+ * takes 32 times as long as the run.
+ */
+export const BAND_REPLICA_ROUNDS_MAX = 2 ** 16;
 /** Most points of each per-round series kept in the results (evenly thinned). */
 export const BAND_POINTS_MAX = 2048;
 /** The stationary part: this last share of the rounds. */
@@ -103,6 +111,8 @@ export function bandBlocker(scenario: Scenario, dim: number, replicas: number): 
   const rounds = scenario.run.rounds;
   if (replicas * (rounds + 1) > BAND_VALUES_MAX)
     return `${replicas} replicas x ${rounds + 1} rounds is above the limit of ${BAND_VALUES_MAX} values held`;
+  if (replicas * rounds > BAND_REPLICA_ROUNDS_MAX)
+    return `${replicas} replicas x ${rounds} rounds is above the limit of ${BAND_REPLICA_ROUNDS_MAX} ideal rounds walked for the band`;
   const entries = roundMapStateEntries(scenario, dim);
   if (entries * replicas * rounds > BAND_STATE_ROUNDS_MAX)
     return `${entries} state entries x ${replicas} replicas x ${rounds} rounds is above the limit of ${BAND_STATE_ROUNDS_MAX}`;

@@ -10,6 +10,7 @@ import { planFor, runInProcess } from '../../src/engine/in-process-engine.js';
 import {
   bandBlocker,
   BAND_REPLICAS_MAX,
+  BAND_REPLICA_ROUNDS_MAX,
   BAND_VALUES_MAX,
   monteCarloBand,
   replicaSeed,
@@ -138,6 +139,10 @@ describe('limits and seeds', () => {
     expect(bandBlocker(random, 4, 2)).toMatch(/replicas must be/);
     const long = scenarioOf(7, minibatchGd, Math.ceil(BAND_VALUES_MAX / 32));
     expect(bandBlocker(long, 4, 32)).toMatch(/values held/);
+    const walked = scenarioOf(7, minibatchGd, BAND_REPLICA_ROUNDS_MAX / 32 + 1);
+    expect(bandBlocker(walked, 4, 32)).toMatch(/ideal rounds walked for the band/);
+    const justWithin = scenarioOf(7, minibatchGd, BAND_REPLICA_ROUNDS_MAX / 32);
+    expect(bandBlocker(justWithin, 4, 32)).toBeNull();
   });
 
   it('derives distinct replica seeds, none the plan seed', () => {
