@@ -1,6 +1,7 @@
 // The composition root: the command line (commander) wires the core, the coordinator and the
 // worker together. The only file in src/ that may import server/ or client/.
 
+import { gapIsToReference } from './report/gap-name.js';
 import { Command, CommanderError, InvalidArgumentError, Option } from 'commander';
 import { writeFileSync } from 'node:fs';
 import { loadScenarioFile } from './scenario/load-scenario.js';
@@ -206,6 +207,7 @@ function buildProgram(io: Io): Command {
         const progress = new ProgressLine(
           { write: io.err, isTTY: process.stderr.isTTY === true },
           scenario.run.rounds,
+          gapIsToReference(scenario.problem.kind),
         );
         if (!opts.inProcess) {
           const result = await runDistributed(
@@ -334,6 +336,7 @@ function buildProgram(io: Io): Command {
         const progress = new ProgressLine(
           { write: io.err, isTTY: process.stderr.isTTY === true },
           scenario.run.rounds,
+          gapIsToReference(scenario.problem.kind),
         );
         const result = await runCoordinatorCommand(
           scenario,
@@ -398,6 +401,7 @@ function buildProgram(io: Io): Command {
         const progress = new ProgressLine(
           { write: io.err, isTTY: process.stderr.isTTY === true },
           scenario.run.rounds,
+          gapIsToReference(scenario.problem.kind),
         );
         io.err(`resuming ${dir} after round ${checkpoint.state.round}\n`);
         const onRound = (r: RoundRecord) => progress.update(r);

@@ -2,6 +2,7 @@
 // each ladder, each run with the same seed, speeds and links into its own results folder (with
 // report.html), then one table, compare.html, compare.csv and compare.json.
 
+import { gapName } from '../report/gap-name.js';
 import { mkdirSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { readScenarioDocument, scenarioFromDocument } from '../scenario/load-scenario.js';
@@ -154,7 +155,7 @@ export async function runComparison(
     writeFileSync(join(dir, reportFileName), await buildRunReport(results));
     const s = results.summary;
     io.err(
-      `variant ${planned.variant.index + 1}/${plan.variants.length} ${planned.variant.label}: ${s.rounds} rounds (${s.stopReason}), f-f* ${formatNumber(s.suboptimality.final)}\n`,
+      `variant ${planned.variant.index + 1}/${plan.variants.length} ${planned.variant.label}: ${s.rounds} rounds (${s.stopReason}), ${gapName(s.theory.reference !== null, true)} ${formatNumber(s.suboptimality.final)}\n`,
     );
     outcomes.push({ variant: planned.variant, summary: s, rounds: results.rounds });
   }

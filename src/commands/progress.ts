@@ -4,6 +4,7 @@
 
 import type { RoundRecord } from '../engine/round-record.js';
 import { formatNumber } from '../report/text-table.js';
+import { gapName } from '../report/gap-name.js';
 
 export interface ProgressSink {
   write(text: string): void;
@@ -31,10 +32,13 @@ export class ProgressLine {
   /** TTY: redraw at most this often, so that fast runs do not flood the terminal */
   private readonly redrawIntervalSeconds = 0.1;
   private lastDrawWallSeconds = -Infinity;
+  /** "f-f*", or "f-f_ref" where the gap is to a reference run's loss (gap-name.ts) */
+  private readonly gapLabel: string;
 
-  constructor(sink: ProgressSink, roundsMax: number) {
+  constructor(sink: ProgressSink, roundsMax: number, gapToReference = false) {
     this.sink = sink;
     this.roundsMax = roundsMax;
+    this.gapLabel = gapName(gapToReference, true);
   }
 
   update(record: RoundRecord): void {
@@ -42,7 +46,7 @@ export class ProgressLine {
     if (record.suboptimality !== null) this.lastSuboptimality = record.suboptimality;
     const perRound = record.round > 0 ? record.wallSeconds / record.round : 0;
     const etaSeconds = perRound * (this.roundsMax - record.round);
-    const text = `round ${record.round}/${this.roundsMax}  f-f* ${formatNumber(this.lastSuboptimality)}  payload ${formatBytes(this.bytesTotal)}  virtual ${formatNumber(record.virtualSeconds)} s  eta ${etaSeconds.toFixed(1)} s`;
+    const text = `round ${record.round}/${this.roundsMax}  ${this.gapLabel} ${formatNumber(this.lastSuboptimality)}  payload ${formatBytes(this.bytesTotal)}  virtual ${formatNumber(record.virtualSeconds)} s  eta ${etaSeconds.toFixed(1)} s`;
     if (this.sink.isTTY) {
       if (
         record.wallSeconds - this.lastDrawWallSeconds < this.redrawIntervalSeconds &&

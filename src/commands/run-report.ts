@@ -1,6 +1,7 @@
 // The end of a run, whichever runtime ran it: the prediction, outcome.json and the rest of the
 // results folder, and the final table a person reads.
 
+import { gapName } from '../report/gap-name.js';
 import type { Scenario } from '../scenario/schema.js';
 import type { RoundRecord } from '../engine/round-record.js';
 import type { RunOutcome, RunSummary } from '../engine/run-summary.js';
@@ -77,7 +78,7 @@ function windowLine(a: RunSummary['rate']['asymptotic']): string {
 
 export function formatRunSummary(s: RunSummary, outDir: string): string {
   const rows: (string | number | null)[][] = [
-    ['f - f*', s.suboptimality.initial, s.suboptimality.final, null],
+    [gapName(s.theory.reference !== null), s.suboptimality.initial, s.suboptimality.final, null],
     [
       s.prediction.kind === 'local'
         ? 'rate per round, straight fit (predicted: local, near the limit)'

@@ -4,6 +4,7 @@
 // bounds. A run with random rounds has a predicted band instead of a predicted line
 // (band-series.ts), drawn behind its curve.
 
+import { gapName } from './gap-name.js';
 import type { RunSummary } from '../engine/run-summary.js';
 import { formatNumber } from './text-table.js';
 import {
@@ -64,9 +65,10 @@ function windowRows(s: RunSummary): TableCell[][] {
 }
 
 function summaryRows(s: RunSummary): TableCell[][] {
+  const gap = gapName(s.theory.reference !== null);
   return [
-    ['f(x) - f*, initial', s.suboptimality.initial, null],
-    ['f(x) - f*, final', s.suboptimality.final, null],
+    [`${gap}, initial`, s.suboptimality.initial, null],
+    [`${gap}, final`, s.suboptimality.final, null],
     [
       s.prediction.kind === 'local'
         ? 'rate per round, straight fit (predicted: local, near the limit)'

@@ -4,8 +4,8 @@
 // measured rate agrees with the predicted asymptotic rate to <= 0.05; where it does not, the
 // status says so. Both branches must occur among the runs.
 
-import { readdirSync } from 'node:fs';
 import { describe, expect, it } from 'vitest';
+import { bundledLeastSquaresScenarios } from '../support/bundled-scenarios.js';
 import { loadScenarioFile } from '../../src/scenario/load-scenario.js';
 import { runInProcess } from '../../src/engine/in-process-engine.js';
 import { predictRun } from '../../src/engine/predict-run.js';
@@ -17,22 +17,7 @@ const METHODS = ['gd', 'fedavg', 'fedprox', 'fednova', 'scaffold', 'fedlin', 'fe
 const SAME_WINDOW = 0.01;
 const ASYMPTOTIC = 0.05;
 
-/**
- * wide-least-squares.yaml (d = 20,000) is a scale demonstration: a run of it takes minutes, its
- * state is past the prediction's limit, so it has no eigenvalues to place a window with.
- */
-const DIMENSION_MAX = 1000;
-
-const leastSquaresScenarios = readdirSync('scenarios')
-  .filter((file) => file.endsWith('.yaml'))
-  .map((file) => `scenarios/${file}`)
-  .filter((path) => {
-    const scenario = loadScenarioFile(path);
-    return (
-      scenario.problem.kind === 'least-squares' &&
-      (scenario.data.source !== 'synthetic' || scenario.data.features <= DIMENSION_MAX)
-    );
-  });
+const leastSquaresScenarios = bundledLeastSquaresScenarios();
 
 const logRatio = (rate: number, reference: number) =>
   Math.abs(Math.log(rate) / Math.log(reference) - 1);

@@ -7,9 +7,9 @@
 // against the iteration x_{k+1} = x_k - eta (A^T A x_k - A^T b) / n written out with ml-matrix
 // (the reference library for linear algebra).
 
-import { readdirSync } from 'node:fs';
 import { Matrix } from 'ml-matrix';
 import { describe, expect, it } from 'vitest';
+import { bundledLeastSquaresScenarios } from '../support/bundled-scenarios.js';
 import { loadScenarioFile, scenarioFromText } from '../../src/scenario/load-scenario.js';
 import { runInProcess, planFor } from '../../src/engine/in-process-engine.js';
 import { PredictedTrajectory } from '../../src/engine/predicted-trajectory.js';
@@ -34,22 +34,7 @@ function recordsOf(path: string, tweaks: string[]): RoundRecord[] {
   return records;
 }
 
-/**
- * Scale demonstrations (d = 20,000 in wide-least-squares.yaml) take minutes a run: their ideal
- * run is the same code, walked here on the demonstration scenarios of ordinary size.
- */
-const DIMENSION_MAX = 1000;
-
-const leastSquaresScenarios = readdirSync('scenarios')
-  .filter((file) => file.endsWith('.yaml'))
-  .map((file) => `scenarios/${file}`)
-  .filter((path) => {
-    const scenario = loadScenarioFile(path);
-    return (
-      scenario.problem.kind === 'least-squares' &&
-      (scenario.data.source !== 'synthetic' || scenario.data.features <= DIMENSION_MAX)
-    );
-  });
+const leastSquaresScenarios = bundledLeastSquaresScenarios();
 
 describe('the predicted trajectory with nothing injected', () => {
   it('covers every bundled least-squares scenario', () => {
