@@ -26,7 +26,12 @@ const headerSchema = z.strictObject({
 });
 
 const finite = z.number().finite();
-const curvature = z.strictObject({ smallest: finite, largest: finite });
+// converged: absent in entries written before it was recorded, which all had converged.
+const curvature = z.strictObject({
+  smallest: finite,
+  largest: finite,
+  converged: z.boolean().default(true),
+});
 const bodySchema = z.strictObject({
   optimum: z.strictObject({
     x: z.array(finite).min(1),

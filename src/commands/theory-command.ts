@@ -30,7 +30,7 @@ export interface TheoryReport {
   smoothness: number;
   strongConvexity: number;
   conditionNumber: number;
-  hessianAtOptimum: { smallest: number; largest: number };
+  hessianAtOptimum: { smallest: number; largest: number; converged: boolean };
   heterogeneity: number;
   /** x* in full, so that another tool can compare against it */
   optimum: { loss: number; gradientNorm: number; iterations: number; x: number[] };
@@ -130,6 +130,9 @@ export function formatTheoryReport(r: TheoryReport): string {
   const nonconvex = r.problem === 'perceptron';
   const exact = nonconvex ? 'none: nonconvex' : r.problem === 'least-squares' ? 'exact' : 'bound';
   const at = nonconvex ? 'x_ref' : 'x*';
+  const curvatureNote = r.hessianAtOptimum.converged
+    ? 'Lanczos'
+    : 'Lanczos estimate: not converged within its step cap';
   const title = `${r.scenario} (problem ${r.problemHash.slice(0, 12)}): ${r.problem}, dimension ${r.dimension}, ${r.clientCount} clients, ${r.sampleCount} samples`;
   const summary = formatTable(
     ['quantity', 'value', 'note'],
@@ -137,8 +140,8 @@ export function formatTheoryReport(r: TheoryReport): string {
       ['smoothness L', r.smoothness, exact],
       ['strong convexity mu', r.strongConvexity, exact],
       ['condition number L/mu', r.conditionNumber, exact],
-      [`Hessian at ${at}: smallest`, r.hessianAtOptimum.smallest, 'Lanczos'],
-      [`Hessian at ${at}: largest`, r.hessianAtOptimum.largest, 'Lanczos'],
+      [`Hessian at ${at}: smallest`, r.hessianAtOptimum.smallest, curvatureNote],
+      [`Hessian at ${at}: largest`, r.hessianAtOptimum.largest, curvatureNote],
       [
         `heterogeneity sum p_i |grad f_i(${at})|^2`,
         r.heterogeneity,

@@ -19,6 +19,13 @@ export interface ExtremeEigenvalues {
   largest: number;
   /** Lanczos steps taken (operator applications) */
   iterations: number;
+  /**
+   * false only with `whenUnconverged: 'estimate'`: the step cap came first, and smallest and
+   * largest are the last Ritz values, which lie inside the spectrum (Cauchy interlacing: the
+   * smallest Ritz value is >= the smallest eigenvalue, the largest <= the largest) but are not
+   * yet accurate to the tolerance
+   */
+  converged: boolean;
 }
 
 export interface LanczosOptions {
@@ -28,6 +35,12 @@ export interface LanczosOptions {
   iterationsMax?: number;
   /** Seed of the starting vector (default fixed, so that results repeat). */
   seed?: number;
+  /**
+   * At the step cap: 'throw' (default) refuses, since a Ritz value that has not converged is not
+   * a bound; 'estimate' returns the last Ritz values marked `converged: false`, for a report
+   * that shows them as estimates.
+   */
+  whenUnconverged?: 'throw' | 'estimate';
 }
 
 const EPSILON = Number.EPSILON;
@@ -268,8 +281,20 @@ function lanczosExtremes(
     // An invariant subspace (beta at rounding level) or a full basis makes the Ritz values exact.
     const exhausted = step + 1 === dim || beta <= dim * EPSILON * normEstimate;
     if (exhausted || isConverged(ritz, relativeTolerance, wanted)) {
-      return { smallest: ritz.smallest, largest: ritz.largest, iterations: step + 1 };
+      return {
+        smallest: ritz.smallest,
+        largest: ritz.largest,
+        iterations: step + 1,
+        converged: true,
+      };
     }
+    if (step + 1 === stepsMax && options.whenUnconverged === 'estimate')
+      return {
+        smallest: ritz.smallest,
+        largest: ritz.largest,
+        iterations: stepsMax,
+        converged: false,
+      };
     scale(1 / beta, w);
     q = w;
   }
@@ -299,5 +324,5 @@ export function semidefiniteExtremeEigenvalues(
     );
   }
   const smallest = result.smallest <= roundingLevel ? 0 : result.smallest;
-  return { smallest, largest: result.largest, iterations: result.iterations };
+  return { ...result, smallest };
 }

@@ -5,6 +5,7 @@ import { mkdtempSync, readFileSync, readdirSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { runCli } from './run-cli.js';
+import { formatTheoryReport } from '../../src/commands/theory-command.js';
 
 describe('roundwire theory', () => {
   it('prints the constants as JSON with the required keys', async () => {
@@ -20,6 +21,14 @@ describe('roundwire theory', () => {
     expect(report.bounds).toHaveLength(1);
     expect(report.bounds[0]).toMatchObject({ method: 'fedlin', status: 'left-out' });
     expect(report.bounds[0].source).toContain('FedLin (NeurIPS 2021)');
+    expect(report.hessianAtOptimum.converged).toBe(true);
+    // The table marks curvature that Lanczos left unconverged as an estimate.
+    expect(formatTheoryReport(report)).not.toContain('not converged');
+    const estimated = formatTheoryReport({
+      ...report,
+      hessianAtOptimum: { ...report.hessianAtOptimum, converged: false },
+    });
+    expect(estimated).toContain('Lanczos estimate: not converged within its step cap');
   });
 
   it('prints a readable table by default', async () => {

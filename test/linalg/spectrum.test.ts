@@ -138,4 +138,26 @@ describe('extremeEigenvalues (Lanczos with full reorthogonalization)', () => {
       'E_LINALG_NOT_CONVERGED',
     );
   });
+
+  it('returns unconverged Ritz values as estimates only when asked, inside the spectrum', () => {
+    const m = randomSymmetric(Rng.fromSeed(6), 50);
+    const exact = new EigenvalueDecomposition(m).realEigenvalues;
+    const trueSmallest = Math.min(...exact);
+    const trueLargest = Math.max(...exact);
+    const estimate = extremeEigenvalues(denseOperator(m), 50, {
+      iterationsMax: 3,
+      whenUnconverged: 'estimate',
+    });
+    expect(estimate.converged).toBe(false);
+    expect(estimate.iterations).toBe(3);
+    // Cauchy interlacing (Parlett, The Symmetric Eigenvalue Problem, section 10.1): Ritz values
+    // lie between the extreme eigenvalues; after 3 steps of 50 they are still well inside.
+    expect(estimate.smallest).toBeGreaterThanOrEqual(trueSmallest);
+    expect(estimate.largest).toBeLessThanOrEqual(trueLargest);
+    expect(relative(estimate.largest, trueLargest)).toBeGreaterThan(1e-6);
+    const converged = extremeEigenvalues(denseOperator(m), 50, { whenUnconverged: 'estimate' });
+    expect(converged.converged).toBe(true);
+    expect(relative(converged.largest, trueLargest)).toBeLessThan(1e-10);
+    expect(relative(converged.smallest, trueSmallest)).toBeLessThan(1e-10);
+  });
 });
