@@ -1,14 +1,22 @@
 // The spectral radius of a linear operator known only through products, on the range of I - M
-// (the directions that move; see predict-rate.ts on conserved quantities), by the same restarted
-// Arnoldi iteration that predictRate runs on an affine map's linear part. The local prediction
+// (the directions that move; see predict-rate.ts on conserved quantities), by restarted Arnoldi.
+// predictRate runs it on an affine map's linear part; the local prediction
 // of a smooth objective hands it the round map's Jacobian at the fixed point, whose products are
 // exact (tangent rounds), so no differences of map applications are taken here.
 
 import { Rng } from '../base/rng.js';
 import { dominantEigenvalue } from '../linalg/arnoldi.js';
 import type { LinearOperator } from '../linalg/linear-operator.js';
-import type { DominantKind } from './predict-rate.js';
 import { TheoryError } from './theory-error.js';
+
+/** Which eigenvalue the spectral radius comes from. */
+export type DominantKind =
+  /** a real eigenvalue of largest modulus (of a +-r pair, either one) */
+  | 'real'
+  /** a complex-conjugate pair */
+  | 'pair'
+  /** the budget ran out first: the dominant Ritz value so far, not converged */
+  | 'unsettled';
 
 export interface OperatorRateOptions {
   /** products with the operator at most, the filtering ones included (default 2000) */
@@ -28,6 +36,8 @@ export interface OperatorRate {
   subdominantModulus: number | null;
   /** that Ritz pair's residual, relative to the spectral radius (null with it) */
   subdominantRelativeResidual: number | null;
+  /** Arnoldi steps */
+  iterations: number;
   /** products with the operator */
   products: number;
   converged: boolean;
@@ -68,6 +78,7 @@ export function operatorSpectralRadius(
     subdominantModulus: eigenvalue.subdominant?.modulus ?? null,
     subdominantRelativeResidual:
       eigenvalue.subdominant === null ? null : rho > 0 ? eigenvalue.subdominant.residual / rho : 0,
+    iterations: eigenvalue.steps,
     products: eigenvalue.products,
     converged: eigenvalue.converged,
     dominant: !eigenvalue.converged ? 'unsettled' : eigenvalue.imaginary === 0 ? 'real' : 'pair',

@@ -17,9 +17,8 @@
 // whose eigenvalues cluster just below the dominant one, takes thousands of rounds; a Krylov
 // space of a few dozen vectors separates such a cluster in tens of rounds.
 
-import { Rng } from '../base/rng.js';
-import { dominantEigenvalue } from '../linalg/arnoldi.js';
 import { linearPart, type RoundMap } from './affine-map.js';
+import { operatorSpectralRadius, type DominantKind } from './operator-rate.js';
 import type { LinearOperator } from '../linalg/linear-operator.js';
 import { TheoryError } from './theory-error.js';
 
@@ -36,14 +35,7 @@ export interface PredictRateOptions {
   probeNorm?: number;
 }
 
-/** Which eigenvalue the spectral radius comes from. */
-export type DominantKind =
-  /** a real eigenvalue of largest modulus (of a +-r pair, either one) */
-  | 'real'
-  /** a complex-conjugate pair */
-  | 'pair'
-  /** the budget ran out first: the dominant Ritz value so far, not converged */
-  | 'unsettled';
+export type { DominantKind } from './operator-rate.js';
 
 export interface RatePrediction {
   /** rho(M) on the range of I - M: the per-round contraction of the state's error */
@@ -102,26 +94,21 @@ export function predictRate(
     applications++;
     return linear(v);
   };
-  const rng = Rng.fromSeed(options.seed ?? DEFAULT_SEED);
-  const start = new Float64Array(dim);
-  for (let j = 0; j < dim; j++) start[j] = rng.normal();
-  const eigenvalue = dominantEigenvalue(counted, start, {
-    movingOnly: true,
+  const rate = operatorSpectralRadius(counted, dim, {
     productsMax: mapApplicationsMax - 1,
+    seed: options.seed ?? DEFAULT_SEED,
     ...(options.krylovDimension === undefined ? {} : { krylovDimension: options.krylovDimension }),
     ...(options.tolerance === undefined ? {} : { tolerance: options.tolerance }),
   });
-  const rho = eigenvalue.modulus;
   return {
-    spectralRadius: rho,
-    perRoundRate: rho * rho,
-    iterations: eigenvalue.steps,
+    spectralRadius: rate.spectralRadius,
+    perRoundRate: rate.spectralRadius * rate.spectralRadius,
+    iterations: rate.iterations,
     mapApplications: applications,
-    converged: eigenvalue.converged,
-    dominant: !eigenvalue.converged ? 'unsettled' : eigenvalue.imaginary === 0 ? 'real' : 'pair',
-    relativeResidual: rho > 0 ? eigenvalue.residual / rho : 0,
-    subdominantModulus: eigenvalue.subdominant?.modulus ?? null,
-    subdominantRelativeResidual:
-      eigenvalue.subdominant === null ? null : rho > 0 ? eigenvalue.subdominant.residual / rho : 0,
+    converged: rate.converged,
+    dominant: rate.dominant,
+    relativeResidual: rate.relativeResidual,
+    subdominantModulus: rate.subdominantModulus,
+    subdominantRelativeResidual: rate.subdominantRelativeResidual,
   };
 }
