@@ -49,14 +49,16 @@ export function linearizationBlocker(plan: Pick<RunPlan, 'scenario' | 'dim'>): s
   return null;
 }
 
-/** Records the point of every full-gradient call, in call order. */
-class RecordingObjective implements Objective {
+/**
+ * An objective standing in for `base` during a walk of the round map: its shape and curvature
+ * bounds are base's; the linearized map is defined for full gradients only.
+ */
+abstract class StandInObjective implements Objective {
   readonly kind: Objective['kind'];
   readonly dim: number;
   readonly sampleCount: number;
   readonly regularization: number;
-  readonly points: Float64Array[] = [];
-  private readonly base: Objective;
+  protected readonly base: Objective;
 
   constructor(base: Objective) {
     this.base = base;
@@ -66,18 +68,11 @@ class RecordingObjective implements Objective {
     this.regularization = base.regularization;
   }
 
-  loss(x: Float64Array): number {
-    return this.base.loss(x);
-  }
-  gradient(x: Float64Array, out: Float64Array): void {
-    this.points.push(Float64Array.from(x));
-    this.base.gradient(x, out);
-  }
+  abstract loss(x: Float64Array): number;
+  abstract gradient(x: Float64Array, out: Float64Array): void;
+  abstract hessianVector(x: Float64Array, v: Float64Array, out: Float64Array): void;
   minibatchGradient(): void {
     throw new Error('the linearized round map is defined for full gradients only');
-  }
-  hessianVector(x: Float64Array, v: Float64Array, out: Float64Array): void {
-    this.base.hessianVector(x, v, out);
   }
   smoothnessBound(): number {
     return this.base.smoothnessBound();
@@ -87,24 +82,27 @@ class RecordingObjective implements Objective {
   }
 }
 
+/** Records the point of every full-gradient call, in call order. */
+class RecordingObjective extends StandInObjective {
+  readonly points: Float64Array[] = [];
+
+  loss(x: Float64Array): number {
+    return this.base.loss(x);
+  }
+  gradient(x: Float64Array, out: Float64Array): void {
+    this.points.push(Float64Array.from(x));
+    this.base.gradient(x, out);
+  }
+  hessianVector(x: Float64Array, v: Float64Array, out: Float64Array): void {
+    this.base.hessianVector(x, v, out);
+  }
+}
+
 /** Its k-th gradient call returns H(x_k) times its argument, x_k the primal round's k-th point. */
-class TangentObjective implements Objective {
-  readonly kind: Objective['kind'];
-  readonly dim: number;
-  readonly sampleCount: number;
-  readonly regularization: number;
-  private readonly base: Objective;
+class TangentObjective extends StandInObjective {
   private points: readonly Float64Array[] = [];
   private operators: (SymmetricOperator | undefined)[] = [];
   private calls = 0;
-
-  constructor(base: Objective) {
-    this.base = base;
-    this.kind = base.kind;
-    this.dim = base.dim;
-    this.sampleCount = base.sampleCount;
-    this.regularization = base.regularization;
-  }
 
   /** Linearize around these points from now on. */
   linearizeAt(points: readonly Float64Array[]): void {
@@ -139,17 +137,8 @@ class TangentObjective implements Objective {
     }
     operator(v, out);
   }
-  minibatchGradient(): void {
-    throw new Error('the linearized round map is defined for full gradients only');
-  }
   hessianVector(): void {
     throw new Error('a tangent objective has no Hessian of its own');
-  }
-  smoothnessBound(): number {
-    return this.base.smoothnessBound();
-  }
-  strongConvexityBound(): number {
-    return this.base.strongConvexityBound();
   }
 }
 
