@@ -1,8 +1,7 @@
 // Vega-Lite to SVG text in Node, with no browser and no canvas: Vega's headless view renders
 // the scenegraph to an SVG string. The result is made safe to inline several times in one page.
 
-import * as vega from 'vega';
-import { compile, type TopLevelSpec } from 'vega-lite';
+import type { TopLevelSpec } from 'vega-lite';
 
 /**
  * Prepares a standalone SVG for inlining in HTML: the namespace declarations go (the HTML parser
@@ -25,6 +24,9 @@ export function inlineSvg(svg: string, idPrefix: string): string {
 
 /** Renders a Vega-Lite spec to SVG text; the same spec gives the same text. */
 export async function renderSvg(spec: TopLevelSpec, idPrefix: string): Promise<string> {
+  // Loaded on first use: the two packages take about 0.5 s to import, which every coordinator and
+  // worker process would otherwise pay at start although only a report renders charts.
+  const [vega, { compile }] = await Promise.all([import('vega'), import('vega-lite')]);
   const view = new vega.View(vega.parse(compile(spec).spec), {
     renderer: 'none',
     logLevel: vega.Error,

@@ -127,10 +127,24 @@ async function freePort(): Promise<number> {
   return port;
 }
 
-describe('kill -9, then roundwire resume', () => {
-  it(`run with local workers, killed after round ${killRounds[0]}, resumes to the uninterrupted run bit for bit`, async () => {
+let uninterruptedRun: Promise<string> | undefined;
+
+/**
+ * The uninterrupted run with local workers, which both kill -9 tests of a distributed run end
+ * on: run once, on first use, and shared (it is the same command both times).
+ */
+function distributedReference(): Promise<string> {
+  uninterruptedRun ??= (async () => {
     const reference = freshDir('resume-ref');
     await completed(['run', ...scenarioArgs(), '--out', reference], 90_000);
+    return reference;
+  })();
+  return uninterruptedRun;
+}
+
+describe('kill -9, then roundwire resume', () => {
+  it(`run with local workers, killed after round ${killRounds[0]}, resumes to the uninterrupted run bit for bit`, async () => {
+    const reference = await distributedReference();
     const dir = freshDir('resume-killed');
     const workers = await killedAfter(['run', ...scenarioArgs(), '--out', dir], killRounds[0]);
     expect(workers).toHaveLength(2);
@@ -165,8 +179,7 @@ describe('kill -9, then roundwire resume', () => {
 
 describe('kill -9 of a coordinator whose workers survive', () => {
   it(`the workers wait, rejoin the resumed coordinator and the run ends as the uninterrupted one`, async () => {
-    const reference = freshDir('resume-coord-ref');
-    await completed(['run', ...scenarioArgs(), '--out', reference], 90_000);
+    const reference = await distributedReference();
     const dir = freshDir('resume-coord');
     const key = writeKeyFile(freshDir('resume-coord-key'), 'a-shared-key-of-the-test-cluster');
     const port = await freePort();
