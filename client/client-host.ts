@@ -108,6 +108,15 @@ export class ClientHost {
     }
   }
 
+  /**
+   * Resolves once every hosted client's shard is built: at once for inline clients (built in the
+   * constructor), after each pool thread's prepareTask otherwise. A thread whose build failed
+   * counts as done here; its clients' work fails with that error.
+   */
+  async ready(): Promise<void> {
+    await Promise.allSettled(this.threads.map((thread) => thread.prepared));
+  }
+
   hosts(clientId: number): boolean {
     return this.inline !== null ? this.inline.has(clientId) : this.snapshots.has(clientId);
   }

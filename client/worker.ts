@@ -366,6 +366,11 @@ export class Worker {
       `hosting clients ${message.assignments.join(', ')} of "${plan.scenario.name}" (${plan.scenario.method.name})`,
     );
     this.startHeartbeats(message.limits);
+    // The coordinator starts the rounds once every worker has its data (messages.ts, ready).
+    const connection = this.connectionNumber;
+    void this.hosting.host.ready().then(() => {
+      if (this.mayAnswerOn(connection)) this.send({ type: 'ready' });
+    });
   }
 
   /**

@@ -160,6 +160,10 @@ export class Coordinator {
   private listener: Listener | null = null;
   private nextSessionId = 1;
   private joinChanged: () => void = () => undefined;
+  /** the sessions that said ready (their clients' data built) */
+  private readonly readySessions = new Set<WorkerSession>();
+  /** called when a session says ready, closes or is lost, and on stop */
+  private readyChanged: () => void = () => undefined;
   private stopRequested = false;
   private collecting: StateCollection | null = null;
 
@@ -391,7 +395,9 @@ export class Coordinator {
         this.plan.scenario.timing.clock === 'virtual' ? this.driver.expectation() : null;
       const message = receiveMessage(frame, {
         limits,
-        expectedTypes: active ? ['ups', 'state', 'heartbeat', 'error'] : ['heartbeat', 'error'],
+        expectedTypes: active
+          ? ['ups', 'ready', 'state', 'heartbeat', 'error']
+          : ['heartbeat', 'error'],
         expectedRound: expectation?.round ?? null,
         expectedExchange: expectation?.exchange ?? null,
         ownedClientIds: session.clientIds,
@@ -406,6 +412,11 @@ export class Coordinator {
       this.ledger.recordControlMessage('up', frame.byteLength, wireBytes);
       if (message.type === 'state') {
         this.stateReceived(message);
+        return;
+      }
+      if (message.type === 'ready') {
+        this.readySessions.add(session);
+        this.readyChanged();
         return;
       }
       if (message.type === 'error') {
@@ -514,6 +525,7 @@ export class Coordinator {
       if (this.resumeGraceSeconds > 0 && !this.runEnded) this.disconnect(session);
       else this.loseWorker(session, 'connection closed');
     }
+    this.readyChanged();
   }
 
   /**
@@ -600,6 +612,7 @@ export class Coordinator {
     session.terminate();
     this.driver.clientsLost(clientIds);
     this.presenceChanged();
+    this.readyChanged();
   }
 
   /** Resolves once a worker is connected, none is away, or the run is stopping. */
@@ -636,6 +649,39 @@ export class Coordinator {
         }
       };
       this.joinChanged();
+    });
+  }
+
+  /**
+   * Resolves once every active worker said ready (its clients' data built), the run is stopping,
+   * or joinTimeoutSeconds passed: then the rounds start anyway, as the log says, and a worker
+   * still building only delays its first ups.
+   */
+  private waitForReady(): Promise<void> {
+    return new Promise((resolve) => {
+      const settle = (): void => {
+        clearTimeout(timer);
+        this.readyChanged = () => undefined;
+        resolve();
+      };
+      const timer = setTimeout(() => {
+        const building = this.registry
+          .activeSessions()
+          .filter((s) => !this.readySessions.has(s))
+          .map((s) => s.label());
+        this.options.log(
+          `after ${this.options.joinTimeoutSeconds} s, ${building.join(', ')} still building their clients' data; the rounds start`,
+        );
+        settle();
+      }, this.options.joinTimeoutSeconds * 1000);
+      this.readyChanged = () => {
+        if (
+          this.stopRequested ||
+          this.registry.activeSessions().every((s) => this.readySessions.has(s))
+        )
+          settle();
+      };
+      this.readyChanged();
     });
   }
 
@@ -685,12 +731,14 @@ export class Coordinator {
   async run(openRecords?: () => RecordSink): Promise<CoordinatorOutcome> {
     await this.waitForWorkers();
     const records = openRecords?.() ?? null;
-    // Wall seconds (per round, the ETA, the total) count from the first round: waiting for
-    // workers to join is the cluster's start-up, not the method's cost, and is reported apart.
-    const roundsStartedMs = performance.now();
-    const joinSeconds = (roundsStartedMs - this.startedMs) / 1000;
     this.welcomeAll();
     this.liveness.start();
+    await this.waitForReady();
+    // Wall seconds (per round, the ETA, the total) count from the first round: waiting for
+    // workers to join and build their clients' data is the cluster's start-up, not the method's
+    // cost, and is reported apart.
+    const roundsStartedMs = performance.now();
+    const joinSeconds = (roundsStartedMs - this.startedMs) / 1000;
     const wallBeforeSeconds = this.options.resume?.wallSeconds ?? 0;
     const result = await this.driver.run(
       () => wallBeforeSeconds + (performance.now() - roundsStartedMs) / 1000,
@@ -743,6 +791,7 @@ export class Coordinator {
     this.driver.requestStop();
     this.joinChanged();
     this.presenceChanged();
+    this.readyChanged();
   }
 
   /** Closes every connection, the listener and the oracle pool. */

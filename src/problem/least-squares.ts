@@ -39,18 +39,48 @@ export class LeastSquaresObjective implements ClientObjective {
     this.regularization = regularization;
   }
 
+  /**
+   * Each residual -b_s + a_s1 x_1 + ... + a_sp x_p adds left to right and the squares add in row
+   * order: that order is every recorded f(x)'s, so it is kept. A lone residual is one chain of
+   * dependent additions, which waits on the adder's latency at every entry; four rows at once run
+   * four independent chains side by side (about 3x faster on the oracle's f(x) at d = 1,000) and
+   * each chain still adds in its own row's order, so the bits are the same.
+   */
   loss(x: Float64Array): number {
     assertLength('x', x, this.dim);
     const { features, targets } = this.shard;
     const p = this.dim;
+    const n = this.sampleCount;
     let sum = 0;
-    for (let s = 0; s < this.sampleCount; s++) {
+    let s = 0;
+    for (; s + 4 <= n; s += 4) {
+      const b0 = s * p;
+      const b1 = b0 + p;
+      const b2 = b1 + p;
+      const b3 = b2 + p;
+      let r0 = -targets[s];
+      let r1 = -targets[s + 1];
+      let r2 = -targets[s + 2];
+      let r3 = -targets[s + 3];
+      for (let j = 0; j < p; j++) {
+        const xj = x[j];
+        r0 += features[b0 + j] * xj;
+        r1 += features[b1 + j] * xj;
+        r2 += features[b2 + j] * xj;
+        r3 += features[b3 + j] * xj;
+      }
+      sum += r0 * r0;
+      sum += r1 * r1;
+      sum += r2 * r2;
+      sum += r3 * r3;
+    }
+    for (; s < n; s++) {
       const base = s * p;
       let residual = -targets[s];
       for (let j = 0; j < p; j++) residual += features[base + j] * x[j];
       sum += residual * residual;
     }
-    return (0.5 * sum) / this.sampleCount + 0.5 * this.regularization * normSquared(x);
+    return (0.5 * sum) / n + 0.5 * this.regularization * normSquared(x);
   }
 
   gradient(x: Float64Array, out: Float64Array): void {

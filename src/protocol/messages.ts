@@ -8,6 +8,9 @@
 //                                 capacity it offers; the key itself never crosses the wire
 //   server -> worker  welcome     client ids to host, the plan, the limits, a resume token;
 //                                 or error E_AUTH
+//   worker -> server  ready       its clients' data is built: the coordinator starts the rounds
+//                                 (and their wall clock) once every welcomed worker said so, so
+//                                 that building data counts as start-up, not as the first round
 //   then per round, per exchange, one frame per worker each way:
 //   server -> worker  downs       for every hosted client taking part: tau_i, eta_i and its own
 //                                 vectors; the vectors every client of the exchange receives
@@ -57,7 +60,7 @@ import { wirePlanSchema } from './wire-plan.js';
 import { bytesShape, type WireVector } from './wire-vector.js';
 
 /** Bumped on any change to a message's shape or meaning; peers must match exactly. */
-export const PROTOCOL_VERSION = 4;
+export const PROTOCOL_VERSION = 5;
 
 export { NONCE_BYTES, PROOF_BYTES, RESUME_TOKEN_BYTES } from './secret-lengths.js';
 
@@ -72,6 +75,7 @@ export const MESSAGE_TYPES = [
   'challenge',
   'hello',
   'welcome',
+  'ready',
   'downs',
   'ups',
   'heartbeat',
@@ -199,6 +203,7 @@ export const messageShapes = {
      */
     resumeToken: bytesShape.optional(),
   }),
+  ready: z.strictObject({ type: z.literal('ready') }),
   heartbeat: z.strictObject({
     type: z.literal('heartbeat'),
     /** sender's wall clock, for round-trip estimates; never used by results */
@@ -234,6 +239,7 @@ export const messageShapes = {
 export type ChallengeMessage = z.infer<typeof messageShapes.challenge>;
 export type HelloMessage = z.infer<typeof messageShapes.hello>;
 export type WelcomeMessage = z.infer<typeof messageShapes.welcome>;
+export type ReadyMessage = z.infer<typeof messageShapes.ready>;
 export type HeartbeatMessage = z.infer<typeof messageShapes.heartbeat>;
 export type ErrorMessage = z.infer<typeof messageShapes.error>;
 export type DoneMessage = z.infer<typeof messageShapes.done>;
@@ -250,6 +256,7 @@ export type Message =
   | WelcomeMessage
   | DownsFrame
   | UpsFrame
+  | ReadyMessage
   | HeartbeatMessage
   | ErrorMessage
   | DoneMessage

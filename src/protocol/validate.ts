@@ -243,6 +243,8 @@ export function validateMessage(raw: unknown, context: ValidationContext): Messa
       }
       return message;
     }
+    case 'ready':
+      return parseShape(messageShapes.ready, record, type);
     case 'heartbeat':
       return parseShape(messageShapes.heartbeat, record, type);
     case 'checkpoint':

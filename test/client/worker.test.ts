@@ -78,7 +78,7 @@ describe('a worker receiving downs', () => {
       ws.on('message', (data: Buffer) => {
         const m = receiveMessage(new Uint8Array(data), {
           limits: { ...HANDSHAKE_LIMITS, maxVectorDim: plan.dim, maxFieldsPerMessage: 4 },
-          expectedTypes: ['hello', 'ups', 'error'],
+          expectedTypes: ['hello', 'ready', 'ups', 'error'],
           expectedRound: null,
           expectedExchange: null,
           ownedClientIds: null,
@@ -127,6 +127,11 @@ describe('a worker receiving downs', () => {
       `downs.common.model.dim: the plan says ${plan.dim}, got ${plan.dim - 1}`,
       'downs.common: 2 slots, the exchange "gradient" has 1 fields (model)',
     ]);
+    // Ready once, when its client's data was built, ahead of its ups (messages.ts, ready).
+    const types = received.map((m) => m.type);
+    expect(types.filter((t) => t === 'ready')).toHaveLength(1);
+    expect(types.indexOf('ready')).toBeGreaterThan(types.indexOf('hello'));
+    expect(types.indexOf('ready')).toBeLessThan(types.indexOf('ups'));
     const ups = received.filter((m) => m.type === 'ups');
     expect(ups).toHaveLength(1);
     expect(ups[0]).toMatchObject({ round: 1, exchange: 'gradient' });

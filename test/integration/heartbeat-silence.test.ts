@@ -1,5 +1,6 @@
-// Heartbeat silence (DESIGN.md, Messages: heartbeat): a worker that completes the handshake and
-// then stays connected but sends nothing (no heartbeat, no up) is marked lost once it has been
+// Heartbeat silence (DESIGN.md, Messages: heartbeat): a worker that completes the handshake, says
+// ready, answers heartbeats until the rounds start, and from its first downs on stays connected
+// but sends nothing (no heartbeat, no up) is marked lost once it has been
 // silent past the coordinator's limit (--heartbeat-silence-seconds); its clients leave the
 // round and the rest of the run, and the run goes on with the real worker processes beside it
 // and records every round. The real workers join first and wait longer than the limit for the
@@ -39,19 +40,28 @@ interface SilentPeer {
   /** message types received, in order */
   received: string[];
   assignments: number[];
-  welcomedMs: number;
+  /** when it sent its last message (its last heartbeat before the first downs) */
+  lastSentMs: number;
   closed: Promise<number>;
 }
 
-/** A peer that answers the challenge with a correct hello (HMAC proof), then never sends again. */
+/**
+ * A peer that answers the challenge with a correct hello (HMAC proof), says ready and echoes
+ * heartbeats while the other workers build their data, then, from its first downs, never sends
+ * again.
+ */
 function joinSilently(url: string): Promise<SilentPeer> {
   return new Promise((resolve, reject) => {
     const ws = new WebSocket(url, { perMessageDeflate: false });
     const peer: SilentPeer = {
       received: [],
       assignments: [],
-      welcomedMs: 0,
+      lastSentMs: 0,
       closed: new Promise((r) => ws.once('close', () => r(performance.now()))),
+    };
+    const send = (message: Parameters<typeof encodeMessage>[0]): void => {
+      ws.send(encodeMessage(message), { binary: true });
+      peer.lastSentMs = performance.now();
     };
     ws.on('message', (data: Buffer) => {
       const decoded = decodeMessage(new Uint8Array(data), READ_LIMIT_BYTES);
@@ -74,9 +84,11 @@ function joinSilently(url: string): Promise<SilentPeer> {
           { binary: true },
         );
       } else if (message.type === 'welcome') {
-        peer.welcomedMs = performance.now();
         peer.assignments = message.assignments as number[];
+        send({ type: 'ready' });
         resolve(peer);
+      } else if (message.type === 'heartbeat' && !peer.received.includes('downs')) {
+        send({ type: 'heartbeat', sentAtMs: Date.now() });
       }
     });
     ws.once('error', reject);
@@ -126,7 +138,7 @@ describe('a worker that falls silent', () => {
         ),
       ),
     ]);
-    const silentForSeconds = (closedMs - silent.welcomedMs) / 1000;
+    const silentForSeconds = (closedMs - silent.lastSentMs) / 1000;
     // Not before the limit; and within it plus one heartbeat interval (a sixth of it, see
     // heartbeatForSilence) plus scheduling slack on a shared machine.
     expect(silentForSeconds).toBeGreaterThanOrEqual(SILENCE_SECONDS);

@@ -202,6 +202,7 @@ describe('hostile peers', () => {
                 new ClientRuntime(plan, id, clientObjective(plan.scenario, id)),
               ]),
             );
+            send(ws, { type: 'ready' });
             return;
           }
           case 'error':

@@ -7,7 +7,9 @@
 //   finite, and far past the explosion bound of src/engine/explosion-bound.ts);
 // - an `error` message from the peer loses the peer's clients only: the run completes with the
 //   honest worker's, and outcome.json lists the peer as lost; with no other worker, the run
-//   ends "workers-lost" (the rule for a worker that went away).
+//   ends "workers-lost" (the rule for a worker that went away);
+// - a peer that holds back its ready (its clients' data built) holds back the first round, and
+//   the wait counts as seconds.join, not as the rounds' wall seconds.
 
 import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
@@ -52,6 +54,8 @@ import { honestUpEntry, readDownsFrame } from './hostile-connections.js';
 const KEY = 'a-key-for-the-hostile-worker-test';
 const PEER_NAME = 'scripted';
 const READ_LIMIT_BYTES = 64 * 1024 * 1024;
+/** How long the peer holds back its ready: long beside a two-round quickstart run (well under a second). */
+const LATE_READY_SECONDS = 2;
 
 type Plain = Record<string, unknown>;
 
@@ -67,12 +71,19 @@ type PeerScript = (down: PeerDown, honestUp: () => UpEntry) => UpEntry | ErrorMe
 
 interface Peer {
   clientIds: () => number[];
+  /** performance.now() when the welcome came, and when the first downs frame came (null: none yet) */
+  times: () => { welcomedMs: number | null; firstDownsMs: number | null };
   /** resolves when the coordinator says done or closes the connection */
   finished: Promise<void>;
 }
 
-/** Joins `url` with the key as a worker named PEER_NAME and answers every downs entry by `script`. */
-function joinAsPeer(url: string, capacity: number, script: PeerScript): Peer {
+/**
+ * Joins `url` with the key as a worker named PEER_NAME, says ready `readyDelayMs` after its
+ * welcome, and answers every downs entry by `script`.
+ */
+function joinAsPeer(url: string, capacity: number, script: PeerScript, readyDelayMs = 0): Peer {
+  let welcomedMs: number | null = null;
+  let firstDownsMs: number | null = null;
   let runtimes = new Map<number, ClientRuntime>();
   let ownIds: number[] = [];
   let downFieldDims: FieldDims = {};
@@ -87,6 +98,7 @@ function joinAsPeer(url: string, capacity: number, script: PeerScript): Peer {
     ws.on('message', (data: Buffer) => {
       const raw = decodeMessage(new Uint8Array(data), READ_LIMIT_BYTES);
       if (raw instanceof FrameElements) {
+        firstDownsMs ??= performance.now();
         const frame = readDownsFrame(raw, downFieldDims, Number.MAX_SAFE_INTEGER);
         const ups: UpEntry[] = [];
         for (const entry of frame.entries) {
@@ -131,6 +143,8 @@ function joinAsPeer(url: string, capacity: number, script: PeerScript): Peer {
               new ClientRuntime(plan, id, clientObjective(plan.scenario, id)),
             ]),
           );
+          welcomedMs = performance.now();
+          setTimeout(() => send(ws, { type: 'ready' }), readyDelayMs);
           return;
         }
         case 'done':
@@ -141,7 +155,7 @@ function joinAsPeer(url: string, capacity: number, script: PeerScript): Peer {
       }
     });
   });
-  return { clientIds: () => ownIds, finished };
+  return { clientIds: () => ownIds, times: () => ({ welcomedMs, firstDownsMs }), finished };
 }
 
 interface Outcome {
@@ -277,5 +291,32 @@ describe('a hostile authenticated worker', () => {
     ]);
     const rounds = readJsonLines<RoundRecord>(join(out, 'results', resultFiles.rounds));
     expect(rounds.map((r) => r.round)).toEqual([0, 1, 2]);
+  }, 60_000);
+
+  it('holds back its ready: the first round waits for it, and the wait is join time', async () => {
+    const out = freshDir('hostile-worker-late-ready');
+    const { coordinator, url, keyFile } = await startCoordinator(out, 2, [
+      'run.rounds:2',
+      'run.target:0',
+    ]);
+    const worker = honestWorker(url, keyFile);
+    const peer = joinAsPeer(url, 4, (_down, honestUp) => honestUp(), LATE_READY_SECONDS * 1000);
+    await peer.finished;
+    expect((await coordinator.exit(40_000)).code, coordinator.stderr).toBe(0);
+    expect((await worker.exit(20_000)).code, worker.stderr).toBe(0);
+
+    const { welcomedMs, firstDownsMs } = peer.times();
+    expect(welcomedMs).not.toBeNull();
+    expect(firstDownsMs).not.toBeNull();
+    expect(firstDownsMs! - welcomedMs!).toBeGreaterThanOrEqual(LATE_READY_SECONDS * 1000);
+    const outcome = JSON.parse(readFileSync(join(out, 'results', resultFiles.outcome), 'utf8')) as {
+      stopReason: string;
+      seconds: { join: number; wall: number };
+    };
+    expect(outcome.stopReason).toBe('rounds-complete');
+    expect(outcome.seconds.join).toBeGreaterThanOrEqual(LATE_READY_SECONDS);
+    const rounds = readJsonLines<RoundRecord>(join(out, 'results', resultFiles.rounds));
+    expect(rounds.map((r) => r.round)).toEqual([0, 1, 2]);
+    expect(rounds[0].wallSeconds).toBeLessThan(LATE_READY_SECONDS);
   }, 60_000);
 });

@@ -35,6 +35,25 @@ describe('LeastSquaresObjective', () => {
     expect(Math.abs(objective.loss(x) - expected) / expected).toBeLessThan(1e-13);
   });
 
+  it('gives the bits of the left-to-right loop, for row counts around its blocks of four rows', () => {
+    // The reference is the definition summed in the order every recorded f(x) used: each
+    // residual -b_s + sum_j a_sj x_j left to right, the squares in row order.
+    for (const n of [1, 2, 3, 4, 5, 7, 8, 9, 13]) {
+      const { rng, shard, objective } = setup(40 + n, n, 11);
+      const x = randomVector(rng, 11);
+      let sum = 0;
+      for (let s = 0; s < n; s++) {
+        let residual = -shard.targets[s];
+        for (let j = 0; j < 11; j++) residual += shard.features[s * 11 + j] * x[j];
+        sum += residual * residual;
+      }
+      let xx = 0;
+      for (let j = 0; j < 11; j++) xx += x[j] * x[j];
+      const expected = (0.5 * sum) / n + 0.5 * LAMBDA * xx;
+      expect(Object.is(objective.loss(x), expected), `n = ${n}`).toBe(true);
+    }
+  });
+
   it('has a gradient equal to central differences of the loss (h = 1e-6, common practice)', () => {
     const { rng, objective } = setup(2);
     const x = randomVector(rng, 6);

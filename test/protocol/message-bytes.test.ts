@@ -8,7 +8,8 @@
 // checkpoint and state messages, E_ORDER, and the scenario's run.checkpointEveryRounds in the
 // welcome) regenerated them by encoding the samples once more; so did version 4 (downs and ups
 // frames in place of down and up: positional arrays, round-frame-layout.ts; the welcome's frame
-// limit now counts a worker's clients).
+// limit now counts a worker's clients). Version 5 adds the ready message and changes only the
+// version byte of the challenge and the hello.
 
 import { describe, expect, it } from 'vitest';
 import type { MessageType } from '../../src/protocol/messages.js';
@@ -16,11 +17,11 @@ import { encodeSample, sampleMessages } from './sample-messages.js';
 
 const EXPECTED_HEX: Record<MessageType, string> = {
   challenge: [
-    '83a474797065a96368616c6c656e6765af70726f746f636f6c56657273696f6e04a56e6f6e6365c4',
+    '83a474797065a96368616c6c656e6765af70726f746f636f6c56657273696f6e05a56e6f6e6365c4',
     '200b30557a9fc4e90e33587da2c7ec11365b80a5caef14395e83a8cdf2173c6186',
   ].join(''),
   hello: [
-    '85a474797065a568656c6c6faf70726f746f636f6c56657273696f6e04aa776f726b65724e616d65',
+    '85a474797065a568656c6c6faf70726f746f636f6c56657273696f6e05aa776f726b65724e616d65',
     'a86c6170746f702d31a8636170616369747902a570726f6f66c420721bda15cb1a1a9167c29f6df8',
     '4ee00fddae691f7e7b86353d5124526a396600',
   ].join(''),
@@ -55,6 +56,7 @@ const EXPECTED_HEX: Record<MessageType, string> = {
     '7468cc80b56d61784572726f724d6573736167654c656e677468cd0400b868656172746265617449',
     '6e74657276616c5365636f6e647305b768656172746265617453696c656e63655365636f6e64731e',
   ].join(''),
+  ready: '81a474797065a57265616479',
   downs: [
     '9801010301cb3ff800000000000092c095060806c0c430000000000000f83f000000000000008001',
     '0000000000000000000000000002c09c7500883ce4377e9a9999999999b93f940203cb3f99999999',

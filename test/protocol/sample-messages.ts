@@ -76,6 +76,7 @@ export function sampleMessages(): Message[] {
       plan: samplePlan(),
       limits: PLAN_LIMITS,
     },
+    { type: 'ready' },
     {
       type: 'downs',
       round: 3,
@@ -141,7 +142,7 @@ export function sampleMessages(): Message[] {
 export function serverContext(overrides: Partial<ValidationContext> = {}): ValidationContext {
   return {
     limits: PLAN_LIMITS,
-    expectedTypes: ['hello', 'ups', 'state', 'heartbeat', 'error'],
+    expectedTypes: ['hello', 'ready', 'ups', 'state', 'heartbeat', 'error'],
     expectedRound: 3,
     expectedExchange: 'local',
     ownedClientIds: new Set([2, 5]),
@@ -178,6 +179,7 @@ export function workerContext(overrides: Partial<ValidationContext> = {}): Valid
 export function contextFor(message: Message): ValidationContext {
   switch (message.type) {
     case 'hello':
+    case 'ready':
     case 'ups':
       return serverContext();
     case 'challenge':
