@@ -31,8 +31,8 @@ export interface RetryPolicy {
 /**
  * Joining: the coordinator may start minutes after its workers (on a cluster, its image is
  * pulled and its pod scheduled in no set order). The total wait binds, not the attempts: at
- * the longest --join-wait-seconds, a day, with attempts 5 s apart, about 17,300 attempts. The worker's
- * --join-wait-seconds replaces the total wait.
+ * the longest --coordinator-wait-seconds, a day, with attempts 5 s apart, about 17,300
+ * attempts. The worker's --coordinator-wait-seconds replaces the total wait.
  */
 export const JOIN_RETRY_POLICY: RetryPolicy = {
   attemptsMax: 20_000,
@@ -41,7 +41,7 @@ export const JOIN_RETRY_POLICY: RetryPolicy = {
   delayCapSeconds: 5,
   waitTotalSeconds: 300,
   connectTimeoutSeconds: 10,
-  waitTotalOption: '--join-wait-seconds',
+  waitTotalOption: '--coordinator-wait-seconds',
 };
 
 /**

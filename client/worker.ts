@@ -72,7 +72,7 @@ export interface WorkerOptions {
   threadsMax: number;
   retry?: RetryPolicy;
   /** most seconds of waiting for the coordinator before the first welcome (JOIN_RETRY_POLICY's when absent) */
-  joinWaitSeconds?: number;
+  coordinatorWaitSeconds?: number;
   /** most seconds of waiting for a coordinator that dropped mid-run (RECONNECT_RETRY_POLICY's when absent) */
   reconnectWaitSeconds?: number;
   /** PEM certificates trusted for a wss:// coordinator beside the system's (e.g. its self-signed one) */
@@ -195,7 +195,7 @@ export class Worker {
     if (this.hosting === null)
       return {
         ...JOIN_RETRY_POLICY,
-        waitTotalSeconds: this.options.joinWaitSeconds ?? JOIN_RETRY_POLICY.waitTotalSeconds,
+        waitTotalSeconds: this.options.coordinatorWaitSeconds ?? JOIN_RETRY_POLICY.waitTotalSeconds,
       };
     return {
       ...RECONNECT_RETRY_POLICY,

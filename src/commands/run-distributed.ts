@@ -48,7 +48,7 @@ export const EMBEDDED_LIMITS = {
    * a local worker starts once its coordinator listens, so a long join wait would only keep an
    * orphan (its run killed before the join) alive
    */
-  workerJoinWaitSeconds: 30,
+  workerCoordinatorWaitSeconds: 30,
 } as const;
 
 export interface DistributedRunIo {
@@ -187,7 +187,7 @@ export async function runDistributed(
         keyFile: keyFile.path,
         capacity,
         workerName: `local-${i + 1}`,
-        joinWaitSeconds: EMBEDDED_LIMITS.workerJoinWaitSeconds,
+        coordinatorWaitSeconds: EMBEDDED_LIMITS.workerCoordinatorWaitSeconds,
         reconnectWaitSeconds: EMBEDDED_LIMITS.workerReconnectWaitSeconds,
       });
       workers.push(worker);

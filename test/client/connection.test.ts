@@ -86,7 +86,7 @@ describe('a bounded total wait', () => {
       ...policy,
       attemptsMax: JOIN_RETRY_POLICY.attemptsMax,
       waitTotalSeconds: 0.02,
-      waitTotalOption: '--join-wait-seconds',
+      waitTotalOption: '--coordinator-wait-seconds',
     };
     const probe = createServer();
     await new Promise<void>((r) => probe.listen(0, '127.0.0.1', () => r()));
@@ -112,7 +112,7 @@ describe('a bounded total wait', () => {
       /^cannot reach .* \(attempt 2: .*\); giving up, 0\.01 of 0\.02 s of waiting spent$/,
     );
     expect((error as JoinError).message).toMatch(
-      /after 2 attempts in 0\.01 s of waiting \(.*\); --join-wait-seconds waits longer \(it is 0\.02 s\)$/,
+      /after 2 attempts in 0\.01 s of waiting \(.*\); --coordinator-wait-seconds waits longer \(it is 0\.02 s\)$/,
     );
   });
 

@@ -240,7 +240,9 @@ describe('the Kubernetes manifests', () => {
         clients,
       );
       // Workers may start well before the coordinator listens.
-      expect(Number(optionValue(worker.args!, '--join-wait-seconds'))).toBeGreaterThanOrEqual(300);
+      expect(
+        Number(optionValue(worker.args!, '--coordinator-wait-seconds')),
+      ).toBeGreaterThanOrEqual(300);
     });
 
     it('hands the shared key over as a Secret mounted as a file, never as an environment value', () => {

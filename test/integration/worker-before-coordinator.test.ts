@@ -1,6 +1,6 @@
 // A worker started before its coordinator (real processes on 127.0.0.1, as a cluster starts its
 // pods in no set order) waits with backoff, saying so, and joins once the coordinator listens.
-// The wait's end (--join-wait-seconds spent) is held in test/client/connection.test.ts.
+// The wait's end (--coordinator-wait-seconds spent) is held in test/client/connection.test.ts.
 
 import { createServer } from 'node:net';
 import { join } from 'node:path';
@@ -31,7 +31,7 @@ const WAITING_LINE = /waiting for the coordinator at ws:\/\/127\.0\.0\.1:\d+ \(a
 
 describe('a worker started before its coordinator', () => {
   it('waits with backoff, then joins and the run completes', async () => {
-    const dir = freshDir('join-wait');
+    const dir = freshDir('worker-first');
     const key = writeKeyFile(dir, 'a-key-shared-by-both-processes');
     const port = await freePort();
     const worker = start([
@@ -41,7 +41,7 @@ describe('a worker started before its coordinator', () => {
       key,
       '--capacity',
       '8',
-      '--join-wait-seconds',
+      '--coordinator-wait-seconds',
       '60',
     ]);
     // The first attempt waits nothing; the backoff's first delay is 0.25 s (client/connection.ts).
