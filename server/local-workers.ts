@@ -14,6 +14,8 @@ export interface LocalWorkerSpec {
   /** clients the worker offers to host */
   capacity: number;
   workerName: string;
+  /** the worker's --coordinator-wait-seconds */
+  coordinatorWaitSeconds: number;
   /** the worker's --reconnect-wait-seconds */
   reconnectWaitSeconds: number;
 }
@@ -55,6 +57,8 @@ export class LocalWorker {
         String(spec.capacity),
         '--name',
         spec.workerName,
+        '--coordinator-wait-seconds',
+        String(spec.coordinatorWaitSeconds),
         '--reconnect-wait-seconds',
         String(spec.reconnectWaitSeconds),
       ],
