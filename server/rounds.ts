@@ -361,10 +361,15 @@ export class RoundDriver implements RoundTransport<'async'> {
     const policy = policyForUpdates(this.plan.scenario.timing.policy, assignments.length);
     if (policy.kind === 'fastest-k') return { kind: 'first-k', k: policy.k };
     if (policy.kind === 'deadline') {
-      const links = this.plan.scenario.timing.links;
       const denseBytes = this.plan.dim * 8 * 4;
-      const transferSeconds =
-        downlinkSecondsFor(links, denseBytes) + uplinkSecondsFor(links, denseBytes);
+      let transferSeconds = 0;
+      for (const a of assignments) {
+        const link = this.plan.links[a.clientId];
+        transferSeconds = Math.max(
+          transferSeconds,
+          downlinkSecondsFor(link, denseBytes) + uplinkSecondsFor(link, denseBytes),
+        );
+      }
       return {
         kind: 'until',
         closeAtMs:

@@ -50,13 +50,14 @@ export function settleExchange(
       stepsTaken: returned.stepsTaken,
       downBytes: down.payloadBytes,
       upBytes,
+      link: plan.links[a.clientId],
     });
   }
   const { timing } = plan.scenario;
   const decided: RoundTiming =
     inputs.length === 0
       ? { participants: [], roundSeconds: 0 }
-      : decideRound(policyForUpdates(timing.policy, inputs.length), timing.links, inputs);
+      : decideRound(policyForUpdates(timing.policy, inputs.length), inputs);
   const timingOf = new Map<number, ParticipantTiming>(
     decided.participants.map((t) => [t.clientId, t]),
   );
