@@ -121,7 +121,7 @@ export class RoundDriver implements RoundTransport<'async'> {
    * ProtocolError E_ROUND when a client owes no up for that round and exchange, E_TYPE when it
    * took more steps than it was assigned.
    */
-  acceptUps(frame: UpsFrame, encodedBytes: number, wireBytes: number): void {
+  acceptUps(frame: UpsFrame, encodedBytes: number, wireBytes: number, streamSeconds: number): void {
     const owedOf = frame.entries.map((entry) => this.owedEntry(frame, entry));
     const decoded = frame.entries.map((entry) => {
       const encodedUp: EncodedFields = {};
@@ -155,6 +155,7 @@ export class RoundDriver implements RoundTransport<'async'> {
         decoded[i],
         share.encodedBytes,
         share.wireBytes,
+        streamSeconds,
         arrivedMs,
       );
     });
@@ -194,6 +195,7 @@ export class RoundDriver implements RoundTransport<'async'> {
     },
     encodedBytes: number,
     wireBytes: number,
+    streamSeconds: number,
     arrivedMs: number,
   ): void {
     if (this.owed.get(entry.clientId) === owed) this.owed.delete(entry.clientId);
@@ -209,6 +211,7 @@ export class RoundDriver implements RoundTransport<'async'> {
         owed.record.bytes.wire = { up: wireBytes, down: owed.record.bytes.wire?.down ?? 0 };
         owed.record.computeSeconds = entry.computeSeconds;
         owed.record.transferSeconds = entry.transferSeconds;
+        owed.record.upStreamSeconds = streamSeconds;
       }
       return;
     }
@@ -220,6 +223,7 @@ export class RoundDriver implements RoundTransport<'async'> {
       payloadBytes: decoded.payload,
       encodedBytes,
       wireBytes,
+      streamSeconds,
       arrivedMs,
     });
   }
@@ -476,6 +480,7 @@ export class RoundDriver implements RoundTransport<'async'> {
             computeSeconds: m.computeSeconds,
             transferSeconds: m.transferSeconds,
             waitSeconds: m.waitSeconds + Math.max(0, wait.closedMs - arrival.arrivedMs) / 1000,
+            upStreamSeconds: arrival.streamSeconds,
           }
         : undefined;
       returns.set(a.clientId, {

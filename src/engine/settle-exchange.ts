@@ -89,6 +89,7 @@ export function settleExchange(
       record.computeSeconds = measured?.computeSeconds ?? t.computeSeconds;
       record.transferSeconds = measured?.transferSeconds ?? t.downSeconds + t.upSeconds;
       record.waitSeconds = measured?.waitSeconds ?? t.waitSeconds;
+      if (measured !== undefined) record.upStreamSeconds = measured.upStreamSeconds;
       if (counted)
         uploads.push({
           clientId: a.clientId,
