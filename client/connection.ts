@@ -1,8 +1,10 @@
 // Reaching the coordinator: a WebSocket connection, retried with exponential backoff (each wait
 // a factor longer than the one before, from a first delay up to a cap) for a bounded number of
-// attempts and a bounded total wait, so that workers may start before the coordinator listens,
-// a transient refusal does not end them, and a worker whose coordinator died waits for it to be
-// resumed (RECONNECT_RETRY_POLICY) but not forever. A failure that no
+// attempts and a bounded total wait, so that workers may start long before the coordinator
+// listens (JOIN_RETRY_POLICY: a cluster pulls images and schedules pods in any order), a
+// transient refusal does not end them, and a worker whose coordinator died waits for it to be
+// resumed (RECONNECT_RETRY_POLICY) but not forever. Every failed attempt logs one line that says
+// what failed, when the next attempt comes and how much of the wait is spent. A failure that no
 // retry can mend (the scheme does not match the coordinator's TLS, its certificate is not
 // trusted) ends the join at once with a message that says what to change.
 
@@ -22,16 +24,24 @@ export interface RetryPolicy {
   waitTotalSeconds: number;
   /** one attempt's limit for the TCP and WebSocket handshake */
   connectTimeoutSeconds: number;
+  /** the option that sets waitTotalSeconds, named when the wait runs out */
+  waitTotalOption?: string;
 }
 
-/** Joining: the coordinator may start a little after its workers. */
-export const DEFAULT_RETRY_POLICY: RetryPolicy = {
-  attemptsMax: 8,
+/**
+ * Joining: the coordinator may start minutes after its workers (on a cluster, its image is
+ * pulled and its pod scheduled in no set order). The total wait binds, not the attempts: at
+ * the longest --join-wait-seconds, a day, with attempts 5 s apart, about 17,300 attempts. The worker's
+ * --join-wait-seconds replaces the total wait.
+ */
+export const JOIN_RETRY_POLICY: RetryPolicy = {
+  attemptsMax: 20_000,
   firstDelaySeconds: 0.25,
   delayFactor: 2,
   delayCapSeconds: 5,
-  waitTotalSeconds: 30,
+  waitTotalSeconds: 300,
   connectTimeoutSeconds: 10,
+  waitTotalOption: '--join-wait-seconds',
 };
 
 /**
@@ -46,6 +56,7 @@ export const RECONNECT_RETRY_POLICY: RetryPolicy = {
   delayCapSeconds: 5,
   waitTotalSeconds: 120,
   connectTimeoutSeconds: 10,
+  waitTotalOption: '--reconnect-wait-seconds',
 };
 
 /** The wait before attempt `attempt` (1-based; the first attempt does not wait). */
@@ -201,10 +212,29 @@ export async function connectWithRetry(
       lastError = error as Error;
       const advice = await permanentFailure(url, lastError, policy);
       if (advice !== null) throw new JoinError(`could not join ${url}: ${advice}`);
-      log(`attempt ${attempt}/${policy.attemptsMax} to reach ${url} failed: ${lastError.message}`);
+      log(attemptFailedLine(url, policy, attempt, waitedSeconds, lastError));
     }
   }
+  const raise =
+    policy.waitTotalOption === undefined
+      ? ''
+      : `; ${policy.waitTotalOption} waits longer (it is ${policy.waitTotalSeconds} s)`;
   throw new JoinError(
-    `could not reach ${url} after ${attempt - 1} attempts in ${waitedSeconds.toFixed(2)} s of waiting (${lastError?.message ?? 'no attempt'})`,
+    `could not reach ${url} after ${attempt - 1} attempts in ${waitedSeconds.toFixed(2)} s of waiting (${lastError?.message ?? 'no attempt'})${raise}`,
   );
+}
+
+/** The line logged after a failed attempt: what failed, and what comes next. */
+function attemptFailedLine(
+  url: string,
+  policy: RetryPolicy,
+  attempt: number,
+  waitedSeconds: number,
+  error: Error,
+): string {
+  const nextDelaySeconds = backoffSeconds(policy, attempt + 1);
+  const spent = `${waitedSeconds.toFixed(2)} of ${policy.waitTotalSeconds} s of waiting spent`;
+  if (attempt >= policy.attemptsMax || waitedSeconds + nextDelaySeconds > policy.waitTotalSeconds)
+    return `cannot reach ${url} (attempt ${attempt}: ${error.message}); giving up, ${spent}`;
+  return `waiting for the coordinator at ${url} (attempt ${attempt}: ${error.message}); next attempt in ${nextDelaySeconds.toFixed(2)} s, ${spent}`;
 }

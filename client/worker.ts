@@ -52,8 +52,8 @@ import { speedModelFor } from '../src/timing/round-speed.js';
 import { ClientHost } from './client-host.js';
 import {
   connectWithRetry,
-  DEFAULT_RETRY_POLICY,
   JoinError,
+  JOIN_RETRY_POLICY,
   RECONNECT_RETRY_POLICY,
   type RetryPolicy,
 } from './connection.js';
@@ -72,6 +72,8 @@ export interface WorkerOptions {
   /** most pool threads when hosting several clients */
   threadsMax: number;
   retry?: RetryPolicy;
+  /** most seconds of waiting for the coordinator before the first welcome (JOIN_RETRY_POLICY's when absent) */
+  joinWaitSeconds?: number;
   /** most seconds of waiting for a coordinator that dropped mid-run (RECONNECT_RETRY_POLICY's when absent) */
   reconnectWaitSeconds?: number;
   /** PEM certificates trusted for a wss:// coordinator beside the system's (e.g. its self-signed one) */
@@ -191,7 +193,11 @@ export class Worker {
 
   private retryPolicy(): RetryPolicy {
     if (this.options.retry !== undefined) return this.options.retry;
-    if (this.hosting === null) return DEFAULT_RETRY_POLICY;
+    if (this.hosting === null)
+      return {
+        ...JOIN_RETRY_POLICY,
+        waitTotalSeconds: this.options.joinWaitSeconds ?? JOIN_RETRY_POLICY.waitTotalSeconds,
+      };
     return {
       ...RECONNECT_RETRY_POLICY,
       waitTotalSeconds:

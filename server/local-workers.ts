@@ -14,6 +14,8 @@ export interface LocalWorkerSpec {
   /** clients the worker offers to host */
   capacity: number;
   workerName: string;
+  /** the worker's --join-wait-seconds */
+  joinWaitSeconds: number;
   /** the worker's --reconnect-wait-seconds */
   reconnectWaitSeconds: number;
 }
@@ -55,6 +57,8 @@ export class LocalWorker {
         String(spec.capacity),
         '--name',
         spec.workerName,
+        '--join-wait-seconds',
+        String(spec.joinWaitSeconds),
         '--reconnect-wait-seconds',
         String(spec.reconnectWaitSeconds),
       ],

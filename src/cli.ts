@@ -22,6 +22,7 @@ import {
   RunInterrupted,
 } from './commands/run-distributed.js';
 import {
+  JOIN_WAIT_SECONDS_MAX,
   RECONNECT_WAIT_SECONDS_MAX,
   runWorkerCommand,
   WORKER_CAPACITY_MAX,
@@ -251,6 +252,12 @@ function buildProgram(io: Io): Command {
     .option(
       '--ca <file>',
       "PEM certificate(s) to trust for a wss:// coordinator beside the system's, e.g. its self-signed --tls-cert",
+    )
+    .addOption(
+      new Option(
+        '--join-wait-seconds <s>',
+        `until the coordinator first answers, keep trying to reach it (backoff from 0.25 s, doubling, at most 5 s apart) this long in all, e.g. while a cluster starts it (0 to ${JOIN_WAIT_SECONDS_MAX} s; default 300)`,
+      ).argParser(secondsInRange('--join-wait-seconds', 0, JOIN_WAIT_SECONDS_MAX)),
     )
     .addOption(
       new Option(

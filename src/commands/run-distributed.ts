@@ -44,6 +44,11 @@ export const EMBEDDED_LIMITS = {
    * workers, so an orphan only needs to outlast a blip)
    */
   workerReconnectWaitSeconds: 10,
+  /**
+   * a local worker starts once its coordinator listens, so a long join wait would only keep an
+   * orphan (its run killed before the join) alive
+   */
+  workerJoinWaitSeconds: 30,
 } as const;
 
 export interface DistributedRunIo {
@@ -182,6 +187,7 @@ export async function runDistributed(
         keyFile: keyFile.path,
         capacity,
         workerName: `local-${i + 1}`,
+        joinWaitSeconds: EMBEDDED_LIMITS.workerJoinWaitSeconds,
         reconnectWaitSeconds: EMBEDDED_LIMITS.workerReconnectWaitSeconds,
       });
       workers.push(worker);

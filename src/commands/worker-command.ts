@@ -1,5 +1,5 @@
-// `roundwire worker ws://HOST:PORT [--key-file F] [--capacity N] [--name NAME] [--ca FILE]`: a
-// worker process. The shared key comes from a file (key-file.ts), named by --key-file or by
+// `roundwire worker ws://HOST:PORT [--key-file F] [--capacity N] [--name NAME] [--ca FILE]
+// [--join-wait-seconds S] [--reconnect-wait-seconds S]`: a worker process. The shared key comes from a file (key-file.ts), named by --key-file or by
 // ROUNDWIRE_KEY_FILE. --ca names PEM certificates to trust for a wss:// coordinator beside the
 // system's (a self-signed one).
 
@@ -28,12 +28,17 @@ export interface WorkerCommandOptions {
   metricsLinger: number;
   /** PEM certificates to trust for a wss:// coordinator, beside the system's */
   ca?: string;
+  /** most seconds of waiting for the coordinator to answer the first time (absent: JOIN_RETRY_POLICY's) */
+  joinWaitSeconds?: number;
   /** most seconds of waiting for a coordinator that dropped mid-run (absent: RECONNECT_RETRY_POLICY's) */
   reconnectWaitSeconds?: number;
 }
 
 /** Most --reconnect-wait-seconds: a day; an operator resumes a coordinator well within it. */
 export const RECONNECT_WAIT_SECONDS_MAX = 86_400;
+
+/** Most --join-wait-seconds: a day; a cluster starts its coordinator well within it. */
+export const JOIN_WAIT_SECONDS_MAX = 86_400;
 
 /** A CA file far larger than any certificate bundle is a wrong path, not certificates. */
 export const CA_FILE_BYTES_MAX = 1024 * 1024;
@@ -112,6 +117,7 @@ export async function runWorkerCommand(
     capacity: opts.capacity,
     workerName,
     threadsMax: opts.capacity,
+    ...(opts.joinWaitSeconds === undefined ? {} : { joinWaitSeconds: opts.joinWaitSeconds }),
     ...(opts.reconnectWaitSeconds === undefined
       ? {}
       : { reconnectWaitSeconds: opts.reconnectWaitSeconds }),

@@ -69,4 +69,11 @@ describe('roundwire worker', () => {
     expect(missing.code).toBe(2);
     expect(missing.stderr).toMatch(/missing required argument 'coordinator-url'/);
   }, 90_000);
+
+  it('refuses a join wait longer than a day', async () => {
+    const key = writeKeyFile(freshDir('worker-join-wait'), KEY);
+    expect(await refusal([URL_NOWHERE, '--key-file', key, '--join-wait-seconds', '86401'])).toBe(
+      'roundwire: --join-wait-seconds: expected seconds from 0 to 86400, got "86401"',
+    );
+  }, 30_000);
 });

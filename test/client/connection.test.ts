@@ -1,5 +1,6 @@
 // Reconnection: exponential backoff doubling from the first delay up to a cap (common
-// practice), and a bounded number of attempts that ends in E_WORKER_JOIN. A malformed frame
+// practice), a bounded number of attempts and a bounded total wait that end in E_WORKER_JOIN,
+// with a line after every failed attempt. A malformed frame
 // from the coordinator closes the connection with its RFC 6455 code and is logged, never thrown.
 
 import { createServer as createHttpServer } from 'node:http';
@@ -10,6 +11,7 @@ import { CLOSE_PROTOCOL_ERROR } from '../../src/protocol/index.js';
 import {
   backoffSeconds,
   connectWithRetry,
+  JOIN_RETRY_POLICY,
   JoinError,
   type RetryPolicy,
 } from '../../client/connection.js';
@@ -77,6 +79,51 @@ describe('a bounded total wait', () => {
     // waits 0, 0.01, 0.03, 0.05 add up to 0.09; a fifth attempt would bring them to 0.14 > 0.1
     expect(lines).toHaveLength(4);
     expect((error as JoinError).message).toMatch(/after 4 attempts in 0\.09 s of waiting/);
+  });
+
+  it('says while waiting when the next attempt comes, and names the option that waits longer', async () => {
+    const joining: RetryPolicy = {
+      ...policy,
+      attemptsMax: JOIN_RETRY_POLICY.attemptsMax,
+      waitTotalSeconds: 0.02,
+      waitTotalOption: '--join-wait-seconds',
+    };
+    const probe = createServer();
+    await new Promise<void>((r) => probe.listen(0, '127.0.0.1', () => r()));
+    const port = (probe.address() as { port: number }).port;
+    await new Promise<void>((r) => probe.close(() => r()));
+    const url = `ws://127.0.0.1:${port}`;
+    const lines: string[] = [];
+    const error = await connectWithRetry(
+      url,
+      joining,
+      1024,
+      () => undefined,
+      (l) => lines.push(l),
+    ).catch((e: unknown) => e);
+    // waits 0 and 0.01; the next, 0.02, would bring them to 0.03 > 0.02
+    expect(lines).toHaveLength(2);
+    expect(lines[0]).toMatch(
+      new RegExp(
+        `^waiting for the coordinator at ${url} \\(attempt 1: .*ECONNREFUSED.*\\); next attempt in 0\\.01 s, 0\\.00 of 0\\.02 s of waiting spent$`,
+      ),
+    );
+    expect(lines[1]).toMatch(
+      /^cannot reach .* \(attempt 2: .*\); giving up, 0\.01 of 0\.02 s of waiting spent$/,
+    );
+    expect((error as JoinError).message).toMatch(
+      /after 2 attempts in 0\.01 s of waiting \(.*\); --join-wait-seconds waits longer \(it is 0\.02 s\)$/,
+    );
+  });
+
+  it('lets a joining worker wait minutes for a coordinator that a cluster starts late', () => {
+    // Common practice for a cluster start (image pulls, scheduling): five minutes by default.
+    expect(JOIN_RETRY_POLICY.waitTotalSeconds).toBe(300);
+    // The total wait binds, not the count: attempts at most 5 s apart fill a day, the longest wait.
+    let waitedSeconds = 0;
+    let attempt = 1;
+    while (waitedSeconds <= 86_400) waitedSeconds += backoffSeconds(JOIN_RETRY_POLICY, ++attempt);
+    expect(attempt).toBeLessThan(JOIN_RETRY_POLICY.attemptsMax);
   });
 });
 
