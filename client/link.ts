@@ -2,7 +2,7 @@
 // before an up goes out the sender waits latency + bytes / uplink bandwidth, and after a down
 // comes in the receiver waits latency + bytes / downlink bandwidth, so that traffic really takes
 // the modelled time. Virtual clock: no waits; the modelled seconds are only reported. Bytes are
-// payload bytes, as the models price them.
+// those of the client's own frame, as the round walk prices them (src/engine/own-frame-bytes.ts).
 
 import { downlinkSecondsFor, uplinkSecondsFor, type ClientLink } from '../src/timing/links.js';
 import { sleepSeconds } from './sleep.js';
@@ -17,16 +17,16 @@ export class LinkShaper {
     this.wall = wall;
   }
 
-  /** Waits out client `clientId`'s down of `payloadBytes`; resolves to its link seconds. */
-  async received(clientId: number, payloadBytes: number): Promise<number> {
-    const seconds = downlinkSecondsFor(this.links[clientId], payloadBytes);
+  /** Waits out client `clientId`'s down of `bytes`; resolves to its link seconds. */
+  async received(clientId: number, bytes: number): Promise<number> {
+    const seconds = downlinkSecondsFor(this.links[clientId], bytes);
     if (this.wall) await sleepSeconds(seconds);
     return seconds;
   }
 
-  /** Waits before client `clientId` sends an up of `payloadBytes`; resolves to its link seconds. */
-  async beforeSend(clientId: number, payloadBytes: number): Promise<number> {
-    const seconds = uplinkSecondsFor(this.links[clientId], payloadBytes);
+  /** Waits before client `clientId` sends an up of `bytes`; resolves to its link seconds. */
+  async beforeSend(clientId: number, bytes: number): Promise<number> {
+    const seconds = uplinkSecondsFor(this.links[clientId], bytes);
     if (this.wall) await sleepSeconds(seconds);
     return seconds;
   }

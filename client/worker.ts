@@ -45,9 +45,9 @@ import {
 import type { ClientRuntimeSnapshot, EncodedFields } from '../src/engine/client-runtime.js';
 import type { WirePlan } from '../src/engine/run-plan.js';
 import { downFieldDimsFor } from '../src/engine/down-field-dims.js';
-import { fieldsPayloadBytes } from '../src/compress/payload-bytes.js';
 import { isNonFiniteError } from '../src/base/coded-error.js';
 import { drawLinks } from '../src/timing/links.js';
+import { ownDownFrameBytes, ownUpFrameBytes } from '../src/engine/own-frame-bytes.js';
 import { speedModelFor } from '../src/timing/round-speed.js';
 import { ClientHost } from './client-host.js';
 import {
@@ -513,7 +513,11 @@ export class Worker {
   ): Promise<void> {
     const { round, exchange } = frame;
     const { clientId } = entry;
-    const downSeconds = await hosting.link.received(clientId, fieldsPayloadBytes(encodedDown));
+    const exchangeIndex = hosting.exchanges.indexOf(exchange);
+    const downSeconds = await hosting.link.received(
+      clientId,
+      ownDownFrameBytes(round, exchangeIndex, frame.deadlineSeconds, entry, encodedDown),
+    );
     let result;
     try {
       result = await hosting.host.work({
@@ -538,7 +542,10 @@ export class Worker {
     const fields: WireFields = {};
     for (const [name, cv] of Object.entries(result.encodedUp))
       fields[name] = toWire(cv, `ups.fields.${name}`);
-    const upSeconds = await hosting.link.beforeSend(clientId, fieldsPayloadBytes(result.encodedUp));
+    const upSeconds = await hosting.link.beforeSend(
+      clientId,
+      ownUpFrameBytes(round, exchangeIndex, clientId, result.stepsTaken, result.encodedUp),
+    );
     this.options.metrics?.clientWorked(clientId, computeSeconds, result.stepsTaken);
     this.options.metrics?.linkDelay('down', downSeconds);
     this.options.metrics?.linkDelay('up', upSeconds);

@@ -197,7 +197,7 @@ data: {source: synthetic, features: 10, samplesPerClient: 20}
 clients: {count: 3}
 method: {name: fedavg, localSteps: 4, stepSize: auto}
 timing: {clock: wall, stepCostSeconds: 0.1}
-run: {rounds: 10, workers: 3, checkpointEveryRounds: 0}
+run: {rounds: 6, workers: 3, checkpointEveryRounds: 0}
 `,
         // The manifests keep the default of 30 s; a test cannot wait that long. The worker's
         // heartbeats come every 5 s, so the limit must exceed that.
@@ -227,7 +227,7 @@ run: {rounds: 10, workers: 3, checkpointEveryRounds: 0}
     it('rides out a brief outage: every update of that worker counts, the stalled round shows it', () => {
       const clients = readJsonLines<ClientRoundRecord>(join(folder, resultFiles.clients));
       const own = clients.filter((c) => c.clientId === brief);
-      expect(own.map((c) => c.round)).toEqual([1, 2, 3, 4, 5, 6, 7, 8, 9, 10]);
+      expect(own.map((c) => c.round)).toEqual([1, 2, 3, 4, 5, 6]);
       expect(own.every((c) => !c.dropped)).toBe(true);
       const rounds = readJsonLines<RoundRecord>(join(folder, resultFiles.rounds));
       const third = rounds[3].wallSeconds - rounds[2].wallSeconds;
@@ -241,7 +241,7 @@ run: {rounds: 10, workers: 3, checkpointEveryRounds: 0}
         lostWorkers: string[];
       };
       expect(outcome.stopReason).toBe('rounds-complete');
-      expect(outcome.rounds).toBe(10);
+      expect(outcome.rounds).toBe(6);
       expect(outcome.lostWorkers).toHaveLength(1);
       const rounds = readJsonLines<RoundRecord>(join(folder, resultFiles.rounds));
       // Its client's update of round 3 never came; it took part in no round after.
