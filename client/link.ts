@@ -1,30 +1,32 @@
-// The link model on the worker. Wall clock: before an up goes out the sender waits latency +
-// bytes / uplink bandwidth, and after a down comes in the receiver waits latency + bytes /
-// downlink bandwidth, so that traffic really takes the modelled time. Virtual clock: no waits;
-// the modelled seconds are only reported. Bytes are payload bytes, as the models price them.
+// The link model on the worker, each client on its own link (src/timing/links.ts). Wall clock:
+// before an up goes out the sender waits latency + bytes / uplink bandwidth, and after a down
+// comes in the receiver waits latency + bytes / downlink bandwidth, so that traffic really takes
+// the modelled time. Virtual clock: no waits; the modelled seconds are only reported. Bytes are
+// those of the client's own frame, as the round walk prices them (src/engine/own-frame-bytes.ts).
 
-import { downlinkSecondsFor, uplinkSecondsFor, type LinkModel } from '../src/timing/links.js';
+import { downlinkSecondsFor, uplinkSecondsFor, type ClientLink } from '../src/timing/links.js';
 import { sleepSeconds } from './sleep.js';
 
 export class LinkShaper {
-  private readonly link: LinkModel;
+  /** by client id */
+  private readonly links: readonly ClientLink[];
   private readonly wall: boolean;
 
-  constructor(link: LinkModel, wall: boolean) {
-    this.link = link;
+  constructor(links: readonly ClientLink[], wall: boolean) {
+    this.links = links;
     this.wall = wall;
   }
 
-  /** Waits out a down of `payloadBytes`; resolves to its link seconds. */
-  async received(payloadBytes: number): Promise<number> {
-    const seconds = downlinkSecondsFor(this.link, payloadBytes);
+  /** Waits out client `clientId`'s down of `bytes`; resolves to its link seconds. */
+  async received(clientId: number, bytes: number): Promise<number> {
+    const seconds = downlinkSecondsFor(this.links[clientId], bytes);
     if (this.wall) await sleepSeconds(seconds);
     return seconds;
   }
 
-  /** Waits before sending an up of `payloadBytes`; resolves to its link seconds. */
-  async beforeSend(payloadBytes: number): Promise<number> {
-    const seconds = uplinkSecondsFor(this.link, payloadBytes);
+  /** Waits before client `clientId` sends an up of `bytes`; resolves to its link seconds. */
+  async beforeSend(clientId: number, bytes: number): Promise<number> {
+    const seconds = uplinkSecondsFor(this.links[clientId], bytes);
     if (this.wall) await sleepSeconds(seconds);
     return seconds;
   }

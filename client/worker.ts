@@ -45,8 +45,9 @@ import {
 import type { ClientRuntimeSnapshot, EncodedFields } from '../src/engine/client-runtime.js';
 import type { WirePlan } from '../src/engine/run-plan.js';
 import { downFieldDimsFor } from '../src/engine/down-field-dims.js';
-import { fieldsPayloadBytes } from '../src/compress/payload-bytes.js';
 import { isNonFiniteError } from '../src/base/coded-error.js';
+import { drawLinks } from '../src/timing/links.js';
+import { ownDownFrameBytes, ownUpFrameBytes } from '../src/engine/own-frame-bytes.js';
 import { speedModelFor } from '../src/timing/round-speed.js';
 import { ClientHost } from './client-host.js';
 import {
@@ -358,7 +359,10 @@ export class Worker {
       downFieldDims,
       exchanges: exchangeSlots(downFieldDims),
       host: new ClientHost(plan, message.assignments, { threadsMax: this.options.capacity }),
-      link: new LinkShaper(plan.scenario.timing.links, wall),
+      link: new LinkShaper(
+        drawLinks(plan.scenario.timing.links, plan.scenario.clients.count, plan.scenario.seed),
+        wall,
+      ),
       pacer: new ComputePacer(
         speedModelFor(plan.scenario.timing, plan.scenario.clients.count, plan.scenario.seed),
         wall,
@@ -514,7 +518,11 @@ export class Worker {
   ): Promise<void> {
     const { round, exchange } = frame;
     const { clientId } = entry;
-    const downSeconds = await hosting.link.received(fieldsPayloadBytes(encodedDown));
+    const exchangeIndex = hosting.exchanges.indexOf(exchange);
+    const downSeconds = await hosting.link.received(
+      clientId,
+      ownDownFrameBytes(round, exchangeIndex, frame.deadlineSeconds, entry, encodedDown),
+    );
     let result;
     try {
       result = await hosting.host.work({
@@ -539,7 +547,10 @@ export class Worker {
     const fields: WireFields = {};
     for (const [name, cv] of Object.entries(result.encodedUp))
       fields[name] = toWire(cv, `ups.fields.${name}`);
-    const upSeconds = await hosting.link.beforeSend(fieldsPayloadBytes(result.encodedUp));
+    const upSeconds = await hosting.link.beforeSend(
+      clientId,
+      ownUpFrameBytes(round, exchangeIndex, clientId, result.stepsTaken, result.encodedUp),
+    );
     this.options.metrics?.clientWorked(clientId, computeSeconds, result.stepsTaken);
     this.options.metrics?.linkDelay('down', downSeconds);
     this.options.metrics?.linkDelay('up', upSeconds);

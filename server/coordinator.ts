@@ -354,8 +354,8 @@ export class Coordinator {
       session.close(CLOSE_POLICY_VIOLATION, 'no clients left');
       return;
     }
-    session.onFrame((frame, wireBytes, frameLimitBytes) =>
-      this.receive(session, frame, wireBytes, frameLimitBytes),
+    session.onFrame((frame, wireBytes, frameLimitBytes, streamSeconds) =>
+      this.receive(session, frame, wireBytes, frameLimitBytes, streamSeconds),
     );
     this.options.log(
       `${session.label()} joined with capacity ${hello.capacity} (${this.registry.workersJoined()} workers, capacity ${this.registry.capacityJoined()} for ${this.plan.clientCount} clients)`,
@@ -383,6 +383,7 @@ export class Coordinator {
     frame: Uint8Array,
     wireBytes: number,
     frameLimitBytes: number,
+    streamSeconds: number,
   ): void {
     session.lastHeardMs = performance.now();
     const active = session.state === 'active';
@@ -406,7 +407,7 @@ export class Coordinator {
       });
       if (message.type === 'ups') {
         session.upsReceived(message.entries.length);
-        this.driver.acceptUps(message, frame.byteLength, wireBytes);
+        this.driver.acceptUps(message, frame.byteLength, wireBytes, streamSeconds);
         return;
       }
       this.ledger.recordControlMessage('up', frame.byteLength, wireBytes);
@@ -584,8 +585,8 @@ export class Coordinator {
       this.driver.clientsLost(clientIds);
     }
     this.driver.clientsResumed(clientIds);
-    session.onFrame((frame, wireBytes, frameLimitBytes) =>
-      this.receive(session, frame, wireBytes, frameLimitBytes),
+    session.onFrame((frame, wireBytes, frameLimitBytes, streamSeconds) =>
+      this.receive(session, frame, wireBytes, frameLimitBytes, streamSeconds),
     );
     this.sendControl(session, {
       type: 'welcome',

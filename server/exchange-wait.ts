@@ -14,6 +14,8 @@ export interface Arrival {
   payloadBytes: number;
   encodedBytes: number;
   wireBytes: number;
+  /** seconds the ups frame that carried it took to arrive, first byte to last */
+  streamSeconds: number;
   arrivedMs: number;
 }
 

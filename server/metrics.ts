@@ -60,6 +60,7 @@ export class CoordinatorMetrics {
   private readonly roundDuration: Histogram<'clock'>;
   private readonly computeSeconds: Counter<'client'>;
   private readonly idleSeconds: Counter<'client'>;
+  private readonly upStreamSeconds: Counter<'client'>;
   private readonly localSteps: Counter<'client'>;
   private readonly localStepsLast: Gauge<'client'>;
   private readonly dropped: Counter<'client'>;
@@ -174,6 +175,12 @@ export class CoordinatorMetrics {
       labelNames: ['client'],
       registers,
     });
+    this.upStreamSeconds = new Counter({
+      name: 'roundwire_client_up_stream_seconds_total',
+      help: "Wall clock: seconds the ups frames carrying each client's updates took to arrive at the coordinator, first byte to last.",
+      labelNames: ['client'],
+      registers,
+    });
     this.localSteps = new Counter({
       name: 'roundwire_client_local_steps_total',
       help: 'Local steps each client took.',
@@ -256,6 +263,7 @@ export class CoordinatorMetrics {
       const client = clientLabel(c.clientId);
       this.computeSeconds.inc({ client }, c.computeSeconds);
       this.idleSeconds.inc({ client }, c.waitSeconds);
+      if (c.upStreamSeconds !== undefined) this.upStreamSeconds.inc({ client }, c.upStreamSeconds);
     }
     for (const [id, steps] of Object.entries(record.localSteps)) {
       const client = clientLabel(Number(id));

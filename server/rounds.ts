@@ -121,7 +121,7 @@ export class RoundDriver implements RoundTransport<'async'> {
    * ProtocolError E_ROUND when a client owes no up for that round and exchange, E_TYPE when it
    * took more steps than it was assigned.
    */
-  acceptUps(frame: UpsFrame, encodedBytes: number, wireBytes: number): void {
+  acceptUps(frame: UpsFrame, encodedBytes: number, wireBytes: number, streamSeconds: number): void {
     const owedOf = frame.entries.map((entry) => this.owedEntry(frame, entry));
     const decoded = frame.entries.map((entry) => {
       const encodedUp: EncodedFields = {};
@@ -155,6 +155,7 @@ export class RoundDriver implements RoundTransport<'async'> {
         decoded[i],
         share.encodedBytes,
         share.wireBytes,
+        streamSeconds,
         arrivedMs,
       );
     });
@@ -194,6 +195,7 @@ export class RoundDriver implements RoundTransport<'async'> {
     },
     encodedBytes: number,
     wireBytes: number,
+    streamSeconds: number,
     arrivedMs: number,
   ): void {
     if (this.owed.get(entry.clientId) === owed) this.owed.delete(entry.clientId);
@@ -209,6 +211,7 @@ export class RoundDriver implements RoundTransport<'async'> {
         owed.record.bytes.wire = { up: wireBytes, down: owed.record.bytes.wire?.down ?? 0 };
         owed.record.computeSeconds = entry.computeSeconds;
         owed.record.transferSeconds = entry.transferSeconds;
+        owed.record.upStreamSeconds = streamSeconds;
       }
       return;
     }
@@ -220,6 +223,7 @@ export class RoundDriver implements RoundTransport<'async'> {
       payloadBytes: decoded.payload,
       encodedBytes,
       wireBytes,
+      streamSeconds,
       arrivedMs,
     });
   }
@@ -361,10 +365,15 @@ export class RoundDriver implements RoundTransport<'async'> {
     const policy = policyForUpdates(this.plan.scenario.timing.policy, assignments.length);
     if (policy.kind === 'fastest-k') return { kind: 'first-k', k: policy.k };
     if (policy.kind === 'deadline') {
-      const links = this.plan.scenario.timing.links;
       const denseBytes = this.plan.dim * 8 * 4;
-      const transferSeconds =
-        downlinkSecondsFor(links, denseBytes) + uplinkSecondsFor(links, denseBytes);
+      let transferSeconds = 0;
+      for (const a of assignments) {
+        const link = this.plan.links[a.clientId];
+        transferSeconds = Math.max(
+          transferSeconds,
+          downlinkSecondsFor(link, denseBytes) + uplinkSecondsFor(link, denseBytes),
+        );
+      }
       return {
         kind: 'until',
         closeAtMs:
@@ -471,6 +480,7 @@ export class RoundDriver implements RoundTransport<'async'> {
             computeSeconds: m.computeSeconds,
             transferSeconds: m.transferSeconds,
             waitSeconds: m.waitSeconds + Math.max(0, wait.closedMs - arrival.arrivedMs) / 1000,
+            upStreamSeconds: arrival.streamSeconds,
           }
         : undefined;
       returns.set(a.clientId, {

@@ -4,6 +4,11 @@
 // when masked), so that each data message ws emits can be matched with the bytes it occupied on
 // the socket, control frames (close, ping, pong) apart. Counting starts after the HTTP upgrade.
 //
+// The same walk times each data message on the wire: from the socket read that brought its first
+// byte to the one that brought its last. That is the message's own transfer time over the link
+// (a shaped or slow link shows in it), free of the sender's compute and of the time the message
+// waited in the sender's queues before its first byte left.
+//
 // The same walk enforces the payload limit of a data message by its header alone. ws's own
 // limit (maxPayload) is fixed for all connections when the server is made and has no supported
 // way to change per connection, while a connection must be held to the tiny hello until it is
@@ -14,6 +19,14 @@
 import type { Socket } from 'node:net';
 
 const OPCODE_CONTINUATION = 0x0;
+
+/** A data message as the socket carried it. */
+export interface WireMessage {
+  /** its frames' bytes, headers included */
+  wireBytes: number;
+  /** seconds from the read holding its first byte to the read holding its last */
+  streamSeconds: number;
+}
 const CONTROL_OPCODE_MIN = 0x8;
 
 export class WireMeter {
@@ -29,8 +42,12 @@ export class WireMeter {
   private currentFrameFin = false;
   /** bytes of the data message being assembled (several frames if the peer fragments) */
   private messageBytes = 0;
-  /** wire bytes of data messages read but not yet taken by the 'message' handler */
-  private readonly completedMessageBytes: number[] = [];
+  /** when the read holding the first byte of the data message being assembled came (ms) */
+  private messageFirstByteMs: number | null = null;
+  /** when the read being walked came (ms) */
+  private chunkMs = 0;
+  /** data messages read but not yet taken by the 'message' handler */
+  private readonly completedMessages: WireMessage[] = [];
   /** wire bytes of control frames received */
   controlReadBytes = 0;
   /** payload bytes of the data message being assembled */
@@ -39,12 +56,16 @@ export class WireMeter {
   private readonly onOversize: (payloadBytes: number, limitBytes: number) => void;
   private oversizeReported = false;
 
+  private readonly nowMs: () => number;
+
   constructor(
     socket: Socket,
     payloadLimitBytes: number,
     onOversize: (payloadBytes: number, limitBytes: number) => void,
+    nowMs: () => number = () => performance.now(),
   ) {
     this.socket = socket;
+    this.nowMs = nowMs;
     this.payloadLimitBytes = payloadLimitBytes;
     this.onOversize = onOversize;
     this.readBaselineBytes = socket.bytesRead;
@@ -58,9 +79,9 @@ export class WireMeter {
     this.payloadLimitBytes = bytes;
   }
 
-  /** Wire bytes of the next data message ws emits (call once per 'message' event). */
-  takeMessageBytes(): number {
-    return this.completedMessageBytes.shift() ?? 0;
+  /** The next data message ws emits, as the socket carried it (call once per 'message' event). */
+  takeMessage(): WireMessage {
+    return this.completedMessages.shift() ?? { wireBytes: 0, streamSeconds: 0 };
   }
 
   /** The socket's own counters since the upgrade (read once, at the end of a run). */
@@ -106,17 +127,24 @@ export class WireMeter {
   private finishFrame(): void {
     if (this.currentFrameIsControl) {
       this.controlReadBytes += this.currentFrameBytes;
+      // A control frame between two data messages starts none.
+      if (this.messageBytes === 0 && this.messagePayloadBytes === 0) this.messageFirstByteMs = null;
       return;
     }
     this.messageBytes += this.currentFrameBytes;
     if (this.currentFrameFin) {
-      this.completedMessageBytes.push(this.messageBytes);
+      this.completedMessages.push({
+        wireBytes: this.messageBytes,
+        streamSeconds: (this.chunkMs - (this.messageFirstByteMs ?? this.chunkMs)) / 1000,
+      });
+      this.messageFirstByteMs = null;
       this.messageBytes = 0;
       this.messagePayloadBytes = 0;
     }
   }
 
   private scan(chunk: Buffer): void {
+    this.chunkMs = this.nowMs();
     let i = 0;
     while (i < chunk.length) {
       if (this.payloadRemainingBytes > 0) {
@@ -126,6 +154,10 @@ export class WireMeter {
         if (this.payloadRemainingBytes === 0) this.finishFrame();
         continue;
       }
+      // The first header byte of a frame with no data message under way may start one (a
+      // control frame between a message's fragments is timed with it: it shares its link).
+      if (this.header.length === 0 && this.messageFirstByteMs === null)
+        this.messageFirstByteMs = this.chunkMs;
       this.header.push(chunk[i]);
       i += 1;
       if (this.header.length === this.headerLength()) this.startPayload();

@@ -28,8 +28,16 @@ export interface SentBytes {
   wireBytes: number;
 }
 
-/** A data message, not yet decoded; `frameLimitBytes` is the largest it may be now (the codec checks it first). */
-export type FrameHandler = (frame: Uint8Array, wireBytes: number, frameLimitBytes: number) => void;
+/**
+ * A data message, not yet decoded; `frameLimitBytes` is the largest it may be now (the codec
+ * checks it first); `streamSeconds` is how long its bytes took to arrive, first to last.
+ */
+export type FrameHandler = (
+  frame: Uint8Array,
+  wireBytes: number,
+  frameLimitBytes: number,
+  streamSeconds: number,
+) => void;
 
 export interface SessionHooks {
   /** a malformed frame: the connection is closed with `failure.closeCode` */
@@ -147,11 +155,11 @@ export class WorkerSession {
   }
 
   private received(data: Buffer): void {
-    const wireBytes = this.meter.takeMessageBytes();
+    const { wireBytes, streamSeconds } = this.meter.takeMessage();
     if (this.failed) return;
     const frame = new Uint8Array(data.buffer, data.byteOffset, data.byteLength);
     if (this.limits === null) {
-      this.handler(frame, wireBytes, frame.byteLength);
+      this.handler(frame, wireBytes, frame.byteLength, streamSeconds);
       return;
     }
     const { frameLimitBytes, controlFrameBytesMax } = this.limits;
@@ -173,6 +181,7 @@ export class WorkerSession {
       frame,
       wireBytes,
       admission === 'uncredited' ? controlFrameBytesMax : frameLimitBytes,
+      streamSeconds,
     );
   }
 

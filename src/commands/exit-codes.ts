@@ -29,6 +29,8 @@ export const BAD_INPUT_CODES: ReadonlySet<string> = new Set([
   // src/timing
   'E_TIMING_ARGUMENT',
   'E_TIMING_LOCAL_STEPS_LENGTH',
+  'E_TIMING_LINKS_LENGTH',
+  'E_TIMING_LINK_NOT_FINITE',
   'E_TIMING_POLICY_K',
   'E_TIMING_SLOWDOWN_NOT_FINITE',
   // src/results

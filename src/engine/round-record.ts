@@ -56,6 +56,11 @@ export const clientRoundRecordSchema = z.object({
   computeSeconds: seconds,
   waitSeconds: seconds,
   transferSeconds: seconds,
+  /**
+   * wall clock, distributed: seconds the ups frame carrying this client's up took to arrive at
+   * the coordinator's socket, from its first byte to its last (the link's own transfer time)
+   */
+  upStreamSeconds: seconds.optional(),
   bytes: bytesByLayerSchema,
   dropped: z.boolean(),
 });

@@ -170,7 +170,13 @@ export function* walkRound(
     }
     const order = { round, exchange, downs };
     const reply = yield* ask({ kind: 'exchange', order });
-    const settled = settleExchange(plan, order, reply, setup.byteLayers);
+    const settled = settleExchange(
+      plan,
+      order,
+      exchanges.indexOf(exchange),
+      reply,
+      setup.byteLayers,
+    );
     reply.recorded?.(settled.records);
     const localWork = isLocalWorkExchange(exchanges, exchange);
     for (const r of settled.records) {

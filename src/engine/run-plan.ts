@@ -6,6 +6,7 @@ import type { Scenario } from '../scenario/schema.js';
 import type { MethodConfig } from '../algorithm/method.js';
 import type { WirePlan } from '../protocol/wire-plan.js';
 import { hashOf } from '../scenario/plan-hash.js';
+import { drawLinks, type ClientLink } from '../timing/links.js';
 import { localStepsFor } from '../timing/local-steps.js';
 import { participantCount } from '../timing/participation.js';
 import { assertPolicyFitsRound } from '../timing/round-policy.js';
@@ -21,6 +22,8 @@ export interface RunPlan extends WirePlan {
   plannedSteps: Int32Array;
   /** p_i, summing to 1 */
   weights: Float64Array;
+  /** every client's link, by client id */
+  links: readonly ClientLink[];
 }
 
 /** What the plan needs from the problem: its dimension, weights and smoothness L of f. */
@@ -75,6 +78,7 @@ export function resolveRunPlan(scenario: Scenario, facts: PlanProblemFacts): Run
     planHash: hashOf(wire),
     clientCount: scenario.clients.count,
     plannedSteps: localStepsFor(scenario.method.localSteps, scenario.clients.count, scenario.seed),
+    links: drawLinks(scenario.timing.links, scenario.clients.count, scenario.seed),
     weights: facts.weights,
   };
 }

@@ -1,6 +1,8 @@
 // One exchange settled once its ups are back: the round policy decides tau_i, drops and seconds
 // over the clients whose up came back (decideRound, in ascending client id), every client sent
-// a down gets a record, and the uploads that count go on to aggregation.
+// a down gets a record, and the uploads that count go on to aggregation. Transfers are priced on
+// the wire bytes of each client's own frames (own-frame-bytes.ts says why), the same in every
+// runtime.
 
 import { fieldsPayloadBytes } from '../compress/payload-bytes.js';
 import {
@@ -10,6 +12,7 @@ import {
   type RoundParticipant,
   type RoundTiming,
 } from '../timing/round-policy.js';
+import { ownDownFrameBytes, ownUpFrameBytes } from './own-frame-bytes.js';
 import type { ClientRoundRecord } from './round-record.js';
 import type { RunPlan } from './run-plan.js';
 import type { EncodedUpload } from './server-runtime.js';
@@ -29,9 +32,12 @@ export interface SettledExchange {
 export function settleExchange(
   plan: RunPlan,
   order: ExchangeOrder,
+  exchangeIndex: number,
   reply: ExchangeReply,
   byteLayers: readonly ByteLayer[],
 ): SettledExchange {
+  const { timing } = plan.scenario;
+  const deadlineSeconds = timing.policy.kind === 'deadline' ? timing.policy.budgetSeconds : null;
   const ups = new Map<
     number,
     { up: Extract<ClientReturn, { kind: 'up' }>; payloadBytes: number }
@@ -41,22 +47,33 @@ export function settleExchange(
     const a = down.assignment;
     const returned = reply.returns.get(a.clientId);
     if (returned?.kind !== 'up') continue;
-    const upBytes = fieldsPayloadBytes(returned.encodedUp);
-    ups.set(a.clientId, { up: returned, payloadBytes: upBytes });
+    ups.set(a.clientId, { up: returned, payloadBytes: fieldsPayloadBytes(returned.encodedUp) });
     inputs.push({
       clientId: a.clientId,
       stepSeconds: a.stepSeconds,
       plannedSteps: a.localSteps,
       stepsTaken: returned.stepsTaken,
-      downBytes: down.payloadBytes,
-      upBytes,
+      downBytes: ownDownFrameBytes(
+        order.round,
+        exchangeIndex,
+        deadlineSeconds,
+        a,
+        down.encodedDown,
+      ),
+      upBytes: ownUpFrameBytes(
+        order.round,
+        exchangeIndex,
+        a.clientId,
+        returned.stepsTaken,
+        returned.encodedUp,
+      ),
+      link: plan.links[a.clientId],
     });
   }
-  const { timing } = plan.scenario;
   const decided: RoundTiming =
     inputs.length === 0
       ? { participants: [], roundSeconds: 0 }
-      : decideRound(policyForUpdates(timing.policy, inputs.length), timing.links, inputs);
+      : decideRound(policyForUpdates(timing.policy, inputs.length), inputs);
   const timingOf = new Map<number, ParticipantTiming>(
     decided.participants.map((t) => [t.clientId, t]),
   );
@@ -88,6 +105,7 @@ export function settleExchange(
       record.computeSeconds = measured?.computeSeconds ?? t.computeSeconds;
       record.transferSeconds = measured?.transferSeconds ?? t.downSeconds + t.upSeconds;
       record.waitSeconds = measured?.waitSeconds ?? t.waitSeconds;
+      if (measured !== undefined) record.upStreamSeconds = measured.upStreamSeconds;
       if (counted)
         uploads.push({
           clientId: a.clientId,

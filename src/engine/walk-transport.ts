@@ -36,6 +36,8 @@ export interface MeasuredSeconds {
   computeSeconds: number;
   transferSeconds: number;
   waitSeconds: number;
+  /** seconds the frame carrying the up took to arrive at the server's socket, first byte to last */
+  upStreamSeconds: number;
 }
 
 /** Bytes of one client's down and up at the transport's own layers. */

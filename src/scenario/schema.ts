@@ -268,11 +268,28 @@ export const roundPolicySchema = z.discriminatedUnion('kind', [
   z.object({ kind: z.literal('fastest-k'), k: positiveInt }).strict(),
 ]);
 
+/**
+ * One link quantity per client: a value for all, a list (one per client), or a seeded draw
+ * (src/timing/links.ts); `value` bounds each value (bandwidths above 0, latencies from 0).
+ */
+function linkValueSchema(value: z.ZodNumber) {
+  return z.union([
+    value,
+    z.array(value).min(1).max(SCENARIO_LIMITS.clientsMax),
+    z
+      .object({ kind: z.literal('uniform'), min: value, max: value })
+      .strict()
+      .refine((u) => u.min <= u.max, { message: 'min must not exceed max' }),
+    z.object({ kind: z.literal('lognormal'), median: value, sigma: nonNegative }).strict(),
+  ]);
+}
+export type LinkValueSpec = z.infer<ReturnType<typeof linkValueSchema>>;
+
 export const linkSchema = z
   .object({
-    uplinkBytesPerSecond: positive.default(1e9),
-    downlinkBytesPerSecond: positive.default(1e9),
-    latencySeconds: nonNegative.default(0),
+    uplinkBytesPerSecond: linkValueSchema(positive).default(1e9),
+    downlinkBytesPerSecond: linkValueSchema(positive).default(1e9),
+    latencySeconds: linkValueSchema(nonNegative).default(0),
   })
   .strict();
 

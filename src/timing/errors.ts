@@ -4,6 +4,10 @@
 export type TimingErrorCode =
   /** method.localSteps is a list whose length is not the client count */
   | 'E_TIMING_LOCAL_STEPS_LENGTH'
+  /** a timing.links quantity is a list whose length is not the client count */
+  | 'E_TIMING_LINKS_LENGTH'
+  /** a link draw overflowed or underflowed (a lognormal sigma far too large) */
+  | 'E_TIMING_LINK_NOT_FINITE'
   /** a slowdown draw overflowed (a pareto shape far below 1) */
   | 'E_TIMING_SLOWDOWN_NOT_FINITE'
   /** fastest-k asks for more updates than the round has participants */

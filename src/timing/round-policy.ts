@@ -17,7 +17,7 @@
 
 import type { Scenario } from '../scenario/schema.js';
 import { TimingError, assertFiniteAtLeast, assertIntegerInRange } from './errors.js';
-import { downlinkSecondsFor, uplinkSecondsFor, type LinkModel } from './links.js';
+import { downlinkSecondsFor, uplinkSecondsFor, type ClientLink } from './links.js';
 
 export type RoundPolicy = Scenario['timing']['policy'];
 
@@ -34,6 +34,8 @@ export interface RoundParticipant {
   readonly downBytes: number;
   /** bytes this client sends back (after compression; expected, if it varies) */
   readonly upBytes: number;
+  /** the client's own link */
+  readonly link: ClientLink;
 }
 
 /** What happened to one participant in the round. */
@@ -128,7 +130,6 @@ function checkParticipants(participants: readonly RoundParticipant[]): void {
 /** Decides tau_i, drops and times for one exchange of one round. Participants must be in ascending client id. */
 export function decideRound(
   policy: RoundPolicy,
-  link: LinkModel,
   participants: readonly RoundParticipant[],
 ): RoundTiming {
   checkParticipants(participants);
@@ -139,8 +140,8 @@ export function decideRound(
   const finishSeconds = new Float64Array(count);
   for (let j = 0; j < count; j++) {
     const p = participants[j];
-    downSeconds[j] = downlinkSecondsFor(link, p.downBytes);
-    upSeconds[j] = uplinkSecondsFor(link, p.upBytes);
+    downSeconds[j] = downlinkSecondsFor(p.link, p.downBytes);
+    upSeconds[j] = uplinkSecondsFor(p.link, p.upBytes);
     localSteps[j] = p.stepsTaken ?? stepsUnderPolicy(policy, p.stepSeconds, p.plannedSteps);
     finishSeconds[j] = downSeconds[j] + localSteps[j] * p.stepSeconds + upSeconds[j];
   }

@@ -17,8 +17,15 @@ export class CliProcess {
   readonly exited: Promise<{ code: number | null; signal: NodeJS.Signals | null }>;
   private readonly watchers: (() => void)[] = [];
 
-  constructor(args: string[], env: NodeJS.ProcessEnv = {}, cwd: string = repoRoot) {
-    this.child = spawn(process.execPath, [bin, ...args], {
+  /** `launcher` goes before node, e.g. `ip netns exec NAME` to start it in a network namespace. */
+  constructor(
+    args: string[],
+    env: NodeJS.ProcessEnv = {},
+    cwd: string = repoRoot,
+    launcher: readonly string[] = [],
+  ) {
+    const [command, ...rest] = [...launcher, process.execPath, bin, ...args];
+    this.child = spawn(command, rest, {
       cwd,
       env: { ...process.env, NO_COLOR: '1', ...env },
       stdio: ['ignore', 'pipe', 'pipe'],

@@ -44,12 +44,39 @@ describe('WireMeter', () => {
     ]);
     for (let i = 0; i < stream.length; i += 997)
       socket.emit('data', stream.subarray(i, Math.min(stream.length, i + 997)));
-    expect([
-      meter.takeMessageBytes(),
-      meter.takeMessageBytes(),
-      meter.takeMessageBytes(),
-      meter.takeMessageBytes(),
-    ]).toEqual([2 + 4 + 10, 2 + 2 + 4 + 300, 2 + 8 + 4 + 70_000, 2 + 4 + 5 + (2 + 4 + 6)]);
+    expect([1, 2, 3, 4].map(() => meter.takeMessage().wireBytes)).toEqual([
+      2 + 4 + 10,
+      2 + 2 + 4 + 300,
+      2 + 8 + 4 + 70_000,
+      2 + 4 + 5 + (2 + 4 + 6),
+    ]);
     expect(meter.controlReadBytes).toBe(2 + 4 + 4);
+  });
+
+  it('times each message from the read with its first byte to the read with its last', () => {
+    const socket = fakeSocket();
+    let nowMs = 0;
+    const meter = new WireMeter(
+      socket,
+      Number.MAX_SAFE_INTEGER,
+      () => undefined,
+      () => nowMs,
+    );
+    const message = frame(2, 3000);
+    const read = (ms: number, bytes: Buffer) => {
+      nowMs = ms;
+      socket.emit('data', bytes);
+    };
+    // A ping alone before the message starts no message of its own.
+    read(50, frame(9, 4));
+    read(100, message.subarray(0, 1000));
+    read(250, message.subarray(1000, 2000));
+    // The message's last bytes and the next message's first share a read.
+    read(400, Buffer.concat([message.subarray(2000), frame(2, 10)]));
+    const first = meter.takeMessage();
+    expect(first.wireBytes).toBe(message.length);
+    expect(first.streamSeconds).toBeCloseTo(0.3, 12);
+    // a message within one read took no measurable time
+    expect(meter.takeMessage()).toEqual({ wireBytes: 2 + 4 + 10, streamSeconds: 0 });
   });
 });

@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import { timingSchema } from '../../src/scenario/schema.js';
 import { TimingError } from '../../src/timing/errors.js';
-import type { LinkModel } from '../../src/timing/links.js';
+import type { ClientLink } from '../../src/timing/links.js';
 import { participantsFor } from '../../src/timing/participation.js';
 import {
   decideRound,
@@ -14,17 +14,29 @@ import { speedModelFor, stepSecondsFor } from '../../src/timing/round-speed.js';
 // section of DESIGN.md); the hand-worked cases use powers of two so that they are exact.
 
 /** 1024 bytes/s each way and 0.25 s latency: 1024 bytes take 1.25 s, 512 bytes 0.75 s. */
-const slowLink: LinkModel = {
+const slowLink: ClientLink = {
   uplinkBytesPerSecond: 1024,
   downlinkBytesPerSecond: 1024,
   latencySeconds: 0.25,
 };
 /** No transfer time at all when messages are empty. */
-const freeLink: LinkModel = {
+const freeLink: ClientLink = {
   uplinkBytesPerSecond: 1e9,
   downlinkBytesPerSecond: 1e9,
   latencySeconds: 0,
 };
+
+/** Every participant on the same link. */
+function decide(
+  policy: RoundPolicy,
+  link: ClientLink,
+  participants: readonly Omit<RoundParticipant, 'link'>[],
+) {
+  return decideRound(
+    policy,
+    participants.map((p) => ({ ...p, link })),
+  );
+}
 
 function participant(
   clientId: number,
@@ -32,7 +44,7 @@ function participant(
   plannedSteps: number,
   downBytes = 0,
   upBytes = 0,
-): RoundParticipant {
+): Omit<RoundParticipant, 'link'> {
   return { clientId, stepSeconds, plannedSteps, downBytes, upBytes };
 }
 
@@ -43,7 +55,7 @@ describe('decideRound: all', () => {
       participant(2, 0.5, 2, 1024, 512),
       participant(5, 1, 3, 1024, 512),
     ];
-    const timing = decideRound({ kind: 'all' }, slowLink, participants);
+    const timing = decide({ kind: 'all' }, slowLink, participants);
     // finish = 1.25 down + tau step + 0.75 up = [3, 3, 5]
     expect(timing.roundSeconds).toBe(5);
     expect(timing.participants.map((p) => p.localSteps)).toEqual([4, 2, 3]);
@@ -68,7 +80,7 @@ describe('decideRound: deadline', () => {
       participant(2, 100, 99, 1024, 512), // none fit: 1
       participant(3, 0.0625, 99, 1024, 512), // 160 fit: capped at 16
     ];
-    const timing = decideRound(policy, slowLink, participants);
+    const timing = decide(policy, slowLink, participants);
     expect(timing.participants.map((p) => p.localSteps)).toEqual([10, 3, 1, 16]);
     // The slow client's single step overruns the budget; the round waits for it.
     expect(timing.roundSeconds).toBe(2 + 100);
@@ -81,7 +93,7 @@ describe('decideRound: deadline', () => {
     const participants = Array.from({ length: 60 }, (_, i) =>
       participant(i, 10 ** (-4 + i / 10), 1, 1024, 512),
     );
-    for (const p of decideRound(policy, slowLink, participants).participants) {
+    for (const p of decide(policy, slowLink, participants).participants) {
       expect(p.localSteps).toBeGreaterThanOrEqual(1);
       expect(p.localSteps).toBeLessThanOrEqual(stepsMax);
     }
@@ -89,7 +101,7 @@ describe('decideRound: deadline', () => {
 
   it('counts a budget that holds a whole number of decimal steps as that number', () => {
     // 0.3 / 0.1 is 2.9999999999999996 in binary floating point; three 0.1 s steps fit 0.3 s.
-    const timing = decideRound({ kind: 'deadline', budgetSeconds: 0.3, stepsMax: 100 }, freeLink, [
+    const timing = decide({ kind: 'deadline', budgetSeconds: 0.3, stepsMax: 100 }, freeLink, [
       participant(0, 0.1, 1),
     ]);
     expect(timing.participants[0].localSteps).toBe(3);
@@ -107,7 +119,7 @@ describe('decideRound: deadline', () => {
     const speed = speedModelFor(timing, m, 17);
     const ids = participantsFor(1, m, 17, 0);
     const participants = Array.from(ids, (id) => participant(id, stepSecondsFor(speed, id, 0), 1));
-    const decided = decideRound(timing.policy, timing.links, participants);
+    const decided = decide(timing.policy, freeLink, participants);
     const slow = decided.participants.filter((p) => speed.slowdowns[p.clientId] === factor);
     const fast = decided.participants.filter((p) => speed.slowdowns[p.clientId] === 1);
     // exactly round(0.25 * 40) = 10 stragglers
@@ -138,7 +150,7 @@ describe('decideRound: fastest-k', () => {
       const participants = Array.from({ length: m }, (_, id) =>
         participant(id, stepSecondsFor(speed, id, round), 1 + (id % 4), 4096, 4096),
       );
-      const decided = decideRound(timing.policy, timing.links, participants);
+      const decided = decide(timing.policy, freeLink, participants);
       const dropped = decided.participants.filter((p) => p.dropped);
       const counted = decided.participants.filter((p) => !p.dropped);
       expect(dropped.length).toBe(m - k);
@@ -162,17 +174,14 @@ describe('decideRound: fastest-k', () => {
       participant(8, 0.5, 4),
       participant(9, 2, 1),
     ];
-    const decided = decideRound({ kind: 'fastest-k', k: 2 }, freeLink, participants);
+    const decided = decide({ kind: 'fastest-k', k: 2 }, freeLink, participants);
     expect(decided.participants.map((p) => p.dropped)).toEqual([false, false, true, true]);
     expect(decided.roundSeconds).toBe(2);
   });
 
   it('refuses k above the number of participants, naming timing.policy.k', () => {
     expect(() =>
-      decideRound({ kind: 'fastest-k', k: 3 }, freeLink, [
-        participant(0, 1, 1),
-        participant(1, 1, 1),
-      ]),
+      decide({ kind: 'fastest-k', k: 3 }, freeLink, [participant(0, 1, 1), participant(1, 1, 1)]),
     ).toThrowError(
       expect.objectContaining({ code: 'E_TIMING_POLICY_K', fieldPath: 'timing.policy.k' }),
     );
@@ -181,10 +190,10 @@ describe('decideRound: fastest-k', () => {
 
 describe('decideRound: inputs', () => {
   it('refuses no participants, unsorted ids and a non-positive step time', () => {
-    const expectArgumentError = (participants: RoundParticipant[]) => {
+    const expectArgumentError = (participants: Omit<RoundParticipant, 'link'>[]) => {
       let caught: unknown = null;
       try {
-        decideRound({ kind: 'all' }, freeLink, participants);
+        decide({ kind: 'all' }, freeLink, participants);
       } catch (error) {
         caught = error;
       }
