@@ -186,10 +186,12 @@ export function fileDataShape(scenario: Scenario): {
   sampleCount: number;
   featureCount: number;
   keys: readonly string[] | undefined;
+  droppedRowCount: number;
 } {
   const table = fileTable(scenario);
   return {
     sampleCount: table.sampleCount,
+    droppedRowCount: table.droppedRowCount,
     featureCount: table.featureNames.length + 1,
     keys: table.keys,
   };
