@@ -8,7 +8,10 @@ import { ScenarioError } from './scenario-error.js';
 import { readScenarioText } from './read-scenario-text.js';
 import { pinDataFile, withDataPathFrom } from './data-file-pin.js';
 
-/** Reads and parses a scenario file without validating it, so that variants of it can share the reading. */
+/**
+ * Reads and parses a scenario file without validating it, so that variants of it can share the
+ * reading; a relative data file path is made absolute against the scenario file's folder.
+ */
 export function readScenarioDocument(file: string): unknown {
   return withDataPathFrom(parseScenarioText(readScenarioText(file), file), file);
 }
