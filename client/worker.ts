@@ -44,6 +44,7 @@ import {
 } from '../src/protocol/index.js';
 import type { ClientRuntimeSnapshot, EncodedFields } from '../src/engine/client-runtime.js';
 import type { WirePlan } from '../src/engine/run-plan.js';
+import { dataFileCopyProblem } from '../src/data/file-pool.js';
 import { downFieldDimsFor } from '../src/engine/down-field-dims.js';
 import { isNonFiniteError } from '../src/base/coded-error.js';
 import { drawLinks } from '../src/timing/links.js';
@@ -351,6 +352,18 @@ export class Worker {
         'E_SIZE',
         `welcome.assignments: ${message.assignments.length} clients for a capacity of ${this.options.capacity}`,
       );
+    // Each worker reads the data file itself: a copy other than the plan's would train other data.
+    const copyProblem =
+      plan.scenario.data.source === 'file' ? dataFileCopyProblem(plan.scenario.data) : null;
+    if (copyProblem !== null) {
+      this.send({
+        type: 'error',
+        code: 'E_DATA_FILE',
+        message: copyProblem.slice(0, message.limits.maxErrorMessageLength),
+      });
+      this.fail(new JoinError(`cannot host clients of this plan: ${copyProblem}`));
+      return;
+    }
     const wall = plan.scenario.timing.clock === 'wall';
     const downFieldDims = downFieldDimsFor(plan);
     this.hosting = {

@@ -26,6 +26,7 @@ export const BAD_INPUT_CODES: ReadonlySet<string> = new Set([
   // src/data
   'E_DATA_SPEC',
   'E_DATASET',
+  'E_DATA_FILE',
   // src/timing
   'E_TIMING_ARGUMENT',
   'E_TIMING_LOCAL_STEPS_LENGTH',

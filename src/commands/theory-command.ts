@@ -19,6 +19,7 @@ import {
   type PublishedBound,
 } from '../theory/published-bounds.js';
 import { clientConstantsInParallel } from '../../server/oracle-pool.js';
+import { droppedRowCountOf } from '../data/dropped-rows.js';
 
 export interface TheoryReport {
   scenario: string;
@@ -27,6 +28,8 @@ export interface TheoryReport {
   dimension: number;
   clientCount: number;
   sampleCount: number;
+  /** rows of a data set or data file dropped for a missing value */
+  droppedRowCount: number;
   smoothness: number;
   strongConvexity: number;
   conditionNumber: number;
@@ -87,6 +90,7 @@ export async function theoryReport(scenario: Scenario): Promise<TheoryReport> {
     dimension: t.instance.dim,
     clientCount: t.instance.objectives.length,
     sampleCount: t.instance.sampleCounts.reduce((a, b) => a + b, 0),
+    droppedRowCount: droppedRowCountOf(scenario),
     smoothness: c.smoothness,
     strongConvexity: c.strongConvexity,
     conditionNumber: c.conditionNumber,
@@ -133,7 +137,7 @@ export function formatTheoryReport(r: TheoryReport): string {
   const curvatureNote = r.hessianAtOptimum.converged
     ? 'Lanczos'
     : 'Lanczos estimate: not converged within its step cap';
-  const title = `${r.scenario} (problem ${r.problemHash.slice(0, 12)}): ${r.problem}, dimension ${r.dimension}, ${r.clientCount} clients, ${r.sampleCount} samples`;
+  const title = `${r.scenario} (problem ${r.problemHash.slice(0, 12)}): ${r.problem}, dimension ${r.dimension}, ${r.clientCount} clients, ${r.sampleCount} samples${r.droppedRowCount > 0 ? ` (${r.droppedRowCount} rows dropped for a missing value)` : ''}`;
   const summary = formatTable(
     ['quantity', 'value', 'note'],
     [

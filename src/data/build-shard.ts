@@ -9,13 +9,15 @@
 //           (synthetic: sum_i n_i samples of the common model x0 with mean-zero features, since
 //           per-client models and shifts have no meaning before the split) is partitioned with
 //           the stream (seed, 'partition'); client i takes its part. The heterogeneity then
-//           comes from the partition alone. Pools are cached per data-relevant plan.
+//           comes from the partition alone. Pools are cached per data-relevant plan (a data
+//           file's by its path and content hash, which the plan carries).
 
 import type { Scenario } from '../scenario/schema.js';
 import { canonicalJson } from '../scenario/plan-hash.js';
 import { featureScales } from './covariance.js';
 import { DataError } from './data-error.js';
 import { datasetPool } from './dataset-pool.js';
+import { filePool } from './file-pool.js';
 import { partitionPool, type LabelledPool } from './partition.js';
 import { Rng } from '../base/rng.js';
 import { samplesForAllClients, samplesForClient } from './sample-counts.js';
@@ -170,6 +172,8 @@ function pooledData(scenario: Scenario): PooledData {
   if (scenario.data.source === 'synthetic') {
     featureCount = scenario.data.features;
     pool = syntheticPool(scenario as Scenario & { data: SyntheticData });
+  } else if (scenario.data.source === 'file') {
+    ({ featureCount, pool } = filePool(scenario));
   } else {
     ({ featureCount, pool } = datasetPool(scenario));
   }

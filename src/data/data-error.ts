@@ -6,7 +6,9 @@ export type DataErrorCode =
   /** A data specification that cannot be honoured (list length, too few groups, ...). */
   | 'E_DATA_SPEC'
   /** A data set that cannot be loaded or does not have the expected shape. */
-  | 'E_DATASET';
+  | 'E_DATASET'
+  /** A data file of the user's own that cannot be read or does not fit its scenario. */
+  | 'E_DATA_FILE';
 
 export class DataError extends Error {
   readonly code: DataErrorCode;

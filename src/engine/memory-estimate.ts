@@ -47,6 +47,7 @@ import { ScenarioError } from '../scenario/scenario-error.js';
 import { methodByName } from '../algorithm/registry.js';
 import { samplesForAllClients } from '../data/sample-counts.js';
 import { naturalKeysOf, scenarioDatasetShape } from '../data/dataset-pool.js';
+import { fileDataShape } from '../data/file-pool.js';
 import { checkNaturalClientCount, naturalGroupSizes } from '../data/partition.js';
 import { parameterDimension } from '../data/synthetic-models.js';
 import { participantCount } from '../timing/participation.js';
@@ -123,15 +124,27 @@ export interface DataShape {
   pooled: boolean;
 }
 
+/** A data set's or a data file's rows, features and natural keys (undefined: no natural split). */
+function readDataShape(scenario: Scenario): {
+  sampleCount: number;
+  featureCount: number;
+  keys: readonly string[] | undefined;
+} {
+  if (scenario.data.source === 'file') return fileDataShape(scenario);
+  const dataset = scenarioDatasetShape(scenario);
+  return { ...dataset, keys: naturalKeysOf(scenario, dataset) };
+}
+
 /** Every client's sample count and the feature count, from the scenario alone (nothing built). */
 export function dataShape(scenario: Scenario): DataShape {
   const data = scenario.data;
   const m = scenario.clients.count;
-  if (data.source === 'dataset') {
-    // A data set ships with a package and is small; its own size is read, not guessed: a
-    // natural split's groups as they are, any other split dealt evenly.
-    const dataset = scenarioDatasetShape(scenario);
-    const keys = naturalKeysOf(scenario, dataset);
+  if (data.source === 'dataset' || data.source === 'file') {
+    // A data set ships with a package and is small, and a data file is bounded in bytes; its
+    // own size is read, not guessed: a natural split's groups as they are, any other split
+    // dealt evenly.
+    const dataset = readDataShape(scenario);
+    const keys = dataset.keys;
     const share = Math.ceil(dataset.sampleCount / m);
     const groupSizes = keys === undefined ? undefined : naturalGroupSizes(keys);
     if (groupSizes !== undefined && data.partition.kind === 'natural')
@@ -311,7 +324,7 @@ export function assertMemoryFits(scenario: Scenario, layout: MemoryLayout = 'one
     throw new ScenarioError(
       'E_SCENARIO_FIELD',
       'problem.hiddenWidths',
-      `a perceptron of hidden widths [${scenario.problem.hiddenWidths?.join(', ')}] on ${scenario.data.source === 'dataset' ? `data set ${scenario.data.name}` : 'this data'} has ${estimate.dim} weights and biases, above the limit of ${SCENARIO_LIMITS.dimensionMax}`,
+      `a perceptron of hidden widths [${scenario.problem.hiddenWidths?.join(', ')}] on ${scenario.data.source === 'dataset' ? `data set ${scenario.data.name}` : scenario.data.source === 'file' ? scenario.data.path : 'this data'} has ${estimate.dim} weights and biases, above the limit of ${SCENARIO_LIMITS.dimensionMax}`,
     );
   const [bytes, made] = layoutBytes(estimate, layout);
   if (bytes <= RUN_MEMORY_MIB_MAX * MIB_BYTES) return;

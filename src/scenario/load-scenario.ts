@@ -6,10 +6,14 @@ import { applyTweak, parseTweak, type Tweak } from './tweaks.js';
 import { validateScenario } from './validate-scenario.js';
 import { ScenarioError } from './scenario-error.js';
 import { readScenarioText } from './read-scenario-text.js';
+import { pinDataFile, withDataPathFrom } from './data-file-pin.js';
 
-/** Reads and parses a scenario file without validating it, so that variants of it can share the reading. */
+/**
+ * Reads and parses a scenario file without validating it, so that variants of it can share the
+ * reading; a relative data file path is made absolute against the scenario file's folder.
+ */
 export function readScenarioDocument(file: string): unknown {
-  return parseScenarioText(readScenarioText(file), file);
+  return withDataPathFrom(parseScenarioText(readScenarioText(file), file), file);
 }
 
 function isUnder(fieldPath: string, ancestor: string): boolean {
@@ -29,7 +33,7 @@ export function scenarioFromDocument(document: unknown, tweaks: readonly Tweak[]
   let tweaked = document;
   for (const t of tweaks) tweaked = applyTweak(tweaked, t);
   try {
-    return validateScenario(tweaked);
+    return pinDataFile(validateScenario(tweaked));
   } catch (error) {
     if (!(error instanceof ScenarioError)) throw error;
     const culprit = tweaks

@@ -158,7 +158,62 @@ export const datasetDataSchema = z
   })
   .strict();
 
-export const dataSchema = z.discriminatedUnion('source', [syntheticDataSchema, datasetDataSchema]);
+const columnName = z.string().min(1).max(200);
+
+/** The limits of a data file of the user's own (src/data/data-file-*.ts). */
+export const DATA_FILE_LIMITS = {
+  /** bytes of the file, read whole into memory */
+  bytesMax: 256 * 1024 * 1024,
+  /** columns the scenario may name in features, categorical and allBut */
+  columnsNamedMax: 1000,
+  /** distinct values of one categorical column: each is a 0/1 feature */
+  levelsMax: 1000,
+} as const;
+
+export const fileDataSchema = z
+  .object({
+    source: z.literal('file'),
+    /**
+     * the data file, read by every process itself (raw data never crosses the wire); a relative
+     * path resolves against the scenario file's folder, or the working folder for a --tweak
+     */
+    path: z.string().min(1).max(4096),
+    /** csv: a header line of column names, then one row a line; jsonl: one JSON object a line */
+    format: z.enum(['csv', 'jsonl']),
+    /**
+     * the column the model learns: a number for least squares, a class label for the
+     * classifiers (labels numbered 0..k-1 in sorted order)
+     */
+    target: columnName,
+    /** feature columns: a list of names, or {allBut: [...]}: every column but these, the target and the key */
+    features: z.union([
+      z.array(columnName).min(1).max(DATA_FILE_LIMITS.columnsNamedMax),
+      z.object({ allBut: z.array(columnName).max(DATA_FILE_LIMITS.columnsNamedMax) }).strict(),
+    ]),
+    /** feature columns holding categories: one 0/1 feature per value, values in sorted order */
+    categorical: z.array(columnName).max(DATA_FILE_LIMITS.columnsNamedMax).default([]),
+    /** a row with an empty feature or target: refused (an error naming it) or dropped and counted */
+    missing: z.enum(['refuse', 'drop']).default('refuse'),
+    /** scale numeric features to zero mean and unit variance over the training rows */
+    standardize: z.boolean().default(true),
+    /** natural: the key is a column; one client per distinct value, in sorted order */
+    partition: partitionSchema.default({ kind: 'iid' }),
+    /**
+     * SHA-256 of the file's bytes, hex: filled in when the scenario is loaded; a value given
+     * here pins the file, and every process refuses a file with another hash
+     */
+    sha256: z
+      .string()
+      .regex(/^[0-9a-f]{64}$/)
+      .optional(),
+  })
+  .strict();
+
+export const dataSchema = z.discriminatedUnion('source', [
+  syntheticDataSchema,
+  datasetDataSchema,
+  fileDataSchema,
+]);
 
 export const clientsSchema = z
   .object({
@@ -450,6 +505,61 @@ function checkDatasetFits(
   }
 }
 
+/**
+ * What a file scenario's own fields can tell before the file is read: the target, the key and the
+ * features are distinct columns, categorical columns are features, and a real-valued target is
+ * not split by label. The columns' presence is checked against the file (src/data/data-file-table.ts).
+ */
+function checkFileColumns(
+  data: z.output<typeof fileDataSchema>,
+  problem: z.output<typeof problemSchema>,
+  ctx: z.RefinementCtx,
+): void {
+  const key = data.partition.kind === 'natural' ? data.partition.key : null;
+  if (Array.isArray(data.features)) {
+    data.features.forEach((column, i) => {
+      if (column === data.target || column === key)
+        ctx.addIssue({
+          code: 'custom',
+          path: ['data', 'features', i],
+          message: `"${column}" is the ${column === data.target ? 'target' : 'key'}; it cannot be a feature too`,
+        });
+    });
+    const features = data.features;
+    data.categorical.forEach((column, i) => {
+      if (!features.includes(column))
+        ctx.addIssue({
+          code: 'custom',
+          path: ['data', 'categorical', i],
+          message: `"${column}" is not one of data.features (${features.join(', ')})`,
+        });
+    });
+  } else {
+    const excluded = data.features.allBut;
+    data.categorical.forEach((column, i) => {
+      if (excluded.includes(column) || column === data.target || column === key)
+        ctx.addIssue({
+          code: 'custom',
+          path: ['data', 'categorical', i],
+          message: `"${column}" is not a feature (it is the target, the key or in data.features.allBut)`,
+        });
+    });
+  }
+  if (key === data.target)
+    ctx.addIssue({
+      code: 'custom',
+      path: ['data', 'partition', 'key'],
+      message: `"${key}" is the target; the key must be another column`,
+    });
+  const partition = data.partition.kind;
+  if (problem.kind === 'least-squares' && (partition === 'dirichlet' || partition === 'shards'))
+    ctx.addIssue({
+      code: 'custom',
+      path: ['data', 'partition', 'kind'],
+      message: `"${partition}" splits by class label, but a least-squares target is a real value; use "iid" or "natural"`,
+    });
+}
+
 export const scenarioSchema = z
   .object({
     name: z.string().min(1).max(200),
@@ -502,6 +612,10 @@ export const scenarioSchema = z
       });
     if (scenario.data.source === 'dataset') {
       checkDatasetFits(scenario.data, scenario.problem, ctx);
+      return;
+    }
+    if (scenario.data.source === 'file') {
+      checkFileColumns(scenario.data, scenario.problem, ctx);
       return;
     }
     // Softmax learns one weight vector per class: its dimension is a product of two fields.
