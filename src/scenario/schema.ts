@@ -122,6 +122,8 @@ export const partitionSchema = z.discriminatedUnion('kind', [
   z.object({ kind: z.literal('natural'), key: z.string().min(1) }).strict(),
 ]);
 
+const testFraction = z.number().min(0).lt(1).default(0);
+
 export const syntheticDataSchema = z
   .object({
     source: z.literal('synthetic'),
@@ -138,6 +140,11 @@ export const syntheticDataSchema = z
     noise: nonNegative.default(0.1),
     /** labelled problems only: how labels are spread over clients */
     partition: partitionSchema.default({ kind: 'iid' }),
+    /**
+     * the fraction of each client's rows held out as its test part (seeded); the model trains,
+     * and the oracle solves, on the rest; 0 holds nothing out
+     */
+    testFraction: testFraction,
   })
   .strict();
 
@@ -151,10 +158,15 @@ export const datasetDataSchema = z
     /** natural: the key must be one of the data set's, and clients.count its number of values */
     partition: partitionSchema.default({ kind: 'iid' }),
     /**
-     * scale features to zero mean and unit variance over the whole data set before partitioning;
-     * absent: the data set's default (yes, except digits, whose pixels are already in [0, 1])
+     * scale features to zero mean and unit variance over the training rows (the whole data set
+     * when nothing is held out), computed after partitioning and applied to every row; absent: the data set's default (yes, except digits, whose pixels are already in [0, 1])
      */
     standardize: z.boolean().optional(),
+    /**
+     * the fraction of each client's rows held out as its test part (seeded); the model trains,
+     * and the oracle solves, on the rest; 0 holds nothing out
+     */
+    testFraction: testFraction,
   })
   .strict();
 
