@@ -315,6 +315,11 @@ export const runSchema = z
     rounds: positiveInt.max(SCENARIO_LIMITS.roundsMax),
     /** stop once f(x) - f* is at or below this */
     target: nonNegative.default(0),
+    /**
+     * a held-out accuracy to reach (classifiers with data.testFraction > 0): the summary and
+     * compare report the rounds, bytes and seconds to it; it does not stop the run
+     */
+    targetAccuracy: z.number().gt(0).max(1).optional(),
     /** worker processes for the distributed runtime */
     workers: positiveInt.max(SCENARIO_LIMITS.workersMax).default(2),
     /** evaluate f(x) - f* every this many rounds */
