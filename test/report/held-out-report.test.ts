@@ -9,7 +9,7 @@ import { mkdtempSync, readFileSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { scenarioFromText } from '../../src/scenario/load-scenario.js';
-import { runInProcessInto } from '../../src/commands/run-report.js';
+import { formatRunSummary, runInProcessInto } from '../../src/commands/run-report.js';
 import { readRunResults } from '../../src/commands/report-command.js';
 import { buildRunReport } from '../../src/report/run-report-page.js';
 import { buildAllTestShards } from '../../src/data/build-shard.js';
@@ -88,6 +88,11 @@ describe('a run with a held-out test part', () => {
     expect(first!.round).toBeGreaterThan(0);
     expect(s.roundsToTargetAccuracy).toBe(first!.round);
     expect(s.toTargetAccuracy.virtualSeconds).toBe(first!.virtualSeconds);
+    const printed = formatRunSummary(results.summary, dir);
+    expect(printed).toContain(
+      `target test accuracy ${TARGET_ACCURACY}: reached at round ${first!.round}`,
+    );
+    expect(printed).toContain(`(client ${s.final.clientAccuracy!.worstClientId})`);
   });
 
   it('shows the pooled, mean and worst-client accuracy in the report', async () => {
