@@ -500,6 +500,21 @@ export const scenarioSchema = z
         message:
           'a perceptron has no smoothness constant L, so stepSize "auto" (1/L) has no value; give a number',
       });
+    // An accuracy target is read off the test parts' accuracy: it needs both.
+    if (scenario.run.targetAccuracy !== undefined) {
+      if (scenario.problem.kind === 'least-squares')
+        ctx.addIssue({
+          code: 'custom',
+          path: ['run', 'targetAccuracy'],
+          message: 'least squares has no accuracy; run.targetAccuracy belongs to classifiers',
+        });
+      else if (scenario.data.testFraction === 0)
+        ctx.addIssue({
+          code: 'custom',
+          path: ['run', 'targetAccuracy'],
+          message: 'run.targetAccuracy is measured on a test part; set data.testFraction above 0',
+        });
+    }
     if (scenario.data.source === 'dataset') {
       checkDatasetFits(scenario.data, scenario.problem, ctx);
       return;
