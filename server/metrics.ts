@@ -7,7 +7,7 @@
 import { Counter, Gauge, Histogram, Registry } from 'prom-client';
 import { FRAME_ERROR_REASONS, PROTOCOL_ERROR_CODES } from '../src/protocol/index.js';
 import type { MethodName } from '../src/algorithm/method.js';
-import type { ClientRoundRecord, RoundRecord } from '../src/engine/round-record.js';
+import type { ClientRoundRecord, HeldOutRecord, RoundRecord } from '../src/engine/round-record.js';
 import { fitLinearRate } from '../src/theory/measure-curve.js';
 import type { ByteLedger } from './byte-ledger.js';
 import { LIMIT_REASONS } from './limit-reasons.js';
@@ -57,6 +57,10 @@ export class CoordinatorMetrics {
   private readonly suboptimalityInitial: Gauge;
   private readonly suboptimalityPredicted: Gauge;
   private readonly distance: Gauge;
+  private readonly testLoss: Gauge;
+  private readonly testAccuracy: Gauge;
+  /** per-client test accuracy by summary: mean, worst, range (best minus worst) */
+  private readonly testAccuracyClients: Gauge<'summary'>;
   private readonly roundDuration: Histogram<'clock'>;
   private readonly computeSeconds: Counter<'client'>;
   private readonly idleSeconds: Counter<'client'>;
@@ -112,6 +116,27 @@ export class CoordinatorMetrics {
       help: '||x - x*|| at the last evaluated round.',
       registers,
     });
+    // NaN until a round scores the test parts, and for good where none is held out.
+    this.testLoss = new Gauge({
+      name: 'roundwire_test_loss',
+      help: 'Mean loss (no L2 term) over the pooled held-out test rows at the last evaluated round.',
+      registers,
+    });
+    this.testLoss.set(Number.NaN);
+    this.testAccuracy = new Gauge({
+      name: 'roundwire_test_accuracy_ratio',
+      help: 'Share of the pooled held-out test rows labelled right at the last evaluated round (classifiers).',
+      registers,
+    });
+    this.testAccuracy.set(Number.NaN);
+    this.testAccuracyClients = new Gauge({
+      name: 'roundwire_client_test_accuracy_ratio',
+      help: "Each client's own test accuracy at the last evaluated round, summarised over the clients: mean, worst, or range (best minus worst).",
+      labelNames: ['summary'],
+      registers,
+    });
+    for (const summary of ['mean', 'worst', 'range'])
+      this.testAccuracyClients.set({ summary }, Number.NaN);
     new Gauge({
       name: 'roundwire_rate_predicted',
       help: "The theory's per-round contraction of f - f* (NaN where it predicts none).",
@@ -239,12 +264,22 @@ export class CoordinatorMetrics {
   }
 
   /** A finished round with its clients' records; round 0 is the initial evaluation. */
+  private heldOutRecorded(heldOut: HeldOutRecord): void {
+    this.testLoss.set(heldOut.loss ?? Number.NaN);
+    this.testAccuracy.set(heldOut.accuracy ?? Number.NaN);
+    const clients = heldOut.clientAccuracy;
+    this.testAccuracyClients.set({ summary: 'mean' }, clients?.mean ?? Number.NaN);
+    this.testAccuracyClients.set({ summary: 'worst' }, clients?.worst ?? Number.NaN);
+    this.testAccuracyClients.set({ summary: 'range' }, clients?.range ?? Number.NaN);
+  }
+
   roundRecorded(record: RoundRecord, clients: readonly ClientRoundRecord[]): void {
     if (record.suboptimality !== null) {
       this.curve.add(record.round, record.suboptimality);
       this.suboptimality.set(record.suboptimality);
     }
     if (record.distance !== null) this.distance.set(record.distance);
+    if (record.heldOut !== undefined) this.heldOutRecorded(record.heldOut);
     if (record.suboptimality !== null)
       this.suboptimalityPredicted.set(record.predictedSuboptimality ?? Number.NaN);
     if (record.round === 0) {

@@ -53,10 +53,11 @@ export class OraclePool {
       workerData: threadData,
     });
     const shards = theory.instance.objectives.map((objective) => movableShard(objective.shard));
-    const task: OraclePrepareTask = { shards };
+    const testShards = theory.instance.testShards.map(movableShard);
+    const task: OraclePrepareTask = { shards, testShards };
     this.prepared = this.pool.run(task, {
       name: 'prepareTask',
-      transferList: shards.flatMap((s) => [
+      transferList: [...shards, ...testShards].flatMap((s) => [
         s.features.buffer as ArrayBuffer,
         s.targets.buffer as ArrayBuffer,
       ]),

@@ -1,6 +1,7 @@
 // The oracle's work as piscina tasks, on pool threads so that a large problem never holds up the
 // coordinator's message handling or a single core:
-// - evaluateTask (default export): f(x) - f* and ||x - x*|| of a model, and the predicted
+// - evaluateTask (default export): f(x) - f* and ||x - x*|| of a model, its held-out scores
+//   (src/engine/held-out-evaluation.ts, on the test parts handed over with the shards), and the predicted
 //   trajectory's f - f* after as many rounds (src/engine/predicted-trajectory.ts). The plan and
 //   x*, f* come once, as the pool's workerData (OracleThreadData); the data comes once too, as the
 //   coordinator's own shards (prepareTask, posted when the pool starts), so that the thread never
@@ -15,12 +16,14 @@ import type { Scenario } from '../src/scenario/schema.js';
 import {
   buildProblemInstance,
   clientObjective,
+  objectiveSpecOf,
   problemInstanceOf,
 } from '../src/data/problem-instance.js';
 import type { ProblemInstance } from '../src/data/problem-instance.js';
 import type { Shard } from '../src/problem/shard.js';
 import { clientConstants, type ClientConstants } from '../src/theory/constants.js';
 import { evaluateModel, type RoundEvaluation } from '../src/engine/evaluate.js';
+import { HeldOutSet } from '../src/engine/held-out-evaluation.js';
 import { PredictedTrajectory } from '../src/engine/predicted-trajectory.js';
 import type { RunPlan } from '../src/engine/run-plan.js';
 import { TrajectoryAhead } from './trajectory-ahead.js';
@@ -35,6 +38,8 @@ export interface OracleThreadData {
 /** The coordinator's shards, every client's in client order. */
 export interface OraclePrepareTask {
   shards: Shard[];
+  /** every client's test part, in client order */
+  testShards: Shard[];
 }
 
 export interface OracleTask {
@@ -54,6 +59,7 @@ export interface ClientConstantsTask {
 interface OracleThreadState {
   data: OracleThreadData;
   instance: ProblemInstance;
+  heldOut: HeldOutSet;
   ahead: TrajectoryAhead;
 }
 
@@ -68,7 +74,12 @@ function stateFor(instance: ProblemInstance): OracleThreadState {
     instance.global,
     data.optimum,
   );
-  return { data, instance, ahead: new TrajectoryAhead(trajectory, data.plan.scenario.run) };
+  return {
+    data,
+    instance,
+    heldOut: new HeldOutSet(objectiveSpecOf(data.plan.scenario), instance.testShards),
+    ahead: new TrajectoryAhead(trajectory, data.plan.scenario.run),
+  };
 }
 
 /** Walks one round ahead when the thread has nothing else to do, and again after it. */
@@ -85,16 +96,17 @@ function walkAheadWhenIdle(): void {
 
 export function prepareTask(task: OraclePrepareTask): void {
   const { plan } = workerData as OracleThreadData;
-  state = stateFor(problemInstanceOf(plan.scenario, task.shards));
+  state = stateFor(problemInstanceOf(plan.scenario, task.shards, task.testShards));
   walkAheadWhenIdle();
 }
 
 export default function evaluateTask(task: OracleTask): RoundEvaluation {
   state ??= stateFor(buildProblemInstance((workerData as OracleThreadData).plan.scenario));
-  const { instance, data, ahead } = state;
+  const { instance, data, heldOut, ahead } = state;
   const evaluation = {
     ...evaluateModel(instance.global, data.optimum.x, data.optimum.loss, task.model),
     predictedSuboptimality: ahead.at(task.round),
+    heldOut: heldOut.evaluate(task.model),
   };
   walkAheadWhenIdle();
   return evaluation;

@@ -76,6 +76,25 @@ function windowLine(a: RunSummary['rate']['asymptotic']): string {
   return `${a.note}; measured rate standard error ${formatNumber(a.measuredStandardError)}`;
 }
 
+/** The held-out scores at the last evaluated round and the target accuracy; none without a test part. */
+function heldOutLines(heldOut: RunSummary['heldOut']): string[] {
+  if (heldOut === undefined) return [];
+  const { final } = heldOut;
+  const c = final.clientAccuracy;
+  const lines = [
+    `test loss ${formatNumber(final.loss)}` +
+      (final.accuracy === null ? '' : `; test accuracy ${formatNumber(final.accuracy)} pooled`) +
+      (c === null
+        ? ''
+        : `, clients: mean ${formatNumber(c.mean)}, worst ${formatNumber(c.worst)} (client ${c.worstClientId}), range ${formatNumber(c.range)}`),
+  ];
+  if (heldOut.targetAccuracy !== null)
+    lines.push(
+      `target test accuracy ${heldOut.targetAccuracy}: ${heldOut.roundsToTargetAccuracy === null ? 'not reached' : `reached at round ${heldOut.roundsToTargetAccuracy}, ${formatBytes(heldOut.toTargetAccuracy.payloadBytes ?? 0)} payload`}`,
+    );
+  return lines;
+}
+
 export function formatRunSummary(s: RunSummary, outDir: string): string {
   const rows: (string | number | null)[][] = [
     [gapName(s.theory.reference !== null), s.suboptimality.initial, s.suboptimality.final, null],
@@ -102,6 +121,7 @@ export function formatRunSummary(s: RunSummary, outDir: string): string {
     rates,
     '',
     `target ${s.target}: ${s.roundsToTarget === null ? 'not reached' : `reached at round ${s.roundsToTarget}, ${formatBytes(s.toTarget.payloadBytes ?? 0)} payload`}`,
+    ...heldOutLines(s.heldOut),
     `payload bytes: ${bytes(s.bytes.payload)}${s.bytes.wire ? `; wire: ${bytes(s.bytes.wire)}` : ''}`,
     `seconds: ${s.seconds.virtual.toPrecision(4)} modelled, ${s.seconds.wall.toFixed(2)} wall; dropped updates ${s.droppedUpdates}`,
     `rate window: ${windowLine(s.rate.asymptotic)}`,

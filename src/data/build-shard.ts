@@ -11,6 +11,10 @@
 //           the stream (seed, 'partition'); client i takes its part. The heterogeneity then
 //           comes from the partition alone. Pools are cached per data-relevant plan (a data
 //           file's by its path and content hash, which the plan carries).
+//
+// Either way a client then holds out data.testFraction of its rows (test-part.ts): buildShard
+// gives its training rows, the only rows any client, oracle or scaling sees; buildTestShard gives
+// the rest, for the evaluation.
 
 import type { Scenario } from '../scenario/schema.js';
 import { canonicalJson } from '../scenario/plan-hash.js';
@@ -23,6 +27,8 @@ import { Rng } from '../base/rng.js';
 import { samplesForAllClients, samplesForClient } from './sample-counts.js';
 import type { Shard } from '../problem/shard.js';
 import { drawSamples, type SampleKind, type SampleModel } from './synthetic.js';
+import { standardizeOverRows } from './datasets.js';
+import { pickRows, splitRows, testRowCount } from './test-part.js';
 import {
   clientFeatureMean,
   clientMinimizer,
@@ -41,7 +47,10 @@ interface PooledData {
   featureCount: number;
   features: Float64Array;
   targets: Float64Array;
+  /** each client's training rows of the pool */
   parts: Uint32Array[];
+  /** each client's test rows of the pool (empty when nothing is held out) */
+  testParts: Uint32Array[];
 }
 
 const poolCache = new Map<string, PooledData>();
@@ -89,7 +98,8 @@ function featureScalesOf(data: SyntheticData): Float64Array {
   return featureScales(data.features, data.conditionNumber);
 }
 
-function directShard(scenario: Scenario & { data: SyntheticData }, clientId: number): Shard {
+/** Client clientId's every row, before its test part is held out. */
+function directRows(scenario: Scenario & { data: SyntheticData }, clientId: number): Shard {
   const { seed, problem, data } = scenario;
   const p = data.features;
   const sampleKind = sampleKindOf(problem.kind);
@@ -169,21 +179,35 @@ function pooledData(scenario: Scenario): PooledData {
 
   let featureCount: number;
   let pool: LabelledPool & { features: Float64Array; targets: Float64Array };
+  let columnsToStandardize: readonly number[] = [];
   if (scenario.data.source === 'synthetic') {
     featureCount = scenario.data.features;
     pool = syntheticPool(scenario as Scenario & { data: SyntheticData });
   } else if (scenario.data.source === 'file') {
-    ({ featureCount, pool } = filePool(scenario));
+    ({ featureCount, pool, columnsToStandardize } = filePool(scenario));
   } else {
-    ({ featureCount, pool } = datasetPool(scenario));
+    ({ featureCount, pool, columnsToStandardize } = datasetPool(scenario));
   }
-  const parts = partitionPool(
+  const wholeParts = partitionPool(
     pool,
     scenario.data.partition,
     scenario.clients.count,
     Rng.derive(scenario.seed, 'partition'),
   );
-  const entry: PooledData = { featureCount, features: pool.features, targets: pool.targets, parts };
+  const splits = wholeParts.map((part, clientId) =>
+    splitRows(scenario.seed, clientId, part.length, scenario.data.testFraction),
+  );
+  const parts = wholeParts.map((part, id) => pickRows(part, splits[id].training));
+  const testParts = wholeParts.map((part, id) => pickRows(part, splits[id].test));
+  if (columnsToStandardize.length > 0)
+    standardizeOverRows(pool.features, featureCount, columnsToStandardize, trainingRowsOf(parts));
+  const entry: PooledData = {
+    featureCount,
+    features: pool.features,
+    targets: pool.targets,
+    parts,
+    testParts,
+  };
 
   if (poolCache.size >= POOL_CACHE_ENTRIES_MAX) {
     const oldest = poolCache.keys().next().value as string;
@@ -193,9 +217,21 @@ function pooledData(scenario: Scenario): PooledData {
   return entry;
 }
 
-function pooledShard(scenario: Scenario, clientId: number): Shard {
-  const { featureCount: p, features, targets, parts } = pooledData(scenario);
-  const indices = parts[clientId];
+/** Every client's training rows of the pool, ascending. */
+function trainingRowsOf(parts: readonly Uint32Array[]): Uint32Array {
+  const total = parts.reduce((sum, part) => sum + part.length, 0);
+  const rows = new Uint32Array(total);
+  let at = 0;
+  for (const part of parts) {
+    rows.set(part, at);
+    at += part.length;
+  }
+  return rows.sort();
+}
+
+function pooledShard(scenario: Scenario, clientId: number, part: 'training' | 'test'): Shard {
+  const { featureCount: p, features, targets, parts, testParts } = pooledData(scenario);
+  const indices = (part === 'training' ? parts : testParts)[clientId];
   const shardFeatures = new Float64Array(indices.length * p);
   const shardTargets = new Float64Array(indices.length);
   for (let s = 0; s < indices.length; s++) {
@@ -212,10 +248,58 @@ function pooledShard(scenario: Scenario, clientId: number): Shard {
   };
 }
 
-/** Client clientId's shard: the same bytes in every process for the same scenario. */
+/** The rows of `shard` at `positions`, in their order. */
+function shardRows(shard: Shard, positions: Uint32Array): Shard {
+  const p = shard.featureCount;
+  const features = new Float64Array(positions.length * p);
+  const targets = new Float64Array(positions.length);
+  for (let k = 0; k < positions.length; k++) {
+    const s = positions[k];
+    features.set(shard.features.subarray(s * p, s * p + p), k * p);
+    targets[k] = shard.targets[s];
+  }
+  return { ...shard, sampleCount: positions.length, features, targets };
+}
+
+function directPart(
+  scenario: Scenario & { data: SyntheticData },
+  clientId: number,
+  part: 'training' | 'test',
+): Shard {
+  const fraction = scenario.data.testFraction;
+  // Nothing held out: no rows are drawn just to be dropped (a wide shard costs seconds).
+  if (fraction === 0 && part === 'test') {
+    const featureCount = scenario.data.features;
+    const empty = { sampleCount: 0, features: new Float64Array(0), targets: new Float64Array(0) };
+    return { clientId, featureCount, ...empty };
+  }
+  const rows = directRows(scenario, clientId);
+  if (fraction === 0) return rows;
+  const split = splitRows(scenario.seed, clientId, rows.sampleCount, fraction);
+  return shardRows(rows, part === 'training' ? split.training : split.test);
+}
+
+/** Client clientId's training shard: the same bytes in every process for the same scenario. */
 export function buildShard(scenario: Scenario, clientId: number): Shard {
   checkClientId(scenario, clientId);
-  return isDirect(scenario) ? directShard(scenario, clientId) : pooledShard(scenario, clientId);
+  return isDirect(scenario)
+    ? directPart(scenario, clientId, 'training')
+    : pooledShard(scenario, clientId, 'training');
+}
+
+/** Client clientId's test part (no rows when the scenario holds nothing out). */
+export function buildTestShard(scenario: Scenario, clientId: number): Shard {
+  checkClientId(scenario, clientId);
+  return isDirect(scenario)
+    ? directPart(scenario, clientId, 'test')
+    : pooledShard(scenario, clientId, 'test');
+}
+
+/** Every client's test part, in client order. */
+export function buildAllTestShards(scenario: Scenario): Shard[] {
+  return Array.from({ length: scenario.clients.count }, (_, clientId) =>
+    buildTestShard(scenario, clientId),
+  );
 }
 
 /** Every client's shard, in client order. */
@@ -225,13 +309,15 @@ export function buildAllShards(scenario: Scenario): Shard[] {
   );
 }
 
-/** n_i for every client, without building the direct shards. */
+/** n_i (training rows) for every client, without building the direct shards. */
 export function sampleCountsOf(scenario: Scenario): number[] {
-  if (isDirect(scenario))
+  if (isDirect(scenario)) {
+    const fraction = scenario.data.testFraction;
     return samplesForAllClients(
       scenario.data.samplesPerClient,
       scenario.clients.count,
       scenario.seed,
-    );
+    ).map((n) => n - testRowCount(fraction, n));
+  }
   return pooledData(scenario).parts.map((part) => part.length);
 }

@@ -10,7 +10,13 @@ import {
   type DatasetName,
 } from '../scenario/dataset-choices.js';
 import { DataError } from './data-error.js';
-import { datasetShape, loadDataset, type DatasetShape, type LabelledDataset } from './datasets.js';
+import {
+  datasetShape,
+  INTERCEPT_FEATURE,
+  loadDataset,
+  type DatasetShape,
+  type LabelledDataset,
+} from './datasets.js';
 import type { LabelledPool } from './partition.js';
 
 type DatasetData = Extract<Scenario['data'], { source: 'dataset' }>;
@@ -18,6 +24,11 @@ type DatasetData = Extract<Scenario['data'], { source: 'dataset' }>;
 export interface DatasetPool {
   featureCount: number;
   pool: LabelledPool & { features: Float64Array; targets: Float64Array };
+  /**
+   * The columns still to standardize over the training rows, once the test parts are drawn
+   * (build-shard.ts); empty when the loader has standardized the whole set or none is asked.
+   */
+  columnsToStandardize: readonly number[];
 }
 
 function datasetDataOf(scenario: Scenario): DatasetData {
@@ -27,12 +38,16 @@ function datasetDataOf(scenario: Scenario): DatasetData {
   return data;
 }
 
-/** The scenario's data set, loaded as the scenario says (target, standardization). */
+/**
+ * The scenario's data set, loaded as the scenario says (target, standardization). With a test
+ * part the statistics must come from the training rows alone, so the loader leaves the scaling
+ * to the caller (datasetPool).
+ */
 export function scenarioDataset(scenario: Scenario): LabelledDataset {
   const data = datasetDataOf(scenario);
   return loadDataset(data.name, {
     target: datasetTargetName(data),
-    standardize: datasetStandardizes(data),
+    standardize: datasetStandardizes(data) && data.testFraction === 0,
   });
 }
 
@@ -96,5 +111,11 @@ export function datasetPool(scenario: Scenario): DatasetPool {
     labels: dataset.targets,
     keys: naturalKeysOf(scenario, dataset),
   };
-  return { featureCount: dataset.featureCount, pool };
+  const data = datasetDataOf(scenario);
+  const measured = dataset.featureNames.filter((name) => name !== INTERCEPT_FEATURE).length;
+  const columnsToStandardize =
+    datasetStandardizes(data) && data.testFraction > 0
+      ? Array.from({ length: measured }, (_, j) => j)
+      : [];
+  return { featureCount: dataset.featureCount, pool, columnsToStandardize };
 }

@@ -58,24 +58,45 @@ const tableCache = new Map<string, DatasetTable>();
 /**
  * In place: each of the first `columnCount` columns minus its mean, divided by its population
  * standard deviation (divide by n, so that the scaled column has variance exactly 1 over these
- * samples). A constant column is only centred. Rows are featureCount wide.
+ * samples). A constant column is only centred. Rows are featureCount wide. With `statisticRows`
+ * (ascending row indices: the training rows) the mean and deviation come from those rows alone
+ * and every row is scaled by them, so that held-out rows never inform the scaling.
  */
 export function standardizeColumns(
   features: Float64Array,
   sampleCount: number,
   featureCount: number,
   columnCount = featureCount,
+  statisticRows?: Uint32Array,
 ): void {
-  for (let j = 0; j < columnCount; j++) {
+  const rows = statisticRows ?? Uint32Array.from({ length: sampleCount }, (_, s) => s);
+  const columns = Array.from({ length: columnCount }, (_, j) => j);
+  standardizeOverRows(features, featureCount, columns, rows);
+}
+
+/**
+ * In place, on every row: each column of `columns` minus its mean over `rows`, divided by its
+ * population standard deviation over `rows` (a constant column is only centred). The statistics
+ * come from the training rows, so a held-out row never informs the scaling it is scored under.
+ */
+export function standardizeOverRows(
+  features: Float64Array,
+  width: number,
+  columns: readonly number[],
+  rows: Uint32Array,
+): void {
+  const sampleCount = features.length / width;
+  const n = rows.length;
+  for (const j of columns) {
     let sum = 0;
-    for (let s = 0; s < sampleCount; s++) sum += features[s * featureCount + j];
-    const mean = sum / sampleCount;
+    for (let k = 0; k < n; k++) sum += features[rows[k] * width + j];
+    const mean = sum / n;
     let squares = 0;
-    for (let s = 0; s < sampleCount; s++) squares += (features[s * featureCount + j] - mean) ** 2;
-    const deviation = Math.sqrt(squares / sampleCount);
+    for (let k = 0; k < n; k++) squares += (features[rows[k] * width + j] - mean) ** 2;
+    const deviation = Math.sqrt(squares / n);
     const divisor = deviation > 0 ? deviation : 1;
     for (let s = 0; s < sampleCount; s++)
-      features[s * featureCount + j] = (features[s * featureCount + j] - mean) / divisor;
+      features[s * width + j] = (features[s * width + j] - mean) / divisor;
   }
 }
 

@@ -13,7 +13,7 @@ import { readDataFileRecords } from './data-file-records.js';
 import { dataFileTable, type DataFileTable } from './data-file-table.js';
 import type { DatasetPool } from './dataset-pool.js';
 import { DataError } from './data-error.js';
-import { INTERCEPT_FEATURE } from './datasets.js';
+import { INTERCEPT_FEATURE, standardizeOverRows } from './datasets.js';
 
 export type FileData = Extract<Scenario['data'], { source: 'file' }>;
 
@@ -101,38 +101,6 @@ function fileTable(scenario: Scenario): DataFileTable {
   return table;
 }
 
-/**
- * The rows whose statistics scale the features. Every row trains today; a held-out part, when
- * there is one, is left out here and only here.
- */
-export function trainingRowsOf(table: Pick<DataFileTable, 'sampleCount'>): Uint32Array {
-  return Uint32Array.from({ length: table.sampleCount }, (_, s) => s);
-}
-
-/**
- * In place, on every row: each column of `columns` minus its mean over `rows`, divided by its
- * population standard deviation over `rows` (a constant column is only centred).
- */
-export function standardizeOverRows(
-  features: Float64Array,
-  width: number,
-  columns: readonly number[],
-  rows: Uint32Array,
-): void {
-  const sampleCount = features.length / width;
-  for (const j of columns) {
-    let sum = 0;
-    for (const s of rows) sum += features[s * width + j];
-    const mean = sum / rows.length;
-    let squares = 0;
-    for (const s of rows) squares += (features[s * width + j] - mean) ** 2;
-    const deviation = Math.sqrt(squares / rows.length);
-    const divisor = deviation > 0 ? deviation : 1;
-    for (let s = 0; s < sampleCount; s++)
-      features[s * width + j] = (features[s * width + j] - mean) / divisor;
-  }
-}
-
 function checkProblemFits(scenario: Scenario, table: DataFileTable, data: FileData): void {
   const { problem } = scenario;
   const labels = table.classNames;
@@ -156,6 +124,12 @@ export interface FileDataset {
   featureCount: number;
   featureNames: string[];
   features: Float64Array;
+  /** numeric columns left for build-shard.ts to scale over the training rows */
+  columnsToStandardize: readonly number[];
+}
+
+function allRows(count: number): Uint32Array {
+  return Uint32Array.from({ length: count }, (_, s) => s);
 }
 
 export function fileDataset(scenario: Scenario): FileDataset {
@@ -169,15 +143,19 @@ export function fileDataset(scenario: Scenario): FileDataset {
     features.set(table.features.subarray(s * measured, s * measured + measured), s * width);
     features[s * width + measured] = 1;
   }
-  if (data.standardize) {
-    const numericColumns = table.numeric.flatMap((isNumeric, j) => (isNumeric ? [j] : []));
-    standardizeOverRows(features, width, numericColumns, trainingRowsOf(table));
-  }
+  const numericColumns = data.standardize
+    ? table.numeric.flatMap((isNumeric, j) => (isNumeric ? [j] : []))
+    : [];
+  // Nothing held out: every row trains, so the whole table gives the statistics now. Otherwise
+  // build-shard.ts scales once the test parts are drawn, over the training rows only.
+  if (data.testFraction === 0 && numericColumns.length > 0)
+    standardizeOverRows(features, width, numericColumns, allRows(table.sampleCount));
   return {
     table,
     featureCount: width,
     featureNames: [...table.featureNames, INTERCEPT_FEATURE],
     features,
+    columnsToStandardize: data.testFraction === 0 ? [] : numericColumns,
   };
 }
 
@@ -203,5 +181,6 @@ export function filePool(scenario: Scenario): DatasetPool {
   return {
     featureCount: dataset.featureCount,
     pool: { features: dataset.features, targets, labels: targets, keys },
+    columnsToStandardize: dataset.columnsToStandardize,
   };
 }

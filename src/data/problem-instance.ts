@@ -2,10 +2,11 @@
 // determines. The testbed's oracle and the in-process engine see all clients; a worker builds
 // only the clients it hosts (clientObjective). A process handed the shards of an instance built
 // elsewhere (the coordinator's oracle thread) makes the same instance from them
-// (problemInstanceOf) instead of drawing the data again.
+// (problemInstanceOf) instead of drawing the data again. The clients' test parts ride along for
+// the held-out evaluation; nothing in the objectives sees them.
 
 import type { Scenario } from '../scenario/schema.js';
-import { buildAllShards, buildShard } from './build-shard.js';
+import { buildAllShards, buildAllTestShards, buildShard } from './build-shard.js';
 import { createObjective } from '../problem/create-objective.js';
 import type { ClientObjective, Objective, ObjectiveSpec } from '../problem/objective.js';
 import type { Shard } from '../problem/shard.js';
@@ -19,6 +20,8 @@ export interface ProblemInstance {
   sampleCounts: number[];
   /** f = sum_i p_i f_i */
   global: Objective;
+  /** every client's test part, in client order (no rows when nothing is held out) */
+  testShards: Shard[];
 }
 
 export function objectiveSpecOf(scenario: Scenario): ObjectiveSpec {
@@ -53,8 +56,12 @@ export function buildProblemInstance(scenario: Scenario): ProblemInstance {
   return problemInstanceOf(scenario, buildAllShards(scenario));
 }
 
-/** The instance of `scenario` over its shards (every client's, in client order). */
-export function problemInstanceOf(scenario: Scenario, shards: readonly Shard[]): ProblemInstance {
+/** The instance of `scenario` over its training shards and test parts (every client's, in client order). */
+export function problemInstanceOf(
+  scenario: Scenario,
+  shards: readonly Shard[],
+  testShards: Shard[] = buildAllTestShards(scenario),
+): ProblemInstance {
   if (shards.length !== scenario.clients.count)
     throw new RangeError(`${scenario.clients.count} shards expected, got ${shards.length}`);
   const spec = objectiveSpecOf(scenario);
@@ -67,5 +74,6 @@ export function problemInstanceOf(scenario: Scenario, shards: readonly Shard[]):
     weights,
     sampleCounts,
     global: new WeightedSumObjective(objectives, weights),
+    testShards,
   };
 }

@@ -6,6 +6,7 @@
 
 import type { Objective } from '../problem/objective.js';
 import { distanceSquared } from '../vec/kernels.js';
+import type { HeldOutEvaluation } from './held-out-evaluation.js';
 
 export interface Evaluation {
   suboptimality: number;
@@ -15,6 +16,8 @@ export interface Evaluation {
 /** A round's evaluation: the model's, and f - f* of the predicted trajectory (predicted-trajectory.ts) after as many rounds, null where there is none. */
 export interface RoundEvaluation extends Evaluation {
   predictedSuboptimality: number | null;
+  /** the model on the clients' test parts (held-out-evaluation.ts); null when none is held out */
+  heldOut: HeldOutEvaluation | null;
 }
 
 export function evaluateModel(

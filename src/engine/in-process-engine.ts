@@ -8,6 +8,8 @@ import { theoryOf, type PlanTheory } from '../theory/plan-theory.js';
 import { ClientRuntime } from './client-runtime.js';
 import { DirectTransport } from './direct-transport.js';
 import { evaluateModel, type RoundEvaluation } from './evaluate.js';
+import { HeldOutSet } from './held-out-evaluation.js';
+import { objectiveSpecOf } from '../data/problem-instance.js';
 import { PredictedTrajectory } from './predicted-trajectory.js';
 import { walkRun, walkSetup, type RunWalkSetup } from './round-walk.js';
 import type { RecordSink, RoundRecord } from './round-record.js';
@@ -72,6 +74,7 @@ class InProcessTransport extends DirectTransport implements RoundTransport {
     return {
       ...evaluateModel(theory.instance.global, theory.optimum.x, theory.optimum.loss, model),
       predictedSuboptimality: this.run.predicted.at(round),
+      heldOut: this.run.heldOut.evaluate(model),
     };
   }
 
@@ -91,6 +94,7 @@ interface InProcessRun {
   server: ServerRuntime;
   clients: ClientRuntime[];
   predicted: PredictedTrajectory;
+  heldOut: HeldOutSet;
   stopRequested: () => boolean;
   onCheckpoint?: (state: RunState) => void;
 }
@@ -122,6 +126,7 @@ function prepare(
     server,
     clients,
     predicted,
+    heldOut: new HeldOutSet(objectiveSpecOf(plan.scenario), theory.instance.testShards),
     stopRequested,
     onCheckpoint: options.onCheckpoint,
   };

@@ -19,6 +19,21 @@ export const bytesByLayerSchema = z.object({
   wire: byteCountsSchema.optional(),
 });
 
+const share = z.number().min(0).max(1);
+
+/** The model on the clients' test parts (src/engine/held-out-evaluation.ts). */
+export const heldOutRecordSchema = z.object({
+  /** the data loss (no L2 term) averaged over the pooled test rows */
+  loss: z.number().nullable(),
+  /** classifiers: the share of pooled test rows labelled right; null for least squares */
+  accuracy: share.nullable(),
+  /** classifiers: each client's own accuracy, as mean, worst (with its client) and best minus worst */
+  clientAccuracy: z
+    .object({ mean: share, worst: share, worstClientId: clientId, range: share })
+    .nullable(),
+});
+export type HeldOutRecord = z.infer<typeof heldOutRecordSchema>;
+
 export const roundRecordSchema = z.object({
   round: z.number().int().nonnegative(),
   /**
@@ -34,6 +49,11 @@ export const roundRecordSchema = z.object({
    * null when not evaluated, or where the round map is not affine and fixed
    */
   predictedSuboptimality: z.number().nullable(),
+  /**
+   * test loss and accuracy, where this round was evaluated and the scenario holds out a test
+   * part (data.testFraction); absent otherwise, and in records written before it existed
+   */
+  heldOut: heldOutRecordSchema.optional(),
   bytes: bytesByLayerSchema,
   /** tau_i actually taken in the local-work exchange, by client id (participants only) */
   localSteps: z.record(z.string(), stepCount),

@@ -23,6 +23,7 @@ import {
   suboptimalityWithin,
   type ExplosionBound,
 } from './explosion-bound.js';
+import type { RoundEvaluation } from './evaluate.js';
 import type { ClientRoundRecord, RoundRecord } from './round-record.js';
 import {
   assignmentsFor,
@@ -241,6 +242,18 @@ function bytesOf(
   return bytes;
 }
 
+/**
+ * The record's heldOut field, where there is one: absent when nothing is held out, so that the
+ * records of such runs stay as they were. A non-finite loss (a diverged model) is written as null.
+ */
+function heldOutOf(evaluation: RoundEvaluation): Pick<RoundRecord, 'heldOut'> {
+  const heldOut = evaluation.heldOut;
+  if (heldOut === null) return {};
+  return {
+    heldOut: { ...heldOut, loss: Number.isFinite(heldOut.loss) ? heldOut.loss : null },
+  };
+}
+
 /** Walks a run to its target, its round limit, divergence, or the stop its transport calls. */
 export function* walkRun(setup: RunWalkSetup): Generator<WalkRequest, WalkedRun, unknown> {
   const { server, byteLayers } = setup;
@@ -259,6 +272,7 @@ export function* walkRun(setup: RunWalkSetup): Generator<WalkRequest, WalkedRun,
       suboptimality: initial.suboptimality,
       distance: initial.distance,
       predictedSuboptimality: initial.predictedSuboptimality,
+      ...heldOutOf(initial),
       bytes: bytesOf([], byteLayers),
       localSteps: {},
       dropped: [],
@@ -298,6 +312,7 @@ export function* walkRun(setup: RunWalkSetup): Generator<WalkRequest, WalkedRun,
       suboptimality: evaluated ? evaluated.suboptimality : null,
       distance: evaluated ? evaluated.distance : null,
       predictedSuboptimality: evaluated ? evaluated.predictedSuboptimality : null,
+      ...(evaluated ? heldOutOf(evaluated) : {}),
       bytes: bytesOf(walked.records, byteLayers),
       localSteps: walked.localSteps,
       dropped: walked.dropped,

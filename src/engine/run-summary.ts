@@ -16,7 +16,13 @@ import {
   type ModeEstimate,
 } from '../theory/asymptotic-window.js';
 import type { RunPlan } from './run-plan.js';
-import { bytesByLayerSchema, type ByteCounts, type RoundRecord } from './round-record.js';
+import {
+  bytesByLayerSchema,
+  heldOutRecordSchema,
+  type ByteCounts,
+  type HeldOutRecord,
+  type RoundRecord,
+} from './round-record.js';
 import type { RunPrediction } from './predict-run.js';
 import { randomBandSchema } from './random-band-schema.js';
 
@@ -121,6 +127,23 @@ export const runSummarySchema = z.object({
     virtualSeconds: z.number().nullable(),
     wallSeconds: z.number().nullable(),
   }),
+  /**
+   * runs that hold out a test part: the last evaluated round's test loss and accuracy, and the
+   * first round whose pooled test accuracy reached run.targetAccuracy, with what it had cost;
+   * absent otherwise, and in outcomes written before it existed
+   */
+  heldOut: z
+    .object({
+      final: heldOutRecordSchema,
+      targetAccuracy: z.number().nullable(),
+      roundsToTargetAccuracy: z.number().int().nonnegative().nullable(),
+      toTargetAccuracy: z.object({
+        payloadBytes: z.number().nullable(),
+        virtualSeconds: z.number().nullable(),
+        wallSeconds: z.number().nullable(),
+      }),
+    })
+    .optional(),
   bytes: bytesByLayerSchema,
   /** wall: from the first round; join (distributed runs): waiting for workers before it */
   seconds: z.object({ virtual: z.number(), wall: z.number(), join: z.number().optional() }),
@@ -184,11 +207,19 @@ interface RoundsDigest {
   finalDistance: number;
   /** the first round whose evaluation is at or below the target (> 0), with what it had cost */
   reached: { record: RoundRecord; payloadBytes: number } | null;
+  /** the last held-out evaluation (null if none) */
+  finalHeldOut: HeldOutRecord | null;
+  /** the first round whose pooled test accuracy is at or above the target accuracy */
+  reachedAccuracy: { record: RoundRecord; payloadBytes: number } | null;
   payload: ByteCounts;
   dropped: number;
 }
 
-function digestRounds(rounds: Iterable<RoundRecord>, target: number): RoundsDigest {
+function digestRounds(
+  rounds: Iterable<RoundRecord>,
+  target: number,
+  targetAccuracy: number | null,
+): RoundsDigest {
   const curve: CurvePoint[] = [];
   const predictedCurve: CurvePoint[] = [];
   let curveCut = false;
@@ -196,6 +227,8 @@ function digestRounds(rounds: Iterable<RoundRecord>, target: number): RoundsDige
   let last: RoundRecord | null = null;
   let finalDistance = Number.NaN;
   let reached: RoundsDigest['reached'] = null;
+  let finalHeldOut: HeldOutRecord | null = null;
+  let reachedAccuracy: RoundsDigest['reachedAccuracy'] = null;
   const payload = { up: 0, down: 0 };
   let payloadTotal = 0;
   let dropped = 0;
@@ -207,6 +240,17 @@ function digestRounds(rounds: Iterable<RoundRecord>, target: number): RoundsDige
     payloadTotal += r.bytes.payload.up + r.bytes.payload.down;
     dropped += r.dropped.length;
     if (r.distance !== null) finalDistance = r.distance;
+    if (r.heldOut !== undefined) {
+      finalHeldOut = r.heldOut;
+      const accuracy = r.heldOut.accuracy;
+      if (
+        reachedAccuracy === null &&
+        targetAccuracy !== null &&
+        accuracy !== null &&
+        accuracy >= targetAccuracy
+      )
+        reachedAccuracy = { record: r, payloadBytes: payloadTotal };
+    }
     if (r.suboptimality === null || curveCut) continue;
     if (!Number.isFinite(r.suboptimality)) {
       curveCut = true;
@@ -220,7 +264,39 @@ function digestRounds(rounds: Iterable<RoundRecord>, target: number): RoundsDige
   }
   if (first === null || last === null)
     throw new RangeError('buildRunSummary: a run has at least its round 0');
-  return { curve, predictedCurve, first, last, finalDistance, reached, payload, dropped };
+  return {
+    curve,
+    predictedCurve,
+    first,
+    last,
+    finalDistance,
+    reached,
+    finalHeldOut,
+    reachedAccuracy,
+    payload,
+    dropped,
+  };
+}
+
+/** The summary's heldOut field: absent when no round scored a test part. */
+function heldOutSummary(
+  digest: RoundsDigest,
+  targetAccuracy: number | null,
+): Pick<RunSummary, 'heldOut'> {
+  if (digest.finalHeldOut === null) return {};
+  const reached = digest.reachedAccuracy;
+  return {
+    heldOut: {
+      final: digest.finalHeldOut,
+      targetAccuracy,
+      roundsToTargetAccuracy: reached === null ? null : reached.record.round,
+      toTargetAccuracy: {
+        payloadBytes: reached === null ? null : reached.payloadBytes,
+        virtualSeconds: reached === null ? null : reached.record.virtualSeconds,
+        wallSeconds: reached === null ? null : reached.record.wallSeconds,
+      },
+    },
+  };
 }
 
 /** What the asymptotic window needs of a prediction, or null where it lacks the rate or the floor. */
@@ -245,7 +321,8 @@ export function buildRunSummary(
 ): RunSummary {
   const { plan, theory } = outcome;
   const target = plan.scenario.run.target;
-  const digest = digestRounds(rounds, target);
+  const targetAccuracy = plan.scenario.run.targetAccuracy ?? null;
+  const digest = digestRounds(rounds, target, targetAccuracy);
   const { curve } = digest;
   const first = curve[0];
   const last = curve[curve.length - 1];
@@ -316,6 +393,7 @@ export function buildRunSummary(
       virtualSeconds: reached === null ? null : reached.record.virtualSeconds,
       wallSeconds: reached === null ? null : reached.record.wallSeconds,
     },
+    ...heldOutSummary(digest, targetAccuracy),
     bytes: { payload: digest.payload, ...(outcome.bytesLayers ?? {}) },
     seconds: { virtual: lastRound.virtualSeconds, wall: outcome.wallSeconds },
     droppedUpdates: digest.dropped,

@@ -5,6 +5,7 @@
 // first request. The gradient and Hessian-vector sums run on the row kernels (vec/row-matrix.ts),
 // which hold the shard in WebAssembly memory.
 
+import type { SampleScore } from './sample-score.js';
 import type { Shard } from './shard.js';
 import { axpy, normSquared, scale } from '../vec/kernels.js';
 import { RowMatrix } from '../vec/row-matrix.js';
@@ -81,6 +82,21 @@ export class LeastSquaresObjective implements ClientObjective {
       sum += residual * residual;
     }
     return (0.5 * sum) / n + 0.5 * this.regularization * normSquared(x);
+  }
+
+  /** Half the squared residual per sample, as in the loss; no labels, so nothing is correct. */
+  sampleScore(x: Float64Array): SampleScore {
+    assertLength('x', x, this.dim);
+    const { features, targets } = this.shard;
+    const p = this.dim;
+    let sum = 0;
+    for (let s = 0; s < this.sampleCount; s++) {
+      const base = s * p;
+      let residual = -targets[s];
+      for (let j = 0; j < p; j++) residual += features[base + j] * x[j];
+      sum += residual * residual;
+    }
+    return { lossSum: 0.5 * sum, correctCount: 0 };
   }
 
   gradient(x: Float64Array, out: Float64Array): void {

@@ -6,6 +6,7 @@
 // mu >= lambda is all that holds for every x. The sums over samples run on the row kernels
 // (vec/row-matrix.ts): row dot products, then the weighted sum of the rows in sample order.
 
+import type { SampleScore } from './sample-score.js';
 import type { Shard } from './shard.js';
 import { axpy, normSquared, scale } from '../vec/kernels.js';
 import { RowMatrix } from '../vec/row-matrix.js';
@@ -78,6 +79,22 @@ export class LogisticObjective implements ClientObjective {
       sum += targets[s] === 1 ? softplus(-z) : softplus(z);
     }
     return sum / this.sampleCount + 0.5 * this.regularization * normSquared(x);
+  }
+
+  /** The predicted label is 1 where a . x > 0. */
+  sampleScore(x: Float64Array): SampleScore {
+    assertLength('x', x, this.dim);
+    const { features, targets } = this.shard;
+    const p = this.dim;
+    const score: SampleScore = { lossSum: 0, correctCount: 0 };
+    for (let s = 0; s < this.sampleCount; s++) {
+      const base = s * p;
+      let z = 0;
+      for (let j = 0; j < p; j++) z += features[base + j] * x[j];
+      score.lossSum += targets[s] === 1 ? softplus(-z) : softplus(z);
+      if ((z > 0 ? 1 : 0) === targets[s]) score.correctCount++;
+    }
+    return score;
   }
 
   gradient(x: Float64Array, out: Float64Array): void {

@@ -4,6 +4,7 @@
 
 import type { SymmetricOperator } from '../linalg/spectrum.js';
 import type { ActivationName } from './activation.js';
+import type { SampleScore } from './sample-score.js';
 import type { Shard } from './shard.js';
 
 export type ProblemKind = 'least-squares' | 'logistic' | 'softmax' | 'perceptron';
@@ -47,6 +48,8 @@ export interface ClientObjective extends Objective {
    * the shard it was built from, so that an objective built from a copy computes the same bits.
    */
   readonly shard: Shard;
+  /** The model scored on this objective's samples: data loss summed, and correct labels. */
+  sampleScore(x: Float64Array): SampleScore;
 }
 
 export interface ObjectiveSpec {

@@ -18,6 +18,7 @@
 // and the small later layers are plain loops over samples. Each sum is taken in one fixed order
 // (samples ascending, then units ascending), so results are the same bits in every process.
 
+import { addLogitsScore, type SampleScore } from './sample-score.js';
 import type { Shard } from './shard.js';
 import { axpy, normSquared, scale } from '../vec/kernels.js';
 import { RowMatrix } from '../vec/row-matrix.js';
@@ -135,6 +136,18 @@ export class PerceptronObjective implements ClientObjective {
       sum += largest - logits[labels[t] * n + t] + Math.log(total);
     }
     return sum / n + 0.5 * this.regularization * normSquared(x);
+  }
+
+  sampleScore(x: Float64Array): SampleScore {
+    assertLength('x', x, this.dim);
+    const n = this.sampleCount;
+    const ws = this.workspace(n);
+    this.forward(x, null, ws);
+    const logits = ws.pre[this.layers.length - 1];
+    const labels = this.matrix.rowValues;
+    const score: SampleScore = { lossSum: 0, correctCount: 0 };
+    for (let t = 0; t < n; t++) addLogitsScore(score, logits, t, n, this.classCount, labels[t]);
+    return score;
   }
 
   gradient(x: Float64Array, out: Float64Array): void {

@@ -9,6 +9,7 @@
 // Gradient and Hessian-vector sums run on the row kernels (vec/row-matrix.ts), one class at a
 // time: each class's sum over samples is in sample order, as in a loop over samples.
 
+import { addLogitsScore, type SampleScore } from './sample-score.js';
 import type { Shard } from './shard.js';
 import { axpy, normSquared, scale } from '../vec/kernels.js';
 import { RowMatrix } from '../vec/row-matrix.js';
@@ -154,6 +155,17 @@ export class SoftmaxObjective implements ClientObjective {
       sum += largest - labelLogit + Math.log(total);
     }
     return sum / this.sampleCount + 0.5 * this.regularization * normSquared(w);
+  }
+
+  sampleScore(w: Float64Array): SampleScore {
+    assertLength('W', w, this.dim);
+    const n = this.sampleCount;
+    const labels = this.shard.targets;
+    this.classScores(w, null, n, this.scores);
+    const score: SampleScore = { lossSum: 0, correctCount: 0 };
+    for (let t = 0; t < n; t++)
+      addLogitsScore(score, this.scores, t, n, this.classCount, labels[t]);
+    return score;
   }
 
   gradient(w: Float64Array, out: Float64Array): void {

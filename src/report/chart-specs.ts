@@ -17,6 +17,7 @@ import type {
   Layer,
   TimelineSegment,
 } from './run-series.js';
+import type { AccuracyRow } from './held-out-series.js';
 
 const chartWidth = 560;
 const chartHeight = 260;
@@ -249,4 +250,50 @@ export function timelineChartSpec(
       },
     },
   };
+}
+
+/** Held-out accuracy on a linear [0, 1] scale against rounds, one line a series. */
+export function accuracyChartSpec(
+  rows: readonly AccuracyRow[],
+  series: readonly CurveSeries[],
+): TopLevelSpec {
+  const labels = series.map((s) => s.label);
+  const legend = {
+    orient: 'bottom',
+    columns: 3,
+    title: null,
+    symbolType: 'stroke',
+    symbolSize: 300,
+    symbolStrokeWidth: 2,
+  } as const;
+  return {
+    width: chartWidth,
+    height: chartHeight,
+    config: baseConfig,
+    data: { values: rows.map((r) => ({ ...r })) },
+    mark: { type: 'line', clip: true, strokeWidth: 1.5 },
+    encoding: {
+      x: { field: 'round', type: 'quantitative', title: 'round' },
+      y: {
+        field: 'accuracy',
+        type: 'quantitative',
+        title: 'test accuracy',
+        scale: { domain: [0, 1] },
+      },
+      color: {
+        field: 'series',
+        type: 'nominal',
+        sort: labels,
+        scale: { domain: labels, range: series.map((s) => s.colour) },
+        legend,
+      },
+      strokeDash: {
+        field: 'series',
+        type: 'nominal',
+        sort: labels,
+        scale: { domain: labels, range: series.map((s) => [...s.dash]) },
+        legend,
+      },
+    },
+  } as TopLevelSpec;
 }

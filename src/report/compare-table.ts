@@ -1,4 +1,5 @@
-// The comparison's numbers: one row per variant, the verdict (which variant needed the fewest
+// The comparison's numbers: one row per variant (with the rounds, bytes and seconds to the f - f*
+// target and, where the runs hold out a test part, to run.targetAccuracy), the verdict (which variant needed the fewest
 // bytes and the least time to reach the target, and by how much over the runner-up), and the
 // same rows as a text table, CSV (RFC 4180) and JSON. The CSV columns, the JSON keys and the
 // table's headings are one list, so that the three always agree.
@@ -20,6 +21,12 @@ export interface CompareRow {
   uplinkBytesToTarget: number | null;
   /** modelled seconds when every variant ran on the virtual clock, wall seconds otherwise */
   secondsToTarget: number | null;
+  /** the first round whose pooled test accuracy reached run.targetAccuracy (null: not reached or none set) */
+  roundsToTargetAccuracy: number | null;
+  /** payload bytes up and down, through that round */
+  bytesToTargetAccuracy: number | null;
+  /** on the comparison's time basis, like secondsToTarget */
+  secondsToTargetAccuracy: number | null;
   floorMeasured: number | null;
   rateMeasured: number | null;
   ratePredicted: number | null;
@@ -40,6 +47,9 @@ export const compareColumns: (keyof CompareRow)[] = [
   'bytesToTarget',
   'uplinkBytesToTarget',
   'secondsToTarget',
+  'roundsToTargetAccuracy',
+  'bytesToTargetAccuracy',
+  'secondsToTargetAccuracy',
   'floorMeasured',
   'rateMeasured',
   'ratePredicted',
@@ -57,6 +67,9 @@ const COLUMN_UNITS: Partial<Record<keyof CompareRow, string>> = {
   bytesToTarget: 'kB',
   uplinkBytesToTarget: 'kB',
   secondsToTarget: 's',
+  roundsToTargetAccuracy: 'rounds',
+  bytesToTargetAccuracy: 'kB',
+  secondsToTargetAccuracy: 's',
   droppedUpdates: 'updates',
 };
 
@@ -96,6 +109,8 @@ export interface Verdict {
 export interface Comparison {
   scenario: string;
   target: number;
+  /** run.targetAccuracy of the runs (the first variant's that has one); null when none sets it */
+  targetAccuracy: number | null;
   runtime: RunSummary['runtime'];
   timeBasis: TimeBasis;
   ladders: Ladder[];
@@ -116,6 +131,7 @@ export function timeBasisOf(summaries: readonly RunSummary[]): TimeBasis {
 
 export function compareRow(outcome: VariantOutcome, timeBasis: TimeBasis): CompareRow {
   const { summary: s, variant } = outcome;
+  const held = s.heldOut;
   let uplink: number | null = null;
   if (s.roundsToTarget !== null) {
     uplink = 0;
@@ -129,6 +145,12 @@ export function compareRow(outcome: VariantOutcome, timeBasis: TimeBasis): Compa
     bytesToTarget: s.toTarget.payloadBytes,
     uplinkBytesToTarget: uplink,
     secondsToTarget: timeBasis === 'modelled' ? s.toTarget.virtualSeconds : s.toTarget.wallSeconds,
+    roundsToTargetAccuracy: held?.roundsToTargetAccuracy ?? null,
+    bytesToTargetAccuracy: held?.toTargetAccuracy.payloadBytes ?? null,
+    secondsToTargetAccuracy:
+      (timeBasis === 'modelled'
+        ? held?.toTargetAccuracy.virtualSeconds
+        : held?.toTargetAccuracy.wallSeconds) ?? null,
     floorMeasured: s.floor.measured,
     rateMeasured: s.rate.measured,
     ratePredicted: s.rate.predicted,
@@ -174,6 +196,8 @@ export function buildComparison(
   return {
     scenario,
     target,
+    targetAccuracy:
+      summaries.find((s) => s.heldOut?.targetAccuracy != null)?.heldOut?.targetAccuracy ?? null,
     runtime: summaries.every((s) => s.runtime === 'in-process') ? 'in-process' : 'distributed',
     timeBasis,
     ladders,
@@ -190,7 +214,11 @@ export function buildComparison(
 export const tableHeader = tableColumns.map(columnTitle);
 
 const bytesPerKilobyte = 1000;
-const KILOBYTE_KEYS = new Set<keyof CompareRow>(['bytesToTarget', 'uplinkBytesToTarget']);
+const KILOBYTE_KEYS = new Set<keyof CompareRow>([
+  'bytesToTarget',
+  'uplinkBytesToTarget',
+  'bytesToTargetAccuracy',
+]);
 
 export function tableRows(c: Comparison): (string | number | null)[][] {
   return c.variants.map((r) =>
@@ -222,12 +250,24 @@ function rankingLine(
   return `${title}: ${r.variant} (${value}; ${formatNumber(r.margin)} ${unit} ${fewer} than runner-up ${r.runnerUp.variant}${ratio})`;
 }
 
+/** How many variants reached the target accuracy; nothing when the runs set none. */
+function accuracyLines(c: Comparison): string[] {
+  if (c.targetAccuracy === null) return [];
+  const reached = c.variants.filter((r) => r.roundsToTargetAccuracy !== null).length;
+  return [
+    `${reached} of ${c.variants.length} variants reached the test accuracy ${formatNumber(c.targetAccuracy)} (see the columns "to target accuracy")`,
+  ];
+}
+
 /** The verdict in words: how many reached the target and, among them, who needed the least. */
 export function verdictLines(c: Comparison): string[] {
   const v = c.verdict;
   const target = `the target f - f* <= ${formatNumber(c.target)}`;
   if (v.reachedTarget === 0)
-    return [`no variant reached ${target} within its rounds, so none is ranked`];
+    return [
+      `no variant reached ${target} within its rounds, so none is ranked`,
+      ...accuracyLines(c),
+    ];
   const lines = [`${v.reachedTarget} of ${c.variants.length} variants reached ${target}`];
   if (v.fewestBytesToTarget !== null)
     lines.push(
@@ -253,7 +293,7 @@ export function verdictLines(c: Comparison): string[] {
         'as long',
       ),
     );
-  return lines;
+  return [...lines, ...accuracyLines(c)];
 }
 
 export function formatComparison(c: Comparison, outDir: string): string {

@@ -69,6 +69,16 @@ export const SOLID_DASH: readonly number[] = [1, 0];
 export const PREDICTED_DASH: readonly number[] = [6, 4];
 export const DOTTED_DASH: readonly number[] = [2, 2];
 /**
+ * The held-out accuracy chart draws three lines in the method's colour: the pooled test set
+ * solid, the clients' mean dotted, the worst client dash-dotted.
+ */
+export const ACCURACY_DASHES = {
+  pooled: SOLID_DASH,
+  mean: DOTTED_DASH,
+  worst: [10, 3, 2, 3] as readonly number[],
+} as const;
+
+/**
  * A predicted band is an area in the method's colour behind its curve: light where a single run
  * is expected, darker for the interval of the mean (which lies inside it).
  */

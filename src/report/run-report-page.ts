@@ -8,6 +8,7 @@ import { gapName } from './gap-name.js';
 import type { RunSummary } from '../engine/run-summary.js';
 import { formatNumber } from './text-table.js';
 import {
+  accuracyChartSpec,
   bytesChartSpec,
   curveChartSpec,
   histogramChartSpec,
@@ -27,7 +28,8 @@ import {
   type Html,
   type TableCell,
 } from './html-page.js';
-import { methodColour, PREDICTED_DASH, SOLID_DASH } from './palette.js';
+import { ACCURACY_DASHES, methodColour, PREDICTED_DASH, SOLID_DASH } from './palette.js';
+import { ACCURACY_SERIES, accuracyCurve } from './held-out-series.js';
 import { renderSvg } from './render-svg.js';
 import { RATE_COMPARISON_HEADER, rateComparisonRows } from './rate-comparison.js';
 import type { RunResults } from './run-results.js';
@@ -224,6 +226,60 @@ async function histogramFigure(results: RunResults): Promise<Html> {
   );
 }
 
+/** Test loss and accuracy at the last evaluated round, and the rounds to the target accuracy. */
+function heldOutRows(heldOut: NonNullable<RunSummary['heldOut']>): TableCell[][] {
+  const { final } = heldOut;
+  const rows: TableCell[][] = [['test loss (mean, no L2 term)', final.loss]];
+  if (final.accuracy !== null) rows.push(['test accuracy, pooled', final.accuracy]);
+  if (final.clientAccuracy !== null) {
+    const c = final.clientAccuracy;
+    rows.push(
+      ['test accuracy, mean over clients', c.mean],
+      [`test accuracy, worst client (client ${c.worstClientId})`, c.worst],
+      ['test accuracy, best minus worst client', c.range],
+    );
+  }
+  if (heldOut.targetAccuracy !== null) {
+    const target = formatNumber(heldOut.targetAccuracy);
+    rows.push(
+      [`rounds to test accuracy ${target}`, heldOut.roundsToTargetAccuracy],
+      [`payload bytes to test accuracy ${target}`, heldOut.toTargetAccuracy.payloadBytes],
+    );
+  }
+  return rows;
+}
+
+/** The held-out section: a table of the last evaluation and, for a classifier, the accuracy curves. */
+async function heldOutSection(results: RunResults): Promise<Html[]> {
+  const heldOut = results.summary.heldOut;
+  if (heldOut === undefined) return [];
+  const parts: Html[] = [
+    table(['quantity', 'last evaluated round'], heldOutRows(heldOut), formatNumber),
+  ];
+  const curve = accuracyCurve(results.rounds);
+  if (curve.rows.length > 0) {
+    const colour = methodColour(results.summary.method);
+    const series = (Object.keys(ACCURACY_SERIES) as (keyof typeof ACCURACY_SERIES)[]).map(
+      (key) => ({ label: ACCURACY_SERIES[key], colour, dash: ACCURACY_DASHES[key] }),
+    );
+    const notes = [
+      "Each client's test part is a seeded share of its own rows (data.testFraction); the pooled test set is their union. The worst client is the one with the lowest accuracy at that round.",
+    ];
+    if (curve.roundsShown < curve.roundsTotal)
+      notes.push(
+        `${curve.roundsShown} of ${curve.roundsTotal} evaluated rounds drawn, evenly spread.`,
+      );
+    parts.push(
+      figure(
+        await renderSvg(accuracyChartSpec(curve.rows, series), 'accuracy'),
+        notes.join(' '),
+        'Test accuracy against rounds: pooled, mean client and worst client',
+      ),
+    );
+  }
+  return [section('Held-out test set', parts)];
+}
+
 /** The whole report page; the same results give the same text. */
 export async function buildRunReport(results: RunResults): Promise<string> {
   const s = results.summary;
@@ -254,6 +310,7 @@ export async function buildRunReport(results: RunResults): Promise<string> {
       ),
     ]),
     section('Convergence', [grid(await curveFigures(results))]),
+    ...(await heldOutSection(results)),
     section('Traffic and time', [
       grid([
         await bytesFigure(results),

@@ -122,6 +122,8 @@ export const partitionSchema = z.discriminatedUnion('kind', [
   z.object({ kind: z.literal('natural'), key: z.string().min(1) }).strict(),
 ]);
 
+const testFraction = z.number().min(0).lt(1).default(0);
+
 export const syntheticDataSchema = z
   .object({
     source: z.literal('synthetic'),
@@ -138,6 +140,11 @@ export const syntheticDataSchema = z
     noise: nonNegative.default(0.1),
     /** labelled problems only: how labels are spread over clients */
     partition: partitionSchema.default({ kind: 'iid' }),
+    /**
+     * the fraction of each client's rows held out as its test part (seeded); the model trains,
+     * and the oracle solves, on the rest; 0 holds nothing out
+     */
+    testFraction: testFraction,
   })
   .strict();
 
@@ -151,10 +158,15 @@ export const datasetDataSchema = z
     /** natural: the key must be one of the data set's, and clients.count its number of values */
     partition: partitionSchema.default({ kind: 'iid' }),
     /**
-     * scale features to zero mean and unit variance over the whole data set before partitioning;
-     * absent: the data set's default (yes, except digits, whose pixels are already in [0, 1])
+     * scale features to zero mean and unit variance over the training rows (the whole data set
+     * when nothing is held out), computed after partitioning and applied to every row; absent: the data set's default (yes, except digits, whose pixels are already in [0, 1])
      */
     standardize: z.boolean().optional(),
+    /**
+     * the fraction of each client's rows held out as its test part (seeded); the model trains,
+     * and the oracle solves, on the rest; 0 holds nothing out
+     */
+    testFraction: testFraction,
   })
   .strict();
 
@@ -198,6 +210,11 @@ export const fileDataSchema = z
     standardize: z.boolean().default(true),
     /** natural: the key is a column; one client per distinct value, in sorted order */
     partition: partitionSchema.default({ kind: 'iid' }),
+    /**
+     * the fraction of each client's rows held out as its test part (seeded); the model trains,
+     * the oracle solves and the standardization measures on the rest; 0 holds nothing out
+     */
+    testFraction: testFraction,
     /**
      * SHA-256 of the file's bytes, hex: filled in when the scenario is loaded; a value given
      * here pins the file, and every process refuses a file with another hash
@@ -375,6 +392,11 @@ export const runSchema = z
     rounds: positiveInt.max(SCENARIO_LIMITS.roundsMax),
     /** stop once f(x) - f* is at or below this */
     target: nonNegative.default(0),
+    /**
+     * a held-out accuracy to reach (classifiers with data.testFraction > 0): the summary and
+     * compare report the rounds, bytes and seconds to it; it does not stop the run
+     */
+    targetAccuracy: z.number().gt(0).max(1).optional(),
     /** worker processes for the distributed runtime */
     workers: positiveInt.max(SCENARIO_LIMITS.workersMax).default(2),
     /** evaluate f(x) - f* every this many rounds */
@@ -610,6 +632,21 @@ export const scenarioSchema = z
         message:
           'a perceptron has no smoothness constant L, so stepSize "auto" (1/L) has no value; give a number',
       });
+    // An accuracy target is read off the test parts' accuracy: it needs both.
+    if (scenario.run.targetAccuracy !== undefined) {
+      if (scenario.problem.kind === 'least-squares')
+        ctx.addIssue({
+          code: 'custom',
+          path: ['run', 'targetAccuracy'],
+          message: 'least squares has no accuracy; run.targetAccuracy belongs to classifiers',
+        });
+      else if (scenario.data.testFraction === 0)
+        ctx.addIssue({
+          code: 'custom',
+          path: ['run', 'targetAccuracy'],
+          message: 'run.targetAccuracy is measured on a test part; set data.testFraction above 0',
+        });
+    }
     if (scenario.data.source === 'dataset') {
       checkDatasetFits(scenario.data, scenario.problem, ctx);
       return;

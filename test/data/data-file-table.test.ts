@@ -8,7 +8,7 @@ import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { readDataFileRecords } from '../../src/data/data-file-records.js';
 import { dataFileTable, type DataFileColumns } from '../../src/data/data-file-table.js';
-import { buildAllShards } from '../../src/data/build-shard.js';
+import { buildAllShards, buildTestShard } from '../../src/data/build-shard.js';
 import { fileDataset } from '../../src/data/file-pool.js';
 import { scenarioWith } from './scenario-fixture.js';
 import { DataError } from '../../src/data/data-error.js';
@@ -175,6 +175,43 @@ describe('a file scenario', () => {
     const shards = buildAllShards(scenario);
     expect(shards.map((s) => s.sampleCount)).toEqual([2, 2]);
     expect(Array.from(shards[1].targets)).toEqual([11, 13]);
+  });
+
+  it('with a held-out part, scales by the training rows alone and gives the test rows apart', () => {
+    const scenario = scenarioWith(
+      { kind: 'least-squares' },
+      {
+        source: 'file',
+        path: file,
+        format: 'csv',
+        target: 'sold',
+        features: ['temp'],
+        missing: 'drop',
+        partition: { kind: 'natural', key: 'shop' },
+        testFraction: 0.5,
+      },
+      2,
+    );
+    const training = buildAllShards(scenario);
+    const test = [0, 1].map((id) => buildTestShard(scenario, id));
+    // floor(0.5 x 2) = 1 row of each shop's 2 is held out.
+    expect(training.map((s) => s.sampleCount)).toEqual([1, 1]);
+    expect(test.map((s) => s.sampleCount)).toEqual([1, 1]);
+    // Every kept row is in exactly one part: the targets 5, 7, 11, 13 once each.
+    const targets = [...training, ...test]
+      .flatMap((s) => Array.from(s.targets))
+      .sort((a, b) => a - b);
+    expect(targets).toEqual([5, 7, 11, 13]);
+    // temp (column 0) is scaled by the two training rows: mean 0 and population variance 1 over
+    // them, whatever the held-out rows hold.
+    const trainingTemps = training.map((s) => s.features[0]);
+    expect(trainingTemps[0] + trainingTemps[1]).toBeCloseTo(0, 14);
+    expect((trainingTemps[0] ** 2 + trainingTemps[1] ** 2) / 2).toBeCloseTo(1, 14);
+    // The held-out rows are scaled by the same increasing affine map, and temp rises with sold in
+    // these rows, so ordered by sold the scaled temps still rise.
+    const all = [...training, ...test].map((s) => [s.targets[0], s.features[0]]);
+    all.sort((a, b) => a[0] - b[0]);
+    for (let k = 1; k < all.length; k++) expect(all[k][1]).toBeGreaterThan(all[k - 1][1]);
   });
 
   it('refuses a class count other than problem.classes, and a client count other than the keys', () => {

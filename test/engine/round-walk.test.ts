@@ -77,7 +77,7 @@ class ScriptedTransport extends DirectTransport implements RoundTransport {
   }
 
   evaluate(model: Float64Array): RoundEvaluation {
-    return { ...this.evaluateModel(model), predictedSuboptimality: null };
+    return { ...this.evaluateModel(model), predictedSuboptimality: null, heldOut: null };
   }
 
   checkpoint(point: WalkPoint): void {

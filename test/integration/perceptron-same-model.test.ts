@@ -2,7 +2,8 @@
 // from the plan's seed), every local step and the records. One `roundwire run` of the bundled
 // scenario with 2 worker processes over 127.0.0.1 (minibatch gradients and top-k with error
 // feedback, so that the seeded streams are in play too), then the in-process engine on the
-// scenario that run resolved; model.f64 and the records are compared.
+// scenario that run resolved; model.f64 and the records (held-out test scores included) are
+// compared.
 
 import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
@@ -66,5 +67,11 @@ describe('a perceptron run in both runtimes', () => {
     // No x*: no distance anywhere, and the gap to the reference fell from the seeded start.
     expect(rounds.every((r) => r.distance === null)).toBe(true);
     expect(rounds[ROUNDS].suboptimality!).toBeLessThan(rounds[0].suboptimality!);
+    // The scenario holds out a test part: the coordinator's oracle thread scored it every round,
+    // and the records above hold those scores equal to the in-process engine's.
+    for (const r of rounds) {
+      expect(r.heldOut?.accuracy).toBeGreaterThanOrEqual(0);
+      expect(r.heldOut?.clientAccuracy?.worst).toBeLessThanOrEqual(r.heldOut!.clientAccuracy!.mean);
+    }
   }, 60_000);
 });

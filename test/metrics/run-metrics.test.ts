@@ -25,6 +25,7 @@ interface Summary {
   bytes: Record<'payload' | 'encoded' | 'wire', { up: number; down: number }>;
   droppedUpdates: number;
   lostWorkers: string[];
+  heldOut?: { final: { loss: number } };
 }
 
 const LINGER_SECONDS = 20;
@@ -44,6 +45,8 @@ beforeAll(async () => {
     out,
     '--tweak',
     'run.rounds:30',
+    '--tweak',
+    'data.testFraction:0.2',
     '--metrics',
     '127.0.0.1:0',
     '--metrics-linger',
@@ -100,6 +103,15 @@ describe('coordinator /metrics after a real run', () => {
     expect(single('roundwire_rate_predicted', 'GAUGE')).toBe(summary.rate.predicted);
     expect(summary.rate.measured).not.toBeNull();
     expect(single('roundwire_rate_measured', 'GAUGE')).toBe(summary.rate.measured);
+  });
+
+  it('exposes the held-out test loss; least squares has no accuracy (NaN)', () => {
+    expect(summary.heldOut).toBeDefined();
+    expect(single('roundwire_test_loss', 'GAUGE')).toBe(summary.heldOut!.final.loss);
+    expect(single('roundwire_test_accuracy_ratio', 'GAUGE')).toBeNaN();
+    const clients = family('roundwire_client_test_accuracy_ratio', 'GAUGE').metrics;
+    expect(clients.map((m) => m.labels?.summary).sort()).toEqual(['mean', 'range', 'worst']);
+    expect(clients.every((m) => Number.isNaN(Number(m.value)))).toBe(true);
   });
 
   it('splits bytes by direction, layer and client, summing to summary.bytes', () => {

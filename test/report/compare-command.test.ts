@@ -98,7 +98,7 @@ describe('roundwire compare on the bundled compression ladders', () => {
       const start = lines.indexOf(`variant ${row.variant}`);
       expect(start, row.variant).toBeGreaterThanOrEqual(0);
       const fields = lines
-        .slice(start + 1, start + 13)
+        .slice(start + 1, start + 16)
         .map((l) => /^ {2}(.+?) \.{2,} (.+)$/.exec(l)?.slice(1));
       expect(fields).toEqual([
         ['stop', row.stop],
@@ -107,6 +107,9 @@ describe('roundwire compare on the bundled compression ladders', () => {
         ['bytes to target', withUnit(kilobytes(row.bytesToTarget), 'kB')],
         ['uplink bytes to target', withUnit(kilobytes(row.uplinkBytesToTarget), 'kB')],
         ['seconds to target', withUnit(row.secondsToTarget, 's')],
+        ['rounds to target accuracy', withUnit(row.roundsToTargetAccuracy, 'rounds')],
+        ['bytes to target accuracy', withUnit(kilobytes(row.bytesToTargetAccuracy), 'kB')],
+        ['seconds to target accuracy', withUnit(row.secondsToTargetAccuracy, 's')],
         ['floor measured', formatNumber(row.floorMeasured)],
         ['rate measured', formatNumber(row.rateMeasured)],
         ['rate predicted', formatNumber(row.ratePredicted)],

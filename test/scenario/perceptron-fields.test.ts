@@ -56,7 +56,7 @@ describe('perceptron scenario fields', () => {
 
   it("holds the parameter count to the dimension limit, naming the layers' widths", () => {
     const synthetic = [
-      'data:{source: synthetic, features: 784, partition: {kind: iid}}',
+      'data:{source: synthetic, features: 784, partition: {kind: iid}, testFraction: 0.2}',
       'problem.classes:10',
     ];
     // (784 + 1) x 64 + (64 + 1) x 10 = 50,890 parameters: within the limit of 100,000.
