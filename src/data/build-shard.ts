@@ -12,6 +12,7 @@
 //           comes from the partition alone. Pools are cached per data-relevant plan.
 
 import type { Scenario } from '../scenario/schema.js';
+import { dataSeedOf } from '../scenario/data-seed.js';
 import { canonicalJson } from '../scenario/plan-hash.js';
 import { featureScales } from './covariance.js';
 import { DataError } from './data-error.js';
@@ -88,7 +89,8 @@ function featureScalesOf(data: SyntheticData): Float64Array {
 }
 
 function directShard(scenario: Scenario & { data: SyntheticData }, clientId: number): Shard {
-  const { seed, problem, data } = scenario;
+  const { problem, data } = scenario;
+  const seed = dataSeedOf(scenario);
   const p = data.features;
   const sampleKind = sampleKindOf(problem.kind);
   const x0 = syntheticCentre(seed, parameterDimension(sampleKind, p, classCountOf(scenario)));
@@ -120,7 +122,8 @@ function directShard(scenario: Scenario & { data: SyntheticData }, clientId: num
 function syntheticPool(
   scenario: Scenario & { data: SyntheticData },
 ): LabelledPool & { features: Float64Array; targets: Float64Array } {
-  const { seed, problem, data } = scenario;
+  const { problem, data } = scenario;
+  const seed = dataSeedOf(scenario);
   if (problem.kind === 'least-squares') {
     throw new DataError(
       'E_DATA_SPEC',
@@ -156,7 +159,7 @@ function syntheticPool(
 function pooledData(scenario: Scenario): PooledData {
   // Keys sorted: equal plans give equal cache keys whatever their key order.
   const key = canonicalJson({
-    seed: scenario.seed,
+    seed: dataSeedOf(scenario),
     kind: scenario.problem.kind,
     classes: scenario.problem.classes,
     data: scenario.data,
@@ -177,7 +180,7 @@ function pooledData(scenario: Scenario): PooledData {
     pool,
     scenario.data.partition,
     scenario.clients.count,
-    Rng.derive(scenario.seed, 'partition'),
+    Rng.derive(dataSeedOf(scenario), 'partition'),
   );
   const entry: PooledData = { featureCount, features: pool.features, targets: pool.targets, parts };
 
@@ -227,7 +230,7 @@ export function sampleCountsOf(scenario: Scenario): number[] {
     return samplesForAllClients(
       scenario.data.samplesPerClient,
       scenario.clients.count,
-      scenario.seed,
+      dataSeedOf(scenario),
     );
   return pooledData(scenario).parts.map((part) => part.length);
 }

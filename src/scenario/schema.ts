@@ -443,6 +443,13 @@ export const scenarioSchema = z
       .int()
       .min(0)
       .max(2 ** 53 - 1),
+    /** the seed of the data (shards, partition, sample counts); absent, the seed above */
+    dataSeed: z
+      .number()
+      .int()
+      .min(0)
+      .max(2 ** 53 - 1)
+      .optional(),
     problem: problemSchema,
     data: dataSchema,
     clients: clientsSchema,

@@ -91,6 +91,7 @@ export function useTheoryStore(next: TheoryStore | null): void {
 export function problemHashOf(scenario: Scenario): string {
   return hashOf({
     seed: scenario.seed,
+    ...(scenario.dataSeed === undefined ? {} : { dataSeed: scenario.dataSeed }),
     problem: scenario.problem,
     data: scenario.data,
     clients: scenario.clients,
