@@ -9,6 +9,7 @@ import {
   datasetChoice,
   datasetTargetName,
 } from './dataset-choices.js';
+import { repeatsSchema } from './repeats-schema.js';
 
 const positiveInt = z.number().int().positive();
 const nonNegative = z.number().nonnegative();
@@ -479,6 +480,8 @@ export const scenarioSchema = z
      * the same seed; `roundwire run` runs the base scenario and ignores this.
      */
     ladders: z.array(ladderSchema).max(ladderLimits.laddersMax).optional(),
+    /** how often `roundwire compare` runs every variant (repeats-schema.ts) */
+    repeats: repeatsSchema.optional(),
   })
   .strict()
   .superRefine((scenario, ctx) => {
