@@ -1,6 +1,8 @@
 // The runs of one variant of a comparison: each repeat into its own folder, with its own seeds
 // (repeat-plan.ts). A run that ends in an error is recorded as failed with its reason and the
-// comparison goes on; a diverged run is a stop like any other, and neither gives figures.
+// comparison goes on; a diverged run is a stop like any other, and neither gives figures. Only
+// repeat 1 gets its report.html (the page draws its curves): rendering one for every repeat would
+// cost more than the run; `roundwire report <folder>` writes one for any repeat later.
 
 import { join } from 'node:path';
 import type { Scenario } from '../scenario/schema.js';
@@ -39,14 +41,15 @@ async function runOnce(
   scenario: Scenario,
   variant: Variant,
   dir: string,
-  distributed: boolean,
+  options: { distributed: boolean; writeReport: boolean },
   io: RunIo,
 ): Promise<VariantOutcome> {
   try {
-    if (distributed) await runDistributed(scenario, dir, { out: io.err, err: io.err });
+    if (options.distributed) await runDistributed(scenario, dir, { out: io.err, err: io.err });
     else runInProcessInto(scenario, dir);
     const results = readRunResults(dir);
-    writeFileSync(join(dir, reportFileName), await buildRunReport(results));
+    if (options.writeReport)
+      writeFileSync(join(dir, reportFileName), await buildRunReport(results));
     return { variant, summary: results.summary, rounds: results.rounds };
   } catch (error) {
     return { variant, summary: null, rounds: [], failure: messageOf(error) };
@@ -91,15 +94,13 @@ export async function runVariantRepeats(
   let first: VariantOutcome | null = null;
   for (let repeat = 1; repeat <= repeats.count; repeat++) {
     const folder =
-      repeats.count === 1
-        ? variant.folderName
-        : join(variant.folderName, repeatFolderName(repeat));
+      repeats.count === 1 ? variant.folderName : join(variant.folderName, repeatFolderName(repeat));
     const runScenario = repeatScenario(scenario, repeat, repeats.varyData);
     const outcome = await runOnce(
       runScenario,
       { ...variant, folderName: folder },
       join(outDir, folder),
-      distributed,
+      { distributed, writeReport: repeat === 1 },
       io,
     );
     const repeatText = repeats.count === 1 ? '' : ` repeat ${repeat}/${repeats.count}`;

@@ -46,7 +46,9 @@ export function numberInRange(option: string, min: number, max: number): (text: 
   return (text) => {
     const value = Number(text);
     if (text.trim() === '' || !(value >= min && value <= max)) {
-      throw new OptionValueError(`${option}: expected a number from ${min} to ${max}, got "${text}"`);
+      throw new OptionValueError(
+        `${option}: expected a number from ${min} to ${max}, got "${text}"`,
+      );
     }
     return value;
   };

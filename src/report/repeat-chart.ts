@@ -20,7 +20,12 @@ export function errorBarRows(r: RepeatSummary, figure: RepeatFigure): ErrorBarRo
   for (const v of r.variants) {
     const s = v.figures[figure];
     if (s.mean === null) continue;
-    rows.push({ variant: v.variant, mean: s.mean, lower: s.lower ?? s.mean, upper: s.upper ?? s.mean });
+    rows.push({
+      variant: v.variant,
+      mean: s.mean,
+      lower: s.lower ?? s.mean,
+      upper: s.upper ?? s.mean,
+    });
   }
   return rows;
 }
@@ -64,7 +69,10 @@ export function errorBarChartSpec(
           y: {
             field: 'mean',
             type: 'quantitative',
-            title: unit === undefined ? `${figureWords(figure)} (mean)` : `${figureWords(figure)} [${unit}] (mean)`,
+            title:
+              unit === undefined
+                ? `${figureWords(figure)} (mean)`
+                : `${figureWords(figure)} [${unit}] (mean)`,
           },
         },
       },

@@ -65,8 +65,7 @@ export function sampleSkewness(values: readonly number[]): number {
 export function tInterval(values: readonly number[], confidence: number): [number, number] {
   const mean = meanOf(values);
   const half =
-    (studentTQuantile((1 + confidence) / 2, values.length - 1) *
-      sampleStandardDeviation(values)) /
+    (studentTQuantile((1 + confidence) / 2, values.length - 1) * sampleStandardDeviation(values)) /
     Math.sqrt(values.length);
   return [mean - half, mean + half];
 }
@@ -119,6 +118,8 @@ export function figureStatistics(
   if (n === 1) return { n, missing, mean, sd: null, lower: null, upper: null, method: 'none' };
   const method = intervalMethodFor(present);
   const [lower, upper] =
-    method === 'bootstrap' ? bootstrapInterval(present, confidence) : tInterval(present, confidence);
+    method === 'bootstrap'
+      ? bootstrapInterval(present, confidence)
+      : tInterval(present, confidence);
   return { n, missing, mean, sd: sampleStandardDeviation(present), lower, upper, method };
 }

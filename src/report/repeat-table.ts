@@ -4,12 +4,7 @@
 
 import { formatNumber, formatTable, type Cell } from './text-table.js';
 import type { FigureStatistics } from './repeat-statistics.js';
-import {
-  FIGURE_UNITS,
-  REPEAT_FIGURES,
-  figureWords,
-  type RepeatFigure,
-} from './repeat-figures.js';
+import { FIGURE_UNITS, REPEAT_FIGURES, figureWords, type RepeatFigure } from './repeat-figures.js';
 import type { RepeatSummary } from './repeat-summary.js';
 import type { FigureVerdict } from './repeat-verdict.js';
 import type { Comparison } from './compare-table.js';
@@ -32,9 +27,9 @@ function percent(confidence: number): string {
 export function statisticsCell(s: FigureStatistics, count: number): string {
   if (s.mean === null) return `- (0/${count})`;
   let text = formatNumber(s.mean);
-  if (s.method === 't') text += ` ± ${formatNumber(((s.upper as number) - (s.lower as number)) / 2)}`;
-  if (s.method === 'bootstrap')
-    text += ` [${formatNumber(s.lower)}, ${formatNumber(s.upper)}]`;
+  if (s.method === 't')
+    text += ` ± ${formatNumber(((s.upper as number) - (s.lower as number)) / 2)}`;
+  if (s.method === 'bootstrap') text += ` [${formatNumber(s.lower)}, ${formatNumber(s.upper)}]`;
   return s.missing > 0 ? `${text} (${s.n}/${count})` : text;
 }
 
@@ -71,6 +66,8 @@ function verdictLine(v: FigureVerdict, confidence: number, count: number): strin
     return `${title}: ${leader}, the only variant that has it in every repeat${partial}`;
   const d = v.difference;
   const interval = `${percent(confidence)} paired t-interval of the difference over ${count} repeats [${formatNumber(d.lower)}, ${formatNumber(d.upper)}]${unit}`;
+  if (d.lower === 0 && d.upper === 0)
+    return `${title}: no clear winner at ${percent(confidence)} confidence: ${leader} and runner-up ${v.runnerUp.variant} are equal in every repeat${partial}`;
   if (v.decision === 'clear-winner')
     return `${title}: ${leader}, a clear winner at ${percent(confidence)} confidence: runner-up ${v.runnerUp.variant} needs ${formatNumber(d.mean)}${unit} more (${interval})${partial}`;
   return `${title}: no clear winner at ${percent(confidence)} confidence: ${leader} leads runner-up ${v.runnerUp.variant} by ${formatNumber(d.mean)}${unit}, but the ${interval} contains 0${partial}`;

@@ -46,7 +46,10 @@ export interface FigureVerdict {
 }
 
 /** The paired t-interval of the mean of `differences` (at least 2). */
-export function pairedDifference(differences: readonly number[], confidence: number): PairedDifference {
+export function pairedDifference(
+  differences: readonly number[],
+  confidence: number,
+): PairedDifference {
   const [lower, upper] = tInterval(differences, confidence);
   const mean = figureStatistics(differences, confidence).mean as number;
   return { mean, lower, upper, n: differences.length, method: 'paired-t' };
@@ -64,11 +67,21 @@ export function figureVerdict(
     .map((s) => s.variant);
   const ranked = complete
     .map((s, order) => ({ s, order }))
-    .sort((a, b) => (a.s.statistics.mean as number) - (b.s.statistics.mean as number) || a.order - b.order)
+    .sort(
+      (a, b) =>
+        (a.s.statistics.mean as number) - (b.s.statistics.mean as number) || a.order - b.order,
+    )
     .map((r) => r.s);
   const entry = (s: FigureSeries) => ({ variant: s.variant, mean: s.statistics.mean as number });
   if (ranked.length === 0)
-    return { figure, decision: 'none-ranked', leader: null, runnerUp: null, difference: null, partial };
+    return {
+      figure,
+      decision: 'none-ranked',
+      leader: null,
+      runnerUp: null,
+      difference: null,
+      partial,
+    };
   if (ranked.length === 1)
     return {
       figure,
