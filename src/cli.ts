@@ -502,7 +502,10 @@ function buildProgram(io: Io): Command {
         'run every variant n times on n seeds for speeds, participation, minibatches and compression, the data fixed; report mean, sd and a confidence interval of every figure, and a paired verdict',
       ).argParser(integerInRange('--repeats', 1, REPEATS_LIMITS.countMax)),
     )
-    .option('--vary-data', 'with --repeats: let the data vary with the seed too')
+    .option(
+      '--redraw-data',
+      "with --repeats: draw the data again from each repeat's seed too (by default it stays fixed)",
+    )
     .addOption(
       new Option(
         '--confidence <level>',

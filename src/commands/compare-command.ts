@@ -53,7 +53,7 @@ export interface CompareOptions {
   distributed?: boolean;
   /** runs of every variant, and how they are summarized (repeat-plan.ts) */
   repeats?: number;
-  varyData?: boolean;
+  redrawData?: boolean;
   confidence?: number;
   /** the figures the verdict ranks by; absent, VERDICT_FIGURES_DEFAULT */
   rankBy?: RepeatFigure[];
@@ -106,7 +106,7 @@ function checkRungs(document: unknown, tweaks: readonly Tweak[], ladders: readon
 /** Validates the base scenario, every rung and every variant before anything runs, so bad input costs nothing. */
 export function planComparison(
   file: string,
-  options: Pick<CompareOptions, 'ladder' | 'tweak' | 'repeats' | 'varyData' | 'confidence'>,
+  options: Pick<CompareOptions, 'ladder' | 'tweak' | 'repeats' | 'redrawData' | 'confidence'>,
 ): ComparisonPlan {
   const document = readScenarioDocument(file);
   const tweaks = options.tweak.map(parseTweak);

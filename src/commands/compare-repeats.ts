@@ -95,7 +95,7 @@ export async function runVariantRepeats(
   for (let repeat = 1; repeat <= repeats.count; repeat++) {
     const folder =
       repeats.count === 1 ? variant.folderName : join(variant.folderName, repeatFolderName(repeat));
-    const runScenario = repeatScenario(scenario, repeat, repeats.varyData);
+    const runScenario = repeatScenario(scenario, repeat, repeats.redrawData);
     const outcome = await runOnce(
       runScenario,
       { ...variant, folderName: folder },

@@ -25,7 +25,7 @@ export async function repeatSection(r: RepeatSummary): Promise<Html> {
   }
   return section('Repeats', [
     paragraph(
-      `${r.count} runs a variant, repeat r of every variant on the same seeds; ${r.varyData ? 'the data varied with the seed' : 'the data fixed'}. ${r.intervalRule}`,
+      `${r.count} runs a variant, repeat r of every variant on the same seeds; ${r.redrawData ? 'the data redrawn with each seed' : 'the data fixed'}. ${r.intervalRule}`,
       'note',
     ),
     table(repeatTableHeader, repeatTableRows(r), formatNumber),

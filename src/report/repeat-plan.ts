@@ -20,7 +20,7 @@ export type RepeatOptions = ScenarioRepeats;
 /** The options given on the command line; each one given wins over the scenario's section. */
 export interface RepeatOverrides {
   repeats?: number;
-  varyData?: boolean;
+  redrawData?: boolean;
   confidence?: number;
 }
 
@@ -31,7 +31,7 @@ export function resolveRepeatOptions(
 ): RepeatOptions {
   const options: RepeatOptions = {
     count: overrides.repeats ?? section?.count ?? REPEATS_DEFAULTS.count,
-    varyData: overrides.varyData ?? section?.varyData ?? REPEATS_DEFAULTS.varyData,
+    redrawData: overrides.redrawData ?? section?.redrawData ?? REPEATS_DEFAULTS.redrawData,
     confidence: overrides.confidence ?? section?.confidence ?? REPEATS_DEFAULTS.confidence,
   };
   const runs = options.count * variantCount;
@@ -53,8 +53,8 @@ export function repeatSeed(seed: number, repeat: number): number {
  * The variant's scenario for one repeat: repeat 1 as written; later ones with another seed, the
  * data's seed fixed or varied with it.
  */
-export function repeatScenario(scenario: Scenario, repeat: number, varyData: boolean): Scenario {
+export function repeatScenario(scenario: Scenario, repeat: number, redrawData: boolean): Scenario {
   if (repeat === 1) return scenario;
   const seed = repeatSeed(scenario.seed, repeat);
-  return { ...scenario, seed, dataSeed: varyData ? seed : dataSeedOf(scenario) };
+  return { ...scenario, seed, dataSeed: redrawData ? seed : dataSeedOf(scenario) };
 }

@@ -29,7 +29,7 @@ export interface RepeatedVariant {
 
 export interface RepeatSummary {
   count: number;
-  varyData: boolean;
+  redrawData: boolean;
   confidence: number;
   /** how each interval was chosen, in words */
   intervalRule: string;
@@ -57,7 +57,7 @@ function repeatedVariant(variant: string, runs: RepeatRun[], confidence: number)
 
 export function summarizeRepeats(
   runsByVariant: readonly { variant: string; runs: RepeatRun[] }[],
-  options: { count: number; varyData: boolean; confidence: number },
+  options: { count: number; redrawData: boolean; confidence: number },
   verdictFigures: readonly RepeatFigure[],
 ): RepeatSummary {
   const variants = runsByVariant.map((v) => repeatedVariant(v.variant, v.runs, options.confidence));

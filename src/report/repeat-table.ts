@@ -88,7 +88,7 @@ export function repeatVerdictLines(r: RepeatSummary): string[] {
 
 export function formatRepeatSummary(r: RepeatSummary): string {
   return [
-    `${r.count} repeats a variant, ${r.varyData ? 'data varied with the seed' : 'data fixed'}; each figure is mean ± half-width of its ${percent(r.confidence)} interval, or mean [lower, upper] where the interval is a bootstrap one; (n/${r.count}) counts the repeats that have it`,
+    `${r.count} repeats a variant, ${r.redrawData ? 'data redrawn with each seed' : 'data fixed'}; each figure is mean ± half-width of its ${percent(r.confidence)} interval, or mean [lower, upper] where the interval is a bootstrap one; (n/${r.count}) counts the repeats that have it`,
     '',
     formatTable(repeatTableHeader, repeatTableRows(r)),
     '',

@@ -14,14 +14,14 @@ export const REPEATS_LIMITS = {
   confidenceMax: 0.999,
 } as const;
 
-export const REPEATS_DEFAULTS = { count: 1, varyData: false, confidence: 0.95 } as const;
+export const REPEATS_DEFAULTS = { count: 1, redrawData: false, confidence: 0.95 } as const;
 
 export const repeatsSchema = z
   .object({
     /** runs of every variant; repeat r of every variant uses the same seeds (a paired design) */
     count: z.number().int().min(1).max(REPEATS_LIMITS.countMax),
     /** true: the data's seed varies with the repeat as well; false: the data stays fixed */
-    varyData: z.boolean().default(REPEATS_DEFAULTS.varyData),
+    redrawData: z.boolean().default(REPEATS_DEFAULTS.redrawData),
     /** two-sided confidence of every interval and of the verdict */
     confidence: z
       .number()

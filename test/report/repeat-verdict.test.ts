@@ -65,15 +65,15 @@ describe('repeat options and seeds', () => {
   });
 
   it('the command line wins over the scenario section; too many runs is bad input with a code', () => {
-    const section = { count: 4, varyData: true, confidence: 0.9 };
+    const section = { count: 4, redrawData: true, confidence: 0.9 };
     expect(resolveRepeatOptions(section, { repeats: 2 }, 3)).toEqual({
       count: 2,
-      varyData: true,
+      redrawData: true,
       confidence: 0.9,
     });
     expect(resolveRepeatOptions(undefined, {}, 3)).toEqual({
       count: 1,
-      varyData: false,
+      redrawData: false,
       confidence: 0.95,
     });
     expect(() => resolveRepeatOptions(undefined, { repeats: 100 }, 64)).toThrow(
