@@ -1,6 +1,7 @@
 // `roundwire compare <scenario> --ladder field:rung/rung ...`: every combination of one rung from
 // each ladder, each run with the same seed, speeds and links into its own results folder (with
-// report.html), then one table, compare.html, compare.csv and compare.json.
+// report.html), then one table, compare.html, compare.csv and compare.json. With --repeats, each
+// variant runs on several seeds (compare-repeats.ts) and the verdict says how sure it is.
 
 import { gapName } from '../report/gap-name.js';
 import { mkdirSync, writeFileSync } from 'node:fs';
