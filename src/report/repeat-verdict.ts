@@ -5,8 +5,7 @@
 // decides it. An interval entirely above 0 is a clear winner; one that contains 0 (or reaches
 // below it) is "no clear winner".
 
-import { figureStatistics, type FigureStatistics } from './repeat-statistics.js';
-import { tInterval } from './repeat-statistics.js';
+import { meanOf, tInterval, type FigureStatistics } from './repeat-statistics.js';
 import type { RepeatFigure } from './repeat-figures.js';
 
 export interface FigureSeries {
@@ -51,8 +50,13 @@ export function pairedDifference(
   confidence: number,
 ): PairedDifference {
   const [lower, upper] = tInterval(differences, confidence);
-  const mean = figureStatistics(differences, confidence).mean as number;
-  return { mean, lower, upper, n: differences.length, method: 'paired-t' };
+  return {
+    mean: meanOf(differences),
+    lower,
+    upper,
+    n: differences.length,
+    method: 'paired-t',
+  };
 }
 
 /** The verdict on one figure; ties in the mean go to the earlier variant. */
