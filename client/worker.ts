@@ -358,7 +358,7 @@ export class Worker {
     if (copyProblem !== null) {
       this.send({
         type: 'error',
-        code: 'E_DATA_FILE',
+        code: 'E_DATA_COPY',
         message: copyProblem.slice(0, message.limits.maxErrorMessageLength),
       });
       this.fail(new JoinError(`cannot host clients of this plan: ${copyProblem}`));

@@ -39,7 +39,15 @@ import {
   WORKERS_WAIT_SECONDS_MAX,
   type CoordinatorCommandOptions,
 } from './commands/coordinator-command.js';
-import { integerInRange, secondsInRange } from './commands/number-options.js';
+import { integerInRange, numberInRange, secondsInRange } from './commands/number-options.js';
+import { REPEATS_LIMITS } from './scenario/repeats-schema.js';
+import {
+  REPEAT_FIGURES,
+  figureOptionName,
+  parseRankBy,
+  type RepeatFigure,
+} from './report/repeat-figures.js';
+import { formatRepeatedComparison } from './report/repeat-table.js';
 import { writeRunReport } from './commands/report-command.js';
 import { useTheoryStore } from './theory/plan-theory.js';
 import { diskTheoryStore, theoryCacheDir } from '../runtime/theory-cache.js';
@@ -495,6 +503,33 @@ function buildProgram(io: Io): Command {
       '--out <dir>',
       'folder for compare.html, compare.csv, compare.json and one results folder per variant (default results/compare-<name>-<time>)',
     )
+    .addOption(
+      new Option(
+        '--repeats <n>',
+        'run every variant n times on n seeds for speeds, participation, minibatches and compression, the data fixed; report mean, sd and a confidence interval of every figure, and a paired verdict',
+      ).argParser(integerInRange('--repeats', 1, REPEATS_LIMITS.countMax)),
+    )
+    .option(
+      '--redraw-data',
+      "with --repeats: draw the data again from each repeat's seed too (by default it stays fixed)",
+    )
+    .addOption(
+      new Option(
+        '--confidence <level>',
+        'two-sided confidence of the intervals and the verdict with --repeats (default 0.95)',
+      ).argParser(
+        numberInRange('--confidence', REPEATS_LIMITS.confidenceMin, REPEATS_LIMITS.confidenceMax),
+      ),
+    )
+    .addOption(
+      new Option(
+        '--rank-by <figure>',
+        `with --repeats, the figure the verdict ranks by (repeatable): ${REPEAT_FIGURES.map(figureOptionName).join(', ')} (default: bytes, uplink bytes and seconds to target)`,
+      ).argParser((text: string, previous: RepeatFigure[] | undefined) => [
+        ...(previous ?? []),
+        parseRankBy(text),
+      ]),
+    )
     .option('--json', 'print compare.json instead of the table')
     .addHelpText('after', ladderOptionHelp)
     .addHelpText('after', exitCodesHelp)
@@ -503,7 +538,13 @@ function buildProgram(io: Io): Command {
       const outDir = opts.out ?? defaultCompareDir(plan.base, new Date());
       prepareResultsFolder(outDir);
       const comparison = await runComparison(plan, outDir, opts, { err: io.err });
-      io.out(opts.json ? comparisonJson(comparison) : formatComparison(comparison, outDir));
+      io.out(
+        opts.json
+          ? comparisonJson(comparison)
+          : comparison.repeats === undefined
+            ? formatComparison(comparison, outDir)
+            : formatRepeatedComparison(comparison, comparison.repeats, outDir),
+      );
     });
 
   program

@@ -1,6 +1,7 @@
 // `roundwire compare <scenario> --ladder field:rung/rung ...`: every combination of one rung from
 // each ladder, each run with the same seed, speeds and links into its own results folder (with
-// report.html), then one table, compare.html, compare.csv and compare.json.
+// report.html), then one table, compare.html, compare.csv and compare.json. With --repeats, each
+// variant runs on several seeds (compare-repeats.ts) and the verdict says how sure it is.
 
 import { gapName } from '../report/gap-name.js';
 import { mkdirSync, writeFileSync } from 'node:fs';
@@ -10,10 +11,18 @@ import type { Scenario } from '../scenario/schema.js';
 import { parseTweak, type Tweak } from '../scenario/tweaks.js';
 import { ScenarioError } from '../scenario/scenario-error.js';
 import { assertPlannable } from '../engine/run-plan.js';
-import { runInProcessInto } from './run-report.js';
-import { runDistributed } from './run-distributed.js';
-import { readRunResults, reportFileName } from './report-command.js';
-import { buildRunReport } from '../report/run-report-page.js';
+import type { RunSummary } from '../engine/run-summary.js';
+import { runVariantRepeats } from './compare-repeats.js';
+import { resolveRepeatOptions, type RepeatOptions } from '../report/repeat-plan.js';
+import { summarizeRepeats, type RepeatRun, type RepeatSummary } from '../report/repeat-summary.js';
+import {
+  ACCURACY_FIGURES,
+  VERDICT_FIGURES_DEFAULT,
+  figureOptionName,
+  measuredFigures,
+  type RepeatFigure,
+} from '../report/repeat-figures.js';
+import { repeatCsv } from '../report/repeat-table.js';
 import { expandVariants, type Variant } from '../report/compare-variants.js';
 import {
   checkLadders,
@@ -30,6 +39,7 @@ import {
   comparisonCsv,
   comparisonJson,
   type Comparison,
+  type TimeBasis,
   type VariantOutcome,
 } from '../report/compare-table.js';
 import { buildComparePage } from '../report/compare-page.js';
@@ -39,6 +49,7 @@ export const compareFiles = {
   html: 'compare.html',
   csv: 'compare.csv',
   json: 'compare.json',
+  repeatsCsv: 'compare-repeats.csv',
 } as const;
 
 export interface CompareOptions {
@@ -47,7 +58,16 @@ export interface CompareOptions {
   tweak: string[];
   out?: string;
   distributed?: boolean;
+  /** runs of every variant, and how they are summarized (repeat-plan.ts) */
+  repeats?: number;
+  redrawData?: boolean;
+  confidence?: number;
+  /** the figures the verdict ranks by; absent, VERDICT_FIGURES_DEFAULT */
+  rankBy?: RepeatFigure[];
 }
+
+/** A comparison and, with more than one repeat, its statistics over the repeats. */
+export type ComparisonResult = Comparison & { repeats?: RepeatSummary };
 
 export interface CompareIo {
   /** progress lines, one a variant */
@@ -63,6 +83,7 @@ export interface ComparisonPlan {
   base: Scenario;
   ladders: Ladder[];
   variants: PlannedVariant[];
+  repeats: RepeatOptions;
 }
 
 /** The scenario's reason, shown after what was being checked; its field only where the context does not name it. */
@@ -92,7 +113,10 @@ function checkRungs(document: unknown, tweaks: readonly Tweak[], ladders: readon
 /** Validates the base scenario, every rung and every variant before anything runs, so bad input costs nothing. */
 export function planComparison(
   file: string,
-  options: Pick<CompareOptions, 'ladder' | 'tweak'>,
+  options: Pick<
+    CompareOptions,
+    'ladder' | 'tweak' | 'repeats' | 'redrawData' | 'confidence' | 'rankBy'
+  >,
 ): ComparisonPlan {
   const document = readScenarioDocument(file);
   const tweaks = options.tweak.map(parseTweak);
@@ -114,7 +138,18 @@ export function planComparison(
     }
   });
   for (const { scenario } of variants) assertPlannable(scenario);
-  return { base, ladders, variants };
+  const repeats = resolveRepeatOptions(base.repeats, options, variants.length);
+  const unmeasured = (options.rankBy ?? []).find(
+    (f) =>
+      ACCURACY_FIGURES.includes(f) &&
+      variants.some(({ scenario }) => scenario.run.targetAccuracy === undefined),
+  );
+  if (unmeasured !== undefined)
+    throw new ReportError(
+      'E_COMPARE_REPEATS',
+      `--rank-by ${figureOptionName(unmeasured)}: every variant needs run.targetAccuracy (and a held-out part, data.testFraction) to be ranked by it`,
+    );
+  return { base, ladders, variants, repeats };
 }
 
 /** results/compare-<scenario>-<utc stamp>: sorts by time and says what was compared. */
@@ -126,42 +161,60 @@ export function defaultCompareDir(scenario: Scenario, now: Date): string {
   return join('results', `compare-${scenario.name.replace(/[^A-Za-z0-9_.-]+/g, '_')}-${stamp}`);
 }
 
-async function runVariant(
-  planned: PlannedVariant,
-  dir: string,
-  distributed: boolean,
-  io: CompareIo,
-): Promise<void> {
-  if (distributed) {
-    await runDistributed(planned.scenario, dir, { out: io.err, err: io.err });
-    return;
-  }
-  runInProcessInto(planned.scenario, dir);
-}
-
-/** Runs every variant in turn, writes the folders and the comparison files; returns the comparison. */
+/** Runs every variant (each as often as the plan repeats it), writes the comparison files; returns the comparison. */
 export async function runComparison(
   plan: ComparisonPlan,
   outDir: string,
-  options: Pick<CompareOptions, 'distributed'>,
+  options: Pick<CompareOptions, 'distributed' | 'rankBy'>,
   io: CompareIo,
-): Promise<Comparison> {
+): Promise<ComparisonResult> {
   mkdirSync(outDir, { recursive: true });
+  const timeBasis: TimeBasis = plan.variants.every((v) => v.scenario.timing.clock === 'virtual')
+    ? 'modelled'
+    : 'wall';
   const outcomes: VariantOutcome[] = [];
+  const runsByVariant: { variant: string; runs: RepeatRun[] }[] = [];
   for (const planned of plan.variants) {
-    const dir = join(outDir, planned.variant.folderName);
-    await runVariant(planned, dir, options.distributed === true, io);
-    const results = readRunResults(dir);
-    writeFileSync(join(dir, reportFileName), await buildRunReport(results));
-    const s = results.summary;
-    io.err(
-      `variant ${planned.variant.index + 1}/${plan.variants.length} ${planned.variant.label}: ${s.rounds} rounds (${s.stopReason}), ${gapName(s.theory.reference !== null, true)} ${formatNumber(s.suboptimality.final)}\n`,
+    const position = `${planned.variant.index + 1}/${plan.variants.length}`;
+    const { first, runs } = await runVariantRepeats(
+      planned.scenario,
+      planned.variant,
+      position,
+      outDir,
+      plan.repeats,
+      timeBasis,
+      options.distributed === true,
+      io,
+      (outcome, repeatText) => {
+        const s = outcome.summary as RunSummary;
+        return `variant ${position} ${planned.variant.label}${repeatText}: ${s.rounds} rounds (${s.stopReason}), ${gapName(s.theory.reference !== null, true)} ${formatNumber(s.suboptimality.final)}\n`;
+      },
     );
-    outcomes.push({ variant: planned.variant, summary: s, rounds: results.rounds });
+    outcomes.push(first);
+    runsByVariant.push({ variant: planned.variant.label, runs });
   }
-  const comparison = buildComparison(plan.base.name, plan.base.run.target, plan.ladders, outcomes);
+  const comparison: ComparisonResult = buildComparison(
+    plan.base.name,
+    plan.base.run.target,
+    plan.ladders,
+    outcomes,
+  );
+  if (plan.repeats.count > 1) {
+    comparison.repeats = summarizeRepeats(
+      runsByVariant,
+      plan.repeats,
+      options.rankBy ?? VERDICT_FIGURES_DEFAULT,
+      measuredFigures(
+        plan.variants.every(({ scenario }) => scenario.run.targetAccuracy !== undefined),
+      ),
+    );
+    writeFileSync(join(outDir, compareFiles.repeatsCsv), repeatCsv(comparison.repeats));
+  }
   writeFileSync(join(outDir, compareFiles.csv), comparisonCsv(comparison));
   writeFileSync(join(outDir, compareFiles.json), comparisonJson(comparison));
-  writeFileSync(join(outDir, compareFiles.html), await buildComparePage(comparison, outcomes));
+  writeFileSync(
+    join(outDir, compareFiles.html),
+    await buildComparePage(comparison, outcomes, comparison.repeats),
+  );
   return comparison;
 }

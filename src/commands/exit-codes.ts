@@ -42,6 +42,8 @@ export const BAD_INPUT_CODES: ReadonlySet<string> = new Set([
   'E_CHECKPOINT_PLAN',
   // src/report
   'E_COMPARE_VARIANTS',
+  'E_COMPARE_REPEATS',
+  'E_STATISTICS_ARGUMENT',
   'E_LADDER_FIELDS',
   'E_LADDER_RUNG',
   'E_LADDER_SYNTAX',

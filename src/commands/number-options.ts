@@ -40,3 +40,16 @@ export function secondsInRange(
     return value;
   };
 }
+
+/** A number from `min` to `max`, fractions allowed, e.g. a confidence level. */
+export function numberInRange(option: string, min: number, max: number): (text: string) => number {
+  return (text) => {
+    const value = Number(text);
+    if (text.trim() === '' || !(value >= min && value <= max)) {
+      throw new OptionValueError(
+        `${option}: expected a number from ${min} to ${max}, got "${text}"`,
+      );
+    }
+    return value;
+  };
+}

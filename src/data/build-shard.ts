@@ -17,6 +17,7 @@
 // the rest, for the evaluation.
 
 import type { Scenario } from '../scenario/schema.js';
+import { dataSeedOf } from '../scenario/data-seed.js';
 import { canonicalJson } from '../scenario/plan-hash.js';
 import { featureScales } from './covariance.js';
 import { DataError } from './data-error.js';
@@ -100,7 +101,8 @@ function featureScalesOf(data: SyntheticData): Float64Array {
 
 /** Client clientId's every row, before its test part is held out. */
 function directRows(scenario: Scenario & { data: SyntheticData }, clientId: number): Shard {
-  const { seed, problem, data } = scenario;
+  const { problem, data } = scenario;
+  const seed = dataSeedOf(scenario);
   const p = data.features;
   const sampleKind = sampleKindOf(problem.kind);
   const x0 = syntheticCentre(seed, parameterDimension(sampleKind, p, classCountOf(scenario)));
@@ -132,7 +134,8 @@ function directRows(scenario: Scenario & { data: SyntheticData }, clientId: numb
 function syntheticPool(
   scenario: Scenario & { data: SyntheticData },
 ): LabelledPool & { features: Float64Array; targets: Float64Array } {
-  const { seed, problem, data } = scenario;
+  const { problem, data } = scenario;
+  const seed = dataSeedOf(scenario);
   if (problem.kind === 'least-squares') {
     throw new DataError(
       'E_DATA_SPEC',
@@ -168,7 +171,7 @@ function syntheticPool(
 function pooledData(scenario: Scenario): PooledData {
   // Keys sorted: equal plans give equal cache keys whatever their key order.
   const key = canonicalJson({
-    seed: scenario.seed,
+    seed: dataSeedOf(scenario),
     kind: scenario.problem.kind,
     classes: scenario.problem.classes,
     data: scenario.data,
@@ -192,10 +195,10 @@ function pooledData(scenario: Scenario): PooledData {
     pool,
     scenario.data.partition,
     scenario.clients.count,
-    Rng.derive(scenario.seed, 'partition'),
+    Rng.derive(dataSeedOf(scenario), 'partition'),
   );
   const splits = wholeParts.map((part, clientId) =>
-    splitRows(scenario.seed, clientId, part.length, scenario.data.testFraction),
+    splitRows(dataSeedOf(scenario), clientId, part.length, scenario.data.testFraction),
   );
   const parts = wholeParts.map((part, id) => pickRows(part, splits[id].training));
   const testParts = wholeParts.map((part, id) => pickRows(part, splits[id].test));
@@ -275,7 +278,7 @@ function directPart(
   }
   const rows = directRows(scenario, clientId);
   if (fraction === 0) return rows;
-  const split = splitRows(scenario.seed, clientId, rows.sampleCount, fraction);
+  const split = splitRows(dataSeedOf(scenario), clientId, rows.sampleCount, fraction);
   return shardRows(rows, part === 'training' ? split.training : split.test);
 }
 
@@ -316,7 +319,7 @@ export function sampleCountsOf(scenario: Scenario): number[] {
     return samplesForAllClients(
       scenario.data.samplesPerClient,
       scenario.clients.count,
-      scenario.seed,
+      dataSeedOf(scenario),
     ).map((n) => n - testRowCount(fraction, n));
   }
   return pooledData(scenario).parts.map((part) => part.length);

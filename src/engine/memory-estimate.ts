@@ -44,6 +44,7 @@
 
 import { SCENARIO_LIMITS, type Scenario } from '../scenario/schema.js';
 import { ScenarioError } from '../scenario/scenario-error.js';
+import { dataSeedOf } from '../scenario/data-seed.js';
 import { methodByName } from '../algorithm/registry.js';
 import { samplesForAllClients } from '../data/sample-counts.js';
 import { naturalKeysOf, scenarioDatasetShape } from '../data/dataset-pool.js';
@@ -156,7 +157,7 @@ export function dataShape(scenario: Scenario): DataShape {
     };
   }
   return {
-    samplesPerClient: samplesForAllClients(data.samplesPerClient, m, scenario.seed),
+    samplesPerClient: samplesForAllClients(data.samplesPerClient, m, dataSeedOf(scenario)),
     features: data.features,
     pooled: data.partition.kind !== 'iid',
   };

@@ -1,5 +1,6 @@
 // Every random stream of a run, named in one place, so that the engine, the coordinator and the
-// workers draw exactly the same numbers for the same (round, exchange, client, field).
+// workers draw exactly the same numbers for the same (round, exchange, client, field). The data
+// draws from its own seed (scenario/data-seed.ts), so these can vary over fixed data.
 
 import { Rng } from '../base/rng.js';
 import type { RngForField } from '../compress/channel.js';

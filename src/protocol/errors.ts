@@ -26,7 +26,7 @@ export const PROTOCOL_ERROR_CODES = [
   /** A message out of the conversation's order: a connection's first message must be a hello. */
   'E_ORDER',
   /** The worker's copy of the plan's data file is missing or differs from the coordinator's. */
-  'E_DATA_FILE',
+  'E_DATA_COPY',
 ] as const;
 
 export type ProtocolErrorCode = (typeof PROTOCOL_ERROR_CODES)[number];

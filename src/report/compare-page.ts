@@ -16,6 +16,9 @@ import { methodColour, VARIANT_DASHES } from './palette.js';
 import { ladderOptionText } from './ladder.js';
 import { renderSvg } from './render-svg.js';
 import { measuredCurve, type CurvePointRow } from './run-series.js';
+import { repeatSection } from './repeat-page-section.js';
+import type { RepeatSummary } from './repeat-summary.js';
+import { repeatVerdictLines } from './repeat-table.js';
 
 /** Points drawn in all for one chart, shared among the variants. */
 const comparePointsMax = 6000;
@@ -37,23 +40,32 @@ export function variantSeries(
   });
 }
 
-/** `outcomes` in the order of the comparison's rows. */
+/**
+ * `outcomes` in the order of the comparison's rows. With `repeats`, the verdict is the one over
+ * the repeats and a section shows their intervals; the curves stay those of repeat 1.
+ */
 export async function buildComparePage(
   c: Comparison,
   outcomes: readonly Pick<VariantOutcome, 'summary' | 'rounds'>[],
+  repeats?: RepeatSummary,
 ): Promise<string> {
   const perVariant = Math.max(50, Math.floor(comparePointsMax / Math.max(1, c.variants.length)));
   const clock = c.timeBasis === 'modelled' ? 'virtual' : 'wall';
   const rows: CurvePointRow[] = [];
   let thinned = false;
-  c.variants.forEach((r, i) => {
-    const curve = measuredCurve(outcomes[i].rounds, clock, r.variant, perVariant);
+  // A failed variant has no curve; the table says why.
+  const drawn = c.variants.flatMap((r, i) => {
+    const summary = outcomes[i].summary;
+    return summary === null ? [] : [{ label: r.variant, method: summary.method, i }];
+  });
+  for (const { label, i } of drawn) {
+    const curve = measuredCurve(outcomes[i].rounds, clock, label, perVariant);
     thinned ||= curve.points.length < curve.pointsTotal;
     rows.push(...curve.points);
-  });
+  }
   const series = variantSeries(
-    c.variants.map((r) => r.variant),
-    outcomes.map((o) => o.summary.method),
+    drawn.map((d) => d.label),
+    drawn.map((d) => d.method),
   );
   const caption = `One line a variant, same seed, speeds and links; colour says the method, line style tells apart variants of one method. ${thinned ? `At most ${perVariant} points a variant, evenly spread. ` : ''}Target ${formatNumber(c.target)}.`;
   const axes: [CurveAxis, string, string | undefined][] = [
@@ -85,7 +97,10 @@ export async function buildComparePage(
       `${c.variants.length} variants (${laddersText}), ${c.runtime} runtime; seconds are ${c.timeBasis === 'modelled' ? 'modelled (virtual clock)' : 'wall-clock'}.`,
       'note',
     ),
-    ...verdictLines(c).map((line) => paragraph(line, 'verdict')),
+    ...(repeats === undefined ? verdictLines(c) : repeatVerdictLines(repeats)).map((line) =>
+      paragraph(line, 'verdict'),
+    ),
+    ...(repeats === undefined ? [] : [await repeatSection(repeats)]),
     section('Variants', [
       table(tableHeader, tableRows(c), formatNumber),
       paragraph(

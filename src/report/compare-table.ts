@@ -120,17 +120,47 @@ export interface Comparison {
 
 export interface VariantOutcome {
   variant: Variant;
-  summary: RunSummary;
+  /** null when the run ended in an error instead of a stop reason */
+  summary: RunSummary | null;
   rounds: readonly RoundRecord[];
+  /** the error's message of a failed run */
+  failure?: string;
 }
+
+/** The stop shown for a run that ended in an error. */
+export const FAILED_STOP = 'failed';
 
 /** Modelled seconds compare like with like only when every variant ran on the virtual clock. */
 export function timeBasisOf(summaries: readonly RunSummary[]): TimeBasis {
   return summaries.every((s) => s.clock === 'virtual') ? 'modelled' : 'wall';
 }
 
+/** A failed run's row: its stop says so and it has no figures. */
+function failedRow(variant: Variant): CompareRow {
+  return {
+    variant: variant.label,
+    stop: FAILED_STOP,
+    rounds: 0,
+    roundsToTarget: null,
+    bytesToTarget: null,
+    uplinkBytesToTarget: null,
+    secondsToTarget: null,
+    roundsToTargetAccuracy: null,
+    bytesToTargetAccuracy: null,
+    secondsToTargetAccuracy: null,
+    floorMeasured: null,
+    rateMeasured: null,
+    ratePredicted: null,
+    rateOverWindow: null,
+    windowStatus: FAILED_STOP,
+    droppedUpdates: 0,
+    folder: variant.folderName,
+  };
+}
+
 export function compareRow(outcome: VariantOutcome, timeBasis: TimeBasis): CompareRow {
   const { summary: s, variant } = outcome;
+  if (s === null) return failedRow(variant);
   const held = s.heldOut;
   let uplink: number | null = null;
   if (s.roundsToTarget !== null) {
@@ -190,7 +220,7 @@ export function buildComparison(
   ladders: Ladder[],
   outcomes: readonly VariantOutcome[],
 ): Comparison {
-  const summaries = outcomes.map((o) => o.summary);
+  const summaries = outcomes.flatMap((o) => (o.summary === null ? [] : [o.summary]));
   const timeBasis = timeBasisOf(summaries);
   const rows = outcomes.map((o) => compareRow(o, timeBasis));
   return {

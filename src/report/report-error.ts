@@ -14,6 +14,10 @@ export type ReportErrorCode =
   /** a rung the scenario rejects, a rung given twice, or too many rungs */
   | 'E_LADDER_RUNG'
   /** nothing to compare, more variants than the limit, or a combination of rungs the scenario rejects */
-  | 'E_COMPARE_VARIANTS';
+  | 'E_COMPARE_VARIANTS'
+  /** --repeats, --confidence or --rank-by out of range, or too many runs in all */
+  | 'E_COMPARE_REPEATS'
+  /** a statistic asked outside its domain (a probability outside [0.5, 1), no degrees of freedom) */
+  | 'E_STATISTICS_ARGUMENT';
 
 export class ReportError extends CodedError<ReportErrorCode> {}

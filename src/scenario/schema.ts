@@ -9,6 +9,7 @@ import {
   datasetChoice,
   datasetTargetName,
 } from './dataset-choices.js';
+import { repeatsSchema } from './repeats-schema.js';
 
 const positiveInt = z.number().int().positive();
 const nonNegative = z.number().nonnegative();
@@ -592,6 +593,13 @@ export const scenarioSchema = z
       .int()
       .min(0)
       .max(2 ** 53 - 1),
+    /** the seed of the data (shards, partition, sample counts); absent, the seed above */
+    dataSeed: z
+      .number()
+      .int()
+      .min(0)
+      .max(2 ** 53 - 1)
+      .optional(),
     problem: problemSchema,
     data: dataSchema,
     clients: clientsSchema,
@@ -621,6 +629,8 @@ export const scenarioSchema = z
      * the same seed; `roundwire run` runs the base scenario and ignores this.
      */
     ladders: z.array(ladderSchema).max(ladderLimits.laddersMax).optional(),
+    /** how often `roundwire compare` runs every variant (repeats-schema.ts) */
+    repeats: repeatsSchema.optional(),
   })
   .strict()
   .superRefine((scenario, ctx) => {

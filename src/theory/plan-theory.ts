@@ -11,6 +11,7 @@
 
 import type { Scenario } from '../scenario/schema.js';
 import { hashOf } from '../scenario/plan-hash.js';
+import { dataSeedOf } from '../scenario/data-seed.js';
 import { buildProblemInstance, type ProblemInstance } from '../data/problem-instance.js';
 import { WeightedSumObjective } from '../problem/weighted-sum.js';
 import { allFinite, norm2 } from '../vec/kernels.js';
@@ -90,7 +91,11 @@ export function useTheoryStore(next: TheoryStore | null): void {
 
 export function problemHashOf(scenario: Scenario): string {
   return hashOf({
-    seed: scenario.seed,
+    // The data's seed defines the problem, so repeats over fixed data share one answer; a
+    // perceptron's reference run starts where the run's own seed puts it, so both count there.
+    ...(scenario.problem.kind === 'perceptron'
+      ? { seed: scenario.seed, dataSeed: scenario.dataSeed }
+      : { seed: dataSeedOf(scenario) }),
     problem: scenario.problem,
     data: scenario.data,
     clients: scenario.clients,

@@ -1,6 +1,6 @@
 // A worker reads a file scenario's data itself and holds its copy against the SHA-256 the plan
 // carries: a copy that differs is refused at the welcome, before any client is built, with an
-// E_DATA_FILE error to the coordinator naming the file and both hashes, and the worker stops.
+// E_DATA_COPY error to the coordinator naming the file and both hashes, and the worker stops.
 // The coordinator here is a plain WebSocket server on 127.0.0.1 speaking the protocol.
 
 import { createHash } from 'node:crypto';
@@ -114,6 +114,6 @@ run: {rounds: 1}
     ]);
     expect(plan.scenario.data).toMatchObject({ sha256: sha256(planned) });
     const errors = received.filter((m) => m.type === 'error');
-    expect(errors).toEqual([{ type: 'error', code: 'E_DATA_FILE', message: reason }]);
+    expect(errors).toEqual([{ type: 'error', code: 'E_DATA_COPY', message: reason }]);
   }, 20_000);
 });

@@ -54,7 +54,9 @@ function lineMarks(html: string): LineMark[] {
 
 const dashText = (dash: readonly number[]) => dash.join(',');
 
-function runOf(method: MethodName): VariantOutcome {
+function runOf(
+  method: MethodName,
+): VariantOutcome & { summary: NonNullable<VariantOutcome['summary']> } {
   const dir = join(root, method);
   const scenario = scenarioFromText(
     readFileSync('scenarios/quickstart.yaml', 'utf8'),
