@@ -50,6 +50,7 @@ import {
 } from './commands/compare-command.js';
 import { comparisonJson, formatComparison } from './report/compare-table.js';
 import { ladderOptionHelp } from './report/ladder-option.js';
+import { tuningOptionHelp } from './report/tuning-option.js';
 import {
   METRICS_LINGER_SECONDS_MAX,
   parseMetricsAddress,
@@ -489,6 +490,17 @@ function buildProgram(io: Io): Command {
       'folder for compare.html, compare.csv, compare.json and one results folder per variant (default results/compare-<name>-<time>)',
     )
     .option('--json', 'print compare.json instead of the table')
+    .option(
+      '--tune <field:low..high>',
+      'tune this field per variant before it runs (or field:v1/v2/...; see Tuning below)',
+    )
+    .option(
+      '--tune-search <grid:N|golden>',
+      'search a range by a log grid (N a decade) or golden section',
+    )
+    .option('--tune-budget <runs>', 'candidate runs a variant may make (default 16)')
+    .option('--tune-by <figure>', 'the figure that ranks candidates (default rounds-to-target)')
+    .addHelpText('after', tuningOptionHelp)
     .addHelpText('after', ladderOptionHelp)
     .addHelpText('after', exitCodesHelp)
     .action(async (file: string, opts: CompareOptions & { json?: boolean }) => {

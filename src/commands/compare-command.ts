@@ -34,6 +34,15 @@ import {
 } from '../report/compare-table.js';
 import { buildComparePage } from '../report/compare-page.js';
 import { formatNumber } from '../report/text-table.js';
+import { planTuning, tunePlannedVariant, type PlannedTuning } from '../report/tuning-plan.js';
+import type { TuningOptions } from '../report/tuning-option.js';
+import {
+  comparisonTuning,
+  TUNING_TRACE_FILE,
+  tuningTrace,
+  tuningTraceJson,
+  type VariantTuningEntry,
+} from '../report/tuning-trace.js';
 
 export const compareFiles = {
   html: 'compare.html',
@@ -41,7 +50,7 @@ export const compareFiles = {
   json: 'compare.json',
 } as const;
 
-export interface CompareOptions {
+export interface CompareOptions extends TuningOptions {
   /** `--ladder` texts; when given, they replace the scenario's own ladders */
   ladder: string[];
   tweak: string[];
@@ -63,6 +72,8 @@ export interface ComparisonPlan {
   base: Scenario;
   ladders: Ladder[];
   variants: PlannedVariant[];
+  /** null when no field is tuned */
+  tuning: PlannedTuning | null;
 }
 
 /** The scenario's reason, shown after what was being checked; its field only where the context does not name it. */
@@ -92,7 +103,7 @@ function checkRungs(document: unknown, tweaks: readonly Tweak[], ladders: readon
 /** Validates the base scenario, every rung and every variant before anything runs, so bad input costs nothing. */
 export function planComparison(
   file: string,
-  options: Pick<CompareOptions, 'ladder' | 'tweak'>,
+  options: Pick<CompareOptions, 'ladder' | 'tweak'> & TuningOptions,
 ): ComparisonPlan {
   const document = readScenarioDocument(file);
   const tweaks = options.tweak.map(parseTweak);
@@ -114,7 +125,15 @@ export function planComparison(
     }
   });
   for (const { scenario } of variants) assertPlannable(scenario);
-  return { base, ladders, variants };
+  const tuning = planTuning(
+    document,
+    tweaks,
+    base,
+    ladders,
+    variants.map((v) => v.variant),
+    options,
+  );
+  return { base, ladders, variants, tuning };
 }
 
 /** results/compare-<scenario>-<utc stamp>: sorts by time and says what was compared. */
@@ -148,18 +167,43 @@ export async function runComparison(
 ): Promise<Comparison> {
   mkdirSync(outDir, { recursive: true });
   const outcomes: VariantOutcome[] = [];
+  const tuningEntries: VariantTuningEntry[] = [];
   for (const planned of plan.variants) {
     const dir = join(outDir, planned.variant.folderName);
-    await runVariant(planned, dir, options.distributed === true, io);
+    // Candidates run in process whatever the runtime: see src/report/tune-variant.ts.
+    const tuned =
+      plan.tuning === null
+        ? null
+        : tunePlannedVariant(plan.tuning, planned.variant, planned.scenario, io.err);
+    if (tuned !== null) tuningEntries.push(tuned.entry);
+    await runVariant(
+      tuned === null ? planned : { ...planned, scenario: tuned.scenario },
+      dir,
+      options.distributed === true,
+      io,
+    );
     const results = readRunResults(dir);
     writeFileSync(join(dir, reportFileName), await buildRunReport(results));
     const s = results.summary;
     io.err(
       `variant ${planned.variant.index + 1}/${plan.variants.length} ${planned.variant.label}: ${s.rounds} rounds (${s.stopReason}), ${gapName(s.theory.reference !== null, true)} ${formatNumber(s.suboptimality.final)}\n`,
     );
-    outcomes.push({ variant: planned.variant, summary: s, rounds: results.rounds });
+    outcomes.push({
+      variant: planned.variant,
+      summary: s,
+      rounds: results.rounds,
+      ...(tuned === null ? {} : { tunedValue: tuned.entry.tunedValue }),
+    });
   }
-  const comparison = buildComparison(plan.base.name, plan.base.run.target, plan.ladders, outcomes);
+  const comparison: Comparison = {
+    ...buildComparison(plan.base.name, plan.base.run.target, plan.ladders, outcomes),
+    ...(plan.tuning === null ? {} : { tuning: comparisonTuning(plan.tuning.spec) }),
+  };
+  if (plan.tuning !== null)
+    writeFileSync(
+      join(outDir, TUNING_TRACE_FILE),
+      tuningTraceJson(tuningTrace(plan.tuning.spec, plan.base.run.target, tuningEntries)),
+    );
   writeFileSync(join(outDir, compareFiles.csv), comparisonCsv(comparison));
   writeFileSync(join(outDir, compareFiles.json), comparisonJson(comparison));
   writeFileSync(join(outDir, compareFiles.html), await buildComparePage(comparison, outcomes));

@@ -16,6 +16,7 @@ import { methodColour, VARIANT_DASHES } from './palette.js';
 import { ladderOptionText } from './ladder.js';
 import { renderSvg } from './render-svg.js';
 import { measuredCurve, type CurvePointRow } from './run-series.js';
+import { tuningLine } from './tuning-trace.js';
 
 /** Points drawn in all for one chart, shared among the variants. */
 const comparePointsMax = 6000;
@@ -86,6 +87,7 @@ export async function buildComparePage(
       'note',
     ),
     ...verdictLines(c).map((line) => paragraph(line, 'verdict')),
+    ...(c.tuning === undefined ? [] : [paragraph(tuningLine(c.tuning), 'note')]),
     section('Variants', [
       table(tableHeader, tableRows(c), formatNumber),
       paragraph(

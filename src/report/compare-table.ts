@@ -8,6 +8,7 @@ import type { RunSummary } from '../engine/run-summary.js';
 import { columnTitle, formatNumber, formatTable, type Column } from './text-table.js';
 import type { Variant } from './compare-variants.js';
 import type { Ladder } from './ladder.js';
+import { tuningLine, type ComparisonTuning } from './tuning-trace.js';
 
 export interface CompareRow {
   variant: string;
@@ -29,6 +30,8 @@ export interface CompareRow {
   droppedUpdates: number;
   /** the variant's results folder, beside compare.json */
   folder: string;
+  /** the value of the tuned field this variant ran at; null without tuning */
+  tunedValue: number | null;
 }
 
 /** CSV columns and JSON keys, in order; the table shows all but the folder. */
@@ -47,6 +50,7 @@ export const compareColumns: (keyof CompareRow)[] = [
   'windowStatus',
   'droppedUpdates',
   'folder',
+  'tunedValue',
 ];
 
 const tableKeys = compareColumns.filter((k) => k !== 'folder');
@@ -101,12 +105,16 @@ export interface Comparison {
   ladders: Ladder[];
   variants: CompareRow[];
   verdict: Verdict;
+  /** present when each variant ran at its own tuned value (tuning.json holds the trace) */
+  tuning?: ComparisonTuning;
 }
 
 export interface VariantOutcome {
   variant: Variant;
   summary: RunSummary;
   rounds: readonly RoundRecord[];
+  /** the tuned field's value this variant ran at, when the comparison tuned one */
+  tunedValue?: number;
 }
 
 /** Modelled seconds compare like with like only when every variant ran on the virtual clock. */
@@ -136,6 +144,7 @@ export function compareRow(outcome: VariantOutcome, timeBasis: TimeBasis): Compa
     windowStatus: s.rate.asymptotic.status,
     droppedUpdates: s.droppedUpdates,
     folder: variant.folderName,
+    tunedValue: outcome.tunedValue ?? null,
   };
 }
 
@@ -266,6 +275,7 @@ export function formatComparison(c: Comparison, outDir: string): string {
       formatTable(tableColumns, tableRows(c)),
       '',
       ...verdictLines(c),
+      ...(c.tuning === undefined ? [] : [tuningLine(c.tuning)]),
       `results: ${outDir} (compare.html, compare.csv, compare.json, one folder per variant)`,
     ].join('\n') + '\n'
   );
