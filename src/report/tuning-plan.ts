@@ -84,6 +84,16 @@ function figureText(spec: TuningSpec, t: Omit<CandidateTrace, 'value'>): string 
   return `${figure.title} ${formatNumber(t.figure)}${figure.unit === '' ? '' : ` ${figure.unit}`}`;
 }
 
+/** A winner at an end of a grid's range may have a better value beyond it: the user should know. */
+function rangeEndNote(spec: TuningSpec, value: number): string {
+  const s = spec.search;
+  if (s.kind !== 'grid') return '';
+  const near = (end: number) => Math.abs(value / end - 1) < 1e-9;
+  if (near(s.high)) return ' (the high end of the range: a larger value may do better)';
+  if (near(s.low)) return ' (the low end of the range: a smaller value may do better)';
+  return '';
+}
+
 /** Searches one variant; returns the scenario it then runs at its tuned value, and its trace entry. */
 export function tunePlannedVariant(
   tuning: PlannedTuning,
@@ -95,7 +105,7 @@ export function tunePlannedVariant(
   const result = tuneVariant(spec, (value) => tuning.scenarioAt(variant.index, value), untuned);
   const diverged = result.candidates.filter((c) => c.diverged).length;
   progress(
-    `tuned ${variant.label}: ${spec.field} ${formatNumber(result.tunedValue)}, ${figureText(spec, result.candidates[result.best])} (${result.candidates.length} candidates, ${diverged} diverged; own value ${valueText(result.untuned.value)}: ${figureText(spec, result.untuned)})\n`,
+    `tuned ${variant.label}: ${spec.field} ${formatNumber(result.tunedValue)}${rangeEndNote(spec, result.tunedValue)}, ${figureText(spec, result.candidates[result.best])} (${result.candidates.length} candidates, ${diverged} diverged; own value ${valueText(result.untuned.value)}: ${figureText(spec, result.untuned)})\n`,
   );
   return {
     scenario: tuning.scenarioAt(variant.index, result.tunedValue),
