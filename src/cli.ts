@@ -59,6 +59,7 @@ import {
 } from './commands/compare-command.js';
 import { comparisonJson, formatComparison } from './report/compare-table.js';
 import { ladderOptionHelp } from './report/ladder-option.js';
+import { tuningOptionHelp } from './report/tuning-option.js';
 import {
   METRICS_LINGER_SECONDS_MAX,
   parseMetricsAddress,
@@ -531,6 +532,17 @@ function buildProgram(io: Io): Command {
       ]),
     )
     .option('--json', 'print compare.json instead of the table')
+    .option(
+      '--tune <field:low..high>',
+      'tune this field per variant before it runs (or field:v1/v2/...; see Tuning below)',
+    )
+    .option(
+      '--tune-search <grid:N|golden>',
+      'search a range by a log grid (N a decade) or golden section',
+    )
+    .option('--tune-budget <runs>', 'candidate runs a variant may make (default 16)')
+    .option('--tune-by <figure>', 'the figure that ranks candidates (default rounds-to-target)')
+    .addHelpText('after', tuningOptionHelp)
     .addHelpText('after', ladderOptionHelp)
     .addHelpText('after', exitCodesHelp)
     .action(async (file: string, opts: CompareOptions & { json?: boolean }) => {

@@ -44,6 +44,15 @@ import {
 } from '../report/compare-table.js';
 import { buildComparePage } from '../report/compare-page.js';
 import { formatNumber } from '../report/text-table.js';
+import { planTuning, tunePlannedVariant, type PlannedTuning } from '../report/tuning-plan.js';
+import type { TuningOptions } from '../report/tuning-option.js';
+import {
+  comparisonTuning,
+  TUNING_TRACE_FILE,
+  tuningTrace,
+  tuningTraceJson,
+  type VariantTuningEntry,
+} from '../report/tuning-trace.js';
 
 export const compareFiles = {
   html: 'compare.html',
@@ -52,7 +61,7 @@ export const compareFiles = {
   repeatsCsv: 'compare-repeats.csv',
 } as const;
 
-export interface CompareOptions {
+export interface CompareOptions extends TuningOptions {
   /** `--ladder` texts; when given, they replace the scenario's own ladders */
   ladder: string[];
   tweak: string[];
@@ -84,6 +93,8 @@ export interface ComparisonPlan {
   ladders: Ladder[];
   variants: PlannedVariant[];
   repeats: RepeatOptions;
+  /** null when no field is tuned */
+  tuning: PlannedTuning | null;
 }
 
 /** The scenario's reason, shown after what was being checked; its field only where the context does not name it. */
@@ -116,7 +127,8 @@ export function planComparison(
   options: Pick<
     CompareOptions,
     'ladder' | 'tweak' | 'repeats' | 'redrawData' | 'confidence' | 'rankBy'
-  >,
+  > &
+    TuningOptions,
 ): ComparisonPlan {
   const document = readScenarioDocument(file);
   const tweaks = options.tweak.map(parseTweak);
@@ -149,7 +161,15 @@ export function planComparison(
       'E_COMPARE_REPEATS',
       `--rank-by ${figureOptionName(unmeasured)}: every variant needs run.targetAccuracy (and a held-out part, data.testFraction) to be ranked by it`,
     );
-  return { base, ladders, variants, repeats };
+  const tuning = planTuning(
+    document,
+    tweaks,
+    base,
+    ladders,
+    variants.map((v) => v.variant),
+    options,
+  );
+  return { base, ladders, variants, repeats, tuning };
 }
 
 /** results/compare-<scenario>-<utc stamp>: sorts by time and says what was compared. */
@@ -174,10 +194,18 @@ export async function runComparison(
     : 'wall';
   const outcomes: VariantOutcome[] = [];
   const runsByVariant: { variant: string; runs: RepeatRun[] }[] = [];
+  const tuningEntries: VariantTuningEntry[] = [];
   for (const planned of plan.variants) {
     const position = `${planned.variant.index + 1}/${plan.variants.length}`;
+    // Tuned once, on the variant's own seed; every repeat then runs at the tuned value.
+    // Candidates run in process whatever the runtime: see src/report/tune-variant.ts.
+    const tuned =
+      plan.tuning === null
+        ? null
+        : tunePlannedVariant(plan.tuning, planned.variant, planned.scenario, io.err);
+    if (tuned !== null) tuningEntries.push(tuned.entry);
     const { first, runs } = await runVariantRepeats(
-      planned.scenario,
+      tuned === null ? planned.scenario : tuned.scenario,
       planned.variant,
       position,
       outDir,
@@ -190,15 +218,18 @@ export async function runComparison(
         return `variant ${position} ${planned.variant.label}${repeatText}: ${s.rounds} rounds (${s.stopReason}), ${gapName(s.theory.reference !== null, true)} ${formatNumber(s.suboptimality.final)}\n`;
       },
     );
-    outcomes.push(first);
+    outcomes.push(tuned === null ? first : { ...first, tunedValue: tuned.entry.tunedValue });
     runsByVariant.push({ variant: planned.variant.label, runs });
   }
-  const comparison: ComparisonResult = buildComparison(
-    plan.base.name,
-    plan.base.run.target,
-    plan.ladders,
-    outcomes,
-  );
+  const comparison: ComparisonResult = {
+    ...buildComparison(plan.base.name, plan.base.run.target, plan.ladders, outcomes),
+    ...(plan.tuning === null ? {} : { tuning: comparisonTuning(plan.tuning.spec) }),
+  };
+  if (plan.tuning !== null)
+    writeFileSync(
+      join(outDir, TUNING_TRACE_FILE),
+      tuningTraceJson(tuningTrace(plan.tuning.spec, plan.base.run.target, tuningEntries)),
+    );
   if (plan.repeats.count > 1) {
     comparison.repeats = summarizeRepeats(
       runsByVariant,

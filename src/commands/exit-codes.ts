@@ -49,6 +49,9 @@ export const BAD_INPUT_CODES: ReadonlySet<string> = new Set([
   'E_LADDER_SYNTAX',
   'E_RESULTS_CONTENT',
   'E_RESULTS_FILE',
+  // src/report, tuning
+  'E_TUNE_OPTION',
+  'E_TUNE_FIELD',
   // runtime
   'E_LISTEN_ADDRESS',
   // src/commands and src/cli.ts

@@ -19,6 +19,7 @@ import { measuredCurve, type CurvePointRow } from './run-series.js';
 import { repeatSection } from './repeat-page-section.js';
 import type { RepeatSummary } from './repeat-summary.js';
 import { repeatVerdictLines } from './repeat-table.js';
+import { tuningLine } from './tuning-trace.js';
 
 /** Points drawn in all for one chart, shared among the variants. */
 const comparePointsMax = 6000;
@@ -100,6 +101,7 @@ export async function buildComparePage(
     ...(repeats === undefined ? verdictLines(c) : repeatVerdictLines(repeats)).map((line) =>
       paragraph(line, 'verdict'),
     ),
+    ...(c.tuning === undefined ? [] : [paragraph(tuningLine(c.tuning), 'note')]),
     ...(repeats === undefined ? [] : [await repeatSection(repeats)]),
     section('Variants', [
       table(tableHeader, tableRows(c), formatNumber),

@@ -9,6 +9,7 @@ import type { RunSummary } from '../engine/run-summary.js';
 import { columnTitle, formatNumber, formatTable, type Column } from './text-table.js';
 import type { Variant } from './compare-variants.js';
 import type { Ladder } from './ladder.js';
+import { tuningLine, type ComparisonTuning } from './tuning-trace.js';
 
 export interface CompareRow {
   variant: string;
@@ -36,6 +37,8 @@ export interface CompareRow {
   droppedUpdates: number;
   /** the variant's results folder, beside compare.json */
   folder: string;
+  /** the value of the tuned field this variant ran at; null without tuning */
+  tunedValue: number | null;
 }
 
 /** CSV columns and JSON keys, in order; the table shows all but the folder. */
@@ -57,6 +60,7 @@ export const compareColumns: (keyof CompareRow)[] = [
   'windowStatus',
   'droppedUpdates',
   'folder',
+  'tunedValue',
 ];
 
 const tableKeys = compareColumns.filter((k) => k !== 'folder');
@@ -116,6 +120,8 @@ export interface Comparison {
   ladders: Ladder[];
   variants: CompareRow[];
   verdict: Verdict;
+  /** present when each variant ran at its own tuned value (tuning.json holds the trace) */
+  tuning?: ComparisonTuning;
 }
 
 export interface VariantOutcome {
@@ -125,6 +131,8 @@ export interface VariantOutcome {
   rounds: readonly RoundRecord[];
   /** the error's message of a failed run */
   failure?: string;
+  /** the tuned field's value this variant ran at, when the comparison tuned one */
+  tunedValue?: number;
 }
 
 /** The stop shown for a run that ended in an error. */
@@ -136,7 +144,7 @@ export function timeBasisOf(summaries: readonly RunSummary[]): TimeBasis {
 }
 
 /** A failed run's row: its stop says so and it has no figures. */
-function failedRow(variant: Variant): CompareRow {
+function failedRow(variant: Variant, tunedValue: number | null): CompareRow {
   return {
     variant: variant.label,
     stop: FAILED_STOP,
@@ -155,12 +163,13 @@ function failedRow(variant: Variant): CompareRow {
     windowStatus: FAILED_STOP,
     droppedUpdates: 0,
     folder: variant.folderName,
+    tunedValue,
   };
 }
 
 export function compareRow(outcome: VariantOutcome, timeBasis: TimeBasis): CompareRow {
   const { summary: s, variant } = outcome;
-  if (s === null) return failedRow(variant);
+  if (s === null) return failedRow(variant, outcome.tunedValue ?? null);
   const held = s.heldOut;
   let uplink: number | null = null;
   if (s.roundsToTarget !== null) {
@@ -188,6 +197,7 @@ export function compareRow(outcome: VariantOutcome, timeBasis: TimeBasis): Compa
     windowStatus: s.rate.asymptotic.status,
     droppedUpdates: s.droppedUpdates,
     folder: variant.folderName,
+    tunedValue: outcome.tunedValue ?? null,
   };
 }
 
@@ -336,6 +346,7 @@ export function formatComparison(c: Comparison, outDir: string): string {
       formatTable(tableColumns, tableRows(c)),
       '',
       ...verdictLines(c),
+      ...(c.tuning === undefined ? [] : [tuningLine(c.tuning)]),
       `results: ${outDir} (compare.html, compare.csv, compare.json, one folder per variant)`,
     ].join('\n') + '\n'
   );

@@ -468,6 +468,60 @@ export const ladderSchema = z
   });
 export type ScenarioLadder = z.output<typeof ladderSchema>;
 
+export const tuningLimits = {
+  /** candidate runs one variant's search may make */
+  budgetMax: 64,
+  /** points a decade of a log grid */
+  pointsPerDecadeMax: 24,
+} as const;
+
+/**
+ * Tuning for `roundwire compare`: before each variant runs, one numeric field of it is searched
+ * over candidate values (a list, or a range searched on the log scale by a grid or by golden
+ * section), each candidate run in process; the variant then runs at the best by the figure `by`
+ * (its names are listed by src/report/tuning-figures.ts, which checks them).
+ */
+export const tuningSchema = z
+  .object({
+    field: fieldPath,
+    /** the candidates themselves; or give `range` */
+    values: z.array(positive).min(1).max(tuningLimits.budgetMax).optional(),
+    /** [low, high], searched on the log scale */
+    range: z.tuple([positive, positive]).optional(),
+    /** over a range: a log grid, or golden-section search on log(value) */
+    search: z.enum(['grid', 'golden']).default('grid'),
+    pointsPerDecade: positiveInt.max(tuningLimits.pointsPerDecadeMax).default(4),
+    /** candidate runs a variant may make; a grid or list larger than this is refused */
+    budget: positiveInt.max(tuningLimits.budgetMax).default(16),
+    /** the figure that ranks candidates, e.g. rounds-to-target */
+    by: z.string().default('rounds-to-target'),
+  })
+  .strict()
+  .superRefine((tuning, ctx) => {
+    if ((tuning.values === undefined) === (tuning.range === undefined)) {
+      ctx.addIssue({
+        code: 'custom',
+        path: [],
+        message:
+          'expected either values (a list of candidates) or range ([low, high]), not both or neither',
+      });
+      return;
+    }
+    if (tuning.range !== undefined && !(tuning.range[0] < tuning.range[1]))
+      ctx.addIssue({
+        code: 'custom',
+        path: ['range'],
+        message: `the low end ${tuning.range[0]} must be below the high end ${tuning.range[1]}`,
+      });
+    if (tuning.values !== undefined && tuning.search === 'golden')
+      ctx.addIssue({
+        code: 'custom',
+        path: ['search'],
+        message: 'golden-section search needs a range, not a list of values',
+      });
+  });
+export type ScenarioTuning = z.output<typeof tuningSchema>;
+
 /**
  * A data set's target fixes the problem kind (and a class count), and its natural keys are its
  * own: refused here, field by field, before anything is loaded.
@@ -631,6 +685,8 @@ export const scenarioSchema = z
     ladders: z.array(ladderSchema).max(ladderLimits.laddersMax).optional(),
     /** how often `roundwire compare` runs every variant (repeats-schema.ts) */
     repeats: repeatsSchema.optional(),
+    /** `roundwire compare` tunes this field per variant first; `roundwire run` ignores it */
+    tuning: tuningSchema.optional(),
   })
   .strict()
   .superRefine((scenario, ctx) => {

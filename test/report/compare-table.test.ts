@@ -167,7 +167,7 @@ describe('comparisonCsv', () => {
     const lines = comparisonCsv(c).split('\r\n');
     expect(lines[0]).toBe(compareColumns.join(','));
     expect(lines[1]).toBe(
-      '"name:""x, y""",target-reached,10,1,10,3,2,,,,,0.5,,,no-prediction,0,"name:""x, y"""',
+      '"name:""x, y""",target-reached,10,1,10,3,2,,,,,0.5,,,no-prediction,0,"name:""x, y""",',
     );
     expect(lines[2]).toBe('');
   });
