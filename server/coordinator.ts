@@ -57,6 +57,7 @@ import type { CoordinatorOutcome } from './run-outcome.js';
 import { RuntimeError } from './runtime-error.js';
 import { WorkerRegistry } from './worker-registry.js';
 import { WorkerSession, type SessionLimits } from './worker-session.js';
+import type { LiveView } from './live-view/live-view.js';
 
 export interface CoordinatorOptions {
   host: string;
@@ -94,6 +95,8 @@ export interface CoordinatorOptions {
   checkpointEveryRounds?: number;
   /** keeps a checkpoint (writes its file); without it no checkpoint is taken */
   onCheckpoint?: (state: RunState) => void;
+  /** publishes the run to the live view's viewers (--view), never waiting for them */
+  view?: LiveView;
 }
 
 /** The clients' states a checkpoint waits for, one state message per client. */
@@ -223,10 +226,14 @@ export class Coordinator {
       nowMs,
       untilConnected: () => this.untilConnected(),
       onRound: options.onRound,
-      onRoundRecords: (record, clients) => this.metrics.roundRecorded(record, clients),
+      onRoundRecords: (record, clients) => {
+        this.metrics.roundRecorded(record, clients);
+        options.view?.roundRecorded(record, clients);
+      },
       checkpoint: (point, server) => this.checkpoint(point, server),
       ...(options.resume === undefined ? {} : { resume: options.resume }),
       checkpointEveryRounds: options.checkpointEveryRounds ?? 0,
+      ...(options.view === undefined ? {} : { board: options.view.board }),
     });
     const heartbeat = options.heartbeat ?? {
       intervalSeconds: HANDSHAKE_LIMITS.heartbeatIntervalSeconds,
@@ -528,6 +535,7 @@ export class Coordinator {
       `${session.label()} disconnected in round ${this.driver.round}; clients ${clientIds.join(', ')} sit out until it resumes (grace ${this.resumeGraceSeconds} s)`,
     );
     this.driver.clientsLost(clientIds);
+    this.options.view?.board.lost(clientIds);
     const timer = setTimeout(
       () =>
         this.loseWorker(
@@ -572,6 +580,7 @@ export class Coordinator {
       this.driver.clientsLost(clientIds);
     }
     this.driver.clientsResumed(clientIds);
+    this.options.view?.board.rejoined(clientIds);
     session.onFrame((frame, wireBytes, frameLimitBytes) =>
       this.receive(session, frame, wireBytes, frameLimitBytes),
     );
@@ -599,6 +608,7 @@ export class Coordinator {
     );
     session.terminate();
     this.driver.clientsLost(clientIds);
+    this.options.view?.board.lost(clientIds);
     this.presenceChanged();
   }
 
@@ -690,6 +700,12 @@ export class Coordinator {
     const roundsStartedMs = performance.now();
     const joinSeconds = (roundsStartedMs - this.startedMs) / 1000;
     this.welcomeAll();
+    this.options.view?.runStarted(
+      this.plan,
+      this.registry
+        .sessions()
+        .map((s) => ({ workerName: s.workerName, clientIds: [...s.clientIds] })),
+    );
     this.liveness.start();
     const wallBeforeSeconds = this.options.resume?.wallSeconds ?? 0;
     const result = await this.driver.run(
