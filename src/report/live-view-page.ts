@@ -88,7 +88,8 @@ function drawTiles() {
     c.g.fillRect(x + (tile - side) / 2, y + (tile - side) / 2, side, side);
     if (tile >= 44) {
       c.g.font = "600 " + Math.round(tile / 5) + "px system-ui, sans-serif";
-      c.g.fillStyle = "#000";
+      // White on the dark fills (computing, lost), black on the light ones.
+      c.g.fillStyle = state === "lost" || state === "computing" ? "#FFF" : "#000";
       c.g.fillText(String(i), x + 3, y + tile / 5 + 1);
       c.g.fillText("\\u00d7" + s.toFixed(1), x + 3, y + tile - 4);
     }
@@ -113,7 +114,7 @@ function logScale(values, extra) {
   return { a: a, b: b };
 }
 
-function axes(c, pad, xMax, yLabels) {
+function axes(c, pad, xMin, xMax, yLabels) {
   c.g.strokeStyle = "#000";
   c.g.lineWidth = 2;
   c.g.setLineDash([]);
@@ -124,7 +125,7 @@ function axes(c, pad, xMax, yLabels) {
   c.g.stroke();
   c.g.fillStyle = "#000";
   c.g.font = "18px system-ui, sans-serif";
-  c.g.fillText("0", pad.l - 4, c.h - pad.b + 20);
+  c.g.fillText(String(xMin), pad.l - 4, c.h - pad.b + 20);
   c.g.fillText("round " + xMax, c.w - pad.r - 90, c.h - pad.b + 20);
   yLabels.forEach(function (label) { c.g.fillText(label.text, 4, label.y + 6); });
 }
@@ -146,7 +147,8 @@ function polyline(c, points, colour, dash, width) {
 
 function roundAxisMax() {
   var last = view.rounds.length ? view.rounds[view.rounds.length - 1].round : 0;
-  return Math.max(10, Math.ceil(last * 1.2));
+  // Room ahead while the run goes on; the axis ends at the last round once it is over.
+  return view.end !== null ? Math.max(1, last) : Math.max(10, Math.ceil(last * 1.2));
 }
 
 function drawCurve() {
@@ -175,7 +177,7 @@ function drawCurve() {
     c.g.stroke();
     labels.push({ text: "1e" + e, y: y(Math.pow(10, e)) });
   }
-  axes(c, pad, xMax, labels);
+  axes(c, pad, 0, xMax, labels);
   if (view.run.target > 0) {
     polyline(c, [[pad.l, y(view.run.target)], [c.w - pad.r, y(view.run.target)]], PALETTE.target, [3, 5], 3);
   }
@@ -202,7 +204,7 @@ function drawBytes() {
   var xMax = roundAxisMax();
   var x = function (round) { return pad.l + (c.w - pad.l - pad.r) * round / xMax; };
   var y = function (v) { return pad.t + (c.h - pad.t - pad.b) * (1 - v / hi); };
-  axes(c, pad, xMax, [{ text: grouped(hi) + " B", y: pad.t + 4 }]);
+  axes(c, pad, 0, xMax, [{ text: grouped(hi) + " B", y: pad.t + 4 }]);
   SERIES.forEach(function (s) {
     if (!rounds[0].bytes[s[0]]) return;
     polyline(c, rounds.map(function (r) { return [x(r.round), y(r.bytes[s[0]][s[1]])]; }),
@@ -226,7 +228,7 @@ function drawDurations() {
     var h = (c.h - pad.t - pad.b) * r.wallSeconds / hi;
     c.g.fillRect(pad.l + i * bar, c.h - pad.b - h, Math.max(1, bar - 1), h);
   });
-  axes(c, pad, shown[shown.length - 1].round, [{ text: seconds(hi), y: pad.t + 4 }]);
+  axes(c, pad, shown[0].round, shown[shown.length - 1].round, [{ text: seconds(hi), y: pad.t + 4 }]);
 }
 
 function showRound(r) {
@@ -366,7 +368,8 @@ export function liveViewPage(): string {
   <section>
     <h2 id="curve-title">f - f* per round</h2>
     <canvas id="curve" role="img" aria-label="the gap per round, measured and predicted"></canvas>
-    <div class="legend"><span style="--swatch:#000">measured (solid)</span><span style="--swatch:#fff">predicted (dashed)</span><span style="--swatch:${palette.target}">target</span> <span id="gap-name">f - f*</span> now: <b id="gap">-</b></div>
+    <div class="legend"><span style="--swatch:#000">measured (solid)</span><span style="--swatch:#fff">predicted (dashed)</span><span style="--swatch:${palette.target}">target</span></div>
+    <div><span id="gap-name">f - f*</span> now: <b id="gap">-</b></div>
   </section>
   <section>
     <h2>Bytes per round (up solid, down dotted)</h2>
