@@ -57,6 +57,7 @@ import type { CoordinatorOutcome } from './run-outcome.js';
 import { RuntimeError } from './runtime-error.js';
 import { WorkerRegistry } from './worker-registry.js';
 import { WorkerSession, type SessionLimits } from './worker-session.js';
+import type { LiveView } from './live-view/live-view.js';
 
 export interface CoordinatorOptions {
   host: string;
@@ -94,6 +95,8 @@ export interface CoordinatorOptions {
   checkpointEveryRounds?: number;
   /** keeps a checkpoint (writes its file); without it no checkpoint is taken */
   onCheckpoint?: (state: RunState) => void;
+  /** publishes the run to the live view's viewers (--view), never waiting for them */
+  view?: LiveView;
 }
 
 /** The clients' states a checkpoint waits for, one state message per client. */
@@ -227,10 +230,14 @@ export class Coordinator {
       nowMs,
       untilConnected: () => this.untilConnected(),
       onRound: options.onRound,
-      onRoundRecords: (record, clients) => this.metrics.roundRecorded(record, clients),
+      onRoundRecords: (record, clients) => {
+        this.metrics.roundRecorded(record, clients);
+        options.view?.roundRecorded(record, clients);
+      },
       checkpoint: (point, server) => this.checkpoint(point, server),
       ...(options.resume === undefined ? {} : { resume: options.resume }),
       checkpointEveryRounds: options.checkpointEveryRounds ?? 0,
+      ...(options.view === undefined ? {} : { board: options.view.board }),
     });
     const heartbeat = options.heartbeat ?? {
       intervalSeconds: HANDSHAKE_LIMITS.heartbeatIntervalSeconds,
@@ -541,6 +548,7 @@ export class Coordinator {
       `${session.label()} disconnected in round ${this.driver.round}; clients ${clientIds.join(', ')} sit out until it resumes (grace ${this.resumeGraceSeconds} s)`,
     );
     this.driver.clientsLost(clientIds);
+    this.options.view?.board.lost(clientIds);
     const timer = setTimeout(
       () =>
         this.loseWorker(
@@ -585,6 +593,7 @@ export class Coordinator {
       this.driver.clientsLost(clientIds);
     }
     this.driver.clientsResumed(clientIds);
+    this.options.view?.board.rejoined(clientIds);
     session.onFrame((frame, wireBytes, frameLimitBytes, streamSeconds) =>
       this.receive(session, frame, wireBytes, frameLimitBytes, streamSeconds),
     );
@@ -612,6 +621,7 @@ export class Coordinator {
     );
     session.terminate();
     this.driver.clientsLost(clientIds);
+    this.options.view?.board.lost(clientIds);
     this.presenceChanged();
     this.readyChanged();
   }
@@ -733,6 +743,12 @@ export class Coordinator {
     await this.waitForWorkers();
     const records = openRecords?.() ?? null;
     this.welcomeAll();
+    this.options.view?.runStarted(
+      this.plan,
+      this.registry
+        .sessions()
+        .map((s) => ({ workerName: s.workerName, clientIds: [...s.clientIds] })),
+    );
     this.liveness.start();
     await this.waitForReady();
     // Wall seconds (per round, the ETA, the total) count from the first round: waiting for

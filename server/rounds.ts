@@ -43,6 +43,7 @@ import type { WorkerSession } from './worker-session.js';
 import { ExchangeWait, type CloseRule } from './exchange-wait.js';
 import { LateUpHold } from './late-up-hold.js';
 import type { WorkerRegistry } from './worker-registry.js';
+import type { ClientBoard } from './live-view/client-board.js';
 
 export type { StopReason } from '../src/engine/run-summary.js';
 import type { StopReason } from '../src/engine/run-summary.js';
@@ -70,6 +71,8 @@ export interface RoundDriverOptions {
   checkpoint?: (point: WalkPoint, server: ServerRuntime) => Promise<void>;
   /** go on from this state (a checkpoint's): the server's part is restored here */
   resume?: RunState;
+  /** where clients' states are written as they change, for the live view */
+  board?: ClientBoard;
   /** ask for a checkpoint after every this many rounds (0 or absent: only when stopped) */
   checkpointEveryRounds?: number;
 }
@@ -215,6 +218,7 @@ export class RoundDriver implements RoundTransport<'async'> {
       }
       return;
     }
+    this.options.board?.set(entry.clientId, 'waiting');
     owed.wait.deliver(entry.clientId, {
       round: frame.round,
       up: entry,
@@ -335,9 +339,13 @@ export class RoundDriver implements RoundTransport<'async'> {
       this.options.nowMs,
     );
     this.current = wait;
+    this.options.board?.exchangeStarted(clientIds);
     const sent = this.sendDowns(order, wait);
     await wait.done;
     this.current = null;
+    const board = this.options.board;
+    if (board !== undefined)
+      for (const id of clientIds) if (!wait.arrivals.has(id)) board.set(id, 'dropped');
     return this.replyOf(order, wait, sent);
   }
 
@@ -438,7 +446,12 @@ export class RoundDriver implements RoundTransport<'async'> {
         if (earlier !== undefined) this.superseded.set(a.clientId, earlier);
         this.owed.set(a.clientId, { wait, assignment: a, record: null });
       }
-      const bytes = session.sendDowns(assembleDownsFrame(prefix, pieces), pieces.length);
+      const board = this.options.board;
+      const bytes = session.sendDowns(
+        assembleDownsFrame(prefix, pieces),
+        pieces.length,
+        board && (() => board.written(sentIds(downs))),
+      );
       const shares = this.options.ledger.recordRoundFrame(
         'down',
         entries,
@@ -505,4 +518,8 @@ export class RoundDriver implements RoundTransport<'async'> {
         owed.record = record;
     }
   }
+}
+
+function* sentIds(downs: readonly ExchangeDown[]): Generator<number> {
+  for (const down of downs) yield down.assignment.clientId;
 }

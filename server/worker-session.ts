@@ -205,9 +205,12 @@ export class WorkerSession {
     );
   }
 
-  /** Sends an encoded downs frame of `entries` entries, each of which the worker may answer. */
-  sendDowns(frame: Uint8Array, entries: number): SentBytes {
-    return this.sendBytes(frame, entries);
+  /**
+   * Sends an encoded downs frame of `entries` entries, each of which the worker may answer;
+   * `onWritten` is called once the socket wrote it out (or failed to).
+   */
+  sendDowns(frame: Uint8Array, entries: number, onWritten?: () => void): SentBytes {
+    return this.sendBytes(frame, entries, onWritten);
   }
 
   /** A valid ups frame of `entries` entries arrived: it spends a credit for each (PeerBudget). */
@@ -215,9 +218,9 @@ export class WorkerSession {
     this.budget.spendEntries(entries);
   }
 
-  private sendBytes(bytes: Uint8Array, grants: number): SentBytes {
+  private sendBytes(bytes: Uint8Array, grants: number, onWritten?: () => void): SentBytes {
     if (!this.isOpen() || this.failed) return { encodedBytes: 0, wireBytes: 0 };
-    this.ws.send(bytes, { binary: true });
+    this.ws.send(bytes, { binary: true }, onWritten);
     if (grants > 0) this.budget.grant(grants);
     // ws's bufferedAmount reads two counters: O(1), whatever is queued.
     if (this.limits !== null && this.ws.bufferedAmount > this.limits.pendingBytesMax) {

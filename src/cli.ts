@@ -66,6 +66,8 @@ import {
   type MetricsAddress,
 } from '../runtime/metrics-server.js';
 import { JoinError } from '../client/connection.js';
+import { parseViewAddress } from '../server/live-view/view-address.js';
+import type { HostPort } from '../runtime/address.js';
 
 /** An input problem found by a command itself (not by the scenario schema). */
 export class UsageError extends Error {
@@ -103,6 +105,11 @@ const metricsLingerOption = new Option(
 )
   .argParser(secondsInRange('--metrics-linger', 0, METRICS_LINGER_SECONDS_MAX))
   .default(0);
+
+const viewOption = new Option(
+  '--view <host:port>',
+  'serve a live view of the run at http://HOST:PORT/ (a bare PORT: on 127.0.0.1; port 0: any free port); beyond loopback only through the link printed, which carries a token derived from the key',
+).argParser(asArgument(parseViewAddress));
 
 interface MetricsOptions {
   metrics?: MetricsAddress;
@@ -196,6 +203,7 @@ function buildProgram(io: Io): Command {
     )
     .addOption(metricsOption)
     .addOption(metricsLingerOption)
+    .addOption(viewOption)
     .addHelpText('after', exitCodesHelp)
     .action(
       async (
@@ -205,11 +213,16 @@ function buildProgram(io: Io): Command {
           inProcess?: boolean;
           out?: string;
           json?: boolean;
+          view?: HostPort;
         } & MetricsOptions,
       ) => {
         if (opts.inProcess && opts.metrics !== undefined)
           throw new UsageError(
             '--metrics serves the coordinator of a distributed run; --in-process has none',
+          );
+        if (opts.inProcess && opts.view !== undefined)
+          throw new UsageError(
+            '--view shows the coordinator of a distributed run; --in-process has none',
           );
         const scenario = loadScenarioFile(file, opts.tweak);
         const outDir = opts.out ?? defaultResultsDir(scenario, new Date());
@@ -225,6 +238,8 @@ function buildProgram(io: Io): Command {
             outDir,
             { out: io.out, err: io.err, onRound: (r) => progress.update(r) },
             metricsServing(opts),
+            null,
+            opts.view ?? null,
           );
           await finishDistributed(io, progress, result, outDir, opts.json === true);
           return;
@@ -337,6 +352,7 @@ function buildProgram(io: Io): Command {
     .addOption(tweakOption)
     .addOption(metricsOption)
     .addOption(metricsLingerOption)
+    .addOption(viewOption)
     .addHelpText('after', exitCodesHelp)
     .action(
       async (

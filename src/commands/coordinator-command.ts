@@ -17,10 +17,11 @@ import {
   startMetricsServer,
   type MetricsServer,
 } from '../../runtime/metrics-server.js';
-import { isLoopbackHost, parseHostPort } from '../../runtime/address.js';
+import { isLoopbackHost, parseHostPort, type HostPort } from '../../runtime/address.js';
 import { listenFailure } from '../../runtime/listen-error.js';
 import {
   lingerWithMetrics,
+  startLiveView,
   writeDistributedResults,
   RunInterrupted,
   type DistributedRunResult,
@@ -47,6 +48,8 @@ export interface CoordinatorCommandOptions {
   heartbeatSilenceSeconds?: number;
   /** absent: DEFAULT_RESUME_GRACE_SECONDS */
   resumeGraceSeconds?: number;
+  /** --view: serve the live view here */
+  view?: HostPort;
 }
 
 /**
@@ -152,29 +155,37 @@ async function coordinate(
   );
   const tls: TlsFiles | null =
     opts.tlsCert && opts.tlsKey ? { certFile: opts.tlsCert, keyFile: opts.tlsKey } : null;
-  const coordinator = new Coordinator(scenario, {
-    host: address.host,
-    port: address.port,
-    key: auth.key,
-    tls,
-    workersMin: opts.workersMin,
-    workersMax: scenario.clients.count,
-    maxClientsPerWorker: scenario.clients.count,
-    joinTimeoutSeconds: opts.workersWaitSeconds,
-    exchangeTimeoutSeconds: 300,
-    wallGraceSeconds: 0.5,
-    ...(opts.heartbeatSilenceSeconds === undefined
-      ? {}
-      : { heartbeat: heartbeatForSilence(opts.heartbeatSilenceSeconds) }),
-    ...(opts.resumeGraceSeconds === undefined
-      ? {}
-      : { resumeGraceSeconds: opts.resumeGraceSeconds }),
-    onRound: io.onRound,
-    log: (line) => io.err(`coordinator: ${line}\n`),
-    checkpointEveryRounds: scenario.run.checkpointEveryRounds,
-    onCheckpoint: (state) => files.keepCheckpoint(state),
-    ...(resume === null ? {} : { resume: resume.state }),
-  });
+  const view = await startLiveView(opts.view ?? null, auth.key, scenario, io.err);
+  let coordinator: Coordinator;
+  try {
+    coordinator = new Coordinator(scenario, {
+      host: address.host,
+      port: address.port,
+      key: auth.key,
+      tls,
+      workersMin: opts.workersMin,
+      workersMax: scenario.clients.count,
+      maxClientsPerWorker: scenario.clients.count,
+      joinTimeoutSeconds: opts.workersWaitSeconds,
+      exchangeTimeoutSeconds: 300,
+      wallGraceSeconds: 0.5,
+      ...(opts.heartbeatSilenceSeconds === undefined
+        ? {}
+        : { heartbeat: heartbeatForSilence(opts.heartbeatSilenceSeconds) }),
+      ...(opts.resumeGraceSeconds === undefined
+        ? {}
+        : { resumeGraceSeconds: opts.resumeGraceSeconds }),
+      onRound: io.onRound,
+      log: (line) => io.err(`coordinator: ${line}\n`),
+      checkpointEveryRounds: scenario.run.checkpointEveryRounds,
+      onCheckpoint: (state) => files.keepCheckpoint(state),
+      ...(resume === null ? {} : { resume: resume.state }),
+      ...(view === null ? {} : { view }),
+    });
+  } catch (error) {
+    await view?.close();
+    throw error;
+  }
   let interrupted: NodeJS.Signals | null = null;
   let metricsServer: MetricsServer | null = null;
   let cutLinger: () => void = () => undefined;
@@ -199,9 +210,11 @@ async function coordinate(
         `key file: ${auth.fresh.path} (fresh, private to you, removed when the coordinator ends; workers on this machine join with --key-file ${auth.fresh.path})\n`,
       );
     io.err(`listening on ${url}\n`);
+    if (view !== null) io.err(view.listeningLine());
     const outcome = await coordinator.run(() => files.records());
     files.close();
     const summary = writeDistributedResults(outcome, outDir);
+    view?.ended(summary);
     files.ended(outcome.stopReason);
     if (interrupted !== null) throw new RunInterrupted(files.resumeAdvice(interrupted));
     await lingerWithMetrics(
@@ -214,6 +227,7 @@ async function coordinate(
   } finally {
     files.close();
     await metricsServer?.close();
+    await view?.close();
     await coordinator.close();
     process.off('SIGINT', onSignal);
     process.off('SIGTERM', onSignal);

@@ -26,6 +26,8 @@ import {
 import { finishRun, formatRunSummary } from './run-report.js';
 import { writeFreshKeyFile } from './key-file.js';
 import type { RunSummary } from '../engine/run-summary.js';
+import type { HostPort } from '../../runtime/address.js';
+import { LiveView } from '../../server/live-view/live-view.js';
 
 /** The run was interrupted (SIGINT, SIGTERM); the CLI exits with 130. */
 export class RunInterrupted extends Error {
@@ -120,6 +122,25 @@ export function coordinatorOptionsForEmbedded(
   };
 }
 
+/**
+ * Starts the live view (--view) of a run whose workers prove `key`; null without --view. The
+ * coordinator publishes to it; the command prints its line once the coordinator is built.
+ */
+export function startLiveView(
+  address: HostPort | null,
+  key: Uint8Array,
+  scenario: Scenario,
+  err: (text: string) => void,
+): Promise<LiveView | null> {
+  if (address === null) return Promise.resolve(null);
+  return LiveView.start({
+    address,
+    key,
+    clientCount: scenario.clients.count,
+    log: (line) => err(`${line}\n`),
+  });
+}
+
 /** Runs the scenario with local worker processes; writes outDir; resolves to the summary. */
 export async function runDistributed(
   scenario: Scenario,
@@ -127,6 +148,7 @@ export async function runDistributed(
   io: DistributedRunIo,
   metrics: MetricsServing | null = null,
   resume: Checkpoint | null = null,
+  viewAddress: HostPort | null = null,
 ): Promise<DistributedRunResult> {
   // The coordinator and every local worker share this machine: all of them count.
   assertMemoryFits(scenario, 'local-cluster');
@@ -138,13 +160,17 @@ export async function runDistributed(
     resume && { round: resume.state.round, records: resume.records },
   );
   let coordinator: Coordinator;
+  let view: LiveView | null = null;
   try {
+    view = await startLiveView(viewAddress, keyFile.key, scenario, io.err);
     coordinator = new Coordinator(scenario, {
       ...coordinatorOptionsForEmbedded(scenario, keyFile.key, workerCount, io),
       onCheckpoint: (state) => files.keepCheckpoint(state),
       ...(resume === null ? {} : { resume: resume.state }),
+      ...(view === null ? {} : { view }),
     });
   } catch (error) {
+    await view?.close();
     keyFile.remove();
     throw error;
   }
@@ -179,6 +205,7 @@ export async function runDistributed(
       metricsServer = await startMetricsServer(coordinator.metrics.registry, metrics.address);
       io.err(metricsListeningLine(metricsServer, metrics.address));
     }
+    if (view !== null) io.err(view.listeningLine());
     const url = await coordinator.listen();
     const capacity = Math.ceil(scenario.clients.count / workerCount);
     for (let i = 0; i < workerCount; i++) {
@@ -208,10 +235,11 @@ export async function runDistributed(
     runEnded = true;
     await Promise.all(workers.map((w) => w.exitsWithin(EMBEDDED_LIMITS.workerExitSeconds)));
     if (interrupted !== null) {
-      writeDistributedResults(outcome, outDir);
+      view?.ended(writeDistributedResults(outcome, outDir));
       throw new RunInterrupted(files.resumeAdvice(interrupted));
     }
     const summary = writeDistributedResults(outcome, outDir);
+    view?.ended(summary);
     files.ended(outcome.stopReason);
     await lingerWithMetrics(
       metricsServer,
@@ -228,6 +256,7 @@ export async function runDistributed(
     runEnded = true;
     files.close();
     await metricsServer?.close();
+    await view?.close();
     await coordinator.close();
     await Promise.all(workers.map((w) => w.stop()));
     keyFile.remove();

@@ -61,6 +61,20 @@ export const ACTIVITY_COLOURS = {
   idle: '#D4D4D4',
 } as const;
 
+/**
+ * A client's state in the live view's tiles (server/live-view/client-board.ts): work in blue,
+ * traffic in orange as in the timeline above, a finished client waiting in sky blue, a dropped
+ * update in vermillion, a lost client black; idle is the timeline's neutral grey.
+ */
+export const CLIENT_STATE_COLOURS = {
+  idle: ACTIVITY_COLOURS.idle,
+  sending: OKABE_ITO.orange,
+  computing: OKABE_ITO.blue,
+  waiting: OKABE_ITO.skyBlue,
+  dropped: OKABE_ITO.vermillion,
+  lost: OKABE_ITO.black,
+} as const;
+
 /** Bars and single-series marks that stand for no method. */
 export const NEUTRAL_MARK_COLOUR = OKABE_ITO.skyBlue;
 

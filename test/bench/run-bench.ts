@@ -1,8 +1,9 @@
 // `npm run bench`: every case at full size, printed as one JSON document (bench-report.ts holds
 // its schema; README.md, "Benchmark output", describes it). `npm run bench -- --suite kernels`
 // runs one part: core (the vec, problem and compress suites, measured in one run), kernels,
-// oracle, memory, wire or scale. The scale suite takes several minutes of real runs and is not
-// part of the default document: ask for it with --suite scale. `--case <substring>` keeps only
+// oracle, memory, wire, scale or view. The scale suite takes several minutes of real runs and is
+// not part of the default document: ask for it with --suite scale; the same holds for the live
+// view's (a minute or so: --suite view). `--case <substring>` keeps only
 // the cases whose name holds it (case-filter.ts), e.g. `--suite scale --case logistic`.
 
 import { parseArgs } from 'node:util';
@@ -14,6 +15,7 @@ import { runOracleBench } from './oracle-bench-cases.js';
 import { FULL_SCALE_SCENARIOS, runScaleBench } from './scale-cases.js';
 import { resultsMatching, scaleScenariosMatching } from './case-filter.js';
 import { runWireBench } from './wire-envelope-cases.js';
+import { runLiveViewBench } from './live-view-cases.js';
 
 const SUITES = {
   core: () => runBench(),
@@ -22,6 +24,7 @@ const SUITES = {
   memory: () => runMemoryBench(),
   wire: () => runWireBench(),
   scale: () => runScaleBench(scaleScenarios),
+  view: () => runLiveViewBench(),
 } satisfies Record<string, () => BenchResult[] | Promise<BenchResult[]>>;
 
 const { values } = parseArgs({
