@@ -43,6 +43,8 @@ export function namespacesRefused(): string | null {
   try {
     ip('netns', 'add', probe);
   } catch (error) {
+    if ((error as NodeJS.ErrnoException).code === 'ENOENT')
+      return 'ip (Debian package iproute2) is not installed; .ci/run installs it';
     return `the kernel refused a network namespace (ip netns add: ${String((error as Error).message).trim()}); run as root with CAP_NET_ADMIN`;
   }
   ip('netns', 'del', probe);
