@@ -11,9 +11,8 @@ import { chromium, type Browser, type Page } from 'playwright-core';
 import { CliProcess, freshDir, repoRoot } from '../integration/cli-process.js';
 import { CLIENT_STATES } from '../../server/live-view/client-board.js';
 import { CLIENT_STATE_COLOURS } from '../../src/report/palette.js';
+import { chromiumArgs, chromiumPath, watchPage } from './chromium.js';
 
-const chromiumPath = '/usr/bin/chromium';
-const chromiumArgs = ['--headless', '--no-sandbox', '--disable-gpu', '--no-first-run'];
 const artefacts = join(repoRoot, 'test-artifacts');
 const LOST_DIGIT = String(CLIENT_STATES.indexOf('lost'));
 
@@ -92,13 +91,7 @@ describe('the live view in Chromium', () => {
     browser = launched;
     const url = listening[1];
     const page = await browser.newPage({ viewport: { width: 1600, height: 1000 } });
-    const requests: string[] = [];
-    const consoleErrors: string[] = [];
-    page.on('request', (request) => requests.push(request.url()));
-    page.on('console', (message) => {
-      if (message.type() === 'error') consoleErrors.push(message.text());
-    });
-    page.on('pageerror', (error) => consoleErrors.push(error.message));
+    const { requests, consoleErrors } = watchPage(page);
     await page.goto(url, { waitUntil: 'load' });
 
     const firstRound = await until(roundShown(page), (r) => r >= 2, 20_000, 'round 2 shown');

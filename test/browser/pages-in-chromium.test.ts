@@ -8,18 +8,7 @@ import { join } from 'node:path';
 import { pathToFileURL } from 'node:url';
 import { chromium, type BrowserContext } from 'playwright-core';
 import { runCli } from '../cli/run-cli.js';
-
-const chromiumPath = '/usr/bin/chromium';
-const chromiumArgs = [
-  '--headless',
-  '--no-sandbox',
-  '--disable-gpu',
-  '--disable-quic',
-  '--no-first-run',
-  '--disable-background-networking',
-  '--disable-component-update',
-  '--disable-sync',
-];
+import { chromiumArgs, chromiumPath, watchPage } from './chromium.js';
 
 const root = mkdtempSync(join(tmpdir(), 'roundwire-browser-'));
 let context: BrowserContext | null = null;
@@ -72,13 +61,7 @@ interface PageCheck {
 async function openPage(file: string, screenshot: string): Promise<PageCheck> {
   if (context === null) throw new Error('Chromium did not start');
   const page = await context.newPage();
-  const requests: string[] = [];
-  const consoleErrors: string[] = [];
-  page.on('request', (request) => requests.push(request.url()));
-  page.on('console', (message) => {
-    if (message.type() === 'error') consoleErrors.push(message.text());
-  });
-  page.on('pageerror', (error) => consoleErrors.push(error.message));
+  const { requests, consoleErrors } = watchPage(page);
   await page.goto(pathToFileURL(file).href, { waitUntil: 'load' });
   // data marks: the shapes Vega draws inside its mark groups (lines, rects and symbols are paths)
   // (an expression string: the project compiles without the DOM library)
