@@ -14,28 +14,24 @@
 // An up entry carries the client's compute, wait and transfer seconds, which are not known when
 // its transfer is priced; they are counted as float64 values (9 bytes each), the form a measured
 // time takes.
+//
+// Priced for every client in every exchange, in the round walk and in every worker, so the frame
+// is sized, not written: the protocol's size functions follow its encoders piece by piece
+// without copying a vector's bytes (tests hold them to frames actually encoded).
 
 import {
-  assembleDownsFrame,
-  assembleUpsFrame,
-  encodeDownEntry,
+  downEntryBytes,
+  downsFrameBytes,
   encodeDownsPrefix,
-  encodeUpEntry,
   frameBytes,
-  toWire,
-  type WireFields,
+  upEntryBytes,
+  upsFrameBytes,
 } from '../protocol/index.js';
 import type { EncodedFields } from './client-runtime.js';
 import type { ClientAssignment } from './round-schedule.js';
 
 /** A time that MessagePack writes as float64, standing for a client's seconds in an up entry. */
 const SECONDS_STAND_IN = 0.5;
-
-function wireFieldsOf(fields: EncodedFields, path: string): WireFields {
-  const out: WireFields = {};
-  for (const [name, cv] of Object.entries(fields)) out[name] = toWire(cv, `${path}.${name}`);
-  return out;
-}
 
 /** Wire bytes of a downs frame carrying `assignment`'s down alone (a server's frames are unmasked). */
 export function ownDownFrameBytes(
@@ -45,18 +41,15 @@ export function ownDownFrameBytes(
   assignment: Pick<ClientAssignment, 'clientId' | 'localSteps' | 'stepSize'>,
   encodedDown: EncodedFields,
 ): number {
-  const fields = wireFieldsOf(encodedDown, 'downs.fields');
-  const prefix = encodeDownsPrefix(round, exchangeIndex, deadlineSeconds, Object.keys(fields), {});
-  const entry = encodeDownEntry(
-    {
-      clientId: assignment.clientId,
-      localSteps: assignment.localSteps,
-      stepSize: assignment.stepSize,
-      fields,
-    },
-    prefix,
+  const prefix = encodeDownsPrefix(
+    round,
+    exchangeIndex,
+    deadlineSeconds,
+    Object.keys(encodedDown),
+    {},
   );
-  return frameBytes(assembleDownsFrame(prefix, [entry]).byteLength, false);
+  const entry = downEntryBytes(assignment, encodedDown, prefix);
+  return frameBytes(downsFrameBytes(prefix, [entry]), false);
 }
 
 /** Wire bytes of an ups frame carrying client `clientId`'s up alone (a worker masks its frames). */
@@ -67,13 +60,15 @@ export function ownUpFrameBytes(
   stepsTaken: number,
   encodedUp: EncodedFields,
 ): number {
-  const entry = encodeUpEntry({
-    clientId,
-    localSteps: stepsTaken,
-    computeSeconds: SECONDS_STAND_IN,
-    waitSeconds: SECONDS_STAND_IN,
-    transferSeconds: SECONDS_STAND_IN,
-    fields: wireFieldsOf(encodedUp, 'ups.fields'),
-  });
-  return frameBytes(assembleUpsFrame(round, exchangeIndex, [entry]).byteLength, true);
+  const entry = upEntryBytes(
+    {
+      clientId,
+      localSteps: stepsTaken,
+      computeSeconds: SECONDS_STAND_IN,
+      waitSeconds: SECONDS_STAND_IN,
+      transferSeconds: SECONDS_STAND_IN,
+    },
+    encodedUp,
+  );
+  return frameBytes(upsFrameBytes(round, exchangeIndex, [entry]), true);
 }

@@ -17,10 +17,15 @@ export { decodeMessage, encodeMessage, FrameElements, NESTING_DEPTH_MAX } from '
 export {
   assembleDownsFrame,
   assembleUpsFrame,
+  downEntryBytes,
+  downsFrameBytes,
   encodeDownEntry,
   encodeDownsPrefix,
   encodeRoundFrame,
   encodeUpEntry,
+  upEntryBytes,
+  upsFrameBytes,
+  vectorElementBytes,
   type DownsPrefix,
 } from './round-frame-encode.js';
 export {

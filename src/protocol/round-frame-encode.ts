@@ -5,7 +5,9 @@
 // once, and each worker's frame is that piece, the worker's entries and an array header. The
 // length of each entry's piece is what the byte ledger counts as that client's own.
 
-import { concatArray, encodeValue } from './codec.js';
+import type { CompressedVector } from '../compress/compressed-vector.js';
+import { deltaVarintByteLength } from '../compress/index-coding.js';
+import { arrayHeaderBytes, concatArray, encodeValue } from './codec.js';
 import type { FieldDims } from './field-dims.js';
 import type { DownEntry, DownsFrame, UpEntry, UpsFrame, WireFields } from './messages.js';
 import {
@@ -20,6 +22,34 @@ import type { WireVector } from './wire-vector.js';
 
 function vectorElement(wv: WireVector): unknown[] {
   return [wv.dim, wv.width, wv.count, wv.indices, wv.values];
+}
+
+// The sizes below follow the encoders above piece by piece, without writing a vector's bytes:
+// an array is its header and its elements one after another, nil is one byte, and a bin of n
+// bytes has a 2-, 3- or 5-byte header (MessagePack specification, "bin 8/16/32"). The small
+// numbers are encoded for real, so their forms are the codec's own.
+
+const NIL_BYTES = 1;
+
+/** Bytes of a MessagePack bin of `length` bytes. */
+function binBytes(length: number): number {
+  return length + (length <= 0xff ? 2 : length <= 0xffff ? 3 : 5);
+}
+
+/** Bytes the wire form of `cv` (toWire) takes as a frame's vector element. */
+export function vectorElementBytes(cv: CompressedVector): number {
+  const width = cv.values instanceof Float32Array ? 4 : 8;
+  const count = cv.values.length;
+  const scalars = encodeValue([cv.dim, width, count, null, null]).byteLength - 2 * NIL_BYTES;
+  const indices = cv.indices === null ? NIL_BYTES : binBytes(deltaVarintByteLength(cv.indices));
+  return scalars + indices + binBytes(count * width);
+}
+
+/** Bytes of an entry's field array: one slot per name, nil where `elementBytes` has none. */
+function fieldArrayBytes(slots: readonly string[], elementBytes: (name: string) => number | null) {
+  let bytes = arrayHeaderBytes(slots.length).byteLength;
+  for (const name of slots) bytes += elementBytes(name) ?? NIL_BYTES;
+  return bytes;
 }
 
 /** What every worker's downs frame of one exchange shares, encoded once. */
@@ -74,6 +104,32 @@ export function encodeDownEntry(entry: DownEntry, prefix: DownsPrefix): Uint8Arr
   return encodeValue([entry.clientId, entry.localSteps, entry.stepSize, fields]);
 }
 
+/** The length encodeDownEntry gives for this entry, its fields sized by vectorElementBytes. */
+export function downEntryBytes(
+  entry: Pick<DownEntry, 'clientId' | 'localSteps' | 'stepSize'>,
+  fields: Readonly<Record<string, CompressedVector>>,
+  prefix: DownsPrefix,
+): number {
+  const scalars = encodeValue([entry.clientId, entry.localSteps, entry.stepSize, null]);
+  return (
+    scalars.byteLength -
+    NIL_BYTES +
+    fieldArrayBytes(prefix.slots, (name) => {
+      if (prefix.common.has(name)) return null;
+      const cv = fields[name];
+      if (cv === undefined)
+        throw new RangeError(`down entry of client ${entry.clientId}: no "${name}"`);
+      return vectorElementBytes(cv);
+    })
+  );
+}
+
+/** The length assembleDownsFrame gives for the prefix and entries of these lengths. */
+export function downsFrameBytes(prefix: DownsPrefix, entryBytes: readonly number[]): number {
+  const header = arrayHeaderBytes(DOWNS_HEADER_ELEMENTS + entryBytes.length).byteLength;
+  return entryBytes.reduce((sum, n) => sum + n, header + prefix.bytes.byteLength);
+}
+
 /** A worker's downs frame: the shared prefix and its entries (ascending client id). */
 export function assembleDownsFrame(
   prefix: DownsPrefix,
@@ -96,6 +152,41 @@ export function encodeUpEntry(entry: UpEntry): Uint8Array {
     entry.transferSeconds,
     fields,
   ]);
+}
+
+/** The length encodeUpEntry gives for this entry, its fields sized by vectorElementBytes. */
+export function upEntryBytes(
+  entry: Omit<UpEntry, 'fields' | 'updateNotFinite'>,
+  fields: Readonly<Record<string, CompressedVector>>,
+): number {
+  const scalars = encodeValue([
+    entry.clientId,
+    entry.localSteps,
+    entry.computeSeconds,
+    entry.waitSeconds,
+    entry.transferSeconds,
+    null,
+  ]);
+  return (
+    scalars.byteLength -
+    NIL_BYTES +
+    fieldArrayBytes(fieldSlots(Object.keys(fields)), (name) => vectorElementBytes(fields[name]))
+  );
+}
+
+/** The length assembleUpsFrame gives for entries of these lengths. */
+export function upsFrameBytes(
+  round: number,
+  exchangeIndex: number,
+  entryBytes: readonly number[],
+): number {
+  const header = [ROUND_FRAME_KINDS.ups, ROUND_FRAME_LAYOUT, round, exchangeIndex]
+    .map((v) => encodeValue(v).byteLength)
+    .reduce(
+      (sum, n) => sum + n,
+      arrayHeaderBytes(UPS_HEADER_ELEMENTS + entryBytes.length).byteLength,
+    );
+  return entryBytes.reduce((sum, n) => sum + n, header);
 }
 
 /** An ups frame from its encoded entries. */

@@ -7,7 +7,16 @@
 import { describe, expect, it } from 'vitest';
 import type { CompressedVector } from '../../src/compress/compressed-vector.js';
 import { ownDownFrameBytes, ownUpFrameBytes } from '../../src/engine/own-frame-bytes.js';
-import { encodeRoundFrame, frameBytes, toWire } from '../../src/protocol/index.js';
+import {
+  assembleDownsFrame,
+  assembleUpsFrame,
+  encodeDownEntry,
+  encodeDownsPrefix,
+  encodeRoundFrame,
+  encodeUpEntry,
+  frameBytes,
+  toWire,
+} from '../../src/protocol/index.js';
 
 const dense = (d: number): CompressedVector => ({
   dim: d,
@@ -59,6 +68,44 @@ describe('own frame bytes', () => {
       { local: { delta: 300 } },
     );
     expect(ownUpFrameBytes(2, 0, 3, 4, { delta })).toBe(frameBytes(frame.byteLength, true));
+  });
+
+  it('size every bin form and index stream as the encoder writes them, without writing them', () => {
+    const vectors: Record<string, CompressedVector> = {
+      // 160 value bytes: bin 8
+      small: dense(20),
+      // 80,000 value bytes: bin 32
+      large: dense(10_000),
+      // f32 values and a varint index stream with gaps of one byte and of several
+      sparse: {
+        dim: 100_000,
+        indices: Uint32Array.of(0, 1, 200, 70_000, 99_999),
+        values: Float32Array.of(1, -2, 3.5, 4, 5),
+      },
+    };
+    for (const [name, cv] of Object.entries(vectors)) {
+      const fields = { [name]: cv };
+      const encoded = encodeUpEntry({
+        clientId: 300,
+        localSteps: 70_000,
+        computeSeconds: 0.5,
+        waitSeconds: 0.5,
+        transferSeconds: 0.5,
+        fields: { [name]: toWire(cv) },
+      });
+      expect(ownUpFrameBytes(1, 0, 300, 70_000, fields), name).toBe(
+        frameBytes(assembleUpsFrame(1, 0, [encoded]).byteLength, true),
+      );
+      const prefix = encodeDownsPrefix(1, 0, 2.5, [name], {});
+      const down = encodeDownEntry(
+        { clientId: 300, localSteps: 70_000, stepSize: 0.1, fields: { [name]: toWire(cv) } },
+        prefix,
+      );
+      expect(
+        ownDownFrameBytes(1, 0, 2.5, { clientId: 300, localSteps: 70_000, stepSize: 0.1 }, fields),
+        name,
+      ).toBe(frameBytes(assembleDownsFrame(prefix, [down]).byteLength, false));
+    }
   });
 
   it('price what the codec writes beyond the information: headers around 8 bytes a value', () => {
