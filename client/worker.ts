@@ -22,9 +22,7 @@ import {
   HANDSHAKE_LIMITS,
   PROTOCOL_VERSION,
   ProtocolError,
-  assembleUpsFrame,
   encodeMessage,
-  encodeUpEntry,
   exchangeSlots,
   fromWire,
   proveKey,
@@ -32,6 +30,7 @@ import {
   toWire,
   fromWireState,
   toWireState,
+  writeUpsFrame,
   type DownEntry,
   type DownsFrame,
   type FieldDims,
@@ -49,6 +48,7 @@ import { downFieldDimsFor } from '../src/engine/down-field-dims.js';
 import { isNonFiniteError } from '../src/base/coded-error.js';
 import { drawLinks } from '../src/timing/links.js';
 import { ownDownFrameBytes, ownUpFrameBytes } from '../src/engine/own-frame-bytes.js';
+import { FrameBuffers } from './frame-buffers.js';
 import { speedModelFor } from '../src/timing/round-speed.js';
 import { ClientHost } from './client-host.js';
 import {
@@ -131,6 +131,9 @@ export class Worker {
   private rejoinFresh = false;
   private finish: (exit: WorkerExit) => void = () => undefined;
   private fail: (error: Error) => void = () => undefined;
+
+  /** the ups frames' buffers, used again once written out */
+  private readonly frameBuffers = new FrameBuffers();
 
   constructor(options: WorkerOptions) {
     this.options = options;
@@ -239,9 +242,10 @@ export class Worker {
     this.sendBytes(message.type, encodeMessage(message));
   }
 
-  private sendBytes(type: MessageType, bytes: Uint8Array): void {
+  /** `written`: called once the socket is done with `bytes` (written out, or the send failed). */
+  private sendBytes(type: MessageType, bytes: Uint8Array, written?: () => void): void {
     if (this.ws === null || this.ws.readyState !== this.ws.OPEN) return;
-    this.ws.send(bytes, { binary: true });
+    this.ws.send(bytes, { binary: true }, written);
     this.options.metrics?.messageSent(type, bytes.byteLength);
   }
 
@@ -495,10 +499,10 @@ export class Worker {
       frame.entries.length,
       (entries) => {
         if (!this.mayAnswerOn(connection)) return;
-        this.sendBytes(
-          'ups',
-          assembleUpsFrame(frame.round, exchangeIndex, entries.map(encodeUpEntry)),
+        const frameBytes = writeUpsFrame(frame.round, exchangeIndex, entries, (length) =>
+          this.frameBuffers.take(length),
         );
+        this.sendBytes('ups', frameBytes, () => this.frameBuffers.give(frameBytes));
       },
     );
     for (const entry of frame.entries) {

@@ -294,6 +294,7 @@ export class RoundDriver implements RoundTransport<'async'> {
         onRound,
         ...(this.options.resume === undefined ? {} : { resumeAfter: this.options.resume }),
         checkpointEveryRounds: this.options.checkpointEveryRounds ?? 0,
+        overlapEvaluation: true,
       }),
       this,
     );

@@ -109,7 +109,10 @@ export class UplinkDecoder {
         continue;
       }
       validateCompressedVector(cv);
-      out[field] = decompress(cv);
+      // A dense f64 increment is already the vector: the message owns its arrays (compress and
+      // fromWire make them fresh) and the method only reads it, so it is used as it came.
+      out[field] =
+        cv.indices === null && cv.values instanceof Float64Array ? cv.values : decompress(cv);
     }
     return out;
   }

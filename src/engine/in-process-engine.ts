@@ -35,6 +35,11 @@ export interface EngineOptions {
   checkpointEveryRounds?: number;
   /** receives the run's state at each checkpoint, and when a stop ends the run */
   onCheckpoint?: (state: RunState) => void;
+  /**
+   * Walk as the coordinator does, each round's evaluation ended during the next round's first
+   * exchange (RunWalkSetup.overlapEvaluation); here it changes only when records arrive.
+   */
+  overlapEvaluation?: boolean;
 }
 
 /** The run's end; its records went to the sink openRecords opened (after `resume`'s round when resuming). */
@@ -141,6 +146,7 @@ function prepare(
     },
     ...(options.resume === undefined ? {} : { resumeAfter: options.resume }),
     checkpointEveryRounds: options.checkpointEveryRounds ?? 0,
+    overlapEvaluation: options.overlapEvaluation ?? false,
   };
   return { run, setup, wallSeconds };
 }

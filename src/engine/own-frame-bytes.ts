@@ -26,12 +26,34 @@ import {
   frameBytes,
   upEntryBytes,
   upsFrameBytes,
+  type DownsPrefix,
 } from '../protocol/index.js';
 import type { EncodedFields } from './client-runtime.js';
 import type { ClientAssignment } from './round-schedule.js';
 
 /** A time that MessagePack writes as float64, standing for a client's seconds in an up entry. */
 const SECONDS_STAND_IN = 0.5;
+
+/**
+ * The prefix of a one-entry downs frame (no common section) depends on the exchange alone, and
+ * every client of an exchange is priced in a row: the last one is kept.
+ */
+let lastPrefix: { key: string; prefix: DownsPrefix } | null = null;
+
+function ownDownsPrefix(
+  round: number,
+  exchangeIndex: number,
+  deadlineSeconds: number | null,
+  fieldNames: readonly string[],
+): DownsPrefix {
+  const key = `${round} ${exchangeIndex} ${deadlineSeconds} ${fieldNames.join(' ')}`;
+  if (lastPrefix?.key !== key)
+    lastPrefix = {
+      key,
+      prefix: encodeDownsPrefix(round, exchangeIndex, deadlineSeconds, fieldNames, {}),
+    };
+  return lastPrefix.prefix;
+}
 
 /** Wire bytes of a downs frame carrying `assignment`'s down alone (a server's frames are unmasked). */
 export function ownDownFrameBytes(
@@ -41,13 +63,7 @@ export function ownDownFrameBytes(
   assignment: Pick<ClientAssignment, 'clientId' | 'localSteps' | 'stepSize'>,
   encodedDown: EncodedFields,
 ): number {
-  const prefix = encodeDownsPrefix(
-    round,
-    exchangeIndex,
-    deadlineSeconds,
-    Object.keys(encodedDown),
-    {},
-  );
+  const prefix = ownDownsPrefix(round, exchangeIndex, deadlineSeconds, Object.keys(encodedDown));
   const entry = downEntryBytes(assignment, encodedDown, prefix);
   return frameBytes(downsFrameBytes(prefix, [entry]), false);
 }

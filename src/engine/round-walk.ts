@@ -77,6 +77,8 @@ export interface WalkedRound {
   dropped: number[];
   roundSeconds: number;
   diverged: boolean;
+  /** the `goOn` of walkRound said no: nothing of the round counts */
+  abandoned: boolean;
 }
 
 /** The downs of one exchange, or null when the server's state is no longer finite. */
@@ -134,12 +136,19 @@ function aggregateWithin(
 /**
  * Walks one round's exchanges. Without a bound (the round map, the field-shape probe) only a
  * non-finite value counts as diverged.
+ *
+ * `goOn`, when given, is asked once, before the round changes anything it cannot take back
+ * (after its first exchange came back, before that exchange is settled and folded in; or at
+ * the end of a round that folded nothing): false abandons the round, as if it had never been
+ * walked beyond the downs it sent. The run walk passes the end of the previous round's
+ * evaluation there, which then overlaps this round's first exchange.
  */
-export function* walkRound(
+export function* walkRound<Extra extends WalkRequest = never>(
   setup: WalkSetup,
   round: number,
   bound: ExplosionBound | null = null,
-): Generator<ExchangeRequest, WalkedRound, unknown> {
+  goOn?: () => Generator<Extra, boolean, unknown>,
+): Generator<ExchangeRequest | Extra, WalkedRound, unknown> {
   const { plan, server, speed } = setup;
   const exchanges = server.method.exchanges;
   const out: WalkedRound = {
@@ -148,7 +157,9 @@ export function* walkRound(
     dropped: [],
     roundSeconds: 0,
     diverged: false,
+    abandoned: false,
   };
+  let asked = goOn === undefined;
   const dropped = new Set<number>();
   // A client whose up did not come back in one exchange (lost, late) sits out the rest of the round.
   const sittingOut = new Set<number>();
@@ -171,6 +182,13 @@ export function* walkRound(
     }
     const order = { round, exchange, downs };
     const reply = yield* ask({ kind: 'exchange', order });
+    if (!asked) {
+      asked = true;
+      if (!(yield* goOn!())) {
+        out.abandoned = true;
+        return out;
+      }
+    }
     const settled = settleExchange(
       plan,
       order,
@@ -196,6 +214,7 @@ export function* walkRound(
       break;
     }
   }
+  if (!asked && !(yield* goOn!())) out.abandoned = true;
   out.dropped = [...dropped].sort((a, b) => a - b);
   return out;
 }
@@ -216,6 +235,12 @@ export interface RunWalkSetup extends WalkSetup {
    * always after the round a stop ('stopped') ended, so that an interrupted run can go on.
    */
   checkpointEveryRounds?: number;
+  /**
+   * Let a round's evaluation run on while the next round's first exchange goes out (see
+   * `pending` in walkRun): for a transport whose evaluation runs elsewhere (the coordinator's
+   * oracle thread). Either way the records, the final model and the clock are the same.
+   */
+  overlapEvaluation?: boolean;
 }
 
 /**
@@ -288,25 +313,13 @@ export function* walkRun(setup: RunWalkSetup): Generator<WalkRequest, WalkedRun,
   const checkpointEvery = setup.checkpointEveryRounds ?? 0;
   let stopReason: StopReason = 'rounds-complete';
 
-  for (let round = (start?.round ?? 0) + 1; round <= roundsMax; round++) {
-    const refused = yield* ask({ kind: 'open-round', round });
-    if (refused !== null) {
-      stopReason = refused;
-      if (refused === 'stopped') yield* ask({ kind: 'checkpoint', point: point! });
-      break;
-    }
-    const walked = yield* walkRound(setup, round, bound);
-    const virtualSeconds = clock.advance(walked.roundSeconds);
-    let ending: StopReason | null = walked.diverged
-      ? 'diverged'
-      : yield* ask({ kind: 'close-round', round });
-    // A stopped run may be resumed: its record must be the one an unstopped run writes.
-    const last = round === roundsMax || (ending !== null && ending !== 'stopped');
-    const evaluated =
-      round % evalEvery === 0 || last
-        ? yield* ask({ kind: 'evaluate', model: server.model(), round })
-        : null;
-    if (evaluated && !suboptimalityWithin(evaluated.suboptimality, bound)) ending = 'diverged';
+  /** The record of a walked round, with its evaluation where it had one; point moves to it. */
+  const recordRound = (
+    round: number,
+    walked: WalkedRound,
+    evaluated: RoundEvaluation | null,
+    at: { virtualSeconds: number; clock: WalkPoint['clock']; wallSeconds: number },
+  ): void => {
     const record: RoundRecord = {
       round,
       suboptimality: evaluated ? evaluated.suboptimality : null,
@@ -317,22 +330,100 @@ export function* walkRun(setup: RunWalkSetup): Generator<WalkRequest, WalkedRun,
       localSteps: walked.localSteps,
       dropped: walked.dropped,
       roundSeconds: walked.roundSeconds,
-      virtualSeconds,
-      wallSeconds: setup.wallSeconds(),
+      virtualSeconds: at.virtualSeconds,
+      wallSeconds: at.wallSeconds,
     };
     setup.onRound?.(record, walked.records);
-    point = { round, clock: clock.state(), wallSeconds: record.wallSeconds, bound };
+    point = { round, clock: at.clock, wallSeconds: at.wallSeconds, bound };
+  };
+
+  // A round whose evaluation runs on (on the oracle's thread) while the next round's downs go
+  // out and its clients work: the evaluation no longer holds the run up between two rounds.
+  // Only a round after which the run would go on anyway is left pending (not the last, nothing
+  // ending it, no checkpoint due), and only the evaluation can still end the run there (the
+  // target reached, or f - f* past the bound): the next round then asks for its end before it
+  // settles or folds in anything (walkRound's goOn), and is abandoned if the run stops. So
+  // every record, the final model and the clock are those of a walk that waited, which is why
+  // both runtimes still agree bit for bit; what a stop costs is the next round's downs and work,
+  // thrown away.
+  let pending: {
+    round: number;
+    walked: WalkedRound;
+    at: { virtualSeconds: number; clock: WalkPoint['clock']; wallSeconds: number };
+  } | null = null;
+  const endPending = function* (): Generator<WalkRequest, StopReason | null, unknown> {
+    const { round, walked, at } = pending!;
+    pending = null;
+    const evaluated = yield* ask({ kind: 'evaluate-end', round });
+    recordRound(round, walked, evaluated, at);
+    if (!suboptimalityWithin(evaluated.suboptimality, bound)) return 'diverged';
+    if (target > 0 && evaluated.suboptimality <= target) return 'target-reached';
+    return null;
+  };
+
+  for (let round = (start?.round ?? 0) + 1; round <= roundsMax; round++) {
+    const refused = yield* ask({ kind: 'open-round', round });
+    if (refused !== null) {
+      const ended = pending === null ? null : yield* endPending();
+      stopReason = ended ?? refused;
+      if (ended === null && refused === 'stopped')
+        yield* ask({ kind: 'checkpoint', point: point! });
+      break;
+    }
+    const verdict: { ending: StopReason | null } = { ending: null };
+    const goOn: (() => Generator<WalkRequest, boolean, unknown>) | undefined =
+      pending === null
+        ? undefined
+        : function* (): Generator<WalkRequest, boolean, unknown> {
+            verdict.ending = yield* endPending();
+            return verdict.ending === null;
+          };
+    const walked: WalkedRound = yield* walkRound(setup, round, bound, goOn);
+    if (walked.abandoned) {
+      stopReason = verdict.ending!;
+      break;
+    }
+    const virtualSeconds = clock.advance(walked.roundSeconds);
+    let ending: StopReason | null = walked.diverged
+      ? 'diverged'
+      : yield* ask({ kind: 'close-round', round });
+    // A stopped run may be resumed: its record must be the one an unstopped run writes.
+    const last = round === roundsMax || (ending !== null && ending !== 'stopped');
+    const evaluates = round % evalEvery === 0 || last;
+    const checkpointDue = checkpointEvery > 0 && round % checkpointEvery === 0 && round < roundsMax;
+    if (
+      setup.overlapEvaluation === true &&
+      evaluates &&
+      !last &&
+      ending === null &&
+      !checkpointDue
+    ) {
+      yield* ask({ kind: 'evaluate-begin', model: server.model(), round });
+      const at = { virtualSeconds, clock: clock.state(), wallSeconds: setup.wallSeconds() };
+      pending = { round, walked, at };
+      continue;
+    }
+    const evaluated = evaluates
+      ? yield* ask({ kind: 'evaluate', model: server.model(), round })
+      : null;
+    if (evaluated && !suboptimalityWithin(evaluated.suboptimality, bound)) ending = 'diverged';
+    recordRound(round, walked, evaluated, {
+      virtualSeconds,
+      clock: clock.state(),
+      wallSeconds: setup.wallSeconds(),
+    });
     if (ending !== null) {
       stopReason = ending;
-      if (ending === 'stopped') yield* ask({ kind: 'checkpoint', point });
+      if (ending === 'stopped') yield* ask({ kind: 'checkpoint', point: point! });
       break;
     }
     if (evaluated && target > 0 && evaluated.suboptimality <= target) {
       stopReason = 'target-reached';
       break;
     }
-    if (checkpointEvery > 0 && round % checkpointEvery === 0 && round < roundsMax)
-      yield* ask({ kind: 'checkpoint', point });
+    if (checkpointDue) yield* ask({ kind: 'checkpoint', point: point! });
   }
+  // The last round is never left pending; a walk that ends otherwise has ended its pending one.
+  if (pending !== null) throw new Error('the round walk ended with a round left pending');
   return { finalModel: server.model(), stopReason, virtualSeconds: clock.now() };
 }

@@ -84,8 +84,18 @@ export interface WalkPoint {
   bound: ExplosionBound;
 }
 
+/**
+ * The evaluation of a round started and left running while the walk goes on ('evaluate-begin',
+ * answered at once), and its answer when the walk needs it ('evaluate-end'): the transport's
+ * evaluate either way, which the drivers call at the begin and whose answer they keep.
+ */
+export type EvaluationRequest =
+  | { kind: 'evaluate-begin'; model: Float64Array; round: number }
+  | { kind: 'evaluate-end'; round: number };
+
 export type WalkRequest =
   | ExchangeRequest
+  | EvaluationRequest
   | { kind: 'open-round'; round: number }
   | { kind: 'close-round'; round: number }
   | { kind: 'evaluate'; model: Float64Array; round: number }
@@ -98,6 +108,8 @@ export interface WalkAnswers {
   'open-round': StopReason | null;
   'close-round': StopReason | null;
   evaluate: RoundEvaluation;
+  'evaluate-begin': void;
+  'evaluate-end': RoundEvaluation;
   checkpoint: void;
 }
 
@@ -141,8 +153,35 @@ type Answering = {
   [K in keyof RoundTransport]: (...args: Parameters<RoundTransport[K]>) => unknown;
 };
 
-function answer(transport: Answering, request: WalkRequest): unknown {
+/**
+ * Evaluations begun and not yet ended, by round: the answer (or its promise) the transport gave
+ * at the begin. A promise that fails is held as it is and fails the walk at its end, never as an
+ * unhandled rejection in between.
+ */
+class EvaluationsBegun {
+  private readonly begun = new Map<number, unknown>();
+
+  begin(transport: Answering, model: Float64Array, round: number): void {
+    const answer = transport.evaluate(model, round);
+    if (answer instanceof Promise) answer.catch(() => undefined);
+    this.begun.set(round, answer);
+  }
+
+  end(round: number): unknown {
+    if (!this.begun.has(round))
+      throw new Error(`the walk ended the evaluation of round ${round}, which it never began`);
+    const answer = this.begun.get(round);
+    this.begun.delete(round);
+    return answer;
+  }
+}
+
+function answer(transport: Answering, request: WalkRequest, begun: EvaluationsBegun): unknown {
   switch (request.kind) {
+    case 'evaluate-begin':
+      return begun.begin(transport, request.model, request.round);
+    case 'evaluate-end':
+      return begun.end(request.round);
     case 'members':
       return transport.members(request.round, request.exchange, request.candidates);
     case 'exchange':
@@ -173,8 +212,9 @@ export function driveSync<T>(
 ): T {
   // The overloads pair a walk with a transport that answers every request it can yield.
   const answering = transport as Answering;
+  const begun = new EvaluationsBegun();
   let step = walk.next();
-  while (step.done !== true) step = walk.next(answer(answering, step.value));
+  while (step.done !== true) step = walk.next(answer(answering, step.value, begun));
   return step.value;
 }
 
@@ -183,7 +223,8 @@ export async function driveAsync<T>(
   walk: Generator<WalkRequest, T, unknown>,
   transport: RoundTransport<'async'>,
 ): Promise<T> {
+  const begun = new EvaluationsBegun();
   let step = walk.next();
-  while (step.done !== true) step = walk.next(await answer(transport, step.value));
+  while (step.done !== true) step = walk.next(await answer(transport, step.value, begun));
   return step.value;
 }

@@ -100,6 +100,11 @@ export function encodeValue(value: unknown): Uint8Array {
   return packr.pack(value).slice();
 }
 
+/** The length of a value's MessagePack encoding, nothing kept (the size functions' small numbers). */
+export function encodedLength(value: unknown): number {
+  return packr.pack(value).byteLength;
+}
+
 /**
  * An array of `count` elements from the encoded elements, in order: the array header, then the
  * pieces as they are (round-frame-encode.ts). One copy, into a buffer of the frame's length.

@@ -26,6 +26,7 @@ export {
   upEntryBytes,
   upsFrameBytes,
   vectorElementBytes,
+  writeUpsFrame,
   type DownsPrefix,
 } from './round-frame-encode.js';
 export {

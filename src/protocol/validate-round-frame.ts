@@ -29,7 +29,7 @@ import {
   type RoundFrameKind,
 } from './round-frame-layout.js';
 import type { ValidationContext } from './validate.js';
-import { checkWireVector, type WireVector } from './wire-vector.js';
+import { ValueBlock, checkWireVector, type ValueStore, type WireVector } from './wire-vector.js';
 
 type VectorTuple = z.infer<typeof downsHeaderTuple>[5][number] & object;
 
@@ -86,6 +86,7 @@ function checkVector(
   expectedDim: number,
   path: string,
   context: ValidationContext,
+  store?: ValueStore,
 ): void {
   if (wv.dim > context.limits.maxVectorDim) {
     throw new ProtocolError(
@@ -99,7 +100,7 @@ function checkVector(
       `${path}.dim: the plan says ${expectedDim}, got ${wv.dim}`,
     );
   }
-  checkWireVector(wv, path);
+  checkWireVector(wv, path, store);
 }
 
 interface Header {
@@ -261,16 +262,23 @@ function validateUps(raw: FrameElements, context: ValidationContext): UpsFrame {
     entries.map(([clientId]) => clientId),
     context,
   );
+  const vectorsOf = entries.map(([, , , , , slots], i) => {
+    if (slots === null) return null;
+    checkSlotCount(slots, header, `${type}.entries[${i}].fields`);
+    return slots.map(named);
+  });
+  // The coordinator aggregates every up of the frame within the round: one block holds them all.
+  const block = new ValueBlock(ValueBlock.bytesFor(vectorsOf.flatMap((vectors) => vectors ?? [])));
   const out: UpEntry[] = entries.map(
-    ([clientId, localSteps, computeSeconds, waitSeconds, transferSeconds, slots], i) => {
+    ([clientId, localSteps, computeSeconds, waitSeconds, transferSeconds], i) => {
       const timings = { localSteps, computeSeconds, waitSeconds, transferSeconds };
-      if (slots === null) return { clientId, fields: {}, updateNotFinite: true, ...timings };
+      const vectors = vectorsOf[i];
+      if (vectors === null) return { clientId, fields: {}, updateNotFinite: true, ...timings };
       const path = `${type}.entries[${i}].fields`;
-      checkSlotCount(slots, header, path);
       const fields: WireFields = {};
       header.fieldNames.forEach((name, j) => {
-        const wv = named(slots[j]);
-        checkVector(wv, header.dims[j], `${path}.${name}`, context);
+        const wv = vectors[j];
+        checkVector(wv, header.dims[j], `${path}.${name}`, context, block);
         fields[name] = wv;
       });
       return { clientId, fields, ...timings };

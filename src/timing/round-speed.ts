@@ -46,6 +46,9 @@ export function speedModelFor(timing: Timing, clientCount: number, seed: number)
 export function stepFactorFor(model: SpeedModel, clientId: number, round: number): number {
   assertIntegerInRange('clientId', clientId, 0, model.slowdowns.length - 1);
   assertIntegerInRange('round', round, 0, Number.MAX_SAFE_INTEGER);
+  // With neither jitter nor transients both factors are exactly 1 (exp(0 z) = 1 for a finite z):
+  // the same number without the two draws, which every client costs every round.
+  if (model.jitter === 0 && model.transient.probability === 0) return model.slowdowns[clientId];
   const rng = Rng.derive(model.seed, 'speed', clientId, round);
   // Both draws are always taken, in this order, so that each keeps its meaning whatever the
   // settings: turning jitter on does not change which rounds see a transient event.
