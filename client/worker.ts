@@ -506,7 +506,8 @@ export class Worker {
       },
     );
     for (const entry of frame.entries) {
-      // The common vectors are shared by the entries: a client's runtime decodes into arrays of its own.
+      // The common vectors are decoded once and shared by the entries: a client's runtime only
+      // reads a down, decoding it into arrays of its own (its downlink replicas).
       const encodedDown: EncodedFields = { ...common };
       for (const [name, wv] of Object.entries(entry.fields))
         encodedDown[name] = fromWire(wv, `downs.fields.${name}`);

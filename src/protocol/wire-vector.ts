@@ -68,7 +68,10 @@ function protocolErrorOf(error: unknown, path: string): unknown {
 /**
  * A compressed vector -> its wire form. Throws ProtocolError E_DIMENSION or E_NOT_FINITE when
  * the vector breaks the form's invariants, so that a sender finds out before the receiver does
- * (a diverging client reports E_NOT_FINITE instead of sending NaN). The values are copied.
+ * (a diverging client reports E_NOT_FINITE instead of sending NaN). On a little-endian host the
+ * wire values are a view of the vector's own bytes, not a copy: a message owns its vectors
+ * (compress and the replicas make them fresh), and the sender encodes them into a frame before
+ * anything could change them.
  */
 export function toWire(cv: CompressedVector, path = 'vector'): WireVector {
   try {
@@ -78,10 +81,11 @@ export function toWire(cv: CompressedVector, path = 'vector'): WireVector {
   }
   const width = widthOf(cv.values);
   const count = cv.values.length;
-  const values = new Uint8Array(count * width);
+  let values: Uint8Array;
   if (HOST_LITTLE_ENDIAN) {
-    values.set(new Uint8Array(cv.values.buffer, cv.values.byteOffset, count * width));
+    values = new Uint8Array(cv.values.buffer, cv.values.byteOffset, count * width);
   } else {
+    values = new Uint8Array(count * width);
     const view = new DataView(values.buffer);
     if (width === 8) {
       for (let i = 0; i < count; i++) view.setFloat64(i * 8, cv.values[i], true);

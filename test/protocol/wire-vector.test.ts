@@ -12,6 +12,17 @@ import { codeOf } from '../support/error-code.js';
 const protocolErrorCode = (action: () => unknown): string => codeOf(action, ProtocolError);
 
 describe('toWire / fromWire', () => {
+  it('toWire views the vector bytes in place, fromWire gives arrays of their own', () => {
+    // Every platform Node runs on is little-endian: the wire form is the memory form there.
+    const values = Float64Array.from([1.5, -2, 3e-310]);
+    const wv = toWire({ dim: 3, indices: null, values });
+    expect(wv.values.buffer).toBe(values.buffer);
+    expect(wv.values.byteOffset).toBe(values.byteOffset);
+    const back = fromWire(wv);
+    expect(back.values.buffer).not.toBe(values.buffer);
+    expect(Array.from(back.values)).toEqual([1.5, -2, 3e-310]);
+  });
+
   it('round-trips dense and sparse vectors at both widths', () => {
     const cases = [
       { dim: 4, indices: null, values: Float64Array.from([1, -0, 3e-310, -4]) },
