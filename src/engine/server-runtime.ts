@@ -6,6 +6,9 @@ import type { Method, Upload } from '../algorithm/method.js';
 import type { Fields } from '../vec/fields.js';
 import { methodByName } from '../algorithm/registry.js';
 import { ReplicaEncoder } from '../compress/replica.js';
+import { compressorForField, downlinkMode } from '../compress/channel.js';
+import { compress } from '../compress/compressor.js';
+import type { CompressedVector } from '../compress/compressed-vector.js';
 import { UplinkDecoder } from '../compress/uplink.js';
 import type { EncodedFields } from './client-runtime.js';
 import { initialModelOf } from '../problem/initial-model.js';
@@ -39,6 +42,13 @@ export class ServerRuntime {
   private state: unknown;
   private readonly downlinks: ReplicaEncoder[];
   private readonly uplinks: UplinkDecoder[];
+  /** the exact downlink fields of the exchange being encoded (exactDowns) */
+  private exactMemo: {
+    fields: Fields;
+    round: number;
+    exchange: string;
+    encoded: ReadonlyMap<string, CompressedVector>;
+  } | null = null;
 
   constructor(plan: RunPlan, initialModel: Float64Array = initialModelOf(plan)) {
     this.plan = plan;
@@ -60,10 +70,45 @@ export class ServerRuntime {
 
   /** The message for one client; advances that client's downlink replicas. */
   encodeDown(clientId: number, round: number, exchange: string, fields: Fields): EncodedFields {
-    return this.downlinks[clientId].encode(
-      fields,
+    const exact = this.exactDowns(round, exchange, fields);
+    const replicated: Fields = {};
+    for (const [name, v] of Object.entries(fields)) if (!exact.has(name)) replicated[name] = v;
+    const encoded = this.downlinks[clientId].encode(
+      replicated,
       downlinkRngFor(this.plan.scenario.seed, clientId, round, exchange),
     );
+    // In the broadcast's field order, as the encoder gives them.
+    const out: EncodedFields = {};
+    for (const name of Object.keys(fields)) out[name] = exact.get(name) ?? encoded[name];
+    return out;
+  }
+
+  /**
+   * The fields an exact downlink (compressor 'none' at f64) carries as they are, encoded once
+   * for every client of the exchange: such a field keeps no replica and its message does not
+   * depend on the client, so one vector serves all of them (read only: a receiver decodes it
+   * into arrays of its own). Kept for the broadcast `fields` of one round and exchange.
+   */
+  private exactDowns(
+    round: number,
+    exchange: string,
+    fields: Fields,
+  ): ReadonlyMap<string, CompressedVector> {
+    const memo = this.exactMemo;
+    if (
+      memo !== null &&
+      memo.fields === fields &&
+      memo.round === round &&
+      memo.exchange === exchange
+    )
+      return memo.encoded;
+    const encoded = new Map<string, CompressedVector>();
+    for (const [name, v] of Object.entries(fields)) {
+      const spec = compressorForField(this.plan.scenario.compression.downlink, name);
+      if (downlinkMode(spec) === 'exact') encoded.set(name, compress(v, spec));
+    }
+    this.exactMemo = { fields, round, exchange, encoded };
+    return encoded;
   }
 
   /**
