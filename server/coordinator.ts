@@ -135,7 +135,8 @@ export class Coordinator {
   private readonly shapes: FieldShapes;
   /** the largest state message of this plan (a resumed run sends one per client after the welcome) */
   private readonly stateFrameBytesMax: number;
-  private readonly oracle: OraclePool;
+  /** made once the workers are welcomed (run): its copy of the data overlaps their building theirs */
+  private oracle: OraclePool | null = null;
   private readonly registry: WorkerRegistry;
   private readonly ledger = new ByteLedger();
   private readonly errors = new ProtocolErrorCounter();
@@ -189,7 +190,6 @@ export class Coordinator {
       workersMax: options.workersMax,
       maxClientsPerWorker: options.maxClientsPerWorker,
     });
-    this.oracle = new OraclePool(plan, theory);
     const nowMs = () => performance.now();
     this.joinLimits = this.limitsFor(1);
     this.peerLog = new LogLimiter(options.log, CONNECTION_LIMITS.logIntervalSeconds, nowMs);
@@ -224,7 +224,7 @@ export class Coordinator {
       plan,
       registry: this.registry,
       ledger: this.ledger,
-      evaluate: (x, round) => this.oracle.evaluate(x, round),
+      evaluate: (x, round) => this.oracle!.evaluate(x, round),
       exchangeTimeoutSeconds: options.exchangeTimeoutSeconds,
       wallGraceSeconds: options.wallGraceSeconds,
       nowMs,
@@ -743,6 +743,8 @@ export class Coordinator {
     await this.waitForWorkers();
     const records = openRecords?.() ?? null;
     this.welcomeAll();
+    // The oracle thread gets its copy of the data while the workers build theirs.
+    this.oracle = new OraclePool(this.plan, this.theory);
     this.options.view?.runStarted(
       this.plan,
       this.registry
@@ -818,6 +820,6 @@ export class Coordinator {
     this.graceTimers.clear();
     for (const session of this.sessions) session.terminate();
     await this.listener?.close();
-    await this.oracle.close();
+    await this.oracle?.close();
   }
 }

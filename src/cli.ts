@@ -24,7 +24,9 @@ import {
 import {
   COORDINATOR_WAIT_SECONDS_MAX,
   RECONNECT_WAIT_SECONDS_MAX,
+  readUrlLine,
   runWorkerCommand,
+  URL_FROM_STDIN,
   WORKER_CAPACITY_MAX,
   workerOptionsProblem,
   type WorkerCommandOptions,
@@ -259,7 +261,10 @@ function buildProgram(io: Io): Command {
   program
     .command('worker')
     .description('join a coordinator and host the clients it deals to this process')
-    .argument('<coordinator-url>', 'the coordinator, ws://HOST:PORT or wss://HOST:PORT')
+    .argument(
+      '<coordinator-url>',
+      'the coordinator, ws://HOST:PORT or wss://HOST:PORT; - reads it as one line from standard input (the way `run` starts its local workers before its coordinator listens)',
+    )
     .option(
       '--key-file <path>',
       'file holding the shared key, private to you (chmod 600), at least 16 bytes (default: the file ROUNDWIRE_KEY_FILE names)',
@@ -292,7 +297,18 @@ function buildProgram(io: Io): Command {
     .addOption(metricsOption)
     .addOption(metricsLingerOption)
     .addHelpText('after', exitCodesHelp)
-    .action(async (url: string, opts: WorkerCommandOptions) => {
+    .action(async (urlArgument: string, opts: WorkerCommandOptions) => {
+      let url = urlArgument;
+      if (url === URL_FROM_STDIN) {
+        try {
+          url = await readUrlLine(process.stdin);
+        } catch (error) {
+          throw new UsageError((error as Error).message);
+        } finally {
+          // Nothing more is read: a handle left open would keep the process from exiting.
+          process.stdin.destroy();
+        }
+      }
       const problem = workerOptionsProblem(url, opts, process.env);
       if (problem !== null) throw new UsageError(problem);
       const exit = await runWorkerCommand(url, opts, process.env, io.err);

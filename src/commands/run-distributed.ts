@@ -47,8 +47,9 @@ export const EMBEDDED_LIMITS = {
    */
   workerReconnectWaitSeconds: 10,
   /**
-   * a local worker starts once its coordinator listens, so a long join wait would only keep an
-   * orphan (its run killed before the join) alive
+   * a local worker is told its coordinator's URL once it listens (the wait for that line ends
+   * with the run: its standard input closes), so a long join wait would only keep an orphan (its
+   * run killed before the join) alive
    */
   workerCoordinatorWaitSeconds: 30,
 } as const;
@@ -161,6 +162,34 @@ export async function runDistributed(
   );
   let coordinator: Coordinator;
   let view: LiveView | null = null;
+  let interrupted: NodeJS.Signals | null = null;
+  let runEnded = false;
+  // The workers start first and are told the URL once the coordinator listens: Node's start and
+  // the loading of their code overlap the coordinator's preparation (the oracle's solve).
+  const workers: LocalWorker[] = [];
+  const capacity = Math.ceil(scenario.clients.count / workerCount);
+  for (let i = 0; i < workerCount; i++) {
+    const worker = new LocalWorker({
+      url: null,
+      keyFile: keyFile.path,
+      capacity,
+      workerName: `local-${i + 1}`,
+      coordinatorWaitSeconds: EMBEDDED_LIMITS.workerCoordinatorWaitSeconds,
+      reconnectWaitSeconds: EMBEDDED_LIMITS.workerReconnectWaitSeconds,
+    });
+    workers.push(worker);
+    io.err(`started worker local-${i + 1} (pid ${worker.child.pid})\n`);
+    void worker.exited.then((code) => {
+      // A worker that dies before the run is dealt would leave the join waiting for its timeout.
+      if (code !== 0 && interrupted === null && !runEnded)
+        io.err(
+          `worker local-${i + 1} exited with code ${code}\n${worker
+            .recentStderr()
+            .map((l) => `  ${l}`)
+            .join('\n')}\n`,
+        );
+    });
+  }
   try {
     view = await startLiveView(viewAddress, keyFile.key, scenario, io.err);
     coordinator = new Coordinator(scenario, {
@@ -170,13 +199,13 @@ export async function runDistributed(
       ...(view === null ? {} : { view }),
     });
   } catch (error) {
+    // Refused before it listens: the workers go without a word (the refusal says why).
+    runEnded = true;
+    await Promise.all(workers.map((w) => w.stop()));
     await view?.close();
     keyFile.remove();
     throw error;
   }
-  const workers: LocalWorker[] = [];
-  let interrupted: NodeJS.Signals | null = null;
-  let runEnded = false;
   let metricsServer: MetricsServer | null = null;
   let cutLinger: () => void = () => undefined;
   const killAll = (): void => workers.forEach((w) => w.killNow());
@@ -207,29 +236,7 @@ export async function runDistributed(
     }
     if (view !== null) io.err(view.listeningLine());
     const url = await coordinator.listen();
-    const capacity = Math.ceil(scenario.clients.count / workerCount);
-    for (let i = 0; i < workerCount; i++) {
-      const worker = new LocalWorker({
-        url,
-        keyFile: keyFile.path,
-        capacity,
-        workerName: `local-${i + 1}`,
-        coordinatorWaitSeconds: EMBEDDED_LIMITS.workerCoordinatorWaitSeconds,
-        reconnectWaitSeconds: EMBEDDED_LIMITS.workerReconnectWaitSeconds,
-      });
-      workers.push(worker);
-      io.err(`started worker local-${i + 1} (pid ${worker.child.pid})\n`);
-      void worker.exited.then((code) => {
-        // A worker that dies before the run is dealt would leave the join waiting for its timeout.
-        if (code !== 0 && interrupted === null && !runEnded)
-          io.err(
-            `worker local-${i + 1} exited with code ${code}\n${worker
-              .recentStderr()
-              .map((l) => `  ${l}`)
-              .join('\n')}\n`,
-          );
-      });
-    }
+    for (const worker of workers) worker.coordinatorAt(url);
     const outcome = await coordinator.run(() => files.records());
     files.close();
     runEnded = true;

@@ -77,6 +77,67 @@ export function coordinatorUrlProblem(text: string): string | null {
   return null;
 }
 
+/** The coordinator-url argument that means: read the URL as one line from standard input. */
+export const URL_FROM_STDIN = '-';
+
+/** Longest line read as a coordinator URL from standard input. */
+export const URL_LINE_BYTES_MAX = 2048;
+
+/** Longest wait for that line: a day, as for --coordinator-wait-seconds. */
+export const URL_LINE_WAIT_SECONDS_MAX = COORDINATOR_WAIT_SECONDS_MAX;
+
+/**
+ * The first line of `input` (the coordinator URL, for `roundwire worker -`), without its line
+ * end and surrounding blanks. Throws an Error naming the reason when the input ends before a
+ * line, the line is longer than URL_LINE_BYTES_MAX, or no line comes within `waitSeconds`.
+ */
+export function readUrlLine(
+  input: NodeJS.ReadableStream,
+  waitSeconds: number = URL_LINE_WAIT_SECONDS_MAX,
+): Promise<string> {
+  return new Promise((resolve, reject) => {
+    let text = '';
+    const finish = (error: Error | null, line?: string): void => {
+      clearTimeout(timer);
+      input.off('data', onData);
+      input.off('end', onEnd);
+      input.off('error', onError);
+      input.pause();
+      if (error === null) resolve(line!);
+      else reject(error);
+    };
+    const onData = (chunk: Buffer | string): void => {
+      text += chunk.toString();
+      const end = text.indexOf('\n');
+      if (end >= 0 && end <= URL_LINE_BYTES_MAX) finish(null, text.slice(0, end).trim());
+      else if (text.length > URL_LINE_BYTES_MAX)
+        finish(
+          new Error(
+            `coordinator-url: the line on standard input is longer than ${URL_LINE_BYTES_MAX} bytes`,
+          ),
+        );
+    };
+    const onEnd = (): void =>
+      text.trim() === ''
+        ? finish(
+            new Error(
+              'coordinator-url: "-" reads the URL from standard input, which ended before a line',
+            ),
+          )
+        : finish(null, text.trim());
+    const onError = (error: Error): void =>
+      finish(new Error(`coordinator-url: reading standard input failed (${error.message})`));
+    const timer = setTimeout(
+      () => finish(new Error(`coordinator-url: no line on standard input within ${waitSeconds} s`)),
+      waitSeconds * 1000,
+    );
+    timer.unref();
+    input.on('data', onData);
+    input.on('end', onEnd);
+    input.on('error', onError);
+  });
+}
+
 /** Returns a problem with the arguments (bad input), or null when they are usable. */
 export function workerOptionsProblem(
   url: string,
