@@ -294,7 +294,9 @@ export class RoundDriver implements RoundTransport<'async'> {
         onRound,
         ...(this.options.resume === undefined ? {} : { resumeAfter: this.options.resume }),
         checkpointEveryRounds: this.options.checkpointEveryRounds ?? 0,
-        overlapEvaluation: true,
+        // Virtual clock only: on the wall clock the evaluation would share the cores with the
+        // clients whose seconds are measured, and records would lag an exchange behind.
+        overlapEvaluation: this.plan.scenario.timing.clock === 'virtual',
       }),
       this,
     );

@@ -178,7 +178,6 @@ export async function runDistributed(
       reconnectWaitSeconds: EMBEDDED_LIMITS.workerReconnectWaitSeconds,
     });
     workers.push(worker);
-    io.err(`started worker local-${i + 1} (pid ${worker.child.pid})\n`);
     void worker.exited.then((code) => {
       // A worker that dies before the run is dealt would leave the join waiting for its timeout.
       if (code !== 0 && interrupted === null && !runEnded)
@@ -236,7 +235,10 @@ export async function runDistributed(
     }
     if (view !== null) io.err(view.listeningLine());
     const url = await coordinator.listen();
-    for (const worker of workers) worker.coordinatorAt(url);
+    workers.forEach((worker, i) => {
+      worker.coordinatorAt(url);
+      io.err(`started worker local-${i + 1} (pid ${worker.child.pid})\n`);
+    });
     const outcome = await coordinator.run(() => files.records());
     files.close();
     runEnded = true;
