@@ -98,6 +98,34 @@ describe('wire bytes = encoded bytes + RFC 6455 headers, from the sockets', () =
     checkFraming(records, summary);
   }, 60_000);
 
+  it('a round thrown away at the target: its frames crossed, so the totals hold them, the records do not', async () => {
+    // The coordinator overlaps round r's evaluation with round r + 1's first exchange (virtual
+    // clock) and throws that round away when the evaluation reaches the target (round-walk.ts).
+    const { records, summary } = await runAndRead('wire-target', [
+      'run.rounds:150',
+      'run.target:1e-3',
+    ]);
+    const outcome = summary as SummaryBytes & { stopReason: string; rounds: number };
+    expect(outcome.stopReason).toBe('target-reached');
+    const last = Math.max(...records.map((r) => r.round));
+    expect(last).toBe(outcome.rounds);
+    const recorded = { up: 0, down: 0 };
+    for (const r of records) {
+      recorded.up += r.bytes.wire!.up;
+      recorded.down += r.bytes.wire!.down;
+    }
+    // The thrown-away round's downs and ups (its first exchange) went over the sockets.
+    expect(summary.bytes.wire.down).toBeGreaterThan(recorded.down);
+    expect(summary.bytes.wire.up).toBeGreaterThan(recorded.up);
+    const { distributed } = summary;
+    expect(distributed.socketBytes.up).toBe(
+      summary.bytes.wire.up + distributed.controlBytes.wire.up,
+    );
+    expect(distributed.socketBytes.down).toBe(
+      summary.bytes.wire.down + distributed.controlBytes.wire.down,
+    );
+  }, 60_000);
+
   it('sparse top-k uplink messages', async () => {
     const { records, summary } = await runAndRead('wire-sparse', [
       'compression.uplink.default:{kind: top-k, fraction: 0.25}',
