@@ -3,20 +3,15 @@
 // an environment). They start before the coordinator has prepared the run (the oracle's solve
 // takes seconds on a large problem) and read its URL from their standard input once it listens
 // (`worker -`), so that starting Node and loading the code overlaps that work; a worker whose
-// parent is gone reads the end of its input and exits. They are stopped with the run whatever way it ends; a process exit hook kills
-// any still running.
+// parent is gone reads the end of its input and exits. They are stopped with the run whatever
+// way it ends; a process exit hook kills any still running.
 
 import { spawn, type ChildProcess } from 'node:child_process';
 import { existsSync } from 'node:fs';
 import { fileURLToPath } from 'node:url';
 
+/** A local worker; its coordinator's URL comes later, through coordinatorAt. */
 export interface LocalWorkerSpec {
-  /**
-   * the coordinator's URL; null: not known yet, given later through `coordinatorAt` on the
-   * worker's standard input (`roundwire worker -`), so that the process starts and loads its
-   * code while the coordinator prepares the run
-   */
-  url: string | null;
   /** the file holding the shared key, private to this user */
   keyFile: string;
   /** clients the worker offers to host */
@@ -58,7 +53,7 @@ export class LocalWorker {
       [
         binPath(),
         'worker',
-        spec.url ?? '-',
+        '-',
         '--key-file',
         spec.keyFile,
         '--capacity',
@@ -71,7 +66,7 @@ export class LocalWorker {
         String(spec.reconnectWaitSeconds),
       ],
       {
-        stdio: [spec.url === null ? 'pipe' : 'ignore', 'ignore', 'pipe'],
+        stdio: ['pipe', 'ignore', 'pipe'],
         // Its own process group: a Ctrl-C at the terminal reaches the run, which lets the round
         // in progress finish with its workers and takes a checkpoint before it stops them.
         detached: true,
@@ -98,10 +93,9 @@ export class LocalWorker {
     });
   }
 
-  /** Tells a worker started without its URL where the coordinator listens (once). */
+  /** Tells the worker where its coordinator listens, on its standard input (once). */
   coordinatorAt(url: string): void {
-    const stdin = this.child.stdin;
-    if (stdin === null) throw new Error('this worker was started with its coordinator URL');
+    const stdin = this.child.stdin!;
     // A worker that already exited closed its end: the write fails and its exit says why.
     stdin.on('error', () => undefined);
     stdin.end(`${url}\n`);

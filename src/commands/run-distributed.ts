@@ -170,7 +170,6 @@ export async function runDistributed(
   const capacity = Math.ceil(scenario.clients.count / workerCount);
   for (let i = 0; i < workerCount; i++) {
     const worker = new LocalWorker({
-      url: null,
       keyFile: keyFile.path,
       capacity,
       workerName: `local-${i + 1}`,

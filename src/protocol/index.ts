@@ -1,7 +1,8 @@
 // The protocol's public surface, for the coordinator (server/) and the worker (client/).
 //
-// Sending:   encodeMessage({ type: 'heartbeat', ... }) for a control message; a round frame from
-//            its pieces: assembleUpsFrame(round, exchangeIndex, entries.map(encodeUpEntry))
+// Sending:   encodeMessage({ type: 'heartbeat', ... }) for a control message; a round frame:
+//            writeUpsFrame(round, exchangeIndex, entries), or a downs frame from its pieces
+//            (encodeDownsPrefix, encodeDownEntry, assembleDownsFrame)
 // Receiving: const message = receiveMessage(frame, context)  // throws ProtocolError
 //            then fromWire(entry.fields.delta) for the typed arrays.
 
@@ -16,13 +17,11 @@ export {
 export { decodeMessage, encodeMessage, FrameElements, NESTING_DEPTH_MAX } from './codec.js';
 export {
   assembleDownsFrame,
-  assembleUpsFrame,
   downEntryBytes,
   downsFrameBytes,
   encodeDownEntry,
   encodeDownsPrefix,
   encodeRoundFrame,
-  encodeUpEntry,
   upEntryBytes,
   upsFrameBytes,
   vectorElementBytes,

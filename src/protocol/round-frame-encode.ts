@@ -138,23 +138,7 @@ export function assembleDownsFrame(
   return concatArray(DOWNS_HEADER_ELEMENTS + entries.length, [prefix.bytes, ...entries]);
 }
 
-/** One client's entry of an ups frame. */
-export function encodeUpEntry(entry: UpEntry): Uint8Array {
-  const fields =
-    entry.updateNotFinite === true
-      ? null
-      : fieldSlots(Object.keys(entry.fields)).map((name) => vectorElement(entry.fields[name]));
-  return encodeValue([
-    entry.clientId,
-    entry.localSteps,
-    entry.computeSeconds,
-    entry.waitSeconds,
-    entry.transferSeconds,
-    fields,
-  ]);
-}
-
-/** The length encodeUpEntry gives for this entry, its fields sized by vectorElementBytes. */
+/** The length of this entry in writeUpsFrame, its fields sized by vectorElementBytes. */
 export function upEntryBytes(
   entry: Omit<UpEntry, 'fields' | 'updateNotFinite'>,
   fields: Readonly<Record<string, CompressedVector>>,
@@ -174,7 +158,7 @@ export function upEntryBytes(
   );
 }
 
-/** The length assembleUpsFrame gives for entries of these lengths. */
+/** The length of writeUpsFrame's frame for entries of these lengths. */
 export function upsFrameBytes(
   round: number,
   exchangeIndex: number,
@@ -189,24 +173,14 @@ export function upsFrameBytes(
   return entryBytes.reduce((sum, n) => sum + n, header);
 }
 
-/** An ups frame from its encoded entries. */
-export function assembleUpsFrame(
-  round: number,
-  exchangeIndex: number,
-  entries: readonly Uint8Array[],
-): Uint8Array {
-  const header = [ROUND_FRAME_KINDS.ups, ROUND_FRAME_LAYOUT, round, exchangeIndex].map(encodeValue);
-  return concatArray(UPS_HEADER_ELEMENTS + entries.length, [...header, ...entries]);
-}
-
 // An ups frame written in one pass into one buffer. A worker's ups frame holds every hosted
 // client's update (4 MB for 500 clients at d = 1,000): encoding each entry on its own, copying it
 // out of the codec and then into the frame moved each vector three times and left a buffer per
 // client and per frame for the garbage collector. Here the small elements still go through the
 // codec (their forms are its own), and each vector's bytes are copied once, from the wire
 // vector into the frame, behind a bin header written as the MessagePack specification gives it
-// ("bin 8/16/32": marker, then the length big-endian in 1, 2 or 4 bytes). The bytes are those
-// of assembleUpsFrame over encodeUpEntry (tested).
+// ("bin 8/16/32": marker, then the length big-endian in 1, 2 or 4 bytes). The bytes are the
+// codec's own encoding of the frame as one positional array (tested).
 
 const BIN8 = 0xc4;
 const BIN16 = 0xc5;

@@ -9,13 +9,12 @@ import type { CompressedVector } from '../../src/compress/compressed-vector.js';
 import { ownDownFrameBytes, ownUpFrameBytes } from '../../src/engine/own-frame-bytes.js';
 import {
   assembleDownsFrame,
-  assembleUpsFrame,
   encodeDownEntry,
   encodeDownsPrefix,
   encodeRoundFrame,
-  encodeUpEntry,
   frameBytes,
   toWire,
+  writeUpsFrame,
 } from '../../src/protocol/index.js';
 
 const dense = (d: number): CompressedVector => ({
@@ -85,16 +84,18 @@ describe('own frame bytes', () => {
     };
     for (const [name, cv] of Object.entries(vectors)) {
       const fields = { [name]: cv };
-      const encoded = encodeUpEntry({
-        clientId: 300,
-        localSteps: 70_000,
-        computeSeconds: 0.5,
-        waitSeconds: 0.5,
-        transferSeconds: 0.5,
-        fields: { [name]: toWire(cv) },
-      });
+      const up = writeUpsFrame(1, 0, [
+        {
+          clientId: 300,
+          localSteps: 70_000,
+          computeSeconds: 0.5,
+          waitSeconds: 0.5,
+          transferSeconds: 0.5,
+          fields: { [name]: toWire(cv) },
+        },
+      ]);
       expect(ownUpFrameBytes(1, 0, 300, 70_000, fields), name).toBe(
-        frameBytes(assembleUpsFrame(1, 0, [encoded]).byteLength, true),
+        frameBytes(up.byteLength, true),
       );
       const prefix = encodeDownsPrefix(1, 0, 2.5, [name], {});
       const down = encodeDownEntry(

@@ -1,6 +1,6 @@
 // A worker's ups frame is written in one pass into one buffer (writeUpsFrame). Its bytes must be
-// those of the piecewise encoder (each entry encoded by the codec, then the frame assembled from
-// them), in every form a vector takes: dense f64 and f32, sparse with an index stream, values
+// the codec's own encoding of the frame as one positional array (round-frame-layout.ts), in every
+// form a vector takes: dense f64 and f32, sparse with an index stream, values
 // in bin 8, bin 16 and bin 32 (MessagePack specification, "bin 8/16/32": up to 255 bytes, up
 // to 65,535, beyond), several fields, and an entry that reports a non-finite update. Read back
 // by the coordinator's receive path, every vector comes back bit for bit, each an aligned view
@@ -8,11 +8,13 @@
 
 import { describe, expect, it } from 'vitest';
 import type { CompressedVector } from '../../src/compress/compressed-vector.js';
+import { encodeValue } from '../../src/protocol/codec.js';
 import {
-  assembleUpsFrame,
-  encodeUpEntry,
+  fieldSlots,
   fromWire,
   receiveMessage,
+  ROUND_FRAME_KINDS,
+  ROUND_FRAME_LAYOUT,
   toWire,
   writeUpsFrame,
   type UpEntry,
@@ -43,6 +45,29 @@ function entry(clientId: number, fields: Record<string, CompressedVector>): UpEn
   };
 }
 
+/** The frame as one positional array, encoded whole by the codec (msgpackr). */
+function codecUpsFrame(round: number, exchangeIndex: number, entries: readonly UpEntry[]) {
+  return encodeValue([
+    ROUND_FRAME_KINDS.ups,
+    ROUND_FRAME_LAYOUT,
+    round,
+    exchangeIndex,
+    ...entries.map((e) => [
+      e.clientId,
+      e.localSteps,
+      e.computeSeconds,
+      e.waitSeconds,
+      e.transferSeconds,
+      e.updateNotFinite === true
+        ? null
+        : fieldSlots(Object.keys(e.fields)).map((name) => {
+            const wv = e.fields[name];
+            return [wv.dim, wv.width, wv.count, wv.indices, wv.values];
+          }),
+    ]),
+  ]);
+}
+
 describe('writeUpsFrame', () => {
   // bin 8: 20 f64 = 160 bytes; bin 16: 1,000 f64 = 8,000 bytes; bin 32: 9,000 f64 = 72,000 bytes.
   const cases: [string, UpEntry[]][] = [
@@ -65,10 +90,10 @@ describe('writeUpsFrame', () => {
   ];
 
   for (const [name, entries] of cases) {
-    it(`writes the piecewise encoder's bytes: ${name}`, () => {
+    it(`writes the codec's bytes of the whole frame: ${name}`, () => {
       const written = writeUpsFrame(9, 0, entries);
-      const assembled = assembleUpsFrame(9, 0, entries.map(encodeUpEntry));
-      expect(Buffer.from(written).equals(Buffer.from(assembled))).toBe(true);
+      const encoded = codecUpsFrame(9, 0, entries);
+      expect(Buffer.from(written).equals(Buffer.from(encoded))).toBe(true);
       // A plain Uint8Array, which a WebSocket client masks in place instead of copying.
       expect(Buffer.isBuffer(written)).toBe(false);
     });
